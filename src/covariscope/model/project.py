@@ -1,0 +1,468 @@
+"""The project file: diagram, data file reference and analysis settings.
+
+Schema (``"format": "covariscope-project"``, ``"version": 1``)::
+
+    {"format": "covariscope-project", "version": 1,
+     "diagram": {"nodes": [{"id", "label", "kind", "measured", "column", "x", "y", "note"}],
+                 "arrows": [{"from", "to"}], "proxies": [{"a", "b"}]},
+     "data": {"path": "<relative to the project file>", "sha256": "<hex>"},
+     "analysis": {"family": "linear", "proposed": [ids],
+                  "thresholds": {"change_pct", "se_inflation_pct", "vif", "r2", "condition_index"},
+                  "column_types": {column: type}, "reference_levels": {column: level},
+                  "family_columns": {family: {"outcome"|"time"|"event"|"offset": column}},
+                  "keep_choices": {"a|b": member}}}
+
+``data`` and ``analysis`` are optional.  Loading validates everything and
+reports every problem with where it is; saving is atomic.
+"""
+
+from __future__ import annotations
+
+import contextlib
+import json
+import os
+import tempfile
+from collections.abc import Callable
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+from covariscope.model.diagram import KINDS, Diagram, Node
+from covariscope.model.errors import CovariscopeError, DiagramError, ProjectFileError
+
+__all__ = [
+    "DEFAULT_THRESHOLDS",
+    "FORMAT",
+    "FORMAT_VERSION",
+    "AnalysisSettings",
+    "DataRef",
+    "Project",
+    "ProjectEvent",
+    "load_project",
+    "project_from_dict",
+    "project_to_dict",
+    "save_project",
+]
+
+FORMAT = "covariscope-project"
+FORMAT_VERSION = 1
+FAMILY_NAMES = ("linear", "logistic", "risk_ratio", "cox")
+COLUMN_ROLES = ("outcome", "time", "event", "offset")
+
+#: Guides, not rules (common practice; editable per project).
+DEFAULT_THRESHOLDS: dict[str, float] = {
+    "change_pct": 10.0,
+    "se_inflation_pct": 20.0,
+    "vif": 10.0,
+    "r2": 0.9,
+    "condition_index": 30.0,
+}
+
+
+@dataclass(frozen=True)
+class DataRef:
+    """The study data file: path as stored (relative to the project file
+    where possible) and the SHA-256 recorded when it was bound."""
+
+    path: str
+    sha256: str | None = None
+
+    def resolve(self, project_path: Path | None) -> Path:
+        p = Path(self.path)
+        if p.is_absolute() or project_path is None:
+            return p
+        return (project_path.parent / p).resolve()
+
+
+@dataclass
+class AnalysisSettings:
+    family: str = "linear"
+    proposed: list[str] = field(default_factory=list)
+    thresholds: dict[str, float] = field(default_factory=lambda: dict(DEFAULT_THRESHOLDS))
+    column_types: dict[str, str] = field(default_factory=dict)
+    reference_levels: dict[str, Any] = field(default_factory=dict)
+    family_columns: dict[str, dict[str, str]] = field(default_factory=dict)
+    keep_choices: dict[str, str] = field(default_factory=dict)
+
+
+@dataclass(frozen=True)
+class ProjectEvent:
+    """A change to the project outside the diagram: ``proposed``, ``settings``
+    or ``data``."""
+
+    kind: str
+
+
+class Project:
+    """A diagram with its data reference and analysis settings."""
+
+    def __init__(
+        self,
+        diagram: Diagram | None = None,
+        data: DataRef | None = None,
+        analysis: AnalysisSettings | None = None,
+        path: Path | None = None,
+    ) -> None:
+        self.diagram = diagram if diagram is not None else Diagram()
+        self.data = data
+        self.analysis = analysis if analysis is not None else AnalysisSettings()
+        self.path = path
+        self._listeners: list[Callable[[ProjectEvent], None]] = []
+
+    def subscribe(self, listener: Callable[[ProjectEvent], None]) -> None:
+        self._listeners.append(listener)
+
+    def unsubscribe(self, listener: Callable[[ProjectEvent], None]) -> None:
+        if listener in self._listeners:
+            self._listeners.remove(listener)
+
+    def _emit(self, kind: str) -> None:
+        for listener in list(self._listeners):
+            listener(ProjectEvent(kind))
+
+    @property
+    def proposed(self) -> list[str]:
+        return list(self.analysis.proposed)
+
+    def set_proposed(self, ids: list[str]) -> None:
+        for node_id in ids:
+            node = self.diagram.node(node_id)
+            if node.kind != "covariate":
+                raise DiagramError(
+                    f'"{node_id}" is the {node.kind}; only covariates go in the adjustment set.'
+                )
+        ordered = list(dict.fromkeys(ids))
+        if ordered != self.analysis.proposed:
+            self.analysis.proposed = ordered
+            self._emit("proposed")
+
+    def update_settings(self, **changes: Any) -> None:
+        for key, value in changes.items():
+            if not hasattr(self.analysis, key) or key == "proposed":
+                raise CovariscopeError(f"Unknown analysis setting {key!r}.")
+            if key == "family" and value not in FAMILY_NAMES:
+                raise CovariscopeError(
+                    f'"{value}" is not a model family; use one of {", ".join(FAMILY_NAMES)}.'
+                )
+            setattr(self.analysis, key, value)
+        if changes:
+            self._emit("settings")
+
+    def set_data(self, data: DataRef | None) -> None:
+        self.data = data
+        self._emit("data")
+
+    def data_path(self) -> Path | None:
+        return self.data.resolve(self.path) if self.data else None
+
+    def columns_for(self, family: str | None = None) -> dict[str, str]:
+        """The columns a family reads beyond the nodes' own: outcome override,
+        time, event, offset."""
+        return dict(self.analysis.family_columns.get(family or self.analysis.family, {}))
+
+
+# -- reading -----------------------------------------------------------------------
+
+
+class _Problems:
+    def __init__(self) -> None:
+        self.items: list[str] = []
+
+    def add(self, where: str, what: str) -> None:
+        self.items.append(f"{where}: {what}")
+
+
+def _type_name(value: Any) -> str:
+    return {
+        bool: "true/false",
+        int: "a number",
+        float: "a number",
+        str: "text",
+        list: "a list",
+        dict: "an object",
+        type(None): "null",
+    }.get(type(value), type(value).__name__)
+
+
+def _expect(problems: _Problems, where: str, value: Any, kinds: tuple[type, ...], wanted: str) -> bool:
+    if isinstance(value, bool) and bool not in kinds:
+        problems.add(where, f"expected {wanted}, found {_type_name(value)}")
+        return False
+    if not isinstance(value, kinds):
+        problems.add(where, f"expected {wanted}, found {_type_name(value)}")
+        return False
+    return True
+
+
+def project_from_dict(data: Any, path: Path | None = None) -> Project:
+    """Build a project from its JSON form, or raise ProjectFileError listing
+    every problem with where it is."""
+    problems = _Problems()
+    if not isinstance(data, dict):
+        raise ProjectFileError(
+            "This is not a Covariscope project: the file must hold a JSON object.",
+        )
+    if data.get("format") != FORMAT:
+        raise ProjectFileError(
+            f'This is not a Covariscope project: "format" must be "{FORMAT}".',
+        )
+    version = data.get("version")
+    if not isinstance(version, int) or isinstance(version, bool):
+        raise ProjectFileError('version: expected a whole number such as 1.')
+    if version > FORMAT_VERSION:
+        raise ProjectFileError(
+            f"This project was saved by a newer Covariscope (file format version {version}; "
+            f"this program reads up to version {FORMAT_VERSION}). Update Covariscope to open it."
+        )
+    if version < 1:
+        raise ProjectFileError(f"version: {version} is not a valid file format version.")
+
+    diagram = Diagram()
+    raw_diagram = data.get("diagram")
+    if not isinstance(raw_diagram, dict):
+        problems.add("diagram", "missing or not an object")
+        raw_diagram = {}
+    _read_nodes(raw_diagram.get("nodes", []), diagram, problems)
+    _read_links(raw_diagram.get("arrows", []), "arrows", ("from", "to"), diagram, problems)
+    _read_links(raw_diagram.get("proxies", []), "proxies", ("a", "b"), diagram, problems)
+
+    data_ref = None
+    if data.get("data") is not None:
+        data_ref = _read_data_ref(data["data"], problems)
+    analysis = _read_analysis(data.get("analysis", {}), diagram, problems)
+
+    if problems.items:
+        raise ProjectFileError(
+            "The project file has problems:\n" + "\n".join(f"  - {p}" for p in problems.items),
+            problems.items,
+        )
+    return Project(diagram, data_ref, analysis, path)
+
+
+def _read_nodes(raw: Any, diagram: Diagram, problems: _Problems) -> None:
+    if not _expect(problems, "diagram.nodes", raw, (list,), "a list of nodes"):
+        return
+    for i, item in enumerate(raw):
+        where = f"diagram.nodes[{i}]"
+        if not _expect(problems, where, item, (dict,), "an object"):
+            continue
+        node_id = item.get("id")
+        if not _expect(problems, f"{where}.id", node_id, (str,), "text"):
+            continue
+        ok = True
+        kwargs: dict[str, Any] = {"id": node_id}
+        specs: list[tuple[str, tuple[type, ...], str]] = [
+            ("label", (str,), "text"),
+            ("kind", (str,), "text"),
+            ("measured", (bool,), "true or false"),
+            ("x", (int, float), "a number"),
+            ("y", (int, float), "a number"),
+            ("note", (str,), "text"),
+        ]
+        for key, kinds, wanted in specs:
+            if key in item:
+                ok &= _expect(problems, f"{where}.{key}", item[key], kinds, wanted)
+                kwargs[key] = item[key]
+        if item.get("column") is not None:
+            ok &= _expect(problems, f"{where}.column", item["column"], (str,), "text or null")
+            kwargs["column"] = item["column"]
+        if ok and kwargs.get("kind", "covariate") not in KINDS:
+            problems.add(f"{where}.kind", f'"{kwargs["kind"]}" is not one of {", ".join(KINDS)}')
+            ok = False
+        if not ok:
+            continue
+        for key in ("x", "y"):
+            if key in kwargs:
+                kwargs[key] = float(kwargs[key])
+        try:
+            diagram.add_node(Node(**kwargs))
+        except DiagramError as exc:
+            problems.add(where, str(exc))
+
+
+def _read_links(
+    raw: Any, name: str, keys: tuple[str, str], diagram: Diagram, problems: _Problems
+) -> None:
+    if not _expect(problems, f"diagram.{name}", raw, (list,), "a list"):
+        return
+    for i, item in enumerate(raw):
+        where = f"diagram.{name}[{i}]"
+        if not _expect(problems, where, item, (dict,), "an object"):
+            continue
+        ends = []
+        for key in keys:
+            value = item.get(key)
+            if not _expect(problems, f"{where}.{key}", value, (str,), "a node id"):
+                break
+            if value not in diagram:
+                problems.add(f"{where}.{key}", f'unknown node "{value}"')
+                break
+            ends.append(value)
+        if len(ends) != 2:
+            continue
+        try:
+            if name == "arrows":
+                diagram.add_arrow(ends[0], ends[1])
+            else:
+                diagram.add_proxy(ends[0], ends[1])
+        except DiagramError as exc:
+            problems.add(where, str(exc))
+
+
+def _read_data_ref(raw: Any, problems: _Problems) -> DataRef | None:
+    if not _expect(problems, "data", raw, (dict,), "an object"):
+        return None
+    path = raw.get("path")
+    if not _expect(problems, "data.path", path, (str,), "text"):
+        return None
+    sha = raw.get("sha256")
+    if sha is not None and not _expect(problems, "data.sha256", sha, (str,), "text"):
+        sha = None
+    return DataRef(path, sha)
+
+
+def _read_analysis(raw: Any, diagram: Diagram, problems: _Problems) -> AnalysisSettings:
+    settings = AnalysisSettings()
+    if raw is None:
+        return settings
+    if not _expect(problems, "analysis", raw, (dict,), "an object"):
+        return settings
+    family = raw.get("family", "linear")
+    if _expect(problems, "analysis.family", family, (str,), "text"):
+        if family in FAMILY_NAMES:
+            settings.family = family
+        else:
+            problems.add("analysis.family", f'"{family}" is not one of {", ".join(FAMILY_NAMES)}')
+    proposed = raw.get("proposed", [])
+    if _expect(problems, "analysis.proposed", proposed, (list,), "a list of node ids"):
+        for i, node_id in enumerate(proposed):
+            where = f"analysis.proposed[{i}]"
+            if not _expect(problems, where, node_id, (str,), "a node id"):
+                continue
+            if node_id not in diagram:
+                problems.add(where, f'unknown node "{node_id}"')
+            elif diagram.node(node_id).kind != "covariate":
+                problems.add(where, f'"{node_id}" is the {diagram.node(node_id).kind}, not a covariate')
+            else:
+                settings.proposed.append(node_id)
+    thresholds = raw.get("thresholds", {})
+    if _expect(problems, "analysis.thresholds", thresholds, (dict,), "an object"):
+        for key, value in thresholds.items():
+            where = f"analysis.thresholds.{key}"
+            if key not in DEFAULT_THRESHOLDS:
+                problems.add(where, f"unknown threshold; known: {', '.join(DEFAULT_THRESHOLDS)}")
+            elif _expect(problems, where, value, (int, float), "a number"):
+                if value <= 0:
+                    problems.add(where, "must be positive")
+                else:
+                    settings.thresholds[key] = float(value)
+    for key in ("column_types", "reference_levels", "keep_choices"):
+        value = raw.get(key, {})
+        if _expect(problems, f"analysis.{key}", value, (dict,), "an object"):
+            for k, v in value.items():
+                wanted: tuple[type, ...] = (str, int, float) if key == "reference_levels" else (str,)
+                if _expect(problems, f"analysis.{key}.{k}", v, wanted, "text"):
+                    getattr(settings, key)[k] = v
+    family_columns = raw.get("family_columns", {})
+    if _expect(problems, "analysis.family_columns", family_columns, (dict,), "an object"):
+        for fam, cols in family_columns.items():
+            where = f"analysis.family_columns.{fam}"
+            if fam not in FAMILY_NAMES:
+                problems.add(where, f"unknown family; use one of {', '.join(FAMILY_NAMES)}")
+                continue
+            if not _expect(problems, where, cols, (dict,), "an object"):
+                continue
+            clean: dict[str, str] = {}
+            for role, col in cols.items():
+                if role not in COLUMN_ROLES:
+                    problems.add(f"{where}.{role}", f"unknown; use one of {', '.join(COLUMN_ROLES)}")
+                elif _expect(problems, f"{where}.{role}", col, (str,), "a column name"):
+                    clean[role] = col
+            settings.family_columns[fam] = clean
+    return settings
+
+
+def load_project(path: str | os.PathLike[str]) -> Project:
+    """Read and validate a project file."""
+    path = Path(path)
+    try:
+        text = path.read_text(encoding="utf-8")
+    except FileNotFoundError:
+        raise ProjectFileError(f"{path}: no such file.") from None
+    except (OSError, UnicodeDecodeError) as exc:
+        raise ProjectFileError(f"{path}: cannot be read ({exc}).") from None
+    try:
+        data = json.loads(text)
+    except json.JSONDecodeError as exc:
+        raise ProjectFileError(
+            f"{path.name}: not valid JSON at line {exc.lineno}, column {exc.colno} ({exc.msg}); "
+            "the file may be truncated or edited by hand."
+        ) from None
+    try:
+        return project_from_dict(data, path.resolve())
+    except ProjectFileError as exc:
+        raise ProjectFileError(f"{path.name}: {exc}", exc.problems) from None
+
+
+# -- writing -----------------------------------------------------------------------
+
+
+def project_to_dict(project: Project) -> dict[str, Any]:
+    out: dict[str, Any] = {
+        "format": FORMAT,
+        "version": FORMAT_VERSION,
+        "diagram": project.diagram.to_dict(),
+    }
+    if project.data is not None:
+        out["data"] = {"path": project.data.path, "sha256": project.data.sha256}
+    a = project.analysis
+    out["analysis"] = {
+        "family": a.family,
+        "proposed": list(a.proposed),
+        "thresholds": dict(a.thresholds),
+        "column_types": dict(a.column_types),
+        "reference_levels": dict(a.reference_levels),
+        "family_columns": {k: dict(v) for k, v in a.family_columns.items()},
+        "keep_choices": dict(a.keep_choices),
+    }
+    return out
+
+
+def write_atomically(path: Path, text: str) -> None:
+    """Write a temporary file beside ``path`` and replace it in one step, so
+    a crash never leaves a half-written file."""
+    path = Path(path)
+    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=path.parent)
+    try:
+        with os.fdopen(fd, "w", encoding="utf-8") as handle:
+            handle.write(text)
+            handle.flush()
+            os.fsync(handle.fileno())
+        os.replace(tmp, path)
+    except BaseException:
+        with contextlib.suppress(OSError):
+            os.unlink(tmp)
+        raise
+
+
+def save_project(project: Project, path: str | os.PathLike[str] | None = None) -> Path:
+    """Save atomically; the data path is stored relative to the project file
+    where possible.  Returns the path written."""
+    target = Path(path) if path is not None else project.path
+    if target is None:
+        raise ProjectFileError("The project has no file name yet; choose where to save it.")
+    target = target.resolve()
+    if project.data is not None:
+        old_abs = project.data.resolve(project.path)
+        try:
+            rel = os.path.relpath(old_abs, target.parent)
+        except ValueError:  # another drive on Windows
+            rel = str(old_abs)
+        project.data = DataRef(Path(rel).as_posix(), project.data.sha256)
+    text = json.dumps(project_to_dict(project), indent=2, ensure_ascii=False) + "\n"
+    try:
+        write_atomically(target, text)
+    except OSError as exc:
+        raise ProjectFileError(f"Could not save {target}: {exc.strerror or exc}.") from None
+    project.path = target
+    return target

@@ -1,0 +1,1 @@
+"""Covariscope qt layer."""

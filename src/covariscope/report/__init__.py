@@ -1,0 +1,1 @@
+"""Covariscope report layer."""
