@@ -221,7 +221,9 @@ class SetKind(Command):
 
     def __init__(self, project: Project, node_id: str, kind: str) -> None:
         self.project, self.node_id, self.kind = project, node_id, kind
-        self.text = f"Make {node_id} the {kind}" if kind != "covariate" else f"Make {node_id} a covariate"
+        self.text = (
+            f"Make {node_id} the {kind}" if kind != "covariate" else f"Make {node_id} a covariate"
+        )
         self._done: list[Command] = []
 
     def redo(self) -> None:
@@ -235,7 +237,9 @@ class SetKind(Command):
             ]
             if self.node_id in self.project.proposed:
                 steps.append(
-                    SetProposed(self.project, [p for p in self.project.proposed if p != self.node_id])
+                    SetProposed(
+                        self.project, [p for p in self.project.proposed if p != self.node_id]
+                    )
                 )
         steps.append(UpdateNode(self.project, self.node_id, kind=self.kind))
         self._done = []
@@ -305,4 +309,3 @@ class History:
         command.redo()
         self._done.append(command)
         return True
-

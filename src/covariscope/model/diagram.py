@@ -179,7 +179,8 @@ class Diagram:
                 "(exactly one exposure and one outcome are needed for analysis)."
             )
         exposure, outcome = self.exposure, self.outcome
-        assert exposure is not None and outcome is not None
+        assert exposure is not None
+        assert outcome is not None
         return exposure.id, outcome.id
 
     def fresh_id(self, stem: str = "node") -> str:
@@ -256,9 +257,7 @@ class Diagram:
         (the edit command removes those first, so that undo is exact)."""
         self.node(node_id)
         if self.arrows_of(node_id) or self.proxies_of(node_id):
-            raise DiagramError(
-                f'"{node_id}" still has arrows or proxy links; remove them first.'
-            )
+            raise DiagramError(f'"{node_id}" still has arrows or proxy links; remove them first.')
         del self._nodes[node_id]
         self._emit(DiagramEvent("node_removed", node=node_id))
 
@@ -308,7 +307,7 @@ class Diagram:
         if cause == effect:
             raise DiagramError(f'An arrow from "{cause}" to itself is not allowed.')
         if (cause, effect) in self._arrows:
-            raise DiagramError(f'The arrow {cause} → {effect} is already in the diagram.')
+            raise DiagramError(f"The arrow {cause} → {effect} is already in the diagram.")
         cycle = self._cycle_with([*self._arrows, (cause, effect)], self._proxies)
         if cycle:
             cycle = _rotate_to(cycle, cause)
@@ -414,9 +413,7 @@ def _rotate_to(cycle: list[str], start: str) -> list[str]:
     return cycle
 
 
-def _measure_groups(
-    nodes: dict[str, Node], proxies: Iterable[tuple[str, str]]
-) -> list[set[str]]:
+def _measure_groups(nodes: dict[str, Node], proxies: Iterable[tuple[str, str]]) -> list[set[str]]:
     """Connected components of proxy links between covariates."""
     graph = nx.Graph()
     for a, b in proxies:

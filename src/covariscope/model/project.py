@@ -184,7 +184,9 @@ def _type_name(value: Any) -> str:
     }.get(type(value), type(value).__name__)
 
 
-def _expect(problems: _Problems, where: str, value: Any, kinds: tuple[type, ...], wanted: str) -> bool:
+def _expect(
+    problems: _Problems, where: str, value: Any, kinds: tuple[type, ...], wanted: str
+) -> bool:
     if isinstance(value, bool) and bool not in kinds:
         problems.add(where, f"expected {wanted}, found {_type_name(value)}")
         return False
@@ -208,7 +210,7 @@ def project_from_dict(data: Any, path: Path | None = None) -> Project:
         )
     version = data.get("version")
     if not isinstance(version, int) or isinstance(version, bool):
-        raise ProjectFileError('version: expected a whole number such as 1.')
+        raise ProjectFileError("version: expected a whole number such as 1.")
     if version > FORMAT_VERSION:
         raise ProjectFileError(
             f"This project was saved by a newer Covariscope (file format version {version}; "
@@ -342,7 +344,9 @@ def _read_analysis(raw: Any, diagram: Diagram, problems: _Problems) -> AnalysisS
             if node_id not in diagram:
                 problems.add(where, f'unknown node "{node_id}"')
             elif diagram.node(node_id).kind != "covariate":
-                problems.add(where, f'"{node_id}" is the {diagram.node(node_id).kind}, not a covariate')
+                problems.add(
+                    where, f'"{node_id}" is the {diagram.node(node_id).kind}, not a covariate'
+                )
             else:
                 settings.proposed.append(node_id)
     thresholds = raw.get("thresholds", {})
@@ -360,7 +364,9 @@ def _read_analysis(raw: Any, diagram: Diagram, problems: _Problems) -> AnalysisS
         value = raw.get(key, {})
         if _expect(problems, f"analysis.{key}", value, (dict,), "an object"):
             for k, v in value.items():
-                wanted: tuple[type, ...] = (str, int, float) if key == "reference_levels" else (str,)
+                wanted: tuple[type, ...] = (
+                    (str, int, float) if key == "reference_levels" else (str,)
+                )
                 if _expect(problems, f"analysis.{key}.{k}", v, wanted, "text"):
                     getattr(settings, key)[k] = v
     family_columns = raw.get("family_columns", {})
@@ -375,7 +381,9 @@ def _read_analysis(raw: Any, diagram: Diagram, problems: _Problems) -> AnalysisS
             clean: dict[str, str] = {}
             for role, col in cols.items():
                 if role not in COLUMN_ROLES:
-                    problems.add(f"{where}.{role}", f"unknown; use one of {', '.join(COLUMN_ROLES)}")
+                    problems.add(
+                        f"{where}.{role}", f"unknown; use one of {', '.join(COLUMN_ROLES)}"
+                    )
                 elif _expect(problems, f"{where}.{role}", col, (str,), "a column name"):
                     clean[role] = col
             settings.family_columns[fam] = clean

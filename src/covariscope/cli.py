@@ -1,0 +1,229 @@
+"""Command line: ``gui`` (the default), ``check``, ``report`` and ``demo``.
+
+Every user problem ends in one line on standard error that says what and
+where, and exit status 2; no traceback is ever shown.  An unexpected failure
+is written to a log file and summarised in one line (exit status 1).
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import os
+import shutil
+import sys
+import tempfile
+import traceback
+from collections.abc import Sequence
+from importlib import resources
+from pathlib import Path
+from typing import Any
+
+from covariscope import __version__
+from covariscope.model.errors import CovariscopeError
+
+__all__ = ["demo_folder", "has_display", "main", "one_line", "write_demo"]
+
+COMMANDS = ("gui", "check", "report", "demo")
+DEMO_PROJECT = "demo_project.json"
+DEMO_DATA = "demo_cohort.csv"
+
+CAUTION = (
+    "The diagram holds assumptions the data cannot fully test; thresholds are guides. "
+    "Covariscope supports your judgment and the study's analysis plan; it does not replace them."
+)
+
+
+def _parser() -> argparse.ArgumentParser:
+    parser = argparse.ArgumentParser(
+        prog="covariscope",
+        description="Decide, covariate by covariate, what to adjust for and why.",
+        epilog="Run 'covariscope PROJECT' to open a project in the window.",
+    )
+    parser.add_argument("--version", action="version", version=f"covariscope {__version__}")
+    sub = parser.add_subparsers(dest="command")
+
+    gui = sub.add_parser("gui", help="open the window (the default command)")
+    gui.add_argument("project", nargs="?", help="project file to open")
+
+    check = sub.add_parser("check", help="analyse a project and print the review")
+    check.add_argument("project", help="project file (.json)")
+    check.add_argument("--json", action="store_true", help="print the machine-readable result")
+    check.add_argument("--data", help="data file to use instead of the one the project names")
+    check.add_argument(
+        "--family", choices=("linear", "logistic", "risk_ratio", "cox"), help="model family"
+    )
+
+    report = sub.add_parser("report", help="write the one-page adjustment rationale as PDF")
+    report.add_argument("project", help="project file (.json)")
+    report.add_argument("-o", "--output", required=True, help="PDF file to write")
+    report.add_argument("--page", choices=("a4", "letter"), default="a4", help="paper size")
+    report.add_argument("--data", help="data file to use instead of the one the project names")
+    report.add_argument(
+        "--family", choices=("linear", "logistic", "risk_ratio", "cox"), help="model family"
+    )
+
+    demo = sub.add_parser("demo", help="write the invented demo study to a folder and open it")
+    demo.add_argument("folder", nargs="?", help="where to write it (default: your documents)")
+    demo.add_argument(
+        "--no-window", action="store_true", help="do not open the window; print the review"
+    )
+    return parser
+
+
+# -- helpers -------------------------------------------------------------------------
+
+
+def one_line(message: str) -> str:
+    """A multi-line message (a list of problems) folded into one line."""
+    lines = [line.strip().lstrip("-").strip() for line in message.splitlines()]
+    lines = [line for line in lines if line]
+    if not lines:
+        return ""
+    head, rest = lines[0], lines[1:]
+    return head + (" " + "; ".join(rest) if rest else "")
+
+
+def has_display() -> bool:
+    """Whether a window can be shown here."""
+    platform = os.environ.get("QT_QPA_PLATFORM", "")
+    if platform.startswith(("offscreen", "minimal")):
+        return False
+    if sys.platform.startswith("linux"):
+        return bool(os.environ.get("DISPLAY") or os.environ.get("WAYLAND_DISPLAY"))
+    return True
+
+
+def demo_folder() -> Path:
+    """The default folder for the demo: the user's documents, else home."""
+    home = Path.home()
+    documents = os.environ.get("XDG_DOCUMENTS_DIR")
+    base = Path(documents) if documents else home / "Documents"
+    if not base.is_dir():
+        base = home
+    return base / "Covariscope demo"
+
+
+def write_demo(folder: Path) -> Path:
+    """Copy the demo project and data into ``folder``; an existing demo
+    project there is kept, so the user's edits to it are never overwritten."""
+    folder.mkdir(parents=True, exist_ok=True)
+    package = resources.files("covariscope") / "demo"
+    target = folder / DEMO_PROJECT
+    for name in (DEMO_DATA, DEMO_PROJECT):
+        destination = folder / name
+        if destination.exists():
+            continue
+        with resources.as_file(package / name) as source:
+            shutil.copyfile(source, destination)
+    return target
+
+
+def _load(project_path: str, data: str | None) -> tuple[Any, Any]:
+    from covariscope.data.loading import load_table
+    from covariscope.model.project import load_project
+
+    project = load_project(project_path)
+    table = load_table(data) if data else None
+    return project, table
+
+
+def _run(project_path: str, data: str | None, family: str | None) -> tuple[Any, Any]:
+    from covariscope.study import run_study
+
+    project, table = _load(project_path, data)
+    result = run_study(project, table=table, family=family)
+    return project, result
+
+
+# -- commands ------------------------------------------------------------------------
+
+
+def _cmd_check(args: argparse.Namespace) -> int:
+    from covariscope.study import format_study_text, study_to_json
+
+    _, result = _run(args.project, args.data, args.family)
+    if args.json:
+        json.dump(study_to_json(result), sys.stdout, indent=2, allow_nan=False)
+        sys.stdout.write("\n")
+    else:
+        sys.stdout.write(format_study_text(result))
+        if not format_study_text(result).endswith("\n"):
+            sys.stdout.write("\n")
+    return 0
+
+
+def _cmd_report(args: argparse.Namespace) -> int:
+    from covariscope.report.painter import write_pdf
+
+    project, result = _run(args.project, args.data, args.family)
+    path = write_pdf(result, project, Path(args.output), page=args.page)
+    print(f"Wrote the adjustment rationale to {path}")
+    return 0
+
+
+def _cmd_gui(project: str | None, *, demo: bool = False) -> int:
+    from covariscope.qt.app import run_gui
+
+    return run_gui(project, demo=demo)
+
+
+def _cmd_demo(args: argparse.Namespace) -> int:
+    folder = Path(args.folder).expanduser() if args.folder else demo_folder()
+    project_path = write_demo(folder)
+    print(f"Demo study written to {folder}")
+    if not args.no_window and has_display():
+        return _cmd_gui(str(project_path), demo=True)
+    if not args.no_window:
+        print("No display was found, so the window cannot open here; writing the review instead.")
+    from covariscope.study import format_study_text
+
+    project, result = _run(str(project_path), None, None)
+    print(format_study_text(result))
+    try:
+        from covariscope.report.painter import write_pdf
+
+        pdf = write_pdf(result, project, folder / "demo_rationale.pdf")
+        print(f"Wrote the adjustment rationale to {pdf}")
+    except CovariscopeError as exc:
+        print(f"The rationale could not be written: {exc}", file=sys.stderr)
+    return 0
+
+
+def main(argv: Sequence[str] | None = None) -> int:
+    args_list = list(sys.argv[1:] if argv is None else argv)
+    if args_list and args_list[0] not in COMMANDS and not args_list[0].startswith("-"):
+        args_list = ["gui", *args_list]
+    parser = _parser()
+    args = parser.parse_args(args_list)
+    try:
+        if args.command == "check":
+            return _cmd_check(args)
+        if args.command == "report":
+            return _cmd_report(args)
+        if args.command == "demo":
+            return _cmd_demo(args)
+        return _cmd_gui(getattr(args, "project", None))
+    except CovariscopeError as exc:
+        print(f"covariscope: {one_line(str(exc))}", file=sys.stderr)
+        return 2
+    except KeyboardInterrupt:
+        print("covariscope: interrupted", file=sys.stderr)
+        return 130
+    except Exception as exc:  # the user never sees a traceback
+        log = Path(tempfile.gettempdir()) / "covariscope-error.log"
+        try:
+            log.write_text(traceback.format_exc(), encoding="utf-8")
+            where = f"; details are in {log}"
+        except OSError:
+            where = ""
+        print(
+            f"covariscope: an internal error stopped the command ({type(exc).__name__}: {exc}){where}. "
+            "Please report it with the project file.",
+            file=sys.stderr,
+        )
+        return 1
+
+
+if __name__ == "__main__":  # pragma: no cover
+    sys.exit(main())
