@@ -1,0 +1,235 @@
+"""Readers for workbook, columnar and statistical-package files.
+
+Each reader opens the file read-only, reports progress through
+:class:`~covariscope.data.progress.Steps`, and returns the frame, the raw
+column names, notes for the user, and (where the format has them) value
+labels and the text encoding recorded in the file.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+from collections.abc import Callable
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+import pandas as pd
+
+from covariscope.data.progress import Steps
+from covariscope.data.values import tidy_text_column
+from covariscope.model.errors import DataError
+
+__all__ = ["ReadResult", "read_excel", "read_parquet", "read_statistical"]
+
+STAT_CHUNK_ROWS = 200_000
+_EXCEL_PROGRESS_ROWS = 5_000
+
+
+@dataclass
+class ReadResult:
+    """A reader's output before the shared checks."""
+
+    frame: pd.DataFrame
+    names: list[str]
+    notes: list[str] = field(default_factory=list)
+    value_labels: dict[str, dict[Any, str]] = field(default_factory=dict)
+    encoding: str | None = None
+
+
+def read_excel(path: Path, sheet: str | int | None, steps: Steps) -> ReadResult:
+    """Read one sheet of an .xlsx workbook (openpyxl, read-only mode).
+
+    The first non-empty row is the header; blank rows are skipped; cached
+    values of formulas are read, not the formulas.
+    """
+    import openpyxl
+
+    try:
+        book = openpyxl.load_workbook(path, read_only=True, data_only=True)
+    except Exception as exc:  # openpyxl raises many kinds for a damaged file
+        raise DataError(
+            f"{path.name} could not be opened as an Excel workbook ({exc}). Open it in "
+            "your spreadsheet program and save it again as .xlsx, or export it as CSV."
+        ) from exc
+    try:
+        names = list(book.sheetnames)
+        title = _pick_sheet(path, names, sheet)
+        sheet_obj = book[title]
+        total = sheet_obj.max_row or 0
+        rows: list[tuple[Any, ...]] = []
+        for number, row in enumerate(sheet_obj.iter_rows(values_only=True), start=1):
+            if any(v is not None and not (isinstance(v, str) and not v.strip()) for v in row):
+                rows.append(row)
+            if number % _EXCEL_PROGRESS_ROWS == 0:
+                steps.report(number / total if total else 0.0)
+    finally:
+        book.close()
+    notes = []
+    if len(names) > 1:
+        others = ", ".join(repr(n) for n in names if n != title)
+        notes.append(f"Read sheet {title!r}; the workbook also has {others}.")
+    if not rows:
+        return ReadResult(pd.DataFrame(), [], notes)
+    width = max(len(r) for r in rows)
+    header = list(rows[0]) + [None] * (width - len(rows[0]))
+    body = [list(r) + [None] * (width - len(r)) for r in rows[1:]]
+    # Formatting can stretch a sheet's used range past the data: drop
+    # trailing columns that have neither a name nor a value.
+    while width and header[width - 1] is None and all(r[width - 1] is None for r in body):
+        width -= 1
+    header = header[:width]
+    columns = {i: _excel_column([r[i] for r in body]) for i in range(width)}
+    frame = pd.DataFrame(columns, index=pd.RangeIndex(len(body)))
+    raw = ["" if h is None else _header_text(h) for h in header]
+    return ReadResult(frame, raw, notes)
+
+
+def _pick_sheet(path: Path, names: list[str], sheet: str | int | None) -> str:
+    if sheet is None:
+        if not names:
+            raise DataError(f"{path.name} has no sheets. Save the workbook again with the data.")
+        return names[0]
+    if isinstance(sheet, int):
+        if 0 <= sheet < len(names):
+            return names[sheet]
+        raise DataError(
+            f"{path.name} has {len(names)} sheet(s); there is no sheet number {sheet + 1}. "
+            f"Choose one of: {', '.join(repr(n) for n in names)}."
+        )
+    if sheet in names:
+        return sheet
+    raise DataError(
+        f"{path.name} has no sheet named {sheet!r}. Choose one of: "
+        f"{', '.join(repr(n) for n in names)}."
+    )
+
+
+def _header_text(value: Any) -> str:
+    if isinstance(value, float) and value.is_integer():
+        return str(int(value))
+    return str(value)
+
+
+def _excel_column(values: list[Any]) -> pd.Series:
+    present = [v for v in values if v is not None]
+    if present and all(isinstance(v, dt.datetime | dt.date) for v in present):
+        return pd.to_datetime(pd.Series(values, dtype=object))
+    if present and all(isinstance(v, bool) for v in present):
+        return pd.Series(values, dtype="boolean" if len(present) < len(values) else bool)
+    if all(isinstance(v, int | float) and not isinstance(v, bool) for v in present):
+        numbers = pd.Series(values, dtype="float64")
+        return tidy_text_column(numbers) if present else numbers
+    text = pd.Series([None if v is None else _header_text(v) for v in values], dtype="str")
+    return tidy_text_column(text)
+
+
+def read_parquet(path: Path, steps: Steps) -> ReadResult:
+    """Read a Parquet file row group by row group (pyarrow)."""
+    import pyarrow as pa
+    import pyarrow.parquet as pq
+
+    with open(path, "rb") as handle:
+        try:
+            parquet = pq.ParquetFile(handle)
+        except (pa.ArrowInvalid, OSError) as exc:
+            raise DataError(
+                f"{path.name} could not be read as Parquet ({exc}). Export it again, "
+                "or save it as CSV."
+            ) from exc
+        groups = parquet.num_row_groups
+        tables = []
+        for index in range(groups):
+            tables.append(parquet.read_row_group(index))
+            steps.report((index + 1) / groups)
+        table = pa.concat_tables(tables) if tables else parquet.schema_arrow.empty_table()
+    names = [str(n) for n in table.column_names]
+    # Rename before converting: pandas cannot build a frame from duplicate names
+    # reliably, and the shared checks report duplicates from ``names``.
+    frame = table.rename_columns([f"c{i}" for i in range(len(names))]).to_pandas()
+    frame.columns = range(len(names))
+    return ReadResult(frame.reset_index(drop=True), names)
+
+
+_STAT_KINDS = {
+    "stata": ("read_dta", "Stata"),
+    "spss": ("read_sav", "SPSS"),
+    "sas": ("read_sas7bdat", "SAS"),
+    "sas_transport": ("read_xport", "SAS transport"),
+}
+
+
+def read_statistical(path: Path, kind: str, steps: Steps) -> ReadResult:
+    """Read a Stata, SPSS or SAS file with pyreadstat, in blocks of rows.
+
+    Codes are kept as numbers; their value labels are returned separately.
+    Falls back to pandas' own readers when pyreadstat is not installed.
+    """
+    function_name, label = _STAT_KINDS[kind]
+    try:
+        import pyreadstat
+    except ImportError:
+        return _read_statistical_with_pandas(path, kind, label)
+    reader: Callable[..., Any] = getattr(pyreadstat, function_name)
+    try:
+        _, meta = reader(str(path), metadataonly=True)
+        total = meta.number_rows
+        chunks = []
+        offset = 0
+        while True:
+            chunk, meta = reader(
+                str(path),
+                row_offset=offset,
+                row_limit=STAT_CHUNK_ROWS,
+                dates_as_pandas_datetime=True,
+            )
+            chunks.append(chunk)
+            offset += len(chunk)
+            steps.report(offset / total if total else 0.0)
+            if len(chunk) < STAT_CHUNK_ROWS or (total is not None and offset >= total):
+                break
+    except pyreadstat.ReadstatError as exc:
+        raise DataError(
+            f"{path.name} could not be read as a {label} file ({exc}). Check that the file "
+            f"is complete, or export it again from {label}."
+        ) from exc
+    frame = pd.concat(chunks, ignore_index=True) if len(chunks) > 1 else chunks[0]
+    names = [str(n) for n in frame.columns]
+    frame.columns = range(len(names))
+    labels = {
+        str(k): {_plain(code): str(text) for code, text in v.items()}
+        for k, v in (meta.variable_value_labels or {}).items()
+    }
+    notes = []
+    if labels:
+        notes.append(
+            f"Value labels found for {len(labels)} column(s); the codes are kept as values."
+        )
+    encoding = getattr(meta, "file_encoding", None)
+    return ReadResult(frame.reset_index(drop=True), names, notes, labels, encoding or None)
+
+
+def _plain(code: Any) -> Any:
+    if isinstance(code, float) and code.is_integer():
+        return int(code)
+    return code
+
+
+def _read_statistical_with_pandas(path: Path, kind: str, label: str) -> ReadResult:
+    if kind == "spss":
+        raise DataError(
+            f"{path.name} is an SPSS file, which needs the pyreadstat package. Install it, "
+            "or export the data from SPSS as CSV."
+        )
+    try:
+        if kind == "stata":
+            frame = pd.read_stata(path, convert_categoricals=False)
+        else:
+            frame = pd.read_sas(path, format="xport" if kind == "sas_transport" else "sas7bdat")
+    except Exception as exc:  # pandas raises several kinds for a damaged file
+        raise DataError(
+            f"{path.name} could not be read as a {label} file ({exc}). Export it again."
+        ) from exc
+    names = [str(n) for n in frame.columns]
+    frame.columns = range(len(names))
+    return ReadResult(frame.reset_index(drop=True), names)

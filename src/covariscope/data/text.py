@@ -1,0 +1,182 @@
+"""Delimited text files: delimiter and decimal-mark detection, chunked reading.
+
+The encoding comes from :func:`covariscope.data.scan.scan_file`; the
+delimiter from :class:`csv.Sniffer` on the first lines, checked against how
+consistently each candidate splits those lines (the sniffer alone is easily
+fooled by commas inside text).
+"""
+
+from __future__ import annotations
+
+import csv
+import io
+import re
+import warnings
+from collections import Counter
+from dataclasses import dataclass
+from pathlib import Path
+
+import pandas as pd
+
+from covariscope.data.progress import Steps
+from covariscope.data.values import tidy_text_column
+from covariscope.model.errors import DataError
+
+__all__ = ["CANDIDATE_DELIMITERS", "TextLayout", "detect_layout", "read_delimited"]
+
+CANDIDATE_DELIMITERS = (",", ";", "\t", "|")
+DELIMITER_NAMES = {",": "comma", ";": "semicolon", "\t": "tab", "|": "vertical bar"}
+CHUNK_ROWS = 100_000
+_SAMPLE_LINES = 50
+_COMMA_DECIMAL = re.compile(r"^[+-]?\d+,\d+$")
+_POINT_DECIMAL = re.compile(r"^[+-]?\d+\.\d+$")
+
+
+@dataclass(frozen=True)
+class TextLayout:
+    """How a delimited text file is laid out."""
+
+    delimiter: str
+    decimal: str
+    header: tuple[str, ...]
+    notes: tuple[str, ...]
+
+
+def detect_layout(head: bytes, encoding: str, suffix: str) -> TextLayout:
+    """Find the delimiter, the decimal mark and the raw header of a text file.
+
+    Parameters
+    ----------
+    head : bytes
+        The first bytes of the file (tens of kilobytes are plenty).
+    encoding : str
+        Its text encoding.
+    suffix : str
+        The file name's extension; decides between tab and comma when the
+        file has a single column.
+
+    Examples
+    --------
+    >>> detect_layout(b"a;b\\n1,5;2\\n3,0;4\\n", "utf-8", ".csv").delimiter
+    ';'
+    >>> detect_layout(b"a;b\\n1,5;2\\n3,0;4\\n", "utf-8", ".csv").decimal
+    ','
+    """
+    text = head.decode(encoding, errors="replace")
+    if encoding == "utf-8-sig":
+        text = text.removeprefix("\ufeff")
+    lines = text.splitlines()
+    if len(head) >= 65536 and len(lines) > 1:
+        lines = lines[:-1]  # the last line of a cut sample may be partial
+    lines = [line for line in lines if line.strip()][:_SAMPLE_LINES]
+    sample = "\n".join(lines)
+    notes: list[str] = []
+    delimiter = _choose_delimiter(sample, suffix)
+    rows = list(csv.reader(io.StringIO(sample), delimiter=delimiter))
+    if rows and len(rows[0]) == 1:
+        notes.append("Only one column found: if the file has more, check its delimiter.")
+    decimal = "."
+    if delimiter != ",":
+        fields = [f.strip() for row in rows[1:] for f in row]
+        commas = sum(bool(_COMMA_DECIMAL.match(f)) for f in fields)
+        points = sum(bool(_POINT_DECIMAL.match(f)) for f in fields)
+        if commas and not points:
+            decimal = ","
+            notes.append("Decimal comma detected: numbers such as 1,5 read as 1.5.")
+    header = tuple(rows[0]) if rows else ()
+    return TextLayout(delimiter, decimal, header, tuple(notes))
+
+
+def _choose_delimiter(sample: str, suffix: str) -> str:
+    scores = {d: _consistency(sample, d) for d in CANDIDATE_DELIMITERS}
+    try:
+        sniffed = csv.Sniffer().sniff(sample, delimiters="".join(CANDIDATE_DELIMITERS)).delimiter
+    except csv.Error:
+        sniffed = None
+    if sniffed in scores and scores[sniffed][1] > 1 and scores[sniffed][0] >= 0.9:
+        return sniffed
+    best = max(scores, key=lambda d: scores[d])
+    if scores[best][1] > 1:
+        return best
+    return "\t" if suffix in {".tsv", ".tab"} else ","
+
+
+def _consistency(sample: str, delimiter: str) -> tuple[float, int]:
+    """Share of lines with the most common field count, and that count."""
+    counts = [len(row) for row in csv.reader(io.StringIO(sample), delimiter=delimiter) if row]
+    if not counts:
+        return (0.0, 0)
+    count, times = Counter(counts).most_common(1)[0]
+    return (times / len(counts), count)
+
+
+def read_delimited(
+    path: Path, encoding: str, layout: TextLayout, size: int, steps: Steps
+) -> tuple[pd.DataFrame, list[str]]:
+    """Read the whole file in chunks of rows, reporting the share of bytes read.
+
+    Every field is read as text first and each column converted once at the
+    end, so a column's type does not depend on where the chunks fell.
+    Returns the frame and the raw column names (before any renaming).
+    """
+    chunks: list[pd.DataFrame] = []
+    with open(path, "rb") as handle, warnings.catch_warnings():
+        # pandas only warns when data rows are wider than the header, and then
+        # drops the extra fields: treat that as the error it is.
+        warnings.simplefilter("error", pd.errors.ParserWarning)
+        try:
+            reader = pd.read_csv(
+                handle,
+                sep=layout.delimiter,
+                encoding=encoding,
+                header=0,
+                dtype=str,
+                chunksize=CHUNK_ROWS,
+                skip_blank_lines=True,
+                engine="c",
+                index_col=False,
+            )
+            with reader:
+                for chunk in reader:
+                    chunks.append(chunk)
+                    steps.report(handle.tell() / size if size else 1.0)
+        except pd.errors.EmptyDataError as exc:
+            raise DataError(
+                f"{path.name} holds no data (only blank lines). Choose the file that "
+                "holds the data, or export it again from its source."
+            ) from exc
+        except pd.errors.ParserError as exc:
+            raise DataError(
+                f"{path.name} could not be read as {DELIMITER_NAMES[layout.delimiter]}-separated "
+                f"text: {_plain_parser_message(exc)}. Check that every row has as many fields "
+                "as the header and that quotes are closed, or export the file again."
+            ) from exc
+        except pd.errors.ParserWarning as exc:
+            raise DataError(
+                f"{path.name}: some rows have more fields than the header has names. Check "
+                "the delimiter, give every column a name, or export the file again."
+            ) from exc
+        except UnicodeDecodeError as exc:
+            raise DataError(
+                f"{path.name} is not valid {encoding} text at byte {exc.start}. Save it again "
+                "as UTF-8 text from its source program."
+            ) from exc
+    if chunks:
+        frame = pd.concat(chunks, ignore_index=True) if len(chunks) > 1 else chunks[0]
+    else:
+        frame = pd.DataFrame(columns=list(layout.header) or None)
+    pandas_names = [str(c) for c in frame.columns]
+    names = list(layout.header) if len(layout.header) == len(pandas_names) else pandas_names
+    frame = frame.reset_index(drop=True)
+    frame.columns = range(frame.shape[1])
+    converted = {i: tidy_text_column(frame[i], layout.decimal) for i in frame.columns}
+    return pd.DataFrame(converted, index=frame.index), names
+
+
+def _plain_parser_message(exc: Exception) -> str:
+    text = str(exc).strip().rstrip(".")
+    match = re.search(r"Expected (\d+) fields in line (\d+), saw (\d+)", text)
+    if match:
+        expected, line, saw = match.groups()
+        return f"line {line} has {saw} fields where the header has {expected}"
+    return text
