@@ -1,0 +1,620 @@
+"""Logistic and log-link Poisson fits for the comparison models.
+
+Pure numpy/scipy: a lean Newton (IRLS) loop with step halving that can start
+from the parameters of a neighbouring model, so that the evidence engine's
+dozens of nested models each take two or three iterations.  Data problems are
+never raised: they come back as a failed `Fit` (or a `Fit` with warnings)
+whose message says, in plain words, what is wrong and what to do.
+
+Conventions
+-----------
+* ``X`` is n × p, float64, with the intercept in column 0 and the exposure in
+  column ``exposure_index``.
+* ``offset`` (Poisson only) is the *log* of each row's person-time (pass
+  ``numpy.log(person_years)``), added to the linear predictor with a fixed
+  coefficient of 1; the exposure coefficient is then a log rate ratio.
+* Convergence is judged on the deviance: the loop stops when the Newton
+  decrement (the deviance decrease the next full step would bring) falls below
+  ``tol × (|deviance| + 0.1)``; the scale-free form follows R's ``glm``.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+import numpy.typing as npt
+from scipy import optimize, special
+from scipy.linalg.blas import dsyrk
+from scipy.linalg.lapack import dpotrf, dpotri, dpotrs
+
+from covariscope.analysis.fits import Fit
+
+__all__ = [
+    "GLM_FAMILIES",
+    "GlmPath",
+    "Separation",
+    "detect_separation",
+    "fit_glm",
+    "newton_glm",
+]
+
+Array = npt.NDArray[np.float64]
+
+#: Families `fit_glm` fits, with the standard error each one reports.
+GLM_FAMILIES: dict[str, str] = {
+    "logistic": "binomial, logit link; model-based SE (observed information)",
+    "risk_ratio": "Poisson, log link; robust HC0 sandwich SE (Zou 2004)",
+}
+
+#: Two-sided 95% normal quantile, scipy.stats.norm.ppf(0.975).
+Z95 = 1.959963984540054
+
+#: A column whose residual after projection on the earlier columns keeps less
+#: than this share of its (weighted) sum of squares is an exact combination of
+#: them (a VIF above 1e10: common practice, no published source).
+ALIAS_TOL = 1e-10
+
+#: |coefficient| × column SD beyond which a coefficient is taken as running
+#: off to infinity (a ratio of e^20 per SD; common practice).
+DIVERGE_SD = 20.0
+
+#: Fitted probabilities (or rates relative to the mean) closer than this to
+#: 0 or 1 hint at separation and trigger the separation check.
+EXTREME_MU = 1e-8
+
+#: Events per covariate parameter below which a caution is given
+#: (Peduzzi et al. 1996, J Clin Epidemiol 49:1373).
+EVENTS_PER_PARAMETER = 10
+
+
+@dataclass(frozen=True)
+class GlmPath:
+    """Where a Newton run ended: parameters, covariance and how it got there."""
+
+    params: Array
+    cov: Array | None
+    iterations: int
+    converged: bool
+    deviance: float
+    mu: Array
+    #: why the loop stopped early ("" when it converged or ran out of iterations)
+    stop: str = ""
+    #: the information at the start, kept when the design proved rank-deficient
+    info: Array | None = None
+
+
+@dataclass(frozen=True)
+class Separation:
+    """Result of `detect_separation`.
+
+    ``kind`` is "none", "quasi-complete" or "complete"; ``columns`` are the
+    indices of the columns in the separating direction; ``rows`` is how many
+    rows the direction predicts perfectly.
+    """
+
+    kind: str
+    columns: tuple[int, ...] = ()
+    rows: int = 0
+
+    @property
+    def found(self) -> bool:
+        return self.kind != "none"
+
+
+# --------------------------------------------------------------------- helpers
+
+
+def _crossprod(X: Array, w: Array, buf: Array | None = None) -> Array:
+    """X' diag(w) X (w ≥ 0) by a symmetric rank-k update; full matrix returned."""
+    sw = np.sqrt(w)
+    Xw = np.multiply(X, sw[:, None], out=buf)
+    # Xw.T is Fortran-ordered p × n, so BLAS reads it without a copy.
+    upper = dsyrk(1.0, Xw.T, trans=0, lower=0)
+    return np.triu(upper) + np.triu(upper, 1).T
+
+
+def _chol(H: Array) -> Array | None:
+    """Upper Cholesky factor of H, or None if H is not positive definite."""
+    c, info = dpotrf(H, lower=0, clean=1)
+    if info != 0 or not np.all(np.isfinite(c)):
+        return None
+    return np.asarray(c)
+
+
+def _inverse(c: Array) -> Array:
+    inv, _ = dpotri(c, lower=0)
+    return np.triu(inv) + np.triu(inv, 1).T
+
+
+def aliased_columns(G: Array, names: list[str]) -> list[str]:
+    """Clauses "<a> is an exact linear combination of <b>, <c>" for a cross product.
+
+    Columns are taken in order; each is tested against the earlier columns that
+    were kept, so the intercept and the exposure (which come first) are never
+    the ones named as redundant.
+    """
+    d = np.sqrt(np.clip(np.diag(G), 0.0, None))
+    clauses: list[str] = []
+    kept: list[int] = []
+    for j in range(G.shape[0]):
+        if d[j] == 0.0:
+            clauses.append(f"{names[j]} is zero in every row")
+            continue
+        if kept:
+            K = G[np.ix_(kept, kept)] / np.outer(d[kept], d[kept])
+            g = G[kept, j] / (d[kept] * d[j])
+            c = np.linalg.solve(K, g)
+            resid = 1.0 - float(g @ c)
+        else:
+            c, resid = np.zeros(0), 1.0
+        if resid < ALIAS_TOL:
+            parts = [names[kept[i]] for i in range(len(kept)) if abs(c[i]) > 1e-7]
+            clauses.append(f"{names[j]} is an exact linear combination of {', '.join(parts)}")
+        else:
+            kept.append(j)
+    return clauses
+
+
+def rank_message(clauses: list[str]) -> str:
+    return (
+        "The design is rank-deficient: "
+        + "; ".join(clauses)
+        + ". Remove one of the columns involved (or bind a different column)."
+    )
+
+
+def design_problem(X: Array, names: list[str], *, skip: int) -> str:
+    """A plain message for missing values or constant columns, or ""."""
+    bad = ~np.isfinite(X).all(axis=0)
+    if bad.any():
+        cols = ", ".join(names[j] for j in np.flatnonzero(bad))
+        return f"Missing or infinite values in {cols}: fit the model on complete cases only."
+    if X.shape[0] == 0:
+        return "The analytic sample has no rows."
+    const = np.flatnonzero(np.ptp(X, axis=0) == 0.0)
+    const = const[const >= skip]
+    if const.size:
+        cols = ", ".join(f"{names[j]} (always {X[0, j]:g})" for j in const)
+        return (
+            f"Constant column: {cols} has the same value in every row of the analytic "
+            "sample, so its effect cannot be estimated. Remove it from the model."
+        )
+    return ""
+
+
+def too_few_rows(n: int, p: int) -> str:
+    return (
+        f"Only {n} rows for {p} parameters: a model needs more rows than parameters. "
+        "Drop covariates or use more data."
+    )
+
+
+def fit_from_params(
+    family: str,
+    terms: tuple[str, ...],
+    names: list[str],
+    params: Array,
+    cov: Array,
+    n: int,
+    exposure_index: int,
+    skip: set[int],
+    *,
+    converged: bool = True,
+    message: str = "",
+    warnings: tuple[str, ...] = (),
+    blank: frozenset[int] = frozenset(),
+) -> Fit:
+    """Assemble a `Fit`: the exposure's Wald estimate and every other column's."""
+    se = np.sqrt(np.clip(np.diag(cov), 0.0, None))
+    b, s = float(params[exposure_index]), float(se[exposure_index])
+    nan = float("nan")
+    term_coefs: dict[str, tuple[float, float, float, float]] = {}
+    for j, name in enumerate(names):
+        if j in skip or j == exposure_index:
+            continue
+        if j in blank:
+            term_coefs[name] = (nan, nan, nan, nan)
+        else:
+            bj, sj = float(params[j]), float(se[j])
+            term_coefs[name] = (bj, sj, bj - Z95 * sj, bj + Z95 * sj)
+    return Fit(
+        family,
+        terms,
+        b,
+        s,
+        (b - Z95 * s, b + Z95 * s),
+        n,
+        ok=True,
+        converged=converged,
+        message=message,
+        warnings=warnings,
+        n_params=len(params),
+        term_coefs=term_coefs,
+    )
+
+
+# ------------------------------------------------------------------ the Newton
+
+
+def _mean_and_deviance(family: str, y: Array, eta: Array, ylogy: float) -> tuple[Array, float]:
+    if family == "logistic":
+        mu = special.expit(eta)
+        dev = 2.0 * float(np.sum(np.logaddexp(0.0, eta)) - y @ eta)
+    else:
+        mu = np.exp(np.minimum(eta, 700.0))
+        dev = 2.0 * float(np.sum(mu) - y @ eta + ylogy)
+    return mu, dev
+
+
+def _start(family: str, X: Array, y: Array, off: Array | None) -> Array:
+    b = np.zeros(X.shape[1])
+    x0 = X[0, 0]
+    if np.all(X[:, 0] == x0) and x0 != 0.0:
+        ybar = float(np.mean(y))
+        if family == "logistic":
+            ybar = min(max(ybar, 1e-6), 1 - 1e-6)
+            b[0] = math.log(ybar / (1 - ybar)) / x0
+        else:
+            denom = float(np.sum(np.exp(off))) if off is not None else float(len(y))
+            b[0] = math.log(max(float(np.sum(y)), 1e-10) / denom) / x0
+    return b
+
+
+def newton_glm(
+    X: Array,
+    y: Array,
+    family: str,
+    *,
+    offset: Array | None = None,
+    start: Array | None = None,
+    max_iter: int = 50,
+    tol: float = 1e-13,
+) -> GlmPath:
+    """Maximise a logistic or Poisson log-likelihood by Newton–Raphson (= IRLS
+    for these canonical links) with step halving.
+
+    Returns the last parameters and the inverse information at the last
+    Newton point (``cov``; None when the information was singular).  The
+    caller checks the design beforehand; this function only iterates.
+
+    >>> import numpy as np
+    >>> X = np.column_stack([np.ones(6), [0, 0, 1, 1, 0, 1.0]])
+    >>> path = newton_glm(X, np.array([0, 1, 1, 1, 0, 0.0]), "logistic")
+    >>> bool(path.converged), round(float(path.params[1]), 4)  # log(4), odds 1/2 → 2
+    (True, 1.3863)
+    """
+    ylogy = float(np.sum(special.xlogy(y, y) - y)) if family == "risk_ratio" else 0.0
+    b = _start(family, X, y, offset) if start is None else np.array(start, dtype=np.float64)
+    scale = np.std(X, axis=0)
+    eta = X @ b if offset is None else X @ b + offset
+    mu, dev = _mean_and_deviance(family, y, eta, ylogy)
+    buf = np.empty_like(X)
+    cov: Array | None = None
+    stop = ""
+    for it in range(1, max_iter + 1):
+        w = mu * (1.0 - mu) if family == "logistic" else mu
+        H = _crossprod(X, w, buf)
+        c = _chol(H)
+        if it == 1 and (c is None or np.min(np.diag(c) ** 2 / np.diag(H)) < ALIAS_TOL):
+            # Weights are positive, so X'WX is singular exactly when X is.
+            return GlmPath(b, None, it, False, dev, mu, "aliased", H)
+        if c is None:
+            return GlmPath(b, None, it, False, dev, mu, "singular")
+        score = X.T @ (y - mu)
+        step_, _ = dpotrs(c, score[:, None], lower=0)
+        delta = step_[:, 0]
+        decrement = float(score @ delta)
+        cov = _inverse(c)
+        if decrement <= tol * (abs(dev) + 0.1):
+            return GlmPath(b + delta, cov, it, True, dev, mu)
+        t = 1.0
+        for _ in range(40):
+            b_new = b + t * delta
+            eta = X @ b_new if offset is None else X @ b_new + offset
+            mu_new, dev_new = _mean_and_deviance(family, y, eta, ylogy)
+            if math.isfinite(dev_new) and dev_new <= dev + 1e-12 * abs(dev):
+                break
+            t *= 0.5
+        else:
+            return GlmPath(b, cov, it, False, dev, mu, "no_progress")
+        b, mu, dev = b_new, mu_new, dev_new
+        if np.any(np.abs(b[1:]) * scale[1:] > DIVERGE_SD):
+            stop = "diverging"
+            return GlmPath(b, cov, it, False, dev, mu, stop)
+    return GlmPath(b, cov, max_iter, False, dev, mu, stop)
+
+
+# ------------------------------------------------------------------ separation
+
+
+def _screen_binary(X: Array, y: Array, family: str) -> Separation:
+    """Cheap check: a two-valued column with no events (or only events) at one value."""
+    lo, hi = X.min(axis=0), X.max(axis=0)
+    is_hi = hi == X
+    two_valued = np.all(is_hi | (lo == X), axis=0) & (hi > lo)
+    event = y > 0
+    for j in np.flatnonzero(two_valued):
+        if j == 0:
+            continue
+        at_hi = is_hi[:, j]
+        for level in (at_hi, ~at_hi):
+            ev = int(np.count_nonzero(event[level]))
+            size = int(np.count_nonzero(level))
+            if ev == 0 or (family == "logistic" and ev == size):
+                other = ~level
+                ev_o = int(np.count_nonzero(event[other]))
+                complete = family == "logistic" and ev_o in (0, int(np.count_nonzero(other)))
+                complete = complete and (ev_o == 0) != (ev == 0)
+                kind = "complete" if complete else "quasi-complete"
+                return Separation(kind, (int(j),), len(y) if complete else size)
+    return Separation("none")
+
+
+def detect_separation(X: Array, y: Array, *, family: str = "logistic") -> Separation:
+    """Whether a direction of the coefficients predicts some outcomes perfectly.
+
+    For a logistic model this is (quasi-)complete separation, when the maximum
+    likelihood estimate does not exist (Albert & Anderson 1984, Biometrika
+    71:1); it is found by the linear program of Konis (2007, "Linear
+    programming algorithms for detecting separated data in binary logistic
+    regression models", DPhil thesis, Oxford): maximise Σ sᵢ xᵢ'b subject to
+    sᵢ xᵢ'b ≥ 0 and |b| ≤ 1, with sᵢ = ±1 for events and non-events.  For a
+    Poisson model the analogue is a direction with xᵢ'b = 0 where yᵢ > 0 and
+    xᵢ'b ≤ 0 elsewhere, which drives some fitted rates to zero.  A cheap screen
+    of two-valued columns runs first.
+
+    >>> import numpy as np
+    >>> X = np.column_stack([np.ones(6), [0, 0, 0, 1, 1, 1.0], [1, 3, 2, 5, 4, 4.0]])
+    >>> detect_separation(X, np.array([0, 0, 0, 1, 1, 1.0]))
+    Separation(kind='complete', columns=(1,), rows=6)
+    """
+    quick = _screen_binary(X, y, family)
+    if quick.found:
+        return quick
+    n, p = X.shape
+    Xs = X / np.maximum(np.abs(X).max(axis=0), 1e-300)
+    opts = {"presolve": True}
+    if family == "logistic":
+        s = np.where(y > 0, 1.0, -1.0)
+        A = s[:, None] * Xs
+        res = optimize.linprog(
+            -A.sum(axis=0), A_ub=-A, b_ub=np.zeros(n), bounds=(-1, 1), method="highs", options=opts
+        )
+    else:
+        pos = y > 0
+        A = -Xs[~pos]
+        res = optimize.linprog(
+            -A.sum(axis=0),
+            A_ub=-A,
+            b_ub=np.zeros(len(A)),
+            A_eq=Xs[pos] if pos.any() else None,
+            b_eq=np.zeros(int(pos.sum())) if pos.any() else None,
+            bounds=(-1, 1),
+            method="highs",
+            options=opts,
+        )
+    if res.status != 0:
+        return Separation("none")
+    direction = np.asarray(res.x)
+    margins = A @ direction
+    thresh = 1e-6 * max(1.0, float(np.abs(direction).sum()))
+    separated = int(np.count_nonzero(margins > thresh))
+    if separated == 0:
+        return Separation("none")
+    cols = tuple(int(j) for j in np.flatnonzero(np.abs(direction) > 1e-6))
+    kind = "quasi-complete"
+    if family == "logistic":
+        # Complete separation needs every margin positive at once: maximise the smallest.
+        c = np.zeros(p + 1)
+        c[-1] = -1.0
+        A2 = np.hstack([-A, np.ones((n, 1))])
+        bounds = [(-1.0, 1.0)] * p + [(None, 1.0)]
+        res2 = optimize.linprog(
+            c, A_ub=A2, b_ub=np.zeros(n), bounds=bounds, method="highs", options=opts
+        )
+        if res2.status == 0 and -float(res2.fun) > thresh:
+            kind, separated = "complete", n
+    return Separation(kind, cols, separated)
+
+
+def _separation_words(sep: Separation, names: list[str], family: str) -> str:
+    cols = [names[j] for j in sep.columns if j != 0] or [names[j] for j in sep.columns]
+    what = "odds ratios" if family == "logistic" else "rate ratios"
+    who = ", ".join(cols)
+    if sep.kind == "complete":
+        return (
+            f"Complete separation: {who} predict the outcome perfectly in every row, so the "
+            f"{what} are infinite and the model cannot be fitted. Remove or merge {who}, "
+            "or use penalised (Firth) regression."
+        )
+    detail = "no events or only events" if family == "logistic" else "no events"
+    return (
+        f"Quasi-complete separation: {who} predict the outcome perfectly in {sep.rows} rows "
+        f"(for example {detail} at one value), so their {what} run off to infinity. "
+        f"Merge sparse categories of {who}, remove {'it' if len(cols) == 1 else 'them'}, "
+        "or use penalised (Firth) regression."
+    )
+
+
+# ------------------------------------------------------------------- the API
+
+
+def _outcome_problem(y: Array, family: str) -> str:
+    if not np.all(np.isfinite(y)):
+        return "The outcome has missing or infinite values: fit on complete cases only."
+    if family == "logistic":
+        odd = np.setdiff1d(np.unique(y), [0.0, 1.0])
+        if odd.size:
+            shown = ", ".join(f"{v:g}" for v in odd[:3])
+            return f"The outcome must be coded 0/1 for a logistic model; found {shown}."
+        events = int(np.count_nonzero(y))
+        if events == 0:
+            return "No events: the outcome is 0 in every row, so there is nothing to model."
+        if events == len(y):
+            return "Every row is an event (the outcome is 1 in all rows), so there is nothing to model."
+    else:
+        if np.any(y < 0):
+            return "The outcome has negative values: a Poisson model needs counts or 0/1 outcomes."
+        if not np.any(y > 0):
+            return "No events: the outcome is 0 in every row, so there is nothing to model."
+        if np.ptp(y) == 0.0:
+            return (
+                f"All outcomes are the same ({y[0]:g} in every row), so there is nothing to model."
+            )
+    return ""
+
+
+def fit_glm(
+    X: Array,
+    y: Array,
+    family: str,
+    *,
+    column_names: list[str] | tuple[str, ...],
+    terms: tuple[str, ...],
+    exposure_index: int = 1,
+    offset: Array | None = None,
+    start: Array | None = None,
+    max_iter: int = 50,
+    tol: float = 1e-13,
+) -> tuple[Fit, Array | None]:
+    """Fit a logistic model (odds ratio) or a robust Poisson model (risk or rate ratio).
+
+    Parameters
+    ----------
+    X : n × p float array, intercept in column 0, exposure in ``exposure_index``.
+    y : outcome; 0/1 for "logistic", 0/1 or counts for "risk_ratio".
+    family : "logistic" (binomial, logit link, model-based SE from the observed
+        information) or "risk_ratio" (Poisson, log link, robust HC0 sandwich
+        SE: Zou 2004, "A modified Poisson regression approach to prospective
+        studies with binary data", Am J Epidemiol 159:702).
+    column_names : one name per column of X, used in messages and ``term_coefs``.
+    terms : node ids of the covariates in the model (stored on the Fit).
+    offset : log person-time per row (already logged), Poisson only.
+    start : parameters to start from (length p), e.g. a neighbouring model's.
+
+    Returns
+    -------
+    (Fit, params) : the exposure's log-scale estimate with Wald 95% CI and every
+        other non-intercept column in ``term_coefs``; the parameter vector for
+        warm starts, or None when the fit failed.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> rng = np.random.default_rng(1)
+    >>> x = rng.integers(0, 2, 200).astype(float)
+    >>> y = (rng.random(200) < 0.2 + 0.2 * x).astype(float)
+    >>> X = np.column_stack([np.ones(200), x])
+    >>> fit, params = fit_glm(X, y, "logistic", column_names=["const", "x"], terms=())
+    >>> fit.ok, round(fit.coef, 3) == round(float(params[1]), 3)
+    (True, True)
+    """
+    names = list(column_names)
+    X = np.ascontiguousarray(X, dtype=np.float64)
+    y = np.asarray(y, dtype=np.float64)
+    n, p = X.shape
+    if family not in GLM_FAMILIES:
+        return Fit.failed(family, terms, n, f"Unknown model family {family!r}."), None
+    off = None
+    if offset is not None:
+        if family != "risk_ratio":
+            return Fit.failed(
+                family, terms, n, "An offset is only used with the Poisson (rate ratio) model."
+            ), None
+        off = np.asarray(offset, dtype=np.float64)
+        if off.shape != (n,) or not np.all(np.isfinite(off)):
+            return Fit.failed(
+                family,
+                terms,
+                n,
+                "The offset must be a finite log person-time for every row (did you take the log of a zero time?).",
+            ), None
+    problem = _outcome_problem(y, family) or design_problem(X, names, skip=1)
+    if not problem and n <= p:
+        problem = too_few_rows(n, p)
+    if problem:
+        return Fit.failed(family, terms, n, problem), None
+    if start is not None and np.shape(start) != (p,):
+        start = None  # a mismatched start is ignored rather than trusted
+    path = newton_glm(X, y, family, offset=off, start=start, max_iter=max_iter, tol=tol)
+    if path.stop == "aliased":
+        assert path.info is not None
+        clauses = aliased_columns(path.info, names) or ["the columns are nearly collinear"]
+        return Fit.failed(family, terms, n, rank_message(clauses)), None
+    extreme = (
+        float(np.min(np.minimum(path.mu, 1.0 - path.mu))) < EXTREME_MU
+        if family == "logistic"
+        else float(np.min(path.mu)) < EXTREME_MU * float(np.mean(y))
+    )
+    blank: frozenset[int] = frozenset()
+    warns: list[str] = []
+    if not path.converged or extreme:
+        sep = detect_separation(X, y, family=family)
+        if sep.found:
+            words = _separation_words(sep, names, family)
+            if sep.kind == "complete" or exposure_index in sep.columns or path.cov is None:
+                return Fit.failed(family, terms, n, words), None
+            blank = frozenset(sep.columns) - {0}
+            warns.append(
+                words + " Their estimates are left blank; the exposure's is the limit of the fit."
+            )
+        elif path.cov is None:
+            return Fit.failed(
+                family,
+                terms,
+                n,
+                "The information matrix became singular during fitting; check for near-duplicate columns or extreme values.",
+            ), None
+        elif extreme and path.converged:
+            warns.append(
+                "Some fitted probabilities are numerically 0 or 1: check for sparse categories."
+            )
+    assert path.cov is not None
+    cov = path.cov
+    if family == "risk_ratio":
+        # Sandwich H⁻¹ (Σ rᵢ² xᵢxᵢ') H⁻¹ at the final parameters: the residuals
+        # enter squared, so the last tiny step is not negligible here.
+        eta = X @ path.params if off is None else X @ path.params + off
+        mu = np.exp(np.minimum(eta, 700.0))
+        c = _chol(_crossprod(X, mu))
+        if c is not None:
+            cov = _inverse(c)
+        cov = cov @ _crossprod(X, (y - mu) ** 2) @ cov
+        binary = bool(np.all((y == 0) | (y == 1)))
+        if binary and float(np.max(mu)) > 1.0 + 1e-9:
+            warns.append(
+                f"Some fitted risks exceed 1 (largest {float(np.max(mu)):.3g}); the risk "
+                "ratios remain usable but the fitted risks are not."
+            )
+    events = float(np.sum(y)) if family == "risk_ratio" else float(min(np.sum(y), n - np.sum(y)))
+    if p > 1 and events / (p - 1) < EVENTS_PER_PARAMETER:
+        warns.append(
+            f"Only {events:g} {'events' if family == 'risk_ratio' else 'outcomes in the rarer class'} "
+            f"for {p - 1} covariate parameters (fewer than {EVENTS_PER_PARAMETER} per parameter, "
+            "Peduzzi et al. 1996): estimates may be unstable."
+        )
+    message = ""
+    converged = path.converged or bool(blank)
+    if not converged:
+        message = (
+            f"The fit did not converge after {path.iterations} iterations; the estimates "
+            "shown are the last ones reached. Allow more iterations or simplify the model."
+        )
+        warns.append(message)
+    fit = fit_from_params(
+        family,
+        terms,
+        names,
+        path.params,
+        cov,
+        n,
+        exposure_index,
+        {0},
+        converged=converged,
+        message=message,
+        warnings=tuple(warns),
+        blank=blank,
+    )
+    return fit, path.params
