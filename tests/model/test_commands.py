@@ -112,6 +112,19 @@ ops = st.lists(
 )
 
 
+def _make(p: Project, op: str, u: str, v: str, kind: str) -> c.Command:
+    return {
+        "add": lambda: c.AddNode(p, Node(u)),
+        "remove": lambda: c.RemoveNode(p, u),
+        "arrow": lambda: c.AddArrow(p, u, v),
+        "unarrow": lambda: c.RemoveArrow(p, u, v),
+        "reverse": lambda: c.ReverseArrow(p, u, v),
+        "proxy": lambda: c.AddProxy(p, u, v),
+        "kind": lambda: c.SetKind(p, u, kind),
+        "propose": lambda: c.SetProposed(p, [u]),
+    }[op]()
+
+
 @settings(max_examples=80, deadline=None)
 @given(ops)
 def test_no_sequence_of_edits_crashes_and_undo_all_restores(sequence):
@@ -121,18 +134,6 @@ def test_no_sequence_of_edits_crashes_and_undo_all_restores(sequence):
     start = saved(p)
     h = c.History()
     for op, u, v, kind in sequence:
-        command = {
-            "add": lambda: c.AddNode(p, Node(u)),
-            "remove": lambda: c.RemoveNode(p, u),
-            "arrow": lambda: c.AddArrow(p, u, v),
-            "unarrow": lambda: c.RemoveArrow(p, u, v),
-            "reverse": lambda: c.ReverseArrow(p, u, v),
-            "proxy": lambda: c.AddProxy(p, u, v),
-            "kind": lambda: c.SetKind(p, u, kind),
-            "propose": lambda: c.SetProposed(p, [u]),
-            "undo": None,
-            "redo": None,
-        }[op]
         if op == "undo":
             h.undo()
             continue
@@ -141,7 +142,7 @@ def test_no_sequence_of_edits_crashes_and_undo_all_restores(sequence):
             continue
         before = saved(p)
         try:
-            h.push(command())
+            h.push(_make(p, op, u, v, kind))
         except DiagramError:
             assert saved(p) == before
     while h.undo():

@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import itertools
+
 import networkx as nx
 import pytest
 from hypothesis import given, settings
@@ -15,7 +17,7 @@ def chain(*ids: str) -> Diagram:
     d = Diagram()
     for i in ids:
         d.add_node(Node(i))
-    for a, b in zip(ids, ids[1:], strict=False):
+    for a, b in itertools.pairwise(ids):
         d.add_arrow(a, b)
     return d
 

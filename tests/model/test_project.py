@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import contextlib
 import json
 import os
 
@@ -196,16 +197,12 @@ def projects(draw):
             )
         )
     for a, b in draw(st.lists(st.tuples(st.sampled_from(ids), st.sampled_from(ids)), max_size=12)):
-        try:
+        with contextlib.suppress(Exception):
             d.add_arrow(a, b)
-        except Exception:
-            pass
     covs = ids[2:]
     if len(covs) >= 2 and draw(st.booleans()):
-        try:
+        with contextlib.suppress(Exception):
             d.add_proxy(covs[0], covs[1])
-        except Exception:
-            pass
     p = Project(d, DataRef("data.csv", None))
     p.set_proposed(draw(st.lists(st.sampled_from(covs), unique=True)) if covs else [])
     return p
