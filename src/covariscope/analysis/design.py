@@ -1,0 +1,317 @@
+"""Numeric design of the comparison models, built once from the analytic sample.
+
+The design holds every column any comparison model may use, in one
+C-contiguous float64 array (exposure, covariate columns in the order given,
+outcome last), so the linear summary reads it in a single pass and every
+model takes its columns as views.  Categorical terms become treatment
+(reference-level) dummies named ``"column[level]"``; binary terms are coded
+0/1 with the non-reference level as 1.
+"""
+
+from __future__ import annotations
+
+import hashlib
+from collections.abc import Mapping
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+from covariscope.analysis.fits import FAMILIES
+from covariscope.model.errors import DataError
+
+__all__ = ["TERM_TYPES", "Block", "Design", "TermSpec", "make_design"]
+
+#: Column types a term may have.
+TERM_TYPES: tuple[str, ...] = ("continuous", "binary", "count", "categorical")
+
+
+@dataclass(frozen=True)
+class TermSpec:
+    """How one column enters the models.
+
+    ``reference`` is the reference level of a binary or categorical column
+    (its dummy is left out); ``None`` takes the smallest level, or 0 for a
+    0/1 column.
+    """
+
+    column: str
+    type: str
+    reference: Any = None
+
+
+@dataclass(frozen=True, eq=False)
+class Block:
+    """The design columns of one term: ``values`` is n × k (a view)."""
+
+    node: str
+    columns: tuple[str, ...]
+    values: np.ndarray
+    #: column positions in :attr:`Design.values`
+    index: tuple[int, ...]
+
+    @property
+    def df(self) -> int:
+        return len(self.columns)
+
+
+@dataclass(frozen=True, eq=False)
+class Design:
+    """Numbers for every comparison model of one analytic sample.
+
+    ``values`` is n × q: the exposure (column 0), the covariate columns of
+    each block in order, then the outcome when there is one.  ``key`` is a
+    digest of the numbers and the specification; results are cached by it.
+    """
+
+    family: str
+    exposure_node: str
+    exposure_name: str
+    values: np.ndarray
+    blocks: Mapping[str, Block]
+    y: np.ndarray | None
+    offset: np.ndarray | None
+    time: np.ndarray | None
+    event: np.ndarray | None
+    n: int
+    key: str
+    messages: tuple[str, ...] = ()
+    column_names: tuple[str, ...] = field(default=())
+
+    @property
+    def exposure(self) -> np.ndarray:
+        return self.values[:, 0]
+
+    @property
+    def n_design_columns(self) -> int:
+        """Exposure plus every covariate column (outcome excluded)."""
+        return 1 + sum(b.df for b in self.blocks.values())
+
+
+def _numeric(frame: pd.DataFrame, column: str, what: str) -> np.ndarray:
+    if column not in frame.columns:
+        raise DataError(
+            f"Column {column!r} ({what}) is not in the analytic sample; bind an existing column."
+        )
+    series = frame[column]
+    if series.dtype == bool:
+        series = series.astype(np.float64)
+    values = pd.to_numeric(series, errors="coerce").to_numpy(dtype=np.float64, na_value=np.nan)
+    bad = ~np.isfinite(values)
+    if bad.any():
+        example = series[bad].iloc[0]
+        raise DataError(
+            f"Column {column!r} ({what}) must be numeric, but holds {example!r}; "
+            "recode it, or declare it binary or categorical."
+        )
+    return values
+
+
+def _levels(series: pd.Series, reference: Any) -> tuple[list[Any], Any]:
+    levels = sorted(pd.unique(series), key=lambda v: (str(type(v)), v))
+    if reference is None:
+        reference = levels[0]
+    elif reference not in levels:
+        # A reference given as text for a numeric column (or the reverse) still matches.
+        matches = [v for v in levels if str(v) == str(reference)]
+        if not matches:
+            raise DataError(
+                f"Reference level {reference!r} of column {series.name!r} does not occur in the "
+                f"analytic sample (levels: {', '.join(map(str, levels))}); choose one of these."
+            )
+        reference = matches[0]
+    return levels, reference
+
+
+def _coded(frame: pd.DataFrame, spec: TermSpec, what: str) -> tuple[list[str], list[np.ndarray]]:
+    """Design columns of one term: names and vectors."""
+    if spec.type not in TERM_TYPES:
+        raise DataError(
+            f"Unknown column type {spec.type!r} for {spec.column!r}; use one of {', '.join(TERM_TYPES)}."
+        )
+    if spec.type in ("continuous", "count"):
+        return [spec.column], [_numeric(frame, spec.column, what)]
+    if spec.column not in frame.columns:
+        raise DataError(
+            f"Column {spec.column!r} ({what}) is not in the analytic sample; bind an existing column."
+        )
+    series = frame[spec.column]
+    levels, reference = _levels(series, spec.reference)
+    if len(levels) < 2:
+        raise DataError(
+            f"Column {spec.column!r} ({what}) has the same value in every row of the analytic "
+            "sample, so it carries no information; unbind it or choose another column."
+        )
+    if spec.type == "binary" and len(levels) > 2:
+        raise DataError(
+            f"Column {spec.column!r} ({what}) is declared binary but has {len(levels)} levels; "
+            "declare it categorical."
+        )
+    others = [v for v in levels if v != reference]
+    if spec.type == "binary" and len(others) == 1:
+        return [spec.column], [(series == others[0]).to_numpy(dtype=np.float64)]
+    return (
+        [f"{spec.column}[{v}]" for v in others],
+        [(series == v).to_numpy(dtype=np.float64) for v in others],
+    )
+
+
+def _check_outcome(y: np.ndarray, family: str, column: str) -> None:
+    if family == "logistic" and not np.isin(y, (0.0, 1.0)).all():
+        bad = y[~np.isin(y, (0.0, 1.0))][0]
+        raise DataError(
+            f"Logistic regression needs an outcome coded 0/1, but {column!r} holds {bad:g}; "
+            "recode the outcome or choose the linear family."
+        )
+    if family == "risk_ratio" and (y < 0).any():
+        raise DataError(
+            f"The risk/rate-ratio model needs a 0/1 or count outcome, but {column!r} has negative "
+            "values; recode the outcome or choose the linear family."
+        )
+    if family in ("logistic", "risk_ratio") and np.all(y == y[0]):
+        raise DataError(
+            f"The outcome {column!r} takes the single value {y[0]:g} in every row of the analytic "
+            "sample, so no effect on it can be estimated."
+        )
+
+
+def make_design(
+    frame: pd.DataFrame,
+    *,
+    exposure: TermSpec,
+    covariates: Mapping[str, TermSpec],
+    outcome: str | None,
+    family: str,
+    time: str | None = None,
+    event: str | None = None,
+    offset: str | None = None,
+    exposure_node: str | None = None,
+) -> Design:
+    """Build the numeric design of every comparison model.
+
+    Parameters
+    ----------
+    frame : DataFrame
+        The analytic sample: complete cases on every column named here.
+    exposure : TermSpec
+        Continuous, count or binary; a two-level categorical is the contrast
+        of its non-reference level.  A multi-level exposure is refused.
+    covariates : mapping of node id → TermSpec
+        Every bound covariate, in the order the blocks are to appear.
+    outcome : str or None
+        Outcome column (None for the Cox family, which uses ``time`` and ``event``).
+    family : str
+        One of :data:`~covariscope.analysis.fits.FAMILIES`.
+    time, event, offset : str, optional
+        Survival time and event indicator (Cox); log-scale offset (risk/rate ratio).
+    exposure_node : str, optional
+        Node id of the exposure, used in messages (defaults to its column).
+
+    Raises
+    ------
+    DataError
+        With one message naming the problem and the fix.
+
+    Examples
+    --------
+    >>> frame = pd.DataFrame({"x": [0, 1, 0, 1, 1], "z": ["a", "b", "c", "a", "b"],
+    ...                       "y": [1.0, 2.5, 0.5, 2.0, 3.0]})
+    >>> d = make_design(frame, exposure=TermSpec("x", "binary"),
+    ...                 covariates={"z": TermSpec("z", "categorical")}, outcome="y", family="linear")
+    >>> d.blocks["z"].columns
+    ('z[b]', 'z[c]')
+    """
+    if family not in FAMILIES:
+        raise DataError(f"Unknown model family {family!r}; use one of {', '.join(FAMILIES)}.")
+    exposure_node = exposure_node or exposure.column
+    n = len(frame)
+    names, vectors = _coded(frame, exposure, "exposure")
+    if len(vectors) > 1:
+        raise DataError(
+            f"The exposure {exposure.column!r} has {len(vectors) + 1} levels; Covariscope compares "
+            "one contrast at a time. Recode it to two levels or a numeric dose."
+        )
+    exposure_name = names[0]
+    all_names = [exposure_name]
+    all_vectors = list(vectors)
+    spans: dict[str, tuple[list[str], tuple[int, ...]]] = {}
+    for node, spec in covariates.items():
+        cnames, cvecs = _coded(frame, spec, f"covariate {node}")
+        start = len(all_vectors)
+        all_names += cnames
+        all_vectors += cvecs
+        spans[node] = (cnames, tuple(range(start, start + len(cvecs))))
+    for name, vec in zip(all_names, all_vectors, strict=True):
+        if n > 0 and np.all(vec == vec[0]):
+            raise DataError(
+                f"Column {name!r} has the same value in every row of the analytic sample, so it "
+                "carries no information; unbind it or choose another column."
+            )
+
+    y = None
+    if family != "cox":
+        if outcome is None:
+            raise DataError(f"The {family} family needs an outcome column; bind the outcome node.")
+        y = _numeric(frame, outcome, "outcome")
+        if n > 0:
+            _check_outcome(y, family, outcome)
+    time_v = event_v = offset_v = None
+    if family == "cox":
+        if time is None or event is None:
+            raise DataError("The Cox family needs a time column and an event column; choose both.")
+        time_v = _numeric(frame, time, "survival time")
+        if (time_v <= 0).any():
+            raise DataError(
+                f"Survival times must be positive, but {time!r} has "
+                f"{int((time_v <= 0).sum())} zero or negative values; correct them or drop those rows."
+            )
+        event_v = _numeric(frame, event, "event indicator")
+        if not np.isin(event_v, (0.0, 1.0)).all():
+            raise DataError(
+                f"The event indicator {event!r} must be coded 0/1 (1 = event); recode it."
+            )
+        if not event_v.any():
+            raise DataError(
+                f"The event indicator {event!r} records no events; a hazard ratio cannot be estimated."
+            )
+    if offset is not None:
+        offset_v = _numeric(frame, offset, "offset")
+
+    n_params = len(all_vectors) + (0 if family == "cox" else 1)
+    if n <= n_params:
+        raise DataError(
+            f"The analytic sample has {n} rows but the largest model has {n_params} parameters; "
+            f"at least {n_params + 1} rows are needed. Load more data or bind fewer covariates."
+        )
+
+    q = len(all_vectors) + (1 if y is not None else 0)
+    values = np.empty((n, q), dtype=np.float64)
+    for j, vec in enumerate(all_vectors):
+        values[:, j] = vec
+    del all_vectors
+    if y is not None:
+        values[:, -1] = y
+    blocks = {
+        node: Block(node, tuple(cn), values[:, idx[0] : idx[-1] + 1], idx)
+        for node, (cn, idx) in spans.items()
+    }
+    digest = hashlib.sha256(memoryview(values).cast("B"))
+    digest.update(repr((family, exposure_node, all_names, list(covariates), outcome)).encode())
+    for extra in (time_v, event_v, offset_v):
+        if extra is not None:
+            digest.update(memoryview(np.ascontiguousarray(extra)).cast("B"))
+    return Design(
+        family=family,
+        exposure_node=exposure_node,
+        exposure_name=exposure_name,
+        values=values,
+        blocks=blocks,
+        y=values[:, -1] if y is not None else None,
+        offset=offset_v,
+        time=time_v,
+        event=event_v,
+        n=n,
+        key=digest.hexdigest(),
+        column_names=tuple(all_names),
+    )

@@ -1,0 +1,560 @@
+"""The comparison models and the numeric evidence per covariate (DESIGN §2).
+
+:class:`EvidenceEngine` fits any model "exposure + a set of covariate terms"
+of one :class:`~covariscope.analysis.design.Design`.  Linear models are
+solved from the one-pass :class:`~covariscope.analysis.linear.LinearSummary`
+and never touch the rows again; logistic, risk-ratio and Cox models call the
+fitting functions of :mod:`covariscope.analysis.glm` and
+:mod:`covariscope.analysis.survival`, warm-started from the nearest model
+already fitted.  Fits are cached by (data digest, family, set of terms), so a
+diagram edit refits only the models it changes.
+
+:func:`compute_evidence` runs the comparisons — crude; crude + C for every
+bound covariate; full; full − C for every candidate; each named set — and
+gathers the evidence table.
+"""
+
+from __future__ import annotations
+
+import math
+from collections import OrderedDict
+from collections.abc import Callable, Mapping, Sequence
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+import scipy.stats
+
+from covariscope.analysis.collinearity import (
+    AliasFinding,
+    CollinearityReport,
+    collinearity_report,
+    find_aliases,
+    gvif,
+    vif,
+)
+from covariscope.analysis.design import Design
+from covariscope.analysis.fits import RATIO_FAMILIES, Fit
+from covariscope.analysis.linear import LinearSummary, OLSResult, linear_summary, solve_ols
+from covariscope.model.errors import DataError
+
+__all__ = [
+    "NEAR_ZERO_SE_FRACTION",
+    "Comparison",
+    "CovariateEvidence",
+    "EvidenceCancelledError",
+    "EvidenceEngine",
+    "EvidenceTable",
+    "compare",
+    "compute_evidence",
+]
+
+#: ``b_without`` counts as near zero, and the change in % as undefined, when
+#: ``|b_without| < NEAR_ZERO_SE_FRACTION × SE_without``: below a tenth of its own
+#: standard error, a shift of a hundredth of a standard error — pure noise —
+#: would already read as a 10 % change.  Common practice, no published source.
+NEAR_ZERO_SE_FRACTION = 0.1
+
+_CACHE_SIZE = 20_000
+_FIT_CACHE: OrderedDict[tuple[str, str, frozenset[str]], tuple[Fit, np.ndarray | None]] = (
+    OrderedDict()
+)
+_SUMMARY_CACHE: OrderedDict[str, LinearSummary] = OrderedDict()
+
+ProgressCallback = Callable[[int, int], None]
+CancelCallback = Callable[[], bool]
+
+
+class EvidenceCancelledError(Exception):
+    """Raised by :func:`compute_evidence` when its ``cancel`` callback says stop."""
+
+
+def _remember(cache: OrderedDict[Any, Any], key: Any, value: Any, size: int) -> None:
+    cache[key] = value
+    cache.move_to_end(key)
+    while len(cache) > size:
+        cache.popitem(last=False)
+
+
+class EvidenceEngine:
+    """Fits the comparison models of one design, caching every result.
+
+    Parameters
+    ----------
+    design : Design
+        The analytic sample's numbers (see :func:`~covariscope.analysis.design.make_design`).
+    family : str
+        Must be the family the design was checked for.
+
+    Examples
+    --------
+    >>> import pandas as pd
+    >>> from covariscope.analysis.design import TermSpec, make_design
+    >>> rng = np.random.default_rng(0)
+    >>> z = rng.normal(size=300); x = z + rng.normal(size=300); y = x + 2 * z + rng.normal(size=300)
+    >>> d = make_design(pd.DataFrame({"x": x, "z": z, "y": y}), exposure=TermSpec("x", "continuous"),
+    ...                 covariates={"z": TermSpec("z", "continuous")}, outcome="y", family="linear")
+    >>> engine = EvidenceEngine(d, "linear")
+    >>> round(engine.fit([]).coef, 1), round(engine.fit(["z"]).coef, 1)
+    (2.1, 1.1)
+    """
+
+    def __init__(self, design: Design, family: str | None = None) -> None:
+        family = family or design.family
+        if family != design.family:
+            raise ValueError(f"design was built for {design.family!r}, not {family!r}")
+        self.design = design
+        self.family = family
+        self._order = {node: i for i, node in enumerate(design.blocks)}
+        self._ols: dict[frozenset[str], OLSResult | None] = {}
+
+    # -- the summary ---------------------------------------------------------------
+    @property
+    def summary(self) -> LinearSummary:
+        """Means and co-moments of [exposure | covariate columns | outcome], one pass."""
+        cached = _SUMMARY_CACHE.get(self.design.key)
+        if cached is None:
+            cached = linear_summary(self.design.values)
+            _remember(_SUMMARY_CACHE, self.design.key, cached, 4)
+        return cached
+
+    def columns(self, terms: Sequence[str]) -> list[int]:
+        """Design-column positions of the exposure and ``terms`` (design order)."""
+        cols = [0]
+        for node in self.ordered(terms):
+            cols.extend(self.design.blocks[node].index)
+        return cols
+
+    def ordered(self, terms: Sequence[str]) -> tuple[str, ...]:
+        """Terms in design order, each once."""
+        return tuple(sorted(set(terms), key=self._order.__getitem__))
+
+    def groups(self, terms: Sequence[str]) -> dict[str, list[int]]:
+        groups = {self.design.exposure_node: [0]}
+        for node in self.ordered(terms):
+            groups[node] = list(self.design.blocks[node].index)
+        return groups
+
+    def aliased(self, terms: Sequence[str] | None = None) -> tuple[AliasFinding, ...]:
+        """Exact linear combinations among the exposure and ``terms`` (default: every term)."""
+        terms = list(self.design.blocks) if terms is None else terms
+        return find_aliases(self.summary, self.groups(terms))
+
+    def exposure_vif(self, terms: Sequence[str]) -> float:
+        """VIF of the exposure in the model with ``terms`` (1 for the crude model)."""
+        return float(vif(self.summary, self.columns(terms))[0])
+
+    # -- fitting -------------------------------------------------------------------
+    def fit(self, terms: Sequence[str]) -> Fit:
+        """The model exposure + ``terms``; a failed :class:`Fit` (never an exception) when it cannot be fitted."""
+        unknown = [t for t in terms if t not in self._order]
+        if unknown:
+            return Fit.failed(
+                self.family,
+                tuple(terms),
+                self.design.n,
+                f"{', '.join(unknown)} is not bound to a data column, so this model cannot be fitted.",
+            )
+        key = (self.design.key, self.family, frozenset(terms))
+        hit = _FIT_CACHE.get(key)
+        if hit is None:
+            hit = self._fit_uncached(self.ordered(terms))
+            _remember(_FIT_CACHE, key, hit, _CACHE_SIZE)
+        return hit[0]
+
+    def ols(self, terms: Sequence[str]) -> OLSResult | None:
+        """The least-squares solution behind a linear :meth:`fit` (None if rank deficient)."""
+        k = frozenset(terms)
+        if k not in self._ols:
+            outcome = self.design.values.shape[1] - 1
+            self._ols[k] = solve_ols(self.summary, self.columns(list(terms)), outcome)
+        return self._ols[k]
+
+    def _precheck(self, terms: tuple[str, ...], n_params: int) -> str | None:
+        n = self.design.n
+        if n <= n_params:
+            return f"The model has {n_params} parameters but only {n} rows; it needs at least {n_params + 1}."
+        found = find_aliases(self.summary, self.groups(terms))
+        if found:
+            return "; ".join(f.message for f in found) + ", so this model cannot separate them."
+        return None
+
+    def _fit_uncached(self, terms: tuple[str, ...]) -> tuple[Fit, np.ndarray | None]:
+        cols = self.columns(terms)
+        names = [self.design.column_names[c] for c in cols]
+        intercept = self.family != "cox"
+        problem = self._precheck(terms, len(cols) + int(intercept))
+        if problem:
+            return Fit.failed(self.family, terms, self.design.n, problem), None
+        if self.family == "linear":
+            return self._fit_linear(terms, names), None
+        start = self._warm_start(terms, names, intercept)
+        values = self.design.values
+        try:
+            if intercept:
+                from covariscope.analysis.glm import fit_glm
+
+                X = np.empty((self.design.n, len(cols) + 1))
+                X[:, 0] = 1.0
+                X[:, 1:] = values[:, cols]
+                fit, params = fit_glm(
+                    X,
+                    self.design.y,
+                    self.family,
+                    column_names=["(intercept)", *names],
+                    terms=terms,
+                    exposure_index=1,
+                    offset=self.design.offset,
+                    start=start,
+                )
+            else:
+                from covariscope.analysis.survival import fit_cox
+
+                fit, params = fit_cox(
+                    np.ascontiguousarray(values[:, cols]),
+                    self.design.time,
+                    self.design.event,
+                    column_names=names,
+                    terms=terms,
+                    exposure_index=0,
+                    start=start,
+                )
+        except (ArithmeticError, ValueError, np.linalg.LinAlgError) as exc:
+            # The fitting functions report their own failures; anything left is still a per-model failure.
+            return Fit.failed(
+                self.family, terms, self.design.n, f"The model could not be fitted: {exc}"
+            ), None
+        return fit, params
+
+    def _warm_start(
+        self, terms: tuple[str, ...], names: list[str], intercept: bool
+    ) -> np.ndarray | None:
+        wanted = frozenset(terms)
+        best: tuple[int, frozenset[str], np.ndarray] | None = None
+        for (dkey, fam, tset), (_, params) in _FIT_CACHE.items():
+            if dkey != self.design.key or fam != self.family or params is None:
+                continue
+            distance = len(tset ^ wanted)
+            if best is None or distance < best[0]:
+                best = (distance, tset, params)
+        if best is None:
+            return None
+        old_cols = self.columns(list(best[1]))
+        old_names = (["(intercept)"] if intercept else []) + [
+            self.design.column_names[c] for c in old_cols
+        ]
+        if len(old_names) != len(best[2]):
+            return None
+        lookup = dict(zip(old_names, best[2], strict=True))
+        new_names = (["(intercept)"] if intercept else []) + names
+        return np.array([lookup.get(name, 0.0) for name in new_names])
+
+    def _fit_linear(self, terms: tuple[str, ...], names: list[str]) -> Fit:
+        res = self.ols(terms)
+        if res is None:
+            return Fit.failed(
+                self.family, terms, self.design.n, "The model's columns are exactly collinear."
+            )
+        t = float(scipy.stats.t.ppf(0.975, res.df_resid))
+        lo, hi = res.coef - t * res.se, res.coef + t * res.se
+        term_coefs = {
+            names[j]: (float(res.coef[j]), float(res.se[j]), float(lo[j]), float(hi[j]))
+            for j in range(1, len(names))
+        }
+        return Fit(
+            family="linear",
+            terms=terms,
+            coef=float(res.coef[0]),
+            se=float(res.se[0]),
+            ci=(float(lo[0]), float(hi[0])),
+            n=res.n,
+            resid_sd=res.sigma,
+            df_resid=res.df_resid,
+            n_params=len(names) + 1,
+            term_coefs=term_coefs,
+        )
+
+
+@dataclass(frozen=True)
+class Comparison:
+    """The exposure estimate with a covariate against without it.
+
+    ``change_pct`` = 100 × (b_with − b_without) / |b_without| (NaN and
+    ``change_defined`` False when b_without is near zero, see
+    :data:`NEAR_ZERO_SE_FRACTION`); ``change_pct_ratio`` = 100 ×
+    (exp(b_with − b_without) − 1) for ratio families; ``se_inflation_pct`` =
+    100 × (SE_with / SE_without − 1).  ``se_ratio_parts`` (linear models):
+    variance-inflation part √(VIF_with / VIF_without), residual part
+    √(RSS_with / RSS_without) and degrees-of-freedom part √(df_without / df_with),
+    whose product is SE_with / SE_without.
+    """
+
+    with_fit: Fit
+    without_fit: Fit
+    change_pct: float
+    change_pct_ratio: float | None
+    se_inflation_pct: float
+    change_defined: bool
+    note: str = ""
+    se_ratio_parts: tuple[float, float, float] | None = None
+
+
+def compare(
+    with_fit: Fit,
+    without_fit: Fit,
+    *,
+    near_zero: float = NEAR_ZERO_SE_FRACTION,
+    se_ratio_parts: tuple[float, float, float] | None = None,
+) -> Comparison:
+    """Change in estimate and SE inflation between two fits (DESIGN §2).
+
+    >>> a = Fit("linear", ("z",), 1.5, 0.2, (1.1, 1.9), 100)
+    >>> b = Fit("linear", (), 2.0, 0.1, (1.8, 2.2), 100)
+    >>> c = compare(a, b)
+    >>> round(c.change_pct, 1), round(c.se_inflation_pct, 1)
+    (-25.0, 100.0)
+    """
+    nan = float("nan")
+    ratio_family = with_fit.family in RATIO_FAMILIES
+    if not (with_fit.ok and without_fit.ok):
+        failed = with_fit if not with_fit.ok else without_fit
+        note = f"Not compared: {failed.message}"
+        return Comparison(
+            with_fit, without_fit, nan, nan if ratio_family else None, nan, False, note
+        )
+    diff = with_fit.coef - without_fit.coef
+    ratio_pct = 100.0 * math.expm1(diff) if ratio_family else None
+    se_pct = 100.0 * (with_fit.se / without_fit.se - 1.0)
+    ref = abs(without_fit.coef)
+    if ref == 0.0 or ref < near_zero * without_fit.se:
+        note = (
+            f"The estimate without the covariate ({without_fit.coef:.3g}) is within {near_zero:g} "
+            "standard errors of zero, so a percentage change is not defined."
+        )
+        if ratio_family:
+            note += " The ratio-scale change is still shown."
+        return Comparison(
+            with_fit, without_fit, nan, ratio_pct, se_pct, False, note, se_ratio_parts
+        )
+    return Comparison(
+        with_fit, without_fit, 100.0 * diff / ref, ratio_pct, se_pct, True, "", se_ratio_parts
+    )
+
+
+@dataclass(frozen=True)
+class CovariateEvidence:
+    """Everything the data say about one covariate (DESIGN §2).
+
+    ``vif``, ``tolerance`` and ``aux_r2`` are for C in the full model (None
+    when C is not a candidate); for a multi-column term ``vif`` is
+    GVIF^(1/df), the value compared with a VIF threshold, and tolerance and
+    auxiliary R² follow from it.  ``own_coef``/``own_se``/``own_ci`` come from
+    crude + C; for a multi-column term they are dicts by design column.
+    """
+
+    node: str
+    added: Comparison
+    dropped: Comparison | None
+    vif_exposure_added: float
+    vif: float | None
+    tolerance: float | None
+    aux_r2: float | None
+    gvif: float | None
+    gvif_root: float | None
+    df: int
+    r2_exposure: float
+    own_coef: float | dict[str, float] | None
+    own_se: float | dict[str, float] | None
+    own_ci: tuple[float, float] | dict[str, tuple[float, float]] | None
+    se_ratio_parts: tuple[float, float, float] | None
+
+
+@dataclass(frozen=True)
+class EvidenceTable:
+    """Every comparison model and the evidence per covariate."""
+
+    family: str
+    crude: Fit
+    full: Fit
+    covariates: dict[str, CovariateEvidence]
+    sets: dict[str, Fit]
+    collinearity: CollinearityReport
+    aliased: tuple[AliasFinding, ...]
+    candidates: tuple[str, ...]
+    warnings: tuple[str, ...] = ()
+    dropped_fits: dict[str, Fit] = field(default_factory=dict)
+
+
+def _se_parts(
+    engine: EvidenceEngine, with_terms: Sequence[str], without_terms: Sequence[str]
+) -> tuple[float, float, float] | None:
+    if engine.family != "linear":
+        return None
+    w, wo = engine.ols(with_terms), engine.ols(without_terms)
+    if w is None or wo is None:
+        return None
+    return (
+        math.sqrt(w.vif[0] / wo.vif[0]),
+        math.sqrt(w.rss / wo.rss),
+        math.sqrt(wo.df_resid / w.df_resid),
+    )
+
+
+def _own(fit: Fit, columns: tuple[str, ...]) -> tuple[Any, Any, Any]:
+    if not fit.ok or any(c not in fit.term_coefs for c in columns):
+        return None, None, None
+    if len(columns) == 1:
+        b, se, lo, hi = fit.term_coefs[columns[0]]
+        return b, se, (lo, hi)
+    return (
+        {c: fit.term_coefs[c][0] for c in columns},
+        {c: fit.term_coefs[c][1] for c in columns},
+        {c: (fit.term_coefs[c][2], fit.term_coefs[c][3]) for c in columns},
+    )
+
+
+def compute_evidence(
+    engine: EvidenceEngine,
+    *,
+    candidates: Sequence[str],
+    added: Sequence[str],
+    sets: Mapping[str, Sequence[str]] | None = None,
+    progress: ProgressCallback | None = None,
+    cancel: CancelCallback | None = None,
+    near_zero: float = NEAR_ZERO_SE_FRACTION,
+    index_threshold: float = 30.0,
+    proportion_threshold: float = 0.5,
+) -> EvidenceTable:
+    """Fit every comparison model and gather the evidence table.
+
+    Parameters
+    ----------
+    engine : EvidenceEngine
+    candidates : sequence of node ids
+        The full model's terms (bound covariates that are not descendants of
+        the exposure or the outcome).
+    added : sequence of node ids
+        Every bound covariate (mediators too): each gets crude + C.
+    sets : mapping of name → node ids
+        Further models ("proposed", "minimal:1", ...).
+    progress : callable(done, total), optional
+    cancel : callable() → bool, optional
+        Checked before each model; True raises :class:`EvidenceCancelledError`.
+    near_zero, index_threshold, proportion_threshold : float
+        See :data:`NEAR_ZERO_SE_FRACTION` and
+        :func:`~covariscope.analysis.collinearity.collinearity_report`.
+
+    Examples
+    --------
+    >>> import pandas as pd
+    >>> from covariscope.analysis.design import TermSpec, make_design
+    >>> rng = np.random.default_rng(0)
+    >>> z = rng.normal(size=300); x = z + rng.normal(size=300); y = x + 2 * z + rng.normal(size=300)
+    >>> d = make_design(pd.DataFrame({"x": x, "z": z, "y": y}), exposure=TermSpec("x", "continuous"),
+    ...                 covariates={"z": TermSpec("z", "continuous")}, outcome="y", family="linear")
+    >>> table = compute_evidence(EvidenceEngine(d), candidates=["z"], added=["z"])
+    >>> round(table.covariates["z"].added.change_pct)
+    -50
+    """
+    design = engine.design
+    sets = dict(sets or {})
+    unknown = [c for c in [*candidates, *added] if c not in design.blocks]
+    if unknown:
+        raise DataError(
+            f"{', '.join(unknown)} is not bound to a data column; bind it or leave it out of the model."
+        )
+    cands = engine.ordered(candidates)
+    added_nodes = list(dict.fromkeys(added))
+    plan: list[tuple[str, ...]] = [(), *[(c,) for c in added_nodes], cands]
+    plan += [tuple(t for t in cands if t != c) for c in cands]
+    plan += [tuple(v) for v in sets.values()]
+    total = len(plan)
+    for done, terms in enumerate(plan):
+        if cancel is not None and cancel():
+            raise EvidenceCancelledError("The evidence computation was cancelled.")
+        engine.fit(terms)
+        if progress is not None:
+            progress(done + 1, total)
+
+    summary = engine.summary
+    crude = engine.fit(())
+    full = engine.fit(cands)
+    full_cols = engine.columns(cands)
+    full_vif = vif(summary, full_cols)
+    covariates: dict[str, CovariateEvidence] = {}
+    dropped_fits: dict[str, Fit] = {}
+    for c in added_nodes:
+        block = design.blocks[c]
+        with_c = engine.fit((c,))
+        added_cmp = compare(
+            with_c, crude, near_zero=near_zero, se_ratio_parts=_se_parts(engine, (c,), ())
+        )
+        dropped_cmp = None
+        v = tol = aux = g = g_root = None
+        if c in cands:
+            rest = tuple(t for t in cands if t != c)
+            without = engine.fit(rest)
+            dropped_fits[c] = without
+            dropped_cmp = compare(
+                full, without, near_zero=near_zero, se_ratio_parts=_se_parts(engine, cands, rest)
+            )
+            if block.df == 1:
+                v = g = float(full_vif[full_cols.index(block.index[0])])
+            else:
+                others = [j for j in full_cols if j not in block.index]
+                g = gvif(summary, list(block.index), others)
+                v = g ** (1.0 / block.df)
+            g_root = g ** (1.0 / (2 * block.df))
+            tol = 1.0 / v
+            aux = 1.0 - tol
+        vif_x = float(vif(summary, [0, *block.index])[0])
+        own = _own(with_c, block.columns)
+        covariates[c] = CovariateEvidence(
+            node=c,
+            added=added_cmp,
+            dropped=dropped_cmp,
+            vif_exposure_added=vif_x,
+            vif=v,
+            tolerance=tol,
+            aux_r2=aux,
+            gvif=g,
+            gvif_root=g_root,
+            df=block.df,
+            r2_exposure=1.0 - 1.0 / vif_x,
+            own_coef=own[0],
+            own_se=own[1],
+            own_ci=own[2],
+            se_ratio_parts=added_cmp.se_ratio_parts,
+        )
+
+    report = collinearity_report(
+        summary,
+        full_cols,
+        [design.column_names[j] for j in full_cols],
+        [design.exposure_node] + [n for n in cands for _ in design.blocks[n].index],
+        index_threshold=index_threshold,
+        proportion_threshold=proportion_threshold,
+    )
+    aliases = engine.aliased([*cands, *added_nodes])
+    warnings = [f.message + "." for f in aliases]
+    if engine.family == "logistic":
+        warnings.append(
+            "Odds ratios are non-collapsible: the estimate can change on adjustment even without confounding."
+        )
+    if engine.family == "cox":
+        warnings.append(
+            "Hazard ratios are non-collapsible: the estimate can change on adjustment even without confounding. "
+            "Ties are handled by Efron's method."
+        )
+    return EvidenceTable(
+        family=engine.family,
+        crude=crude,
+        full=full,
+        covariates=covariates,
+        sets={name: engine.fit(tuple(v)) for name, v in sets.items()},
+        collinearity=report,
+        aliased=aliases,
+        candidates=cands,
+        warnings=tuple(warnings),
+        dropped_fits=dropped_fits,
+    )
