@@ -329,14 +329,14 @@ def newton_glm(
 # ------------------------------------------------------------------ separation
 
 
-def _screen_binary(X: Array, y: Array, family: str) -> Separation:
+def _screen_binary(X: Array, y: Array, family: str, *, first: int = 1) -> Separation:
     """Cheap check: a two-valued column with no events (or only events) at one value."""
     lo, hi = X.min(axis=0), X.max(axis=0)
     is_hi = hi == X
     two_valued = np.all(is_hi | (lo == X), axis=0) & (hi > lo)
     event = y > 0
     for j in np.flatnonzero(two_valued):
-        if j == 0:
+        if j < first:
             continue
         at_hi = is_hi[:, j]
         for level in (at_hi, ~at_hi):
