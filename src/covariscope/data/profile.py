@@ -1,0 +1,412 @@
+"""Column profiles: inferred type, missing values, distinct values, range, levels.
+
+Inference rules (applied to the present values; the first that holds wins).
+The thresholds are common practice, not taken from a published source, and
+the user can override any column's type.
+
+1. Dates: a datetime column, or text whose every value looks like a date
+   (``2021-03-04``, ``04/03/2021``, optionally with a time) → ``date``.
+2. Two distinct values (``0/1``, ``1/2``, ``no/yes``, booleans), or a
+   single value out of ``{0, 1}`` → ``binary``.
+3. A pandas categorical column → ``categorical`` (its own level order).
+4. Whole numbers:
+
+   - all different, at least 20 rows, and either a name that reads as an
+     identifier (``id``, ``*_id``, ``key``, ``code``, ``no``, ``number``) or a
+     run of consecutive values (every integer from min to max) → ``identifier``;
+   - 3 to 10 distinct values, all between 1 and 20 (small positive codes
+     such as education 1–5) → ``categorical``;
+   - non-negative, with zeros present, at least 3 distinct values and a mean
+     at or above the median (the right skew of event counts) → ``count``;
+   - otherwise → ``continuous``. Ages and years are therefore continuous;
+     a 0–3 severity code will read as a count: override it.
+5. Other numbers → ``continuous``.
+6. Text: all different with at least 20 rows → ``identifier``; at most 20
+   distinct values → ``categorical``; otherwise ``text``.
+
+Levels are sorted numbers-first, ascending, then text in natural order
+(``grade 2`` before ``grade 10``). The default reference level is the first
+of these (so 0 for a 0/1 column, ``no`` before ``yes``, the lowest code):
+predictable, and the same as the usual treatment coding in regression
+software. The user can choose another level.
+"""
+
+from __future__ import annotations
+
+import re
+from collections.abc import Mapping
+from dataclasses import dataclass
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+from covariscope.data.values import (
+    is_textual,
+    level_key,
+    parse_numbers,
+    quote_examples,
+    sort_levels,
+)
+from covariscope.model.errors import DataError
+
+__all__ = [
+    "COLUMN_TYPES",
+    "LEVEL_TYPES",
+    "NUMERIC_TYPES",
+    "ColumnProfile",
+    "column_levels",
+    "match_level",
+    "profile_column",
+    "profile_table",
+    "text_in_numbers_error",
+    "validate_type",
+]
+
+COLUMN_TYPES = ("continuous", "binary", "categorical", "count", "date", "identifier", "text")
+LEVEL_TYPES = ("binary", "categorical")
+NUMERIC_TYPES = ("continuous", "count", "binary")
+
+MAX_CODE_LEVELS = 10
+MAX_TEXT_LEVELS = 20
+MIN_IDENTIFIER_ROWS = 20
+MANY_LEVELS = 50
+MOSTLY_MISSING_PCT = 50.0
+_ID_NAME = re.compile(r"(^|[_\W])(id|key|code|no|number|nr)$|^id[_\W]", re.IGNORECASE)
+_DATE_TEXT = re.compile(
+    r"^(\d{4}-\d{1,2}-\d{1,2}|\d{1,2}[/.]\d{1,2}[/.]\d{4})([ T]\d{1,2}:\d{2}(:\d{2}(\.\d+)?)?)?$"
+)
+
+
+@dataclass(frozen=True)
+class ColumnProfile:
+    """What one column holds.
+
+    Attributes
+    ----------
+    name : str
+    type : str
+        The type in use: the override if one was given, else the inferred one.
+    inferred_type : str
+        What the rules in this module's docstring concluded.
+    missing : int
+    missing_pct : float
+        Percentage of rows missing (0–100).
+    distinct : int
+        Distinct present values.
+    minimum, maximum : float, pandas.Timestamp or None
+        For numbers and dates; None for text.
+    levels : tuple
+        For binary and categorical columns, the sorted levels; else empty.
+    reference : object or None
+        The reference level for binary and categorical columns.
+    warnings : tuple of str
+        Plain sentences: all missing, constant, numbers mixed with text, ...
+    """
+
+    name: str
+    type: str
+    inferred_type: str
+    missing: int
+    missing_pct: float
+    distinct: int
+    minimum: Any
+    maximum: Any
+    levels: tuple[Any, ...]
+    reference: Any
+    warnings: tuple[str, ...]
+
+    @property
+    def event_level(self) -> Any:
+        """For a binary column, the level coded 1 (the non-reference level)."""
+        if self.type != "binary":
+            return None
+        others = [v for v in self.levels if v != self.reference]
+        return others[0] if others else None
+
+
+def profile_table(
+    frame: pd.DataFrame,
+    overrides: Mapping[str, str] | None = None,
+    references: Mapping[str, object] | None = None,
+) -> dict[str, ColumnProfile]:
+    """Profile every column of ``frame``.
+
+    Parameters
+    ----------
+    overrides : mapping, optional
+        Column -> type chosen by the user (one of :data:`COLUMN_TYPES`).
+    references : mapping, optional
+        Column -> reference level chosen by the user.
+
+    Raises
+    ------
+    DataError
+        An override or reference names an unknown column, or does not fit
+        its column (see :func:`profile_column`).
+
+    Examples
+    --------
+    >>> frame = pd.DataFrame({"smoker": [0, 1, 1, 0], "bmi": [21.5, 30.2, 25.0, 27.1]})
+    >>> {k: p.type for k, p in profile_table(frame).items()}
+    {'smoker': 'binary', 'bmi': 'continuous'}
+    """
+    overrides = dict(overrides or {})
+    references = dict(references or {})
+    unknown = sorted((set(overrides) | set(references)) - {str(c) for c in frame.columns})
+    if unknown:
+        raise DataError(
+            "The saved column settings name columns that are not in the data: "
+            f"{', '.join(map(repr, unknown))}. Rename the columns back, or clear those settings."
+        )
+    return {
+        str(name): profile_column(
+            frame[name], override_type=overrides.get(str(name)), reference=references.get(str(name))
+        )
+        for name in frame.columns
+    }
+
+
+def profile_column(
+    series: pd.Series, override_type: str | None = None, reference: object = None
+) -> ColumnProfile:
+    """Profile one column and check a user's type or reference choice.
+
+    Parameters
+    ----------
+    series : pandas.Series
+        The column; its name is used in messages.
+    override_type : str, optional
+        A type from :data:`COLUMN_TYPES` to use instead of the inferred one.
+    reference : object, optional
+        Reference level (binary and categorical only; ignored for other
+        types, so a stale choice does not block a changed type). Matched
+        to a level by value or by its text (``"1"`` matches 1).
+
+    Raises
+    ------
+    DataError
+        The override is unknown or does not fit the values (text in a
+        numeric column, more than two levels for binary, ...), or the
+        reference is not a level.
+
+    Examples
+    --------
+    >>> p = profile_column(pd.Series(["no", "yes", None, "yes"], name="diabetes"))
+    >>> p.type, p.levels, p.reference, p.missing
+    ('binary', ('no', 'yes'), 'no', 1)
+    """
+    name = str(series.name)
+    present = series.dropna()
+    missing = int(len(series) - len(present))
+    missing_pct = 100.0 * missing / len(series) if len(series) else 0.0
+    distinct = int(present.nunique())
+    warnings: list[str] = []
+    inferred = _infer(series, present, distinct, warnings)
+    kind = inferred
+    if override_type is not None:
+        validate_type(series, override_type)
+        kind = override_type
+    levels: tuple[Any, ...] = ()
+    chosen_reference: Any = None
+    if kind in LEVEL_TYPES:
+        levels = column_levels(series)
+        chosen_reference = match_level(name, levels, reference)
+    minimum, maximum = _range(series, present, kind)
+    _general_warnings(series, present, kind, distinct, missing_pct, warnings)
+    return ColumnProfile(
+        name=name,
+        type=kind,
+        inferred_type=inferred,
+        missing=missing,
+        missing_pct=missing_pct,
+        distinct=distinct,
+        minimum=minimum,
+        maximum=maximum,
+        levels=levels,
+        reference=chosen_reference,
+        warnings=tuple(warnings),
+    )
+
+
+def column_levels(series: pd.Series) -> tuple[Any, ...]:
+    """The sorted levels of a column (a categorical keeps its own order)."""
+    if isinstance(series.dtype, pd.CategoricalDtype):
+        used = set(series.dropna().unique().tolist())
+        return tuple(level_key(c) for c in series.cat.categories if c in used)
+    return sort_levels(series.dropna().unique().tolist())
+
+
+def validate_type(series: pd.Series, kind: str) -> None:
+    """Raise :class:`DataError` when ``kind`` cannot describe the column's values."""
+    name = str(series.name)
+    if kind not in COLUMN_TYPES:
+        raise DataError(
+            f"Unknown column type {kind!r} for {name!r}. Choose one of: {', '.join(COLUMN_TYPES)}."
+        )
+    present = series.dropna()
+    if kind in ("continuous", "count"):
+        numbers, bad = parse_numbers(series)
+        if bool(bad.any()):
+            raise text_in_numbers_error(name, series[bad], len(present), kind)
+        values = numbers.dropna()
+        if (
+            kind == "count"
+            and len(values)
+            and not bool(((values >= 0) & (values == np.round(values))).all())
+        ):
+            wrong = values[(values < 0) | (values != np.round(values))]
+            raise DataError(
+                f"Column {name!r} cannot be a count: {len(wrong)} value(s) are negative or not "
+                f"whole numbers (e.g. {quote_examples(wrong.tolist())}). Mark it continuous."
+            )
+    elif kind == "binary":
+        levels = column_levels(series)
+        if len(levels) > 2:
+            raise DataError(
+                f"Column {name!r} cannot be binary: it has {len(levels)} distinct values "
+                f"({quote_examples(levels, 5)}{', ...' if len(levels) > 5 else ''}). Mark it "
+                "categorical, or recode it to two values in the file."
+            )
+    elif kind == "date" and not _looks_like_dates(series, present):
+        parsed = pd.to_datetime(present.astype("str"), errors="coerce", format="mixed")
+        wrong = present[parsed.isna().to_numpy()]
+        if len(wrong):
+            raise DataError(
+                f"Column {name!r} cannot be a date: {len(wrong)} of {len(present)} values are "
+                f"not dates (e.g. {quote_examples(wrong.tolist())}). Choose another type, or "
+                "clean the file."
+            )
+
+
+def text_in_numbers_error(name: str, wrong: pd.Series, present: int, kind: str) -> DataError:
+    """The message for text found where numbers were asked for."""
+    return DataError(
+        f"Text in a numeric column: {name!r} is marked {kind}, but {len(wrong)} of {present} "
+        f"values are not numbers (e.g. {quote_examples(wrong.tolist())}). Mark the column "
+        "categorical, or clean the file (a missing value should be an empty cell)."
+    )
+
+
+def _infer(series: pd.Series, present: pd.Series, distinct: int, warnings: list[str]) -> str:
+    name = str(series.name)
+    if len(present) == 0:
+        return "continuous" if pd.api.types.is_numeric_dtype(series.dtype) else "text"
+    if pd.api.types.is_datetime64_any_dtype(series.dtype) or _looks_like_dates(series, present):
+        return "date"
+    if isinstance(series.dtype, pd.CategoricalDtype):
+        return "binary" if distinct == 2 else "categorical"
+    if pd.api.types.is_bool_dtype(series.dtype):
+        return "binary"
+    if is_textual(series):
+        numbers, bad = parse_numbers(present)
+        share = 1.0 - float(bad.mean())
+        if bad.any() and share >= 0.8:
+            wrong = present[bad.to_numpy()]
+            warnings.append(
+                f"Looks numeric, but {len(wrong)} of {len(present)} values are text (e.g. "
+                f"{quote_examples(wrong.tolist())}): clean them in the file, or use the "
+                "column as categorical."
+            )
+        if not bad.any():
+            return _infer_numbers(name, numbers, distinct)
+        if distinct == 2:
+            return "binary"
+        if distinct == len(present) and len(present) >= MIN_IDENTIFIER_ROWS:
+            return "identifier"
+        return "categorical" if distinct <= MAX_TEXT_LEVELS else "text"
+    return _infer_numbers(name, present.astype("float64"), distinct)
+
+
+def _infer_numbers(name: str, values: pd.Series, distinct: int) -> str:
+    values = values.dropna()
+    if distinct == 2 or (distinct == 1 and bool(values.isin([0.0, 1.0]).all())):
+        return "binary"
+    whole = bool(np.all(np.isfinite(values)) and np.all(values == np.round(values)))
+    if not whole or distinct < 2:
+        return "continuous"
+    low, high = float(values.min()), float(values.max())
+    if distinct == len(values) and len(values) >= MIN_IDENTIFIER_ROWS:
+        consecutive = high - low + 1 == len(values)
+        if consecutive or _ID_NAME.search(name):
+            return "identifier"
+    if distinct <= MAX_CODE_LEVELS and low >= 1 and high <= 20:
+        return "categorical"
+    if low >= 0 and low == 0 and distinct >= 3 and values.mean() >= values.median():
+        return "count"
+    return "continuous"
+
+
+def _looks_like_dates(series: pd.Series, present: pd.Series) -> bool:
+    if pd.api.types.is_datetime64_any_dtype(series.dtype):
+        return True
+    if not is_textual(series) or len(present) == 0:
+        return False
+    sample = present.astype("str").str.strip()
+    sample = sample.iloc[: min(len(sample), 2000)]
+    return bool(sample.str.match(_DATE_TEXT).all())
+
+
+def match_level(name: str, levels: tuple[Any, ...], reference: object) -> Any:
+    """The level that ``reference`` names (by value or text); the first level when None."""
+    if not levels:
+        return None
+    if reference is None:
+        return levels[0]
+    wanted = level_key(reference)
+    for level in levels:
+        if level == wanted or str(level) == str(reference):
+            return level
+    raise DataError(
+        f"{reference!r} is not a level of {name!r}. Choose one of: {quote_examples(levels, 20)}."
+    )
+
+
+def _range(series: pd.Series, present: pd.Series, kind: str) -> tuple[Any, Any]:
+    if len(present) == 0:
+        return None, None
+    if pd.api.types.is_datetime64_any_dtype(series.dtype):
+        return present.min(), present.max()
+    if kind == "date":
+        parsed = pd.to_datetime(present.astype("str"), errors="coerce", format="mixed")
+        return parsed.min(), parsed.max()
+    if kind in ("identifier", "text") and is_textual(series):
+        return None, None
+    numbers, bad = parse_numbers(present)
+    if bool(bad.any()) or bool(numbers.isna().all()):
+        return None, None
+    return float(numbers.min()), float(numbers.max())
+
+
+def _general_warnings(
+    series: pd.Series,
+    present: pd.Series,
+    kind: str,
+    distinct: int,
+    missing_pct: float,
+    warnings: list[str],
+) -> None:
+    if len(present) == 0:
+        warnings.append(
+            f"All {len(series)} values are missing: the column cannot be used. Leave it "
+            "unbound, or check the export."
+        )
+        return
+    if distinct == 1:
+        value = present.iloc[0]
+        warnings.append(
+            f"Constant: every present value is {str(value)!r}, so it cannot explain any "
+            "difference between rows. Leave it out of the models."
+        )
+    if missing_pct > MOSTLY_MISSING_PCT:
+        warnings.append(
+            f"{missing_pct:.0f}% of values are missing: adjusting for it would drop most rows "
+            "from the analytic sample."
+        )
+    if kind == "identifier":
+        warnings.append("Every value is different: this looks like an identifier, not a covariate.")
+    if kind == "categorical" and distinct > MANY_LEVELS:
+        warnings.append(
+            f"{distinct} levels: a categorical covariate with this many levels adds as many "
+            "terms to the model. Group the levels, or use it as continuous if it is a number."
+        )

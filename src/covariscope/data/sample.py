@@ -1,0 +1,170 @@
+"""The analytic sample: complete cases on every column the models use.
+
+Every compared model (crude, each covariate added, full, each dropped, each
+set) must see the same rows, or differences between estimates would mix
+confounding with a change of sample; so rows are kept only when complete on
+outcome, exposure and every bound measured covariate at once.
+"""
+
+from __future__ import annotations
+
+import difflib
+from collections.abc import Sequence
+from dataclasses import dataclass, field
+
+import numpy as np
+import pandas as pd
+
+from covariscope.model.errors import DataError
+
+__all__ = ["AnalyticSample", "analytic_sample"]
+
+
+@dataclass(frozen=True, eq=False)
+class AnalyticSample:
+    """Complete cases on the chosen columns.
+
+    Attributes
+    ----------
+    frame : pandas.DataFrame
+        The complete rows, only the chosen columns, original index kept (so
+        a row can be traced back to the file).
+    rows : int
+        Rows in the file.
+    used : int
+        Rows in the sample.
+    columns : tuple of str
+        The chosen columns, in order, without repeats.
+    missing_by_column : dict
+        Column -> rows missing that column in the whole file.
+    lost_by_column : dict
+        Column -> rows lost *only* because of that column: missing there and
+        complete on every other chosen column, i.e. the rows that dropping
+        the column would win back.
+    lost_to_several : int
+        Rows missing two or more chosen columns. Together with
+        ``lost_by_column`` it adds up to ``rows - used``.
+    message : str
+        A plain summary for the user.
+    """
+
+    frame: pd.DataFrame
+    rows: int
+    used: int
+    columns: tuple[str, ...]
+    missing_by_column: dict[str, int] = field(default_factory=dict)
+    lost_by_column: dict[str, int] = field(default_factory=dict)
+    lost_to_several: int = 0
+    message: str = ""
+
+    @property
+    def dropped(self) -> int:
+        """Rows left out."""
+        return self.rows - self.used
+
+
+def analytic_sample(frame: pd.DataFrame, columns: Sequence[str]) -> AnalyticSample:
+    """Keep the rows complete on ``columns`` and say what was lost, and why.
+
+    Parameters
+    ----------
+    frame : pandas.DataFrame
+        The loaded data.
+    columns : sequence of str
+        Outcome, exposure and every bound measured covariate (and any other
+        column the models read, such as a time, event or offset column).
+
+    Raises
+    ------
+    DataError
+        A column is not in the data (closest names suggested), or no row
+        is complete (naming the columns responsible).
+
+    Examples
+    --------
+    >>> frame = pd.DataFrame({"y": [1.0, 2.0, None, 4.0], "x": [0, 1, 1, None]})
+    >>> s = analytic_sample(frame, ["y", "x"])
+    >>> s.rows, s.used, s.missing_by_column, s.lost_by_column
+    (4, 2, {'y': 1, 'x': 1}, {'y': 1, 'x': 1})
+    """
+    chosen = tuple(dict.fromkeys(str(c) for c in columns))
+    _check_known(frame, chosen)
+    rows = len(frame)
+    if not chosen:
+        return AnalyticSample(frame.iloc[:, :0], rows, rows, chosen, message=_summary(rows, rows))
+    missing = frame.loc[:, list(chosen)].isna().to_numpy()
+    per_row = missing.sum(axis=1)
+    keep = per_row == 0
+    missing_by_column = {c: int(n) for c, n in zip(chosen, missing.sum(axis=0), strict=True)}
+    alone = missing[per_row == 1].sum(axis=0)
+    lost_by_column = {c: int(n) for c, n in zip(chosen, alone, strict=True)}
+    lost_to_several = int(np.count_nonzero(per_row > 1))
+    used = int(np.count_nonzero(keep))
+    if used == 0:
+        raise _no_rows_error(rows, missing_by_column)
+    message = _summary(rows, used, lost_by_column, lost_to_several, len(chosen))
+    return AnalyticSample(
+        frame=frame.loc[keep, list(chosen)],
+        rows=rows,
+        used=used,
+        columns=chosen,
+        missing_by_column=missing_by_column,
+        lost_by_column=lost_by_column,
+        lost_to_several=lost_to_several,
+        message=message,
+    )
+
+
+def _check_known(frame: pd.DataFrame, chosen: tuple[str, ...]) -> None:
+    names = [str(c) for c in frame.columns]
+    unknown = [c for c in chosen if c not in names]
+    if not unknown:
+        return
+    hints = []
+    for name in unknown:
+        close = difflib.get_close_matches(name, names, n=1)
+        hints.append(f"{name!r}" + (f" (did you mean {close[0]!r}?)" if close else ""))
+    raise DataError(
+        f"Not in the data: {', '.join(hints)}. Bind the node to an existing column, or load "
+        "the data file that has it."
+    )
+
+
+def _no_rows_error(rows: int, missing_by_column: dict[str, int]) -> DataError:
+    if rows == 0:
+        return DataError("The data have no rows, so there is no analytic sample. Load a data file.")
+    empty = [c for c, n in missing_by_column.items() if n == rows]
+    if empty:
+        return DataError(
+            f"No row is complete: {', '.join(map(repr, empty))} "
+            f"{'is' if len(empty) == 1 else 'are'} missing in every row. Unbind "
+            f"{'it' if len(empty) == 1 else 'them'}, or bind another column."
+        )
+    worst = sorted(missing_by_column.items(), key=lambda kv: -kv[1])
+    listing = ", ".join(f"{c!r} ({n} missing)" for c, n in worst if n)
+    return DataError(
+        f"No row is complete on all chosen columns: every one of the {rows} rows misses at "
+        f"least one of {listing}. Leave out the covariates with the most missing values."
+    )
+
+
+def _summary(
+    rows: int,
+    used: int,
+    lost: dict[str, int] | None = None,
+    several: int = 0,
+    count: int = 0,
+) -> str:
+    if used == rows:
+        return f"All {rows:,} rows are complete and used."
+    dropped = rows - used
+    share = 100.0 * dropped / rows
+    parts = [
+        f"{c} missing in {n:,}" for c, n in sorted((lost or {}).items(), key=lambda kv: -kv[1]) if n
+    ]
+    if several:
+        parts.append(f"{several:,} missing more than one")
+    return (
+        f"{used:,} of {rows:,} rows used (complete on all {count} columns); "
+        f"{dropped:,} dropped ({share:.1f}%): " + "; ".join(parts) + "."
+    )
