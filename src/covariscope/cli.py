@@ -129,9 +129,10 @@ def _load(project_path: str, data: str | None) -> tuple[Any, Any]:
 
 
 def _run(project_path: str, data: str | None, family: str | None) -> tuple[Any, Any]:
+    project, table = _load(project_path, data)
+    project.diagram.require_question()
     from covariscope.study import run_study
 
-    project, table = _load(project_path, data)
     result = run_study(project, table=table, family=family)
     return project, result
 
@@ -140,16 +141,15 @@ def _run(project_path: str, data: str | None, family: str | None) -> tuple[Any, 
 
 
 def _cmd_check(args: argparse.Namespace) -> int:
+    _, result = _run(args.project, args.data, args.family)
     from covariscope.study import format_study_text, study_to_json
 
-    _, result = _run(args.project, args.data, args.family)
     if args.json:
         json.dump(study_to_json(result), sys.stdout, indent=2, allow_nan=False)
         sys.stdout.write("\n")
     else:
-        sys.stdout.write(format_study_text(result))
-        if not format_study_text(result).endswith("\n"):
-            sys.stdout.write("\n")
+        text = format_study_text(result)
+        sys.stdout.write(text if text.endswith("\n") else text + "\n")
     return 0
 
 

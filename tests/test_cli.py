@@ -1,0 +1,76 @@
+"""The command line: bad input ends in one plain line and exit status 2."""
+
+from __future__ import annotations
+
+import json
+import subprocess
+import sys
+
+import pytest
+
+from covariscope.cli import has_display, main, one_line
+
+
+def run(capsys, *argv):
+    code = main(list(argv))
+    out, err = capsys.readouterr()
+    return code, out, err
+
+
+GOOD = {
+    "format": "covariscope-project",
+    "version": 1,
+    "diagram": {
+        "nodes": [{"id": "x", "kind": "exposure"}, {"id": "y", "kind": "outcome"}, {"id": "c"}],
+        "arrows": [{"from": "c", "to": "x"}, {"from": "c", "to": "y"}, {"from": "x", "to": "y"}],
+    },
+}
+
+
+@pytest.mark.parametrize(
+    ("content", "expected"),
+    [
+        (None, "no such file"),
+        ("{not json", "not valid JSON"),
+        (json.dumps({**GOOD, "version": 99}), "newer Covariscope"),
+        (
+            json.dumps(
+                {**GOOD, "diagram": {**GOOD["diagram"], "arrows": [{"from": "c", "to": "q"}]}}
+            ),
+            'diagram.arrows[0].to: unknown node "q"',
+        ),
+        (
+            json.dumps({**GOOD, "diagram": {"nodes": [{"id": "x", "kind": "exposure"}]}}),
+            "no outcome",
+        ),
+    ],
+)
+def test_bad_input_is_one_line_and_exit_2(tmp_path, capsys, content, expected):
+    path = tmp_path / "p.json"
+    if content is not None:
+        path.write_text(content, encoding="utf-8")
+    code, out, err = run(capsys, "check", str(path))
+    assert code == 2
+    assert expected in err
+    assert len(err.strip().splitlines()) == 1
+    assert "Traceback" not in err + out
+
+
+def test_one_line_folds_a_problem_list():
+    assert one_line("Problems:\n  - a: b\n  - c: d") == "Problems: a: b; c: d"
+
+
+def test_offscreen_counts_as_no_display(monkeypatch):
+    monkeypatch.setenv("QT_QPA_PLATFORM", "offscreen")
+    assert not has_display()
+
+
+def test_module_runs_as_a_program(tmp_path):
+    result = subprocess.run(
+        [sys.executable, "-m", "covariscope.cli", "check", str(tmp_path / "missing.json")],
+        capture_output=True,
+        text=True,
+        check=False,
+    )
+    assert result.returncode == 2
+    assert "no such file" in result.stderr
