@@ -12,6 +12,7 @@ data changed.
 
 from __future__ import annotations
 
+import codecs
 import os
 from collections import defaultdict
 from collections.abc import Callable, Mapping
@@ -232,7 +233,7 @@ def detect_format(path: Path, head: bytes) -> tuple[str, list[str]]:
         return by_content, notes
     if by_name is not None and by_name != "text":
         return by_name, notes
-    if b"\x00" not in head:
+    if b"\x00" not in head or head.startswith((codecs.BOM_UTF16_LE, codecs.BOM_UTF16_BE)):
         if by_name is None:
             notes.append(f"Unknown extension {suffix or '(none)'}; read as delimited text.")
         return "text", notes

@@ -45,26 +45,29 @@ def read_excel(path: Path, sheet: str | int | None, steps: Steps) -> ReadResult:
     """
     import openpyxl
 
-    try:
-        book = openpyxl.load_workbook(path, read_only=True, data_only=True)
-    except Exception as exc:  # openpyxl raises many kinds for a damaged file
-        raise DataError(
-            f"{path.name} could not be opened as an Excel workbook ({exc}). Open it in "
-            "your spreadsheet program and save it again as .xlsx, or export it as CSV."
-        ) from exc
-    try:
-        names = list(book.sheetnames)
-        title = _pick_sheet(path, names, sheet)
-        sheet_obj = book[title]
-        total = sheet_obj.max_row or 0
-        rows: list[tuple[Any, ...]] = []
-        for number, row in enumerate(sheet_obj.iter_rows(values_only=True), start=1):
-            if any(v is not None and not (isinstance(v, str) and not v.strip()) for v in row):
-                rows.append(row)
-            if number % _EXCEL_PROGRESS_ROWS == 0:
-                steps.report(number / total if total else 0.0)
-    finally:
-        book.close()
+    # A handle rather than a path: openpyxl then opens nothing itself and
+    # does not refuse a workbook whose name has another extension.
+    with open(path, "rb") as handle:
+        try:
+            book = openpyxl.load_workbook(handle, read_only=True, data_only=True)
+        except Exception as exc:  # openpyxl raises many kinds for a damaged file
+            raise DataError(
+                f"{path.name} could not be opened as an Excel workbook ({exc}). Open it in "
+                "your spreadsheet program and save it again as .xlsx, or export it as CSV."
+            ) from exc
+        try:
+            names = list(book.sheetnames)
+            title = _pick_sheet(path, names, sheet)
+            sheet_obj = book[title]
+            total = sheet_obj.max_row or 0
+            rows: list[tuple[Any, ...]] = []
+            for number, row in enumerate(sheet_obj.iter_rows(values_only=True), start=1):
+                if any(v is not None and not (isinstance(v, str) and not v.strip()) for v in row):
+                    rows.append(row)
+                if number % _EXCEL_PROGRESS_ROWS == 0:
+                    steps.report(number / total if total else 0.0)
+        finally:
+            book.close()
     notes = []
     if len(names) > 1:
         others = ", ".join(repr(n) for n in names if n != title)
