@@ -379,18 +379,20 @@ def detect_separation(X: Array, y: Array, *, family: str = "logistic") -> Separa
     if family == "logistic":
         s = np.where(y > 0, 1.0, -1.0)
         A = s[:, None] * Xs
+        A_eq = None
         res = optimize.linprog(
             -A.sum(axis=0), A_ub=-A, b_ub=np.zeros(n), bounds=(-1, 1), method="highs", options=opts
         )
     else:
         pos = y > 0
         A = -Xs[~pos]
+        A_eq = Xs[pos] if pos.any() else None
         res = optimize.linprog(
             -A.sum(axis=0),
             A_ub=-A,
             b_ub=np.zeros(len(A)),
-            A_eq=Xs[pos] if pos.any() else None,
-            b_eq=np.zeros(int(pos.sum())) if pos.any() else None,
+            A_eq=A_eq,
+            b_eq=None if A_eq is None else np.zeros(len(A_eq)),
             bounds=(-1, 1),
             method="highs",
             options=opts,
@@ -403,7 +405,7 @@ def detect_separation(X: Array, y: Array, *, family: str = "logistic") -> Separa
     separated = int(np.count_nonzero(margins > thresh))
     if separated == 0:
         return Separation("none")
-    cols = tuple(int(j) for j in np.flatnonzero(np.abs(direction) > 1e-6))
+    in_s = margins > thresh
     kind = "quasi-complete"
     if family == "logistic":
         # Complete separation needs every margin positive at once: maximise the smallest.
@@ -416,7 +418,48 @@ def detect_separation(X: Array, y: Array, *, family: str = "logistic") -> Separa
         )
         if res2.status == 0 and -float(res2.fun) > thresh:
             kind, separated = "complete", n
+            in_s = np.ones(n, dtype=bool)
+    cols = _sparse_direction(A, in_s, Xs, A_eq) or tuple(
+        int(j) for j in np.flatnonzero(np.abs(direction) > 1e-6)
+    )
     return Separation(kind, cols, separated)
+
+
+def _sparse_direction(
+    A: Array, in_s: npt.NDArray[np.bool_], Xs: Array, A_eq: Array | None
+) -> tuple[int, ...]:
+    """Columns of the sparsest separating direction (least L1 norm), so that the
+    message names the columns responsible rather than every column."""
+    m, p = A.shape
+    free = np.ptp(Xs, axis=0) == 0.0  # the intercept costs nothing
+    eye = np.eye(p)
+    # Margins ≥ 0 everywhere and, on average over the separated rows, ≥ 1.
+    total = -(in_s.astype(float) @ A)
+    A_ub = np.vstack(
+        [
+            np.hstack([-A, np.zeros((m, p))]),
+            np.concatenate([total, np.zeros(p)])[None, :],
+            np.hstack([eye, -eye]),
+            np.hstack([-eye, -eye]),
+        ]
+    )
+    b_ub = np.concatenate([np.zeros(m), [-float(np.count_nonzero(in_s))], np.zeros(2 * p)])
+    c = np.concatenate([np.zeros(p), np.where(free, 0.0, 1.0)])
+    eq = None if A_eq is None else np.hstack([A_eq, np.zeros((len(A_eq), p))])
+    res = optimize.linprog(
+        c,
+        A_ub=A_ub,
+        b_ub=b_ub,
+        A_eq=eq,
+        b_eq=None if eq is None else np.zeros(len(eq)),
+        bounds=[(None, None)] * p + [(0, None)] * p,
+        method="highs",
+    )
+    if res.status != 0:
+        return ()
+    b = np.asarray(res.x[:p])
+    big = float(np.max(np.abs(b)))
+    return tuple(int(j) for j in np.flatnonzero(np.abs(b) > 1e-6 * big)) if big > 0 else ()
 
 
 def _separation_words(sep: Separation, names: list[str], family: str) -> str:
