@@ -16,10 +16,12 @@ the user can override any column's type.
      run of consecutive values (every integer from min to max) → ``identifier``;
    - 3 to 10 distinct values, all between 1 and 20 (small positive codes
      such as education 1–5) → ``categorical``;
-   - non-negative, with zeros present, at least 3 distinct values and a mean
-     at or above the median (the right skew of event counts) → ``count``;
+   - non-negative, with zeros present, at least 3 distinct values and a
+     positive sample skewness (the long right tail of event counts) →
+     ``count``;
    - otherwise → ``continuous``. Ages and years are therefore continuous;
-     a 0–3 severity code will read as a count: override it.
+     a 0–4 code without its own labels reads as continuous or count:
+     override it to categorical when it is one.
 5. Other numbers → ``continuous``.
 6. Text: all different with at least 20 rows → ``identifier``; at most 20
    distinct values → ``categorical``; otherwise ``text``.
@@ -332,7 +334,7 @@ def _infer_numbers(name: str, values: pd.Series, distinct: int) -> str:
             return "identifier"
     if distinct <= MAX_CODE_LEVELS and low >= 1 and high <= 20:
         return "categorical"
-    if low >= 0 and low == 0 and distinct >= 3 and values.mean() >= values.median():
+    if low == 0 and distinct >= 3 and float(values.skew()) > 0:
         return "count"
     return "continuous"
 
