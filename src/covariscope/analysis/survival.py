@@ -258,15 +258,15 @@ def fit_cox(
         return Fit.failed(family, terms, n, rank_message(clauses)), None
     warns: list[str] = []
     blank: frozenset[int] = frozenset()
-    if not path.converged:
-        sep = _screen_binary(X, event, "risk_ratio", first=0)
-        if sep.found:
-            cols = sep.columns
-        else:
-            scale = np.std(X, axis=0)
-            cols = tuple(
-                int(j) for j in np.flatnonzero(np.abs(path.params) * scale > DIVERGE_SD / 2)
-            )
+    # Coefficients that run off to infinity do not stop the Newton loop (the
+    # likelihood still converges), so look for them whatever the loop said.
+    scale = np.std(X, axis=0)
+    huge = np.abs(path.params) * scale > DIVERGE_SD / 2
+    if path.cov is not None:
+        huge |= np.sqrt(np.clip(np.diag(path.cov), 0.0, None)) * scale > 5 * DIVERGE_SD
+    sep = _screen_binary(X, event, "risk_ratio", first=0)
+    if sep.found or huge.any() or not path.converged:
+        cols = sep.columns if sep.found else tuple(int(j) for j in np.flatnonzero(huge))
         if cols:
             who = ", ".join(names[j] for j in cols)
             words = (
