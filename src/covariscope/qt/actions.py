@@ -1,0 +1,187 @@
+"""The window's actions, menus and toolbar, with the usual shortcuts."""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+from typing import TYPE_CHECKING
+
+from PySide6.QtGui import QAction, QActionGroup, QKeySequence
+from PySide6.QtWidgets import QMenu, QToolBar
+
+from covariscope.qt.diagnostics import FAMILY_LABELS
+
+if TYPE_CHECKING:
+    from covariscope.qt.main_window import MainWindow
+
+__all__ = ["CAUTIONS", "WindowActions"]
+
+CAUTIONS = (
+    "<p><b>Read the results with these cautions.</b></p>"
+    "<ul>"
+    "<li>The diagram holds assumptions — which variable causes which — that the data "
+    "cannot fully test. A verdict is only as sound as the diagram behind it.</li>"
+    "<li>The thresholds (change in estimate, SE inflation, VIF, condition index) are "
+    "guides from common practice, not rules. Edit them under Analysis ▸ Thresholds.</li>"
+    "<li>Unmeasured confounding is always possible; the E-value says how strong it would "
+    "have to be to explain the estimate away.</li>"
+    "<li>Covariscope supports the analyst's judgment and the study's pre-specified analysis "
+    "plan. It does not replace them.</li>"
+    "</ul>"
+)
+
+_Std = QKeySequence.StandardKey
+
+
+class WindowActions:
+    """Creates every action once; the window connects nothing else by hand."""
+
+    def __init__(self, w: MainWindow) -> None:
+        self.w = w
+        a = self._action
+        io = w.io
+        self.new = a("&New project", io.new, _Std.New)
+        self.open = a("&Open project…", lambda: io.open(), _Std.Open)
+        self.open_demo = a("Open the &demo study", w.open_demo)
+        self.save = a("&Save", io.save, _Std.Save)
+        self.save_as = a("Save &as…", lambda: io.save_as(), "Ctrl+Shift+S")
+        self.load_data = a("&Load data…", lambda: w.data.choose_and_load(), "Ctrl+L")
+        self.export_png = a("Diagram as &PNG…", lambda: w.export_diagram("png"))
+        self.export_svg = a("Diagram as &SVG…", lambda: w.export_diagram("svg"))
+        self.export_graphml = a("Diagram as &GraphML…", lambda: w.export_diagram("graphml"))
+        self.export_csv = a("Review table as &CSV…", w.export_review_csv)
+        self.print = a("&Print rationale…", w.print_rationale, _Std.Print)
+        self.pdf = a("Save rationale as P&DF…", w.save_rationale_pdf)
+        self.quit = a("&Quit", w.close, _Std.Quit)
+
+        self.undo = w.undo_stack.createUndoAction(w, "&Undo")
+        self.undo.setShortcut(_Std.Undo)
+        self.redo = w.undo_stack.createRedoAction(w, "&Redo")
+        self.redo.setShortcuts([QKeySequence("Ctrl+Shift+Z"), QKeySequence(_Std.Redo)])
+        self.copy = a("&Copy", w.copy_selection, _Std.Copy)
+        self.paste = a("&Paste", w.paste, _Std.Paste)
+        self.delete = a("&Delete", lambda: w.scene.delete_selection(), _Std.Delete)
+        self.reverse = a("&Reverse arrow", lambda: w.scene.reverse_selected_arrows(), "Ctrl+R")
+
+        self.add_node = a("Add &node", w.add_node_at_centre, "Ctrl+Shift+N")
+        self.mode_group = QActionGroup(w)
+        self.mode_select = self._mode("&Select and move", "select", "S")
+        self.mode_arrow = self._mode("Draw &arrow", "arrow", "A")
+        self.mode_proxy = self._mode("Draw pro&xy link", "proxy", "X")
+        self.mode_select.setChecked(True)
+        self.make_exposure = a(
+            "Make &exposure", lambda: w.set_kind_of_selection("exposure"), "Ctrl+E"
+        )
+        self.make_outcome = a("Make &outcome", lambda: w.set_kind_of_selection("outcome"), "Ctrl+U")
+        self.make_covariate = a("Make &covariate", lambda: w.set_kind_of_selection("covariate"))
+        self.toggle_measured = a(
+            "Mark &measured / unmeasured", w.toggle_measured_of_selection, "Ctrl+M"
+        )
+        self.layout = a("Automatic &layout", lambda: w.scene.auto_layout(), "Ctrl+Shift+L")
+        self.fit = a("&Fit to window", lambda: w.view.fit_to_window(), "Ctrl+0")
+
+        self.family_group = QActionGroup(w)
+        self.family: dict[str, QAction] = {}
+        for key, label in FAMILY_LABELS.items():
+            act = QAction(label, w, checkable=True)
+            act.triggered.connect(lambda _=False, k=key: w.set_family(k))
+            self.family_group.addAction(act)
+            self.family[key] = act
+        self.thresholds = a("&Thresholds…", w.edit_thresholds)
+        self.rerun = a("&Run the analysis again", w.runner.run_now, _Std.Refresh)
+        self.cancel = a("&Cancel", w.cancel_work, "Esc")
+
+        self.cautions = a(
+            "&Cautions", lambda: w.prompts.info("Cautions", CAUTIONS), _Std.HelpContents
+        )
+        self.about = a("&About Covariscope", w.show_about)
+
+    def _action(
+        self, text: str, slot: Callable, shortcut: QKeySequence.StandardKey | str | None = None
+    ) -> QAction:
+        act = QAction(text, self.w)
+        if shortcut is not None:
+            act.setShortcut(QKeySequence(shortcut))
+        act.triggered.connect(lambda _=False: slot())
+        return act
+
+    def _mode(self, text: str, mode: str, shortcut: str) -> QAction:
+        act = QAction(text, self.w, checkable=True)
+        act.setShortcut(QKeySequence(shortcut))
+        act.setData(mode)
+        act.triggered.connect(lambda _=False: self.w.scene.set_mode(mode))
+        self.mode_group.addAction(act)
+        return act
+
+    def build_menus(self) -> None:
+        bar = self.w.menuBar()
+        file = bar.addMenu("&File")
+        file.addActions([self.new, self.open])
+        self.recent_menu = file.addMenu("Open &recent")
+        self.recent_menu.aboutToShow.connect(self.fill_recent)
+        file.addAction(self.open_demo)
+        file.addSeparator()
+        file.addActions([self.save, self.save_as])
+        file.addSeparator()
+        file.addAction(self.load_data)
+        export = file.addMenu("&Export")
+        export.addActions([self.export_png, self.export_svg, self.export_graphml, self.export_csv])
+        file.addSeparator()
+        file.addActions([self.print, self.pdf])
+        file.addSeparator()
+        file.addAction(self.quit)
+
+        edit = bar.addMenu("&Edit")
+        edit.addActions([self.undo, self.redo])
+        edit.addSeparator()
+        edit.addActions([self.copy, self.paste, self.delete])
+
+        diagram = bar.addMenu("&Diagram")
+        diagram.addAction(self.add_node)
+        diagram.addActions(self.mode_group.actions())
+        diagram.addSeparator()
+        diagram.addActions(
+            [self.make_exposure, self.make_outcome, self.make_covariate, self.toggle_measured]
+        )
+        diagram.addAction(self.reverse)
+        diagram.addSeparator()
+        diagram.addActions([self.layout, self.fit])
+
+        analysis = bar.addMenu("&Analysis")
+        family = analysis.addMenu("Model &family")
+        family.addActions(self.family_group.actions())
+        analysis.addActions([self.thresholds, self.rerun, self.cancel])
+
+        self.view_menu = bar.addMenu("&View")
+        help_ = bar.addMenu("&Help")
+        help_.addActions([self.cautions, self.about])
+
+    def build_toolbar(self) -> QToolBar:
+        tb = QToolBar("Main tools")
+        tb.setObjectName("mainToolbar")
+        tb.addActions([self.new, self.open, self.save])
+        tb.addSeparator()
+        tb.addActions([self.undo, self.redo])
+        tb.addSeparator()
+        tb.addAction(self.add_node)
+        tb.addActions(self.mode_group.actions())
+        tb.addSeparator()
+        tb.addActions([self.make_exposure, self.make_outcome])
+        tb.addSeparator()
+        tb.addActions([self.load_data, self.layout, self.fit])
+        tb.addSeparator()
+        tb.addAction(self.print)
+        return tb
+
+    def fill_recent(self) -> None:
+        menu: QMenu = self.recent_menu
+        menu.clear()
+        files = self.w.io.recent_files()
+        for path in files:
+            act = menu.addAction(path)
+            act.triggered.connect(lambda _=False, p=path: self.w.io.open(p))
+        if not files:
+            menu.addAction("No recent projects").setEnabled(False)
+
+    def sync_family(self, family: str) -> None:
+        if family in self.family:
+            self.family[family].setChecked(True)

@@ -1,0 +1,75 @@
+"""Starting the window: the QApplication, the style sheet, the first-start
+offer of the demo, and the recovery offer after a crash."""
+
+from __future__ import annotations
+
+import sys
+from importlib import resources
+
+from PySide6.QtCore import QSettings
+from PySide6.QtWidgets import QApplication
+
+from covariscope.model.errors import CovariscopeError
+
+__all__ = ["application", "run_gui", "style_sheet"]
+
+ORGANISATION = "Covariscope"
+APPLICATION = "Covariscope"
+
+
+def style_sheet() -> str:
+    """The packaged style sheet ('' when missing)."""
+    try:
+        return (resources.files("covariscope") / "resources" / "covariscope.qss").read_text(
+            encoding="utf-8"
+        )
+    except (FileNotFoundError, OSError):
+        return ""
+
+
+def application() -> QApplication:
+    """The one QApplication, created and styled on first use."""
+    app = QApplication.instance()
+    if app is None:
+        app = QApplication(sys.argv[:1])
+    app.setOrganizationName(ORGANISATION)
+    app.setApplicationName(APPLICATION)
+    app.setApplicationDisplayName(APPLICATION)
+    if not app.styleSheet():
+        app.setStyleSheet(style_sheet())
+    return app  # type: ignore[return-value]
+
+
+def start_window(project_path: str | None = None, *, demo: bool = False):
+    """Build and show the main window, with the start-up offers; returns it."""
+    from covariscope.qt.main_window import MainWindow
+
+    application()
+    window = MainWindow()
+    window.show()
+    recovered = window.io.offer_recovery()
+    if project_path and not recovered:
+        window.io.open(project_path)
+    elif not recovered and not demo:
+        settings = QSettings()
+        if not settings.value("started_before", False, type=bool):
+            settings.setValue("started_before", True)
+            ask = (
+                "Welcome to Covariscope. Open the demo study — an invented cohort with its "
+                "diagram already drawn — to see how the workbench reads it?"
+            )
+            if window.prompts.yes_no("Open the demo?", ask):
+                window.open_demo()
+    return window
+
+
+def run_gui(project_path: str | None, *, demo: bool = False) -> int:
+    """Open the window (``covariscope`` or ``covariscope PROJECT``) and run
+    until it is closed; returns the exit code."""
+    app = application()
+    try:
+        start_window(project_path, demo=demo)
+    except CovariscopeError as exc:
+        print(f"covariscope: {exc}", file=sys.stderr)
+        return 1
+    return app.exec()

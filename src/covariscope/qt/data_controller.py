@@ -1,0 +1,229 @@
+"""The data side of the window: loading in the background, the SHA-256
+check, relocating a missing file, bindings, column types and reference
+levels, and columns dropped onto the canvas."""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import TYPE_CHECKING, Any
+
+from PySide6.QtCore import QEvent, QObject, QPointF
+
+from covariscope.model.commands import AddNode, Macro
+from covariscope.model.diagram import Node
+from covariscope.model.errors import CovariscopeError
+from covariscope.model.project import DataRef
+from covariscope.panels.commands import SetData, SetSettings, bind_column
+from covariscope.panels.data_panel import COLUMN_MIME, matching_bindings
+from covariscope.qt.project_io import DATA_FILTER
+from covariscope.qt.worker import LoadRunner
+
+if TYPE_CHECKING:
+    from covariscope.qt.main_window import MainWindow
+
+__all__ = ["DataController", "profile_columns"]
+
+
+def profile_columns(
+    frame: Any, overrides: dict[str, str], references: dict[str, Any]
+) -> dict[str, Any]:
+    """Column profiles from the data layer; a type the column cannot take is
+    reported by the caller and the inferred type kept."""
+    from covariscope.data.profile import profile_table
+
+    return profile_table(frame, overrides, references)
+
+
+class DataController(QObject):
+    def __init__(self, window: MainWindow) -> None:
+        super().__init__(window)
+        self.w = window
+        self.table: Any = None
+        self.profiles: dict[str, Any] = {}
+        self.loader = LoadRunner(parent=self)
+        self.loader.progress.connect(lambda f: window.show_progress("Loading data", f))
+        self.loader.loaded.connect(self._loaded)
+        self.loader.failed.connect(self._failed)
+
+    @property
+    def loading(self) -> bool:
+        return self.loader.running
+
+    # -- loading ---------------------------------------------------------------------
+    def choose_and_load(self) -> bool:
+        path = self.w.prompts.open_path(
+            "Load the study data", DATA_FILTER, self.w.io._start_folder()
+        )
+        return bool(path) and self.load_file(path)
+
+    def load_file(self, path: str) -> bool:
+        """Point the project at ``path`` (undoable) and load it."""
+        ref = DataRef(str(Path(path).resolve()), None)
+        if not self.w.push(SetData(self.w.project, ref, f"Use data {Path(path).name}")):
+            return False
+        return self.start_load()
+
+    def forget(self) -> None:
+        self.loader.cancel()
+        self.table = None
+        self.profiles = {}
+        self.w.runner.table = None
+
+    def start_load(self) -> bool:
+        """Load the project's data file; offer to relocate it when missing."""
+        project = self.w.project
+        path = project.data_path()
+        if path is None:
+            return False
+        if not path.exists():
+            ask = (
+                f"The data file {path} cannot be found. It may have been moved or renamed. "
+                "Locate it now?"
+            )
+            if not self.w.prompts.yes_no("Data file missing", ask):
+                self.w.set_last_error(f"Data file not found: {path}")
+                return False
+            found = self.w.prompts.open_path("Locate the data file", DATA_FILTER, str(path.parent))
+            if not found:
+                return False
+            ref = DataRef(str(Path(found).resolve()), project.data.sha256 if project.data else None)
+            self.w.push(SetData(project, ref, "Relocate the data file"))
+            path = Path(found)
+        self.table = None
+        self.w.show_progress("Loading data", 0.0)
+        self.loader.load(str(path))
+        return True
+
+    def _failed(self, message: str) -> None:
+        self.w.hide_progress()
+        self.w.set_last_error(message)
+        self.w.show_message(message)
+
+    def _loaded(self, table: Any) -> None:
+        self.w.hide_progress()
+        project = self.w.project
+        recorded = project.data.sha256 if project.data else None
+        if recorded and recorded != table.sha256:
+            self.w.prompts.warn(
+                "The data file has changed",
+                f"{table.path.name} is not the file this project was last saved with (its "
+                "SHA-256 fingerprint differs). The results may not match earlier ones. If the "
+                "change is intended, save the project to record the new fingerprint.",
+            )
+            self.w.set_last_error(
+                f"{table.path.name}: SHA-256 differs from the one saved in the project"
+            )
+        if project.data is not None and project.data.sha256 != table.sha256:
+            # the fingerprint is recorded on save; changing it is a change to the project
+            project.data = DataRef(project.data.path, table.sha256)
+            self.w.io.extra_modified = bool(recorded)
+            self.w.io.update_title()
+        self.table = table
+        self.w.runner.table = table
+        self.reprofile()
+        self.bind_matching()
+        self.w.refresh_panels()
+        self.w.show_message(f"Loaded {table.path.name}: {table.rows:,} rows")
+        self.w.request_analysis()
+
+    def reprofile(self) -> None:
+        if self.table is None:
+            self.profiles = {}
+            return
+        a = self.w.project.analysis
+        try:
+            self.profiles = profile_columns(self.table.frame, a.column_types, a.reference_levels)
+        except CovariscopeError as exc:
+            self.w.set_last_error(str(exc))
+            self.w.show_message(str(exc))
+
+    def columns(self) -> list[str]:
+        return [str(c) for c in self.table.frame.columns] if self.table is not None else []
+
+    # -- binding ---------------------------------------------------------------------
+    def bind_matching(self) -> int:
+        """Bind every unbound node whose name matches a column; one undo step."""
+        project = self.w.project
+        pairs = matching_bindings(project, self.columns())
+        commands = [
+            c for n, col in pairs.items() if (c := bind_column(project, n, col)) is not None
+        ]
+        if commands:
+            self.w.push(Macro(f"Bind {len(commands)} matching columns", commands))
+        return len(commands)
+
+    def bind(self, node_id: str, column: str) -> bool:
+        command = bind_column(self.w.project, node_id, column)
+        return command is not None and self.w.push(command)
+
+    def unbind_column(self, column: str) -> bool:
+        commands = [
+            c
+            for n in self.w.project.diagram.nodes
+            if n.column == column and (c := bind_column(self.w.project, n.id, None)) is not None
+        ]
+        return bool(commands) and self.w.push(Macro(f"Unbind {column}", commands))
+
+    def set_type(self, column: str, kind: str) -> bool:
+        types = dict(self.w.project.analysis.column_types)
+        if kind:
+            if self.table is not None and column in self.table.frame:
+                from covariscope.data.profile import validate_type
+
+                try:
+                    validate_type(self.table.frame[column], kind)
+                except CovariscopeError as exc:
+                    self.w.show_message(str(exc))
+                    self.w.set_last_error(str(exc))
+                    return False
+            types[column] = kind
+        else:
+            types.pop(column, None)
+        text = f"Make {column} {kind}" if kind else f"Infer the type of {column}"
+        return self.w.push(SetSettings(self.w.project, text, column_types=types))
+
+    def set_reference(self, column: str, level: Any) -> bool:
+        refs = dict(self.w.project.analysis.reference_levels)
+        refs[column] = level.item() if hasattr(level, "item") else level
+        return self.w.push(
+            SetSettings(self.w.project, f"Reference level of {column}", reference_levels=refs)
+        )
+
+    def add_bound_node(self, column: str, pos: QPointF) -> str | None:
+        """A new covariate bound to ``column`` at ``pos`` (one undo step)."""
+        project = self.w.project
+        node_id = project.diagram.fresh_id(column)
+        steps = [
+            c
+            for n in project.diagram.nodes
+            if n.column == column
+            if (c := bind_column(project, n.id, None)) is not None
+        ]
+        steps.append(
+            AddNode(project, Node(node_id, label=column, column=column, x=pos.x(), y=pos.y()))
+        )
+        if self.w.push(Macro(f"Add {node_id} from column {column}", steps)):
+            return node_id
+        return None
+
+
+class ColumnDropFilter(QObject):
+    """Accepts columns dragged from the data panel onto the canvas."""
+
+    def __init__(self, controller: DataController, view: Any) -> None:
+        super().__init__(view)
+        self.controller, self.view = controller, view
+
+    def eventFilter(self, obj: QObject, event: QEvent) -> bool:
+        kind = event.type()
+        if kind in (QEvent.Type.DragEnter, QEvent.Type.DragMove):
+            if event.mimeData().hasFormat(COLUMN_MIME):
+                event.acceptProposedAction()
+                return True
+        elif kind == QEvent.Type.Drop and event.mimeData().hasFormat(COLUMN_MIME):
+            name = bytes(event.mimeData().data(COLUMN_MIME)).decode("utf-8")
+            pos = self.view.mapToScene(event.position().toPoint())
+            self.controller.add_bound_node(name, pos)
+            event.acceptProposedAction()
+            return True
+        return False

@@ -1,0 +1,174 @@
+"""The data panel: columns of the loaded data set, drag a column onto the
+diagram to make a bound node, bind/unbind/retype from a context menu."""
+
+from __future__ import annotations
+
+from typing import Any
+
+from PySide6.QtCore import QMimeData, QPoint, Qt, Signal
+from PySide6.QtWidgets import (
+    QAbstractItemView,
+    QHBoxLayout,
+    QHeaderView,
+    QLabel,
+    QMenu,
+    QPushButton,
+    QTableWidget,
+    QTableWidgetItem,
+    QVBoxLayout,
+    QWidget,
+)
+
+from covariscope.panels.data_panel import (
+    COLUMN_MIME,
+    COLUMN_TYPES,
+    DATA_COLUMNS,
+    ColumnRow,
+    column_rows,
+    unbound_summary,
+)
+
+__all__ = ["ColumnTable", "DataPanel", "column_mime"]
+
+
+def column_mime(name: str) -> QMimeData:
+    """The drag payload for one column: its UTF-8 name under our MIME type."""
+    mime = QMimeData()
+    mime.setData(COLUMN_MIME, name.encode("utf-8"))
+    mime.setText(name)
+    return mime
+
+
+class ColumnTable(QTableWidget):
+    """The column list; dragging a row carries the column's name."""
+
+    def mimeTypes(self) -> list[str]:
+        return [COLUMN_MIME, "text/plain"]
+
+    def mimeData(self, items: Any) -> QMimeData:
+        rows = sorted({i.row() for i in items})
+        name = self.item(rows[0], 0).text() if rows else ""
+        return column_mime(name)
+
+
+class DataPanel(QWidget):
+    """Shows :func:`covariscope.panels.data_panel.column_rows`; asks the
+    window (through signals) to load data or change bindings and types."""
+
+    load_requested = Signal()
+    bind_requested = Signal(str, str)  # node id, column
+    unbind_requested = Signal(str)  # column
+    type_requested = Signal(str, str)  # column, type ("" = as inferred)
+    reference_requested = Signal(str, object)  # column, level
+
+    def __init__(self, parent: QWidget | None = None) -> None:
+        super().__init__(parent)
+        self.setObjectName("dataPanel")
+        self.file_label = QLabel("No data loaded.")
+        self.file_label.setObjectName("dataFileLabel")
+        self.file_label.setWordWrap(True)
+        self.load_button = QPushButton("Load data…")
+        self.load_button.clicked.connect(self.load_requested)
+        top = QHBoxLayout()
+        top.addWidget(self.file_label, 1)
+        top.addWidget(self.load_button)
+
+        self.table = ColumnTable(0, len(DATA_COLUMNS))
+        self.table.setHorizontalHeaderLabels(list(DATA_COLUMNS))
+        self.table.verticalHeader().hide()
+        self.table.setSelectionBehavior(QAbstractItemView.SelectionBehavior.SelectRows)
+        self.table.setSelectionMode(QAbstractItemView.SelectionMode.SingleSelection)
+        self.table.setEditTriggers(QAbstractItemView.EditTrigger.NoEditTriggers)
+        self.table.setDragEnabled(True)
+        self.table.setDragDropMode(QAbstractItemView.DragDropMode.DragOnly)
+        self.table.setContextMenuPolicy(Qt.ContextMenuPolicy.CustomContextMenu)
+        self.table.customContextMenuRequested.connect(self._context_menu)
+        header = self.table.horizontalHeader()
+        header.setSectionResizeMode(0, QHeaderView.ResizeMode.Stretch)
+        for i in range(1, len(DATA_COLUMNS)):
+            header.setSectionResizeMode(i, QHeaderView.ResizeMode.ResizeToContents)
+        self.table.setToolTip("Drag a column onto the diagram to add a node bound to it.")
+
+        self.unbound_label = QLabel()
+        self.unbound_label.setObjectName("unboundLabel")
+        self.unbound_label.setWordWrap(True)
+
+        layout = QVBoxLayout(self)
+        layout.setContentsMargins(4, 4, 4, 4)
+        layout.addLayout(top)
+        layout.addWidget(self.table, 1)
+        layout.addWidget(self.unbound_label)
+        self._rows: list[ColumnRow] = []
+        self._node_ids: list[str] = []
+
+    @property
+    def rows(self) -> list[ColumnRow]:
+        return list(self._rows)
+
+    def refresh(self, project: Any, table: Any, profiles: Any) -> None:
+        columns = list(table.frame.columns) if table is not None else []
+        self._rows = column_rows(project, columns, profiles)
+        self._node_ids = [n.id for n in project.diagram.nodes]
+        if table is not None:
+            self.file_label.setText(
+                f"{table.path.name} — {table.rows:,} rows, {len(columns)} columns"
+            )
+            self.file_label.setToolTip(str(table.path))
+        elif project.data is not None:
+            self.file_label.setText(f"{project.data.path} (not loaded)")
+        else:
+            self.file_label.setText("No data loaded.")
+        self.table.setRowCount(len(self._rows))
+        for r, row in enumerate(self._rows):
+            for c, text in enumerate(row.cells()):
+                item = QTableWidgetItem(text)
+                if c == 0:
+                    item.setFlags(item.flags() | Qt.ItemFlag.ItemIsDragEnabled)
+                if c == 3 and not text:
+                    item.setText("—")
+                    item.setToolTip("Not bound to any node")
+                self.table.setItem(r, c, item)
+        self.unbound_label.setText(unbound_summary(project, table is not None))
+
+    def row_of(self, column: str) -> int:
+        for r, row in enumerate(self._rows):
+            if row.name == column:
+                return r
+        return -1
+
+    def _context_menu(self, pos: QPoint) -> None:
+        index = self.table.indexAt(pos)
+        if not index.isValid():
+            return
+        menu = self.build_menu(self._rows[index.row()])
+        menu.exec(self.table.viewport().mapToGlobal(pos))
+
+    def build_menu(self, row: ColumnRow) -> QMenu:
+        """The context menu of one column (built apart so tests can read it)."""
+        menu = QMenu(self)
+        bind = menu.addMenu("Bind to node")
+        for node_id in self._node_ids:
+            act = bind.addAction(node_id)
+            act.triggered.connect(lambda _=False, n=node_id: self.bind_requested.emit(n, row.name))
+        bind.setEnabled(bool(self._node_ids))
+        unbind = menu.addAction("Unbind")
+        unbind.setEnabled(bool(row.bound_to))
+        unbind.triggered.connect(lambda: self.unbind_requested.emit(row.name))
+        types = menu.addMenu("Type")
+        inferred = types.addAction("As inferred")
+        inferred.triggered.connect(lambda: self.type_requested.emit(row.name, ""))
+        for kind in COLUMN_TYPES:
+            act = types.addAction(kind)
+            act.setCheckable(True)
+            act.setChecked(row.type == kind)
+            act.triggered.connect(lambda _=False, k=kind: self.type_requested.emit(row.name, k))
+        ref = menu.addMenu("Reference level")
+        for level in row.levels[:50]:
+            act = ref.addAction(str(level))
+            act.setCheckable(True)
+            act.setChecked(str(level) == row.reference)
+            act.triggered.connect(
+                lambda _=False, v=level: self.reference_requested.emit(row.name, v)
+            )
+        ref.setEnabled(bool(row.levels))
+        return menu

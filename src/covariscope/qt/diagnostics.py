@@ -1,0 +1,384 @@
+"""Diagnostics dialogs opened by double-clicking a node.
+
+A covariate's dialog shows the checklist in words, role and verdict, the
+comparison models and collinearity figures, two plots and the node's note;
+the exposure's or outcome's shows its distribution, the model family
+(changeable) and its missing data.  Both refresh when the analysis does.
+"""
+
+from __future__ import annotations
+
+from typing import Any
+
+import numpy as np
+from matplotlib.backends.backend_qtagg import FigureCanvasQTAgg
+from matplotlib.figure import Figure
+from PySide6.QtCore import Qt, Signal
+from PySide6.QtWidgets import (
+    QAbstractItemView,
+    QComboBox,
+    QDialog,
+    QDialogButtonBox,
+    QFormLayout,
+    QGroupBox,
+    QHBoxLayout,
+    QHeaderView,
+    QLabel,
+    QPlainTextEdit,
+    QPushButton,
+    QSplitter,
+    QTableWidget,
+    QTableWidgetItem,
+    QVBoxLayout,
+    QWidget,
+)
+
+from covariscope.panels.diagnostics import (
+    DIAGNOSTIC_CAUTION,
+    EndpointDiagnostics,
+    NodeDiagnostics,
+    endpoint_diagnostics,
+    node_diagnostics,
+)
+from covariscope.panels.format import ratio_family
+
+__all__ = ["FAMILY_LABELS", "CovariateDialog", "EndpointDialog", "NodeDialog"]
+
+FAMILY_LABELS: dict[str, str] = {
+    "linear": "Linear (mean difference)",
+    "logistic": "Logistic (odds ratio)",
+    "risk_ratio": "Log-link Poisson, robust SE (risk or rate ratio)",
+    "cox": "Cox proportional hazards (hazard ratio)",
+}
+
+_MODEL_HEADERS = ("Model", "Estimate", "95% CI", "Change %", "SE inflation %")
+_MAX_POINTS = 3000
+
+
+def _table(headers: tuple[str, ...]) -> QTableWidget:
+    t = QTableWidget(0, len(headers))
+    t.setHorizontalHeaderLabels(list(headers))
+    t.verticalHeader().hide()
+    t.setEditTriggers(QAbstractItemView.EditTrigger.NoEditTriggers)
+    t.setSelectionMode(QAbstractItemView.SelectionMode.NoSelection)
+    t.horizontalHeader().setSectionResizeMode(QHeaderView.ResizeMode.ResizeToContents)
+    t.horizontalHeader().setStretchLastSection(True)
+    return t
+
+
+def _fill(table: QTableWidget, rows: list[tuple[str, ...]]) -> None:
+    table.setRowCount(len(rows))
+    for r, row in enumerate(rows):
+        for c, text in enumerate(row):
+            item = QTableWidgetItem(text)
+            if c:
+                item.setTextAlignment(Qt.AlignmentFlag.AlignRight | Qt.AlignmentFlag.AlignVCenter)
+            table.setItem(r, c, item)
+    table.resizeRowsToContents()
+    height = (
+        table.horizontalHeader().height() + sum(table.rowHeight(i) for i in range(len(rows))) + 6
+    )
+    table.setFixedHeight(max(height, 40))
+
+
+class NodeDialog(QDialog):
+    """Shared part: title, the note box (saved via ``note_saved``), caution."""
+
+    note_saved = Signal(str, str)  # node id, text
+
+    def __init__(self, node_id: str, parent: QWidget | None = None) -> None:
+        super().__init__(parent)
+        self.node_id = node_id
+        self.setObjectName("diagnosticsDialog")
+        self.setAttribute(Qt.WidgetAttribute.WA_DeleteOnClose, False)
+        self.note = QPlainTextEdit()
+        self.note.setPlaceholderText(
+            "Your reasoning for this variable, in a sentence or two. It is saved in the "
+            "project and printed in the rationale."
+        )
+        self.note.setFixedHeight(70)
+        self.note.textChanged.connect(self._note_edited)
+        self.save_note_button = QPushButton("Save note")
+        self.save_note_button.setEnabled(False)
+        self.save_note_button.clicked.connect(self.save_note)
+        self._note_dirty = False
+        self._setting_note = False
+        self.caution = QLabel(DIAGNOSTIC_CAUTION)
+        self.caution.setObjectName("caution")
+        self.caution.setWordWrap(True)
+        self.buttons = QDialogButtonBox(QDialogButtonBox.StandardButton.Close)
+        self.buttons.rejected.connect(self.close)
+
+    def _note_box(self) -> QGroupBox:
+        box = QGroupBox("Note")
+        lay = QHBoxLayout(box)
+        lay.addWidget(self.note, 1)
+        lay.addWidget(self.save_note_button, 0, Qt.AlignmentFlag.AlignBottom)
+        return box
+
+    def _note_edited(self) -> None:
+        if not self._setting_note:
+            self._note_dirty = True
+            self.save_note_button.setEnabled(True)
+
+    def set_note(self, text: str) -> None:
+        """Show the saved note, unless the user is in the middle of editing it."""
+        if self._note_dirty or self.note.toPlainText() == text:
+            return
+        self._setting_note = True
+        self.note.setPlainText(text)
+        self._setting_note = False
+
+    def save_note(self) -> None:
+        if self._note_dirty:
+            self._note_dirty = False
+            self.save_note_button.setEnabled(False)
+            self.note_saved.emit(self.node_id, self.note.toPlainText())
+
+    def closeEvent(self, event: Any) -> None:
+        self.save_note()
+        super().closeEvent(event)
+
+    def refresh(self, project: Any, result: Any, profiles: Any, frame: Any) -> None:
+        raise NotImplementedError
+
+
+class CovariateDialog(NodeDialog):
+    """Full diagnostics of one covariate."""
+
+    def __init__(self, node_id: str, parent: QWidget | None = None) -> None:
+        super().__init__(node_id, parent)
+        self.resize(980, 760)
+        self.state: NodeDiagnostics | None = None
+        self.heading = QLabel()
+        self.heading.setObjectName("dialogHeading")
+        self.verdict = QLabel()
+        self.verdict.setObjectName("dialogVerdict")
+        self.verdict.setWordWrap(True)
+        self.checks = QLabel()
+        self.checks.setWordWrap(True)
+        self.checks.setTextFormat(Qt.TextFormat.RichText)
+        self.models = _table(_MODEL_HEADERS)
+        self.figures = _table(("Collinearity", "Value"))
+        self.messages = QLabel()
+        self.messages.setWordWrap(True)
+        self.messages.setObjectName("dialogMessages")
+        self.estimate_figure = Figure(figsize=(4.4, 3.0), layout="constrained")
+        self.estimate_canvas = FigureCanvasQTAgg(self.estimate_figure)
+        self.data_figure = Figure(figsize=(4.4, 3.0), layout="constrained")
+        self.data_canvas = FigureCanvasQTAgg(self.data_figure)
+        for c in (self.estimate_canvas, self.data_canvas):
+            c.setMinimumSize(300, 230)
+
+        checklist_box = QGroupBox("What the diagram says")
+        QVBoxLayout(checklist_box).addWidget(self.checks)
+        numbers = QWidget()
+        nl = QVBoxLayout(numbers)
+        nl.setContentsMargins(0, 0, 0, 0)
+        nl.addWidget(QLabel("Comparison models (same analytic sample)"))
+        nl.addWidget(self.models)
+        nl.addWidget(self.figures)
+        nl.addWidget(self.messages)
+        nl.addStretch(1)
+        plots = QSplitter(Qt.Orientation.Horizontal)
+        plots.addWidget(self.estimate_canvas)
+        plots.addWidget(self.data_canvas)
+
+        top = QHBoxLayout()
+        left = QVBoxLayout()
+        left.addWidget(self.verdict)
+        left.addWidget(checklist_box)
+        left.addStretch(1)
+        top.addLayout(left, 1)
+        top.addWidget(numbers, 1)
+        layout = QVBoxLayout(self)
+        layout.addWidget(self.heading)
+        layout.addLayout(top)
+        layout.addWidget(plots, 1)
+        layout.addWidget(self._note_box())
+        layout.addWidget(self.caution)
+        layout.addWidget(self.buttons)
+
+    def refresh(self, project: Any, result: Any, profiles: Any, frame: Any) -> None:
+        s = node_diagnostics(project, result, self.node_id, profiles)
+        self.state = s
+        self.setWindowTitle(s.title)
+        self.heading.setText(
+            f"{s.label} — covariate" + (f" (column {s.column})" if s.column else " (no column)")
+        )
+        self.verdict.setText(f"<b>Role:</b> {s.role}<br><b>Verdict:</b> {s.verdict}<br>{s.reason}")
+        self.checks.setText(
+            "<ul style='margin-left:-20px'>"
+            + "".join(f"<li>{c}</li>" for c in s.checklist)
+            + "</ul>"
+        )
+        _fill(
+            self.models, [(m.model, m.estimate, m.ci, m.change, m.se_inflation) for m in s.models]
+        )
+        _fill(self.figures, list(s.figures))
+        measure = f"Estimates are {s.effect_measure}s." if s.effect_measure else ""
+        self.messages.setText(" ".join([measure, *s.messages[:3]]).strip())
+        self.set_note(s.note)
+        self._plot_estimates(s, getattr(result, "family", project.analysis.family))
+        self._plot_data(s, project, profiles, frame)
+
+    def _plot_estimates(self, s: NodeDiagnostics, family: str) -> None:
+        fig = self.estimate_figure
+        fig.clear()
+        ax = fig.add_subplot()
+        points = [m.point for m in s.models if m.point is not None]
+        if not points:
+            ax.text(
+                0.5, 0.5, "No fitted models yet", ha="center", va="center", transform=ax.transAxes
+            )
+            ax.set_axis_off()
+        else:
+            ys = np.arange(len(points))[::-1]
+            est = np.array([p[1] for p in points])
+            lo = np.array([p[2] for p in points])
+            hi = np.array([p[3] for p in points])
+            ax.errorbar(est, ys, xerr=[est - lo, hi - est], fmt="s", color="#0072B2", capsize=4)
+            ax.set_yticks(ys, [p[0] for p in points])
+            ax.axvline(1.0 if ratio_family(family) else 0.0, color="#5A5A5A", lw=0.8, ls="--")
+            if ratio_family(family):
+                ax.set_xscale("log")
+            ax.set_xlabel(f"Exposure estimate ({s.effect_measure or 'coefficient'}), 95% CI")
+            ax.set_title("Exposure estimate across the models", fontsize=10)
+        self.estimate_canvas.draw_idle()
+
+    def _plot_data(self, s: NodeDiagnostics, project: Any, profiles: Any, frame: Any) -> None:
+        fig = self.data_figure
+        fig.clear()
+        ax = fig.add_subplot()
+        xcol, ccol = s.exposure_column, s.column
+        if frame is None or not xcol or not ccol or xcol not in frame or ccol not in frame:
+            ax.text(
+                0.5,
+                0.5,
+                "Bind the exposure and this covariate\nto data to see them together",
+                ha="center",
+                va="center",
+                transform=ax.transAxes,
+            )
+            ax.set_axis_off()
+            self.data_canvas.draw_idle()
+            return
+        data = frame[[xcol, ccol]].dropna()
+        if len(data) > _MAX_POINTS:
+            data = data.sample(
+                _MAX_POINTS, random_state=0
+            )  # a fixed seed: the same picture each time
+        x_type = project.analysis.column_types.get(xcol) or getattr(
+            (profiles or {}).get(xcol), "type", ""
+        )
+        x_cat = x_type in ("binary", "categorical")
+        if s.categorical and not x_cat:
+            levels = sorted(data[ccol].unique(), key=str)
+            ax.boxplot(
+                [data.loc[data[ccol] == lv, xcol] for lv in levels],
+                tick_labels=[str(v) for v in levels],
+            )
+            ax.set_xlabel(s.label)
+            ax.set_ylabel(xcol)
+        elif x_cat and not s.categorical:
+            levels = sorted(data[xcol].unique(), key=str)
+            ax.boxplot(
+                [data.loc[data[xcol] == lv, ccol] for lv in levels],
+                tick_labels=[str(v) for v in levels],
+            )
+            ax.set_xlabel(xcol)
+            ax.set_ylabel(s.label)
+        elif x_cat and s.categorical:
+            table = data.groupby([ccol, xcol]).size().unstack(fill_value=0)
+            shares = table.div(table.sum(axis=1), axis=0)
+            bottom = np.zeros(len(shares))
+            for i, col in enumerate(shares.columns):
+                ax.bar(
+                    [str(v) for v in shares.index],
+                    shares[col],
+                    bottom=bottom,
+                    label=f"{xcol} = {col}",
+                    color=["#56B4E9", "#E69F00", "#009E73", "#CC79A7"][i % 4],
+                    hatch=["", "//", "..", "xx"][i % 4],
+                    edgecolor="white",
+                )
+                bottom += shares[col].to_numpy()
+            ax.set_xlabel(s.label)
+            ax.set_ylabel(f"share by {xcol}")
+            ax.legend(fontsize=8)
+        else:
+            ax.scatter(data[ccol], data[xcol], s=6, alpha=0.35, color="#0072B2", edgecolors="none")
+            ax.set_xlabel(s.label)
+            ax.set_ylabel(xcol)
+        ax.set_title(f"{s.label} against the exposure", fontsize=10)
+        self.data_canvas.draw_idle()
+
+
+class EndpointDialog(NodeDialog):
+    """The exposure's or outcome's distribution, family and missing data."""
+
+    family_changed = Signal(str)
+
+    def __init__(self, node_id: str, parent: QWidget | None = None) -> None:
+        super().__init__(node_id, parent)
+        self.resize(640, 620)
+        self.state: EndpointDiagnostics | None = None
+        self.heading = QLabel()
+        self.heading.setObjectName("dialogHeading")
+        self.family = QComboBox()
+        for key, label in FAMILY_LABELS.items():
+            self.family.addItem(label, key)
+        self.family.activated.connect(lambda i: self.family_changed.emit(self.family.itemData(i)))
+        self.missing = QLabel()
+        self.lines = QLabel()
+        self.lines.setWordWrap(True)
+        self.figure = Figure(figsize=(5, 3), layout="constrained")
+        self.canvas = FigureCanvasQTAgg(self.figure)
+        self.canvas.setMinimumHeight(240)
+        form = QFormLayout()
+        form.addRow("Model family", self.family)
+        form.addRow("Missing data", self.missing)
+        layout = QVBoxLayout(self)
+        layout.addWidget(self.heading)
+        layout.addLayout(form)
+        layout.addWidget(self.lines)
+        layout.addWidget(self.canvas, 1)
+        layout.addWidget(self._note_box())
+        layout.addWidget(self.caution)
+        layout.addWidget(self.buttons)
+
+    def refresh(self, project: Any, result: Any, profiles: Any, frame: Any) -> None:
+        s = endpoint_diagnostics(project, result, self.node_id, profiles)
+        self.state = s
+        self.setWindowTitle(s.title)
+        self.heading.setText(s.title + (f" (column {s.column})" if s.column else ""))
+        self.family.setCurrentIndex(max(self.family.findData(s.family), 0))
+        self.missing.setText(s.missing)
+        self.lines.setText("\n".join(s.lines))
+        self.set_note(s.note)
+        fig = self.figure
+        fig.clear()
+        ax = fig.add_subplot()
+        if frame is None or not s.column or s.column not in frame:
+            ax.text(0.5, 0.5, "No data bound", ha="center", va="center", transform=ax.transAxes)
+            ax.set_axis_off()
+        else:
+            values = frame[s.column].dropna()
+            kind = project.analysis.column_types.get(s.column) or getattr(
+                (profiles or {}).get(s.column), "type", ""
+            )
+            if kind in ("binary", "categorical") or values.nunique() <= 10:
+                counts = values.value_counts().sort_index()
+                ax.bar(
+                    [str(v) for v in counts.index],
+                    counts.to_numpy(),
+                    color="#56B4E9",
+                    edgecolor="#0072B2",
+                )
+                ax.set_ylabel("rows")
+            else:
+                ax.hist(values.to_numpy(dtype=float), bins=40, color="#56B4E9", edgecolor="#0072B2")
+                ax.set_ylabel("rows")
+            ax.set_xlabel(s.column)
+            ax.set_title(f"Distribution of {s.label}", fontsize=10)
+        self.canvas.draw_idle()

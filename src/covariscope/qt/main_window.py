@@ -1,0 +1,439 @@
+"""The main window: canvas in the centre, data panel, review table, open
+paths list and estimates strip around it, status bar below.
+
+Kept thin: actions live in :mod:`covariscope.qt.actions`, files in
+:mod:`covariscope.qt.project_io`, data in :mod:`covariscope.qt.data_controller`,
+panel logic in :mod:`covariscope.panels`.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import Any
+
+from PySide6.QtCore import QPointF, Qt
+from PySide6.QtGui import QUndoStack
+from PySide6.QtWidgets import (
+    QDockWidget,
+    QGraphicsScene,
+    QLabel,
+    QMainWindow,
+    QProgressBar,
+    QToolButton,
+    QVBoxLayout,
+    QWidget,
+)
+
+from covariscope.model.commands import Command, Macro, SetKind, SetProposed, UpdateNode
+from covariscope.model.project import Project
+from covariscope.panels.commands import SetSettings
+from covariscope.panels.review import proposed_after_toggle
+from covariscope.qt import output
+from covariscope.qt.actions import WindowActions
+from covariscope.qt.data_controller import ColumnDropFilter, DataController
+from covariscope.qt.data_panel import DataPanel
+from covariscope.qt.diagnostics import CovariateDialog, EndpointDialog, NodeDialog
+from covariscope.qt.estimates_strip import EstimatesStrip
+from covariscope.qt.project_io import ProjectIO, Prompts
+from covariscope.qt.review_table import PathsPanel, ReviewTable
+from covariscope.qt.settings_dialogs import ThresholdsDialog
+from covariscope.qt.undo import push
+from covariscope.qt.worker import AnalysisRunner
+
+__all__ = ["MainWindow", "canvas_classes"]
+
+
+def canvas_classes() -> tuple[type, type]:
+    """The diagram scene and view; a plain stand-in while the canvas is absent."""
+    try:
+        from covariscope.qt.canvas import DiagramScene, DiagramView
+    except ImportError:
+        from covariscope.qt._canvas_stand_in import StandInScene, StandInView
+
+        return StandInScene, StandInView
+    return DiagramScene, DiagramView
+
+
+class MainWindow(QMainWindow):
+    def __init__(
+        self,
+        project: Project | None = None,
+        *,
+        run: Any = None,
+        debounce_ms: int = 250,
+        prompts: Prompts | None = None,
+    ) -> None:
+        super().__init__()
+        self.setObjectName("mainWindow")
+        self.resize(1400, 900)
+        self.project = Project()
+        self.undo_stack = QUndoStack(self)
+        self.prompts = prompts or Prompts(self)
+        self.result: Any = None
+        self.selected_ids: list[str] = []
+        self.dialogs: dict[str, NodeDialog] = {}
+        self.runner = AnalysisRunner(
+            lambda: self.project, run=run, debounce_ms=debounce_ms, parent=self
+        )
+        self.runner.started.connect(lambda _g: self._set_state("Analysing…"))
+        self.runner.progress.connect(lambda f, t: self.show_progress(t or "Analysing", f))
+        self.runner.finished.connect(self._analysis_done)
+        self.runner.failed.connect(self._analysis_failed)
+        self.io = ProjectIO(self)
+        self.data = DataController(self)
+
+        self.strip = EstimatesStrip()
+        self.centre = QWidget()
+        QVBoxLayout(self.centre).setContentsMargins(0, 0, 0, 0)
+        self.centre.layout().addWidget(self.strip)
+        self.setCentralWidget(self.centre)
+        self.scene: Any = None
+        self.view: Any = None
+
+        self.data_panel = DataPanel()
+        self.data_panel.load_requested.connect(self.data.choose_and_load)
+        self.data_panel.bind_requested.connect(self.data.bind)
+        self.data_panel.unbind_requested.connect(self.data.unbind_column)
+        self.data_panel.type_requested.connect(self.data.set_type)
+        self.data_panel.reference_requested.connect(self.data.set_reference)
+        self.review = ReviewTable()
+        self.review.proposed_toggled.connect(self.set_proposed_member)
+        self.review.node_activated.connect(self.open_diagnostics)
+        self.paths = PathsPanel()
+        self.paths.path_chosen.connect(lambda p: self.scene.highlight_path(list(p) if p else None))
+        self.docks = {
+            "data": self._dock("Data", self.data_panel, Qt.DockWidgetArea.LeftDockWidgetArea),
+            "review": self._dock(
+                "Covariate review", self.review, Qt.DockWidgetArea.BottomDockWidgetArea
+            ),
+            "paths": self._dock(
+                "Open backdoor paths", self.paths, Qt.DockWidgetArea.RightDockWidgetArea
+            ),
+        }
+        self.resizeDocks(
+            [self.docks["data"], self.docks["paths"]], [330, 260], Qt.Orientation.Horizontal
+        )
+        self.resizeDocks([self.docks["review"]], [300], Qt.Orientation.Vertical)
+
+        self.state_label = QLabel("No analysis yet")
+        self.rows_label = QLabel("")
+        self.error_label = QLabel("")
+        self.error_label.setObjectName("lastError")
+        self.progress = QProgressBar()
+        self.progress.setMaximumWidth(180)
+        self.progress.setRange(0, 1000)
+        self.progress.hide()
+        self.cancel_button = QToolButton()
+        self.cancel_button.setText("Cancel")
+        self.cancel_button.clicked.connect(self.cancel_work)
+        self.cancel_button.hide()
+        bar = self.statusBar()
+        for w in (self.state_label, self.rows_label, self.progress, self.cancel_button):
+            bar.addPermanentWidget(w)
+        bar.addWidget(self.error_label, 1)
+
+        self.actions_ = WindowActions(self)
+        self.actions_.build_menus()
+        self.addToolBar(self.actions_.build_toolbar())
+        for dock in self.docks.values():
+            self.actions_.view_menu.addAction(dock.toggleViewAction())
+        self.set_project(project or Project())
+        self.io.mark_clean()
+
+    def _dock(self, title: str, widget: QWidget, area: Qt.DockWidgetArea) -> QDockWidget:
+        dock = QDockWidget(title, self)
+        dock.setObjectName(title.replace(" ", "_"))
+        dock.setWidget(widget)
+        dock.setFeatures(
+            QDockWidget.DockWidgetFeature.DockWidgetMovable
+            | QDockWidget.DockWidgetFeature.DockWidgetFloatable
+            | QDockWidget.DockWidgetFeature.DockWidgetClosable
+        )
+        self.addDockWidget(area, dock)
+        return dock
+
+    # -- project -----------------------------------------------------------------------
+    def set_project(self, project: Project) -> None:
+        """Show another project: new scene, empty undo history, data reloaded."""
+        old = self.project
+        old.diagram.unsubscribe(self._model_changed)
+        old.unsubscribe(self._project_changed)
+        for dialog in list(self.dialogs.values()):
+            dialog.close()
+        self.dialogs.clear()
+        self.runner.cancel()
+        self.data.forget()
+        self.undo_stack.clear()
+        self.project = project
+        self.result = None
+        self.runner.result = None
+        scene_cls, view_cls = canvas_classes()
+        if self.scene is not None and hasattr(self.scene, "detach"):
+            self.scene.detach()
+        scene = scene_cls(project, self.undo_stack)
+        view = view_cls(scene)
+        view.setObjectName("diagramView")
+        view.setAcceptDrops(True)
+        view.viewport().setAcceptDrops(True)
+        if scene_cls.dropEvent is QGraphicsScene.dropEvent:
+            # the canvas takes column drops itself; the stand-in needs help
+            view.viewport().installEventFilter(ColumnDropFilter(self.data, view))
+        scene.node_double_clicked.connect(self.open_diagnostics)
+        scene.selection_changed_ids.connect(self._selection_changed)
+        scene.message.connect(self.show_message)
+        scene.proposed_toggled.connect(self.set_proposed_member)
+        if self.view is not None:
+            self.centre.layout().removeWidget(self.view)
+            self.view.deleteLater()
+        old_scene = self.scene
+        self.scene, self.view = scene, view
+        self.centre.layout().addWidget(view, 1)
+        if old_scene is not None:
+            old_scene.deleteLater()
+        project.diagram.subscribe(self._model_changed)
+        project.subscribe(self._project_changed)
+        self.actions_.sync_family(project.analysis.family) if hasattr(self, "actions_") else None
+        self.set_last_error("")
+        self.refresh_panels()
+        self.io.update_title()
+        if project.data is not None:
+            self.data.start_load()
+        self.request_analysis()
+        view.fit_to_window() if len(project.diagram) else None
+
+    def open_demo(self) -> bool:
+        from covariscope.cli import demo_folder, write_demo
+
+        return self.io.open(str(write_demo(demo_folder())))
+
+    def push(self, command: Command) -> bool:
+        """Apply an edit through the undo stack; a refused edit shows its message."""
+        return push(self.undo_stack, command, self._refused)
+
+    def _refused(self, message: str) -> None:
+        self.show_message(message)
+        self.set_last_error(message)
+
+    # -- reacting to the model -----------------------------------------------------------
+    def _model_changed(self, event: Any) -> None:
+        self.refresh_panels()
+        self.request_analysis()
+
+    def _project_changed(self, event: Any) -> None:
+        if event.kind == "settings":
+            self.data.reprofile()
+            self.actions_.sync_family(self.project.analysis.family)
+        self.refresh_panels()
+        table = self.data.table
+        moved = table is not None and self.project.data_path() != Path(table.path)
+        if event.kind == "data" and moved:
+            self.data.forget()
+        self.request_analysis()
+
+    def request_analysis(self) -> None:
+        if self.project.diagram.exposure is None or self.project.diagram.outcome is None:
+            self.runner.cancel()
+            self._set_state("Needs an exposure and an outcome")
+            return
+        if self.data.loading:
+            self._set_state("Waiting for the data")
+            return
+        self._set_state("Out of date — updating…")
+        self.review.setProperty("stale", True)
+        self.review.style().polish(self.review.table)
+        self.runner.request()
+
+    def refresh_panels(self) -> None:
+        self.data_panel.refresh(self.project, self.data.table, self.data.profiles)
+        self.review.refresh(self.project, self.result)
+        self.paths.refresh(self.result)
+        self.strip.refresh(self.result)
+
+    def _analysis_done(self, _generation: int, result: Any) -> None:
+        self.hide_progress()
+        self.result = result
+        self.review.setProperty("stale", False)
+        self.review.style().polish(self.review.table)
+        self.refresh_panels()
+        roles = {
+            k: getattr(v, "role", None)
+            for k, v in (getattr(result.diagram, "roles", {}) or {}).items()
+        }
+        verdicts = {
+            k: (v.code, v.label) for k, v in (getattr(result, "verdicts", {}) or {}).items()
+        }
+        self.scene.set_annotations(roles, verdicts)
+        for dialog in self.dialogs.values():
+            self._refresh_dialog(dialog)
+        sample = getattr(result, "sample", None)
+        if sample is not None:
+            self.rows_label.setText(f"{sample.used:,} of {sample.rows:,} rows used")
+        else:
+            self.rows_label.setText("No data")
+        self._set_state("Analysis up to date")
+        msgs = getattr(result, "messages", ())
+        self.error_label.setToolTip("\n".join(msgs))
+
+    def _analysis_failed(self, _generation: int, message: str) -> None:
+        self.hide_progress()
+        self._set_state("Analysis failed")
+        self.set_last_error(message)
+
+    # -- edits from the panels -------------------------------------------------------------
+    def set_proposed_member(self, node_id: str, checked: bool) -> None:
+        ids = proposed_after_toggle(self.project, node_id, checked)
+        if ids is not None and not self.push(SetProposed(self.project, ids)):
+            self.review.refresh(self.project, self.result)
+
+    def _selection_changed(self, ids: list) -> None:
+        self.selected_ids = [str(i) for i in ids]
+        covariates = [i for i in self.selected_ids if i in self.project.diagram]
+        if len(covariates) == 1:
+            self.review.select_node(covariates[0])
+
+    def selected_nodes(self) -> list[str]:
+        return [i for i in self.selected_ids if i in self.project.diagram]
+
+    def set_kind_of_selection(self, kind: str) -> None:
+        nodes = self.selected_nodes()
+        if not nodes:
+            self.show_message("Select a node first.")
+            return
+        if kind != "covariate" and len(nodes) > 1:
+            self.show_message(f"Select one node to make it the {kind}.")
+            return
+        commands: list[Command] = [SetKind(self.project, n, kind) for n in nodes]
+        self.push(
+            commands[0]
+            if len(commands) == 1
+            else Macro(f"Make {len(nodes)} nodes covariates", commands)
+        )
+
+    def toggle_measured_of_selection(self) -> None:
+        nodes = self.selected_nodes()
+        commands: list[Command] = [
+            UpdateNode(self.project, n, measured=not self.project.diagram.node(n).measured)
+            for n in nodes
+        ]
+        if commands:
+            self.push(Macro("Change measured", commands))
+
+    def copy_selection(self) -> None:
+        self.clipboard = self.scene.copy_selection()
+
+    def paste(self) -> None:
+        if getattr(self, "clipboard", None):
+            self.scene.paste(self.clipboard)
+
+    def add_node_at_centre(self) -> None:
+        centre = self.view.mapToScene(self.view.viewport().rect().center())
+        self.scene.add_node_at(QPointF(centre))
+
+    def set_family(self, family: str) -> None:
+        if family != self.project.analysis.family:
+            self.push(SetSettings(self.project, f"Use the {family} model", family=family))
+
+    def edit_thresholds(self) -> None:
+        dialog = ThresholdsDialog(self.project.analysis.thresholds, self)
+        if dialog.exec():
+            values = dialog.values()
+            if values != self.project.analysis.thresholds:
+                self.push(SetSettings(self.project, "Change the thresholds", thresholds=values))
+
+    def cancel_work(self) -> None:
+        if self.data.loading:
+            self.data.loader.cancel()
+            self.show_message("Loading cancelled.")
+        if self.runner.running or self.runner.pending:
+            self.runner.cancel()
+            self._set_state("Analysis cancelled — edit or press F5 to run again")
+        self.hide_progress()
+
+    # -- diagnostics ----------------------------------------------------------------------
+    def open_diagnostics(self, node_id: str) -> NodeDialog | None:
+        if node_id not in self.project.diagram:
+            return None
+        dialog = self.dialogs.get(node_id)
+        if dialog is None:
+            kind = self.project.diagram.node(node_id).kind
+            dialog = (
+                CovariateDialog(node_id, self)
+                if kind == "covariate"
+                else EndpointDialog(node_id, self)
+            )
+            dialog.note_saved.connect(self._save_note)
+            if isinstance(dialog, EndpointDialog):
+                dialog.family_changed.connect(self.set_family)
+            dialog.finished.connect(lambda _r, n=node_id: self.dialogs.pop(n, None))
+            self.dialogs[node_id] = dialog
+        self._refresh_dialog(dialog)
+        dialog.show()
+        dialog.raise_()
+        return dialog
+
+    def _refresh_dialog(self, dialog: NodeDialog) -> None:
+        if dialog.node_id not in self.project.diagram:
+            dialog.close()
+            return
+        frame = self.data.table.frame if self.data.table is not None else None
+        dialog.refresh(self.project, self.result, self.data.profiles, frame)
+
+    def _save_note(self, node_id: str, text: str) -> None:
+        if node_id in self.project.diagram and self.project.diagram.node(node_id).note != text:
+            self.push(UpdateNode(self.project, node_id, note=text))
+
+    # -- output ----------------------------------------------------------------------------
+    def export_diagram(self, kind: str) -> bool:
+        return output.export_diagram(self, kind)
+
+    def export_review_csv(self, path: str | None = None) -> bool:
+        return output.export_review_csv(self, path)
+
+    def print_rationale(self) -> bool:
+        return output.print_rationale(self)
+
+    def save_rationale_pdf(self, path: str | None = None) -> bool:
+        return output.save_rationale_pdf(self, path)
+
+    def show_about(self) -> None:
+        from covariscope import __version__
+
+        self.prompts.info(
+            "About Covariscope",
+            f"<p><b>Covariscope {__version__}</b></p><p>Should this covariate be in the model, and why? "
+            "A workbench that sets the causal diagram beside the data's evidence, covariate by "
+            "covariate, and writes the rationale down.</p>",
+        )
+
+    # -- status ---------------------------------------------------------------------------
+    def _set_state(self, text: str) -> None:
+        self.state_label.setText(text)
+
+    def show_message(self, text: str) -> None:
+        self.statusBar().showMessage(text, 8000)
+
+    def set_last_error(self, text: str) -> None:
+        self.error_label.setText(f"Last problem: {text}" if text else "")
+        self.error_label.setToolTip(text)
+
+    def show_progress(self, text: str, fraction: float) -> None:
+        self.progress.setFormat(f"{text} %p%")
+        self.progress.setValue(int(1000 * max(0.0, min(1.0, fraction))))
+        self.progress.show()
+        self.cancel_button.show()
+
+    def hide_progress(self) -> None:
+        self.progress.hide()
+        self.cancel_button.hide()
+
+    # -- closing --------------------------------------------------------------------------
+    def closeEvent(self, event: Any) -> None:
+        if not self.io.confirm_discard():
+            event.ignore()
+            return
+        for dialog in list(self.dialogs.values()):
+            dialog.close()
+        self.runner.shutdown()
+        self.data.loader.shutdown()
+        self.io.shutdown()
+        event.accept()

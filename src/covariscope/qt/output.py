@@ -1,0 +1,133 @@
+"""Exports and printing: the diagram (PNG, SVG, GraphML), the review table
+(CSV), and the one-page rationale (printer or PDF, drawn by the report
+module's painter so print and PDF share one code path)."""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import TYPE_CHECKING
+
+from PySide6.QtCore import QRectF
+from PySide6.QtGui import QPainter
+
+from covariscope.model.errors import CovariscopeError
+
+if TYPE_CHECKING:
+    from covariscope.qt.main_window import MainWindow
+
+__all__ = ["export_diagram", "export_review_csv", "print_rationale", "save_rationale_pdf"]
+
+_FILTERS = {
+    "png": "PNG image (*.png)",
+    "svg": "SVG drawing (*.svg)",
+    "graphml": "GraphML (*.graphml)",
+    "csv": "CSV table (*.csv)",
+    "pdf": "PDF document (*.pdf)",
+}
+
+
+def _ask(w: MainWindow, kind: str, title: str, stem: str) -> Path | None:
+    base = (
+        w.project.path.with_name(f"{w.project.path.stem}{stem}.{kind}")
+        if w.project.path
+        else Path(f"covariscope{stem}.{kind}")
+    )
+    path = w.prompts.save_path(title, _FILTERS[kind], str(base))
+    if not path:
+        return None
+    target = Path(path)
+    return target if target.suffix else target.with_suffix(f".{kind}")
+
+
+def export_diagram(w: MainWindow, kind: str, path: str | None = None) -> bool:
+    target = (
+        Path(path) if path else _ask(w, kind, f"Export the diagram as {kind.upper()}", "_diagram")
+    )
+    if target is None:
+        return False
+    try:
+        from covariscope.qt import canvas
+
+        exporter = getattr(canvas, f"export_{kind}")
+    except (ImportError, AttributeError):
+        w.prompts.warn("Export not available", "The diagram export is not installed in this build.")
+        return False
+    try:
+        exporter(w.project.diagram if kind == "graphml" else w.scene, target)
+    except (CovariscopeError, OSError) as exc:
+        w.prompts.warn("Export failed", str(exc))
+        return False
+    w.show_message(f"Wrote {target}")
+    return True
+
+
+def export_review_csv(w: MainWindow, path: str | None = None) -> bool:
+    target = Path(path) if path else _ask(w, "csv", "Export the review table", "_review")
+    if target is None:
+        return False
+    try:
+        target.write_text(w.review.to_csv(), encoding="utf-8")
+    except OSError as exc:
+        w.prompts.warn("Export failed", f"Could not write {target}: {exc.strerror or exc}.")
+        return False
+    w.show_message(f"Wrote {target}")
+    return True
+
+
+def _ready(w: MainWindow) -> bool:
+    if w.result is None:
+        w.prompts.warn(
+            "No analysis yet",
+            "The rationale needs a finished analysis: mark an exposure and an outcome, bind "
+            "the data and wait for the status bar to say the analysis is up to date.",
+        )
+        return False
+    return True
+
+
+def print_rationale(w: MainWindow) -> bool:
+    if not _ready(w):
+        return False
+    try:
+        from covariscope.report.content import build_content
+        from covariscope.report.painter import paint_rationale
+    except ImportError:
+        w.prompts.warn(
+            "Printing not available", "The rationale report is not installed in this build."
+        )
+        return False
+    from PySide6.QtPrintSupport import QPrintDialog, QPrinter
+
+    printer = QPrinter(QPrinter.PrinterMode.HighResolution)
+    dialog = QPrintDialog(printer, w)
+    if not dialog.exec():
+        return False
+    painter = QPainter(printer)
+    try:
+        page = QRectF(printer.pageLayout().paintRectPixels(printer.resolution()))
+        page.moveTo(0, 0)
+        paint_rationale(painter, page, build_content(w.result, w.project))
+    finally:
+        painter.end()
+    w.show_message("Sent the rationale to the printer.")
+    return True
+
+
+def save_rationale_pdf(w: MainWindow, path: str | None = None) -> bool:
+    if not _ready(w):
+        return False
+    target = Path(path) if path else _ask(w, "pdf", "Save the rationale as PDF", "_rationale")
+    if target is None:
+        return False
+    try:
+        from covariscope.report.painter import write_pdf
+    except ImportError:
+        w.prompts.warn("PDF not available", "The rationale report is not installed in this build.")
+        return False
+    try:
+        written = write_pdf(w.result, w.project, target)
+    except (CovariscopeError, OSError) as exc:
+        w.prompts.warn("Could not write the PDF", str(exc))
+        return False
+    w.show_message(f"Wrote {written}")
+    return True

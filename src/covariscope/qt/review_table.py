@@ -1,0 +1,222 @@
+"""The covariate review table and the list of open backdoor paths."""
+
+from __future__ import annotations
+
+from typing import Any
+
+from PySide6.QtCore import Qt, Signal
+from PySide6.QtWidgets import (
+    QAbstractItemView,
+    QHeaderView,
+    QLabel,
+    QListWidget,
+    QListWidgetItem,
+    QTableWidget,
+    QTableWidgetItem,
+    QVBoxLayout,
+    QWidget,
+)
+
+from covariscope.panels.review import REVIEW_COLUMNS, ReviewRow, review_rows, rows_to_csv
+
+__all__ = ["PathsPanel", "ReviewTable", "open_paths"]
+
+_CHECK = len(REVIEW_COLUMNS) - 1
+_VERDICT = _CHECK - 1
+
+
+class ReviewTable(QWidget):
+    """One row per covariate; the last column's checkbox is the proposed set."""
+
+    proposed_toggled = Signal(str, bool)
+    node_activated = Signal(str)
+    node_selected = Signal(str)
+
+    def __init__(self, parent: QWidget | None = None) -> None:
+        super().__init__(parent)
+        self.setObjectName("reviewTable")
+        self.table = QTableWidget(0, len(REVIEW_COLUMNS))
+        self.table.setHorizontalHeaderLabels(list(REVIEW_COLUMNS))
+        self.table.verticalHeader().hide()
+        self.table.setSelectionBehavior(QAbstractItemView.SelectionBehavior.SelectRows)
+        self.table.setSelectionMode(QAbstractItemView.SelectionMode.SingleSelection)
+        self.table.setEditTriggers(QAbstractItemView.EditTrigger.NoEditTriggers)
+        self.table.setWordWrap(False)
+        header = self.table.horizontalHeader()
+        for i in range(len(REVIEW_COLUMNS)):
+            header.setSectionResizeMode(i, QHeaderView.ResizeMode.ResizeToContents)
+        header.setSectionResizeMode(_VERDICT, QHeaderView.ResizeMode.Stretch)
+        self.detail = QLabel("Select a covariate to read its verdict in full.")
+        self.detail.setObjectName("reviewDetail")
+        self.detail.setWordWrap(True)
+        self.detail.setTextInteractionFlags(Qt.TextInteractionFlag.TextSelectableByMouse)
+        layout = QVBoxLayout(self)
+        layout.setContentsMargins(4, 4, 4, 4)
+        layout.addWidget(self.table, 1)
+        layout.addWidget(self.detail)
+        self._rows: list[ReviewRow] = []
+        self._filling = False
+        self.table.itemChanged.connect(self._item_changed)
+        self.table.itemSelectionChanged.connect(self._selection_changed)
+        self.table.cellDoubleClicked.connect(
+            lambda r, _c: (
+                self.node_activated.emit(self._rows[r].node) if r < len(self._rows) else None
+            )
+        )
+
+    @property
+    def rows(self) -> list[ReviewRow]:
+        return list(self._rows)
+
+    def refresh(self, project: Any, result: Any) -> None:
+        selected = self.selected_node()
+        self._rows = review_rows(project, result)
+        self._filling = True
+        try:
+            self.table.setRowCount(len(self._rows))
+            for r, row in enumerate(self._rows):
+                for c, text in enumerate(row.cells()):
+                    item = QTableWidgetItem("" if c == _CHECK else text)
+                    item.setData(Qt.ItemDataRole.UserRole, row.node)
+                    if c == _VERDICT:
+                        item.setToolTip(row.reason or row.verdict)
+                    elif c == 0:
+                        item.setToolTip(row.detail)
+                    if 2 <= c <= 5:
+                        item.setTextAlignment(
+                            Qt.AlignmentFlag.AlignRight | Qt.AlignmentFlag.AlignVCenter
+                        )
+                    if c == _CHECK:
+                        flags = Qt.ItemFlag.ItemIsEnabled | Qt.ItemFlag.ItemIsSelectable
+                        if row.measured:
+                            flags |= Qt.ItemFlag.ItemIsUserCheckable
+                        item.setFlags(flags)
+                        item.setCheckState(
+                            Qt.CheckState.Checked if row.proposed else Qt.CheckState.Unchecked
+                        )
+                        item.setToolTip(
+                            "Tick to put it in the proposed adjustment set"
+                            if row.measured
+                            else "Unmeasured: cannot be adjusted for"
+                        )
+                    self.table.setItem(r, c, item)
+        finally:
+            self._filling = False
+        if selected:
+            self.select_node(selected)
+        else:
+            self._selection_changed()
+
+    def selected_node(self) -> str | None:
+        rows = {i.row() for i in self.table.selectedItems()}
+        return self._rows[min(rows)].node if rows and min(rows) < len(self._rows) else None
+
+    def select_node(self, node_id: str) -> None:
+        for r, row in enumerate(self._rows):
+            if row.node == node_id:
+                self.table.selectRow(r)
+                return
+
+    def row_of(self, node_id: str) -> int:
+        return next((r for r, row in enumerate(self._rows) if row.node == node_id), -1)
+
+    def set_checked(self, node_id: str, checked: bool) -> None:
+        """Tick or untick as a user would (emits :attr:`proposed_toggled`)."""
+        r = self.row_of(node_id)
+        if r < 0:
+            raise KeyError(node_id)
+        self.table.item(r, _CHECK).setCheckState(
+            Qt.CheckState.Checked if checked else Qt.CheckState.Unchecked
+        )
+
+    def verdicts(self) -> dict[str, str]:
+        return {row.node: row.verdict for row in self._rows}
+
+    def to_csv(self) -> str:
+        return rows_to_csv(self._rows)
+
+    def _item_changed(self, item: QTableWidgetItem) -> None:
+        if self._filling or item.column() != _CHECK or item.row() >= len(self._rows):
+            return
+        row = self._rows[item.row()]
+        checked = item.checkState() == Qt.CheckState.Checked
+        if checked != row.proposed:
+            self.proposed_toggled.emit(row.node, checked)
+
+    def _selection_changed(self) -> None:
+        node = self.selected_node()
+        if node is None:
+            self.detail.setText("Select a covariate to read its verdict in full.")
+            return
+        row = self._rows[self.row_of(node)]
+        self.detail.setText(row.detail)
+        self.node_selected.emit(node)
+
+
+def _review_of(result: Any) -> Any:
+    diagram = getattr(result, "diagram", None)
+    return getattr(diagram, "review", None) or getattr(diagram, "proposal", None)
+
+
+def open_paths(result: Any) -> list[tuple[str, ...]]:
+    """Backdoor paths the proposed set leaves open (node sequences)."""
+    proposal = _review_of(result)
+    out = []
+    for p in getattr(proposal, "open_paths", ()) or ():
+        nodes = getattr(p, "nodes", p)
+        out.append(tuple(nodes))
+    return out
+
+
+class PathsPanel(QWidget):
+    """Open backdoor paths under the proposed set; choosing one highlights it."""
+
+    path_chosen = Signal(object)  # tuple of node ids, or None
+
+    def __init__(self, parent: QWidget | None = None) -> None:
+        super().__init__(parent)
+        self.setObjectName("pathsPanel")
+        self.summary = QLabel("No analysis yet.")
+        self.summary.setWordWrap(True)
+        self.list = QListWidget()
+        self.list.currentItemChanged.connect(self._chosen)
+        layout = QVBoxLayout(self)
+        layout.setContentsMargins(4, 4, 4, 4)
+        layout.addWidget(self.summary)
+        layout.addWidget(self.list, 1)
+        self._paths: list[tuple[str, ...]] = []
+
+    @property
+    def paths(self) -> list[tuple[str, ...]]:
+        return list(self._paths)
+
+    def refresh(self, result: Any) -> None:
+        self.list.blockSignals(True)
+        self.list.clear()
+        self._paths = open_paths(result) if result is not None else []
+        for path in self._paths:
+            parts = [n.replace("|", " | ") for n in path]
+            item = QListWidgetItem(" – ".join(parts))
+            item.setData(Qt.ItemDataRole.UserRole, path)
+            self.list.addItem(item)
+        self.list.blockSignals(False)
+        proposal = _review_of(result)
+        if result is None:
+            self.summary.setText("No analysis yet.")
+        elif not self._paths and getattr(proposal, "sufficient", False):
+            self.summary.setText("The proposed set closes every backdoor path.")
+        elif not self._paths:
+            self.summary.setText("No open backdoor paths are listed.")
+        else:
+            n = len(self._paths)
+            self.summary.setText(
+                f"{n} backdoor path{'s' if n != 1 else ''} left open by the proposed set. "
+                "Choose one to see it on the diagram."
+            )
+        self.path_chosen.emit(None)
+
+    def choose(self, index: int) -> None:
+        self.list.setCurrentRow(index)
+
+    def _chosen(self, current: QListWidgetItem | None, _previous: Any = None) -> None:
+        self.path_chosen.emit(tuple(current.data(Qt.ItemDataRole.UserRole)) if current else None)

@@ -1,0 +1,65 @@
+"""The thresholds editor (guides, not rules)."""
+
+from __future__ import annotations
+
+from PySide6.QtWidgets import (
+    QDialog,
+    QDialogButtonBox,
+    QDoubleSpinBox,
+    QFormLayout,
+    QLabel,
+    QWidget,
+)
+
+from covariscope.model.project import DEFAULT_THRESHOLDS
+
+__all__ = ["THRESHOLD_LABELS", "ThresholdsDialog"]
+
+THRESHOLD_LABELS: dict[str, tuple[str, float, float, int]] = {
+    # key: (label, minimum, maximum, decimals)
+    "change_pct": ("Change in estimate (%)", 0.1, 1000.0, 1),
+    "se_inflation_pct": ("SE inflation (%)", 0.1, 1000.0, 1),
+    "vif": ("Variance inflation factor", 1.01, 1000.0, 2),
+    "r2": ("Auxiliary R²", 0.01, 0.999, 3),
+    "condition_index": ("Condition index", 1.0, 1000.0, 1),
+}
+
+
+class ThresholdsDialog(QDialog):
+    def __init__(self, thresholds: dict[str, float], parent: QWidget | None = None) -> None:
+        super().__init__(parent)
+        self.setWindowTitle("Thresholds (guides)")
+        form = QFormLayout(self)
+        note = QLabel(
+            "These are guides from common practice, not rules: a covariate that crosses one is "
+            "flagged for a closer look, and the verdict's sentence names the guide it crossed."
+        )
+        note.setWordWrap(True)
+        form.addRow(note)
+        self.spins: dict[str, QDoubleSpinBox] = {}
+        for key, (label, lo, hi, decimals) in THRESHOLD_LABELS.items():
+            spin = QDoubleSpinBox()
+            spin.setRange(lo, hi)
+            spin.setDecimals(decimals)
+            spin.setValue(float(thresholds.get(key, DEFAULT_THRESHOLDS[key])))
+            spin.setToolTip(f"Default {DEFAULT_THRESHOLDS[key]:g}")
+            form.addRow(label + " — guide", spin)
+            self.spins[key] = spin
+        buttons = QDialogButtonBox(
+            QDialogButtonBox.StandardButton.Ok
+            | QDialogButtonBox.StandardButton.Cancel
+            | QDialogButtonBox.StandardButton.RestoreDefaults
+        )
+        buttons.accepted.connect(self.accept)
+        buttons.rejected.connect(self.reject)
+        buttons.button(QDialogButtonBox.StandardButton.RestoreDefaults).clicked.connect(
+            self.restore
+        )
+        form.addRow(buttons)
+
+    def restore(self) -> None:
+        for key, spin in self.spins.items():
+            spin.setValue(DEFAULT_THRESHOLDS[key])
+
+    def values(self) -> dict[str, float]:
+        return {key: float(spin.value()) for key, spin in self.spins.items()}

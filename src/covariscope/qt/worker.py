@@ -1,0 +1,248 @@
+"""Analysis and data loading off the GUI thread.
+
+:class:`AnalysisRunner` re-runs the study after each edit, debounced.  Each
+request gets a new *generation* number; a new request cancels the running
+one through its cancel callback, and a result whose generation is no
+longer current is discarded (``discarded`` is emitted), never shown.
+:class:`LoadRunner` loads a data file in the background with progress and
+cancellation.
+"""
+
+from __future__ import annotations
+
+import copy
+import threading
+import traceback
+from collections.abc import Callable
+from typing import Any
+
+from PySide6.QtCore import QObject, QRunnable, QThreadPool, QTimer, Signal
+
+from covariscope.model.errors import CovariscopeError
+from covariscope.model.project import Project
+
+__all__ = ["AnalysisRunner", "LoadRunner", "snapshot"]
+
+
+def snapshot(project: Project) -> Project:
+    """A copy the worker may read while the user keeps editing."""
+    return Project(
+        project.diagram.copy(), project.data, copy.deepcopy(project.analysis), project.path
+    )
+
+
+def _default_run(project: Project, table: Any, progress: Callable, cancel: Callable) -> Any:
+    from covariscope.study import run_study
+
+    return run_study(project, table=table, progress=progress, cancel=cancel)
+
+
+class _Bridge(QObject):
+    """Lives in the GUI thread; signals emitted from the pool are queued to it."""
+
+    progress = Signal(int, float, str)
+    done = Signal(int, object)
+    error = Signal(int, str)
+
+
+class _Task(QRunnable):
+    def __init__(self, fn: Callable[[], Any], generation: int, bridge: _Bridge) -> None:
+        super().__init__()
+        self.fn, self.generation, self.bridge = fn, generation, bridge
+        self.setAutoDelete(True)
+
+    def run(self) -> None:
+        try:
+            result = self.fn()
+        except CovariscopeError as exc:
+            self.bridge.error.emit(self.generation, str(exc))
+        except Exception as exc:  # a bug: say so plainly, keep the window alive
+            traceback.print_exc()
+            self.bridge.error.emit(
+                self.generation,
+                f"The analysis stopped on an internal error ({type(exc).__name__}: {exc}).",
+            )
+        else:
+            self.bridge.done.emit(self.generation, result)
+
+
+class _Token:
+    def __init__(self) -> None:
+        self._event = threading.Event()
+
+    def cancel(self) -> None:
+        self._event.set()
+
+    def __call__(self) -> bool:
+        return self._event.is_set()
+
+
+class _Runner(QObject):
+    """Shared machinery: generations, cancel tokens, one private pool."""
+
+    def __init__(self, parent: QObject | None = None) -> None:
+        super().__init__(parent)
+        self.pool = QThreadPool(self)
+        self.pool.setMaxThreadCount(2)
+        self.generation = 0
+        self._token: _Token | None = None
+        self._running = False
+        self._bridge = _Bridge(self)
+        self._bridge.progress.connect(self._on_progress)
+        self._bridge.done.connect(self._on_done)
+        self._bridge.error.connect(self._on_error)
+
+    @property
+    def running(self) -> bool:
+        return self._running
+
+    def cancel(self) -> None:
+        """Cancel the running job; its result will be discarded."""
+        if self._token is not None:
+            self._token.cancel()
+        self.generation += 1
+        self._running = False
+
+    def _start(self, fn: Callable[[Callable, Callable], Any]) -> int:
+        if self._token is not None:
+            self._token.cancel()
+        self.generation += 1
+        generation = self.generation
+        token = _Token()
+        self._token = token
+        bridge = self._bridge
+
+        def progress(fraction: float, text: str = "") -> None:
+            bridge.progress.emit(generation, float(fraction), str(text))
+
+        self._running = True
+        self.pool.start(_Task(lambda: fn(progress, token), generation, bridge))
+        return generation
+
+    def shutdown(self, timeout_ms: int = 10_000) -> bool:
+        """Cancel and wait for the pool (on close, and in tests)."""
+        self.cancel()
+        return self.pool.waitForDone(timeout_ms)
+
+    # overridden
+    def _on_progress(self, generation: int, fraction: float, text: str) -> None: ...
+    def _on_done(self, generation: int, result: object) -> None: ...
+    def _on_error(self, generation: int, message: str) -> None: ...
+
+
+class AnalysisRunner(_Runner):
+    """Debounced, cancellable re-analysis of a project.
+
+    Signals
+    -------
+    started(int) : a run of that generation began.
+    progress(float, str) : of the current run only.
+    finished(int, object) : the current run's StudyResult.
+    failed(int, str) : the current run's error, in plain words.
+    discarded(int) : a run finished after a newer request; its result was dropped.
+    """
+
+    started = Signal(int)
+    progress = Signal(float, str)
+    finished = Signal(int, object)
+    failed = Signal(int, str)
+    discarded = Signal(int)
+
+    def __init__(
+        self,
+        project_source: Callable[[], Project],
+        *,
+        run: Callable[[Project, Any, Callable, Callable], Any] | None = None,
+        debounce_ms: int = 250,
+        parent: QObject | None = None,
+    ) -> None:
+        super().__init__(parent)
+        self.project_source = project_source
+        self.run_fn = run or _default_run
+        self.table: Any = None
+        self.result: Any = None
+        self._timer = QTimer(self)
+        self._timer.setSingleShot(True)
+        self._timer.setInterval(debounce_ms)
+        self._timer.timeout.connect(self.run_now)
+
+    def request(self) -> None:
+        """Ask for a fresh analysis: the running one is cancelled at once
+        (its result will not be shown) and a new one starts after the pause."""
+        if self._token is not None and self._running:
+            self._token.cancel()
+            self.generation += 1  # whatever is in flight is now stale
+            self._running = False
+        self._timer.start()
+
+    def run_now(self) -> int:
+        self._timer.stop()
+        project = snapshot(self.project_source())
+        table = self.table
+        run_fn = self.run_fn
+        generation = self._start(lambda progress, cancel: run_fn(project, table, progress, cancel))
+        self.started.emit(generation)
+        return generation
+
+    def shutdown(self, timeout_ms: int = 10_000) -> bool:
+        self._timer.stop()
+        return super().shutdown(timeout_ms)
+
+    @property
+    def pending(self) -> bool:
+        return self._timer.isActive()
+
+    def _on_progress(self, generation: int, fraction: float, text: str) -> None:
+        if generation == self.generation:
+            self.progress.emit(fraction, text)
+
+    def _on_done(self, generation: int, result: object) -> None:
+        if generation != self.generation:
+            self.discarded.emit(generation)
+            return
+        self._running = False
+        self.result = result
+        self.finished.emit(generation, result)
+
+    def _on_error(self, generation: int, message: str) -> None:
+        if generation != self.generation:
+            self.discarded.emit(generation)
+            return
+        self._running = False
+        self.failed.emit(generation, message)
+
+
+def _default_load(path: str, progress: Callable, cancel: Callable) -> Any:
+    from covariscope.data.loading import load_table
+
+    return load_table(path, progress=lambda f: progress(f, ""), cancel=cancel)
+
+
+class LoadRunner(_Runner):
+    """Loads one data file at a time in the background."""
+
+    progress = Signal(float)
+    loaded = Signal(object)
+    failed = Signal(str)
+
+    def __init__(self, *, load: Callable | None = None, parent: QObject | None = None) -> None:
+        super().__init__(parent)
+        self.load_fn = load or _default_load
+
+    def load(self, path: str) -> int:
+        load_fn = self.load_fn
+        return self._start(lambda progress, cancel: load_fn(path, progress, cancel))
+
+    def _on_progress(self, generation: int, fraction: float, text: str) -> None:
+        if generation == self.generation:
+            self.progress.emit(fraction)
+
+    def _on_done(self, generation: int, result: object) -> None:
+        if generation == self.generation:
+            self._running = False
+            self.loaded.emit(result)
+
+    def _on_error(self, generation: int, message: str) -> None:
+        if generation == self.generation:
+            self._running = False
+            self.failed.emit(message)
