@@ -36,6 +36,7 @@ smoke          never / former / current; → lungfn              optional_precis
 activity       → lungfn, and age → activity, an arrow the      review
                diagram leaves out
 inhaler        from lungfn (descendant of the outcome)         exclude_descendant
+canteen        linked to nothing (unrelated)                   optional_precision
 =============  ==============================================  ======================
 
 Outcome versions: ``low_lung`` (lung-function score in the lowest quarter,
@@ -142,6 +143,8 @@ def simulate(seed: int = SEED, n: int = N) -> pd.DataFrame:
     ):
         holes = rng.random(n) < share
         frame[column] = frame[column].astype(object).where(~holes, None)
+    # Drawn last so that adding it left every other value as it was.
+    frame.insert(frame.columns.get_loc("inhaler") + 1, "canteen", rng.binomial(1, 0.6, n))
     return frame
 
 
@@ -164,6 +167,7 @@ NODES = [
     ("smoke", "Smoking", "covariate", 760, 440, True, ""),
     ("activity", "Leisure activity", "covariate", 640, 200, True, ""),
     ("inhaler", "Inhaler use", "covariate", 930, 300, True, ""),
+    ("canteen", "Uses the canteen", "covariate", 930, 560, True, ""),
 ]
 # The analyst's diagram.  It omits age → activity on purpose (the review case).
 ARROWS = [
@@ -231,6 +235,7 @@ def project_dict(csv_sha256: str) -> dict[str, object]:
                 "family_hist": "binary",
                 "smoke": "categorical",
                 "inhaler": "binary",
+                "canteen": "binary",
             },
             "reference_levels": {"smoke": "never"},
             "family_columns": {

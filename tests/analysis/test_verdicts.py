@@ -1,0 +1,220 @@
+"""Each verdict rule on a small case of its own (plain numbers, no data)."""
+
+from __future__ import annotations
+
+import pytest
+
+from covariscope.analysis.verdicts import (
+    LABELS,
+    VERDICTS,
+    Facts,
+    Numbers,
+    Shift,
+    collinear_groups,
+    decide_verdict,
+)
+
+CALM = Numbers(added=Shift(2.0, 1.0), dropped=Shift(1.0, 0.5), vif_exposure=1.1, r2_exposure=0.05)
+
+
+def _one_sentence(reason: str) -> bool:
+    return reason.endswith(".") and ". " not in reason.rstrip(".")
+
+
+def test_vocabulary_is_complete():
+    assert set(LABELS) == set(VERDICTS)
+    assert len(VERDICTS) == 11
+
+
+def test_proxy_link_to_the_exposure_excludes_whatever_the_role():
+    for role in ("confounder", "precision", "descendant_of_exposure"):
+        v = decide_verdict(Facts("w", role, measures_exposure=True), CALM)
+        assert v.code == "exclude_measures_exposure"
+        assert "another measure" in v.reason
+
+
+def test_data_that_show_a_copy_of_the_exposure_exclude_it():
+    n = Numbers(added=Shift(3.0, 180.0), r2_exposure=0.95, vif_exposure=20.0)
+    v = decide_verdict(Facts("w", "confounder"), n)
+    assert v.code == "exclude_measures_exposure"
+    assert "0.95" in v.reason
+    assert "+180.0%" in v.reason
+    assert "0.9" in v.reason
+    assert "20%" in v.reason
+    # High R² alone, without the SE inflation past its guide, is not enough.
+    n2 = Numbers(added=Shift(30.0, 10.0), r2_exposure=0.95)
+    assert decide_verdict(Facts("w", "confounder"), n2).code == "adjust"
+
+
+def test_confounder_with_little_change_is_still_adjusted():
+    n = Numbers(added=Shift(4.2, 1.0), r2_exposure=0.1)
+    v = decide_verdict(Facts("age", "confounder"), n)
+    assert v.code == "adjust"
+    assert "requires" in v.reason
+    assert "little confounding" in v.reason
+    assert "+4.2%" in v.reason
+    assert "10%" in v.reason
+    assert _one_sentence(v.reason)
+
+
+def test_confounder_with_large_change_is_adjusted_and_the_data_agree():
+    v = decide_verdict(Facts("age", "confounder"), Numbers(added=Shift(-31.0, 2.0)))
+    assert v.code == "adjust"
+    assert "agree" in v.reason
+    assert "-31.0%" in v.reason
+
+
+def test_collinear_confounders_keep_one_of():
+    f = Facts(
+        "bmi",
+        "confounder",
+        group=("bmi", "waist"),
+        group_alone=("bmi", "waist"),
+        suggested="waist",
+        suggested_why="it is the member in the recommended set",
+    )
+    v = decide_verdict(f, Numbers(added=Shift(12.0, 3.0), vif=25.0, aux_r2=0.96))
+    assert v.code == "keep_one_of"
+    assert v.group == ("bmi", "waist")
+    assert v.suggested == "waist"
+    assert "{bmi, waist}" in v.reason
+    assert "waist is suggested" in v.reason
+    assert "0.96" in v.reason
+    assert "0.9" in v.reason
+    assert _one_sentence(v.reason)
+
+
+def test_review_when_a_precision_variable_shifts_the_estimate():
+    v = decide_verdict(Facts("diet", "precision"), Numbers(added=Shift(15.3, -2.0)))
+    assert v.code == "review"
+    assert "adding it to the crude model" in v.reason
+    assert "+15.3%" in v.reason
+    assert "10%" in v.reason
+    assert "arrow" in v.reason
+    assert _one_sentence(v.reason)
+
+
+def test_review_reads_the_dropped_comparison_too():
+    n = Numbers(added=Shift(3.0, 1.0), dropped=Shift(-22.0, 1.0))
+    v = decide_verdict(Facts("z", "unrelated"), n)
+    assert v.code == "review"
+    assert "dropping it from the full model" in v.reason
+    assert "-22.0%" in v.reason
+
+
+def test_thresholds_are_read_from_the_settings():
+    n = Numbers(added=Shift(15.0, 1.0))
+    assert decide_verdict(Facts("d", "precision"), n, thresholds={"change_pct": 20.0}).code == (
+        "optional_precision"
+    )
+    v = decide_verdict(Facts("d", "precision"), n, thresholds={"change_pct": 5.0})
+    assert v.code == "review"
+    assert "5% guide" in v.reason
+
+
+def test_no_review_under_the_threshold():
+    v = decide_verdict(Facts("s", "precision"), CALM)
+    assert v.code == "optional_precision"
+    assert "+2.0%" in v.reason
+    assert "10%" in v.reason
+
+
+def test_instrument_is_avoided_with_its_numbers():
+    n = Numbers(added=Shift(1.0, 35.0), vif_exposure=1.9, r2_exposure=0.47)
+    v = decide_verdict(Facts("iv", "instrument"), n)
+    assert v.code == "avoid_instrument"
+    assert "+35.0%" in v.reason
+    assert "20%" in v.reason
+    assert "1.9" in v.reason
+
+
+def test_instrument_that_shifts_the_estimate_is_flagged_for_review():
+    v = decide_verdict(Facts("iv", "instrument"), Numbers(added=Shift(18.0, 20.0), r2_exposure=0.4))
+    assert v.code == "review"
+    assert "amplify" in v.reason
+
+
+def test_pathway_descendants_and_colliders_are_excluded():
+    assert decide_verdict(Facts("m", "mediator"), CALM).code == "exclude_pathway"
+    d = decide_verdict(Facts("d", "descendant_of_outcome"), CALM)
+    assert d.code == "exclude_descendant"
+    assert "outcome" in d.reason
+    e = decide_verdict(Facts("e", "descendant_of_exposure"))
+    assert e.code == "exclude_descendant"
+    assert "exposure" in e.reason
+    o = decide_verdict(Facts("o", "precision", measures_outcome=True))
+    assert o.code == "exclude_descendant"
+    assert "measure of it" in o.reason
+
+
+def test_collider_in_the_proposed_set_names_the_path_it_opens():
+    f = Facts("m", "collider", in_proposed=True, opened_paths=(("x", "a", "m", "b", "y"),))
+    v = decide_verdict(f, CALM)
+    assert v.code == "exclude_collider"
+    assert "x – a – m – b – y" in v.reason
+    assert "opens" not in decide_verdict(Facts("m", "collider"), CALM).reason
+
+
+def test_confounder_proxy_says_whether_its_confounder_is_adjusted():
+    adjusted = decide_verdict(
+        Facts("grey", "confounder_proxy", stands_for=("age",), stands_for_adjusted=("age",)), CALM
+    )
+    assert adjusted.code == "consider_proxy"
+    assert "unnecessary" in adjusted.reason
+    missing = decide_verdict(Facts("grey", "confounder_proxy", stands_for=("u",)), CALM)
+    assert missing.code == "consider_proxy"
+    assert "worth adjusting" in missing.reason
+
+
+def test_unmeasured_says_what_adjusting_would_do_and_whether_the_set_suffices():
+    ok = decide_verdict(
+        Facts(
+            "u",
+            "confounder",
+            measured=False,
+            would_close=(("x", "u", "y"),),
+            sufficient_without=True,
+            set_members=("c",),
+        )
+    )
+    assert ok.code == "unmeasured"
+    assert "x – u – y" in ok.reason
+    assert "is sufficient without it" in ok.reason
+    bad = decide_verdict(
+        Facts("u", "confounder", measured=False, sufficient_without=False, set_name="proposed")
+    )
+    assert "not sufficient" in bad.reason
+
+
+def test_non_collapsibility_is_not_read_as_confounding():
+    # Greenland, Robins & Pearl (1999): an odds ratio moves when a strong outcome
+    # predictor that is independent of the exposure is added.
+    n = Numbers(added=Shift(14.0, 8.0, change_pct_ratio=16.0), r2_exposure=0.0004)
+    v = decide_verdict(Facts("z", "precision"), n, family="logistic")
+    assert v.code == "optional_precision"
+    assert "non-collapsib" in v.reason
+    assert "+16.0%" in v.reason
+    assert _one_sentence(v.reason)
+    # The same numbers on a linear scale are a disagreement worth reviewing.
+    assert decide_verdict(Facts("z", "precision"), n, family="linear").code == "review"
+
+
+def test_ratio_families_read_the_ratio_scale():
+    n = Numbers(added=Shift(40.0, 1.0, change_pct_ratio=4.0), r2_exposure=0.3)
+    assert decide_verdict(Facts("z", "precision"), n, family="risk_ratio").code == (
+        "optional_precision"
+    )
+
+
+@pytest.mark.parametrize(
+    ("kwargs", "expected"),
+    [
+        ({"proxy_groups": [("a", "b")]}, (("a", "b"),)),
+        ({"pair_r2": {("a", "c"): 0.93}}, (("a", "c"),)),
+        ({"pair_r2": {("a", "c"): 0.5}}, ()),
+        ({"flagged": [("x", "b", "c")]}, (("b", "c"),)),
+        ({"proxy_groups": [("a", "b")], "pair_r2": {("b", "c"): 0.99}}, (("a", "b", "c"),)),
+    ],
+)
+def test_collinear_groups(kwargs, expected):
+    assert collinear_groups(["a", "b", "c"], **kwargs) == expected
