@@ -98,7 +98,7 @@ def test_review_reads_the_dropped_comparison_too():
     n = Numbers(added=Shift(3.0, 1.0), dropped=Shift(-22.0, 1.0))
     v = decide_verdict(Facts("z", "unrelated"), n)
     assert v.code == "review"
-    assert "dropping it from the full model" in v.reason
+    assert "the full model against the full model without it" in v.reason
     assert "-22.0%" in v.reason
 
 

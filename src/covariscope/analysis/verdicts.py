@@ -252,7 +252,7 @@ def _largest_shift(n: Numbers, ratio: bool) -> tuple[str, float] | None:
 
 _COMPARISON_WORDS = {
     "added": "adding it to the crude model",
-    "dropped": "dropping it from the full model",
+    "dropped": "adding it last (the full model against the full model without it)",
 }
 
 

@@ -1,0 +1,82 @@
+"""`covariscope check --json` validates against the shipped JSON Schema."""
+
+from __future__ import annotations
+
+import json
+from importlib import resources
+from pathlib import Path
+
+import jsonschema
+import pytest
+
+from covariscope.cli import main
+
+ROOT = Path(__file__).resolve().parents[1]
+
+
+@pytest.fixture(scope="module")
+def schema():
+    text = (resources.files("covariscope") / "schemas" / "check.schema.json").read_text("utf-8")
+    loaded = json.loads(text)
+    jsonschema.Draft202012Validator.check_schema(loaded)
+    return loaded
+
+
+def _check(capsys, *args):
+    code = main(["check", *args, "--json"])
+    out = capsys.readouterr().out
+    assert code == 0
+    return json.loads(out)
+
+
+def test_demo_output_validates(schema, capsys):
+    out = _check(capsys, str(ROOT / "demo_data" / "demo_project.json"))
+    jsonschema.validate(out, schema)
+    assert out["family"] == "linear"
+    assert out["sample"]["used"] < out["sample"]["rows"]
+    assert out["covariates"]["early_life"]["added"] is None
+    assert out["evalue"]["estimate"] >= 1
+
+
+def test_cox_output_validates(schema, capsys):
+    out = _check(capsys, str(ROOT / "demo_data" / "demo_project.json"), "--family", "cox")
+    jsonschema.validate(out, schema)
+    assert out["estimates"]["recommended"]["ratio"] is not None
+
+
+def test_diagram_without_data_validates(schema, capsys, tmp_path):
+    project = {
+        "format": "covariscope-project",
+        "version": 1,
+        "diagram": {
+            "nodes": [
+                {"id": "x", "kind": "exposure"},
+                {"id": "y", "kind": "outcome"},
+                {"id": "c"},
+                {"id": "u", "measured": False},
+            ],
+            "arrows": [
+                {"from": "c", "to": "x"},
+                {"from": "c", "to": "y"},
+                {"from": "u", "to": "y"},
+                {"from": "x", "to": "y"},
+            ],
+        },
+        "analysis": {"proposed": ["c"]},
+    }
+    path = tmp_path / "graph_only.json"
+    path.write_text(json.dumps(project), encoding="utf-8")
+    out = _check(capsys, str(path))
+    jsonschema.validate(out, schema)
+    for key in ("sample", "evalue", "data"):
+        assert key in out
+        assert out[key] is None
+    assert all(v is None for v in out["estimates"].values())
+    assert out["covariates"]["c"]["verdict"] == "adjust"
+
+
+def test_schema_rejects_a_missing_field(schema, capsys):
+    out = _check(capsys, str(ROOT / "demo_data" / "demo_project.json"))
+    del out["covariates"]["age"]["dropped"]
+    with pytest.raises(jsonschema.ValidationError):
+        jsonschema.validate(out, schema)

@@ -1,0 +1,120 @@
+"""The invented demo study: every planted role and verdict comes out as planted."""
+
+from __future__ import annotations
+
+import hashlib
+import importlib.util
+import json
+from importlib import resources
+from pathlib import Path
+
+import pytest
+
+from covariscope.model.project import load_project
+from covariscope.study import run_study
+
+ROOT = Path(__file__).resolve().parents[1]
+DEMO = ROOT / "demo_data"
+
+PLANTED = {
+    "age": ("confounder", "adjust"),
+    "income": ("confounder", "keep_one_of"),
+    "area": ("confounder", "keep_one_of"),
+    "early_life": ("confounder", "unmeasured"),
+    "school_yrs": ("confounder_proxy", "consider_proxy"),
+    "badge": ("descendant_of_exposure", "exclude_measures_exposure"),
+    "inflam": ("mediator", "exclude_pathway"),
+    "prior_job": ("instrument", "avoid_instrument"),
+    "family_hist": ("precision", "optional_precision"),
+    "screen": ("collider", "exclude_collider"),
+    "smoke": ("precision", "optional_precision"),
+    "activity": ("precision", "review"),
+    "inhaler": ("descendant_of_outcome", "exclude_descendant"),
+    "canteen": ("unrelated", "optional_precision"),
+}
+
+
+def _generator():
+    spec = importlib.util.spec_from_file_location("make_demo", DEMO / "make_demo.py")
+    assert spec is not None
+    assert spec.loader is not None
+    module = importlib.util.module_from_spec(spec)
+    spec.loader.exec_module(module)
+    return module
+
+
+@pytest.fixture(scope="module")
+def linear():
+    return run_study(load_project(DEMO / "demo_project.json"))
+
+
+def test_generator_reproduces_the_shipped_files():
+    gen = _generator()
+    text = gen.simulate().to_csv(index=False, lineterminator="\n")
+    shipped = (DEMO / "demo_cohort.csv").read_text(encoding="utf-8")
+    assert text == shipped
+    project = json.loads((DEMO / "demo_project.json").read_text(encoding="utf-8"))
+    assert project["data"]["sha256"] == hashlib.sha256(shipped.encode()).hexdigest()
+    assert pytest.approx(
+        gen.DIRECT_EFFECT + gen.INFLAM_PER_DUST * gen.LUNG_PER_INFLAM
+    ) == gen.TRUE_EFFECT
+
+
+def test_package_data_holds_the_same_demo():
+    package = resources.files("covariscope") / "demo"
+    for name in ("demo_cohort.csv", "demo_project.json"):
+        assert (package / name).read_bytes() == (DEMO / name).read_bytes()
+
+
+def test_every_planted_role_and_verdict(linear):
+    got = {c: (linear.diagram.roles[c].role, v.code) for c, v in linear.verdicts.items()}
+    assert got == PLANTED
+    codes = {v.code for v in linear.verdicts.values()}
+    assert len(codes) == 11  # every verdict of the vocabulary appears
+    group = linear.verdicts["income"]
+    assert group.group == ("area", "income")
+    assert group.suggested in ("area", "income")
+    assert "dust – prior_job – screen – family_hist – lungfn" in linear.verdicts["screen"].reason
+    for v in linear.verdicts.values():
+        assert v.reason.endswith(".")
+        assert ". " not in v.reason  # one sentence
+
+
+def test_recommended_ci_covers_the_truth_and_the_crude_does_not(linear):
+    truth = _generator().TRUE_EFFECT
+    rec, crude = linear.estimates["recommended"], linear.estimates["crude"]
+    assert linear.recommended in (("age", "income"), ("age", "area"))
+    assert rec is not None
+    assert crude is not None
+    assert rec.ci[0] <= truth <= rec.ci[1]
+    assert not crude.ci[0] <= truth <= crude.ci[1]
+    proposed = linear.estimates["proposed"]
+    assert proposed is not None
+    assert not proposed.ci[0] <= truth <= proposed.ci[1]  # the mediator and collider mislead
+    assert linear.evalue is not None
+    assert linear.evalue.estimate > linear.evalue.ci > 1
+
+
+def test_demo_has_missing_values_and_a_many_level_categorical(linear):
+    sample = linear.sample
+    assert sample is not None
+    assert sum(1 for v in sample.missing_by_column.values() if v > 0) >= 3
+    assert sample.used < sample.rows
+    assert linear.evidence is not None
+    assert linear.evidence.covariates["smoke"].df >= 2  # three or more levels
+
+
+@pytest.mark.parametrize(
+    ("family", "measure"),
+    [("logistic", "odds ratio"), ("risk_ratio", "risk ratio"), ("cox", "hazard ratio")],
+)
+def test_other_families_run_on_the_demo(family, measure):
+    r = run_study(load_project(DEMO / "demo_project.json"), family=family)
+    assert r.effect_measure == measure
+    for key in ("crude", "recommended", "full"):
+        fit = r.estimates[key]
+        assert fit is not None
+        assert fit.ok, fit.message
+    assert r.evalue is not None
+    assert r.verdicts["badge"].code == "exclude_measures_exposure"
+    assert r.verdicts["inflam"].code == "exclude_pathway"
