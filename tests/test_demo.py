@@ -55,9 +55,10 @@ def test_generator_reproduces_the_shipped_files():
     assert text == shipped
     project = json.loads((DEMO / "demo_project.json").read_text(encoding="utf-8"))
     assert project["data"]["sha256"] == hashlib.sha256(shipped.encode()).hexdigest()
-    assert pytest.approx(
-        gen.DIRECT_EFFECT + gen.INFLAM_PER_DUST * gen.LUNG_PER_INFLAM
-    ) == gen.TRUE_EFFECT
+    assert (
+        pytest.approx(gen.DIRECT_EFFECT + gen.INFLAM_PER_DUST * gen.LUNG_PER_INFLAM)
+        == gen.TRUE_EFFECT
+    )
 
 
 def test_package_data_holds_the_same_demo():
