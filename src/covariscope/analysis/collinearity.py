@@ -21,9 +21,13 @@ from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 
 import numpy as np
-import scipy.linalg
 
-from covariscope.analysis.linear import ALIAS_TOLERANCE, LinearSummary
+from covariscope.analysis.linear import (
+    ALIAS_TOLERANCE,
+    LinearSummary,
+    cholesky_lower,
+    inverse_lower,
+)
 
 __all__ = [
     "AliasFinding",
@@ -54,23 +58,18 @@ def vif(summary: LinearSummary, columns: Sequence[int]) -> np.ndarray:
     cols = list(columns)
     if len(cols) == 1:
         return np.ones(1)
-    r = summary.correlation[np.ix_(cols, cols)]
-    try:
-        chol = scipy.linalg.cholesky(r, lower=True, check_finite=False)
-    except np.linalg.LinAlgError:
+    chol = cholesky_lower(summary.correlation[np.ix_(cols, cols)])
+    if chol is None or np.min(np.diag(chol) ** 2) < ALIAS_TOLERANCE:
         return np.full(len(cols), np.inf)
-    if np.min(np.diag(chol) ** 2) < ALIAS_TOLERANCE:
-        return np.full(len(cols), np.inf)
-    inv_l = scipy.linalg.solve_triangular(chol, np.eye(len(cols)), lower=True, check_finite=False)
+    inv_l = inverse_lower(chol)
     return np.asarray(np.sum(inv_l**2, axis=0))
 
 
 def _logdet(r: np.ndarray) -> float:
     if r.shape[0] == 0:
         return 0.0
-    try:
-        chol = scipy.linalg.cholesky(r, lower=True, check_finite=False)
-    except np.linalg.LinAlgError:
+    chol = cholesky_lower(r)
+    if chol is None:
         return -np.inf
     return float(2.0 * np.sum(np.log(np.diag(chol))))
 
@@ -133,10 +132,11 @@ def find_aliases(
         for col in cols:
             if kept:
                 sub = corr[np.ix_(kept, kept)]
-                chol = scipy.linalg.cholesky(sub, lower=True, check_finite=False)
-                border = scipy.linalg.solve_triangular(
-                    chol, corr[kept, col], lower=True, check_finite=False
-                )
+                chol = cholesky_lower(sub)
+                if chol is None:  # cannot happen: the kept columns are independent
+                    raise np.linalg.LinAlgError("kept columns lost rank")
+                inv_l = inverse_lower(chol)
+                border = inv_l @ corr[kept, col]
                 tol = 1.0 - float(border @ border)
             else:
                 tol = 1.0
@@ -144,9 +144,7 @@ def find_aliases(
                 kept.append(col)
                 owner[col] = node
                 continue
-            weights = scipy.linalg.solve_triangular(
-                chol, border, trans="T", lower=True, check_finite=False
-            )
+            weights = inv_l.T @ border
             involved: list[str] = []
             for c, w in zip(kept, weights, strict=True):
                 if abs(w) > 1e-8 and owner[c] not in involved and owner[c] != node:

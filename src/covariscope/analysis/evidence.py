@@ -16,6 +16,7 @@ gathers the evidence table.
 
 from __future__ import annotations
 
+import functools
 import math
 from collections import OrderedDict
 from collections.abc import Callable, Mapping, Sequence
@@ -35,7 +36,13 @@ from covariscope.analysis.collinearity import (
 )
 from covariscope.analysis.design import Design
 from covariscope.analysis.fits import RATIO_FAMILIES, Fit
-from covariscope.analysis.linear import LinearSummary, OLSResult, linear_summary, solve_ols
+from covariscope.analysis.linear import (
+    LinearSummary,
+    OLSResult,
+    is_rank_deficient,
+    linear_summary,
+    solve_ols,
+)
 from covariscope.model.errors import DataError
 
 __all__ = [
@@ -63,6 +70,11 @@ _SUMMARY_CACHE: OrderedDict[str, LinearSummary] = OrderedDict()
 
 ProgressCallback = Callable[[int, int], None]
 CancelCallback = Callable[[], bool]
+
+
+@functools.lru_cache(maxsize=256)
+def _t_quantile(df: int) -> float:
+    return float(scipy.stats.t.ppf(0.975, df))
 
 
 class EvidenceCancelledError(Exception):
@@ -174,9 +186,14 @@ class EvidenceEngine:
         n = self.design.n
         if n <= n_params:
             return f"The model has {n_params} parameters but only {n} rows; it needs at least {n_params + 1}."
-        found = find_aliases(self.summary, self.groups(terms))
-        if found:
-            return "; ".join(f.message for f in found) + ", so this model cannot separate them."
+        # One factorisation decides; the slower column-by-column search only names the culprits.
+        if is_rank_deficient(self.summary, self.columns(terms)):
+            found = find_aliases(self.summary, self.groups(terms))
+            names = (
+                "; ".join(f.message for f in found)
+                or "Some columns are exact linear combinations of others"
+            )
+            return names + ", so this model cannot separate them."
         return None
 
     def _fit_uncached(self, terms: tuple[str, ...]) -> tuple[Fit, np.ndarray | None]:
@@ -255,7 +272,7 @@ class EvidenceEngine:
             return Fit.failed(
                 self.family, terms, self.design.n, "The model's columns are exactly collinear."
             )
-        t = float(scipy.stats.t.ppf(0.975, res.df_resid))
+        t = _t_quantile(res.df_resid)
         lo, hi = res.coef - t * res.se, res.coef + t * res.se
         term_coefs = {
             names[j]: (float(res.coef[j]), float(res.se[j]), float(lo[j]), float(hi[j]))

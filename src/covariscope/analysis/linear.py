@@ -26,13 +26,15 @@ from collections.abc import Sequence
 from dataclasses import dataclass
 
 import numpy as np
-import scipy.linalg
 import scipy.stats
+from scipy.linalg import lapack
 
 __all__ = [
     "ALIAS_TOLERANCE",
     "LinearSummary",
     "OLSResult",
+    "cholesky_lower",
+    "inverse_lower",
     "is_rank_deficient",
     "linear_summary",
     "merge_summaries",
@@ -161,6 +163,21 @@ class OLSResult:
         return self.coef - t * self.se, self.coef + t * self.se
 
 
+def cholesky_lower(a: np.ndarray) -> np.ndarray | None:
+    """Lower Cholesky factor of a small symmetric matrix, or None if not positive definite."""
+    # LAPACK directly: on matrices this small the generic wrappers cost more than the work.
+    chol, info = lapack.dpotrf(a, lower=1, clean=1)
+    return None if info != 0 else np.asarray(chol)
+
+
+def inverse_lower(chol: np.ndarray) -> np.ndarray:
+    """Inverse of a lower-triangular factor."""
+    inv, info = lapack.dtrtri(chol, lower=1)
+    if info != 0:
+        raise np.linalg.LinAlgError("singular triangular factor")
+    return np.tril(inv)
+
+
 def _tolerances(chol: np.ndarray) -> np.ndarray:
     # The squared diagonal of the Cholesky factor of a correlation matrix is the
     # tolerance of each column on the columns before it.
@@ -172,10 +189,8 @@ def is_rank_deficient(summary: LinearSummary, columns: Sequence[int]) -> bool:
     cols = list(columns)
     if not cols:
         return False
-    r = summary.correlation[np.ix_(cols, cols)]
-    try:
-        chol = scipy.linalg.cholesky(r, lower=True, check_finite=False)
-    except np.linalg.LinAlgError:
+    chol = cholesky_lower(summary.correlation[np.ix_(cols, cols)])
+    if chol is None:
         return True
     return bool(np.min(_tolerances(chol)) < ALIAS_TOLERANCE)
 
@@ -207,18 +222,13 @@ def solve_ols(summary: LinearSummary, columns: Sequence[int], outcome: int) -> O
     corr = summary.correlation
     tss = float(summary.comoment[outcome, outcome])
     if k:
-        try:
-            lxx = scipy.linalg.cholesky(corr[np.ix_(cols, cols)], lower=True, check_finite=False)
-        except np.linalg.LinAlgError:
-            return None
-        if np.min(_tolerances(lxx)) < ALIAS_TOLERANCE:
+        lxx = cholesky_lower(corr[np.ix_(cols, cols)])
+        if lxx is None or np.min(_tolerances(lxx)) < ALIAS_TOLERANCE:
             return None
         # Border of the Cholesky factor of [[R_xx, r_xy], [r_yx, 1]].
-        border = scipy.linalg.solve_triangular(
-            lxx, corr[cols, outcome], lower=True, check_finite=False
-        )
-        beta = scipy.linalg.solve_triangular(lxx, border, trans="T", lower=True, check_finite=False)
-        inv_l = scipy.linalg.solve_triangular(lxx, np.eye(k), lower=True, check_finite=False)
+        inv_l = inverse_lower(lxx)
+        border = inv_l @ corr[cols, outcome]
+        beta = inv_l.T @ border
         rinv_diag = np.sum(inv_l**2, axis=0)
         rss = max(0.0, 1.0 - float(border @ border)) * s_y**2
     else:
