@@ -119,3 +119,13 @@ def test_other_families_run_on_the_demo(family, measure):
     assert r.evalue is not None
     assert r.verdicts["badge"].code == "exclude_measures_exposure"
     assert r.verdicts["inflam"].code == "exclude_pathway"
+
+
+def test_written_demo_runs_from_its_new_folder(tmp_path):
+    from covariscope.cli import write_demo
+
+    project_path = write_demo(tmp_path / "demo")
+    r = run_study(load_project(project_path))
+    assert r.data_name == "demo_cohort.csv"
+    assert not any("changed" in m for m in r.messages)
+    assert r.verdicts["activity"].code == "review"
