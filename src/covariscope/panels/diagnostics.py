@@ -204,7 +204,7 @@ def node_diagnostics(
             "gvif_root": getattr(ev, "gvif_root", None),
             "vif_exposure": vif_x,
         }
-        multi = is_number(numbers["gvif"])
+        multi = int(getattr(ev, "df", 1) or 1) > 1 and is_number(numbers["gvif"])
         vif_label = "GVIF^(1/df)" if multi else "VIF"
         figures += [
             (f"{vif_label} of {node_id} in the full model", number(vif)),

@@ -111,7 +111,7 @@ class MainWindow(QMainWindow):
             ),
         }
         self.resizeDocks(
-            [self.docks["data"], self.docks["paths"]], [330, 260], Qt.Orientation.Horizontal
+            [self.docks["data"], self.docks["paths"]], [400, 260], Qt.Orientation.Horizontal
         )
         self.resizeDocks([self.docks["review"]], [300], Qt.Orientation.Vertical)
 

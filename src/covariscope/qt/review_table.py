@@ -179,6 +179,8 @@ class PathsPanel(QWidget):
         self.summary = QLabel("No analysis yet.")
         self.summary.setWordWrap(True)
         self.list = QListWidget()
+        self.list.setWordWrap(True)
+        self.list.setTextElideMode(Qt.TextElideMode.ElideNone)
         self.list.currentItemChanged.connect(self._chosen)
         layout = QVBoxLayout(self)
         layout.setContentsMargins(4, 4, 4, 4)
@@ -196,7 +198,8 @@ class PathsPanel(QWidget):
         self._paths = open_paths(result) if result is not None else []
         for path in self._paths:
             parts = [n.replace("|", " | ") for n in path]
-            item = QListWidgetItem(" – ".join(parts))
+            item = QListWidgetItem(" — ".join(parts))
+            item.setToolTip(" — ".join(parts))
             item.setData(Qt.ItemDataRole.UserRole, path)
             self.list.addItem(item)
         self.list.blockSignals(False)

@@ -1,0 +1,158 @@
+"""The diagnostics dialog shows the numbers ``check --json`` gives for the
+node; its note is saved into the project (undoable); a screenshot."""
+
+from __future__ import annotations
+
+import shutil
+from pathlib import Path
+
+import pytest
+from PySide6.QtWidgets import QApplication
+
+DEMO = Path(__file__).resolve().parents[2] / "demo_data"
+SHOTS = Path("/tmp/shots")
+
+
+class FakePrompts:
+    """Answers the window's questions without dialogs; records what was said."""
+
+    def __init__(self) -> None:
+        self.said: list[tuple[str, str]] = []
+        self.answers: dict[str, object] = {}
+
+    def save_changes(self, name):
+        return self.answers.get("save_changes", "discard")
+
+    def yes_no(self, title, text):
+        self.said.append((title, text))
+        return bool(self.answers.get(title, False))
+
+    def warn(self, title, text):
+        self.said.append((title, text))
+
+    info = warn
+
+    def open_path(self, title, filter_, start=""):
+        return self.answers.get("open_path")
+
+    def save_path(self, title, filter_, start=""):
+        return self.answers.get("save_path")
+
+
+@pytest.fixture
+def demo(tmp_path):
+    if not (DEMO / "demo_project.json").exists():
+        pytest.skip("the demo study is not there yet")
+    for name in ("demo_project.json", "demo_cohort.csv"):
+        shutil.copyfile(DEMO / name, tmp_path / name)
+    return tmp_path
+
+
+@pytest.fixture
+def window(qtbot):
+    from covariscope.qt.app import application
+    from covariscope.qt.main_window import MainWindow
+
+    application()
+    prompts = FakePrompts()
+    w = MainWindow(prompts=prompts, debounce_ms=20)
+    qtbot.addWidget(w)
+    w.show()
+    yield w
+    w.io.extra_modified = False
+    w.undo_stack.setClean()
+    w.close()
+
+
+def wait_for_analysis(qtbot, w, timeout=90_000):
+    qtbot.waitUntil(
+        lambda: (
+            w.result is not None
+            and not w.runner.running
+            and not w.runner.pending
+            and not w.data.loading
+            and w.state_label.text() == "Analysis up to date"
+        ),
+        timeout=timeout,
+    )
+
+
+def test_dialog_shows_the_json_numbers(qtbot, window, demo):
+    from covariscope.model.project import load_project
+    from covariscope.panels.format import number, percent
+    from covariscope.study import run_study, study_to_json
+
+    w = window
+    js = study_to_json(run_study(load_project(demo / "demo_project.json")))
+    w.io.open(str(demo / "demo_project.json"))
+    wait_for_analysis(qtbot, w)
+    for node in ("age", "income"):
+        c = js["covariates"][node]
+        dialog = w.open_diagnostics(node)
+        cells = {
+            dialog.models.item(r, 0).text(): [dialog.models.item(r, k).text() for k in range(1, 5)]
+            for r in range(dialog.models.rowCount())
+        }
+        assert cells["Crude"][0] == number(js["estimates"]["crude"]["coef"])
+        assert cells[f"Crude + {node}"][2] == percent(c["added"]["change_pct"])
+        assert cells[f"Crude + {node}"][3] == percent(c["added"]["se_inflation_pct"])
+        assert cells["Full"][2] == percent(c["dropped"]["change_pct"])
+        figures = {
+            dialog.figures.item(r, 0).text(): dialog.figures.item(r, 1).text()
+            for r in range(dialog.figures.rowCount())
+        }
+        assert figures[f"VIF of {node} in the full model"] == number(c["vif"])
+        assert figures["Tolerance (1 / VIF)"] == number(c["tolerance"], 3)
+        assert c["label"] in dialog.verdict.text()
+        assert c["reason"] in dialog.verdict.text()
+        dialog.close()
+
+
+def test_note_is_saved_undoably_and_follows_the_analysis(qtbot, window, demo):
+    w = window
+    w.io.open(str(demo / "demo_project.json"))
+    wait_for_analysis(qtbot, w)
+    dialog = w.open_diagnostics("smoke")
+    dialog.note.setPlainText("Kept for precision, as the analysis plan says.")
+    dialog.save_note_button.click()
+    assert w.project.diagram.node("smoke").note == "Kept for precision, as the analysis plan says."
+    assert w.isWindowModified()
+    w.undo_stack.undo()
+    assert w.project.diagram.node("smoke").note == ""
+    # the dialog follows the model after the next analysis
+    w.scene.select_ids(["activity"])
+    w.actions_.toggle_measured.trigger()
+    wait_for_analysis(qtbot, w)
+    assert dialog.note.toPlainText() == ""
+    assert "activity" in w.result.verdicts
+    assert w.result.verdicts["activity"].code == "unmeasured"
+    dialog.close()
+
+
+def test_endpoint_dialog_changes_the_family(qtbot, window, demo):
+    w = window
+    w.io.open(str(demo / "demo_project.json"))
+    wait_for_analysis(qtbot, w)
+    dialog = w.open_diagnostics(w.project.diagram.exposure.id)
+    assert "missing" in dialog.missing.text()
+    index = dialog.family.findData("logistic")
+    dialog.family.setCurrentIndex(index)
+    dialog.family.activated.emit(index)
+    assert w.project.analysis.family == "logistic"
+    w.undo_stack.undo()
+    assert w.project.analysis.family == "linear"
+    dialog.close()
+
+
+def test_screenshot_of_the_dialog(qtbot, window, demo, tmp_path):
+    w = window
+    w.io.open(str(demo / "demo_project.json"))
+    wait_for_analysis(qtbot, w)
+    for node, name in (("income", "diagnostics.png"), ("smoke", "diagnostics_levels.png")):
+        dialog = w.open_diagnostics(node)
+        QApplication.processEvents()
+        shot = tmp_path / name
+        assert dialog.grab().save(str(shot))
+        SHOTS.mkdir(exist_ok=True)
+        shutil.copyfile(shot, SHOTS / name)
+        dialog.close()

@@ -1,0 +1,233 @@
+"""The main window: the demo built from an empty window with the GUI's own
+actions and signals gives the verdicts of ``covariscope check``; a
+screenshot of the window with the demo loaded."""
+
+from __future__ import annotations
+
+import shutil
+from pathlib import Path
+
+import pytest
+from PySide6.QtCore import QPointF, Qt
+from PySide6.QtGui import QDragEnterEvent, QDropEvent
+from PySide6.QtWidgets import QApplication
+
+DEMO = Path(__file__).resolve().parents[2] / "demo_data"
+SHOTS = Path("/tmp/shots")
+
+
+class FakePrompts:
+    """Answers the window's questions without dialogs; records what was said."""
+
+    def __init__(self) -> None:
+        self.said: list[tuple[str, str]] = []
+        self.answers: dict[str, object] = {}
+
+    def save_changes(self, name):
+        return self.answers.get("save_changes", "discard")
+
+    def yes_no(self, title, text):
+        self.said.append((title, text))
+        return bool(self.answers.get(title, False))
+
+    def warn(self, title, text):
+        self.said.append((title, text))
+
+    info = warn
+
+    def open_path(self, title, filter_, start=""):
+        return self.answers.get("open_path")
+
+    def save_path(self, title, filter_, start=""):
+        return self.answers.get("save_path")
+
+
+@pytest.fixture
+def demo(tmp_path):
+    if not (DEMO / "demo_project.json").exists():
+        pytest.skip("the demo study is not there yet")
+    for name in ("demo_project.json", "demo_cohort.csv"):
+        shutil.copyfile(DEMO / name, tmp_path / name)
+    return tmp_path
+
+
+@pytest.fixture
+def window(qtbot):
+    from covariscope.qt.app import application
+    from covariscope.qt.main_window import MainWindow
+
+    application()
+    prompts = FakePrompts()
+    w = MainWindow(prompts=prompts, debounce_ms=20)
+    qtbot.addWidget(w)
+    w.show()
+    yield w
+    w.io.extra_modified = False
+    w.undo_stack.setClean()
+    w.close()
+
+
+def wait_for_analysis(qtbot, w, timeout=90_000):
+    qtbot.waitUntil(
+        lambda: (
+            w.result is not None
+            and not w.runner.running
+            and not w.runner.pending
+            and not w.data.loading
+            and w.state_label.text() == "Analysis up to date"
+        ),
+        timeout=timeout,
+    )
+
+
+def drop_column(w, column: str, scene_pos: QPointF) -> None:
+    """Drop a column dragged from the data panel onto the canvas."""
+    row = w.data_panel.row_of(column)
+    assert row >= 0, f"{column} not in the data panel"
+    mime = w.data_panel.table.mimeData([w.data_panel.table.item(row, 0)])
+    viewport = w.view.viewport()
+    point = w.view.mapFromScene(scene_pos)
+    actions = Qt.DropAction.CopyAction
+    enter = QDragEnterEvent(
+        point, actions, mime, Qt.MouseButton.LeftButton, Qt.KeyboardModifier.NoModifier
+    )
+    QApplication.sendEvent(viewport, enter)
+    drop = QDropEvent(
+        QPointF(point), actions, mime, Qt.MouseButton.LeftButton, Qt.KeyboardModifier.NoModifier
+    )
+    QApplication.sendEvent(viewport, drop)
+
+
+def test_build_the_demo_from_an_empty_window(qtbot, window, demo):
+    from covariscope.model.project import load_project
+    from covariscope.study import run_study, study_to_json
+
+    w = window
+    expected_project = load_project(demo / "demo_project.json")
+    expected = study_to_json(run_study(expected_project))
+    d = expected_project.diagram
+    a = expected_project.analysis
+
+    # load the data through the data panel's own path
+    w.prompts.answers["open_path"] = str(demo / "demo_cohort.csv")
+    w.data_panel.load_button.click()
+    qtbot.waitUntil(lambda: w.data.table is not None, timeout=60_000)
+
+    w.view.centerOn(QPointF(400, 250))
+    for node in d.nodes:
+        before = set(w.project.diagram.node_ids)
+        if node.column:
+            drop_column(w, node.column, QPointF(node.x, node.y))
+        else:
+            w.scene.add_node_at(QPointF(node.x, node.y), label=node.id)
+        (new,) = set(w.project.diagram.node_ids) - before
+        assert new == node.id
+        assert w.project.diagram.node(new).column == node.column
+        if node.label != node.id:
+            w.scene.rename_node(new, node.label)
+        w.scene.select_ids([new])
+        assert w.selected_ids == [new]
+        if node.kind == "exposure":
+            w.actions_.make_exposure.trigger()
+        elif node.kind == "outcome":
+            w.actions_.make_outcome.trigger()
+        if not node.measured:
+            w.actions_.toggle_measured.trigger()
+        if node.note:
+            dialog = w.open_diagnostics(new)
+            dialog.note.setPlainText(node.note)
+            dialog.save_note_button.click()
+            dialog.close()
+    for cause, effect in d.arrows:
+        assert w.scene.connect_nodes(cause, effect)
+    for x, y in d.proxies:
+        assert w.scene.connect_nodes(x, y, "proxy")
+    for column, kind in a.column_types.items():
+        w.data_panel.type_requested.emit(column, kind)
+    for column, level in a.reference_levels.items():
+        w.data_panel.reference_requested.emit(column, level)
+    if a.family != w.project.analysis.family:
+        w.actions_.family[a.family].trigger()
+    wait_for_analysis(qtbot, w)
+    for node_id in a.proposed:
+        w.review.set_checked(node_id, True)
+    wait_for_analysis(qtbot, w)
+
+    assert w.project.diagram.to_dict() == d.to_dict()
+    assert w.project.proposed == a.proposed
+    shown = w.review.verdicts()
+    assert shown == {k: v["label"] for k, v in expected["covariates"].items()}
+    assert w.paths.paths == [tuple(p) for p in expected["open_paths"]]
+    # the canvas and the table hold the same proposed set
+    w.review.set_checked(a.proposed[0], False)
+    assert a.proposed[0] not in w.project.proposed
+    w.undo_stack.undo()
+    assert w.project.proposed == a.proposed
+
+
+def test_screenshot_with_the_demo(qtbot, window, demo, tmp_path):
+    w = window
+    assert w.io.open(str(demo / "demo_project.json"))
+    wait_for_analysis(qtbot, w)
+    w.paths.choose(0) if w.paths.paths else None
+    w.resize(1500, 950)
+    w.view.fit_to_window()
+    QApplication.processEvents()
+    qtbot.waitUntil(lambda: w.strip.cells["crude"].value.text() != "—")
+    shot = tmp_path / "main_window.png"
+    assert w.grab().save(str(shot))
+    SHOTS.mkdir(exist_ok=True)
+    shutil.copyfile(shot, SHOTS / "main_window.png")
+    assert "Analysis up to date" in w.state_label.text()
+    sample = w.result.sample
+    assert w.rows_label.text() == f"{sample.used:,} of {sample.rows:,} rows used"
+
+
+def test_window_title_marks_unsaved_changes(qtbot, window, demo):
+    w = window
+    w.io.open(str(demo / "demo_project.json"))
+    assert not w.isWindowModified()
+    assert w.windowTitle().startswith("demo_project.json")
+    w.scene.select_ids(["age"])
+    w.actions_.toggle_measured.trigger()
+    assert w.isWindowModified()
+    w.actions_.undo.trigger()
+    assert not w.isWindowModified()
+
+
+def test_cautions_in_help(window):
+    window.actions_.cautions.trigger()
+    title, text = window.prompts.said[-1]
+    assert title == "Cautions"
+    for words in ("cannot fully test", "guides", "does not replace"):
+        assert words in text
+
+
+def test_shortcuts(window):
+    a = window.actions_
+    expect = {
+        a.new: "Ctrl+N",
+        a.open: "Ctrl+O",
+        a.save: "Ctrl+S",
+        a.save_as: "Ctrl+Shift+S",
+        a.undo: "Ctrl+Z",
+        a.copy: "Ctrl+C",
+        a.paste: "Ctrl+V",
+        a.delete: "Del",
+        a.print: "Ctrl+P",
+        a.fit: "Ctrl+0",
+    }
+    for action, key in expect.items():
+        assert action.shortcut().toString() == key, action.text()
+    assert "Ctrl+Shift+Z" in [k.toString() for k in a.redo.shortcuts()]
+
+
+def test_review_csv_export(qtbot, window, demo, tmp_path):
+    w = window
+    w.io.open(str(demo / "demo_project.json"))
+    wait_for_analysis(qtbot, w)
+    target = tmp_path / "review.csv"
+    assert w.export_review_csv(str(target))
+    text = target.read_text(encoding="utf-8")
+    assert text.splitlines()[0].startswith("node,Covariate,Role")
+    assert len(text.splitlines()) == 1 + len(w.project.diagram.covariates)
