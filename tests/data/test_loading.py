@@ -259,7 +259,7 @@ def test_sha256_equals_hashlib(tmp_path, monkeypatch):
     assert file_sha256(path) == hashlib.sha256(data).hexdigest()  # reference: hashlib
 
 
-def _large_csv(path: Path, rows: int = 3000) -> None:
+def _large_csv(path: Path, rows: int = 1200) -> None:
     rng = np.random.default_rng(11)
     pd.DataFrame({"x": rng.normal(size=rows), "g": rng.integers(0, 3, rows)}).to_csv(
         path, index=False
@@ -276,7 +276,7 @@ def test_progress_is_monotone_and_reaches_one(tmp_path, monkeypatch, name, write
     monkeypatch.setattr("covariscope.data.readers.STAT_CHUNK_ROWS", 500)
     monkeypatch.setattr("covariscope.data.readers._EXCEL_PROGRESS_ROWS", 300)
     path = tmp_path / name
-    frame = pd.DataFrame({"x": np.arange(3000, dtype=float), "g": np.arange(3000) % 3})
+    frame = pd.DataFrame({"x": np.arange(1200, dtype=float), "g": np.arange(1200) % 3})
     if writer is not None:
         writer(path)
     elif name.endswith(".dta"):
@@ -287,7 +287,7 @@ def test_progress_is_monotone_and_reaches_one(tmp_path, monkeypatch, name, write
         frame.to_excel(path, index=False)
     seen: list[float] = []
     table = load_table(path, progress=seen.append)
-    assert table.rows == 3000
+    assert table.rows == 1200
     assert seen == sorted(seen)
     assert len(set(seen)) == len(seen)
     assert seen[-1] == 1.0
@@ -421,3 +421,17 @@ def test_supported_suffixes_cover_the_design():
     # DESIGN §4: CSV/TSV, Excel, Parquet, Stata, SPSS, SAS.
     kinds = set(loading.SUPPORTED_SUFFIXES.values())
     assert {"text", "excel", "parquet", "stata", "spss", "sas", "sas_transport"} <= kinds
+
+
+def test_column_type_does_not_depend_on_chunks(tmp_path, monkeypatch):
+    """A stray text value far down the file makes the whole column text, as in one read."""
+    monkeypatch.setattr(text, "CHUNK_ROWS", 50)
+    values = [str(i) for i in range(300)]
+    values[250] = "about 5"
+    path = tmp_path / "late_text.csv"
+    path.write_text("k,v\n" + "".join(f"{i},{v}\n" for i, v in enumerate(values)), encoding="utf-8")
+    chunked = load_table(path).frame
+    whole = pd.read_csv(path)  # reference: pandas reading the file in one piece
+    assert chunked["v"].tolist() == whole["v"].astype(str).tolist()
+    assert chunked["k"].tolist() == whole["k"].tolist()
+    assert chunked["k"].dtype == np.int64

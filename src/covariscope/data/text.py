@@ -115,10 +115,59 @@ def read_delimited(
 ) -> tuple[pd.DataFrame, list[str]]:
     """Read the whole file in chunks of rows, reporting the share of bytes read.
 
-    Every field is read as text first and each column converted once at the
-    end, so a column's type does not depend on where the chunks fell.
+    pandas infers each chunk's column types on its own; a column that comes
+    out as numbers in one chunk and as text in another (a stray "n/a" far
+    down the file) is read again as text and converted once, so a column's
+    type never depends on where the chunks fell.
     Returns the frame and the raw column names (before any renaming).
     """
+    chunks = _read_chunks(path, encoding, layout, size, steps, 0.0, 0.9)
+    if chunks:
+        frame = pd.concat(chunks, ignore_index=True) if len(chunks) > 1 else chunks[0]
+    else:
+        frame = pd.DataFrame(columns=list(layout.header) or None)
+    pandas_names = [str(c) for c in frame.columns]
+    names = list(layout.header) if len(layout.header) == len(pandas_names) else pandas_names
+    frame = frame.reset_index(drop=True)
+    frame.columns = range(frame.shape[1])
+    mixed = [i for i in frame.columns if _mixed_kinds([c.iloc[:, i] for c in chunks])]
+    if mixed:
+        again = _read_chunks(path, encoding, layout, size, steps, 0.9, 0.95, usecols=mixed)
+        text = pd.concat(again, ignore_index=True) if len(again) > 1 else again[0]
+        for position, column in zip(mixed, text.columns, strict=True):
+            frame[position] = tidy_text_column(text[column].reset_index(drop=True), layout.decimal)
+    for i in frame.columns:
+        if frame[i].dtype == object and bool(frame[i].dropna().map(type).eq(str).all()):
+            frame[i] = frame[i].astype("str")
+    steps.report(1.0)
+    return frame, names
+
+
+def _mixed_kinds(parts: list[pd.Series]) -> bool:
+    """True when chunks disagree: numbers in one, text (or booleans) in another."""
+    kinds = set()
+    for part in parts:
+        if not part.notna().any():
+            continue
+        if pd.api.types.is_bool_dtype(part.dtype):
+            kinds.add("bool")
+        elif pd.api.types.is_numeric_dtype(part.dtype):
+            kinds.add("number")
+        else:
+            kinds.add("text")
+    return len(kinds) > 1
+
+
+def _read_chunks(
+    path: Path,
+    encoding: str,
+    layout: TextLayout,
+    size: int,
+    steps: Steps,
+    low: float,
+    high: float,
+    usecols: list[int] | None = None,
+) -> list[pd.DataFrame]:
     chunks: list[pd.DataFrame] = []
     with open(path, "rb") as handle, warnings.catch_warnings():
         # pandas only warns when data rows are wider than the header, and then
@@ -128,9 +177,11 @@ def read_delimited(
             reader = pd.read_csv(
                 handle,
                 sep=layout.delimiter,
+                decimal=layout.decimal,
                 encoding=encoding,
                 header=0,
-                dtype=str,
+                dtype=None if usecols is None else str,
+                usecols=usecols,
                 chunksize=CHUNK_ROWS,
                 skip_blank_lines=True,
                 engine="c",
@@ -139,8 +190,8 @@ def read_delimited(
             with reader:
                 for chunk in reader:
                     chunks.append(chunk)
-                    # Parsing owns 90% of this step, converting the columns the rest.
-                    steps.report(0.9 * handle.tell() / size if size else 0.9)
+                    done = handle.tell() / size if size else 1.0
+                    steps.report(low + (high - low) * done)
         except pd.errors.EmptyDataError as exc:
             raise DataError(
                 f"{path.name} holds no data (only blank lines). Choose the file that "
@@ -162,19 +213,7 @@ def read_delimited(
                 f"{path.name} is not valid {encoding} text at byte {exc.start}. Save it again "
                 "as UTF-8 text from its source program."
             ) from exc
-    if chunks:
-        frame = pd.concat(chunks, ignore_index=True) if len(chunks) > 1 else chunks[0]
-    else:
-        frame = pd.DataFrame(columns=list(layout.header) or None)
-    pandas_names = [str(c) for c in frame.columns]
-    names = list(layout.header) if len(layout.header) == len(pandas_names) else pandas_names
-    frame = frame.reset_index(drop=True)
-    frame.columns = range(frame.shape[1])
-    converted = {}
-    for i in frame.columns:
-        converted[i] = tidy_text_column(frame[i], layout.decimal)
-        steps.report(0.9 + 0.1 * (i + 1) / frame.shape[1])
-    return pd.DataFrame(converted, index=frame.index), names
+    return chunks
 
 
 def _plain_parser_message(exc: Exception) -> str:
