@@ -97,7 +97,9 @@ def _numeric(frame: pd.DataFrame, column: str, what: str) -> np.ndarray:
     series = frame[column]
     if series.dtype == bool:
         series = series.astype(np.float64)
-    values = pd.to_numeric(series, errors="coerce").to_numpy(dtype=np.float64, na_value=np.nan)
+    values: np.ndarray = np.asarray(
+        pd.to_numeric(series, errors="coerce").to_numpy(dtype=np.float64, na_value=np.nan)
+    )
     bad = ~np.isfinite(values)
     if bad.any():
         example = series[bad].iloc[0]
@@ -296,11 +298,11 @@ def make_design(
         node: Block(node, tuple(cn), values[:, idx[0] : idx[-1] + 1], idx)
         for node, (cn, idx) in spans.items()
     }
-    digest = hashlib.sha256(memoryview(values).cast("B"))
+    digest = hashlib.sha256(values.data.cast("B"))
     digest.update(repr((family, exposure_node, all_names, list(covariates), outcome)).encode())
     for extra in (time_v, event_v, offset_v):
         if extra is not None:
-            digest.update(memoryview(np.ascontiguousarray(extra)).cast("B"))
+            digest.update(np.ascontiguousarray(extra).data.cast("B"))
     return Design(
         family=family,
         exposure_node=exposure_node,

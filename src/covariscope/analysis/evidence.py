@@ -214,6 +214,7 @@ class EvidenceEngine:
                 X = np.empty((self.design.n, len(cols) + 1))
                 X[:, 0] = 1.0
                 X[:, 1:] = values[:, cols]
+                assert self.design.y is not None  # make_design requires an outcome here
                 fit, params = fit_glm(
                     X,
                     self.design.y,
@@ -227,6 +228,9 @@ class EvidenceEngine:
             else:
                 from covariscope.analysis.survival import fit_cox
 
+                # make_design requires both columns for the Cox family
+                assert self.design.time is not None
+                assert self.design.event is not None
                 fit, params = fit_cox(
                     np.ascontiguousarray(values[:, cols]),
                     self.design.time,
