@@ -1,0 +1,159 @@
+"""The rationale page: one page, legible, nothing outside the page box.
+
+Page count and text are read back with pypdf, an outside reader of the PDF.
+"""
+
+from __future__ import annotations
+
+import shutil
+import subprocess
+from pathlib import Path
+
+import pytest
+from pypdf import PdfReader
+
+from covariscope.model.project import load_project
+from covariscope.report.content import build_content, format_interval, format_number
+from covariscope.report.layout import MIN_BODY_PT
+from covariscope.report.painter import render_image, write_pdf
+
+DEMO = Path(__file__).resolve().parents[2] / "demo_data" / "demo_project.json"
+POINTS = {"a4": (595.3, 841.9), "letter": (612.0, 792.0)}
+
+
+def _text(pdf: Path) -> tuple[int, str, tuple[float, float]]:
+    reader = PdfReader(str(pdf))
+    box = reader.pages[0].mediabox
+    text = " ".join(" ".join(page.extract_text() or "" for page in reader.pages).split())
+    return len(reader.pages), text, (float(box.width), float(box.height))
+
+
+def _check_record(record, *, covariates: int) -> None:
+    page = record.page_rect
+    body = [i for i in record.items if i.kind != "diagram"]
+    for item in record.items:
+        assert page.contains(item.rect), f"{item.text!r} at {item.rect} is outside {page}"
+    for item in body:
+        assert item.size_pt >= MIN_BODY_PT, f"{item.text!r} is {item.size_pt} pt"
+    # no two text lines of the page body overlap (crowding or clipped cells)
+    ordered = sorted(body, key=lambda i: (i.rect.top(), i.rect.left()))
+    for n, a in enumerate(ordered):
+        for b in ordered[n + 1 :]:
+            if b.rect.top() >= a.rect.bottom():
+                break
+            overlap = a.rect.intersected(b.rect)
+            assert overlap.width() < 0.5 or overlap.height() < 0.5, (a.text, b.text)
+    assert record.plan.hidden_rows == 0
+    assert (
+        len([i for i in body if i.bold and i.text.startswith(("Adjust", "Keep", "Excl"))])
+        <= covariates
+    )
+
+
+@pytest.fixture(scope="module")
+def demo():
+    study = pytest.importorskip("covariscope.study")
+    if not DEMO.exists():
+        pytest.skip("demo project not present")
+    project = load_project(DEMO)
+    result = study.run_study(project)
+    return project, result, study.study_to_json(result)
+
+
+@pytest.mark.parametrize("page", ["a4", "letter"])
+def test_demo_pdf_is_one_page_with_the_checked_numbers(qapp, tmp_path, demo, page):
+    project, result, checked = demo
+    record: list = []
+    pdf = write_pdf(result, project, tmp_path / "demo.pdf", page=page, record=record)
+    pages, text, size = _text(pdf)
+    assert pages == 1
+    assert size == pytest.approx(POINTS[page], abs=1.0)
+    content = build_content(result, project)
+    nodes = {n.id: n for n in project.diagram.nodes}
+    assert nodes[checked["exposure"]].label in text
+    assert nodes[checked["outcome"]].label in text
+    for node_id in checked["covariates"]:
+        assert result.verdicts[node_id].label in text
+    for key in ("crude", "recommended"):
+        e = checked["estimates"][key]
+        if content.ratio:
+            value, (lo, hi) = e["ratio"], e["ratio_ci"]
+        else:
+            value, (lo, hi) = e["coef"], e["ci"]
+        assert f"{value:.{content.decimals}f}" in text
+        assert format_interval(lo, hi, content.decimals) in text
+    _check_record(record[0], covariates=len(checked["covariates"]))
+
+
+@pytest.mark.parametrize("page", ["a4", "letter"])
+def test_forty_nodes_with_long_notes_fit_one_legible_page(qapp, tmp_path, big_study, page):
+    result, project = big_study
+    assert len(project.diagram) == 40
+    assert all(len(n.note) == 2000 for n in project.diagram.covariates)
+    record: list = []
+    pdf = write_pdf(result, project, tmp_path / "big.pdf", page=page, record=record)
+    pages, text, _ = _text(pdf)
+    assert pages == 1
+    content = build_content(result, project)
+    assert content.exposure in text
+    assert content.outcome in text
+    for row in content.covariates:
+        assert row.verdict in text
+    for row in content.estimates[::2]:  # crude and recommended
+        assert row.estimate in text
+        assert row.interval in text
+    plan = record[0].plan
+    assert plan.body_pt >= MIN_BODY_PT
+    assert plan.note_lines == 1  # notes were shortened ...
+    assert "…" in text  # ... with an ellipsis
+    _check_record(record[0], covariates=len(content.covariates))
+
+
+def test_short_content_keeps_the_largest_text(qapp, small_study):
+    result, project = small_study
+    _, record = render_image(build_content(result, project))
+    assert record.plan.body_pt == 9.0
+    _check_record(record, covariates=8)
+
+
+def test_page_renders_to_png(qapp, tmp_path, small_study):
+    result, project = small_study
+    pdf = write_pdf(result, project, tmp_path / "page.pdf")
+    png = tmp_path / "page.png"
+    if shutil.which("pdftoppm"):
+        subprocess.run(
+            ["pdftoppm", "-png", "-r", "60", "-singlefile", str(pdf), str(tmp_path / "page")],
+            check=True,
+        )
+    else:
+        image, _ = render_image(build_content(result, project), dpi=60)
+        assert image.save(str(png))
+    assert png.exists()
+    assert png.stat().st_size > 10_000
+
+
+def test_printer_uses_the_same_page(qapp, tmp_path, small_study):
+    printing = pytest.importorskip("PySide6.QtPrintSupport")
+    from covariscope.report.painter import print_rationale
+
+    result, project = small_study
+    printer = printing.QPrinter(printing.QPrinter.PrinterMode.HighResolution)
+    printer.setOutputFormat(printing.QPrinter.OutputFormat.PdfFormat)
+    printer.setOutputFileName(str(tmp_path / "printed.pdf"))
+    record = print_rationale(printer, result, project)
+    del printer
+    pages, text, _ = _text(tmp_path / "printed.pdf")
+    assert pages == 1
+    assert "Effect of Night-shift work on Systolic blood pressure" in text
+    _check_record(record, covariates=8)
+
+
+def test_unknown_paper_size_is_refused_plainly(qapp, tmp_path, small_study):
+    from covariscope.model.errors import CovariscopeError
+
+    result, project = small_study
+    with pytest.raises(CovariscopeError, match="not a paper size"):
+        write_pdf(result, project, tmp_path / "x.pdf", page="a3")
+    with pytest.raises(CovariscopeError, match="does not exist"):
+        write_pdf(result, project, tmp_path / "missing" / "x.pdf")
+    assert format_number(1.0, 2) == "1.00"
