@@ -282,3 +282,18 @@ def test_few_events_per_parameter_is_a_caution() -> None:
     fit, _ = fit_glm(X, y, "logistic", column_names=NAMES, terms=())
     assert fit.ok
     assert any("Peduzzi" in w for w in fit.warnings)
+
+
+def test_risk_ratio_with_no_events_at_one_level_of_a_covariate() -> None:
+    rng = np.random.default_rng(30)
+    n = 400
+    rare = (rng.random(n) < 0.1).astype(float)
+    X = np.column_stack([np.ones(n), rng.integers(0, 2, n), rng.normal(size=n), rare])
+    y = np.where(rare == 1, 0.0, (rng.random(n) < 0.3).astype(float))
+    fit, params = fit_glm(X, y, "risk_ratio", column_names=[*NAMES[:3], "smoker"], terms=())
+    assert fit.ok
+    assert params is not None
+    assert any(w.startswith("Quasi-complete separation: smoker") for w in fit.warnings)
+    assert any("risk ratios run off to infinity" in w for w in fit.warnings)
+    assert np.isnan(fit.term_coefs["smoker"][1])
+    assert np.isfinite(fit.se)

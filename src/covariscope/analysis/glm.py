@@ -111,7 +111,7 @@ def _crossprod(X: Array, w: Array, buf: Array | None = None) -> Array:
     sw = np.sqrt(w)
     Xw = np.multiply(X, sw[:, None], out=buf)
     # Xw.T is Fortran-ordered p × n, so BLAS reads it without a copy.
-    upper = dsyrk(1.0, Xw.T, trans=0, lower=0)
+    upper: Array = np.asarray(dsyrk(1.0, Xw.T, trans=0, lower=0), dtype=np.float64)
     return np.triu(upper) + np.triu(upper, 1).T
 
 
@@ -124,7 +124,7 @@ def _chol(H: Array) -> Array | None:
 
 
 def _inverse(c: Array) -> Array:
-    inv, _ = dpotri(c, lower=0)
+    inv: Array = np.asarray(dpotri(c, lower=0)[0], dtype=np.float64)
     return np.triu(inv) + np.triu(inv, 1).T
 
 
@@ -462,9 +462,9 @@ def _sparse_direction(
     return tuple(int(j) for j in np.flatnonzero(np.abs(b) > 1e-6 * big)) if big > 0 else ()
 
 
-def _separation_words(sep: Separation, names: list[str], family: str) -> str:
+def _separation_words(sep: Separation, names: list[str], family: str, *, counts: bool) -> str:
     cols = [names[j] for j in sep.columns if j != 0] or [names[j] for j in sep.columns]
-    what = "odds ratios" if family == "logistic" else "rate ratios"
+    what = "odds ratios" if family == "logistic" else ("rate ratios" if counts else "risk ratios")
     who = ", ".join(cols)
     if sep.kind == "complete":
         return (
@@ -596,7 +596,9 @@ def fit_glm(
     if not path.converged or extreme:
         sep = detect_separation(X, y, family=family)
         if sep.found:
-            words = _separation_words(sep, names, family)
+            words = _separation_words(
+                sep, names, family, counts=not bool(np.all((y == 0) | (y == 1)))
+            )
             if sep.kind == "complete" or exposure_index in sep.columns or path.cov is None:
                 return Fit.failed(family, terms, n, words), None
             blank = frozenset(sep.columns) - {0}
