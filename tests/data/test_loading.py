@@ -50,6 +50,10 @@ def write_csv(frame: pd.DataFrame, path: Path) -> None:
     frame.to_csv(path, index=False)
 
 
+def write_tsv(frame: pd.DataFrame, path: Path) -> None:
+    frame.to_csv(path, index=False, sep="\t")
+
+
 def write_excel(frame: pd.DataFrame, path: Path) -> None:
     frame.to_excel(path, index=False, sheet_name="visits")
 
@@ -92,6 +96,7 @@ def write_xpt(frame: pd.DataFrame, path: Path) -> None:
 
 FORMATS = [
     ("study.csv", write_csv, "text", "pandas"),
+    ("study.tsv", write_tsv, "text", "pandas"),
     ("study.xlsx", write_excel, "excel", "openpyxl"),
     ("study.parquet", write_parquet, "parquet", "pyarrow"),
     ("study.dta", write_stata, "stata", "pyreadstat"),

@@ -82,7 +82,9 @@ class LoadedTable:
     frame : pandas.DataFrame
         One column per file column, index 0..n-1 in file order. Text columns
         whose every value is a number are numbers (int64 when whole and
-        complete, else float64); other text stays text.
+        complete, else float64); other text stays text. In text files the
+        usual missing-value markers (an empty field, ``NA``, ``N/A``,
+        ``n/a``, ``NaN``, ``null``, ``#N/A``; pandas' defaults) are missing.
     path : Path
         The file, resolved.
     format : str
