@@ -1,0 +1,252 @@
+"""Graphics items of the canvas: nodes, arrows, proxy links, the label editor.
+
+Items only draw and report; they never change the model.  The scene turns
+what the user does with them into commands.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+
+from PySide6.QtCore import QPointF, QRectF, Qt
+from PySide6.QtGui import QKeyEvent, QPainter, QPainterPath, QPen
+from PySide6.QtWidgets import (
+    QGraphicsItem,
+    QGraphicsLineItem,
+    QGraphicsObject,
+    QGraphicsSceneMouseEvent,
+    QGraphicsTextItem,
+    QStyleOptionGraphicsItem,
+    QWidget,
+)
+
+from covariscope.model.diagram import Node
+from covariscope.qt.canvas.drawing import (
+    NodeLook,
+    arrow_shape,
+    label_font,
+    link_ends,
+    node_geometry,
+    paint_arrow,
+    paint_node,
+    paint_proxy,
+    verdict_text,
+)
+from covariscope.qt.palette import colour
+
+__all__ = ["ArrowItem", "LabelEditor", "NodeItem", "ProxyItem", "RubberLink"]
+
+
+class NodeItem(QGraphicsObject):
+    """One node, drawn by :func:`~covariscope.qt.canvas.drawing.paint_node`."""
+
+    def __init__(self, node: Node, proposed: bool = False) -> None:
+        super().__init__()
+        self.node = node
+        self.proposed = proposed
+        self.role: str | None = None
+        self.verdict: tuple[str, str] | None = None
+        self.highlighted = False
+        self.moved_callback: Callable[[str], None] | None = None
+        self.setFlags(
+            QGraphicsItem.GraphicsItemFlag.ItemIsSelectable
+            | QGraphicsItem.GraphicsItemFlag.ItemIsMovable
+            | QGraphicsItem.GraphicsItemFlag.ItemSendsGeometryChanges
+        )
+        self.setAcceptHoverEvents(True)
+        self.setZValue(2)
+        self.setPos(node.x, node.y)
+        # signals rather than an itemChange override, which PySide cannot
+        # return None from safely
+        self.xChanged.connect(self._position_changed)
+        self.yChanged.connect(self._position_changed)
+        self.geometry = node_geometry(self.look())
+        self._refresh_tooltip()
+
+    @property
+    def node_id(self) -> str:
+        return self.node.id
+
+    def look(self) -> NodeLook:
+        return NodeLook.of(
+            self.node, self.proposed, self.role, self.verdict, self.highlighted, self.isSelected()
+        )
+
+    def _relayout(self) -> None:
+        self.prepareGeometryChange()
+        self.geometry = node_geometry(self.look())
+        self._refresh_tooltip()
+        self.update()
+
+    def _refresh_tooltip(self) -> None:
+        n = self.node
+        lines = [f"{n.label}  ({n.id})", self.look().tag]
+        if n.column:
+            lines.append(f"column: {n.column}")
+        if self.proposed:
+            lines.append("in the proposed adjustment set")
+        if self.verdict:
+            lines.append(f"verdict: {verdict_text(self.verdict)}")
+        self.setToolTip("\n".join(lines))
+
+    def set_node(self, node: Node) -> None:
+        self.node = node
+        if self.pos() != QPointF(node.x, node.y):
+            self.setPos(node.x, node.y)
+        self._relayout()
+
+    def set_proposed(self, proposed: bool) -> None:
+        if proposed != self.proposed:
+            self.proposed = proposed
+            self._relayout()
+
+    def set_annotation(self, role: str | None, verdict: tuple[str, str] | None) -> None:
+        if (role, verdict) != (self.role, self.verdict):
+            self.role, self.verdict = role, verdict
+            self._relayout()
+
+    def set_highlighted(self, on: bool) -> None:
+        if on != self.highlighted:
+            self.highlighted = on
+            self.update()
+
+    # -- QGraphicsItem -------------------------------------------------------------
+    def boundingRect(self) -> QRectF:
+        return self.geometry.bounds
+
+    def shape(self) -> QPainterPath:
+        if self.geometry.frame is not None:
+            path = QPainterPath()
+            path.addRect(self.geometry.frame)
+            return path
+        return self.geometry.outline
+
+    def paint(
+        self, painter: QPainter, option: QStyleOptionGraphicsItem, widget: QWidget | None = None
+    ) -> None:
+        paint_node(painter, self.look(), self.geometry)
+
+    def _position_changed(self) -> None:
+        if self.moved_callback is not None:
+            self.moved_callback(self.node.id)
+
+
+class _LinkItem(QGraphicsItem):
+    def __init__(self, pair: tuple[str, str], a: NodeItem, b: NodeItem) -> None:
+        super().__init__()
+        self.pair = pair
+        self.ends = (a, b)
+        self.highlighted = False
+        self.p1 = QPointF()
+        self.p2 = QPointF()
+        self._shape = QPainterPath()
+        self.setFlags(QGraphicsItem.GraphicsItemFlag.ItemIsSelectable)
+        self.setZValue(1)
+        self.update_geometry()
+
+    def update_geometry(self) -> None:
+        a, b = self.ends
+        self.prepareGeometryChange()
+        self.p1, self.p2 = link_ends(a.pos(), a.geometry, b.pos(), b.geometry, gap=2.5)
+        self._shape = arrow_shape(self.p1, self.p2, 12.0)
+        self.update()
+
+    def set_highlighted(self, on: bool) -> None:
+        if on != self.highlighted:
+            self.highlighted = on
+            self.update()
+
+    def boundingRect(self) -> QRectF:
+        return self._shape.boundingRect().adjusted(-6, -6, 6, 6)
+
+    def shape(self) -> QPainterPath:
+        return self._shape
+
+
+class ArrowItem(_LinkItem):
+    """A cause → effect arrow."""
+
+    def paint(
+        self, painter: QPainter, option: QStyleOptionGraphicsItem, widget: QWidget | None = None
+    ) -> None:
+        paint_arrow(painter, self.p1, self.p2, self.highlighted, self.isSelected())
+
+
+class ProxyItem(_LinkItem):
+    """An undirected proxy link."""
+
+    def paint(
+        self, painter: QPainter, option: QStyleOptionGraphicsItem, widget: QWidget | None = None
+    ) -> None:
+        paint_proxy(painter, self.p1, self.p2, self.highlighted, self.isSelected())
+
+
+class RubberLink(QGraphicsLineItem):
+    """The line that follows the pointer while a link is being drawn."""
+
+    def __init__(self, start: QPointF, proxy: bool = False) -> None:
+        super().__init__(start.x(), start.y(), start.x(), start.y())
+        pen = QPen(colour("proxy") if proxy else colour("selection"), 1.6)
+        pen.setStyle(Qt.PenStyle.DashLine)
+        self.setPen(pen)
+        self.setZValue(5)
+        self.setAcceptedMouseButtons(Qt.MouseButton.NoButton)
+
+    def follow(self, point: QPointF) -> None:
+        line = self.line()
+        line.setP2(point)
+        self.setLine(line)
+
+
+class LabelEditor(QGraphicsTextItem):
+    """Rename in place: Enter commits, Esc cancels, leaving the field commits."""
+
+    def __init__(self, node_item: NodeItem, on_done: Callable[[str, str | None], None]) -> None:
+        super().__init__(node_item.node.label)
+        self.node_id = node_item.node.id
+        self._on_done = on_done
+        self._finished = False
+        self.setFont(label_font())
+        self.setTextInteractionFlags(Qt.TextInteractionFlag.TextEditorInteraction)
+        self.setZValue(10)
+        self.setDefaultTextColor(colour("text"))
+        rect = node_item.geometry.label_rect
+        width = max(rect.width(), 120.0)
+        self.setTextWidth(width)
+        self.setPos(node_item.pos() + QPointF(-width / 2, rect.top() - 4))
+        cursor = self.textCursor()
+        cursor.select(cursor.SelectionType.Document)
+        self.setTextCursor(cursor)
+
+    def paint(
+        self, painter: QPainter, option: QStyleOptionGraphicsItem, widget: QWidget | None = None
+    ) -> None:
+        painter.setPen(QPen(colour("selection"), 1.2))
+        painter.setBrush(colour("badge_fill"))
+        painter.drawRect(self.boundingRect())
+        super().paint(painter, option, widget)
+
+    def finish(self, commit: bool) -> None:
+        if self._finished:
+            return
+        self._finished = True
+        text = self.toPlainText().strip().replace("\n", " ") if commit else None
+        self._on_done(self.node_id, text)
+
+    def keyPressEvent(self, event: QKeyEvent) -> None:
+        if event.key() in (Qt.Key.Key_Return, Qt.Key.Key_Enter):
+            self.finish(True)
+            event.accept()
+        elif event.key() == Qt.Key.Key_Escape:
+            self.finish(False)
+            event.accept()
+        else:
+            super().keyPressEvent(event)
+
+    def focusOutEvent(self, event: object) -> None:  # type: ignore[override]
+        super().focusOutEvent(event)  # type: ignore[arg-type]
+        self.finish(True)
+
+    def mouseDoubleClickEvent(self, event: QGraphicsSceneMouseEvent) -> None:
+        super().mouseDoubleClickEvent(event)
+        event.accept()

@@ -1,0 +1,156 @@
+"""The view on the diagram scene: zoom, pan, fit, keyboard."""
+
+from __future__ import annotations
+
+from typing import Any
+
+from PySide6.QtCore import QPoint, QPointF, Qt
+from PySide6.QtGui import QCursor, QKeyEvent, QMouseEvent, QPainter, QWheelEvent
+from PySide6.QtWidgets import QGraphicsView
+
+from covariscope.qt.canvas.items import LabelEditor
+from covariscope.qt.canvas.scene import DiagramScene
+
+__all__ = ["DiagramView"]
+
+_STEP = 1.2
+_MIN_ZOOM, _MAX_ZOOM = 0.15, 4.0
+
+
+class DiagramView(QGraphicsView):
+    """Ctrl+wheel or +/- zoom; middle-drag or Space+drag pans; Delete removes
+    the selection; N adds a node at the pointer (and opens its name); F2
+    renames the selected node; Esc returns to selecting."""
+
+    def __init__(self, scene: DiagramScene, parent: Any = None) -> None:
+        super().__init__(scene, parent)
+        self.diagram_scene = scene
+        self.setRenderHints(QPainter.RenderHint.Antialiasing | QPainter.RenderHint.TextAntialiasing)
+        self.setDragMode(QGraphicsView.DragMode.RubberBandDrag)
+        self.setTransformationAnchor(QGraphicsView.ViewportAnchor.AnchorUnderMouse)
+        self.setResizeAnchor(QGraphicsView.ViewportAnchor.AnchorViewCenter)
+        self.setViewportUpdateMode(QGraphicsView.ViewportUpdateMode.BoundingRectViewportUpdate)
+        self.setAcceptDrops(True)
+        self._pan_from: QPoint | None = None
+        self._space = False
+        scene.mode_changed.connect(self._on_mode)
+
+    # -- zoom ---------------------------------------------------------------------------
+    def zoom(self) -> float:
+        return self.transform().m11()
+
+    def set_zoom(self, factor: float) -> None:
+        factor = min(max(factor, _MIN_ZOOM), _MAX_ZOOM)
+        self.scale(factor / self.zoom(), factor / self.zoom())
+
+    def zoom_in(self) -> None:
+        self.set_zoom(self.zoom() * _STEP)
+
+    def zoom_out(self) -> None:
+        self.set_zoom(self.zoom() / _STEP)
+
+    def fit_to_window(self) -> None:
+        scene = self.diagram_scene
+        if not scene.nodes:
+            self.resetTransform()
+            return
+        rect = scene.itemsBoundingRect().adjusted(-30, -30, 30, 30)
+        self.fitInView(rect, Qt.AspectRatioMode.KeepAspectRatio)
+        if self.zoom() > 1.5:  # a small diagram stays at a readable size
+            self.set_zoom(1.5)
+            self.centerOn(rect.center())
+
+    def wheelEvent(self, event: QWheelEvent) -> None:
+        if event.modifiers() & Qt.KeyboardModifier.ControlModifier:
+            steps = event.angleDelta().y() / 120.0
+            self.set_zoom(self.zoom() * _STEP**steps)
+            event.accept()
+            return
+        super().wheelEvent(event)
+
+    # -- keys ---------------------------------------------------------------------------
+    def _editing(self) -> bool:
+        return isinstance(self.diagram_scene.focusItem(), LabelEditor)
+
+    def cursor_scene_pos(self) -> QPointF:
+        local = self.viewport().mapFromGlobal(QCursor.pos())
+        if not self.viewport().rect().contains(local):
+            local = self.viewport().rect().center()
+        return self.mapToScene(local)
+
+    def keyPressEvent(self, event: QKeyEvent) -> None:
+        if self._editing():
+            super().keyPressEvent(event)
+            return
+        key, scene = event.key(), self.diagram_scene
+        if key in (Qt.Key.Key_Delete, Qt.Key.Key_Backspace):
+            scene.delete_selection()
+        elif key == Qt.Key.Key_N and not event.modifiers() & Qt.KeyboardModifier.ControlModifier:
+            node_id = scene.add_node_at(self.cursor_scene_pos())
+            if node_id:
+                scene.start_rename(node_id)
+        elif key == Qt.Key.Key_F2:
+            selected = scene.selected_node_ids()
+            if len(selected) == 1:
+                scene.start_rename(selected[0])
+        elif key in (Qt.Key.Key_Plus, Qt.Key.Key_Equal):
+            self.zoom_in()
+        elif key == Qt.Key.Key_Minus:
+            self.zoom_out()
+        elif key == Qt.Key.Key_Escape:
+            scene.set_mode("select")
+        elif key == Qt.Key.Key_Space and not event.isAutoRepeat():
+            self._space = True
+            self.setDragMode(QGraphicsView.DragMode.ScrollHandDrag)
+            self.setInteractive(False)
+        else:
+            super().keyPressEvent(event)
+            return
+        event.accept()
+
+    def keyReleaseEvent(self, event: QKeyEvent) -> None:
+        if event.key() == Qt.Key.Key_Space and not event.isAutoRepeat() and self._space:
+            self._space = False
+            self.setInteractive(True)
+            self._on_mode(self.diagram_scene.mode.name)
+            event.accept()
+            return
+        super().keyReleaseEvent(event)
+
+    # -- middle-drag pan -------------------------------------------------------------------
+    def mousePressEvent(self, event: QMouseEvent) -> None:
+        if event.button() == Qt.MouseButton.MiddleButton:
+            self._pan_from = event.position().toPoint()
+            self.viewport().setCursor(Qt.CursorShape.ClosedHandCursor)
+            event.accept()
+            return
+        super().mousePressEvent(event)
+
+    def mouseMoveEvent(self, event: QMouseEvent) -> None:
+        if self._pan_from is not None:
+            now = event.position().toPoint()
+            delta = now - self._pan_from
+            self._pan_from = now
+            self.horizontalScrollBar().setValue(self.horizontalScrollBar().value() - delta.x())
+            self.verticalScrollBar().setValue(self.verticalScrollBar().value() - delta.y())
+            event.accept()
+            return
+        super().mouseMoveEvent(event)
+
+    def mouseReleaseEvent(self, event: QMouseEvent) -> None:
+        if event.button() == Qt.MouseButton.MiddleButton and self._pan_from is not None:
+            self._pan_from = None
+            self.viewport().unsetCursor()
+            event.accept()
+            return
+        super().mouseReleaseEvent(event)
+
+    def _on_mode(self, name: str) -> None:
+        if self._space:
+            return
+        if name == "select":
+            self.setDragMode(QGraphicsView.DragMode.RubberBandDrag)
+            self.viewport().unsetCursor()
+        else:
+            self.setDragMode(QGraphicsView.DragMode.NoDrag)
+            self.viewport().setCursor(Qt.CursorShape.CrossCursor)
