@@ -104,7 +104,7 @@ def test_forty_nodes_with_long_notes_fit_one_legible_page(qapp, tmp_path, big_st
         assert row.interval in text
     plan = record[0].plan
     assert plan.body_pt >= MIN_BODY_PT
-    assert plan.note_lines == 1  # notes were shortened ...
+    assert plan.note_lines <= 1  # notes were shortened ...
     assert "…" in text  # ... with an ellipsis
     _check_record(record[0], covariates=len(content.covariates))
 

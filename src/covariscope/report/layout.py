@@ -24,7 +24,7 @@ __all__ = ["MIN_BODY_PT", "Fonts", "PagePlan", "Shade", "TextItem", "plan_page",
 #: Body text is never smaller than this (issue 6).
 MIN_BODY_PT = 7.0
 _BODY_SIZES = (9.0, 8.5, 8.0, 7.5, 7.0)
-_NOTE_LINES = (3, 2, 1)
+_NOTE_LINES = (3, 2, 1, 0)  # 0: one line for every cell
 _DIAGRAM_SHARE = (0.42, 0.18)  # largest and smallest, of the page height
 _FINDING_CAPS = (None, 6, 3, 1)
 _FAMILIES = ("DejaVu Sans", "Noto Sans", "Liberation Sans", "Arial", "Helvetica")
@@ -284,17 +284,18 @@ def _table_columns(
         column(7, [r.verdict for r in rows], 0 if compact else width * 0.18, fb, lines),
     ]
     widths[0] = max(widths[0], fm.horizontalAdvance("00") + pad)
-    note_min = width * 0.15
+    # the note column needs room only for the notes there are
+    note_min = min(width * 0.15, column(8, [r.note for r in rows], 0))
     excess = sum(widths) + note_min - width
     if excess > 0:
         # numbers and verdicts are never cut: labels and roles give way, to a floor
         flexible = (1, 3)
-        room = sum(widths[i] - width * 0.08 for i in flexible if widths[i] > width * 0.08)
+        floors = {i: max(width * 0.08, _two_line_width(headers[i], fb) + pad) for i in flexible}
+        room = sum(max(0.0, widths[i] - floors[i]) for i in flexible)
         if room < excess:
             return None
         for i in flexible:
-            give = max(0.0, widths[i] - width * 0.08)
-            widths[i] -= excess * give / room
+            widths[i] -= excess * max(0.0, widths[i] - floors[i]) / room
     widths.append(width - sum(widths))
     return widths
 
@@ -386,7 +387,7 @@ def _compose(
     c.y += c.line("Covariates", page.left(), body, bold=True, kind="heading")
     c.paragraph(content.table_caption, body, italic=True, grey=True, max_lines=2)
     c.y += small_gap
-    compact = note_lines == 1
+    compact = note_lines == 0
     widths = _table_columns(content, fonts, page.width(), body, compact)
     if widths is None:  # the table cannot be this wide at this size
         plan.height = float("inf")
@@ -423,7 +424,7 @@ def _compose(
             (row.se_inflation, 1, False, False),
             (row.vif, 1, False, False),
             (row.verdict, 1 if compact else 3, True, False),
-            (row.note, note_lines, False, False),
+            (row.note, max(1, note_lines), False, False),
         )
         top = c.y
         height = 0.0
@@ -496,20 +497,21 @@ def plan_page(content: RationaleContent, page: QRectF, device: QPaintDevice) -> 
     height = page.height()
     low, high = _DIAGRAM_SHARE[-1], _DIAGRAM_SHARE[0]
     for body in _BODY_SIZES:
-        for notes in _NOTE_LINES:
+        # labels, roles and verdicts keep two lines until the 7 pt floor
+        for notes in _NOTE_LINES[:-1]:
             attempt = _compose(content, page, device, body, low, notes, None, None)
             if attempt.height <= height:
                 return _grow(content, page, device, attempt, high)
-    for cap in _FINDING_CAPS[1:]:
-        attempt = _compose(content, page, device, MIN_BODY_PT, low, 1, cap, None)
+    for cap in _FINDING_CAPS:
+        attempt = _compose(content, page, device, MIN_BODY_PT, low, 0, cap, None)
         if attempt.height <= height:
             return _grow(content, page, device, attempt, high)
     for share in (0.14, 0.10):
-        attempt = _compose(content, page, device, MIN_BODY_PT, share, 1, _FINDING_CAPS[-1], None)
+        attempt = _compose(content, page, device, MIN_BODY_PT, share, 0, _FINDING_CAPS[-1], None)
         if attempt.height <= height:
             return attempt
     for keep in range(len(content.covariates) - 1, -1, -1):
-        attempt = _compose(content, page, device, MIN_BODY_PT, low, 1, _FINDING_CAPS[-1], keep)
+        attempt = _compose(content, page, device, MIN_BODY_PT, low, 0, _FINDING_CAPS[-1], keep)
         if attempt.height <= height:
             break
     return attempt

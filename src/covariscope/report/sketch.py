@@ -93,7 +93,7 @@ def draw_sketch(
         if n.kind in ("exposure", "outcome"):
             room = max(room, rect.width() / 4.5)
         lines = wrap_text(n.label, metrics, room - 2 * pad, 2, break_words=False)
-        cut = not lines or lines[-1].endswith("…")
+        cut = not lines or any(line.endswith("…") for line in lines)
         if cut and n.key:
             # a crowded diagram names the node by its row in the covariate table
             lines = [n.key]
