@@ -91,3 +91,14 @@ def test_date_and_text():
 def test_unknown_type():
     with pytest.raises(DataError, match="Unknown column type 'scale'"):
         coerce_column(pd.Series([1.0], name="x"), "scale")
+
+
+def test_reference_from_the_whole_file_absent_from_a_subset():
+    """The analytic sample may lose every row of the reference level."""
+    subset = pd.Series(["yes", "yes"], name="diabetes")
+    assert coerce_column(subset, "binary", reference="no").tolist() == [1.0, 1.0]
+    codes = pd.Series(["b", "c"], name="arm")
+    out = coerce_column(codes, "categorical", reference="a")
+    assert list(out.cat.categories) == ["a", "b", "c"]
+    with pytest.raises(DataError, match="not a level"):
+        coerce_column(pd.Series(["x", "y"], name="g"), "binary", reference="z")

@@ -4,7 +4,8 @@
 - ``binary``: float64 0/1, the reference level 0 and the other level 1
   (so the estimate is for the non-reference level); NaN where missing.
 - ``categorical``: a pandas Categorical whose first category is the
-  reference level (treatment coding drops the first category).
+  reference level (treatment coding drops the first category); a given
+  reference absent from these rows stays, as an empty first category.
 - ``date``: datetime64.
 - ``identifier``, ``text``: text, unchanged apart from the dtype.
 """
@@ -33,7 +34,9 @@ def binary_coding(series: pd.Series, reference: object = None) -> tuple[Any, Any
     """The (level coded 0, level coded 1) of a binary column.
 
     The reference defaults to the first sorted level (0 for 0/1). A column
-    with one observed value out of {0, 1} keeps 0 and 1 as they are.
+    with one observed value out of {0, 1} keeps 0 and 1 as they are; with
+    one observed value and a different reference given (chosen on the whole
+    file, absent from these rows), the observed value is coded 1.
 
     Examples
     --------
@@ -51,6 +54,10 @@ def binary_coding(series: pd.Series, reference: object = None) -> tuple[Any, Any
             f"Column {str(series.name)!r} has no values, so it cannot be coded 0/1. "
             "Leave it unbound, or check the export."
         )
+    if reference is not None and len(levels) == 1 and not _names_a_level(levels, reference):
+        # A reference chosen on the whole file can be absent from a subset
+        # of its rows (the analytic sample): the one level left is then 1.
+        return level_key(reference), levels[0]
     ref = match_level(str(series.name), levels, reference)
     others = [v for v in levels if v != ref]
     return ref, (others[0] if others else None)
@@ -104,6 +111,10 @@ def coerce_column(series: pd.Series, type: str, reference: object = None) -> pd.
         return coded
     if type == "categorical":
         levels = column_levels(series)
+        if reference is not None and levels and not _names_a_level(levels, reference):
+            # As for binary: kept as an empty first category, so the coding of
+            # the other levels is the same as on the whole file.
+            levels = (level_key(reference), *levels)
         ref = match_level(name, levels, reference)
         order = [ref, *(v for v in levels if v != ref)] if levels else []
         keys = series.map(level_key, na_action="ignore").astype("object")
@@ -116,3 +127,8 @@ def coerce_column(series: pd.Series, type: str, reference: object = None) -> pd.
             return series
         return pd.to_datetime(series, errors="coerce", format="mixed").rename(series.name)
     return series.astype("str").where(series.notna(), np.nan)
+
+
+def _names_a_level(levels: tuple[Any, ...], reference: object) -> bool:
+    wanted = level_key(reference)
+    return any(level == wanted or str(level) == str(reference) for level in levels)
