@@ -131,7 +131,7 @@ def test_arrow_refused_for_a_cycle_names_it_and_changes_nothing(canvas, qtbot):
     [("age", "age", "itself"), ("age", "bp", "already")],
 )
 def test_self_loop_and_duplicate_are_refused(canvas, qtbot, source, target, words):
-    project, stack, scene = canvas
+    _project, stack, scene = canvas
     with qtbot.waitSignal(scene.message) as blocker:
         scene.connect_nodes(source, target)
     assert words in blocker.args[0]
@@ -280,7 +280,7 @@ def test_undo_then_redo_returns_the_saved_form(canvas, edit):
 
 
 def test_proposed_toggle_emits_and_boxes(canvas, qtbot):
-    project, _, scene = canvas
+    _project, _, scene = canvas
     with qtbot.waitSignal(scene.proposed_toggled) as blocker:
         _proposed(scene)
     assert blocker.args == ["salt", True]
@@ -356,7 +356,7 @@ def test_arrow_mode_cycle_is_refused_with_message(canvas, qtbot):
 
 
 def test_arrow_mode_drop_on_empty_canvas_does_nothing(canvas):
-    project, stack, scene = canvas
+    _project, stack, scene = canvas
     scene.set_mode("arrow")
     _drag(scene.mode, centre(scene, "salt"), QPointF(1500, 1200))
     assert stack.count() == 0
@@ -492,7 +492,8 @@ def test_tags_say_kind_and_missing_data(canvas):
 def test_highlight_path_lights_nodes_and_arrows(canvas):
     _, _, scene = canvas
     scene.highlight_path(["activity", "bmi|waist", "bp"])
-    assert scene.nodes["waist"].highlighted and scene.nodes["activity"].highlighted
+    assert scene.nodes["waist"].highlighted
+    assert scene.nodes["activity"].highlighted
     assert scene.arrows[("activity", "bmi")].highlighted
     assert scene.arrows[("bmi", "bp")].highlighted
     assert scene.proxies[("bmi", "waist")].highlighted
@@ -538,7 +539,7 @@ def test_zoom_and_fit(canvas, qtbot):
 
 def test_canvas_screenshot(canvas, qtbot, tmp_path):
     """Written for a person to look at (not a golden image)."""
-    project, _, scene = canvas
+    _project, _, scene = canvas
     scene.auto_layout()
     scene.set_annotations(ROLES, VERDICTS)
     scene.highlight_path(["activity", "diet", "bp"])

@@ -211,7 +211,7 @@ def node_geometry(
     height = label_h + tag_h + (8.0 if compact else 10.0) * k
     if look.kind in ("exposure", "outcome"):
         point = height * 0.32
-    mark = 10.0 * k if look.measured and not look.bound else 0.0
+    mark = 10.0 * k if look.measured and not look.bound and not compact else 0.0
     extra = 2 * _PAD_X * k + glyph + point + 2 * mark
     label = look.label
     width = max(lm.horizontalAdvance(label), tm.horizontalAdvance(tag)) + extra
@@ -311,7 +311,7 @@ def paint_node(painter: QPainter, look: NodeLook, geom: NodeGeometry, weight: fl
 
     if look.role:
         _paint_glyph(painter, look.role, geom, weight)
-    if not look.bound and look.measured:
+    if not look.bound and look.measured and geom.tag_rect is not None:
         _paint_unbound_mark(painter, geom, weight)
 
     if geom.tag_rect is not None:

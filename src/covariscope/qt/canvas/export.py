@@ -203,6 +203,12 @@ def render_diagram(
     if label_pt < min_label_pt:
         k = min_label_pt / label_pt
         compact = k > 1.3
+        # text may grow only until nodes of one column would touch
+        k_cap = (
+            _room_above_below(centres, geoms)
+            / node_geometry(NodeLook("Xg"), compact=compact).body.height()
+        )
+        k = max(1.0, min(k, 0.92 * k_cap))
         for _ in range(3):  # bigger text widens the drawing: refit a few times
             budget = _width_budget(centres, geoms)
             geoms = {
@@ -210,7 +216,7 @@ def render_diagram(
                 for i, look in looks.items()
             }
             scale = _fit(target_rect, centres, geoms)
-            k = max(k, min_label_pt / (LABEL_PX * scale * 72.0 / dpi))
+            k = max(k, min(min_label_pt / (LABEL_PX * scale * 72.0 / dpi), 0.92 * k_cap))
 
     bounds = _bounds(centres, geoms)
     painter.save()
@@ -248,6 +254,17 @@ def _bounds(centres: dict[str, QPointF], geoms: dict[str, NodeGeometry]) -> QRec
 def _fit(target: QRectF, centres: dict[str, QPointF], geoms: dict[str, NodeGeometry]) -> float:
     bounds = _bounds(centres, geoms)
     return min(target.width() / bounds.width(), target.height() / bounds.height())
+
+
+def _room_above_below(centres: dict[str, QPointF], geoms: dict[str, NodeGeometry]) -> float:
+    """The smallest vertical distance between two nodes that overlap sideways."""
+    room = float("inf")
+    items = list(centres.items())
+    for n, (i, ci) in enumerate(items):
+        for j, cj in items[n + 1 :]:
+            if abs(ci.x() - cj.x()) < (geoms[i].body.width() + geoms[j].body.width()) / 2:
+                room = min(room, abs(ci.y() - cj.y()) - 6)
+    return max(room, 1.0) if room != float("inf") else 10_000.0
 
 
 def _width_budget(centres: dict[str, QPointF], geoms: dict[str, NodeGeometry]) -> dict[str, float]:
