@@ -10,7 +10,6 @@ def _qt_test_mode(qapp):
     from PySide6.QtCore import QStandardPaths
 
     QStandardPaths.setTestModeEnabled(True)
-    yield
 
 
 @pytest.fixture(autouse=True)

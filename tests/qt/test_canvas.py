@@ -2,9 +2,7 @@
 
 from __future__ import annotations
 
-import ctypes
 import shutil
-import sys
 from pathlib import Path
 
 import pytest
@@ -17,14 +15,6 @@ from covariscope.model.project import Project, project_to_dict
 from covariscope.qt.canvas import COLUMN_MIME, DiagramScene, DiagramView, Pointer
 from covariscope.qt.canvas.menus import action_by_key
 from covariscope.qt.canvas.scene import column_from_mime
-
-if sys.version_info < (3, 12):
-    # PySide6 6.12 releases one reference to None (or True/False) too many on
-    # calls that return them; on Python 3.11, where these are not immortal, a
-    # long run frees them and aborts.  Give them the headroom 3.12 gives them.
-    for _constant in (None, True, False):
-        ctypes.c_ssize_t.from_address(id(_constant)).value += 1 << 40
-
 
 # -- a small invented diagram (no real study data) ------------------------------------------
 

@@ -2,9 +2,7 @@
 
 from __future__ import annotations
 
-import ctypes
 import shutil
-import sys
 from pathlib import Path
 
 import networkx as nx
@@ -23,11 +21,6 @@ from covariscope.qt.canvas import (
     export_svg,
     render_diagram,
 )
-
-if sys.version_info < (3, 12):
-    # see tests/qt/test_canvas.py: PySide6 6.12 over-releases None/True/False
-    for _constant in (None, True, False):
-        ctypes.c_ssize_t.from_address(id(_constant)).value += 1 << 40
 
 
 def _project() -> Project:
@@ -123,9 +116,7 @@ def test_render_diagram_fits_the_rect(qapp, tmp_path, width, height):
         annotations={"roles": {"v1": "confounder"}, "verdicts": {"v1": ("adjust", "adjust")}},
     )
     painter.end()
-    outside = {
-        image.pixelColor(x, y).name() for x in range(0, image.width(), 3) for y in range(14)
-    }
+    outside = {image.pixelColor(x, y).name() for x in range(0, image.width(), 3) for y in range(14)}
     outside |= {
         image.pixelColor(x, y).name() for x in range(14) for y in range(0, image.height(), 3)
     }

@@ -2,9 +2,6 @@
 
 from __future__ import annotations
 
-import ctypes
-import sys
-
 import pytest
 from PySide6.QtGui import QUndoStack
 
@@ -13,11 +10,6 @@ from covariscope.model.diagram import Node
 from covariscope.model.errors import CycleError
 from covariscope.model.project import Project, project_to_dict
 from covariscope.qt.undo import push
-
-if sys.version_info < (3, 12):
-    # see tests/qt/test_canvas.py: PySide6 6.12 over-releases None/True/False
-    for _constant in (None, True, False):
-        ctypes.c_ssize_t.from_address(id(_constant)).value += 1 << 40
 
 
 @pytest.fixture

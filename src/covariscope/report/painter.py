@@ -10,8 +10,6 @@ measured.
 
 from __future__ import annotations
 
-import ctypes
-import sys
 from collections.abc import Callable
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -65,34 +63,6 @@ class PaintRecord:
     items: list[TextItem] = field(default_factory=list)
 
 
-class _NoneGuard:
-    """Gives back the references to ``None`` that the Qt bindings drop.
-
-    PySide6 6.12 on Python 3.11 releases one reference to ``None`` on every
-    call of a method that returns nothing (measured: 100 calls of
-    ``QPainter.setPen`` lower ``sys.getrefcount(None)`` by 100).  One page makes
-    thousands of such calls, enough to free ``None`` and abort the
-    interpreter.  The guard measures the loss around the drawing and takes
-    that many references again (with a cushion, since a few new references
-    made meanwhile hide part of the loss; an extra reference to ``None`` is
-    harmless).
-    """
-
-    _CUSHION = 256
-
-    def __enter__(self) -> _NoneGuard:
-        self._before = sys.getrefcount(None)
-        return self
-
-    def __exit__(self, *exc: object) -> None:
-        lost = self._before - sys.getrefcount(None)
-        if lost > 0:
-            # owned by no object, so never given up again, not even on exit
-            none = ctypes.py_object(None)
-            for _ in range(lost + self._CUSHION):
-                ctypes.pythonapi.Py_IncRef(none)
-
-
 def _application() -> None:
     # QPdfWriter and fonts need a GUI application, also headless from the CLI
     if QGuiApplication.instance() is None:
@@ -110,8 +80,7 @@ def paint_rationale(
     ``diagram_drawer`` draws the diagram into the rectangle the layout gives
     it; without one the page draws its own vector sketch of the diagram.
     """
-    with _NoneGuard():
-        return _paint(painter, page_rect, content, diagram_drawer)
+    return _paint(painter, page_rect, content, diagram_drawer)
 
 
 def _paint(
@@ -199,8 +168,7 @@ def write_pdf(
     ``content`` may be given when already built; ``record``, when a list, gets
     the :class:`PaintRecord` of the page (for checks).
     """
-    with _NoneGuard():
-        return _write_pdf(result, project, path, page, content, record)
+    return _write_pdf(result, project, path, page, content, record)
 
 
 def _write_pdf(
@@ -240,8 +208,7 @@ def render_image(
     content: RationaleContent, page: str = "a4", dpi: int = 110
 ) -> tuple[QImage, PaintRecord]:
     """The page as an image at ``dpi`` (for the on-screen preview and checks)."""
-    with _NoneGuard():
-        return _render_image(content, page, dpi)
+    return _render_image(content, page, dpi)
 
 
 def _render_image(content: RationaleContent, page: str, dpi: int) -> tuple[QImage, PaintRecord]:
