@@ -101,6 +101,11 @@ def read_recovery(recovery: Recovery) -> Project:
     """The project held in a recovery file (its file name restored, if any)."""
     body = json.loads(recovery.path.read_text(encoding="utf-8"))
     path = Path(body["project_path"]) if body.get("project_path") else None
+    data = body["project"].get("data")
+    if path is not None and data and Path(data["path"]).is_absolute():
+        # back to the form the project file stores: relative to the project
+        with contextlib.suppress(ValueError):
+            data["path"] = Path(os.path.relpath(data["path"], path.parent)).as_posix()
     return project_from_dict(body["project"], path)
 
 

@@ -24,8 +24,8 @@ class StandInScene(QGraphicsScene):
     message = Signal(str)
     proposed_toggled = Signal(str, bool)
 
-    def __init__(self, project: Any, undo_stack: Any) -> None:
-        super().__init__()
+    def __init__(self, project: Any, undo_stack: Any, parent: Any = None) -> None:
+        super().__init__(parent)
         self.project, self.undo_stack = project, undo_stack
         self._verdicts: dict[str, Any] = {}
         project.diagram.subscribe(self._redraw)

@@ -63,10 +63,11 @@ def _table(headers: tuple[str, ...]) -> QTableWidget:
     t.setSelectionMode(QAbstractItemView.SelectionMode.NoSelection)
     t.horizontalHeader().setSectionResizeMode(QHeaderView.ResizeMode.ResizeToContents)
     t.horizontalHeader().setStretchLastSection(True)
+    t.setFocusPolicy(Qt.FocusPolicy.NoFocus)
     return t
 
 
-def _fill(table: QTableWidget, rows: list[tuple[str, ...]]) -> None:
+def _fill(table: QTableWidget, rows: list[tuple[str, ...]], fit: bool = True) -> None:
     table.setRowCount(len(rows))
     for r, row in enumerate(rows):
         for c, text in enumerate(row):
@@ -75,6 +76,8 @@ def _fill(table: QTableWidget, rows: list[tuple[str, ...]]) -> None:
                 item.setTextAlignment(Qt.AlignmentFlag.AlignRight | Qt.AlignmentFlag.AlignVCenter)
             table.setItem(r, c, item)
     table.resizeRowsToContents()
+    if not fit:
+        return
     height = (
         table.horizontalHeader().height() + sum(table.rowHeight(i) for i in range(len(rows))) + 6
     )
@@ -148,7 +151,7 @@ class CovariateDialog(NodeDialog):
 
     def __init__(self, node_id: str, parent: QWidget | None = None) -> None:
         super().__init__(node_id, parent)
-        self.resize(980, 760)
+        self.resize(1000, 820)
         self.state: NodeDiagnostics | None = None
         self.heading = QLabel()
         self.heading.setObjectName("dialogHeading")
@@ -160,8 +163,8 @@ class CovariateDialog(NodeDialog):
         self.checks.setTextFormat(Qt.TextFormat.RichText)
         self.models = _table(_MODEL_HEADERS)
         self.figures = _table(("Collinearity", "Value"))
+        self.figures.setMinimumHeight(160)
         self.messages = QLabel()
-        self.messages.setWordWrap(True)
         self.messages.setObjectName("dialogMessages")
         self.estimate_figure = Figure(figsize=(4.4, 3.0), layout="constrained")
         self.estimate_canvas = FigureCanvasQTAgg(self.estimate_figure)
@@ -177,9 +180,8 @@ class CovariateDialog(NodeDialog):
         nl.setContentsMargins(0, 0, 0, 0)
         nl.addWidget(QLabel("Comparison models (same analytic sample)"))
         nl.addWidget(self.models)
-        nl.addWidget(self.figures)
+        nl.addWidget(self.figures, 1)
         nl.addWidget(self.messages)
-        nl.addStretch(1)
         plots = QSplitter(Qt.Orientation.Horizontal)
         plots.addWidget(self.estimate_canvas)
         plots.addWidget(self.data_canvas)
@@ -193,8 +195,8 @@ class CovariateDialog(NodeDialog):
         top.addWidget(numbers, 1)
         layout = QVBoxLayout(self)
         layout.addWidget(self.heading)
-        layout.addLayout(top)
-        layout.addWidget(plots, 1)
+        layout.addLayout(top, 3)
+        layout.addWidget(plots, 2)
         layout.addWidget(self._note_box())
         layout.addWidget(self.caution)
         layout.addWidget(self.buttons)
@@ -215,9 +217,12 @@ class CovariateDialog(NodeDialog):
         _fill(
             self.models, [(m.model, m.estimate, m.ci, m.change, m.se_inflation) for m in s.models]
         )
-        _fill(self.figures, list(s.figures))
-        measure = f"Estimates are {s.effect_measure}s." if s.effect_measure else ""
-        self.messages.setText(" ".join([measure, *s.messages[:3]]).strip())
+        _fill(self.figures, list(s.figures), fit=False)
+        measure = f"Estimates: {s.effect_measure}" if s.effect_measure else ""
+        sample = getattr(result, "sample", None)
+        if measure and sample is not None:
+            measure += f"; the same {sample.used:,} rows in every model."
+        self.messages.setText(measure)
         self.set_note(s.note)
         self._plot_estimates(s, getattr(result, "family", project.analysis.family))
         self._plot_data(s, project, profiles, frame)

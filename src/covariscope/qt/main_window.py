@@ -164,13 +164,15 @@ class MainWindow(QMainWindow):
         self.runner.cancel()
         self.data.forget()
         self.undo_stack.clear()
+        self.undo_stack.setClean()
+        self.io.extra_modified = False
         self.project = project
         self.result = None
         self.runner.result = None
         scene_cls, view_cls = canvas_classes()
         if self.scene is not None and hasattr(self.scene, "detach"):
             self.scene.detach()
-        scene = scene_cls(project, self.undo_stack)
+        scene = scene_cls(project, self.undo_stack, self)  # owned by the window
         view = view_cls(scene)
         view.setObjectName("diagramView")
         view.setAcceptDrops(True)
@@ -428,12 +430,20 @@ class MainWindow(QMainWindow):
 
     # -- closing --------------------------------------------------------------------------
     def closeEvent(self, event: Any) -> None:
+        if getattr(self, "_shut", False):
+            event.accept()
+            return
         if not self.io.confirm_discard():
             event.ignore()
             return
         for dialog in list(self.dialogs.values()):
             dialog.close()
-        self.runner.shutdown()
-        self.data.loader.shutdown()
+        self.runner.shutdown(30_000)
+        self.data.loader.shutdown(30_000)
         self.io.shutdown()
+        self.project.diagram.unsubscribe(self._model_changed)
+        self.project.unsubscribe(self._project_changed)
+        if hasattr(self.scene, "detach"):
+            self.scene.detach()
+        self._shut = True
         event.accept()

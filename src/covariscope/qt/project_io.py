@@ -127,7 +127,6 @@ class ProjectIO(QObject):
         if not self.confirm_discard():
             return False
         self.window.set_project(Project())
-        self.mark_clean()
         return True
 
     def open(self, path: str | None = None) -> bool:
@@ -146,7 +145,6 @@ class ProjectIO(QObject):
             self.forget_recent(str(path))
             return False
         self.window.set_project(project)
-        self.mark_clean()
         self.add_recent(str(project.path))
         return True
 

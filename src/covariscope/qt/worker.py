@@ -46,24 +46,35 @@ class _Bridge(QObject):
 
 
 class _Task(QRunnable):
-    def __init__(self, fn: Callable[[], Any], generation: int, bridge: _Bridge) -> None:
+    def __init__(
+        self, fn: Callable[[], Any], generation: int, bridge: _Bridge, token: _Token
+    ) -> None:
         super().__init__()
-        self.fn, self.generation, self.bridge = fn, generation, bridge
+        self.fn, self.generation, self.bridge, self.token = fn, generation, bridge, token
         self.setAutoDelete(True)
 
     def run(self) -> None:
         try:
             result = self.fn()
-        except CovariscopeError as exc:
-            self.bridge.error.emit(self.generation, str(exc))
-        except Exception as exc:  # a bug: say so plainly, keep the window alive
-            traceback.print_exc()
-            self.bridge.error.emit(
-                self.generation,
-                f"The analysis stopped on an internal error ({type(exc).__name__}: {exc}).",
-            )
+        except Exception as exc:
+            if self.token():
+                # cancelled: whatever it raised on the way out is of no interest
+                self.bridge.error.emit(self.generation, "cancelled")
+                return
+            self._report(exc)
         else:
             self.bridge.done.emit(self.generation, result)
+
+    def _report(self, exc: Exception) -> None:
+        if isinstance(exc, CovariscopeError):
+            self.bridge.error.emit(self.generation, str(exc))
+            return
+        # a bug: say so plainly and keep the window alive
+        traceback.print_exception(exc)
+        self.bridge.error.emit(
+            self.generation,
+            f"The analysis stopped on an internal error ({type(exc).__name__}: {exc}).",
+        )
 
 
 class _Token:
@@ -87,7 +98,9 @@ class _Runner(QObject):
         self.generation = 0
         self._token: _Token | None = None
         self._running = False
-        self._bridge = _Bridge(self)
+        # parentless and held by every task, so a late signal from a worker
+        # never reaches a deleted object
+        self._bridge = _Bridge()
         self._bridge.progress.connect(self._on_progress)
         self._bridge.done.connect(self._on_done)
         self._bridge.error.connect(self._on_error)
@@ -116,7 +129,7 @@ class _Runner(QObject):
             bridge.progress.emit(generation, float(fraction), str(text))
 
         self._running = True
-        self.pool.start(_Task(lambda: fn(progress, token), generation, bridge))
+        self.pool.start(_Task(lambda: fn(progress, token), generation, bridge, token))
         return generation
 
     def shutdown(self, timeout_ms: int = 10_000) -> bool:

@@ -1,0 +1,183 @@
+"""Project life: save and reopen, recovery after a crash, asking before
+losing work, the data file's fingerprint and a missing data file."""
+
+from __future__ import annotations
+
+import shutil
+from pathlib import Path
+
+import pytest
+
+DEMO = Path(__file__).resolve().parents[2] / "demo_data"
+SHOTS = Path("/tmp/shots")
+
+
+class FakePrompts:
+    """Answers the window's questions without dialogs; records what was said."""
+
+    def __init__(self) -> None:
+        self.said: list[tuple[str, str]] = []
+        self.answers: dict[str, object] = {}
+
+    def save_changes(self, name):
+        return self.answers.get("save_changes", "discard")
+
+    def yes_no(self, title, text):
+        self.said.append((title, text))
+        return bool(self.answers.get(title, False))
+
+    def warn(self, title, text):
+        self.said.append((title, text))
+
+    info = warn
+
+    def open_path(self, title, filter_, start=""):
+        return self.answers.get("open_path")
+
+    def save_path(self, title, filter_, start=""):
+        return self.answers.get("save_path")
+
+
+@pytest.fixture
+def demo(tmp_path):
+    if not (DEMO / "demo_project.json").exists():
+        pytest.skip("the demo study is not there yet")
+    for name in ("demo_project.json", "demo_cohort.csv"):
+        shutil.copyfile(DEMO / name, tmp_path / name)
+    return tmp_path
+
+
+@pytest.fixture
+def window(qtbot):
+    from covariscope.qt.app import application
+    from covariscope.qt.main_window import MainWindow
+
+    application()
+    prompts = FakePrompts()
+    w = MainWindow(prompts=prompts, debounce_ms=20)
+    qtbot.addWidget(w)
+    w.show()
+    yield w
+    w.io.extra_modified = False
+    w.undo_stack.setClean()
+    w.close()
+
+
+def wait_for_analysis(qtbot, w, timeout=90_000):
+    qtbot.waitUntil(
+        lambda: (
+            w.result is not None
+            and not w.runner.running
+            and not w.runner.pending
+            and not w.data.loading
+            and w.state_label.text() == "Analysis up to date"
+        ),
+        timeout=timeout,
+    )
+
+
+def test_save_then_reopen_is_identical(qtbot, window, demo, tmp_path):
+    from covariscope.model.project import load_project, project_to_dict
+
+    w = window
+    assert w.io.open(str(demo / "demo_project.json"))
+    w.scene.select_ids(["smoke"])
+    w.actions_.toggle_measured.trigger()
+    target = tmp_path / "saved" / "copy.json"
+    target.parent.mkdir()
+    w.prompts.answers["save_path"] = str(target)
+    w.actions_.save_as.trigger()
+    assert not w.isWindowModified()
+    saved = project_to_dict(w.project)
+    again = load_project(target)
+    assert project_to_dict(again) == saved
+    assert again.data_path() == (demo / "demo_cohort.csv").resolve()
+    assert w.io.recent_files()[0] == str(target.resolve())
+    # and through the window
+    assert w.io.open(str(target))
+    assert project_to_dict(w.project) == saved
+
+
+def test_recovery_is_offered_and_restores(qtbot, demo, tmp_path, monkeypatch):
+    from covariscope.model.project import project_to_dict
+    from covariscope.panels import recovery
+    from covariscope.qt.main_window import MainWindow
+    from covariscope.qt.project_io import AUTOSAVE_MS, recovery_folder
+
+    first = MainWindow(prompts=FakePrompts(), debounce_ms=20)
+    qtbot.addWidget(first)
+    assert first.io.autosave_timer.interval() == AUTOSAVE_MS == 60_000
+    first.io.open(str(demo / "demo_project.json"))
+    first.scene.select_ids(["activity"])
+    first.actions_.toggle_measured.trigger()
+    written = first.io.autosave()
+    assert written is not None
+    assert written.exists()
+    kept = project_to_dict(first.project)
+    # a crash: the file stays behind and its writer is gone
+    crashed = written.with_name("recovery-crashed.json")
+    crashed.write_bytes(written.read_bytes())
+    first.io.extra_modified = False
+    first.undo_stack.setClean()
+    first.runner.shutdown()
+    first.close()
+    assert not written.exists()  # a clean close removes its own file
+    monkeypatch.setattr(recovery, "_alive", lambda pid: False)
+
+    prompts = FakePrompts()
+    prompts.answers["Recover unsaved work"] = True
+    second = MainWindow(prompts=prompts, debounce_ms=20)
+    qtbot.addWidget(second)
+    assert second.io.offer_recovery()
+    assert prompts.said[0][0] == "Recover unsaved work"
+    assert project_to_dict(second.project) == kept
+    assert second.isWindowModified()
+    assert not crashed.exists()
+    # the recovered work is autosaved again at once under this window's name
+    assert recovery.recovery_path(recovery_folder()).exists()
+    second.io.extra_modified = False
+    second.close()
+
+
+def test_closing_with_changes_asks(qtbot, window, demo):
+    w = window
+    w.io.open(str(demo / "demo_project.json"))
+    w.scene.select_ids(["age"])
+    w.actions_.toggle_measured.trigger()
+    w.prompts.answers["save_changes"] = "cancel"
+    assert not w.close()
+    assert w.isVisible()
+    w.prompts.answers["save_changes"] = "discard"
+    assert w.io.new()
+    assert len(w.project.diagram) == 0
+
+
+def test_changed_data_is_warned_about(qtbot, window, demo):
+    path = demo / "demo_cohort.csv"
+    path.write_text(path.read_text(encoding="utf-8") + "", encoding="utf-8")
+    text = (demo / "demo_project.json").read_text(encoding="utf-8")
+    import json
+
+    body = json.loads(text)
+    body["data"]["sha256"] = "0" * 64
+    (demo / "demo_project.json").write_text(json.dumps(body), encoding="utf-8")
+    w = window
+    w.io.open(str(demo / "demo_project.json"))
+    qtbot.waitUntil(lambda: w.data.table is not None, timeout=60_000)
+    titles = [t for t, _ in w.prompts.said]
+    assert "The data file has changed" in titles
+    assert "SHA-256" in w.error_label.text()
+
+
+def test_missing_data_can_be_relocated(qtbot, window, demo, tmp_path):
+    moved = tmp_path / "elsewhere"
+    moved.mkdir()
+    (demo / "demo_cohort.csv").rename(moved / "cohort.csv")
+    w = window
+    w.prompts.answers["Data file missing"] = True
+    w.prompts.answers["open_path"] = str(moved / "cohort.csv")
+    w.io.open(str(demo / "demo_project.json"))
+    qtbot.waitUntil(lambda: w.data.table is not None, timeout=60_000)
+    assert w.project.data_path() == (moved / "cohort.csv").resolve()
+    assert w.isWindowModified()
+    assert not [t for t, _ in w.prompts.said if t == "The data file has changed"]
