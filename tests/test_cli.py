@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import json
+import os
 import subprocess
 import sys
 
@@ -74,3 +75,43 @@ def test_module_runs_as_a_program(tmp_path):
     )
     assert result.returncode == 2
     assert "no such file" in result.stderr
+
+
+def test_demo_without_a_display_writes_the_review_and_the_rationale(tmp_path):
+    """The README's run command on a machine with no screen: it says so, prints
+    the review and writes the one-page PDF, with Qt never asked for a display."""
+    env = {k: v for k, v in os.environ.items() if k not in ("DISPLAY", "WAYLAND_DISPLAY")}
+    env.pop("QT_QPA_PLATFORM", None)
+    folder = tmp_path / "demo"
+    result = subprocess.run(
+        [sys.executable, "-m", "covariscope.cli", "demo", str(folder)],
+        capture_output=True,
+        text=True,
+        check=False,
+        env=env,
+    )
+    assert result.returncode == 0, result.stderr
+    assert "No display was found" in result.stdout
+    assert "Minimal sufficient sets" in result.stdout
+    assert (folder / "demo_project.json").is_file()
+    assert (folder / "demo_cohort.csv").is_file()
+    pdf = folder / "demo_rationale.pdf"
+    assert pdf.read_bytes().startswith(b"%PDF")
+
+
+def test_demo_keeps_an_existing_project(tmp_path):
+    from covariscope.cli import write_demo
+
+    first = write_demo(tmp_path)
+    edited = first.read_text() + "\n"  # the user's own edit
+    first.write_text(edited)
+    write_demo(tmp_path)
+    assert first.read_text() == edited
+
+
+def test_gui_without_a_display_says_so(capsys, monkeypatch):
+    monkeypatch.delenv("DISPLAY", raising=False)
+    monkeypatch.delenv("WAYLAND_DISPLAY", raising=False)
+    code, _, err = run(capsys, "gui")
+    assert code == 2
+    assert "No display was found" in err

@@ -153,7 +153,13 @@ def _cmd_check(args: argparse.Namespace) -> int:
     return 0
 
 
+def _headless_qt() -> None:
+    """The PDF needs fonts and a paint device, never a screen."""
+    os.environ.setdefault("QT_QPA_PLATFORM", "offscreen")
+
+
 def _cmd_report(args: argparse.Namespace) -> int:
+    _headless_qt()
     from covariscope.report.painter import write_pdf
 
     project, result = _run(args.project, args.data, args.family)
@@ -163,6 +169,11 @@ def _cmd_report(args: argparse.Namespace) -> int:
 
 
 def _cmd_gui(project: str | None, *, demo: bool = False) -> int:
+    if not has_display():
+        raise CovariscopeError(
+            "No display was found, so the window cannot open here. Use 'covariscope check' "
+            "or 'covariscope report' on this machine, or 'covariscope demo' for the demo's review."
+        )
     from covariscope.qt.app import run_gui
 
     return run_gui(project, demo=demo)
@@ -181,6 +192,7 @@ def _cmd_demo(args: argparse.Namespace) -> int:
     project, result = _run(str(project_path), None, None)
     print(format_study_text(result))
     try:
+        _headless_qt()
         from covariscope.report.painter import write_pdf
 
         pdf = write_pdf(result, project, folder / "demo_rationale.pdf")
