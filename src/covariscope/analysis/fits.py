@@ -72,4 +72,6 @@ class Fit:
     @classmethod
     def failed(cls, family: str, terms: tuple[str, ...], n: int, message: str) -> Fit:
         nan = float("nan")
-        return cls(family, terms, nan, nan, (nan, nan), n, ok=False, converged=False, message=message)
+        return cls(
+            family, terms, nan, nan, (nan, nan), n, ok=False, converged=False, message=message
+        )
