@@ -779,11 +779,15 @@ def format_study_text(result: StudyResult) -> str:
                 else (e.added.change_pct if e.added.change_defined else None)
             )
             se = e.added.se_inflation_pct
-            vif = e.vif if e.vif is not None else e.vif_exposure_added
+            vif = e.vif  # of the covariate in the full model; none when it is not a candidate
         lines.append(
             f"{c:<14} {result.diagram.roles[c].role:<22} {v.code:<26} {_fmt(change, '+.1f'):>9} "
             f"{_fmt(se, '+.1f'):>10} {_fmt(vif, '.2f'):>7}"
         )
+    lines.append(
+        "change % and SE infl %: the covariate added alone to the crude model; "
+        "VIF: the covariate in the full model (– when it is not a candidate)."
+    )
     lines.append("")
     lines.append("Reasons:")
     for c, v in result.verdicts.items():
