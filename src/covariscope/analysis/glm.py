@@ -37,6 +37,7 @@ __all__ = [
     "Separation",
     "detect_separation",
     "fit_glm",
+    "fit_glm_path",
     "newton_glm",
 ]
 
@@ -106,12 +107,37 @@ class Separation:
 # --------------------------------------------------------------------- helpers
 
 
+#: Rows per block of the weighted cross product: a block of √w·X stays in the
+#: processor cache, so the n × p scaled copy is never written to memory.
+CHUNK_ROWS = 4096
+
+
 def _crossprod(X: Array, w: Array, buf: Array | None = None) -> Array:
-    """X' diag(w) X (w ≥ 0) by a symmetric rank-k update; full matrix returned."""
+    """X' diag(w) X (w ≥ 0) by symmetric rank-k updates; full matrix returned.
+
+    Rows go in blocks of `CHUNK_ROWS`; each block of √w·X is built in a small
+    buffer (``buf``, optional, at least that many rows and of X's layout) and
+    added to the upper triangle by BLAS ``dsyrk`` (half the flops of a general
+    product).  X may be C- or Fortran-ordered.
+    """
+    n, p = X.shape
     sw = np.sqrt(w)
-    Xw = np.multiply(X, sw[:, None], out=buf)
-    # Xw.T is Fortran-ordered p × n, so BLAS reads it without a copy.
-    upper: Array = np.asarray(dsyrk(1.0, Xw.T, trans=0, lower=0), dtype=np.float64)
+    fortran = bool(X.flags.f_contiguous) and not X.flags.c_contiguous
+    rows = min(n, CHUNK_ROWS)
+    if buf is None or buf.shape[0] < rows or buf.shape[1] != p:
+        buf = np.empty((rows, p), order="F" if fortran else "C")
+    acc = np.zeros((p, p), order="F")
+    for s in range(0, n, rows):
+        e = min(s + rows, n)
+        block = buf[: e - s]
+        np.multiply(X[s:e], sw[s:e, None], out=block)
+        # A Fortran block is read as n × p (trans=1); a C block's transpose is
+        # Fortran p × n (trans=0): BLAS reads either without a copy.
+        if fortran:
+            acc = dsyrk(1.0, block, beta=1.0, c=acc, trans=1, lower=0, overwrite_c=1)
+        else:
+            acc = dsyrk(1.0, block.T, beta=1.0, c=acc, trans=0, lower=0, overwrite_c=1)
+    upper: Array = np.asarray(acc, dtype=np.float64)
     return np.triu(upper) + np.triu(upper, 1).T
 
 
@@ -238,14 +264,32 @@ def fit_from_params(
 # ------------------------------------------------------------------ the Newton
 
 
-def _mean_and_deviance(family: str, y: Array, eta: Array, ylogy: float) -> tuple[Array, float]:
+def _mean_and_deviance(
+    family: str, y: Array, eta: Array, ylogy: float
+) -> tuple[Array, Array, float]:
+    """Fitted means, Newton weights and deviance at the linear predictor ``eta``.
+
+    For the logistic family one ``exp(−|η|)`` serves all three: with
+    e = exp(−|η|), log(1 + eᶯ) = max(η, 0) + log1p(e), μ = 1/(1 + e) for η ≥ 0
+    and e/(1 + e) otherwise, and μ(1 − μ) = e/(1 + e)², which stays exact
+    where 1 − μ would round to zero.
+    """
     if family == "logistic":
-        mu = special.expit(eta)
-        dev = 2.0 * float(np.sum(np.logaddexp(0.0, eta)) - y @ eta)
-    else:
-        mu = np.exp(np.minimum(eta, 700.0))
-        dev = 2.0 * float(np.sum(mu) - y @ eta + ylogy)
-    return mu, dev
+        e = np.abs(eta)
+        np.negative(e, out=e)
+        np.exp(e, out=e)
+        dev = 2.0 * (
+            float(np.sum(np.log1p(e))) + float(np.sum(np.maximum(eta, 0.0))) - float(y @ eta)
+        )
+        r = np.add(e, 1.0)
+        np.reciprocal(r, out=r)
+        mu = np.where(eta >= 0.0, r, e * r)
+        w = np.multiply(e, r, out=e)
+        w *= r
+        return mu, w, dev
+    mu = np.exp(np.minimum(eta, 700.0))
+    dev = 2.0 * float(np.sum(mu) - y @ eta + ylogy)
+    return mu, mu, dev
 
 
 def _start(family: str, X: Array, y: Array, off: Array | None) -> Array:
@@ -271,13 +315,17 @@ def newton_glm(
     start: Array | None = None,
     max_iter: int = 50,
     tol: float = 1e-13,
+    scale: Array | None = None,
 ) -> GlmPath:
     """Maximise a logistic or Poisson log-likelihood by Newton–Raphson (= IRLS
     for these canonical links) with step halving.
 
     Returns the last parameters and the inverse information at the last
     Newton point (``cov``; None when the information was singular).  The
-    caller checks the design beforehand; this function only iterates.
+    caller checks the design beforehand; this function only iterates.  X may
+    be C- or Fortran-ordered (Fortran is faster: its columns are contiguous).
+    ``scale`` is each column's standard deviation (computed when not given),
+    used to tell a coefficient running off to infinity.
 
     >>> import numpy as np
     >>> X = np.column_stack([np.ones(6), [0, 0, 1, 1, 0, 1.0]])
@@ -287,14 +335,14 @@ def newton_glm(
     """
     ylogy = float(np.sum(special.xlogy(y, y) - y)) if family == "risk_ratio" else 0.0
     b = _start(family, X, y, offset) if start is None else np.array(start, dtype=np.float64)
-    scale = np.std(X, axis=0)
+    scale = np.std(X, axis=0) if scale is None else np.asarray(scale, dtype=np.float64)
     eta = X @ b if offset is None else X @ b + offset
-    mu, dev = _mean_and_deviance(family, y, eta, ylogy)
-    buf = np.empty_like(X)
+    mu, w, dev = _mean_and_deviance(family, y, eta, ylogy)
+    fortran = bool(X.flags.f_contiguous) and not X.flags.c_contiguous
+    buf = np.empty((min(X.shape[0], CHUNK_ROWS), X.shape[1]), order="F" if fortran else "C")
     cov: Array | None = None
     stop = ""
     for it in range(1, max_iter + 1):
-        w = mu * (1.0 - mu) if family == "logistic" else mu
         H = _crossprod(X, w, buf)
         c = _chol(H)
         if it == 1 and (c is None or np.min(np.diag(c) ** 2 / np.diag(H)) < ALIAS_TOL):
@@ -310,16 +358,17 @@ def newton_glm(
         if decrement <= tol * (abs(dev) + 0.1):
             return GlmPath(b + delta, cov, it, True, dev, mu)
         t = 1.0
+        X_delta = X @ delta
         for _ in range(40):
             b_new = b + t * delta
-            eta = X @ b_new if offset is None else X @ b_new + offset
-            mu_new, dev_new = _mean_and_deviance(family, y, eta, ylogy)
+            eta_new = eta + t * X_delta
+            mu_new, w_new, dev_new = _mean_and_deviance(family, y, eta_new, ylogy)
             if math.isfinite(dev_new) and dev_new <= dev + 1e-12 * abs(dev):
                 break
             t *= 0.5
         else:
             return GlmPath(b, cov, it, False, dev, mu, "no_progress")
-        b, mu, dev = b_new, mu_new, dev_new
+        b, eta, mu, w, dev = b_new, eta_new, mu_new, w_new, dev_new
         if np.any(np.abs(b[1:]) * scale[1:] > DIVERGE_SD):
             stop = "diverging"
             return GlmPath(b, cov, it, False, dev, mu, stop)
@@ -521,6 +570,8 @@ def fit_glm(
     start: Array | None = None,
     max_iter: int = 50,
     tol: float = 1e-13,
+    checked: bool = False,
+    scale: Array | None = None,
 ) -> tuple[Fit, Array | None]:
     """Fit a logistic model (odds ratio) or a robust Poisson model (risk or rate ratio).
 
@@ -536,6 +587,14 @@ def fit_glm(
     terms : node ids of the covariates in the model (stored on the Fit).
     offset : log person-time per row (already logged), Poisson only.
     start : parameters to start from (length p), e.g. a neighbouring model's.
+    checked : True when the caller has already made sure that X and y are
+        finite, no column after the intercept is constant, the outcome suits
+        the family and has events, and n > p (as
+        `covariscope.analysis.design.make_design` and the evidence engine do);
+        those scans over the rows are then skipped.  Rank deficiency is still
+        found, and named, by the fit itself.
+    scale : standard deviation of each column of X, if already known (saves a
+        pass over the rows); see `newton_glm`.
 
     Returns
     -------
@@ -554,8 +613,54 @@ def fit_glm(
     >>> fit.ok, round(fit.coef, 3) == round(float(params[1]), 3)
     (True, True)
     """
+    fit, path = fit_glm_path(
+        X,
+        y,
+        family,
+        column_names=column_names,
+        terms=terms,
+        exposure_index=exposure_index,
+        offset=offset,
+        start=start,
+        max_iter=max_iter,
+        tol=tol,
+        checked=checked,
+        scale=scale,
+    )
+    return fit, None if path is None else path.params
+
+
+def fit_glm_path(
+    X: Array,
+    y: Array,
+    family: str,
+    *,
+    column_names: list[str] | tuple[str, ...],
+    terms: tuple[str, ...],
+    exposure_index: int = 1,
+    offset: Array | None = None,
+    start: Array | None = None,
+    max_iter: int = 50,
+    tol: float = 1e-13,
+    checked: bool = False,
+    scale: Array | None = None,
+) -> tuple[Fit, GlmPath | None]:
+    """`fit_glm`, returning the whole Newton result (parameters and covariance)
+    instead of the parameters alone; the path is None when the fit failed.
+
+    The covariance lets a caller warm-start a nested model by a one-step
+    update (see `covariscope.analysis.evidence`).
+
+    >>> import numpy as np
+    >>> X = np.column_stack([np.ones(6), [0, 0, 1, 1, 0, 1.0]])
+    >>> fit, path = fit_glm_path(X, np.array([0, 1, 1, 1, 0, 0.0]), "logistic",
+    ...                          column_names=["const", "x"], terms=())
+    >>> path.cov.shape
+    (2, 2)
+    """
     names = list(column_names)
-    X = np.ascontiguousarray(X, dtype=np.float64)
+    if X.dtype != np.float64 or not (X.flags.c_contiguous or X.flags.f_contiguous):
+        X = np.ascontiguousarray(X, dtype=np.float64)
     y = np.asarray(y, dtype=np.float64)
     n, p = X.shape
     if family not in GLM_FAMILIES:
@@ -574,14 +679,17 @@ def fit_glm(
                 n,
                 "The offset must be a finite log person-time for every row (did you take the log of a zero time?).",
             ), None
-    problem = _outcome_problem(y, family) or design_problem(X, names, skip=1)
-    if not problem and n <= p:
-        problem = too_few_rows(n, p)
-    if problem:
-        return Fit.failed(family, terms, n, problem), None
+    if not checked:
+        problem = _outcome_problem(y, family) or design_problem(X, names, skip=1)
+        if not problem and n <= p:
+            problem = too_few_rows(n, p)
+        if problem:
+            return Fit.failed(family, terms, n, problem), None
     if start is not None and np.shape(start) != (p,):
         start = None  # a mismatched start is ignored rather than trusted
-    path = newton_glm(X, y, family, offset=off, start=start, max_iter=max_iter, tol=tol)
+    path = newton_glm(
+        X, y, family, offset=off, start=start, max_iter=max_iter, tol=tol, scale=scale
+    )
     if path.stop == "aliased":
         assert path.info is not None
         clauses = aliased_columns(path.info, names) or ["the columns are nearly collinear"]
@@ -662,4 +770,4 @@ def fit_glm(
         warnings=tuple(warns),
         blank=blank,
     )
-    return fit, path.params
+    return fit, path
