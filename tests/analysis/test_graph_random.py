@@ -195,3 +195,22 @@ def test_paths_and_review_match_enumeration(seed: int) -> None:
     assert review.sufficient == reference_sufficient(G, x, y, z)
     analysis = analyse_diagram(G, x, y, z)
     assert analysis.identifiable == bool(analysis.minimal_sets)
+
+
+@pytest.mark.parametrize("seed", range(150))
+def test_path_counts_match_enumeration(seed: int) -> None:
+    """The counter behind capped listings, all paths and open paths only."""
+    G, x, y = random_diagram(seed, max_nodes=9)
+    ref = reference_backdoor_paths(G, x, y)
+    others = [v for v in G if v not in (x, y)]
+    rng = random.Random(seed)
+    z = set(rng.sample(others, rng.randint(0, min(3, len(others)))))
+    assert backdoor_paths(G, x, y, cap=0).total == len(ref)
+    open_ref = [p for p in ref if is_open(G, p, z)]
+    assert listing_total_open(G, x, y, z) == len(open_ref)
+
+
+def listing_total_open(G: nx.DiGraph, x: str, y: str, z: set[str]) -> int:
+    from covariscope.analysis.paths import listing
+
+    return listing(G, x, y, frozenset(z), 0, only_open=True).total
