@@ -27,6 +27,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
+from covariscope.analysis.verdicts import DEFAULT_THRESHOLDS
 from covariscope.model.diagram import KINDS, Diagram, Node
 from covariscope.model.errors import CovariscopeError, DiagramError, ProjectFileError
 
@@ -48,15 +49,6 @@ FORMAT = "covariscope-project"
 FORMAT_VERSION = 1
 FAMILY_NAMES = ("linear", "logistic", "risk_ratio", "cox")
 COLUMN_ROLES = ("outcome", "time", "event", "offset")
-
-#: Guides, not rules (common practice; editable per project).
-DEFAULT_THRESHOLDS: dict[str, float] = {
-    "change_pct": 10.0,
-    "se_inflation_pct": 20.0,
-    "vif": 10.0,
-    "r2": 0.9,
-    "condition_index": 30.0,
-}
 
 
 @dataclass(frozen=True)
