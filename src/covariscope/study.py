@@ -16,14 +16,10 @@ from __future__ import annotations
 
 import math
 from collections.abc import Callable, Mapping, Sequence
-from dataclasses import dataclass
-from typing import Any
 
 import networkx as nx
 import numpy as np
-import pandas as pd
 
-from covariscope.analysis.design import TermSpec, make_design
 from covariscope.analysis.evalue import COMMON_OUTCOME_PREVALENCE, EValue, evalue_for_estimate
 from covariscope.analysis.evidence import (
     Comparison,
@@ -50,14 +46,15 @@ from covariscope.analysis.verdicts import (
     decide_verdict,
     format_set,
 )
-from covariscope.data.coerce import coerce_column
 from covariscope.data.loading import LoadedTable, load_table
-from covariscope.data.profile import profile_table
-from covariscope.data.sample import AnalyticSample, analytic_sample
+from covariscope.data.sample import AnalyticSample
 from covariscope.model.errors import DataError
 from covariscope.model.project import DEFAULT_THRESHOLDS, Project
+from covariscope.study_data import prepare_evidence
+from covariscope.study_result import ESTIMATE_KEYS, Progress, StudyResult
 
 __all__ = [
+    "ESTIMATE_KEYS",
     "LABELS",
     "VERDICTS",
     "StudyResult",
@@ -66,176 +63,6 @@ __all__ = [
     "run_study",
     "study_to_json",
 ]
-
-ESTIMATE_KEYS = ("crude", "proposed", "recommended", "full")
-_TERM_TYPES = ("continuous", "binary", "count", "categorical")
-
-Progress = Callable[[float, str], None]
-
-
-@dataclass(frozen=True)
-class StudyResult:
-    """Everything Covariscope says about one project (see STUDY_API)."""
-
-    exposure: str
-    outcome: str
-    family: str
-    effect_measure: str
-    diagram: DiagramAnalysis
-    proposed: tuple[str, ...]
-    sample: AnalyticSample | None
-    evidence: EvidenceTable | None
-    verdicts: dict[str, Verdict]
-    recommended: tuple[str, ...]
-    estimates: dict[str, Fit | None]
-    collinear_groups: tuple[tuple[str, ...], ...]
-    evalue: EValue | None
-    thresholds: dict[str, float]
-    disagreements: tuple[str, ...]
-    messages: tuple[str, ...]
-    data_name: str | None
-    data_sha256: str | None
-    recommended_reason: str = ""
-
-    @property
-    def has_data(self) -> bool:
-        return self.evidence is not None
-
-
-# -- data preparation ----------------------------------------------------------------
-
-
-def _outcome_columns(
-    project: Project, family: str, outcome_column: str | None
-) -> dict[str, str | None]:
-    chosen = dict(project.analysis.family_columns.get(family, {}))
-    cols: dict[str, str | None] = {
-        "outcome": chosen.get("outcome", outcome_column),
-        "time": chosen.get("time"),
-        "event": chosen.get("event"),
-        "offset": chosen.get("offset"),
-    }
-    if family == "cox":
-        cols["outcome"] = None
-    return cols
-
-
-def _prepare(
-    project: Project,
-    frame: pd.DataFrame,
-    family: str,
-    exposure: str,
-    outcome: str,
-    analysis: DiagramAnalysis,
-    messages: list[str],
-) -> tuple[AnalyticSample | None, EvidenceEngine | None, list[str]]:
-    """Analytic sample and evidence engine, or (None, None, ...) with a message."""
-    diagram = project.diagram
-    x_col = diagram.node(exposure).column
-    y_col = diagram.node(outcome).column
-    if x_col is None:
-        messages.append(
-            f'The exposure "{exposure}" is not bound to a data column, so only the diagram is analysed; bind it to a column.'
-        )
-        return None, None, []
-    cols = _outcome_columns(project, family, y_col)
-    if family == "cox" and (cols["time"] is None or cols["event"] is None):
-        messages.append(
-            "The Cox family needs a time and an event column; set them for the project "
-            "(analysis.family_columns.cox), or choose another family. Only the diagram is analysed."
-        )
-        return None, None, []
-    if family != "cox" and cols["outcome"] is None:
-        messages.append(
-            f'The outcome "{outcome}" is not bound to a data column, so only the diagram is analysed; bind it to a column.'
-        )
-        return None, None, []
-    bound: list[str] = []
-    for node in diagram.covariates:
-        if not node.measured or node.column is None:
-            continue
-        if node.column not in frame.columns:
-            messages.append(
-                f'"{node.id}" is bound to the column "{node.column}", which is not in the data; it is left out.'
-            )
-            continue
-        bound.append(node.id)
-    outcome_cols = [c for c in (cols["outcome"], cols["time"], cols["event"], cols["offset"]) if c]
-    needed = list(
-        dict.fromkeys([*outcome_cols, x_col, *(diagram.node(b).column or "" for b in bound)])
-    )
-    missing_cols = [c for c in needed if c not in frame.columns]
-    if missing_cols:
-        messages.append(
-            f"The data have no column {', '.join(map(repr, missing_cols))}; only the diagram is analysed. "
-            "Bind existing columns."
-        )
-        return None, None, []
-    types = project.analysis.column_types
-    refs = project.analysis.reference_levels
-    sub = frame.loc[:, needed]
-    profiles = profile_table(
-        sub,
-        {k: v for k, v in types.items() if k in sub.columns},
-        {k: v for k, v in refs.items() if k in sub.columns},
-    )
-    usable: list[str] = []
-    for b in bound:
-        column = diagram.node(b).column
-        assert column is not None
-        kind = profiles[column].type
-        if kind not in _TERM_TYPES:
-            messages.append(
-                f'"{b}" is bound to "{column}", a {kind} column, which a model cannot use; '
-                "it is left out (set its type if this is wrong)."
-            )
-            continue
-        usable.append(b)
-    bound = usable
-    needed = list(
-        dict.fromkeys([*outcome_cols, x_col, *(diagram.node(b).column or "" for b in bound)])
-    )
-    sample = analytic_sample(frame, needed)
-    work = sample.frame.copy()
-    specs: dict[str, TermSpec] = {}
-    for b in bound:
-        column = diagram.node(b).column
-        assert column is not None
-        specs[b] = _spec(work, column, profiles[column].type, profiles[column].reference)
-    x_spec = _spec(work, x_col, profiles[x_col].type, profiles[x_col].reference)
-    for key in ("outcome", "event"):
-        col = cols[key]
-        if col is not None and profiles[col].type == "binary":
-            work[col] = coerce_column(work[col], "binary", profiles[col].reference)
-    for key in ("time", "offset"):
-        col = cols[key]
-        if col is not None:
-            work[col] = coerce_column(work[col], "continuous")
-    if cols["outcome"] is not None and profiles[cols["outcome"]].type in ("continuous", "count"):
-        work[cols["outcome"]] = coerce_column(work[cols["outcome"]], "continuous")
-    design = make_design(
-        work,
-        exposure=x_spec,
-        covariates=specs,
-        outcome=cols["outcome"],
-        family=family,
-        time=cols["time"],
-        event=cols["event"],
-        offset=cols["offset"],
-        exposure_node=exposure,
-    )
-    return sample, EvidenceEngine(design, family), bound
-
-
-def _spec(work: pd.DataFrame, column: str, kind: str, reference: Any) -> TermSpec:
-    if kind in ("continuous", "count"):
-        work[column] = coerce_column(work[column], kind)
-        return TermSpec(column, kind)
-    if kind == "binary":
-        work[column] = coerce_column(work[column], "binary", reference)
-        return TermSpec(column, "binary", 0.0)
-    return TermSpec(column, "categorical", reference)
-
 
 # -- helpers -------------------------------------------------------------------------
 
@@ -408,7 +235,7 @@ def run_study(
     bound: list[str] = []
     if table is not None:
         try:
-            sample, engine, bound = _prepare(
+            sample, engine, bound = prepare_evidence(
                 project, table.frame, family, exposure, outcome, da, messages
             )
         except DataError as exc:
@@ -622,221 +449,7 @@ def run_study(
     )
 
 
-# -- output --------------------------------------------------------------------------
-
-
-def _clean(value: Any) -> Any:
-    """JSON-safe: NaN and infinities become null, tuples lists."""
-    if isinstance(value, float | np.floating):
-        v = float(value)
-        return v if math.isfinite(v) else None
-    if isinstance(value, np.integer):
-        return int(value)
-    if isinstance(value, dict):
-        return {str(k): _clean(v) for k, v in value.items()}
-    if isinstance(value, list | tuple):
-        return [_clean(v) for v in value]
-    return value
-
-
-def _fit_json(fit: Fit | None) -> dict[str, Any] | None:
-    if fit is None:
-        return None
-    return {
-        "coef": fit.coef,
-        "se": fit.se,
-        "ci": list(fit.ci),
-        "ratio": fit.ratio,
-        "ratio_ci": list(fit.ratio_ci) if fit.ratio_ci is not None else None,
-        "n": fit.n,
-        "ok": fit.ok,
-        "message": fit.message or None,
-    }
-
-
-def _cmp_json(
-    c: Comparison | None, *, with_vif: float | None = None, added: bool
-) -> dict[str, Any] | None:
-    if c is None:
-        return None
-    out: dict[str, Any] = {
-        "change_pct": c.change_pct if c.change_defined else None,
-        "change_pct_ratio": c.change_pct_ratio,
-        "se_inflation_pct": c.se_inflation_pct,
-    }
-    if added:
-        out["vif_exposure"] = with_vif
-    return out
-
-
-def study_to_json(result: StudyResult) -> dict[str, Any]:
-    """The ``covariscope check --json`` object (schema: schemas/check.schema.json).
-
-    Fields that do not apply are null, never absent.
-    """
-    out: dict[str, Any] = dict(result.diagram.to_json())
-    out["proposed"] = list(result.proposed)
-    ev = result.evidence
-    sample = result.sample
-    out["family"] = result.family
-    out["effect_measure"] = result.effect_measure
-    out["data"] = (
-        {"name": result.data_name, "sha256": result.data_sha256} if result.data_name else None
-    )
-    out["sample"] = (
-        {
-            "rows": sample.rows,
-            "used": sample.used,
-            "missing_by_column": dict(sample.missing_by_column),
-        }
-        if sample is not None and ev is not None
-        else None
-    )
-    out["estimates"] = {k: _fit_json(result.estimates.get(k)) for k in ESTIMATE_KEYS}
-    out["recommended"] = list(result.recommended)
-    covariates: dict[str, Any] = {}
-    for c, v in result.verdicts.items():
-        e = ev.covariates.get(c) if ev is not None else None
-        covariates[c] = {
-            "role": result.diagram.roles[c].role,
-            "verdict": v.code,
-            "label": v.label,
-            "reason": v.reason,
-            "group": list(v.group) if v.group else None,
-            "suggested": v.suggested,
-            "added": _cmp_json(e.added, with_vif=e.vif_exposure_added, added=True) if e else None,
-            "dropped": _cmp_json(e.dropped, added=False) if e else None,
-            "vif": e.vif if e else None,
-            "tolerance": e.tolerance if e else None,
-            "aux_r2": e.aux_r2 if e else None,
-            "r2_exposure": e.r2_exposure if e else None,
-        }
-    out["covariates"] = covariates
-    out["collinear_groups"] = [list(g) for g in result.collinear_groups]
-    out["evalue"] = (
-        {
-            "estimate": result.evalue.estimate,
-            "ci": result.evalue.ci,
-            "conversion": result.evalue.conversion,
-        }
-        if result.evalue is not None
-        else None
-    )
-    out["thresholds"] = dict(result.thresholds)
-    out["disagreements"] = list(result.disagreements)
-    out["messages"] = list(result.messages)
-    cleaned: dict[str, Any] = _clean(out)
-    return cleaned
-
-
-def _fmt(value: float | None, spec: str = ".1f", suffix: str = "") -> str:
-    if value is None or not math.isfinite(value):
-        return "–"
-    return f"{value:{spec}}{suffix}"
-
-
-def _estimate_line(name: str, fit: Fit | None, measure: str) -> str:
-    if fit is None:
-        return f"  {name:<12} not fitted"
-    if not fit.ok:
-        return f"  {name:<12} could not be fitted: {fit.message}"
-    if fit.ratio is not None and fit.ratio_ci is not None:
-        lo, hi = fit.ratio_ci
-        return f"  {name:<12} {measure} {fit.ratio:.3f} (95% CI {lo:.3f} to {hi:.3f}), n = {fit.n}"
-    lo, hi = fit.ci
-    return (
-        f"  {name:<12} {measure} {fit.coef:.3f} (95% CI {lo:.3f} to {hi:.3f}), "
-        f"SE {fit.se:.3f}, n = {fit.n}"
-    )
-
-
-def format_study_text(result: StudyResult) -> str:
-    """The readable review that ``covariscope check`` prints."""
-    t = result.thresholds
-    lines = [
-        f"Effect of {result.exposure} on {result.outcome} ({result.family} model, {result.effect_measure})",
-        f"Data: {result.data_name or 'none'}"
-        + (
-            f"; {result.sample.used} of {result.sample.rows} rows used (complete cases)"
-            if result.sample is not None and result.evidence is not None
-            else ""
-        ),
-        f"Guides (not rules): change {t['change_pct']:g}%, SE inflation {t['se_inflation_pct']:g}%, "
-        f"VIF {t['vif']:g}, R² {t['r2']:g}, condition index {t['condition_index']:g}",
-        "",
-    ]
-    ev = result.evidence
-    ratio = result.family in RATIO_FAMILIES
-    header = f"{'covariate':<14} {'role':<22} {'verdict':<26} {'change %':>9} {'SE infl %':>10} {'VIF':>7}"
-    lines += [header, "-" * len(header)]
-    for c, v in result.verdicts.items():
-        e = ev.covariates.get(c) if ev is not None else None
-        change = se = vif = None
-        if e is not None:
-            change = (
-                e.added.change_pct_ratio
-                if ratio
-                else (e.added.change_pct if e.added.change_defined else None)
-            )
-            se = e.added.se_inflation_pct
-            vif = e.vif  # of the covariate in the full model; none when it is not a candidate
-        lines.append(
-            f"{c:<14} {result.diagram.roles[c].role:<22} {v.code:<26} {_fmt(change, '+.1f'):>9} "
-            f"{_fmt(se, '+.1f'):>10} {_fmt(vif, '.2f'):>7}"
-        )
-    lines.append(
-        "change % and SE infl %: the covariate added alone to the crude model; "
-        "VIF: the covariate in the full model (– when it is not a candidate)."
-    )
-    lines.append("")
-    lines.append("Reasons:")
-    for c, v in result.verdicts.items():
-        lines.append(f"  {c}: {v.reason}")
-    lines.append("")
-    da = result.diagram
-    sets = (
-        "; ".join(format_set(s) for s in da.minimal_sets) or "none (not identified by adjustment)"
-    )
-    lines.append(f"Minimal sufficient sets: {sets}")
-    lines.append(
-        f"Proposed set: {format_set(result.proposed)} — "
-        + (
-            "sufficient"
-            if da.review.sufficient
-            else f"NOT sufficient ({len(da.review.open_paths)} open path(s))"
-        )
-    )
-    if da.review.open_paths:
-        for p in da.review.open_paths[:5]:
-            lines.append(f"    open: {' – '.join(p)}")
-    if da.review.harmful:
-        lines.append(f"    harmful: {', '.join(da.review.harmful)}")
-    if da.review.unnecessary:
-        lines.append(f"    unnecessary: {', '.join(da.review.unnecessary)}")
-    lines.append(
-        f"Recommended set: {format_set(result.recommended) if result.recommended else 'none'}"
-    )
-    if result.recommended_reason:
-        lines.append(f"    {result.recommended_reason}")
-    if result.collinear_groups:
-        lines.append(
-            "Collinear groups: " + "; ".join(format_set(g) for g in result.collinear_groups)
-        )
-    lines.append("")
-    if ev is not None:
-        lines.append("Estimates:")
-        for key in ESTIMATE_KEYS:
-            lines.append(_estimate_line(key, result.estimates.get(key), result.effect_measure))
-        if result.evalue is not None:
-            lines.append(
-                f"E-value (recommended): {result.evalue.estimate:.2f} for the estimate, "
-                f"{result.evalue.ci:.2f} for the CI limit nearer the null ({result.evalue.conversion})"
-            )
-        lines.append("")
-    if result.disagreements:
-        lines.append("Where diagram and data disagree:")
-        lines += [f"  - {d}" for d in result.disagreements]
-        lines.append("")
-    lines.append("Cautions:")
-    lines += [f"  - {m}" for m in result.messages]
-    return "\n".join(lines) + "\n"
+# Imported last: the output modules are re-exported here, where the GUI, the
+# report and the command line have always found them.
+from covariscope.study_json import study_to_json  # noqa: E402
+from covariscope.study_text import format_study_text  # noqa: E402

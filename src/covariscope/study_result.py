@@ -1,0 +1,48 @@
+"""The result of a study: what :func:`covariscope.study.run_study` returns."""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+from dataclasses import dataclass
+
+from covariscope.analysis.evalue import EValue
+from covariscope.analysis.evidence import EvidenceTable
+from covariscope.analysis.fits import Fit
+from covariscope.analysis.graph import DiagramAnalysis
+from covariscope.analysis.verdicts import Verdict
+from covariscope.data.sample import AnalyticSample
+
+__all__ = ["ESTIMATE_KEYS", "Progress", "StudyResult"]
+
+ESTIMATE_KEYS = ("crude", "proposed", "recommended", "full")
+
+Progress = Callable[[float, str], None]
+
+
+@dataclass(frozen=True)
+class StudyResult:
+    """Everything Covariscope says about one project (see STUDY_API)."""
+
+    exposure: str
+    outcome: str
+    family: str
+    effect_measure: str
+    diagram: DiagramAnalysis
+    proposed: tuple[str, ...]
+    sample: AnalyticSample | None
+    evidence: EvidenceTable | None
+    verdicts: dict[str, Verdict]
+    recommended: tuple[str, ...]
+    estimates: dict[str, Fit | None]
+    collinear_groups: tuple[tuple[str, ...], ...]
+    evalue: EValue | None
+    thresholds: dict[str, float]
+    disagreements: tuple[str, ...]
+    messages: tuple[str, ...]
+    data_name: str | None
+    data_sha256: str | None
+    recommended_reason: str = ""
+
+    @property
+    def has_data(self) -> bool:
+        return self.evidence is not None

@@ -1,0 +1,124 @@
+"""The readable review that ``covariscope check`` prints."""
+
+from __future__ import annotations
+
+import math
+
+from covariscope.analysis.fits import RATIO_FAMILIES, Fit
+from covariscope.analysis.verdicts import format_set
+from covariscope.study_result import ESTIMATE_KEYS, StudyResult
+
+__all__ = ["format_study_text"]
+
+
+def _fmt(value: float | None, spec: str = ".1f", suffix: str = "") -> str:
+    if value is None or not math.isfinite(value):
+        return "–"
+    return f"{value:{spec}}{suffix}"
+
+
+def _estimate_line(name: str, fit: Fit | None, measure: str) -> str:
+    if fit is None:
+        return f"  {name:<12} not fitted"
+    if not fit.ok:
+        return f"  {name:<12} could not be fitted: {fit.message}"
+    if fit.ratio is not None and fit.ratio_ci is not None:
+        lo, hi = fit.ratio_ci
+        return f"  {name:<12} {measure} {fit.ratio:.3f} (95% CI {lo:.3f} to {hi:.3f}), n = {fit.n}"
+    lo, hi = fit.ci
+    return (
+        f"  {name:<12} {measure} {fit.coef:.3f} (95% CI {lo:.3f} to {hi:.3f}), "
+        f"SE {fit.se:.3f}, n = {fit.n}"
+    )
+
+
+def format_study_text(result: StudyResult) -> str:
+    """The readable review that ``covariscope check`` prints."""
+    t = result.thresholds
+    lines = [
+        f"Effect of {result.exposure} on {result.outcome} ({result.family} model, {result.effect_measure})",
+        f"Data: {result.data_name or 'none'}"
+        + (
+            f"; {result.sample.used} of {result.sample.rows} rows used (complete cases)"
+            if result.sample is not None and result.evidence is not None
+            else ""
+        ),
+        f"Guides (not rules): change {t['change_pct']:g}%, SE inflation {t['se_inflation_pct']:g}%, "
+        f"VIF {t['vif']:g}, R² {t['r2']:g}, condition index {t['condition_index']:g}",
+        "",
+    ]
+    ev = result.evidence
+    ratio = result.family in RATIO_FAMILIES
+    header = f"{'covariate':<14} {'role':<22} {'verdict':<26} {'change %':>9} {'SE infl %':>10} {'VIF':>7}"
+    lines += [header, "-" * len(header)]
+    for c, v in result.verdicts.items():
+        e = ev.covariates.get(c) if ev is not None else None
+        change = se = vif = None
+        if e is not None:
+            change = (
+                e.added.change_pct_ratio
+                if ratio
+                else (e.added.change_pct if e.added.change_defined else None)
+            )
+            se = e.added.se_inflation_pct
+            vif = e.vif  # of the covariate in the full model; none when it is not a candidate
+        lines.append(
+            f"{c:<14} {result.diagram.roles[c].role:<22} {v.code:<26} {_fmt(change, '+.1f'):>9} "
+            f"{_fmt(se, '+.1f'):>10} {_fmt(vif, '.2f'):>7}"
+        )
+    lines.append(
+        "change % and SE infl %: the covariate added alone to the crude model; "
+        "VIF: the covariate in the full model (– when it is not a candidate)."
+    )
+    lines.append("")
+    lines.append("Reasons:")
+    for c, v in result.verdicts.items():
+        lines.append(f"  {c}: {v.reason}")
+    lines.append("")
+    da = result.diagram
+    sets = (
+        "; ".join(format_set(s) for s in da.minimal_sets) or "none (not identified by adjustment)"
+    )
+    lines.append(f"Minimal sufficient sets: {sets}")
+    lines.append(
+        f"Proposed set: {format_set(result.proposed)} — "
+        + (
+            "sufficient"
+            if da.review.sufficient
+            else f"NOT sufficient ({len(da.review.open_paths)} open path(s))"
+        )
+    )
+    if da.review.open_paths:
+        for p in da.review.open_paths[:5]:
+            lines.append(f"    open: {' – '.join(p)}")
+    if da.review.harmful:
+        lines.append(f"    harmful: {', '.join(da.review.harmful)}")
+    if da.review.unnecessary:
+        lines.append(f"    unnecessary: {', '.join(da.review.unnecessary)}")
+    lines.append(
+        f"Recommended set: {format_set(result.recommended) if result.recommended else 'none'}"
+    )
+    if result.recommended_reason:
+        lines.append(f"    {result.recommended_reason}")
+    if result.collinear_groups:
+        lines.append(
+            "Collinear groups: " + "; ".join(format_set(g) for g in result.collinear_groups)
+        )
+    lines.append("")
+    if ev is not None:
+        lines.append("Estimates:")
+        for key in ESTIMATE_KEYS:
+            lines.append(_estimate_line(key, result.estimates.get(key), result.effect_measure))
+        if result.evalue is not None:
+            lines.append(
+                f"E-value (recommended): {result.evalue.estimate:.2f} for the estimate, "
+                f"{result.evalue.ci:.2f} for the CI limit nearer the null ({result.evalue.conversion})"
+            )
+        lines.append("")
+    if result.disagreements:
+        lines.append("Where diagram and data disagree:")
+        lines += [f"  - {d}" for d in result.disagreements]
+        lines.append("")
+    lines.append("Cautions:")
+    lines += [f"  - {m}" for m in result.messages]
+    return "\n".join(lines) + "\n"
