@@ -88,20 +88,21 @@ def test_dialog_shows_the_json_numbers(qtbot, window, demo):
     wait_for_analysis(qtbot, w)
     for node in ("age", "income"):
         c = js["covariates"][node]
+        name = w.project.diagram.node(node).label
         dialog = w.open_diagnostics(node)
         cells = {
             dialog.models.item(r, 0).text(): [dialog.models.item(r, k).text() for k in range(1, 5)]
             for r in range(dialog.models.rowCount())
         }
         assert cells["Crude"][0] == number(js["estimates"]["crude"]["coef"])
-        assert cells[f"Crude + {node}"][2] == percent(c["added"]["change_pct"])
-        assert cells[f"Crude + {node}"][3] == percent(c["added"]["se_inflation_pct"])
+        assert cells[f"Crude + {name}"][2] == percent(c["added"]["change_pct"])
+        assert cells[f"Crude + {name}"][3] == percent(c["added"]["se_inflation_pct"])
         assert cells["Full"][2] == percent(c["dropped"]["change_pct"])
         figures = {
             dialog.figures.item(r, 0).text(): dialog.figures.item(r, 1).text()
             for r in range(dialog.figures.rowCount())
         }
-        assert figures[f"VIF of {node} in the full model"] == number(c["vif"])
+        assert figures[f"VIF of {name} in the full model"] == number(c["vif"])
         assert figures["Tolerance (1 / VIF)"] == number(c["tolerance"], 3)
         assert c["label"] in dialog.verdict.text()
         assert c["reason"] in dialog.verdict.text()

@@ -9,6 +9,7 @@ the exposure or the outcome: its missing data and the model family.
 from __future__ import annotations
 
 import math
+from collections.abc import Mapping
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -24,6 +25,7 @@ __all__ = [
     "checklist",
     "endpoint_diagnostics",
     "node_diagnostics",
+    "node_labels",
 ]
 
 DIAGNOSTIC_CAUTION = (
@@ -62,6 +64,7 @@ class NodeDiagnostics:
     note: str = ""
     column: str | None = None
     exposure_column: str | None = None
+    exposure_label: str = ""
     categorical: bool = False
     numbers: dict[str, Any] = field(default_factory=dict)
 
@@ -80,8 +83,18 @@ class EndpointDiagnostics:
     note: str = ""
 
 
-def _path_text(nodes: tuple[str, ...]) -> str:
-    return " – ".join(nodes)
+def _name(step: str, labels: Mapping[str, str]) -> str:
+    """A path step in the user's words; a measure group ("a|b") names each member."""
+    return " | ".join(labels.get(part, part) for part in step.split("|"))
+
+
+def _path_text(nodes: tuple[str, ...], labels: Mapping[str, str] | None = None) -> str:
+    return " – ".join(_name(n, labels or {}) for n in nodes)
+
+
+def node_labels(project: Any) -> dict[str, str]:
+    """Node id → the label the user gave it (the id when there is none)."""
+    return {n.id: (n.label or n.id) for n in project.diagram.nodes}
 
 
 def _paths(result: Any) -> tuple[Any, ...]:
@@ -89,20 +102,26 @@ def _paths(result: Any) -> tuple[Any, ...]:
     return tuple(getattr(listing, "paths", ()) or ())
 
 
-def checklist(node_id: str, result: Any) -> tuple[str, ...]:
-    """The classical criteria in words, from the diagram's facts about ``node_id``."""
+def checklist(
+    node_id: str, result: Any, labels: Mapping[str, str] | None = None
+) -> tuple[str, ...]:
+    """The classical criteria in words, from the diagram's facts about
+    ``node_id``; variables are named by ``labels`` (node id → label) where given."""
     facts = getattr(getattr(result, "diagram", None), "roles", {}).get(node_id)
     if facts is None:
         return ("The diagram has not been analysed yet.",)
-    exposure = getattr(result, "exposure", "the exposure")
-    outcome = getattr(result, "outcome", "the outcome")
+    labels = labels or {}
+    exposure = getattr(result, "exposure", None)
+    outcome = getattr(result, "outcome", None)
+    exposure = labels.get(exposure, exposure) if exposure else "the exposure"
+    outcome = labels.get(outcome, outcome) if outcome else "the outcome"
     paths = _paths(result)
     on = list(getattr(facts, "on_paths", ()) or ())
     through = [paths[i] for i, collider in on if not collider and i < len(paths)]
     as_collider = [paths[i] for i, collider in on if collider and i < len(paths)]
     lines = []
     if through:
-        shown = "; ".join(_path_text(p.nodes) for p in through[:3])
+        shown = "; ".join(_path_text(p.nodes, labels) for p in through[:3])
         more = f" (and {len(through) - 3} more)" if len(through) > 3 else ""
         lines.append(f"Associated with {exposure}: yes, through the backdoor path {shown}{more}.")
     elif getattr(facts, "ancestor_of_exposure", False):
@@ -127,7 +146,7 @@ def checklist(node_id: str, result: Any) -> tuple[str, ...]:
         + ("yes — adjusting for it would remove part of the effect." if mediator else "no.")
     )
     if as_collider:
-        shown = "; ".join(_path_text(p.nodes) for p in as_collider[:3])
+        shown = "; ".join(_path_text(p.nodes, labels) for p in as_collider[:3])
         lines.append(f"Collider: yes, on {shown} — adjusting for it would open that path.")
     else:
         lines.append("Collider: not on any backdoor path.")
@@ -157,6 +176,8 @@ def node_diagnostics(
 ) -> NodeDiagnostics:
     """Everything the covariate diagnostics dialog shows for ``node_id``."""
     node = project.diagram.node(node_id)
+    labels = node_labels(project)
+    name = node.label or node_id
     family = getattr(result, "family", None) or project.analysis.family
     facts = getattr(getattr(result, "diagram", None), "roles", {}).get(node_id) if result else None
     verdict = (getattr(result, "verdicts", None) or {}).get(node_id) if result else None
@@ -173,7 +194,7 @@ def node_diagnostics(
                 family,
             ),
             _row(
-                f"Crude + {node_id}",
+                f"Crude + {name}",
                 getattr(added, "with_fit", None),
                 family,
                 change_value(added, family),
@@ -186,7 +207,7 @@ def node_diagnostics(
                 change_value(dropped, family),
                 getattr(dropped, "se_inflation_pct", None),
             ),
-            _row(f"Full − {node_id}", getattr(dropped, "without_fit", None), family),
+            _row(f"Full − {name}", getattr(dropped, "without_fit", None), family),
         ]
     figures: list[tuple[str, str]] = []
     numbers: dict[str, Any] = {}
@@ -207,7 +228,7 @@ def node_diagnostics(
         multi = int(getattr(ev, "df", 1) or 1) > 1 and is_number(numbers["gvif"])
         vif_label = "GVIF^(1/df)" if multi else "VIF"
         figures += [
-            (f"{vif_label} of {node_id} in the full model", number(vif)),
+            (f"{vif_label} of {name} in the full model", number(vif)),
             ("Tolerance (1 / VIF)", number(numbers["tolerance"], 3)),
             ("Auxiliary R² (1 − 1 / VIF)", number(numbers["aux_r2"], 3)),
         ]
@@ -216,8 +237,8 @@ def node_diagnostics(
                 ("Generalized VIF (Fox & Monette 1992)", number(numbers["gvif"])),
                 ("GVIF^(1/(2·df))", number(numbers["gvif_root"], 3)),
             ]
-        figures.append((f"VIF of the exposure in crude + {node_id}", number(vif_x)))
-        figures += _own(node_id, getattr(ev, "own_coef", None), getattr(ev, "own_ci", None))
+        figures.append((f"VIF of the exposure in crude + {name}", number(vif_x)))
+        figures += _own(name, getattr(ev, "own_coef", None), getattr(ev, "own_ci", None))
         for name, comparison in (("adding", added), ("dropping", dropped)):
             parts = getattr(comparison, "se_ratio_parts", None)
             if parts:
@@ -233,7 +254,7 @@ def node_diagnostics(
         role=role_words(getattr(facts, "role", None)),
         verdict=getattr(verdict, "label", None) or ("Pending" if result is None else DASH),
         reason=getattr(verdict, "reason", "") or "",
-        checklist=checklist(node_id, result) if result else ("Waiting for the analysis.",),
+        checklist=checklist(node_id, result, labels) if result else ("Waiting for the analysis.",),
         models=tuple(models),
         figures=tuple(figures),
         effect_measure=getattr(result, "effect_measure", "") or "",
@@ -241,6 +262,7 @@ def node_diagnostics(
         note=node.note,
         column=node.column,
         exposure_column=exposure.column if exposure else None,
+        exposure_label=exposure.label if exposure else "",
         categorical=ctype in ("binary", "categorical"),
         numbers=numbers,
     )
@@ -283,7 +305,7 @@ def endpoint_diagnostics(
     sample = getattr(result, "sample", None) if result else None
     prof = (profiles or {}).get(node.column) if node.column else None
     missing_pct = getattr(prof, "missing_pct", None)
-    missing = f"{missing_pct:.1f}% missing" if is_number(missing_pct) else DASH
+    missing = f"{missing_pct:.1f}% of rows in the file" if is_number(missing_pct) else DASH
     lines = []
     if node.column is None:
         lines.append(f"{node.label} has no data column yet: bind one in the data panel.")
@@ -291,11 +313,12 @@ def endpoint_diagnostics(
         rows, used = getattr(sample, "rows", None), getattr(sample, "used", None)
         if rows is not None and used is not None:
             lines.append(
-                f"Analytic sample: {used} of {rows} rows (complete cases on every candidate)."
+                f"Analytic sample: {used:,} of {rows:,} rows (complete cases on every "
+                "candidate covariate)."
             )
         lost = (getattr(sample, "lost_by_column", None) or {}).get(node.column or "")
         if lost:
-            lines.append(f"Rows lost to missing {node.column}: {lost}.")
+            lines.append(f"Rows lost to missing {node.column}: {lost:,}.")
     if result is not None and getattr(result, "effect_measure", None):
         lines.append(f"Effect measure: {result.effect_measure}.")
     return EndpointDiagnostics(

@@ -52,6 +52,12 @@ FAMILY_LABELS: dict[str, str] = {
 }
 
 _MODEL_HEADERS = ("Model", "Estimate", "95% CI", "Change %", "SE inflation %")
+_MODEL_TIPS = {
+    3: "Change in the exposure estimate, this model against the same model without the "
+    "covariate (crude + C against crude; full against full − C).",
+    4: "Inflation of the exposure estimate's standard error, this model against the same "
+    "model without the covariate.",
+}
 _MAX_POINTS = 3000
 
 
@@ -162,6 +168,8 @@ class CovariateDialog(NodeDialog):
         self.checks.setWordWrap(True)
         self.checks.setTextFormat(Qt.TextFormat.RichText)
         self.models = _table(_MODEL_HEADERS)
+        for column, tip in _MODEL_TIPS.items():
+            self.models.horizontalHeaderItem(column).setToolTip(tip)
         self.figures = _table(("Collinearity", "Value"))
         self.figures.setMinimumHeight(160)
         self.messages = QLabel()
@@ -277,6 +285,7 @@ class CovariateDialog(NodeDialog):
             (profiles or {}).get(xcol), "type", ""
         )
         x_cat = x_type in ("binary", "categorical")
+        x_name = s.exposure_label or xcol
         if s.categorical and not x_cat:
             levels = sorted(data[ccol].unique(), key=str)
             ax.boxplot(
@@ -284,14 +293,14 @@ class CovariateDialog(NodeDialog):
                 tick_labels=[str(v) for v in levels],
             )
             ax.set_xlabel(s.label)
-            ax.set_ylabel(xcol)
+            ax.set_ylabel(x_name)
         elif x_cat and not s.categorical:
             levels = sorted(data[xcol].unique(), key=str)
             ax.boxplot(
                 [data.loc[data[xcol] == lv, ccol] for lv in levels],
                 tick_labels=[str(v) for v in levels],
             )
-            ax.set_xlabel(xcol)
+            ax.set_xlabel(x_name)
             ax.set_ylabel(s.label)
         elif x_cat and s.categorical:
             table = data.groupby([ccol, xcol]).size().unstack(fill_value=0)
@@ -302,19 +311,19 @@ class CovariateDialog(NodeDialog):
                     [str(v) for v in shares.index],
                     shares[col],
                     bottom=bottom,
-                    label=f"{xcol} = {col}",
+                    label=f"{x_name} = {col}",
                     color=["#56B4E9", "#E69F00", "#009E73", "#CC79A7"][i % 4],
                     hatch=["", "//", "..", "xx"][i % 4],
                     edgecolor="white",
                 )
                 bottom += shares[col].to_numpy()
             ax.set_xlabel(s.label)
-            ax.set_ylabel(f"share by {xcol}")
+            ax.set_ylabel(f"share by {x_name}")
             ax.legend(fontsize=8)
         else:
             ax.scatter(data[ccol], data[xcol], s=6, alpha=0.35, color="#0072B2", edgecolors="none")
             ax.set_xlabel(s.label)
-            ax.set_ylabel(xcol)
+            ax.set_ylabel(x_name)
         ax.set_title(f"{s.label} against the exposure", fontsize=10)
         self.data_canvas.draw_idle()
 
