@@ -123,6 +123,9 @@ class EvidenceEngine:
         # model start from a one-step update instead of from the bare parameters.
         self._glm_cov: dict[frozenset[str], np.ndarray] = {}
         self._glm_matrix: np.ndarray | None = None
+        # Information and score over every design column at a fitted model's
+        # parameters: the first Newton step of each model that adds terms to it.
+        self._glm_step: OrderedDict[frozenset[str], tuple[np.ndarray, np.ndarray]] = OrderedDict()
 
     # -- the summary ---------------------------------------------------------------
     @property
@@ -316,7 +319,50 @@ class EvidenceEngine:
                 params[keep] -= shift
                 params[drop] = 0.0
         lookup = dict(zip(old_names, params, strict=True))
-        return np.array([lookup.get(name, 0.0) for name in new_names])
+        start = np.array([lookup.get(name, 0.0) for name in new_names])
+        if intercept and wanted > best[1] and self.family in ("logistic", "risk_ratio"):
+            return self._added_start(best[1], old_cols, best[2], terms, start)
+        return start
+
+    def _added_start(
+        self,
+        parent: frozenset[str],
+        parent_cols: list[int],
+        parent_params: np.ndarray,
+        terms: tuple[str, ...],
+        start: np.ndarray,
+    ) -> np.ndarray:
+        """The first Newton step from (parent's fit, 0 for the added terms).
+
+        Every model that adds terms to the same fitted model starts from the
+        same linear predictor, so one weighted pass over the whole design serves
+        them all: each takes its own sub-blocks of the information and score.
+        """
+        from covariscope.analysis.glm import DIVERGE_SD, information_and_score
+
+        full = self._intercept_matrix()
+        hit = self._glm_step.get(parent)
+        if hit is None:
+            b = np.zeros(full.shape[1])
+            b[[0, *(c + 1 for c in parent_cols)]] = parent_params
+            assert self.design.y is not None
+            hit = information_and_score(
+                full, self.design.y, self.family, b, offset=self.design.offset
+            )
+            _remember(self._glm_step, parent, hit, 4)
+        H, score = hit
+        cols = self.columns(terms)
+        idx = [0, *(c + 1 for c in cols)]
+        try:
+            step = np.linalg.solve(H[np.ix_(idx, idx)], score[idx])
+        except np.linalg.LinAlgError:
+            return start
+        candidate = start + step
+        sd = np.concatenate([[0.0], self._column_sd()[cols]])
+        # A step that runs far out (near separation) is left to the damped loop.
+        if not np.all(np.isfinite(candidate)) or np.any(np.abs(candidate) * sd > DIVERGE_SD / 2):
+            return start
+        return candidate
 
     def _fit_linear(self, terms: tuple[str, ...], names: list[str]) -> Fit:
         res = self.ols(terms)

@@ -39,6 +39,7 @@ __all__ = [
     "detect_separation",
     "fit_glm",
     "fit_glm_path",
+    "information_and_score",
     "newton_glm",
 ]
 
@@ -90,6 +91,8 @@ class GlmPath:
     cov: Array | None
     iterations: int
     converged: bool
+    #: deviance at the last Newton point (before the final step); after steps
+    #: that skip its evaluation (see `newton_glm`) a second-order estimate
     deviance: float
     mu: Array
     #: why the loop stopped early ("" when it converged or ran out of iterations)
@@ -350,6 +353,7 @@ def newton_glm(
     """
     ylogy = float(np.sum(special.xlogy(y, y) - y)) if family == "risk_ratio" else 0.0
     b = _start(family, X, y, offset) if start is None else np.array(start, dtype=np.float64)
+    fresh = True  # whether dev is the deviance at b, or only its estimate
     scale = np.std(X, axis=0) if scale is None else np.asarray(scale, dtype=np.float64)
     eta = X @ b if offset is None else X @ b + offset
     mu, w, dev = _mean_and_deviance(family, y, eta, ylogy)
@@ -357,15 +361,6 @@ def newton_glm(
     buf = np.empty((min(X.shape[0], CHUNK_ROWS), X.shape[1]), order="F" if fortran else "C")
     cov: Array | None = None
     stop = ""
-    fresh = True  # whether dev is the deviance at b, or only an estimate
-
-    def at_b(path: GlmPath) -> GlmPath:
-        # Report the exact deviance at b even when the last steps skipped it.
-        if fresh:
-            return path
-        exact = _mean_and_deviance(family, y, eta, ylogy)[2]
-        return GlmPath(path.params, path.cov, path.iterations, path.converged, exact, mu, path.stop)
-
     for it in range(1, max_iter + 1):
         H = _crossprod(X, w, buf)
         c = _chol(H)
@@ -373,7 +368,7 @@ def newton_glm(
             # Weights are positive, so X'WX is singular exactly when X is.
             return GlmPath(b, None, it, False, dev, mu, "aliased", H)
         if c is None:
-            return at_b(GlmPath(b, None, it, False, dev, mu, "singular"))
+            return GlmPath(b, None, it, False, dev, mu, "singular")
         score = X.T @ (y - mu)
         step_, _ = dpotrs(c, score[:, None], lower=0)
         delta = step_[:, 0]
@@ -384,7 +379,7 @@ def newton_glm(
         # square, weighted), or the information — and so the standard errors,
         # which are taken here, before that step — would still be off by as much.
         if decrement <= tol * (abs(dev) + 0.1) and decrement <= SE_TOL**2 * float(np.sum(w)):
-            return at_b(GlmPath(b + delta, cov, it, True, dev, mu))
+            return GlmPath(b + delta, cov, it, True, dev, mu)
         X_delta = X @ delta
         if float(np.max(np.abs(X_delta))) <= SAFE_STEP:
             # Each row's negative log-likelihood φ(η) has |φ‴| ≤ φ″ in both
@@ -397,6 +392,8 @@ def newton_glm(
             b = b + delta
             eta = eta + X_delta
             mu, w, _ = _mean_and_deviance(family, y, eta, ylogy, deviance=False)
+            # Second-order estimate of the new deviance (off by O(t·λ²)); an
+            # exact one is taken before any step that needs checking.
             dev, fresh = dev - decrement, False
         else:
             if not fresh:
@@ -414,8 +411,28 @@ def newton_glm(
             b, eta, mu, w, dev = b_new, eta_new, mu_new, w_new, dev_new
         if np.any(np.abs(b[1:]) * scale[1:] > DIVERGE_SD):
             stop = "diverging"
-            return at_b(GlmPath(b, cov, it, False, dev, mu, stop))
-    return at_b(GlmPath(b, cov, max_iter, False, dev, mu, stop))
+            return GlmPath(b, cov, it, False, dev, mu, stop)
+    return GlmPath(b, cov, max_iter, False, dev, mu, stop)
+
+
+def information_and_score(
+    X: Array, y: Array, family: str, params: Array, *, offset: Array | None = None
+) -> tuple[Array, Array]:
+    """Fisher information X'WX and score X'(y − μ) at ``params``.
+
+    One pass gives the Newton step from ``params`` for every model whose
+    columns are a subset of X's: take the sub-blocks (the evidence engine
+    starts all "crude + C" models from the crude fit this way).
+
+    >>> import numpy as np
+    >>> X = np.column_stack([np.ones(4), [0, 1, 0, 1.0]])
+    >>> H, g = information_and_score(X, np.array([0, 1, 1, 1.0]), "logistic", np.zeros(2))
+    >>> H.tolist(), g.tolist()
+    ([[1.0, 0.5], [0.5, 0.5]], [1.0, 1.0])
+    """
+    eta = X @ params if offset is None else X @ params + offset
+    mu, w, _ = _mean_and_deviance(family, y, eta, 0.0, deviance=False)
+    return _crossprod(X, w), X.T @ (y - mu)
 
 
 # ------------------------------------------------------------------ separation
