@@ -15,6 +15,7 @@ from __future__ import annotations
 
 import datetime as _dt
 import math
+import re
 from collections.abc import Iterable, Mapping, Sequence
 from dataclasses import dataclass
 from itertools import pairwise
@@ -35,6 +36,7 @@ __all__ = [
     "format_interval",
     "format_number",
     "format_percent",
+    "name_nodes",
     "role_text",
 ]
 
@@ -262,6 +264,81 @@ def _one_line(text: str) -> str:
     return " ".join(str(text).split())
 
 
+_SET = re.compile(r"\{([^{}]*)\}")
+_PATH = re.compile(r"[\w|]+(?: [–—-] [\w|]+)+")
+# "Review: ", "Keep one of {a, b}: ": the verdict's own word, already in the table
+_VERDICT_LEAD = re.compile(r"^[A-Z][a-z]+(?: [a-z]+)*(?: \{[^{}]*\})?: ")
+
+
+def _name(token: str, label_of: Mapping[str, str]) -> str | None:
+    """A node id (or a ``|``-joined measure group) as labels; None if not ids."""
+    parts = token.split("|")
+    if all(p in label_of for p in parts):
+        return " | ".join(label_of[p] for p in parts)
+    return None
+
+
+def name_nodes(text: str, label_of: Mapping[str, str]) -> str:
+    """Put labels where the engine's sentences name nodes by id: in sets
+    (``{a, b}``) and paths (``a – b – c``).  Words that are not ids, or
+    sequences that are not all ids, are left as they are.
+
+    >>> name_nodes("leaves {age, inc} and x – y open", {"age": "Age", "inc": "Income",
+    ...            "x": "Dust", "y": "Lung"})
+    'leaves {Age, Income} and Dust – Lung open'
+    """
+
+    def as_set(m: re.Match[str]) -> str:
+        members = [t.strip() for t in m.group(1).split(",")]
+        names = [_name(t, label_of) for t in members]
+        if not members or any(n is None for n in names):
+            return m.group(0)
+        return "{" + ", ".join(n for n in names if n) + "}"
+
+    def as_path(m: re.Match[str]) -> str:
+        tokens = re.split(r"( [–—-] )", m.group(0))
+        out = []
+        for t in tokens:
+            if t.strip() in ("–", "—", "-"):
+                out.append(t)
+                continue
+            n = _name(t, label_of)
+            if n is None:
+                return m.group(0)
+            out.append(n)
+        return "".join(out)
+
+    return _PATH.sub(as_path, _SET.sub(as_set, text))
+
+
+def _finding(text: str, label_of: Mapping[str, str]) -> str:
+    """``"node_id: Review: reason"`` → ``"Label: reason"`` with ids named."""
+    text = _one_line(text)
+    head, sep, rest = text.partition(": ")
+    if sep and head in label_of:
+        text = f"{label_of[head]}: {_VERDICT_LEAD.sub('', rest, count=1)}"
+    return name_nodes(text, label_of)
+
+
+def _page_messages(
+    result: Any, label_of: Mapping[str, str], *, shown_insufficient: bool
+) -> tuple[str, ...]:
+    """The engine's messages minus those the page already says in its own
+    sections (the sample, an insufficient set, the cautions)."""
+    sample_message = _one_line(_get(_get(result, "sample"), "message", "") or "")
+    out: list[str] = []
+    for raw in _get(result, "messages", ()) or ():
+        text = _one_line(raw)
+        if not text or text == sample_message:
+            continue  # the Data section gives rows used and lost
+        if shown_insufficient and text.startswith("The proposed set") and "not sufficient" in text:
+            continue  # the Adjustment set section says so, with the open paths
+        if "cannot fully test" in text and "unmeasured confounding" in text:
+            continue  # the Cautions section
+        out.append(name_nodes(text, label_of))
+    return tuple(dict.fromkeys(out))
+
+
 def build_content(result: Any, project: Any, *, today: _dt.date | None = None) -> RationaleContent:
     """Build every string of the rationale page.
 
@@ -464,8 +541,8 @@ def build_content(result: Any, project: Any, *, today: _dt.date | None = None) -
         line = f"{_labels(group, label_of)}: "
         line += f"kept {_labels(kept, label_of)}." if kept else "none kept."
         collinearity.append(line)
-    disagreements = tuple(_one_line(s) for s in (_get(result, "disagreements", ()) or ()))
-    messages = tuple(_one_line(s) for s in (_get(result, "messages", ()) or ()))
+    disagreements = tuple(_finding(s, label_of) for s in (_get(result, "disagreements", ()) or ()))
+    messages = _page_messages(result, label_of, shown_insufficient=sufficient is False)
 
     thresholds = dict(_get(result, "thresholds", {}) or {})
     if not thresholds:

@@ -251,51 +251,64 @@ def _two_line_width(text: str, fm: QFontMetricsF) -> float:
 def _table_columns(
     content: RationaleContent, fonts: Fonts, width: float, size: float, compact: bool
 ) -> list[float] | None:
-    """Column widths: numbers and verdicts get what they need (a verdict is
-    never cut), labels and roles a capped share, the note the rest."""
+    """Column widths.  Numbers get what they need and are never cut.  Labels,
+    roles and verdicts first get one full line each; when that is too wide
+    the note gives way to a floor, then verdicts, roles and labels go down to
+    two lines (never in ``compact``, where every cell has one line), and only
+    then do labels and roles go down to a floor and get an ellipsis."""
     fm = fonts.metrics(size)
     fb = fonts.metrics(size, bold=True)
     pad = fm.averageCharWidth() * 1.2
     headers = content.covariate_headers
     rows = content.covariates
 
-    def longest(values: Sequence[str], metrics: QFontMetricsF) -> float:
-        return max((metrics.horizontalAdvance(v) for v in values), default=0.0)
+    def full(i: int, values: Sequence[str], metrics: QFontMetricsF = fm) -> float:
+        need = max((metrics.horizontalAdvance(v) for v in values), default=0.0)
+        return max(_two_line_width(headers[i], fb), need) + pad
 
-    def column(
-        i: int, values: Sequence[str], cap: float, metrics: QFontMetricsF = fm, lines: int = 1
-    ) -> float:
-        head = _two_line_width(headers[i], fb)
-        need = longest(values, metrics)
-        if cap and need > cap:
-            wrapped = max((_two_line_width(v, metrics) for v in values), default=0.0)
-            need = cap if lines == 1 else max(cap, wrapped)
-        return max(head, need) + pad
+    def two_lines(i: int, values: Sequence[str], metrics: QFontMetricsF = fm) -> float:
+        need = max((_two_line_width(v, metrics) for v in values), default=0.0)
+        return max(_two_line_width(headers[i], fb), need) + pad
 
-    lines = 1 if compact else 2
+    fi = fonts.metrics(size, italic=True)
+    labels = [r.label for r in rows]
+    # unmeasured covariates are set in italics, which may run wider
+    italic_labels = [r.label for r in rows if not r.measured]
+    roles = [r.role for r in rows]
+    verdicts = [r.verdict for r in rows]
     widths = [
-        column(0, [r.key for r in rows], 0),
-        column(1, [r.label for r in rows], width * (0.12 if compact else 0.15), lines=lines),
-        column(2, [r.sets for r in rows], 0),
-        column(3, [r.role for r in rows], width * (0.14 if compact else 0.10), lines=lines),
-        column(4, [r.change for r in rows], 0),
-        column(5, [r.se_inflation for r in rows], 0),
-        column(6, [r.vif for r in rows], 0),
-        column(7, [r.verdict for r in rows], 0 if compact else width * 0.18, fb, lines),
+        max(full(0, [r.key for r in rows]), fm.horizontalAdvance("00") + pad),
+        max(full(1, labels), full(1, italic_labels, fi)),
+        full(2, [r.sets for r in rows]),
+        full(3, roles),
+        full(4, [r.change for r in rows]),
+        full(5, [r.se_inflation for r in rows]),
+        full(6, [r.vif for r in rows]),
+        full(7, verdicts, fb),
     ]
-    widths[0] = max(widths[0], fm.horizontalAdvance("00") + pad)
-    # the note column needs room only for the notes there are
-    note_min = min(width * 0.15, column(8, [r.note for r in rows], 0))
-    excess = sum(widths) + note_min - width
+    # the note column needs room only for the notes there are; long notes are
+    # cut first, down to a stub that still shows how the note begins
+    note_need = full(8, [r.note for r in rows])
+    note_floor = min(note_need, width * (0.10 if compact else 0.15))
+    floors: list[tuple[int, float]] = []
+    if not compact:
+        floors += [
+            (7, two_lines(7, verdicts, fb)),
+            (3, two_lines(3, roles)),
+            (1, max(two_lines(1, labels), two_lines(1, italic_labels, fi))),
+        ]
+    floor_pt = {i: max(width * 0.08, _two_line_width(headers[i], fb) + pad) for i in (1, 3)}
+    floors += [(1, floor_pt[1]), (3, floor_pt[3])]
+
+    excess = sum(widths) + note_floor - width
+    for i, floor in floors:
+        if excess <= 0:
+            break
+        give = min(excess, max(0.0, widths[i] - floor))
+        widths[i] -= give
+        excess -= give
     if excess > 0:
-        # numbers and verdicts are never cut: labels and roles give way, to a floor
-        flexible = (1, 3)
-        floors = {i: max(width * 0.08, _two_line_width(headers[i], fb) + pad) for i in flexible}
-        room = sum(max(0.0, widths[i] - floors[i]) for i in flexible)
-        if room < excess:
-            return None
-        for i in flexible:
-            widths[i] -= excess * max(0.0, widths[i] - floors[i]) / room
+        return None
     widths.append(width - sum(widths))
     return widths
 

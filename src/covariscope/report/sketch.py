@@ -55,7 +55,6 @@ def draw_sketch(
     # labels shrink with crowding, but not below a size that still reads
     size = max(_MIN_LABEL_PT, min(label_pt, label_pt * math.sqrt(14 / max(len(nodes), 1))))
     fm = fonts.metrics(size)
-    fmb = fonts.metrics(size, bold=True)
     pad = fm.averageCharWidth() * 0.6
     line_h = fm.lineSpacing()
     max_w = max(rect.width() / 4.5, fm.averageCharWidth() * 6)
@@ -76,33 +75,54 @@ def draw_sketch(
         for n in nodes
     }
 
-    # each label may use the room up to its nearest neighbour on the same level
+    # each label may use the room up to its nearest neighbour on the same level;
+    # exposure and outcome are sized first (they always show their label) and
+    # the others keep clear of them
     boxes: dict[str, QRectF] = {}
     lines_of: dict[str, list[str]] = {}
-    for n in nodes:
+    size_of: dict[str, float] = {}
+    gap = fm.averageCharWidth() * 0.5
+    key_kinds = ("exposure", "outcome")
+    ordered = sorted(nodes, key=lambda n: n.kind not in key_kinds)
+    for n in ordered:
         c = centres[n.id]
+        main = n.kind in key_kinds
         room = max_w
         for m in nodes:
             if m.id == n.id:
                 continue
             d = centres[m.id]
-            if abs(d.y() - c.y()) < box_h:
-                room = min(room, abs(d.x() - c.x()) * 0.92)
+            if abs(d.y() - c.y()) >= box_h:
+                continue
+            dx = abs(d.x() - c.x())
+            if m.id in boxes:  # already placed: keep clear of its box
+                room = min(room, 2 * (dx - boxes[m.id].width() / 2 - gap))
+            elif not (main and m.kind not in key_kinds):
+                room = min(room, dx * 0.92)
         room = max(room, fm.averageCharWidth() * 4)
-        metrics = fmb if n.kind in ("exposure", "outcome") else fm
-        if n.kind in ("exposure", "outcome"):
+        if main:
             room = max(room, rect.width() / 4.5)
-        lines = wrap_text(n.label, metrics, room - 2 * pad, 2, break_words=False)
-        cut = not lines or any(line.endswith("…") for line in lines)
+        # a crowded label first gets a slightly smaller type, then its row number
+        for trial in (size, size * 0.88, size * 0.78):
+            trial = max(_MIN_LABEL_PT, trial)
+            metrics = fonts.metrics(trial, bold=main, italic=not n.measured)
+            pad_t = metrics.averageCharWidth() * 0.6
+            lines = wrap_text(n.label, metrics, room - 2 * pad_t, 2, break_words=False)
+            cut = not lines or any(line.endswith("…") for line in lines)
+            if not cut:
+                break
         if cut and n.key:
             # a crowded diagram names the node by its row in the covariate table
+            trial = size
+            metrics = fonts.metrics(trial, bold=main, italic=not n.measured)
             lines = [n.key]
         elif not lines:
             lines = [n.id[:1]]
         width = max(metrics.horizontalAdvance(line) for line in lines) + 2 * pad
-        height = len(lines) * line_h + 2 * pad
+        height = len(lines) * metrics.lineSpacing() + 2 * pad
         boxes[n.id] = QRectF(c.x() - width / 2, c.y() - height / 2, width, height)
         lines_of[n.id] = lines
+        size_of[n.id] = trial
 
     # arrows first, so boxes cover their ends
     pen = QPen(_INK, 0.6 * device_pt)
@@ -143,18 +163,25 @@ def draw_sketch(
         if n.adjusted and not n.measured:
             painter.setPen(QPen(_INK, 1.3 * device_pt, Qt.PenStyle.DashLine))
             painter.drawRect(box)
-        bold = n.kind in ("exposure", "outcome")
+        bold = n.kind in key_kinds
         italic = not n.measured
-        font, metrics = fonts.get(size, bold, italic)
+        font, metrics = fonts.get(size_of[n.id], bold, italic)
         painter.setFont(font)
         painter.setPen(_INK)
         for k, line in enumerate(lines_of[n.id]):
             w = metrics.horizontalAdvance(line)
-            top = box.top() + pad + k * line_h
+            top = box.top() + pad + k * metrics.lineSpacing()
             x = box.center().x() - w / 2
             painter.drawText(QPointF(x, top + metrics.ascent()), line)
             items.append(
-                TextItem(QRectF(x, top, w, metrics.height()), line, size, bold, italic, "diagram")
+                TextItem(
+                    QRectF(x, top, w, metrics.height()),
+                    line,
+                    size_of[n.id],
+                    bold,
+                    italic,
+                    "diagram",
+                )
             )
     painter.restore()
     return items
