@@ -83,3 +83,35 @@ def test_origin_is_top_left(origin):
     pos = layered_layout(d, origin=origin)
     assert min(p[0] for p in pos.values()) == origin[0]
     assert min(p[1] for p in pos.values()) == origin[1]
+
+
+def test_a_tall_layer_wraps_into_sub_columns():
+    """Forty nodes, thirty of them causes of both exposure and outcome: the
+    layout wraps the tall layer so it is not a single column forty rows high."""
+    arrows = [("x", "y")]
+    arrows += [(f"c{i}", "x") for i in range(30)] + [(f"c{i}", "y") for i in range(30)]
+    arrows += [("x", f"m{i}") for i in range(4)] + [(f"m{i}", "y") for i in range(4)]
+    arrows += [("y", f"d{i}") for i in range(4)]
+    d = _diagram(arrows)
+    assert len(d) == 40
+    pos = layered_layout(d, origin=(0.0, 0.0), max_rows=8)
+    per_column: dict[float, int] = {}
+    for x, _ in pos.values():
+        per_column[x] = per_column.get(x, 0) + 1
+    assert max(per_column.values()) <= 8
+    width = max(p[0] for p in pos.values()) - min(p[0] for p in pos.values())
+    height = max(p[1] for p in pos.values()) - min(p[1] for p in pos.values())
+    assert height <= 8 * 100.0
+    assert width >= height / 2  # no longer tall and thin
+    for a, b in d.arrows:
+        assert pos[a][0] < pos[b][0], (a, b)
+    assert pos["x"][1] == pos["y"][1]
+    assert len(set(pos.values())) == len(pos)
+    unwrapped = layered_layout(d, origin=(0.0, 0.0), max_rows=100)
+    assert max(p[1] for p in unwrapped.values()) > 2 * height
+
+
+def test_small_layers_are_not_wrapped():
+    d = _diagram([(f"c{i}", "x") for i in range(8)] + [("x", "y")])
+    pos = layered_layout(d, origin=(0.0, 0.0), max_rows=8)
+    assert len({pos[f"c{i}"][0] for i in range(8)}) == 1

@@ -3,7 +3,10 @@
 Nodes go into columns so that every arrow points rightwards (causes before
 effects), the exposure sits as far left and the outcome as far right as the
 arrows allow, and the order inside each column follows the barycenter
-heuristic to keep crossings few.
+heuristic to keep crossings few.  A column taller than ``max_rows`` is
+wrapped into several narrow sub-columns side by side (its nodes dealt out in
+their vertical order, each sub-column shifted by a fraction of a row), so a
+diagram with many causes of the exposure stays about as wide as it is tall.
 
 Reference: K. Sugiyama, S. Tagawa and M. Toda (1981), "Methods for visual
 understanding of hierarchical system structures", IEEE Transactions on
@@ -12,6 +15,8 @@ ordering within layers).
 """
 
 from __future__ import annotations
+
+import math
 
 import networkx as nx
 
@@ -70,12 +75,15 @@ def layered_layout(
     diagram: Diagram,
     spacing: tuple[float, float] = (200.0, 100.0),
     origin: tuple[float, float] | None = None,
+    max_rows: int = 8,
 ) -> dict[str, tuple[float, float]]:
     """New (x, y) positions for every node.
 
     ``spacing`` is the distance between columns and between rows; ``origin``
     the top-left position of the result (default: the top-left of the nodes'
-    current positions, so the drawing does not jump away on screen).
+    current positions, so the drawing does not jump away on screen).  A
+    layer of more than ``max_rows`` nodes is wrapped into
+    ``ceil(size / max_rows)`` sub-columns.
 
     >>> from covariscope.model.diagram import Node
     >>> d = Diagram()
@@ -140,17 +148,44 @@ def layered_layout(
     for layer in order:
         place(columns[layer])
 
+    sub, start = _wrap(order, columns, rows, max(1, max_rows))
     if origin is None:
         origin = (min(n.x for n in diagram.nodes), min(n.y for n in diagram.nodes))
     top = min(rows.values())
     dx, dy = spacing
     return {
         n: (
-            float(round(origin[0] + order.index(layers[n]) * dx)),
+            float(round(origin[0] + (start[layers[n]] + sub[n]) * dx)),
             float(round(origin[1] + (rows[n] - top) * dy)),
         )
         for n in diagram.node_ids
     }
+
+
+def _wrap(
+    order: list[int], columns: dict[int, list[str]], rows: dict[str, float], max_rows: int
+) -> tuple[dict[str, int], dict[int, int]]:
+    """Deal the nodes of each too-tall layer into sub-columns; rewrites
+    ``rows`` in place and returns each node's sub-column and each layer's
+    first column.  Nodes of one layer share no arrow, so every arrow still
+    points rightwards; the node on the main row (exposure or outcome) keeps it."""
+    sub: dict[str, int] = {}
+    start: dict[int, int] = {}
+    first = 0
+    for layer in order:
+        members = sorted(columns[layer], key=lambda n: rows[n])
+        k = math.ceil(len(members) / max_rows)
+        start[layer] = first
+        first += max(k, 1)
+        if k <= 1:
+            sub.update(dict.fromkeys(members, 0))
+            continue
+        centre = next((j for j, n in enumerate(members) if rows[n] >= 0), len(members))
+        for j, n in enumerate(members):
+            rank = j - centre
+            sub[n] = rank % k
+            rows[n] = rank / k
+    return sub, start
 
 
 def _barycenter(node: str, neighbours: dict[str, list[str]], rows: dict[str, float]) -> float:
