@@ -11,6 +11,7 @@ fit, findings lists and finally table rows are cut, each cut said on the page.
 
 from __future__ import annotations
 
+import math
 from collections.abc import Sequence
 from dataclasses import dataclass, field
 
@@ -91,7 +92,11 @@ class Fonts:
         key = (size_pt, bold, italic)
         if key not in self._cache:
             font = QFont(self.family)
-            font.setPointSizeF(size_pt)
+            # the device draws whole pixels: round up, so text set at the 7 pt
+            # floor is never written smaller than 7 pt (58.3 px at 600 dpi
+            # would otherwise become 58 px, 6.96 pt)
+            dpi = self.device.logicalDpiY() or 72
+            font.setPixelSize(max(1, math.ceil(size_pt * dpi / 72.0 - 1e-6)))
             font.setBold(bold)
             font.setItalic(italic)
             # kerning and hinting differences between measuring and drawing stay
@@ -329,7 +334,8 @@ def _compose(
     )
     c = _Composer(plan, fonts, page.left(), page.top(), page.width())
     fm = fonts.metrics(body)
-    gap = fm.lineSpacing() * 0.6
+    # at the one-line floor the sections sit a little closer
+    gap = fm.lineSpacing() * (0.45 if note_lines == 0 else 0.6)
     small_gap = fm.lineSpacing() * 0.25
 
     # -- header --------------------------------------------------------------------
@@ -515,10 +521,12 @@ def plan_page(content: RationaleContent, page: QRectF, device: QPaintDevice) -> 
             attempt = _compose(content, page, device, body, low, notes, None, None)
             if attempt.height <= height:
                 return _grow(content, page, device, attempt, high)
+    # a smaller diagram before fewer findings: the findings are the argument
     for cap in _FINDING_CAPS:
-        attempt = _compose(content, page, device, MIN_BODY_PT, low, 0, cap, None)
-        if attempt.height <= height:
-            return _grow(content, page, device, attempt, high)
+        for share in (low, 0.14):
+            attempt = _compose(content, page, device, MIN_BODY_PT, share, 0, cap, None)
+            if attempt.height <= height:
+                return _grow(content, page, device, attempt, high)
     for share in (0.14, 0.10):
         attempt = _compose(content, page, device, MIN_BODY_PT, share, 0, _FINDING_CAPS[-1], None)
         if attempt.height <= height:
