@@ -38,10 +38,14 @@ def test_demo_output_validates(schema, capsys):
     assert out["evalue"]["estimate"] >= 1
 
 
-def test_cox_output_validates(schema, capsys):
-    out = _check(capsys, str(ROOT / "demo_data" / "demo_project.json"), "--family", "cox")
+@pytest.mark.parametrize("family", ["logistic", "risk_ratio", "cox"])
+def test_ratio_family_output_validates(schema, capsys, family):
+    out = _check(capsys, str(ROOT / "demo_data" / "demo_project.json"), "--family", family)
     jsonschema.validate(out, schema)
+    assert out["family"] == family
     assert out["estimates"]["recommended"]["ratio"] is not None
+    assert out["covariates"]["age"]["added"]["change_pct_ratio"] is not None
+    assert out["evalue"]["conversion"]
 
 
 def test_diagram_without_data_validates(schema, capsys, tmp_path):

@@ -75,7 +75,17 @@ def test_every_planted_role_and_verdict(linear):
     group = linear.verdicts["income"]
     assert group.group == ("area", "income")
     assert group.suggested in ("area", "income")
-    assert "dust – prior_job – screen – family_hist – lungfn" in linear.verdicts["screen"].reason
+    # Prose names variables by their labels (the report's table prints labels).
+    screen = linear.verdicts["screen"].reason
+    assert (
+        "Dust index – Prior dusty job – Entry screen score – Family history – Lung function"
+        in screen
+    )
+    assert "{Area deprivation, Income}" in group.reason
+    assert "each member alone gives a sufficient set with {Age}" in group.reason
+    assert "is suggested because" in group.reason
+    assert linear.verdicts["early_life"].reason.count("Area deprivation | Income") == 1
+    assert any(d.startswith("Leisure activity: Review") for d in linear.disagreements)
     for v in linear.verdicts.values():
         assert v.reason.endswith(".")
         assert ". " not in v.reason  # one sentence
@@ -129,3 +139,16 @@ def test_written_demo_runs_from_its_new_folder(tmp_path):
     assert r.data_name == "demo_cohort.csv"
     assert not any("changed" in m for m in r.messages)
     assert r.verdicts["activity"].code == "review"
+
+
+def test_saved_choice_within_a_group_takes_effect():
+    project = load_project(DEMO / "demo_project.json")
+    free = run_study(project)
+    other = "area" if free.verdicts["income"].suggested == "income" else "income"
+    project.analysis.keep_choices["area|income"] = other
+    chosen = run_study(project)
+    assert other in chosen.recommended
+    assert chosen.verdicts["income"].suggested == other
+    assert chosen.verdicts["area"].suggested == other
+    assert "saved choice" in chosen.verdicts["area"].reason
+    assert "saved choice" in chosen.recommended_reason

@@ -157,3 +157,25 @@ def test_progress_is_reported():
     assert seen[0] == 0.0
     assert seen[-1] == 1.0
     assert seen == sorted(seen)
+
+
+def test_collinear_group_from_the_data_names_the_member_that_alone_suffices():
+    # a confounds on two paths (x ← a → y and x ← b ← a → y); b, nearly a copy of a
+    # in the data, closes only the second, so only a alone gives a sufficient set.
+    rng = np.random.default_rng(5)
+    n = 1500
+    a = rng.normal(size=n)
+    b = a + 0.2 * rng.normal(size=n)
+    x = 0.5 * a + 0.5 * b + rng.normal(size=n)
+    y = x + a + rng.normal(size=n)
+    frame = pd.DataFrame({"x": x, "y": y, "a": a, "b": b})
+    p = _project(["x", "y", "a", "b"], [("a", "x"), ("a", "y"), ("a", "b"), ("b", "x"), ("x", "y")])
+    r = run_study(p, table=_table(frame))
+    assert r.collinear_groups == (("a", "b"),)
+    assert r.recommended == ("a",)
+    v = r.verdicts["b"]
+    assert v.code == "keep_one_of"
+    assert v.suggested == "a"
+    assert "only a alone gives a sufficient set (b alone does not)" in v.reason
+    r2 = float(np.corrcoef(a, b)[0, 1] ** 2)  # outside reference: numpy's correlation
+    assert f"their R² is {r2:.3g} against the guide 0.9" in v.reason

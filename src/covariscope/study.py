@@ -116,6 +116,43 @@ def _would_close(da: DiagramAnalysis, node: str) -> tuple[tuple[str, ...], ...]:
     return tuple(out)
 
 
+def _would_open(da: DiagramAnalysis, node: str) -> tuple[tuple[str, ...], ...]:
+    """Blocked backdoor paths on which ``node`` is a collider (or descends from one)."""
+    facts = da.roles[node]
+    paths = da.paths.paths
+    return tuple(
+        paths[i].nodes for i, collider in facts.on_paths if i < len(paths) and not paths[i].open
+    )
+
+
+def _group_why(
+    group: Sequence[str],
+    proxy_groups: Sequence[Sequence[str]],
+    r2_pairs: Mapping[tuple[str, str], float],
+    flagged: Sequence[Sequence[str]],
+    r2_guide: float,
+    names: Mapping[str, str],
+) -> str:
+    """Why confounders form a collinear group, as a clause naming the numbers."""
+    members = set(group)
+    reasons: list[str] = []
+    if any(len(members & set(g)) >= 2 for g in proxy_groups):
+        reasons.append("a proxy link joins them")
+    high = sorted(
+        ((r2, a, b) for (a, b), r2 in r2_pairs.items() if {a, b} <= members and r2 >= r2_guide),
+        reverse=True,
+    )
+    if high:
+        r2, a, b = high[0]
+        who = "their" if len(members) == 2 else f"the {names.get(a, a)}–{names.get(b, b)}"
+        reasons.append(f"{who} R² is {r2:.3g} against the guide {r2_guide:g}")
+    if any(len(members & set(d)) >= 2 for d in flagged):
+        reasons.append("they share a dimension with a high condition index")
+    if len(reasons) > 1:
+        return ", ".join(reasons[:-1]) + " and " + reasons[-1]
+    return reasons[0] if reasons else ""
+
+
 def _stands_for(G: nx.DiGraph, da: DiagramAnalysis, node: str) -> tuple[str, ...]:
     return tuple(
         sorted(
@@ -134,6 +171,51 @@ def _se_lookup(
         return fit.se if fit is not None and fit.ok else None
 
     return se_of
+
+
+def _suggest(
+    group: Sequence[str],
+    alone: Sequence[str],
+    *,
+    chosen: str | None,
+    recommended: Sequence[str],
+    proposed: Sequence[str],
+    minimal: Sequence[tuple[str, ...]],
+    se_of: Callable[[tuple[str, ...]], float | None],
+    names: Mapping[str, str],
+) -> tuple[str | None, str]:
+    """The member of a collinear group to keep, and why (a clause)."""
+    if chosen in group:
+        return chosen, "it is the saved choice"
+    # The smallest SE among the minimal sets that hold the member and no other.
+    best_se: dict[str, float] = {}
+    for m in group:
+        ses = [
+            se
+            for s in minimal
+            if m in s and not (set(group) - {m}) & set(s)
+            for se in [se_of(s)]
+            if se is not None and math.isfinite(se)
+        ]
+        if ses:
+            best_se[m] = min(ses)
+    in_rec = [m for m in group if m in recommended]
+    pick = in_rec[0] if in_rec else (alone[0] if alone else None)
+    if pick is None:
+        return None, ""
+    in_proposed = [m for m in group if m in proposed]
+    if in_proposed == [pick]:
+        return pick, "it is the member in the proposed set"
+    others = {m: se for m, se in best_se.items() if m != pick}
+    if pick in best_se and others:
+        against = ", ".join(f"{se:.4g} with {names.get(m, m)}" for m, se in sorted(others.items()))
+        return pick, (
+            "its set gives the exposure estimate the smallest standard error "
+            f"({best_se[pick]:.4g}, against {against})"
+        )
+    if pick in in_rec:
+        return pick, "it is the member in the recommended set"
+    return pick, "it alone gives a sufficient set"
 
 
 def _evalue(
@@ -207,6 +289,8 @@ def run_study(
     thresholds = dict(DEFAULT_THRESHOLDS)
     thresholds.update(project.analysis.thresholds)
     proposed = tuple(p for p in project.proposed if p in diagram)
+    # Prose names a variable by its label; ids stay the keys of the JSON.
+    names = {n.id: n.label for n in diagram.nodes}
     messages: list[str] = []
 
     def report(fraction: float, text: str) -> None:
@@ -264,7 +348,7 @@ def run_study(
         unbound_proposed = [p for p in proposed if p not in bound]
         if unbound_proposed:
             messages.append(
-                f"The proposed set holds {', '.join(unbound_proposed)}, which has no data, so the "
+                f"The proposed set holds {', '.join(names[u] for u in unbound_proposed)}, which has no data, so the "
                 "proposed model is not fitted."
             )
         else:
@@ -332,11 +416,12 @@ def run_study(
         )
     if proposed and not da.review.sufficient:
         messages.append(
-            f"The proposed set {format_set(proposed)} is not sufficient: it leaves "
+            f"The proposed set {format_set(names[p] for p in proposed)} is not sufficient: it leaves "
             f"{len(da.review.open_paths)} backdoor path(s) open."
         )
 
     # Verdicts.
+    se_of = _se_lookup(evidence, set_names)
     base = list(recommended) if rec.members is not None else list(proposed)
     verdicts: dict[str, Verdict] = {}
     for c, facts in da.roles.items():
@@ -345,18 +430,21 @@ def run_study(
         group_alone: tuple[str, ...] = ()
         suggested: str | None = None
         why = ""
+        group_why = ""
         if group:
             rest = [m for m in base if m not in group]
             group_alone = tuple(m for m in group if is_sufficient(G, exposure, outcome, [*rest, m]))
-            key = "|".join(sorted(group))
-            chosen = project.analysis.keep_choices.get(key)
-            in_rec = [m for m in group if m in recommended]
-            if chosen in group:
-                suggested, why = chosen, "it is the saved choice"
-            elif in_rec:
-                suggested, why = in_rec[0], "it is the member in the recommended set"
-            elif group_alone:
-                suggested = group_alone[0]
+            group_why = _group_why(group, da.groups, r2_pairs, flagged, thresholds["r2"], names)
+            suggested, why = _suggest(
+                group,
+                group_alone,
+                chosen=project.analysis.keep_choices.get("|".join(sorted(group))),
+                recommended=recommended,
+                proposed=proposed,
+                minimal=minimal,
+                se_of=se_of,
+                names=names,
+            )
         stands = _stands_for(G, da, c) if facts.role == "confounder_proxy" else ()
         adjusted = tuple(s for s in stands if diagram.node(s).measured and s in base)
         f = Facts(
@@ -369,6 +457,7 @@ def run_study(
             in_proposed=c in proposed,
             group=group,
             group_alone=group_alone,
+            group_why=group_why,
             suggested=suggested,
             suggested_why=why,
             opened_paths=(
@@ -376,6 +465,7 @@ def run_study(
                 if facts.role == "collider" and c in proposed
                 else ()
             ),
+            would_open=_would_open(da, c) if facts.role == "collider" else (),
             stands_for=stands,
             stands_for_adjusted=adjusted,
             would_close=_would_close(da, c) if not node.measured else (),
@@ -383,7 +473,9 @@ def run_study(
             set_name="recommended" if rec.members is not None else "proposed",
             set_members=tuple(base),
         )
-        verdict = decide_verdict(f, _numbers(evidence, c), family=family, thresholds=thresholds)
+        verdict = decide_verdict(
+            f, _numbers(evidence, c), family=family, thresholds=thresholds, names=names
+        )
         if evidence is None and node.measured and verdict.code != "unmeasured":
             verdict = Verdict(
                 verdict.node,
@@ -416,7 +508,7 @@ def run_study(
             messages.append(problem)
 
     disagreements = tuple(
-        f"{v.node}: {v.reason}"
+        f"{names.get(v.node, v.node)}: {v.reason}"
         for v in verdicts.values()
         if v.code == "review"
         or (v.code == "exclude_measures_exposure" and v.node not in da.measures_exposure)
@@ -446,6 +538,7 @@ def run_study(
         data_name=data_name,
         data_sha256=data_sha,
         recommended_reason=rec.reason,
+        names=names,
     )
 
 

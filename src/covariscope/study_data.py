@@ -54,7 +54,7 @@ def prepare_evidence(
     y_col = diagram.node(outcome).column
     if x_col is None:
         messages.append(
-            f'The exposure "{exposure}" is not bound to a data column, so only the diagram is analysed; bind it to a column.'
+            f'The exposure "{diagram.node(exposure).label}" is not bound to a data column, so only the diagram is analysed; bind it to a column.'
         )
         return None, None, []
     cols = _outcome_columns(project, family, y_col)
@@ -66,7 +66,7 @@ def prepare_evidence(
         return None, None, []
     if family != "cox" and cols["outcome"] is None:
         messages.append(
-            f'The outcome "{outcome}" is not bound to a data column, so only the diagram is analysed; bind it to a column.'
+            f'The outcome "{diagram.node(outcome).label}" is not bound to a data column, so only the diagram is analysed; bind it to a column.'
         )
         return None, None, []
     bound: list[str] = []
@@ -75,7 +75,7 @@ def prepare_evidence(
             continue
         if node.column not in frame.columns:
             messages.append(
-                f'"{node.id}" is bound to the column "{node.column}", which is not in the data; it is left out.'
+                f'"{node.label}" is bound to the column "{node.column}", which is not in the data; it is left out.'
             )
             continue
         bound.append(node.id)
@@ -105,7 +105,7 @@ def prepare_evidence(
         kind = profiles[column].type
         if kind not in _TERM_TYPES:
             messages.append(
-                f'"{b}" is bound to "{column}", a {kind} column, which a model cannot use; '
+                f'"{diagram.node(b).label}" is bound to "{column}", a {kind} column, which a model cannot use; '
                 "it is left out (set its type if this is wrong)."
             )
             continue

@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 from collections.abc import Callable
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 from covariscope.analysis.evalue import EValue
 from covariscope.analysis.evidence import EvidenceTable
@@ -42,6 +42,12 @@ class StudyResult:
     data_name: str | None
     data_sha256: str | None
     recommended_reason: str = ""
+    #: Node id → label, for prose (ids stay the keys of the JSON).
+    names: dict[str, str] = field(default_factory=dict)
+
+    def name(self, node: str) -> str:
+        """The label prose uses for a node (a measure group by its members' labels)."""
+        return " | ".join(self.names.get(m, m) or m for m in node.split("|"))
 
     @property
     def has_data(self) -> bool:

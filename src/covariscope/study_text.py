@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import math
+from collections.abc import Iterable
 
 from covariscope.analysis.fits import RATIO_FAMILIES, Fit
 from covariscope.analysis.verdicts import format_set
@@ -35,8 +36,15 @@ def _estimate_line(name: str, fit: Fit | None, measure: str) -> str:
 def format_study_text(result: StudyResult) -> str:
     """The readable review that ``covariscope check`` prints."""
     t = result.thresholds
+    nm = result.name
+
+    def named(ids: Iterable[str]) -> str:
+        return format_set(nm(i) for i in ids)
+
+    width = min(24, max([9, *(len(nm(c)) for c in result.verdicts)]))
     lines = [
-        f"Effect of {result.exposure} on {result.outcome} ({result.family} model, {result.effect_measure})",
+        f"Effect of {nm(result.exposure)} on {nm(result.outcome)} ({result.family} model, "
+        f"{result.effect_measure})",
         f"Data: {result.data_name or 'none'}"
         + (
             f"; {result.sample.used} of {result.sample.rows} rows used (complete cases)"
@@ -49,7 +57,7 @@ def format_study_text(result: StudyResult) -> str:
     ]
     ev = result.evidence
     ratio = result.family in RATIO_FAMILIES
-    header = f"{'covariate':<14} {'role':<22} {'verdict':<26} {'change %':>9} {'SE infl %':>10} {'VIF':>7}"
+    header = f"{'covariate':<{width}} {'role':<22} {'verdict':<26} {'change %':>9} {'SE infl %':>10} {'VIF':>7}"
     lines += [header, "-" * len(header)]
     for c, v in result.verdicts.items():
         e = ev.covariates.get(c) if ev is not None else None
@@ -63,7 +71,7 @@ def format_study_text(result: StudyResult) -> str:
             se = e.added.se_inflation_pct
             vif = e.vif  # of the covariate in the full model; none when it is not a candidate
         lines.append(
-            f"{c:<14} {result.diagram.roles[c].role:<22} {v.code:<26} {_fmt(change, '+.1f'):>9} "
+            f"{nm(c)[:width]:<{width}} {result.diagram.roles[c].role:<22} {v.code:<26} {_fmt(change, '+.1f'):>9} "
             f"{_fmt(se, '+.1f'):>10} {_fmt(vif, '.2f'):>7}"
         )
     lines.append(
@@ -73,15 +81,13 @@ def format_study_text(result: StudyResult) -> str:
     lines.append("")
     lines.append("Reasons:")
     for c, v in result.verdicts.items():
-        lines.append(f"  {c}: {v.reason}")
+        lines.append(f"  {nm(c)}: {v.reason}")
     lines.append("")
     da = result.diagram
-    sets = (
-        "; ".join(format_set(s) for s in da.minimal_sets) or "none (not identified by adjustment)"
-    )
+    sets = "; ".join(named(s) for s in da.minimal_sets) or "none (not identified by adjustment)"
     lines.append(f"Minimal sufficient sets: {sets}")
     lines.append(
-        f"Proposed set: {format_set(result.proposed)} — "
+        f"Proposed set: {named(result.proposed)} — "
         + (
             "sufficient"
             if da.review.sufficient
@@ -90,20 +96,16 @@ def format_study_text(result: StudyResult) -> str:
     )
     if da.review.open_paths:
         for p in da.review.open_paths[:5]:
-            lines.append(f"    open: {' – '.join(p)}")
+            lines.append(f"    open: {' – '.join(nm(n) for n in p)}")
     if da.review.harmful:
-        lines.append(f"    harmful: {', '.join(da.review.harmful)}")
+        lines.append(f"    harmful: {', '.join(nm(n) for n in da.review.harmful)}")
     if da.review.unnecessary:
-        lines.append(f"    unnecessary: {', '.join(da.review.unnecessary)}")
-    lines.append(
-        f"Recommended set: {format_set(result.recommended) if result.recommended else 'none'}"
-    )
+        lines.append(f"    unnecessary: {', '.join(nm(n) for n in da.review.unnecessary)}")
+    lines.append(f"Recommended set: {named(result.recommended) if result.recommended else 'none'}")
     if result.recommended_reason:
         lines.append(f"    {result.recommended_reason}")
     if result.collinear_groups:
-        lines.append(
-            "Collinear groups: " + "; ".join(format_set(g) for g in result.collinear_groups)
-        )
+        lines.append("Collinear groups: " + "; ".join(named(g) for g in result.collinear_groups))
     lines.append("")
     if ev is not None:
         lines.append("Estimates:")

@@ -55,3 +55,25 @@ def test_pair_r2_matches_regressions():
     r2_c1_on_a = sm.OLS(c1, sm.add_constant(a)).fit().rsquared
     r2_c2_on_a = sm.OLS(c2, sm.add_constant(a)).fit().rsquared
     assert out[("a", "c")] == pytest.approx(max(r2_a_on_c, r2_c1_on_a, r2_c2_on_a))
+
+
+def test_saved_choice_stands_in_for_the_proposed_members_of_its_group():
+    se = {("a", "c"): 0.1, ("b", "c"): 0.3}.get
+    sets = [("a", "c"), ("b", "c")]
+    assert recommend_set(sets, proposed=["a", "c"], groups=[("a", "b")], se_of=se).members == (
+        "a",
+        "c",
+    )
+    r = recommend_set(
+        sets, proposed=["a", "c"], groups=[("a", "b")], keep_choices={"a|b": "b"}, se_of=se
+    )
+    assert r.members == ("b", "c")
+    assert "saved choice" in r.reason
+
+
+def test_reason_names_the_criterion_that_decided():
+    se = {("a", "c"): 0.1, ("b", "c"): 0.3}.get
+    r = recommend_set([("a", "c"), ("b", "c")], proposed=["a", "b", "c"], se_of=se)
+    assert "smallest standard error (0.1, against 0.3" in r.reason
+    r = recommend_set([("a", "c"), ("b", "c")], proposed=["b"], se_of=se)
+    assert "most members of the proposed set" in r.reason

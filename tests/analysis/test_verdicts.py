@@ -218,3 +218,73 @@ def test_ratio_families_read_the_ratio_scale():
 )
 def test_collinear_groups(kwargs, expected):
     assert collinear_groups(["a", "b", "c"], **kwargs) == expected
+
+
+def test_sentences_name_variables_by_their_labels():
+    names = {"u": "Early setting", "x": "Dust", "y": "Lung", "c": "Age", "a|b": "unused"}
+    f = Facts(
+        "u",
+        "confounder",
+        measured=False,
+        would_close=(("x", "a|b", "u", "y"),),
+        sufficient_without=True,
+        set_members=("c",),
+    )
+    v = decide_verdict(f, names={**names, "a": "Area", "b": "Income"})
+    assert v.node == "u"
+    assert "Dust – Area | Income – Early setting – Lung" in v.reason
+    assert "{Age}" in v.reason
+    assert "had it been" not in v.reason
+    assert "would have closed" in v.reason
+
+
+def test_keep_one_of_names_the_members_that_alone_suffice_with_labels():
+    f = Facts(
+        "b",
+        "confounder",
+        group=("a", "b"),
+        group_alone=("a",),
+        group_why="their R² is 0.96 against the guide 0.9",
+        suggested="a",
+        suggested_why="it alone gives a sufficient set",
+        set_members=("a", "c"),
+    )
+    v = decide_verdict(
+        f, Numbers(added=Shift(12.0, 3.0), vif=25.0), names={"a": "Area", "b": "Income"}
+    )
+    assert v.code == "keep_one_of"
+    assert v.group == ("a", "b")  # ids for scripts
+    assert v.suggested == "a"
+    assert "only Area alone gives a sufficient set with {c} (Income alone does not)" in v.reason
+    assert "their R² is 0.96 against the guide 0.9" in v.reason
+    assert "VIF in the full model is 25 against 10" in v.reason
+    assert "Area is suggested because it alone gives a sufficient set" in v.reason
+    assert "choice is saved" in v.reason
+    assert _one_sentence(v.reason)
+    none = decide_verdict(Facts("b", "confounder", group=("a", "b")))
+    assert "needs them all" in none.reason
+
+
+def test_collider_outside_the_proposed_set_names_the_path_it_would_open():
+    f = Facts("m", "collider", would_open=(("x", "a", "m", "b", "y"),))
+    v = decide_verdict(f, CALM)
+    assert "adjusting for it would open x – a – m – b – y" in v.reason
+
+
+def test_review_says_which_arrow_the_diagram_may_lack():
+    shift = Numbers(added=Shift(18.0, 2.0), r2_exposure=0.3)
+    precision = decide_verdict(Facts("p", "precision"), shift)
+    assert "linking it to the exposure" in precision.reason
+    instrument = decide_verdict(Facts("i", "instrument"), shift)
+    assert "linking it to the outcome" in instrument.reason
+
+
+@pytest.mark.parametrize(("family", "measure"), [("logistic", "odds"), ("cox", "hazard")])
+def test_confounder_in_a_non_collapsible_family_carries_the_caution(family, measure):
+    n = Numbers(added=Shift(-20.0, 5.0, change_pct_ratio=-18.0), r2_exposure=0.3)
+    v = decide_verdict(Facts("age", "confounder"), n, family=family)
+    assert v.code == "adjust"
+    assert f"{measure} ratio can be non-collapsibility" in v.reason
+    assert "-18.0% on the ratio scale" in v.reason
+    linear = decide_verdict(Facts("age", "confounder"), n, family="risk_ratio")
+    assert "non-collapsib" not in linear.reason

@@ -42,6 +42,37 @@ def _against_choice(
     return count
 
 
+def _deciding(
+    best: tuple[Any, ...],
+    runner_up: tuple[Any, ...],
+    best_se: float | None,
+    runner_se: float | None,
+    has_proposed: bool,
+    choice_applied: bool = False,
+) -> str:
+    """The criterion that set the chosen set apart from the next one, in words."""
+    if best[0] != runner_up[0]:
+        chosen = ", the saved choice standing in for its collinear group" if choice_applied else ""
+        return f"it holds the most members of the proposed set ({-best[0]}{chosen})."
+    if best[1] != runner_up[1]:
+        return "it holds the fewest covariates outside the proposed set."
+    if best[2] != runner_up[2]:
+        return "it holds no two members of one collinear group."
+    if best[3] != runner_up[3]:
+        return "it keeps the saved choice within its collinear group."
+    if best[4] != runner_up[4] and best_se is not None and runner_se is not None:
+        tie = (
+            f"it and the next both hold {-best[0]} member(s) of the proposed set; "
+            if has_proposed
+            else ""
+        )
+        return (
+            f"{tie}it gives the exposure estimate the smallest standard error "
+            f"({best_se:.4g}, against {runner_se:.4g} for the next)."
+        )
+    return "the sets tie on every criterion, so the first by name is taken."
+
+
 def recommend_set(
     minimal_sets: Sequence[Sequence[str]],
     *,
@@ -78,6 +109,13 @@ def recommend_set(
     choices = dict(keep_choices or {})
     group_list = [tuple(g) for g in groups]
     wanted = set(proposed)
+    as_proposed = set(wanted)
+    # A saved choice within a group is the analyst's later word on that group:
+    # it stands in for whichever members the proposed set holds.
+    for g in group_list:
+        chosen = choices.get("|".join(sorted(g)))
+        if chosen in g:
+            wanted = (wanted - set(g)) | {chosen}
     if not minimal_sets:
         return Recommendation(
             None,
@@ -102,18 +140,8 @@ def recommend_set(
     if len(scored) == 1:
         reason = "It is the only minimal sufficient set."
     else:
-        parts = []
-        if wanted:
-            parts.append(f"it holds {-best_key[0]} member(s) of the proposed set")
-        if group_list:
-            parts.append("holds no two members of one collinear group" if best_key[2] == 0 else "")
-        if best_se is not None and math.isfinite(best_se):
-            parts.append(f"gives the exposure estimate a standard error of {best_se:.3g}")
-        parts = [p for p in parts if p]
-        reason = (
-            f"Chosen among {len(scored)} minimal sufficient sets: " + ", ".join(parts) + "."
-            if parts
-            else f"Chosen among {len(scored)} minimal sufficient sets by the order of their ids."
+        reason = f"Chosen among {len(scored)} minimal sufficient sets: " + _deciding(
+            best_key, scored[1][0], best_se, scored[1][2], bool(wanted), wanted != as_proposed
         )
     return Recommendation(best, reason)
 

@@ -29,7 +29,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Iterable, Mapping, Sequence
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 __all__ = [
     "LABELS",
@@ -160,10 +160,14 @@ class Facts:
         Its collinear confounder group (itself included), if any.
     group_alone : tuple of str
         Members of the group that alone still give a sufficient set.
+    group_why : str
+        Why the members form a group (a clause: "a proxy link joins them", ...).
     suggested, suggested_why : str
         For a group: the member suggested and why (a clause).
     opened_paths : tuple of paths
         Backdoor paths that the proposed set opens through this node.
+    would_open : tuple of paths
+        For a collider: blocked backdoor paths that adjusting for it alone opens.
     stands_for : tuple of str
         For a confounder proxy: the confounders it descends from.
     stands_for_adjusted : tuple of str
@@ -185,9 +189,11 @@ class Facts:
     in_proposed: bool = False
     group: tuple[str, ...] = ()
     group_alone: tuple[str, ...] = ()
+    group_why: str = ""
     suggested: str | None = None
     suggested_why: str = ""
     opened_paths: tuple[tuple[str, ...], ...] = ()
+    would_open: tuple[tuple[str, ...], ...] = ()
     stands_for: tuple[str, ...] = ()
     stands_for_adjusted: tuple[str, ...] = ()
     would_close: tuple[tuple[str, ...], ...] = ()
@@ -215,6 +221,38 @@ def format_set(members: Iterable[str]) -> str:
 
 def _path(nodes: Sequence[str]) -> str:
     return " – ".join(nodes)
+
+
+def _label(node: str, names: Mapping[str, str]) -> str:
+    """A node's label; a measure group ("a|b") by its members' labels."""
+    return " | ".join(names.get(m, m) or m for m in node.split("|"))
+
+
+def _labelled(f: Facts, names: Mapping[str, str]) -> Facts:
+    """The facts with every node named by its label, for the sentence only."""
+
+    def one(node: str) -> str:
+        return _label(node, names)
+
+    def many(nodes: Iterable[str]) -> tuple[str, ...]:
+        return tuple(one(n) for n in nodes)
+
+    def paths(ps: Iterable[Sequence[str]]) -> tuple[tuple[str, ...], ...]:
+        return tuple(many(p) for p in ps)
+
+    return replace(
+        f,
+        node=one(f.node),
+        group=many(f.group),
+        group_alone=many(f.group_alone),
+        suggested=one(f.suggested) if f.suggested is not None else None,
+        opened_paths=paths(f.opened_paths),
+        would_open=paths(f.would_open),
+        stands_for=many(f.stands_for),
+        stands_for_adjusted=many(f.stands_for_adjusted),
+        would_close=paths(f.would_close),
+        set_members=many(f.set_members),
+    )
 
 
 def _guide(t: Mapping[str, float], key: str) -> str:
@@ -265,19 +303,21 @@ def _verdict(f: Facts, code: str, reason: str, **extra: object) -> Verdict:
 
 def _unmeasured(f: Facts) -> Verdict:
     role_words = {
-        "confounder": "it is a confounder, so adjusting for it would close "
+        "confounder": "it is a confounder, so adjusting for it would have closed "
         + (
             ", ".join(_path(p) for p in f.would_close[:3])
             if f.would_close
             else "the backdoor paths it lies on"
         ),
-        "confounder_proxy": "it stands for a confounder, so adjusting for it could reduce bias",
-        "mediator": "it is on the causal pathway, so adjusting for it would remove part of the effect",
-        "collider": "it is a collider, so adjusting for it would open a backdoor path",
-        "instrument": "it is instrument-like, so adjusting for it would only add variance",
-        "precision": "it predicts the outcome only, so adjusting for it could only sharpen the estimate",
+        "confounder_proxy": "it stands for a confounder, so adjusting for it could have reduced bias",
+        "mediator": "it is on the causal pathway, so adjusting for it would have removed part of the effect",
+        "collider": "it is a collider, so adjusting for it would have opened a backdoor path",
+        "instrument": "it is instrument-like, so adjusting for it would only have added variance",
+        "precision": "it predicts the outcome only, so adjusting for it could only have sharpened the estimate",
     }
-    what = role_words.get(f.role, f"its role is {f.role.replace('_', ' ')}, so it is not needed")
+    what = role_words.get(
+        f.role, f"its role is {f.role.replace('_', ' ')}, so it would not have been needed"
+    )
     if f.sufficient_without is None:
         tail = "no measured adjustment set is known"
     elif f.sufficient_without:
@@ -287,7 +327,7 @@ def _unmeasured(f: Facts) -> Verdict:
             f"the {f.set_name} set {format_set(f.set_members)} is not sufficient without it, "
             "so confounding may remain (see the E-value)"
         )
-    return _verdict(f, "unmeasured", f"Not measured: had it been, {what}; {tail}.")
+    return _verdict(f, "unmeasured", f"Not measured: {what}; {tail}.")
 
 
 def _measures_exposure(f: Facts, n: Numbers, t: Mapping[str, float]) -> Verdict | None:
@@ -331,19 +371,37 @@ def _review(f: Facts, n: Numbers, t: Mapping[str, float], family: str) -> Verdic
     ):
         return None  # non-collapsibility, worded by the role's own rule
     name, value = shift
-    extra = (
-        " (conditioning on a strong predictor of the exposure can also amplify remaining confounding)"
-        if f.role == "instrument"
-        else ""
-    )
-    role = f.role.replace("_", " ")
+    role, lacks = _REVIEW_WORDS[f.role]
     return _verdict(
         f,
         "review",
         f"Review: the diagram calls it {role}, yet {_COMPARISON_WORDS[name]} moves the estimate by "
         f"{_pct(value)}{_scale(ratio)}, past the {_guide(t, 'change_pct')} guide, so the diagram may "
-        f"lack an arrow between it and the exposure or the outcome{extra}.",
+        f"lack {lacks}.",
     )
+
+
+#: Role words, and what the diagram may lack, when the data contradict a
+#: harmless role: a precision variable that shifts the estimate is tied to the
+#: exposure after all; an instrument-like one to the outcome.
+_REVIEW_WORDS = {
+    "precision": (
+        "a precision variable (a cause of the outcome only)",
+        "an arrow, or a common cause, linking it to the exposure",
+    ),
+    "instrument": (
+        "instrument-like (linked to the outcome only through the exposure)",
+        "an arrow, or a common cause, linking it to the outcome (conditioning on a strong "
+        "predictor of the exposure can also amplify remaining confounding)",
+    ),
+    "unrelated": (
+        "unrelated to the exposure and the outcome",
+        "arrows linking it to the exposure and the outcome",
+    ),
+}
+
+
+_MEASURE_WORD = {"logistic": "odds", "cox": "hazard"}
 
 
 def _noncollapsible_note(n: Numbers, t: Mapping[str, float], family: str) -> str:
@@ -356,7 +414,7 @@ def _noncollapsible_note(n: Numbers, t: Mapping[str, float], family: str) -> str
         and n.r2_exposure is not None
         and n.r2_exposure < NONCOLLAPSIBLE_R2
     ):
-        measure = "odds" if family == "logistic" else "hazard"
+        measure = _MEASURE_WORD[family]
         return (
             f"; the {_pct(shift[1])} shift in the {measure} ratio when {_COMPARISON_WORDS[shift[0]]} "
             f"comes with an R² of the exposure on it of only {_num(n.r2_exposure, 2)} (under "
@@ -369,28 +427,42 @@ def _confounder(f: Facts, n: Numbers, t: Mapping[str, float], family: str) -> Ve
     ratio = family in ("logistic", "risk_ratio", "cox")
     if len(f.group) >= 2:
         others = [m for m in f.group if m != f.node]
-        alone = (
-            f"{'each of ' if len(f.group_alone) > 1 else ''}{', '.join(f.group_alone)} alone "
-            "still gives a sufficient set"
-            if f.group_alone
-            else "no single member alone gives a sufficient set"
-        )
+        rest = [m for m in f.set_members if m not in f.group]
+        beside = f" with {format_set(rest)}" if rest else ""
+        lacking = [m for m in f.group if m not in f.group_alone]
+        if not f.group_alone:
+            alone = (
+                f"no single member alone gives a sufficient set{beside}, so the diagram needs "
+                "them all despite the collinearity"
+            )
+        elif not lacking:
+            alone = f"each member alone gives a sufficient set{beside}"
+        else:
+            alone = (
+                f"only {', '.join(f.group_alone)} alone gives a sufficient set{beside} "
+                f"({', '.join(lacking)} alone does not)"
+            )
         suggestion = (
             f"; {f.suggested} is suggested{(' because ' + f.suggested_why) if f.suggested_why else ''}"
             if f.suggested
             else ""
         )
-        r2 = (
-            f" (auxiliary R² {_num(n.aux_r2)} against the guide {_guide(t, 'r2')}, VIF {_num(n.vif)} "
-            f"against {_guide(t, 'vif')})"
-            if n.aux_r2 is not None
-            else ""
-        )
+        if f.group_why:
+            vif = f"; its VIF in the full model is {_num(n.vif)} against {_guide(t, 'vif')}"
+            why = f" ({f.group_why}{vif if n.vif is not None else ''})"
+        elif n.aux_r2 is not None:
+            why = (
+                f" (its auxiliary R² in the full model is {_num(n.aux_r2)} against the guide "
+                f"{_guide(t, 'r2')}, its VIF {_num(n.vif)} against {_guide(t, 'vif')})"
+            )
+        else:
+            why = ""
         return _verdict(
             f,
             "keep_one_of",
-            f"Keep one of {format_set(f.group)}: it and {', '.join(others)} measure the same "
-            f"confounding and close the same paths{r2}; {alone}{suggestion}.",
+            f"Keep one of {format_set(f.group)}: it and {', '.join(others)} carry the same "
+            f"confounding and close the same paths{why}; {alone}{suggestion}; another member "
+            "may be chosen, and the choice is saved with the project.",
             group=tuple(f.group),
             suggested=f.suggested,
         )
@@ -411,7 +483,11 @@ def _confounder(f: Facts, n: Numbers, t: Mapping[str, float], family: str) -> Ve
         )
     caution = ""
     if family in NONCOLLAPSIBLE_FAMILIES:
-        caution = " (part of a change in an odds or hazard ratio can be non-collapsibility)"
+        measure = _MEASURE_WORD[family]
+        caution = (
+            f" (part of a change in a {measure} ratio can be non-collapsibility rather than "
+            "confounding)"
+        )
     return _verdict(
         f,
         "adjust",
@@ -425,6 +501,7 @@ def decide_verdict(
     *,
     family: str = "linear",
     thresholds: Mapping[str, float] | None = None,
+    names: Mapping[str, str] | None = None,
 ) -> Verdict:
     """The verdict for one covariate.
 
@@ -440,6 +517,9 @@ def decide_verdict(
     that is non-collapsibility); otherwise ``optional_precision``,
     ``avoid_instrument`` or ``consider_proxy``.
 
+    ``names`` maps node ids to the labels the sentence uses (ids where a node
+    has none); the verdict's ``node``, ``group`` and ``suggested`` stay ids.
+
     Examples
     --------
     >>> v = decide_verdict(Facts("bmi", "precision"),
@@ -452,7 +532,17 @@ def decide_verdict(
     t = dict(DEFAULT_THRESHOLDS)
     t.update(thresholds or {})
     n = numbers if numbers is not None else Numbers()
-    f = facts
+    verdict = _decide(_labelled(facts, names or {}), n, t, family)
+    keeps = verdict.code == "keep_one_of"
+    return replace(
+        verdict,
+        node=facts.node,
+        group=tuple(facts.group) if keeps else (),
+        suggested=facts.suggested if keeps else None,
+    )
+
+
+def _decide(f: Facts, n: Numbers, t: Mapping[str, float], family: str) -> Verdict:
     ratio = family in ("logistic", "risk_ratio", "cox")
 
     if not f.measured:
@@ -490,6 +580,10 @@ def decide_verdict(
             )
         elif f.in_proposed:
             opened = "; the other members of the proposed set keep those paths blocked, so it is at best unneeded"
+        elif f.would_open:
+            opened = "; adjusting for it would open " + ", ".join(
+                _path(p) for p in f.would_open[:3]
+            )
         else:
             opened = ""
         return _verdict(
