@@ -208,13 +208,17 @@ def rank_message(clauses: list[str]) -> str:
 
 def design_problem(X: Array, names: list[str], *, skip: int) -> str:
     """A plain message for missing values or constant columns, or ""."""
-    bad = ~np.isfinite(X).all(axis=0)
+    if X.shape[0] == 0:
+        return "The analytic sample has no rows."
+    # One min/max pass finds both: a column's range is NaN or infinite exactly
+    # when it holds a NaN or an infinity, and zero when the column is constant.
+    with np.errstate(invalid="ignore"):  # inf − inf is NaN, as wanted
+        spread = np.ptp(X, axis=0)
+    bad = ~np.isfinite(spread)
     if bad.any():
         cols = ", ".join(names[j] for j in np.flatnonzero(bad))
         return f"Missing or infinite values in {cols}: fit the model on complete cases only."
-    if X.shape[0] == 0:
-        return "The analytic sample has no rows."
-    const = np.flatnonzero(np.ptp(X, axis=0) == 0.0)
+    const = np.flatnonzero(spread == 0.0)
     const = const[const >= skip]
     if const.size:
         cols = ", ".join(f"{names[j]} (always {X[0, j]:g})" for j in const)
@@ -597,7 +601,9 @@ def _outcome_problem(y: Array, family: str) -> str:
     if not np.all(np.isfinite(y)):
         return "The outcome has missing or infinite values: fit on complete cases only."
     if family == "logistic":
-        odd = np.setdiff1d(np.unique(y), [0.0, 1.0])
+        # Sorting for the distinct values only when some value is neither 0 nor 1.
+        coded = bool(np.all((y == 0.0) | (y == 1.0)))
+        odd = np.zeros(0) if coded else np.setdiff1d(np.unique(y), [0.0, 1.0])
         if odd.size:
             shown = ", ".join(f"{v:g}" for v in odd[:3])
             return f"The outcome must be coded 0/1 for a logistic model; found {shown}."
