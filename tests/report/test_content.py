@@ -16,6 +16,7 @@ from covariscope.report.content import (
     format_interval,
     format_number,
     format_percent,
+    name_nodes,
 )
 
 
@@ -98,3 +99,31 @@ def test_graph_only_result_says_what_is_missing(make):
     assert c.data == ("No data bound: the page shows what the diagram says only.",)
     assert all(r.estimate == "n/a" for r in c.estimates)
     assert "not available" in c.evalue
+
+
+def test_findings_and_messages_use_labels(make):
+    project = make.project(8)
+    result = make.result(project)
+    result.disagreements = ("c1: Review: the diagram calls it unrelated.",)
+    result.sample.message = "2,310 of 2,500 rows used."
+    result.messages = (
+        "2,310 of 2,500 rows used.",  # the Data section says it
+        "The proposed set {c0, c2} is not sufficient: it leaves 1 backdoor path(s) open.",
+        "Ties in {c0, c1} follow shift – c0|c2 – sbp.",
+    )
+    c = build_content(result, project)
+    assert c.disagreements == ("Covariate number 1: the diagram calls it unrelated.",)
+    result.disagreements = ("Covariate number 1: Review: it moves the estimate.",)
+    c = build_content(result, project)
+    assert c.disagreements == ("Covariate number 1: it moves the estimate.",)
+    # the adjustment section already says the set does not suffice
+    assert c.messages == (
+        "Ties in {Cov 0, Covariate number 1} follow "
+        "Night-shift work – Cov 0 | Covariate number 2 – Systolic blood pressure.",
+    )
+
+
+def test_name_nodes_leaves_words_that_are_not_ids():
+    labels = {"age": "Age", "x": "Dust"}
+    assert name_nodes("{age, smoking}", labels) == "{age, smoking}"
+    assert name_nodes("age – x and well-known", labels) == "Age – Dust and well-known"

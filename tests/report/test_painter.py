@@ -28,6 +28,35 @@ def _text(pdf: Path) -> tuple[int, str, tuple[float, float]]:
     return len(reader.pages), text, (float(box.width), float(box.height))
 
 
+def _pdf_runs(pdf: Path) -> tuple[list[tuple[float, float, float, str]], tuple[float, float]]:
+    """Every text run pypdf finds: (x, y, size in pt, text), in PDF points."""
+    page = PdfReader(str(pdf)).pages[0]
+    runs: list[tuple[float, float, float, str]] = []
+
+    def visit(text, cm, tm, _font, size):
+        if text.strip():
+            x = cm[0] * tm[4] + cm[2] * tm[5] + cm[4]
+            y = cm[1] * tm[4] + cm[3] * tm[5] + cm[5]
+            scale = (abs(cm[0] * tm[0] + cm[2] * tm[1]) + abs(cm[1] * tm[2] + cm[3] * tm[3])) / 2
+            runs.append((x, y, size * scale, text.strip()))
+
+    page.extract_text(visitor_text=visit)
+    return runs, (float(page.mediabox.width), float(page.mediabox.height))
+
+
+def _check_pdf_text(pdf: Path, record) -> None:
+    """Read back by pypdf, an outside reader: every run starts inside the page
+    box, and only diagram labels are set below the 7 pt floor."""
+    runs, (width, height) = _pdf_runs(pdf)
+    assert runs
+    diagram = {i.text for i in record.items if i.kind == "diagram"}
+    for x, y, size, text in runs:
+        assert 0 <= x <= width, (text, x)
+        assert 0 <= y <= height, (text, y)
+        if size < MIN_BODY_PT - 1e-6:
+            assert " ".join(text.split()) in diagram, f"{text!r} is {size:.2f} pt"
+
+
 def _check_record(record, *, covariates: int) -> None:
     page = record.page_rect
     body = [i for i in record.items if i.kind != "diagram"]
@@ -63,6 +92,19 @@ def demo():
 @pytest.mark.parametrize("page", ["a4", "letter"])
 def test_demo_pdf_is_one_page_with_the_checked_numbers(qapp, tmp_path, demo, page):
     project, result, checked = demo
+    _check_demo_page(tmp_path, project, result, checked, page)
+
+
+def test_demo_ratio_page_shows_the_checked_ratios(qapp, tmp_path, demo):
+    study = pytest.importorskip("covariscope.study")
+    project = demo[0]
+    result = study.run_study(project, family="logistic")
+    checked = study.study_to_json(result)
+    assert build_content(result, project).ratio
+    _check_demo_page(tmp_path, project, result, checked, "a4")
+
+
+def _check_demo_page(tmp_path, project, result, checked, page):
     record: list = []
     pdf = write_pdf(result, project, tmp_path / "demo.pdf", page=page, record=record)
     pages, text, size = _text(pdf)
@@ -82,7 +124,19 @@ def test_demo_pdf_is_one_page_with_the_checked_numbers(qapp, tmp_path, demo, pag
             value, (lo, hi) = e["coef"], e["ci"]
         assert f"{value:.{content.decimals}f}" in text
         assert format_interval(lo, hi, content.decimals) in text
+    # a short demo has room for every covariate's name and role in full
+    for row in content.covariates:
+        assert row.label in text
+        assert row.role in text
+    assert "…" not in text
+    # findings name covariates by label, never by the id the file uses
+    for line in content.disagreements:
+        name, _, reason = line.partition(": ")
+        assert name in {n.label for n in project.diagram.covariates}
+        assert not reason.startswith("Review")  # the verdict column already says so
+        assert " ".join(line.split()) in text
     _check_record(record[0], covariates=len(checked["covariates"]))
+    _check_pdf_text(pdf, record[0])
 
 
 @pytest.mark.parametrize("page", ["a4", "letter"])
@@ -106,7 +160,15 @@ def test_forty_nodes_with_long_notes_fit_one_legible_page(qapp, tmp_path, big_st
     assert plan.body_pt >= MIN_BODY_PT
     assert plan.note_lines <= 1  # notes were shortened ...
     assert "…" in text  # ... with an ellipsis
+    assert plan.capped_findings is None  # every finding is still listed
+    for line in content.disagreements:
+        assert line in text
+    # labels and roles take the room a one-line note gives up
+    for row in content.covariates:
+        assert row.label in text
+        assert row.role in text
     _check_record(record[0], covariates=len(content.covariates))
+    _check_pdf_text(pdf, record[0])
 
 
 def test_short_content_keeps_the_largest_text(qapp, small_study):

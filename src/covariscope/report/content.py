@@ -312,11 +312,12 @@ def name_nodes(text: str, label_of: Mapping[str, str]) -> str:
 
 
 def _finding(text: str, label_of: Mapping[str, str]) -> str:
-    """``"node_id: Review: reason"`` → ``"Label: reason"`` with ids named."""
+    """``"node: Review: reason"`` → ``"Label: reason"`` with ids named; the
+    node may come as its id or already as its label."""
     text = _one_line(text)
     head, sep, rest = text.partition(": ")
-    if sep and head in label_of:
-        text = f"{label_of[head]}: {_VERDICT_LEAD.sub('', rest, count=1)}"
+    if sep and (head in label_of or head in label_of.values()):
+        text = f"{label_of.get(head, head)}: {_VERDICT_LEAD.sub('', rest, count=1)}"
     return name_nodes(text, label_of)
 
 
