@@ -235,3 +235,33 @@ def test_risk_ratio_and_cox_paths_run():
     assert table.full.ok
     assert table.covariates["g"].added.with_fit.ok
     assert any("Efron" in w for w in table.warnings)
+
+
+@pytest.mark.parametrize("family", ["logistic", "risk_ratio"])
+def test_one_step_starts_reach_the_statsmodels_fit_of_every_model(family):
+    # Outside source: statsmodels Logit (tol 1e-12) and GLM Poisson with HC0 SEs,
+    # fitted on the same rows.  Added models start from one shared Newton step at
+    # the crude fit, dropped models from the full fit's one-step update: both must
+    # still end at the maximum likelihood fit.
+    frame = _frame(11, n=3000)
+    frame["y"] = (frame["y"] > frame["y"].quantile(0.6)).astype(int)
+    engine = _engine(frame, family=family)
+    nodes = ["z1", "g", "z2"]
+    table = compute_evidence(engine, candidates=nodes, added=nodes)
+    models = [((), table.crude), (tuple(nodes), table.full)]
+    models += [((c,), table.covariates[c].added.with_fit) for c in nodes]
+    models += [(tuple(t for t in nodes if t != c), table.dropped_fits[c]) for c in nodes]
+    for terms, fit in models:
+        if family == "logistic":
+            ref = smf.logit(_formula(terms), data=frame).fit(disp=0, tol=1e-12)
+        else:
+            ref = smf.glm(_formula(terms), data=frame, family=sm.families.Poisson()).fit(
+                cov_type="HC0", tol=1e-13
+            )
+        assert fit.ok, fit.message
+        assert fit.converged
+        assert fit.coef == pytest.approx(ref.params["x"], rel=1e-9)
+        assert fit.se == pytest.approx(ref.bse["x"], rel=1e-7)
+        if "z1" in terms:
+            assert fit.term_coefs["z1"][0] == pytest.approx(ref.params["z1"], rel=1e-9)
+            assert fit.term_coefs["z1"][1] == pytest.approx(ref.bse["z1"], rel=1e-7)
