@@ -26,7 +26,7 @@ COLUMN_MIME = "application/x-covariscope-column"
 #: Types a column can be given (the models' term types).
 COLUMN_TYPES: tuple[str, ...] = ("continuous", "binary", "count", "categorical")
 
-DATA_COLUMNS: tuple[str, ...] = ("Column", "Type", "Missing %", "Bound to", "Reference")
+DATA_COLUMNS: tuple[str, ...] = ("Column", "Type", "Missing", "Bound to", "Reference")
 
 
 @dataclass(frozen=True)
@@ -66,7 +66,7 @@ def column_rows(
                 name=name,
                 type=str(ctype),
                 type_overridden=name in overrides,
-                missing=f"{missing:.1f}" if is_number(missing) else DASH,
+                missing=f"{missing:.1f}%" if is_number(missing) else DASH,
                 bound_to=", ".join(bound.get(name, [])),
                 reference="" if ref is None else str(ref),
                 levels=tuple(getattr(prof, "levels", ()) or ()),

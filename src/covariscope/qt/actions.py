@@ -5,10 +5,12 @@ from __future__ import annotations
 from collections.abc import Callable
 from typing import TYPE_CHECKING
 
+from PySide6.QtCore import QSize, Qt
 from PySide6.QtGui import QAction, QActionGroup, QKeySequence
 from PySide6.QtWidgets import QMenu, QToolBar
 
 from covariscope.qt.diagnostics import FAMILY_LABELS
+from covariscope.qt.icons import icon
 
 if TYPE_CHECKING:
     from covariscope.qt.main_window import MainWindow
@@ -88,7 +90,9 @@ class WindowActions:
             self.family[key] = act
         self.thresholds = a("&Thresholds…", w.edit_thresholds)
         self.rerun = a("&Run the analysis again", w.runner.run_now, _Std.Refresh)
-        self.cancel = a("&Cancel", w.cancel_work, "Esc")
+        # no Esc shortcut: Esc belongs to the canvas (leave a mode, drop a rename);
+        # while work runs the status bar shows a Cancel button
+        self.cancel = a("&Cancel loading or analysis", w.cancel_work)
 
         self.cautions = a(
             "&Cautions", lambda: w.prompts.info("Cautions", CAUTIONS), _Std.HelpContents
@@ -103,6 +107,37 @@ class WindowActions:
             act.setShortcut(QKeySequence(shortcut))
         act.triggered.connect(lambda _=False: slot())
         return act
+
+    def _dress(self) -> None:
+        """Icons and the short words the toolbar shows under them."""
+        for act, name, word in (
+            (self.new, "new", "New"),
+            (self.open, "open", "Open"),
+            (self.save, "save", "Save"),
+            (self.undo, "undo", "Undo"),
+            (self.redo, "redo", "Redo"),
+            (self.add_node, "add_node", "Node"),
+            (self.mode_select, "select", "Select"),
+            (self.mode_arrow, "arrow", "Arrow"),
+            (self.mode_proxy, "proxy", "Proxy link"),
+            (self.make_exposure, "exposure", "Exposure"),
+            (self.make_outcome, "outcome", "Outcome"),
+            (self.load_data, "data", "Data"),
+            (self.layout, "layout", "Layout"),
+            (self.fit, "fit", "Fit"),
+            (self.print, "print", "Print"),
+        ):
+            act.setIcon(icon(name))
+            act.setIconText(word)
+            keys = act.shortcut().toString(QKeySequence.SequenceFormat.NativeText)
+            tip = act.text().replace("&", "").rstrip("…")
+            act.setToolTip(f"{tip} ({keys})" if keys else tip)
+
+    def sync_mode(self, mode: str) -> None:
+        """Check the toolbar's mode button of the canvas's present mode."""
+        for act in self.mode_group.actions():
+            if act.data() == mode:
+                act.setChecked(True)
 
     def _mode(self, text: str, mode: str, shortcut: str) -> QAction:
         act = QAction(text, self.w, checkable=True)
@@ -156,8 +191,11 @@ class WindowActions:
         help_.addActions([self.cautions, self.about])
 
     def build_toolbar(self) -> QToolBar:
+        self._dress()
         tb = QToolBar("Main tools")
         tb.setObjectName("mainToolbar")
+        tb.setIconSize(QSize(24, 24))
+        tb.setToolButtonStyle(Qt.ToolButtonStyle.ToolButtonTextUnderIcon)
         tb.addActions([self.new, self.open, self.save])
         tb.addSeparator()
         tb.addActions([self.undo, self.redo])

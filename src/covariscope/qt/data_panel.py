@@ -86,6 +86,7 @@ class DataPanel(QWidget):
         header = self.table.horizontalHeader()
         header.setSectionResizeMode(QHeaderView.ResizeMode.ResizeToContents)
         header.setStretchLastSection(True)
+        self.table.verticalHeader().setDefaultSectionSize(24)
         self.table.setMinimumWidth(340)
         self.table.setToolTip("Drag a column onto the diagram to add a node bound to it.")
 
@@ -129,6 +130,22 @@ class DataPanel(QWidget):
                     item.setToolTip("Not bound to any node")
                 self.table.setItem(r, c, item)
         self.unbound_label.setText(unbound_summary(project, table is not None))
+        self._fit_width()
+
+    def needed_width(self) -> int:
+        """The width that shows every column without a horizontal scroll bar."""
+        header = self.table.horizontalHeader()
+        columns = sum(
+            max(header.sectionSizeHint(c), self.table.sizeHintForColumn(c))
+            for c in range(self.table.columnCount())
+        )
+        scroll = self.table.verticalScrollBar().sizeHint().width()
+        return columns + scroll + 2 * self.table.frameWidth() + 12
+
+    def _fit_width(self) -> None:
+        # grow (within reason) so the last column is not cut off; the user
+        # can still narrow the dock, which then scrolls
+        self.table.setMinimumWidth(min(max(340, self.needed_width()), 520))
 
     def row_of(self, column: str) -> int:
         for r, row in enumerate(self._rows):

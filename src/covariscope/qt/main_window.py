@@ -11,7 +11,8 @@ from __future__ import annotations
 from pathlib import Path
 from typing import Any
 
-from PySide6.QtCore import QPointF, Qt
+import shiboken6
+from PySide6.QtCore import QPointF, Qt, QTimer
 from PySide6.QtGui import QUndoStack
 from PySide6.QtWidgets import (
     QDockWidget,
@@ -27,6 +28,7 @@ from PySide6.QtWidgets import (
 from covariscope.model.commands import Command, Macro, SetKind, SetProposed, UpdateNode
 from covariscope.model.project import Project
 from covariscope.panels.commands import SetSettings
+from covariscope.panels.diagnostics import node_labels
 from covariscope.panels.review import proposed_after_toggle
 from covariscope.qt import output
 from covariscope.qt.actions import WindowActions
@@ -107,13 +109,18 @@ class MainWindow(QMainWindow):
                 "Covariate review", self.review, Qt.DockWidgetArea.BottomDockWidgetArea
             ),
             "paths": self._dock(
-                "Open backdoor paths", self.paths, Qt.DockWidgetArea.RightDockWidgetArea
+                "Open backdoor paths", self.paths, Qt.DockWidgetArea.LeftDockWidgetArea
             ),
         }
+        # the paths list is short: it shares the left column with the data
+        # panel, so the canvas keeps the whole width between them and the edge
+        self.splitDockWidget(self.docks["data"], self.docks["paths"], Qt.Orientation.Vertical)
+        self.resizeDocks([self.docks["data"]], [430], Qt.Orientation.Horizontal)
         self.resizeDocks(
-            [self.docks["data"], self.docks["paths"]], [400, 260], Qt.Orientation.Horizontal
+            [self.docks["data"], self.docks["paths"]], [420, 150], Qt.Orientation.Vertical
         )
-        self.resizeDocks([self.docks["review"]], [300], Qt.Orientation.Vertical)
+        self.resizeDocks([self.docks["review"]], [260], Qt.Orientation.Vertical)
+        self._fitted = False
 
         self.state_label = QLabel("No analysis yet")
         self.rows_label = QLabel("")
@@ -128,6 +135,8 @@ class MainWindow(QMainWindow):
         self.cancel_button.clicked.connect(self.cancel_work)
         self.cancel_button.hide()
         bar = self.statusBar()
+        for label in (self.state_label, self.rows_label):
+            label.setObjectName("statusField")
         for w in (self.state_label, self.rows_label, self.progress, self.cancel_button):
             bar.addPermanentWidget(w)
         bar.addWidget(self.error_label, 1)
@@ -184,6 +193,8 @@ class MainWindow(QMainWindow):
         scene.selection_changed_ids.connect(self._selection_changed)
         scene.message.connect(self.show_message)
         scene.proposed_toggled.connect(self.set_proposed_member)
+        if hasattr(scene, "mode_changed") and hasattr(self, "actions_"):
+            scene.mode_changed.connect(self.actions_.sync_mode)
         if self.view is not None:
             self.centre.layout().removeWidget(self.view)
             self.view.deleteLater()
@@ -194,14 +205,18 @@ class MainWindow(QMainWindow):
             old_scene.deleteLater()
         project.diagram.subscribe(self._model_changed)
         project.subscribe(self._project_changed)
-        self.actions_.sync_family(project.analysis.family) if hasattr(self, "actions_") else None
+        if hasattr(self, "actions_"):
+            self.actions_.sync_family(project.analysis.family)
+            self.actions_.sync_mode("select")
         self.set_last_error("")
         self.refresh_panels()
         self.io.update_title()
         if project.data is not None:
             self.data.start_load()
         self.request_analysis()
-        view.fit_to_window() if len(project.diagram) else None
+        if len(project.diagram):
+            view.fit_to_window()
+            self._fit_soon()
 
     def open_demo(self) -> bool:
         from covariscope.cli import demo_folder, write_demo
@@ -248,7 +263,7 @@ class MainWindow(QMainWindow):
     def refresh_panels(self) -> None:
         self.data_panel.refresh(self.project, self.data.table, self.data.profiles)
         self.review.refresh(self.project, self.result)
-        self.paths.refresh(self.result)
+        self.paths.refresh(self.result, node_labels(self.project))
         self.strip.refresh(self.result)
 
     def _analysis_done(self, _generation: int, result: Any) -> None:
@@ -427,6 +442,32 @@ class MainWindow(QMainWindow):
     def hide_progress(self) -> None:
         self.progress.hide()
         self.cancel_button.hide()
+
+    def resizeEvent(self, event: Any) -> None:
+        super().resizeEvent(event)
+        self._fit_soon()
+
+    def showEvent(self, event: Any) -> None:
+        super().showEvent(event)
+        self._fit_soon()
+
+    def _fit_soon(self) -> None:
+        """Fit the diagram once the window has its real size, until the user
+        zooms or pans it themselves (a fit before the docks settle is too small)."""
+        if (
+            self.view is not None
+            and len(self.project.diagram)
+            and not getattr(self.view, "user_zoomed", False)
+        ):
+            QTimer.singleShot(0, self._fit_now)
+
+    def _fit_now(self) -> None:
+        if (
+            self.view is not None
+            and shiboken6.isValid(self.view)
+            and not getattr(self.view, "user_zoomed", False)
+        ):
+            self.view.fit_to_window()
 
     # -- closing --------------------------------------------------------------------------
     def closeEvent(self, event: Any) -> None:

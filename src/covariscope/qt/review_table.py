@@ -38,6 +38,7 @@ class ReviewTable(QWidget):
         self.table = QTableWidget(0, len(REVIEW_COLUMNS))
         self.table.setHorizontalHeaderLabels(list(REVIEW_COLUMNS))
         self.table.verticalHeader().hide()
+        self.table.verticalHeader().setDefaultSectionSize(24)
         self.table.setSelectionBehavior(QAbstractItemView.SelectionBehavior.SelectRows)
         self.table.setSelectionMode(QAbstractItemView.SelectionMode.SingleSelection)
         self.table.setEditTriggers(QAbstractItemView.EditTrigger.NoEditTriggers)
@@ -192,14 +193,16 @@ class PathsPanel(QWidget):
     def paths(self) -> list[tuple[str, ...]]:
         return list(self._paths)
 
-    def refresh(self, result: Any) -> None:
+    def refresh(self, result: Any, labels: dict[str, str] | None = None) -> None:
+        """Show the open paths, each variable named by ``labels`` (id → label)."""
+        labels = labels or {}
         self.list.blockSignals(True)
         self.list.clear()
         self._paths = open_paths(result) if result is not None else []
         for path in self._paths:
-            parts = [n.replace("|", " | ") for n in path]
+            parts = [" | ".join(labels.get(m, m) for m in n.split("|")) for n in path]
             item = QListWidgetItem(" — ".join(parts))
-            item.setToolTip(" — ".join(parts))
+            item.setToolTip(" — ".join(n.replace("|", " | ") for n in path))
             item.setData(Qt.ItemDataRole.UserRole, path)
             self.list.addItem(item)
         self.list.blockSignals(False)

@@ -137,6 +137,9 @@ class _LinkItem(QGraphicsItem):
         self.pair = pair
         self.ends = (a, b)
         self.highlighted = False
+        #: sideways offset (pixels) so a proxy link beside an arrow on the same
+        #: pair of nodes stays visible instead of lying on top of it
+        self.shift = 0.0
         self.p1 = QPointF()
         self.p2 = QPointF()
         self._shape = QPainterPath()
@@ -148,8 +151,18 @@ class _LinkItem(QGraphicsItem):
         a, b = self.ends
         self.prepareGeometryChange()
         self.p1, self.p2 = link_ends(a.pos(), a.geometry, b.pos(), b.geometry, gap=2.5)
+        if self.shift:
+            d = self.p2 - self.p1
+            length = (d.x() ** 2 + d.y() ** 2) ** 0.5 or 1.0
+            normal = QPointF(-d.y() / length, d.x() / length) * self.shift
+            self.p1, self.p2 = self.p1 + normal, self.p2 + normal
         self._shape = arrow_shape(self.p1, self.p2, 12.0)
         self.update()
+
+    def set_shift(self, shift: float) -> None:
+        if shift != self.shift:
+            self.shift = shift
+            self.update_geometry()
 
     def set_highlighted(self, on: bool) -> None:
         if on != self.highlighted:

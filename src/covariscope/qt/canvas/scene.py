@@ -52,6 +52,8 @@ __all__ = ["COLUMN_MIME", "DiagramScene", "column_from_mime"]
 COLUMN_MIME = "application/x-covariscope-column"
 
 _PASTE_OFFSET = 32.0
+#: how far a proxy link moves aside when an arrow joins the same two nodes
+_PROXY_SHIFT = 9.0
 
 
 class DiagramScene(QGraphicsScene):
@@ -396,11 +398,22 @@ class DiagramScene(QGraphicsScene):
         item = cls(pair, self.nodes[pair[0]], self.nodes[pair[1]])
         store[pair] = item
         self.addItem(item)
+        self._separate(pair)
 
     def _remove_link(self, pair: tuple[str, str], store: dict[Any, Any]) -> None:
         item = store.pop(pair, None)
         if item is not None:
             self.removeItem(item)
+        self._separate(pair)
+
+    def _separate(self, pair: tuple[str, str]) -> None:
+        """Move a proxy link aside when an arrow joins the same two nodes."""
+        a, b = pair
+        arrow = (a, b) in self.arrows or (b, a) in self.arrows
+        for key in ((a, b), (b, a)):
+            proxy = self.proxies.get(key)
+            if proxy is not None:
+                proxy.set_shift(_PROXY_SHIFT if arrow else 0.0)
 
     def _update_links(self, node_id: str | None = None) -> None:
         for store in (self.arrows, self.proxies):

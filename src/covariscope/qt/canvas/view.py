@@ -33,6 +33,8 @@ class DiagramView(QGraphicsView):
         self.setAcceptDrops(True)
         self._pan_from: QPoint | None = None
         self._space = False
+        #: the user zoomed or panned: the window stops refitting on resize
+        self.user_zoomed = False
         scene.mode_changed.connect(self._on_mode)
 
     # -- zoom ---------------------------------------------------------------------------
@@ -44,12 +46,15 @@ class DiagramView(QGraphicsView):
         self.scale(factor / self.zoom(), factor / self.zoom())
 
     def zoom_in(self) -> None:
+        self.user_zoomed = True
         self.set_zoom(self.zoom() * _STEP)
 
     def zoom_out(self) -> None:
+        self.user_zoomed = True
         self.set_zoom(self.zoom() / _STEP)
 
     def fit_to_window(self) -> None:
+        self.user_zoomed = False
         scene = self.diagram_scene
         if not scene.nodes:
             self.resetTransform()
@@ -63,6 +68,7 @@ class DiagramView(QGraphicsView):
     def wheelEvent(self, event: QWheelEvent) -> None:
         if event.modifiers() & Qt.KeyboardModifier.ControlModifier:
             steps = event.angleDelta().y() / 120.0
+            self.user_zoomed = True
             self.set_zoom(self.zoom() * _STEP**steps)
             event.accept()
             return
@@ -101,6 +107,7 @@ class DiagramView(QGraphicsView):
             scene.set_mode("select")
         elif key == Qt.Key.Key_Space and not event.isAutoRepeat():
             self._space = True
+            self.user_zoomed = True
             self.setDragMode(QGraphicsView.DragMode.ScrollHandDrag)
             self.setInteractive(False)
         else:
@@ -121,6 +128,7 @@ class DiagramView(QGraphicsView):
     def mousePressEvent(self, event: QMouseEvent) -> None:
         if event.button() == Qt.MouseButton.MiddleButton:
             self._pan_from = event.position().toPoint()
+            self.user_zoomed = True
             self.viewport().setCursor(Qt.CursorShape.ClosedHandCursor)
             event.accept()
             return
