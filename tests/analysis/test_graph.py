@@ -273,6 +273,7 @@ def test_capped_listing_on_dense_graph_reports_true_total() -> None:
     assert listing.truncated
     assert len(listing.paths) == 50
     assert listing.total == expected
+    assert listing.total_exact
     assert expected > 1000
     full = backdoor_paths(G, x, y, cap=expected)
     assert not full.truncated

@@ -205,12 +205,111 @@ def test_path_counts_match_enumeration(seed: int) -> None:
     others = [v for v in G if v not in (x, y)]
     rng = random.Random(seed)
     z = set(rng.sample(others, rng.randint(0, min(3, len(others)))))
-    assert backdoor_paths(G, x, y, cap=0).total == len(ref)
+    counted = backdoor_paths(G, x, y, cap=0)
+    assert counted.total_exact
+    assert counted.total == len(ref)
     open_ref = [p for p in ref if is_open(G, p, z)]
     assert listing_total_open(G, x, y, z) == len(open_ref)
+    review = review_proposal(G, x, y, z)
+    assert review.open_paths_total_exact
+    assert review.open_paths_total == len(open_ref)
 
 
 def listing_total_open(G: nx.DiGraph, x: str, y: str, z: set[str]) -> int:
     from covariscope.analysis.paths import listing
 
     return listing(G, x, y, frozenset(z), 0, only_open=True).total
+
+
+def complete_dag(n: int) -> nx.DiGraph:
+    order = [f"n{i}" for i in range(n)]
+    G = nx.DiGraph(itertools.combinations(order, 2))
+    for v in G:
+        G.nodes[v]["kind"] = "covariate"
+        G.nodes[v]["measured"] = True
+    return G
+
+
+def dense_diagram(n: int, arrows: int, seed: int) -> tuple[nx.DiGraph, str, str]:
+    """A connected random diagram with the given number of arrows."""
+    rng = random.Random(seed)
+    names = [f"v{i:02d}" for i in range(n)]
+    G = nx.DiGraph()
+    G.add_nodes_from(names)
+    for j in range(1, n):
+        G.add_edge(names[rng.randrange(j)], names[j])
+    while G.number_of_edges() < arrows - 1:
+        i, j = sorted(rng.sample(range(n), 2))
+        G.add_edge(names[i], names[j])
+    x, y = names[n // 2], names[n - 3]
+    G.add_edge(x, y)
+    for v in names:
+        G.nodes[v]["kind"] = {x: "exposure", y: "outcome"}.get(v, "covariate")
+        G.nodes[v]["measured"] = True
+    return G, x, y
+
+
+@pytest.mark.parametrize("budget", [1, 50, 400, 3000])
+def test_count_past_its_budget_is_a_lower_bound(budget: int) -> None:
+    G = complete_dag(9)
+    x, y = "n4", "n8"
+    # outside reference: networkx.all_simple_paths on the undirected skeleton
+    ref = reference_backdoor_paths(G, x, y)
+    z = {"n0", "n6"}
+    got = backdoor_paths(G, x, y, given=z, cap=30, count_budget=budget)
+    assert not got.total_exact
+    assert got.truncated
+    assert 30 < got.total <= len(ref)
+    assert got.total_text() == f"at least {got.total:,}"
+    # the listed paths and their status do not depend on the budget
+    exact = backdoor_paths(G, x, y, given=z, cap=30, count_budget=None)
+    assert exact.total_exact
+    assert exact.total == len(ref)
+    assert got.paths == exact.paths
+    assert {p.nodes for p in got.paths} <= set(ref)
+    for p in got.paths:
+        assert p.open == is_open(G, p.nodes, z)
+
+
+def test_budget_leaves_roles_and_review_alone() -> None:
+    from covariscope.analysis.constructs import merge_diagram
+    from covariscope.analysis.paths import listing
+    from covariscope.analysis.roles import roles_on
+
+    G = complete_dag(9)
+    x, y = "n4", "n8"
+    md = merge_diagram(G, x, y)
+    tight = listing(md.graph, x, y, frozenset(), 40, count_budget=1)
+    loose = listing(md.graph, x, y, frozenset(), 40, count_budget=None)
+    assert not tight.total_exact
+    assert loose.total_exact
+    assert roles_on(md, x, y, tight) == roles_on(md, x, y, loose)
+    z = {"n5"}  # a descendant of the exposure: open paths remain
+    review = review_proposal(G, x, y, z)
+    open_ref = [p for p in reference_backdoor_paths(G, x, y) if is_open(G, p, z)]
+    assert review.open_paths_total == len(open_ref)
+    assert set(review.open_paths) <= set(open_ref)
+    assert review.sufficient == reference_sufficient(G, x, y, z)
+
+
+def test_dense_diagram_count_stops_at_its_budget() -> None:
+    G, x, y = dense_diagram(40, 76, seed=3)
+    assert G.number_of_edges() == 76
+    listing = backdoor_paths(G, x, y, cap=200)
+    assert not listing.total_exact
+    assert listing.total > 200
+    U = G.to_undirected()
+    for p in listing.paths:
+        nodes = p.nodes
+        assert nodes[0] == x
+        assert nodes[-1] == y
+        assert G.has_edge(nodes[1], x)
+        assert len(set(nodes)) == len(nodes)
+        assert all(U.has_edge(a, b) for a, b in itertools.pairwise(nodes))
+        assert p.open == is_open(G, nodes, set())
+    z = set(list(G.predecessors(x))[:2])
+    review = review_proposal(G, x, y, z)
+    assert review.sufficient == reference_sufficient(G, x, y, z)
+    for p in review.open_paths[:50]:
+        assert is_open(G, p, z)
+    assert (not review.open_paths) == review.sufficient

@@ -35,7 +35,14 @@ class ProposalReview:
     sufficient : bool
         Whether the set meets the backdoor criterion.
     open_paths : tuple of tuple of str
-        Backdoor paths the set leaves open (at most 500 listed).
+        Backdoor paths the set leaves open (at most 500 listed).  Each is
+        truly open; ``sufficient`` is decided by d-separation, not from this
+        listing, so neither depends on the cap or the count's budget.
+    open_paths_total : int
+        How many backdoor paths the set leaves open; a lower bound when
+        ``open_paths_total_exact`` is False.
+    open_paths_total_exact : bool
+        False when counting stopped at its work budget (read "at least").
     unnecessary : tuple of str
         Members, not harmful, whose removal leaves the set sufficient.
     harmful : tuple of str
@@ -48,9 +55,16 @@ class ProposalReview:
     proposed: tuple[str, ...]
     sufficient: bool
     open_paths: tuple[tuple[str, ...], ...]
+    open_paths_total: int
+    open_paths_total_exact: bool
     unnecessary: tuple[str, ...]
     harmful: tuple[str, ...]
     unmeasured_in_set: tuple[str, ...]
+
+    def open_paths_text(self) -> str:
+        """The number of open paths in words: ``"3"`` or ``"at least 10,001"``."""
+        n = f"{self.open_paths_total:,}"
+        return n if self.open_paths_total_exact else f"at least {n}"
 
 
 def without_exposure_arrows(M: nx.DiGraph, X: str) -> nx.DiGraph:
@@ -230,7 +244,7 @@ def review_on(md: MergedDiagram, X: str, Y: str, proposed: Iterable[str]) -> Pro
     Z = given_constructs(md, members, X, Y)
     descendants = nx.descendants(M, X)
     sufficient = sufficient_on(M, X, Y, Z)
-    open_paths = tuple(p.nodes for p in listing(M, X, Y, Z, 500, only_open=True).paths)
+    opened = listing(M, X, Y, Z, 500, only_open=True)
     harmful: list[str] = []
     unnecessary: list[str] = []
     for m in members:
@@ -250,7 +264,9 @@ def review_on(md: MergedDiagram, X: str, Y: str, proposed: Iterable[str]) -> Pro
     return ProposalReview(
         proposed=members,
         sufficient=sufficient,
-        open_paths=open_paths,
+        open_paths=tuple(p.nodes for p in opened.paths),
+        open_paths_total=opened.total,
+        open_paths_total_exact=opened.total_exact,
         unnecessary=tuple(unnecessary),
         harmful=tuple(harmful),
         unmeasured_in_set=unmeasured,
