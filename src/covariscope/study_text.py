@@ -91,7 +91,7 @@ def format_study_text(result: StudyResult) -> str:
         + (
             "sufficient"
             if da.review.sufficient
-            else f"NOT sufficient ({len(da.review.open_paths)} open path(s))"
+            else f"NOT sufficient ({da.review.open_paths_text()} open path(s))"
         )
     )
     if da.review.open_paths:

@@ -298,3 +298,13 @@ def test_check_json_keys() -> None:
     }
     assert data["minimal_sets"] == [["a", "m"], ["b", "m"]]
     assert data["proposed_sufficient"] is False
+
+
+def test_open_path_count_in_words() -> None:
+    from dataclasses import replace
+
+    review = review_proposal(diagram(BUTTERFLY), "x", "y", ["m"])
+    assert review.open_paths_total == 1
+    assert review.open_paths_text() == "1"
+    bound = replace(review, open_paths_total=10_001, open_paths_total_exact=False)
+    assert bound.open_paths_text() == "at least 10,001"

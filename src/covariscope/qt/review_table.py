@@ -215,10 +215,14 @@ class PathsPanel(QWidget):
             self.summary.setText("No open backdoor paths are listed.")
         else:
             n = len(self._paths)
-            self.summary.setText(
-                f"{n} backdoor path{'s' if n != 1 else ''} left open by the proposed set. "
-                "Choose one to see it on the diagram."
-            )
+            total = getattr(proposal, "open_paths_total", n)
+            exact = getattr(proposal, "open_paths_total_exact", True)
+            if exact and total == n:
+                head = f"{n} backdoor path{'s' if n != 1 else ''} left open by the proposed set."
+            else:
+                count = f"{total:,}" if exact else f"At least {total:,}"
+                head = f"{count} backdoor paths left open by the proposed set; {n} are listed."
+            self.summary.setText(f"{head} Choose one to see it on the diagram.")
         self.path_chosen.emit(None)
 
     def choose(self, index: int) -> None:

@@ -424,8 +424,14 @@ def build_content(result: Any, project: Any, *, today: _dt.date | None = None) -
         adjustment.append(
             f"Adjustment set chosen: {chosen} — the diagram says it does NOT suffice."
         )
-        for path in _get(review, "open_paths", ()) or ():
+        listed = tuple(_get(review, "open_paths", ()) or ())
+        for path in listed:
             adjustment.append(f"Open path: {_path_text(path, arrows, label_of)}")
+        total = _get(review, "open_paths_total", len(listed))
+        exact = _get(review, "open_paths_total_exact", True)
+        if not exact or total > len(listed):
+            count = f"{total:,}" if exact else f"at least {total:,}"
+            adjustment.append(f"Open paths in all: {count}; {len(listed)} are shown.")
     else:
         adjustment.append(f"Adjustment set chosen: {chosen}.")
     for attr, words in (("unnecessary", "Unnecessary in it"), ("harmful", "Harmful in it")):
