@@ -460,6 +460,66 @@ def test_dropping_a_column_adds_a_bound_node(canvas):
     assert stack.count() == 1
 
 
+def _drag_onto(view, mime: QMimeData, scene_pos: QPointF) -> tuple[bool, bool]:
+    """Drag ``mime`` onto the view at ``scene_pos`` and drop it, as Qt's drag
+    machinery does (enter, move, drop on the viewport); the view hands the
+    scene a QGraphicsSceneDragDropEvent.  Returns (move accepted, drop accepted)."""
+    from PySide6.QtGui import QDragEnterEvent, QDragMoveEvent, QDropEvent
+    from PySide6.QtWidgets import QApplication
+
+    point = view.mapFromScene(scene_pos)
+    copy, left, none = (
+        Qt.DropAction.CopyAction,
+        Qt.MouseButton.LeftButton,
+        Qt.KeyboardModifier.NoModifier,
+    )
+    viewport = view.viewport()
+    QApplication.sendEvent(viewport, QDragEnterEvent(point, copy, mime, left, none))
+    move = QDragMoveEvent(point, copy, mime, left, none)
+    QApplication.sendEvent(viewport, move)
+    drop = QDropEvent(QPointF(point), copy, mime, left, none)
+    QApplication.sendEvent(viewport, drop)
+    return move.isAccepted(), drop.isAccepted()
+
+
+def test_scene_takes_a_column_drop_event_and_ignores_other_drags(canvas):
+    project, stack, scene = canvas
+    view = DiagramView(scene)
+    view.resize(600, 400)
+    view.centerOn(QPointF(300, 300))
+    mime = QMimeData()
+    mime.setData(COLUMN_MIME, b"bmi")
+    where = view.mapToScene(view.mapFromScene(QPointF(300, 300)))
+    assert _drag_onto(view, mime, QPointF(300, 300)) == (True, True)
+    added = [n for n in project.diagram.nodes if n.id not in small_project().diagram.node_ids]
+    assert [(n.column, n.x, n.y) for n in added] == [("bmi", where.x(), where.y())]
+    # one column binds one node: the old holder let go, in the same undo step
+    assert project.diagram.node("bmi").column is None
+    assert stack.count() == 1
+    stack.undo()
+    assert project.diagram.node("bmi").column == "bmi"
+    assert len(project.diagram) == len(small_project().diagram)
+
+    text_only = QMimeData()
+    text_only.setText("not a column")
+    assert _drag_onto(view, text_only, QPointF(300, 300)) == (False, False)
+    assert stack.count() == 1
+    assert stack.index() == 0
+    view.close()
+
+
+def test_proxy_link_beside_an_arrow_is_drawn_apart(canvas):
+    _project, stack, scene = canvas
+    assert scene.proxies[("bmi", "waist")].shift == 0.0
+    assert scene.connect_nodes("bmi", "waist")  # now an arrow joins the same pair
+    proxy, arrow = scene.proxies[("bmi", "waist")], scene.arrows[("bmi", "waist")]
+    assert proxy.shift > 0
+    gap = QPointF(proxy.p1 - arrow.p1)
+    assert (gap.x() ** 2 + gap.y() ** 2) ** 0.5 > 5.0
+    stack.undo()
+    assert scene.proxies[("bmi", "waist")].shift == 0.0
+
+
 def test_annotations_show_and_clear(canvas):
     _, _, scene = canvas
     scene.set_annotations(ROLES, VERDICTS)

@@ -41,6 +41,10 @@ class FakePrompts:
     def save_path(self, title, filter_, start=""):
         return self.answers.get("save_path")
 
+    def printer(self):
+        self.said.append(("printer", ""))
+        return self.answers.get("printer")
+
 
 @pytest.fixture
 def demo(tmp_path):
@@ -148,6 +152,7 @@ def test_build_the_demo_from_an_empty_window(qtbot, window, demo):
         w.data_panel.reference_requested.emit(column, level)
     if a.family != w.project.analysis.family:
         w.actions_.family[a.family].trigger()
+    w.actions_.rerun.trigger()  # F5: the edits above were debounced into few runs
     wait_for_analysis(qtbot, w)
     for node_id in a.proposed:
         w.review.set_checked(node_id, True)
@@ -231,3 +236,87 @@ def test_review_csv_export(qtbot, window, demo, tmp_path):
     text = target.read_text(encoding="utf-8")
     assert text.splitlines()[0].startswith("node,Covariate,Role")
     assert len(text.splitlines()) == 1 + len(w.project.diagram.covariates)
+
+
+def test_copy_paste_goes_through_the_system_clipboard(qtbot, window, demo):
+    from covariscope.qt.clipboard import SELECTION_MIME
+    from covariscope.qt.main_window import MainWindow
+
+    w = window
+    w.io.open(str(demo / "demo_project.json"))
+    w.scene.select_ids(["age", "school_yrs"])
+    w.actions_.copy.trigger()
+    mime = QApplication.clipboard().mimeData()
+    assert mime.hasFormat(SELECTION_MIME)
+    assert mime.text().splitlines() == ["Age", "Years since school"]
+    other = MainWindow(prompts=FakePrompts(), debounce_ms=20)
+    qtbot.addWidget(other)
+    try:
+        other.actions_.paste.trigger()
+        d = other.project.diagram
+        assert sorted(n.label for n in d.nodes) == ["Age", "Years since school"]
+        assert len(d.arrows) == 1  # the arrow between the two came along
+        assert other.undo_stack.count() == 1
+        other.actions_.undo.trigger()
+        assert len(d) == 0
+    finally:
+        other.undo_stack.setClean()
+        other.close()
+    # plain text on the clipboard is not pasted as nodes
+    QApplication.clipboard().setText("age")
+    before = len(w.project.diagram)
+    w.actions_.paste.trigger()
+    assert len(w.project.diagram) == before
+
+
+def test_print_goes_through_the_prompts_printer(qtbot, window, demo, tmp_path):
+    from PySide6.QtPrintSupport import QPrinter
+
+    w = window
+    w.io.open(str(demo / "demo_project.json"))
+    wait_for_analysis(qtbot, w)
+    assert not w.print_rationale()  # the user cancelled the print dialog
+    assert ("printer", "") in w.prompts.said
+    printer = QPrinter(QPrinter.PrinterMode.ScreenResolution)
+    printer.setOutputFormat(QPrinter.OutputFormat.PdfFormat)
+    target = tmp_path / "printed.pdf"
+    printer.setOutputFileName(str(target))
+    w.prompts.answers["printer"] = printer
+    w.actions_.print.trigger()
+    assert target.read_bytes().startswith(b"%PDF")
+    assert target.stat().st_size > 5000
+
+
+def test_toolbar_has_drawn_icons_and_short_words(window):
+    from covariscope.qt.icons import ICON_NAMES, icon
+
+    a = window.actions_
+    for action in (a.new, a.open, a.save, a.add_node, a.mode_arrow, a.fit, a.print):
+        assert not action.icon().isNull(), action.text()
+        assert 0 < len(action.iconText()) <= 10
+    assert "(Ctrl+P)" in a.print.toolTip()
+    for name in ICON_NAMES:
+        image = icon(name).pixmap(24, 24).toImage()
+        inked = sum(image.pixelColor(x, y).alpha() > 0 for x in range(24) for y in range(24))
+        assert 20 < inked < 24 * 24, name
+
+
+def test_escape_belongs_to_the_canvas(qtbot, window):
+    from PySide6.QtTest import QTest
+
+    w = window
+    w.activateWindow()
+    node_id = w.scene.add_node_at(QPointF(0, 0))
+    editor = w.scene.start_rename(node_id)
+    w.view.setFocus()
+    QTest.keyClicks(w.view.viewport(), "Sax")  # letters reach the editor, not the S/A/X modes
+    assert editor.toPlainText() == "Sax"
+    assert w.scene.mode.name == "select"
+    QTest.keyClick(w.view.viewport(), Qt.Key.Key_Escape)
+    assert w.scene.label_editor is None
+    assert w.project.diagram.node(node_id).label == "node"  # Esc dropped the rename
+    w.actions_.mode_arrow.trigger()
+    assert w.scene.mode.name == "arrow"
+    QTest.keyClick(w.view.viewport(), Qt.Key.Key_Escape)
+    assert w.scene.mode.name == "select"
+    assert w.actions_.mode_select.isChecked()  # the toolbar follows the canvas

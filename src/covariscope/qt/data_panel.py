@@ -27,6 +27,7 @@ from covariscope.panels.data_panel import (
     column_rows,
     unbound_summary,
 )
+from covariscope.qt.tables import filling
 
 __all__ = ["ColumnTable", "DataPanel", "column_mime"]
 
@@ -119,16 +120,17 @@ class DataPanel(QWidget):
             self.file_label.setText(f"{project.data.path} (not loaded)")
         else:
             self.file_label.setText("No data loaded.")
-        self.table.setRowCount(len(self._rows))
-        for r, row in enumerate(self._rows):
-            for c, text in enumerate(row.cells()):
-                item = QTableWidgetItem(text)
-                if c == 0:
-                    item.setFlags(item.flags() | Qt.ItemFlag.ItemIsDragEnabled)
-                if c == 3 and not text:
-                    item.setText("—")
-                    item.setToolTip("Not bound to any node")
-                self.table.setItem(r, c, item)
+        with filling(self.table):
+            self.table.setRowCount(len(self._rows))
+            for r, row in enumerate(self._rows):
+                for c, text in enumerate(row.cells()):
+                    item = QTableWidgetItem(text)
+                    if c == 0:
+                        item.setFlags(item.flags() | Qt.ItemFlag.ItemIsDragEnabled)
+                    if c == 3 and not text:
+                        item.setText("—")
+                        item.setToolTip("Not bound to any node")
+                    self.table.setItem(r, c, item)
         self.unbound_label.setText(unbound_summary(project, table is not None))
         self._fit_width()
 

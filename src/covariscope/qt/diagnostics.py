@@ -41,6 +41,7 @@ from covariscope.panels.diagnostics import (
     node_diagnostics,
 )
 from covariscope.panels.format import ratio_family
+from covariscope.qt.tables import filling
 
 __all__ = ["FAMILY_LABELS", "CovariateDialog", "EndpointDialog", "NodeDialog"]
 
@@ -74,13 +75,16 @@ def _table(headers: tuple[str, ...]) -> QTableWidget:
 
 
 def _fill(table: QTableWidget, rows: list[tuple[str, ...]], fit: bool = True) -> None:
-    table.setRowCount(len(rows))
-    for r, row in enumerate(rows):
-        for c, text in enumerate(row):
-            item = QTableWidgetItem(text)
-            if c:
-                item.setTextAlignment(Qt.AlignmentFlag.AlignRight | Qt.AlignmentFlag.AlignVCenter)
-            table.setItem(r, c, item)
+    with filling(table):
+        table.setRowCount(len(rows))
+        for r, row in enumerate(rows):
+            for c, text in enumerate(row):
+                item = QTableWidgetItem(text)
+                if c:
+                    item.setTextAlignment(
+                        Qt.AlignmentFlag.AlignRight | Qt.AlignmentFlag.AlignVCenter
+                    )
+                table.setItem(r, c, item)
     table.resizeRowsToContents()
     if not fit:
         return

@@ -15,6 +15,7 @@ import shiboken6
 from PySide6.QtCore import QPointF, Qt, QTimer
 from PySide6.QtGui import QUndoStack
 from PySide6.QtWidgets import (
+    QApplication,
     QDockWidget,
     QGraphicsScene,
     QLabel,
@@ -32,6 +33,7 @@ from covariscope.panels.diagnostics import node_labels
 from covariscope.panels.review import proposed_after_toggle
 from covariscope.qt import output
 from covariscope.qt.actions import WindowActions
+from covariscope.qt.clipboard import selection_from_mime, selection_mime
 from covariscope.qt.data_controller import ColumnDropFilter, DataController
 from covariscope.qt.data_panel import DataPanel
 from covariscope.qt.diagnostics import CovariateDialog, EndpointDialog, NodeDialog
@@ -335,12 +337,25 @@ class MainWindow(QMainWindow):
         if commands:
             self.push(Macro("Change measured", commands))
 
-    def copy_selection(self) -> None:
-        self.clipboard = self.scene.copy_selection()
+    def copy_selection(self) -> bool:
+        """Put the selected nodes and their links on the system clipboard
+        (our own MIME type, plus the node labels as text), so that Paste
+        works in another window too."""
+        clip = self.scene.copy_selection()
+        if not clip.get("nodes"):
+            self.show_message("Select the nodes to copy first.")
+            return False
+        QApplication.clipboard().setMimeData(selection_mime(clip))
+        n = len(clip["nodes"])
+        self.show_message(f"Copied {n} node{'s' if n != 1 else ''}.")
+        return True
 
-    def paste(self) -> None:
-        if getattr(self, "clipboard", None):
-            self.scene.paste(self.clipboard)
+    def paste(self) -> list[str]:
+        clip = selection_from_mime(QApplication.clipboard().mimeData())
+        if clip is None:
+            self.show_message("The clipboard holds no diagram nodes to paste.")
+            return []
+        return self.scene.paste(clip)
 
     def add_node_at_centre(self) -> None:
         centre = self.view.mapToScene(self.view.viewport().rect().center())

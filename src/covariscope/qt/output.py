@@ -96,13 +96,13 @@ def print_rationale(w: MainWindow) -> bool:
             "Printing not available", "The rationale report is not installed in this build."
         )
         return False
-    from PySide6.QtPrintSupport import QPrintDialog, QPrinter
-
-    printer = QPrinter(QPrinter.PrinterMode.HighResolution)
-    dialog = QPrintDialog(printer, w)
-    if not dialog.exec():
+    printer = w.prompts.printer()
+    if printer is None:
         return False
-    painter = QPainter(printer)
+    painter = QPainter()
+    if not painter.begin(printer):
+        w.prompts.warn("Cannot print", "The printer could not be started; check its settings.")
+        return False
     try:
         page = QRectF(printer.pageLayout().paintRectPixels(printer.resolution()))
         page.moveTo(0, 0)

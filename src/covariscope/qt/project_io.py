@@ -68,6 +68,14 @@ class Prompts:
         path, _ = QFileDialog.getSaveFileName(self.parent, title, start, filter_)
         return path or None
 
+    def printer(self) -> Any:
+        """A QPrinter the user chose and set up, or None when they cancelled."""
+        from PySide6.QtPrintSupport import QPrintDialog, QPrinter
+
+        printer = QPrinter(QPrinter.PrinterMode.HighResolution)
+        dialog = QPrintDialog(printer, self.parent)
+        return printer if dialog.exec() else None
+
 
 def recovery_folder() -> Path:
     base = QStandardPaths.writableLocation(QStandardPaths.StandardLocation.AppDataLocation)

@@ -18,6 +18,7 @@ from PySide6.QtWidgets import (
 )
 
 from covariscope.panels.review import REVIEW_COLUMNS, ReviewRow, review_rows, rows_to_csv
+from covariscope.qt.tables import filling
 
 __all__ = ["PathsPanel", "ReviewTable", "open_paths"]
 
@@ -74,33 +75,34 @@ class ReviewTable(QWidget):
         self._rows = review_rows(project, result)
         self._filling = True
         try:
-            self.table.setRowCount(len(self._rows))
-            for r, row in enumerate(self._rows):
-                for c, text in enumerate(row.cells()):
-                    item = QTableWidgetItem("" if c == _CHECK else text)
-                    item.setData(Qt.ItemDataRole.UserRole, row.node)
-                    if c == _VERDICT:
-                        item.setToolTip(row.reason or row.verdict)
-                    elif c == 0:
-                        item.setToolTip(row.detail)
-                    if 2 <= c <= 5:
-                        item.setTextAlignment(
-                            Qt.AlignmentFlag.AlignRight | Qt.AlignmentFlag.AlignVCenter
-                        )
-                    if c == _CHECK:
-                        flags = Qt.ItemFlag.ItemIsEnabled | Qt.ItemFlag.ItemIsSelectable
-                        if row.measured:
-                            flags |= Qt.ItemFlag.ItemIsUserCheckable
-                        item.setFlags(flags)
-                        item.setCheckState(
-                            Qt.CheckState.Checked if row.proposed else Qt.CheckState.Unchecked
-                        )
-                        item.setToolTip(
-                            "Tick to put it in the proposed adjustment set"
-                            if row.measured
-                            else "Unmeasured: cannot be adjusted for"
-                        )
-                    self.table.setItem(r, c, item)
+            with filling(self.table):
+                self.table.setRowCount(len(self._rows))
+                for r, row in enumerate(self._rows):
+                    for c, text in enumerate(row.cells()):
+                        item = QTableWidgetItem("" if c == _CHECK else text)
+                        item.setData(Qt.ItemDataRole.UserRole, row.node)
+                        if c == _VERDICT:
+                            item.setToolTip(row.reason or row.verdict)
+                        elif c == 0:
+                            item.setToolTip(row.detail)
+                        if 2 <= c <= 5:
+                            item.setTextAlignment(
+                                Qt.AlignmentFlag.AlignRight | Qt.AlignmentFlag.AlignVCenter
+                            )
+                        if c == _CHECK:
+                            flags = Qt.ItemFlag.ItemIsEnabled | Qt.ItemFlag.ItemIsSelectable
+                            if row.measured:
+                                flags |= Qt.ItemFlag.ItemIsUserCheckable
+                            item.setFlags(flags)
+                            item.setCheckState(
+                                Qt.CheckState.Checked if row.proposed else Qt.CheckState.Unchecked
+                            )
+                            item.setToolTip(
+                                "Tick to put it in the proposed adjustment set"
+                                if row.measured
+                                else "Unmeasured: cannot be adjusted for"
+                            )
+                        self.table.setItem(r, c, item)
         finally:
             self._filling = False
         if selected:

@@ -504,8 +504,19 @@ class DiagramScene(QGraphicsScene):
         event.acceptProposedAction()
 
     def drop_column(self, column: str, pos: QPointF) -> str:
-        """A dataset column dropped on the canvas: a node bound to it."""
-        return self.add_node_at(pos, label=column, column=column)
+        """A dataset column dropped on the canvas: a node bound to it (one
+        undo step).  A column binds one node, so a node that held it lets go."""
+        d = self.project.diagram
+        node_id = d.fresh_id(column)
+        steps: list[Command] = [
+            UpdateNode(self.project, n.id, column=None) for n in d.nodes if n.column == column
+        ]
+        node = Node(node_id, label=column, column=column, x=pos.x(), y=pos.y())
+        steps.append(AddNode(self.project, node))
+        if not self.push(Macro(f"Add {node_id} from column {column}", steps)):
+            return ""
+        self.select_ids([node_id])
+        return node_id
 
 
 def column_from_mime(data: QMimeData) -> str | None:
