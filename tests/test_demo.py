@@ -5,6 +5,7 @@ from __future__ import annotations
 import hashlib
 import importlib.util
 import json
+import math
 from importlib import resources
 from pathlib import Path
 
@@ -115,11 +116,25 @@ def test_demo_has_missing_values_and_a_many_level_categorical(linear):
     assert linear.evidence.covariates["smoke"].df >= 2  # three or more levels
 
 
+def _as_rr(family: str, ratio: float) -> float:
+    # The demo's binary outcome (lowest quarter) and its diagnoses are common (15% or
+    # more), so VanderWeele & Ding (2017) convert: √OR; for HR (1 − 0.5^√HR)/(1 − 0.5^√(1/HR)).
+    if family == "logistic":
+        return math.sqrt(ratio)
+    if family == "cox":
+        return (1 - 0.5 ** math.sqrt(ratio)) / (1 - 0.5 ** math.sqrt(1 / ratio))
+    return ratio
+
+
 @pytest.mark.parametrize(
-    ("family", "measure"),
-    [("logistic", "odds ratio"), ("risk_ratio", "risk ratio"), ("cox", "hazard ratio")],
+    ("family", "measure", "conversion"),
+    [
+        ("logistic", "odds ratio", "square root"),
+        ("risk_ratio", "risk ratio", "as it is"),
+        ("cox", "hazard ratio", "0.5^√HR"),
+    ],
 )
-def test_other_families_run_on_the_demo(family, measure):
+def test_other_families_run_on_the_demo(family, measure, conversion):
     r = run_study(load_project(DEMO / "demo_project.json"), family=family)
     assert r.effect_measure == measure
     for key in ("crude", "recommended", "full"):
@@ -127,6 +142,12 @@ def test_other_families_run_on_the_demo(family, measure):
         assert fit is not None
         assert fit.ok, fit.message
     assert r.evalue is not None
+    assert conversion in r.evalue.conversion
+    rec = r.estimates["recommended"]
+    assert rec is not None
+    assert rec.ratio is not None
+    rr = _as_rr(family, rec.ratio)
+    assert r.evalue.estimate == pytest.approx(rr + math.sqrt(rr * (rr - 1)))
     assert r.verdicts["badge"].code == "exclude_measures_exposure"
     assert r.verdicts["inflam"].code == "exclude_pathway"
 

@@ -325,6 +325,14 @@ def run_study(
         except DataError as exc:
             messages.append(f"{exc} Only the diagram is analysed.")
             sample, engine = None, None
+        columns = project.analysis.family_columns.get(family, {})
+        if engine is not None and columns:
+            # The outcome node may be bound to another column than this family reads.
+            shown = ", ".join(f"{k} {v!r}" for k, v in sorted(columns.items()))
+            messages.append(
+                f"The {family} model of {names[outcome]} reads the column(s) {shown} "
+                "(set per family in the project's analysis settings)."
+            )
     else:
         messages.append(
             "No data are bound to this project, so the verdicts come from the diagram alone; "
@@ -417,7 +425,7 @@ def run_study(
     if proposed and not da.review.sufficient:
         messages.append(
             f"The proposed set {format_set(names[p] for p in proposed)} is not sufficient: it leaves "
-            f"{da.review.open_paths_text()} backdoor path(s) open."
+            f"{len(da.review.open_paths)} backdoor path(s) open."
         )
 
     # Verdicts.
@@ -476,7 +484,12 @@ def run_study(
         verdict = decide_verdict(
             f, _numbers(evidence, c), family=family, thresholds=thresholds, names=names
         )
-        if evidence is None and node.measured and verdict.code != "unmeasured":
+        if (
+            evidence is None
+            and node.measured
+            and verdict.code != "unmeasured"
+            and "no data" not in verdict.reason
+        ):
             verdict = Verdict(
                 verdict.node,
                 verdict.code,

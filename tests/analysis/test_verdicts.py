@@ -41,6 +41,12 @@ def test_data_that_show_a_copy_of_the_exposure_exclude_it():
     assert "+180.0%" in v.reason
     assert "0.9" in v.reason
     assert "20%" in v.reason
+    # A strong confounder under the R² guide is not a copy of the exposure.
+    n_under = Numbers(added=Shift(30.0, 180.0), r2_exposure=0.85)
+    assert decide_verdict(Facts("w", "confounder"), n_under).code == "adjust"
+    assert decide_verdict(Facts("w", "confounder"), n_under, thresholds={"r2": 0.8}).code == (
+        "exclude_measures_exposure"
+    )
     # High R² alone, without the SE inflation past its guide, is not enough.
     n2 = Numbers(added=Shift(30.0, 10.0), r2_exposure=0.95)
     assert decide_verdict(Facts("w", "confounder"), n2).code == "adjust"

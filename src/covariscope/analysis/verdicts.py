@@ -341,10 +341,10 @@ def _measures_exposure(f: Facts, n: Numbers, t: Mapping[str, float]) -> Verdict 
     if not (f.measures_exposure or by_data):
         return None
     numbers = (
-        f"R² of the exposure on it is {_num(n.r2_exposure)} (guide {_guide(t, 'r2')}) and adding "
+        f"; R² of the exposure on it is {_num(n.r2_exposure)} (guide {_guide(t, 'r2')}) and adding "
         f"it inflates the exposure's standard error by {_pct(se)} (guide {_guide(t, 'se_inflation_pct')})"
         if n.r2_exposure is not None
-        else "no data are bound to check it"
+        else ""
     )
     why = (
         "the diagram links it to the exposure as another measure of it"
@@ -354,7 +354,7 @@ def _measures_exposure(f: Facts, n: Numbers, t: Mapping[str, float]) -> Verdict 
     return _verdict(
         f,
         "exclude_measures_exposure",
-        f"Exclude: {why}; {numbers}, so adjusting for it would remove the exposure's own variation.",
+        f"Exclude: {why}{numbers}, so adjusting for it would remove the exposure's own variation.",
     )
 
 
