@@ -15,6 +15,8 @@ __all__ = ["format_study_text"]
 def _fmt(value: float | None, spec: str = ".1f", suffix: str = "") -> str:
     if value is None or not math.isfinite(value):
         return "–"
+    if spec.endswith("f") and not round(value, int(spec[-2])):
+        value = 0.0  # never "-0.0"
     return f"{value:{spec}}{suffix}"
 
 

@@ -294,3 +294,8 @@ def test_confounder_in_a_non_collapsible_family_carries_the_caution(family, meas
     assert "-18.0% on the ratio scale" in v.reason
     linear = decide_verdict(Facts("age", "confounder"), n, family="risk_ratio")
     assert "non-collapsib" not in linear.reason
+
+
+def test_a_change_that_rounds_to_zero_has_no_minus_sign():
+    v = decide_verdict(Facts("s", "precision"), Numbers(added=Shift(-0.01, -0.04)))
+    assert "by +0.0% and its standard error by +0.0%" in v.reason

@@ -206,7 +206,9 @@ class Facts:
 
 
 def _pct(value: float | None) -> str:
-    return "not defined" if value is None else f"{value:+.1f}%"
+    if value is None:
+        return "not defined"
+    return f"{value if round(value, 1) else 0.0:+.1f}%"  # never "-0.0%"
 
 
 def _num(value: float | None, digits: int = 3) -> str:
