@@ -181,3 +181,62 @@ def test_missing_data_can_be_relocated(qtbot, window, demo, tmp_path):
     assert w.project.data_path() == (moved / "cohort.csv").resolve()
     assert w.isWindowModified()
     assert not [t for t, _ in w.prompts.said if t == "The data file has changed"]
+
+
+def test_command_line_project_opens_and_joins_recent_files(qtbot, demo, monkeypatch):
+    """``covariscope PROJECT`` opens the project; it then heads Open recent,
+    whose entry opens it again; autosave runs every minute."""
+    from covariscope.qt import app, project_io
+
+    monkeypatch.setattr(project_io.Prompts, "yes_no", lambda self, title, text: False)
+    monkeypatch.setattr(project_io.Prompts, "warn", lambda self, title, text: None)
+    path = demo / "demo_project.json"
+    window = app.start_window(str(path))
+    qtbot.addWidget(window)
+    try:
+        assert window.project.path.resolve() == path.resolve()
+        assert window.io.recent_files()[0] == str(window.project.path)
+        assert window.io.autosave_timer.interval() == 60_000
+        assert window.io.autosave_timer.isActive()
+        window.io.new()
+        assert window.project.path is None
+        window.actions_.fill_recent()
+        entry = next(a for a in window.actions_.recent_menu.actions() if a.text() == str(path))
+        entry.trigger()
+        assert window.project.path is not None
+        assert window.project.path.name == "demo_project.json"
+    finally:
+        window.io.extra_modified = False
+        window.undo_stack.setClean()
+        window.close()
+
+
+def test_panel_edits_undo_and_redo_through_the_window_actions(qtbot, window, demo):
+    """Edits made outside the canvas (type, reference level, family,
+    binding, unbinding, kind, measured) each undo and redo to the saved form."""
+    from covariscope.model.project import project_to_dict
+
+    w = window
+    w.io.open(str(demo / "demo_project.json"))
+    qtbot.waitUntil(lambda: w.data.table is not None, timeout=30_000)
+    w.runner._timer.setInterval(3_600_000)  # no analysis needed here: keep the test quick
+    edits = [
+        lambda: w.data_panel.type_requested.emit("prior_job", "categorical"),
+        lambda: w.data_panel.reference_requested.emit("smoke", "former"),
+        lambda: w.actions_.family["risk_ratio"].trigger(),
+        lambda: w.data_panel.unbind_requested.emit("age"),
+        lambda: w.data_panel.bind_requested.emit("income", "worker"),
+        lambda: (w.scene.select_ids(["age"]), w.actions_.make_outcome.trigger()),
+        lambda: (w.scene.select_ids(["income"]), w.actions_.toggle_measured.trigger()),
+    ]
+    for edit in edits:
+        before = project_to_dict(w.project)
+        count = w.undo_stack.count()
+        edit()
+        assert w.undo_stack.count() == count + 1
+        after = project_to_dict(w.project)
+        assert after != before
+        w.actions_.undo.trigger()
+        assert project_to_dict(w.project) == before
+        w.actions_.redo.trigger()
+        assert project_to_dict(w.project) == after
