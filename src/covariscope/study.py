@@ -17,7 +17,6 @@ from __future__ import annotations
 import math
 from collections.abc import Callable, Mapping, Sequence
 
-import networkx as nx
 import numpy as np
 
 from covariscope.analysis.evalue import COMMON_OUTCOME_PREVALENCE, EValue, evalue_for_estimate
@@ -29,9 +28,7 @@ from covariscope.analysis.evidence import (
 )
 from covariscope.analysis.fits import RATIO_FAMILIES, Fit, effect_measure
 from covariscope.analysis.graph import (
-    DiagramAnalysis,
     analyse_diagram,
-    backdoor_paths,
     is_sufficient,
 )
 from covariscope.analysis.recommend import pair_r2, recommend_set
@@ -51,6 +48,14 @@ from covariscope.data.sample import AnalyticSample
 from covariscope.model.errors import DataError
 from covariscope.model.project import DEFAULT_THRESHOLDS, Project
 from covariscope.study_data import prepare_evidence
+from covariscope.study_facts import (
+    group_why,
+    opened_paths,
+    stands_for,
+    suggest_member,
+    would_close,
+    would_open,
+)
 from covariscope.study_result import ESTIMATE_KEYS, Progress, StudyResult
 
 __all__ = [
@@ -95,72 +100,6 @@ def _numbers(ev: EvidenceTable | None, node: str) -> Numbers | None:
     )
 
 
-def _opened_paths(
-    G: nx.DiGraph, x: str, y: str, proposed: Sequence[str], node: str
-) -> tuple[tuple[str, ...], ...]:
-    """Backdoor paths open given the proposed set but closed without ``node``."""
-    with_open = {p.nodes for p in backdoor_paths(G, x, y, proposed).paths if p.open}
-    rest = [p for p in proposed if p != node]
-    without_open = {p.nodes for p in backdoor_paths(G, x, y, rest).paths if p.open}
-    return tuple(sorted(with_open - without_open))
-
-
-def _would_close(da: DiagramAnalysis, node: str) -> tuple[tuple[str, ...], ...]:
-    facts = da.roles[node]
-    paths = da.paths.paths
-    out = [
-        paths[i].nodes
-        for i, collider in facts.on_paths
-        if not collider and i < len(paths) and paths[i].open
-    ]
-    return tuple(out)
-
-
-def _would_open(da: DiagramAnalysis, node: str) -> tuple[tuple[str, ...], ...]:
-    """Blocked backdoor paths on which ``node`` is a collider (or descends from one)."""
-    facts = da.roles[node]
-    paths = da.paths.paths
-    return tuple(
-        paths[i].nodes for i, collider in facts.on_paths if i < len(paths) and not paths[i].open
-    )
-
-
-def _group_why(
-    group: Sequence[str],
-    proxy_groups: Sequence[Sequence[str]],
-    r2_pairs: Mapping[tuple[str, str], float],
-    flagged: Sequence[Sequence[str]],
-    r2_guide: float,
-    names: Mapping[str, str],
-) -> str:
-    """Why confounders form a collinear group, as a clause naming the numbers."""
-    members = set(group)
-    reasons: list[str] = []
-    if any(len(members & set(g)) >= 2 for g in proxy_groups):
-        reasons.append("a proxy link joins them")
-    high = sorted(
-        ((r2, a, b) for (a, b), r2 in r2_pairs.items() if {a, b} <= members and r2 >= r2_guide),
-        reverse=True,
-    )
-    if high:
-        r2, a, b = high[0]
-        who = "their" if len(members) == 2 else f"the {names.get(a, a)}–{names.get(b, b)}"
-        reasons.append(f"{who} R² is {r2:.3g} against the guide {r2_guide:g}")
-    if any(len(members & set(d)) >= 2 for d in flagged):
-        reasons.append("they share a dimension with a high condition index")
-    if len(reasons) > 1:
-        return ", ".join(reasons[:-1]) + " and " + reasons[-1]
-    return reasons[0] if reasons else ""
-
-
-def _stands_for(G: nx.DiGraph, da: DiagramAnalysis, node: str) -> tuple[str, ...]:
-    return tuple(
-        sorted(
-            a for a in nx.ancestors(G, node) if a in da.roles and da.roles[a].role == "confounder"
-        )
-    )
-
-
 def _se_lookup(
     ev: EvidenceTable | None, names: Mapping[tuple[str, ...], str]
 ) -> Callable[[tuple[str, ...]], float | None]:
@@ -171,51 +110,6 @@ def _se_lookup(
         return fit.se if fit is not None and fit.ok else None
 
     return se_of
-
-
-def _suggest(
-    group: Sequence[str],
-    alone: Sequence[str],
-    *,
-    chosen: str | None,
-    recommended: Sequence[str],
-    proposed: Sequence[str],
-    minimal: Sequence[tuple[str, ...]],
-    se_of: Callable[[tuple[str, ...]], float | None],
-    names: Mapping[str, str],
-) -> tuple[str | None, str]:
-    """The member of a collinear group to keep, and why (a clause)."""
-    if chosen in group:
-        return chosen, "it is the saved choice"
-    # The smallest SE among the minimal sets that hold the member and no other.
-    best_se: dict[str, float] = {}
-    for m in group:
-        ses = [
-            se
-            for s in minimal
-            if m in s and not (set(group) - {m}) & set(s)
-            for se in [se_of(s)]
-            if se is not None and math.isfinite(se)
-        ]
-        if ses:
-            best_se[m] = min(ses)
-    in_rec = [m for m in group if m in recommended]
-    pick = in_rec[0] if in_rec else (alone[0] if alone else None)
-    if pick is None:
-        return None, ""
-    in_proposed = [m for m in group if m in proposed]
-    if in_proposed == [pick]:
-        return pick, "it is the member in the proposed set"
-    others = {m: se for m, se in best_se.items() if m != pick}
-    if pick in best_se and others:
-        against = ", ".join(f"{se:.4g} with {names.get(m, m)}" for m, se in sorted(others.items()))
-        return pick, (
-            "its set gives the exposure estimate the smallest standard error "
-            f"({best_se[pick]:.4g}, against {against})"
-        )
-    if pick in in_rec:
-        return pick, "it is the member in the recommended set"
-    return pick, "it alone gives a sufficient set"
 
 
 def _evalue(
@@ -438,12 +332,14 @@ def run_study(
         group_alone: tuple[str, ...] = ()
         suggested: str | None = None
         why = ""
-        group_why = ""
+        grouped_because = ""
         if group:
             rest = [m for m in base if m not in group]
             group_alone = tuple(m for m in group if is_sufficient(G, exposure, outcome, [*rest, m]))
-            group_why = _group_why(group, da.groups, r2_pairs, flagged, thresholds["r2"], names)
-            suggested, why = _suggest(
+            grouped_because = group_why(
+                group, da.groups, r2_pairs, flagged, thresholds["r2"], names
+            )
+            suggested, why = suggest_member(
                 group,
                 group_alone,
                 chosen=project.analysis.keep_choices.get("|".join(sorted(group))),
@@ -453,7 +349,7 @@ def run_study(
                 se_of=se_of,
                 names=names,
             )
-        stands = _stands_for(G, da, c) if facts.role == "confounder_proxy" else ()
+        stands = stands_for(G, da, c) if facts.role == "confounder_proxy" else ()
         adjusted = tuple(s for s in stands if diagram.node(s).measured and s in base)
         f = Facts(
             node=c,
@@ -465,18 +361,18 @@ def run_study(
             in_proposed=c in proposed,
             group=group,
             group_alone=group_alone,
-            group_why=group_why,
+            group_why=grouped_because,
             suggested=suggested,
             suggested_why=why,
             opened_paths=(
-                _opened_paths(G, exposure, outcome, proposed, c)
+                opened_paths(G, exposure, outcome, proposed, c)
                 if facts.role == "collider" and c in proposed
                 else ()
             ),
-            would_open=_would_open(da, c) if facts.role == "collider" else (),
+            would_open=would_open(da, c) if facts.role == "collider" else (),
             stands_for=stands,
             stands_for_adjusted=adjusted,
-            would_close=_would_close(da, c) if not node.measured else (),
+            would_close=would_close(da, c) if not node.measured else (),
             sufficient_without=(True if rec.members is not None else (False if proposed else None)),
             set_name="recommended" if rec.members is not None else "proposed",
             set_members=tuple(base),
