@@ -7,14 +7,13 @@ from __future__ import annotations
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
-from PySide6.QtCore import QEvent, QObject, QPointF
+from PySide6.QtCore import QObject
 
-from covariscope.model.commands import AddNode, Macro
-from covariscope.model.diagram import Node
+from covariscope.model.commands import Macro
 from covariscope.model.errors import CovariscopeError
 from covariscope.model.project import DataRef
 from covariscope.panels.commands import SetData, SetSettings, bind_column
-from covariscope.panels.data_panel import COLUMN_MIME, matching_bindings
+from covariscope.panels.data_panel import matching_bindings
 from covariscope.qt.project_io import DATA_FILTER
 from covariscope.qt.worker import LoadRunner
 
@@ -188,42 +187,3 @@ class DataController(QObject):
         return self.w.push(
             SetSettings(self.w.project, f"Reference level of {column}", reference_levels=refs)
         )
-
-    def add_bound_node(self, column: str, pos: QPointF) -> str | None:
-        """A new covariate bound to ``column`` at ``pos`` (one undo step)."""
-        project = self.w.project
-        node_id = project.diagram.fresh_id(column)
-        steps = [
-            c
-            for n in project.diagram.nodes
-            if n.column == column
-            if (c := bind_column(project, n.id, None)) is not None
-        ]
-        steps.append(
-            AddNode(project, Node(node_id, label=column, column=column, x=pos.x(), y=pos.y()))
-        )
-        if self.w.push(Macro(f"Add {node_id} from column {column}", steps)):
-            return node_id
-        return None
-
-
-class ColumnDropFilter(QObject):
-    """Accepts columns dragged from the data panel onto the canvas."""
-
-    def __init__(self, controller: DataController, view: Any) -> None:
-        super().__init__(view)
-        self.controller, self.view = controller, view
-
-    def eventFilter(self, obj: QObject, event: QEvent) -> bool:
-        kind = event.type()
-        if kind in (QEvent.Type.DragEnter, QEvent.Type.DragMove):
-            if event.mimeData().hasFormat(COLUMN_MIME):
-                event.acceptProposedAction()
-                return True
-        elif kind == QEvent.Type.Drop and event.mimeData().hasFormat(COLUMN_MIME):
-            name = bytes(event.mimeData().data(COLUMN_MIME)).decode("utf-8")
-            pos = self.view.mapToScene(event.position().toPoint())
-            self.controller.add_bound_node(name, pos)
-            event.acceptProposedAction()
-            return True
-        return False

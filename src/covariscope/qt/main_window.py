@@ -17,7 +17,6 @@ from PySide6.QtGui import QUndoStack
 from PySide6.QtWidgets import (
     QApplication,
     QDockWidget,
-    QGraphicsScene,
     QLabel,
     QMainWindow,
     QProgressBar,
@@ -33,8 +32,9 @@ from covariscope.panels.diagnostics import node_labels
 from covariscope.panels.review import proposed_after_toggle
 from covariscope.qt import output
 from covariscope.qt.actions import WindowActions
+from covariscope.qt.canvas import DiagramScene, DiagramView
 from covariscope.qt.clipboard import selection_from_mime, selection_mime
-from covariscope.qt.data_controller import ColumnDropFilter, DataController
+from covariscope.qt.data_controller import DataController
 from covariscope.qt.data_panel import DataPanel
 from covariscope.qt.diagnostics import CovariateDialog, EndpointDialog, NodeDialog
 from covariscope.qt.estimates_strip import EstimatesStrip
@@ -44,18 +44,7 @@ from covariscope.qt.settings_dialogs import ThresholdsDialog
 from covariscope.qt.undo import push
 from covariscope.qt.worker import AnalysisRunner
 
-__all__ = ["MainWindow", "canvas_classes"]
-
-
-def canvas_classes() -> tuple[type, type]:
-    """The diagram scene and view; a plain stand-in while the canvas is absent."""
-    try:
-        from covariscope.qt.canvas import DiagramScene, DiagramView
-    except ImportError:
-        from covariscope.qt._canvas_stand_in import StandInScene, StandInView
-
-        return StandInScene, StandInView
-    return DiagramScene, DiagramView
+__all__ = ["MainWindow"]
 
 
 class MainWindow(QMainWindow):
@@ -180,22 +169,18 @@ class MainWindow(QMainWindow):
         self.project = project
         self.result = None
         self.runner.result = None
-        scene_cls, view_cls = canvas_classes()
-        if self.scene is not None and hasattr(self.scene, "detach"):
+        if self.scene is not None:
             self.scene.detach()
-        scene = scene_cls(project, self.undo_stack, self)  # owned by the window
-        view = view_cls(scene)
+        scene = DiagramScene(project, self.undo_stack, self)  # owned by the window
+        view = DiagramView(scene)
         view.setObjectName("diagramView")
         view.setAcceptDrops(True)
         view.viewport().setAcceptDrops(True)
-        if scene_cls.dropEvent is QGraphicsScene.dropEvent:
-            # the canvas takes column drops itself; the stand-in needs help
-            view.viewport().installEventFilter(ColumnDropFilter(self.data, view))
         scene.node_double_clicked.connect(self.open_diagnostics)
         scene.selection_changed_ids.connect(self._selection_changed)
         scene.message.connect(self.show_message)
         scene.proposed_toggled.connect(self.set_proposed_member)
-        if hasattr(scene, "mode_changed") and hasattr(self, "actions_"):
+        if hasattr(self, "actions_"):
             scene.mode_changed.connect(self.actions_.sync_mode)
         if self.view is not None:
             self.centre.layout().removeWidget(self.view)
