@@ -1,0 +1,186 @@
+"""Verdict vocabulary and the plain-number records the rules read.
+
+The codes are stable (``check --json`` carries them); :data:`LABELS` gives
+each its short human form.  :class:`Facts` holds what the diagram says about
+one covariate, :class:`Numbers` (with its :class:`Shift` comparisons) what
+the data say, and :class:`Verdict` the answer.
+
+Vocabulary: ``adjust``, ``keep_one_of``, ``exclude_measures_exposure``,
+``exclude_pathway``, ``exclude_descendant``, ``exclude_collider``,
+``optional_precision``, ``avoid_instrument``, ``consider_proxy``,
+``review``, ``unmeasured``.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+
+__all__ = [
+    "DEFAULT_THRESHOLDS",
+    "LABELS",
+    "NONCOLLAPSIBLE_FAMILIES",
+    "NONCOLLAPSIBLE_R2",
+    "VERDICTS",
+    "Facts",
+    "Numbers",
+    "Shift",
+    "Verdict",
+]
+
+VERDICTS: tuple[str, ...] = (
+    "adjust",
+    "keep_one_of",
+    "exclude_measures_exposure",
+    "exclude_pathway",
+    "exclude_descendant",
+    "exclude_collider",
+    "optional_precision",
+    "avoid_instrument",
+    "consider_proxy",
+    "review",
+    "unmeasured",
+)
+
+LABELS: dict[str, str] = {
+    "adjust": "Adjust",
+    "keep_one_of": "Keep one of",
+    "exclude_measures_exposure": "Exclude — measures the exposure",
+    "exclude_pathway": "Exclude — on the pathway",
+    "exclude_descendant": "Exclude — descendant",
+    "exclude_collider": "Exclude — collider",
+    "optional_precision": "Optional — precision",
+    "avoid_instrument": "Avoid — instrument-like",
+    "consider_proxy": "Consider — proxy of a confounder",
+    "review": "Review — diagram and data disagree",
+    "unmeasured": "Not measured",
+}
+
+#: Families whose effect measure is non-collapsible (odds and hazard ratios).
+NONCOLLAPSIBLE_FAMILIES = frozenset({"logistic", "cox"})
+
+#: Below this R² of the exposure on a covariate's terms, a shift in an odds or
+#: hazard ratio is read as non-collapsibility rather than confounding: a
+#: covariate that barely predicts the exposure cannot confound much, yet it
+#: moves a non-collapsible estimate whenever it predicts the outcome (common
+#: practice; no published cut-off).
+NONCOLLAPSIBLE_R2 = 0.01
+
+#: The guides (common practice; see :mod:`covariscope.analysis.verdicts`).
+DEFAULT_THRESHOLDS: dict[str, float] = {
+    "change_pct": 10.0,
+    "se_inflation_pct": 20.0,
+    "vif": 10.0,
+    "r2": 0.9,
+    "condition_index": 30.0,
+}
+
+
+@dataclass(frozen=True)
+class Verdict:
+    """The answer for one covariate.
+
+    ``code`` is one of :data:`VERDICTS`; ``label`` its short human form;
+    ``reason`` one sentence naming the numbers and thresholds used.  For
+    ``keep_one_of``, ``group`` holds the members and ``suggested`` the member
+    suggested.
+    """
+
+    node: str
+    code: str
+    label: str
+    reason: str
+    group: tuple[str, ...] = ()
+    suggested: str | None = None
+
+
+@dataclass(frozen=True)
+class Shift:
+    """One "with C against without C" comparison, as plain numbers.
+
+    ``change_pct`` is on the coefficient scale (None when undefined);
+    ``change_pct_ratio`` on the ratio scale (ratio families only).
+    """
+
+    change_pct: float | None
+    se_inflation_pct: float | None
+    change_pct_ratio: float | None = None
+
+    def change_read(self, ratio_family: bool) -> float | None:
+        """The change the threshold reads: the ratio scale for ratio families."""
+        value = self.change_pct_ratio if ratio_family else self.change_pct
+        return value if value is not None and math.isfinite(value) else None
+
+
+@dataclass(frozen=True)
+class Numbers:
+    """What the data say about one covariate (None when not computed)."""
+
+    added: Shift | None = None
+    dropped: Shift | None = None
+    vif_exposure: float | None = None
+    vif: float | None = None
+    aux_r2: float | None = None
+    r2_exposure: float | None = None
+
+
+@dataclass(frozen=True)
+class Facts:
+    """What the diagram (and the set-up) says about one covariate.
+
+    Attributes
+    ----------
+    node, role : str
+        The covariate and its role (see :mod:`covariscope.analysis.roles`).
+    measured : bool
+        False for a variable marked as not measured.
+    has_data : bool
+        Whether the numbers come from data (bound to a column of a loaded table).
+    measures_exposure, measures_outcome : bool
+        A proxy link to the exposure (outcome).
+    in_proposed : bool
+        Whether the analyst proposes to adjust for it.
+    group : tuple of str
+        Its collinear confounder group (itself included), if any.
+    group_alone : tuple of str
+        Members of the group that alone still give a sufficient set.
+    group_why : str
+        Why the members form a group (a clause: "a proxy link joins them", ...).
+    suggested, suggested_why : str
+        For a group: the member suggested and why (a clause).
+    opened_paths : tuple of paths
+        Backdoor paths that the proposed set opens through this node.
+    would_open : tuple of paths
+        For a collider: blocked backdoor paths that adjusting for it alone opens.
+    stands_for : tuple of str
+        For a confounder proxy: the confounders it descends from.
+    stands_for_adjusted : tuple of str
+        Those of ``stands_for`` that are measured and in the adjustment set used.
+    would_close : tuple of paths
+        For an unmeasured node: open backdoor paths it lies on as a non-collider.
+    sufficient_without : bool or None
+        For an unmeasured node: whether the set in use suffices without it.
+    set_name, set_members : str, tuple
+        The adjustment set the last two facts refer to ("recommended", ...).
+    """
+
+    node: str
+    role: str
+    measured: bool = True
+    has_data: bool = True
+    measures_exposure: bool = False
+    measures_outcome: bool = False
+    in_proposed: bool = False
+    group: tuple[str, ...] = ()
+    group_alone: tuple[str, ...] = ()
+    group_why: str = ""
+    suggested: str | None = None
+    suggested_why: str = ""
+    opened_paths: tuple[tuple[str, ...], ...] = ()
+    would_open: tuple[tuple[str, ...], ...] = ()
+    stands_for: tuple[str, ...] = ()
+    stands_for_adjusted: tuple[str, ...] = ()
+    would_close: tuple[tuple[str, ...], ...] = ()
+    sufficient_without: bool | None = None
+    set_name: str = "recommended"
+    set_members: tuple[str, ...] = field(default=())

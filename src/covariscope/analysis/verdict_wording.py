@@ -1,0 +1,117 @@
+"""Wording for verdict sentences: percentages, guides, sets, paths, labels.
+
+Each verdict's sentence names the numbers and the guides it used; these
+helpers keep that wording the same across the rules.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Iterable, Mapping, Sequence
+from dataclasses import replace
+
+from covariscope.analysis.verdict_terms import Facts, Numbers
+
+__all__ = [
+    "COMPARISON_WORDS",
+    "format_set",
+    "guide",
+    "labelled",
+    "largest_shift",
+    "num",
+    "path_words",
+    "pct",
+    "scale_words",
+    "shift_clause",
+]
+
+
+def pct(value: float | None) -> str:
+    if value is None:
+        return "not defined"
+    return f"{value if round(value, 1) else 0.0:+.1f}%"  # never "-0.0%"
+
+
+def num(value: float | None, digits: int = 3) -> str:
+    return "not available" if value is None or not math.isfinite(value) else f"{value:.{digits}g}"
+
+
+def format_set(members: Iterable[str]) -> str:
+    """``["age", "sex"]`` → ``"{age, sex}"``."""
+    items = list(members)
+    return "{" + ", ".join(items) + "}" if items else "the empty set"
+
+
+def path_words(nodes: Sequence[str]) -> str:
+    return " – ".join(nodes)
+
+
+def _label(node: str, names: Mapping[str, str]) -> str:
+    """A node's label; a measure group ("a|b") by its members' labels."""
+    return " | ".join(names.get(m, m) or m for m in node.split("|"))
+
+
+def labelled(f: Facts, names: Mapping[str, str]) -> Facts:
+    """The facts with every node named by its label, for the sentence only."""
+
+    def one(node: str) -> str:
+        return _label(node, names)
+
+    def many(nodes: Iterable[str]) -> tuple[str, ...]:
+        return tuple(one(n) for n in nodes)
+
+    def paths(ps: Iterable[Sequence[str]]) -> tuple[tuple[str, ...], ...]:
+        return tuple(many(p) for p in ps)
+
+    return replace(
+        f,
+        node=one(f.node),
+        group=many(f.group),
+        group_alone=many(f.group_alone),
+        suggested=one(f.suggested) if f.suggested is not None else None,
+        opened_paths=paths(f.opened_paths),
+        would_open=paths(f.would_open),
+        stands_for=many(f.stands_for),
+        stands_for_adjusted=many(f.stands_for_adjusted),
+        would_close=paths(f.would_close),
+        set_members=many(f.set_members),
+    )
+
+
+def guide(t: Mapping[str, float], key: str) -> str:
+    value = t[key]
+    if key in ("change_pct", "se_inflation_pct"):
+        return f"{value:g}%"
+    return f"{value:g}"
+
+
+def scale_words(ratio_family: bool) -> str:
+    return " on the ratio scale" if ratio_family else ""
+
+
+def shift_clause(n: Numbers, ratio: bool) -> str:
+    """ "adding it moves the estimate by +12.0% and its SE by +3.0%"."""
+    if n.added is None:
+        return "no comparison could be made"
+    return (
+        f"adding it to the crude model moves the estimate by {pct(n.added.change_read(ratio))}"
+        f"{scale_words(ratio)} and its standard error by {pct(n.added.se_inflation_pct)}"
+    )
+
+
+def largest_shift(n: Numbers, ratio: bool) -> tuple[str, float] | None:
+    """The comparison that shifts the estimate most: ("added"|"dropped", change)."""
+    best: tuple[str, float] | None = None
+    for name, shift in (("added", n.added), ("dropped", n.dropped)):
+        if shift is None:
+            continue
+        value = shift.change_read(ratio)
+        if value is not None and (best is None or abs(value) > abs(best[1])):
+            best = (name, value)
+    return best
+
+
+COMPARISON_WORDS = {
+    "added": "adding it to the crude model",
+    "dropped": "adding it last (the full model against the full model without it)",
+}
