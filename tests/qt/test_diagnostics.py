@@ -4,80 +4,11 @@ node; its note is saved into the project (undoable); a screenshot."""
 from __future__ import annotations
 
 import shutil
-from pathlib import Path
 
-import pytest
 from PySide6.QtWidgets import QApplication
 
-DEMO = Path(__file__).resolve().parents[2] / "demo_data"
-SHOTS = Path("/tmp/shots")
 
-
-class FakePrompts:
-    """Answers the window's questions without dialogs; records what was said."""
-
-    def __init__(self) -> None:
-        self.said: list[tuple[str, str]] = []
-        self.answers: dict[str, object] = {}
-
-    def save_changes(self, name):
-        return self.answers.get("save_changes", "discard")
-
-    def yes_no(self, title, text):
-        self.said.append((title, text))
-        return bool(self.answers.get(title, False))
-
-    def warn(self, title, text):
-        self.said.append((title, text))
-
-    info = warn
-
-    def open_path(self, title, filter_, start=""):
-        return self.answers.get("open_path")
-
-    def save_path(self, title, filter_, start=""):
-        return self.answers.get("save_path")
-
-
-@pytest.fixture
-def demo(tmp_path):
-    if not (DEMO / "demo_project.json").exists():
-        pytest.skip("the demo study is not there yet")
-    for name in ("demo_project.json", "demo_cohort.csv"):
-        shutil.copyfile(DEMO / name, tmp_path / name)
-    return tmp_path
-
-
-@pytest.fixture
-def window(qtbot):
-    from covariscope.qt.app import application
-    from covariscope.qt.main_window import MainWindow
-
-    application()
-    prompts = FakePrompts()
-    w = MainWindow(prompts=prompts, debounce_ms=20)
-    qtbot.addWidget(w)
-    w.show()
-    yield w
-    w.io.extra_modified = False
-    w.undo_stack.setClean()
-    w.close()
-
-
-def wait_for_analysis(qtbot, w, timeout=90_000):
-    qtbot.waitUntil(
-        lambda: (
-            w.result is not None
-            and not w.runner.running
-            and not w.runner.pending
-            and not w.data.loading
-            and w.state_label.text() == "Analysis up to date"
-        ),
-        timeout=timeout,
-    )
-
-
-def test_dialog_shows_the_json_numbers(qtbot, window, demo):
+def test_dialog_shows_the_json_numbers(qtbot, window, demo, wait_for_analysis):
     from covariscope.model.project import load_project
     from covariscope.panels.format import number, percent
     from covariscope.study import run_study, study_to_json
@@ -109,7 +40,7 @@ def test_dialog_shows_the_json_numbers(qtbot, window, demo):
         dialog.close()
 
 
-def test_note_is_saved_undoably_and_follows_the_analysis(qtbot, window, demo):
+def test_note_is_saved_undoably_and_follows_the_analysis(qtbot, window, demo, wait_for_analysis):
     w = window
     w.io.open(str(demo / "demo_project.json"))
     wait_for_analysis(qtbot, w)
@@ -130,7 +61,7 @@ def test_note_is_saved_undoably_and_follows_the_analysis(qtbot, window, demo):
     dialog.close()
 
 
-def test_endpoint_dialog_changes_the_family(qtbot, window, demo):
+def test_endpoint_dialog_changes_the_family(qtbot, window, demo, wait_for_analysis):
     w = window
     w.io.open(str(demo / "demo_project.json"))
     wait_for_analysis(qtbot, w)
@@ -145,7 +76,7 @@ def test_endpoint_dialog_changes_the_family(qtbot, window, demo):
     dialog.close()
 
 
-def test_screenshot_of_the_dialog(qtbot, window, demo, tmp_path):
+def test_screenshot_of_the_dialog(qtbot, window, demo, tmp_path, wait_for_analysis, shots):
     w = window
     w.io.open(str(demo / "demo_project.json"))
     wait_for_analysis(qtbot, w)
@@ -154,6 +85,5 @@ def test_screenshot_of_the_dialog(qtbot, window, demo, tmp_path):
         QApplication.processEvents()
         shot = tmp_path / name
         assert dialog.grab().save(str(shot))
-        SHOTS.mkdir(exist_ok=True)
-        shutil.copyfile(shot, SHOTS / name)
+        shutil.copyfile(shot, shots / name)
         dialog.close()

@@ -5,83 +5,10 @@ screenshot of the window with the demo loaded."""
 from __future__ import annotations
 
 import shutil
-from pathlib import Path
 
-import pytest
 from PySide6.QtCore import QPointF, Qt
 from PySide6.QtGui import QDragEnterEvent, QDropEvent
 from PySide6.QtWidgets import QApplication
-
-DEMO = Path(__file__).resolve().parents[2] / "demo_data"
-SHOTS = Path("/tmp/shots")
-
-
-class FakePrompts:
-    """Answers the window's questions without dialogs; records what was said."""
-
-    def __init__(self) -> None:
-        self.said: list[tuple[str, str]] = []
-        self.answers: dict[str, object] = {}
-
-    def save_changes(self, name):
-        return self.answers.get("save_changes", "discard")
-
-    def yes_no(self, title, text):
-        self.said.append((title, text))
-        return bool(self.answers.get(title, False))
-
-    def warn(self, title, text):
-        self.said.append((title, text))
-
-    info = warn
-
-    def open_path(self, title, filter_, start=""):
-        return self.answers.get("open_path")
-
-    def save_path(self, title, filter_, start=""):
-        return self.answers.get("save_path")
-
-    def printer(self):
-        self.said.append(("printer", ""))
-        return self.answers.get("printer")
-
-
-@pytest.fixture
-def demo(tmp_path):
-    if not (DEMO / "demo_project.json").exists():
-        pytest.skip("the demo study is not there yet")
-    for name in ("demo_project.json", "demo_cohort.csv"):
-        shutil.copyfile(DEMO / name, tmp_path / name)
-    return tmp_path
-
-
-@pytest.fixture
-def window(qtbot):
-    from covariscope.qt.app import application
-    from covariscope.qt.main_window import MainWindow
-
-    application()
-    prompts = FakePrompts()
-    w = MainWindow(prompts=prompts, debounce_ms=20)
-    qtbot.addWidget(w)
-    w.show()
-    yield w
-    w.io.extra_modified = False
-    w.undo_stack.setClean()
-    w.close()
-
-
-def wait_for_analysis(qtbot, w, timeout=90_000):
-    qtbot.waitUntil(
-        lambda: (
-            w.result is not None
-            and not w.runner.running
-            and not w.runner.pending
-            and not w.data.loading
-            and w.state_label.text() == "Analysis up to date"
-        ),
-        timeout=timeout,
-    )
 
 
 def drop_column(w, column: str, scene_pos: QPointF) -> None:
@@ -102,7 +29,7 @@ def drop_column(w, column: str, scene_pos: QPointF) -> None:
     QApplication.sendEvent(viewport, drop)
 
 
-def test_build_the_demo_from_an_empty_window(qtbot, window, demo):
+def test_build_the_demo_from_an_empty_window(qtbot, window, demo, wait_for_analysis):
     from covariscope.model.project import load_project
     from covariscope.study import run_study, study_to_json
 
@@ -170,7 +97,7 @@ def test_build_the_demo_from_an_empty_window(qtbot, window, demo):
     assert w.project.proposed == a.proposed
 
 
-def test_screenshot_with_the_demo(qtbot, window, demo, tmp_path):
+def test_screenshot_with_the_demo(qtbot, window, demo, tmp_path, wait_for_analysis, shots):
     w = window
     assert w.io.open(str(demo / "demo_project.json"))
     wait_for_analysis(qtbot, w)
@@ -181,8 +108,7 @@ def test_screenshot_with_the_demo(qtbot, window, demo, tmp_path):
     qtbot.waitUntil(lambda: w.strip.cells["crude"].value.text() != "—")
     shot = tmp_path / "main_window.png"
     assert w.grab().save(str(shot))
-    SHOTS.mkdir(exist_ok=True)
-    shutil.copyfile(shot, SHOTS / "main_window.png")
+    shutil.copyfile(shot, shots / "main_window.png")
     assert "Analysis up to date" in w.state_label.text()
     sample = w.result.sample
     assert w.rows_label.text() == f"{sample.used:,} of {sample.rows:,} rows used"
@@ -227,7 +153,7 @@ def test_shortcuts(window):
     assert "Ctrl+Shift+Z" in [k.toString() for k in a.redo.shortcuts()]
 
 
-def test_review_csv_export(qtbot, window, demo, tmp_path):
+def test_review_csv_export(qtbot, window, demo, tmp_path, wait_for_analysis):
     w = window
     w.io.open(str(demo / "demo_project.json"))
     wait_for_analysis(qtbot, w)
@@ -238,7 +164,7 @@ def test_review_csv_export(qtbot, window, demo, tmp_path):
     assert len(text.splitlines()) == 1 + len(w.project.diagram.covariates)
 
 
-def test_copy_paste_goes_through_the_system_clipboard(qtbot, window, demo):
+def test_copy_paste_goes_through_the_system_clipboard(qtbot, window, demo, fake_prompts):
     from covariscope.qt.clipboard import SELECTION_MIME
     from covariscope.qt.main_window import MainWindow
 
@@ -249,7 +175,7 @@ def test_copy_paste_goes_through_the_system_clipboard(qtbot, window, demo):
     mime = QApplication.clipboard().mimeData()
     assert mime.hasFormat(SELECTION_MIME)
     assert mime.text().splitlines() == ["Age", "Years since school"]
-    other = MainWindow(prompts=FakePrompts(), debounce_ms=20)
+    other = MainWindow(prompts=fake_prompts(), debounce_ms=20)
     qtbot.addWidget(other)
     try:
         other.actions_.paste.trigger()
@@ -269,7 +195,7 @@ def test_copy_paste_goes_through_the_system_clipboard(qtbot, window, demo):
     assert len(w.project.diagram) == before
 
 
-def test_print_goes_through_the_prompts_printer(qtbot, window, demo, tmp_path):
+def test_print_goes_through_the_prompts_printer(qtbot, window, demo, tmp_path, wait_for_analysis):
     from PySide6.QtPrintSupport import QPrinter
 
     w = window

@@ -3,78 +3,6 @@ losing work, the data file's fingerprint and a missing data file."""
 
 from __future__ import annotations
 
-import shutil
-from pathlib import Path
-
-import pytest
-
-DEMO = Path(__file__).resolve().parents[2] / "demo_data"
-SHOTS = Path("/tmp/shots")
-
-
-class FakePrompts:
-    """Answers the window's questions without dialogs; records what was said."""
-
-    def __init__(self) -> None:
-        self.said: list[tuple[str, str]] = []
-        self.answers: dict[str, object] = {}
-
-    def save_changes(self, name):
-        return self.answers.get("save_changes", "discard")
-
-    def yes_no(self, title, text):
-        self.said.append((title, text))
-        return bool(self.answers.get(title, False))
-
-    def warn(self, title, text):
-        self.said.append((title, text))
-
-    info = warn
-
-    def open_path(self, title, filter_, start=""):
-        return self.answers.get("open_path")
-
-    def save_path(self, title, filter_, start=""):
-        return self.answers.get("save_path")
-
-
-@pytest.fixture
-def demo(tmp_path):
-    if not (DEMO / "demo_project.json").exists():
-        pytest.skip("the demo study is not there yet")
-    for name in ("demo_project.json", "demo_cohort.csv"):
-        shutil.copyfile(DEMO / name, tmp_path / name)
-    return tmp_path
-
-
-@pytest.fixture
-def window(qtbot):
-    from covariscope.qt.app import application
-    from covariscope.qt.main_window import MainWindow
-
-    application()
-    prompts = FakePrompts()
-    w = MainWindow(prompts=prompts, debounce_ms=20)
-    qtbot.addWidget(w)
-    w.show()
-    yield w
-    w.io.extra_modified = False
-    w.undo_stack.setClean()
-    w.close()
-
-
-def wait_for_analysis(qtbot, w, timeout=90_000):
-    qtbot.waitUntil(
-        lambda: (
-            w.result is not None
-            and not w.runner.running
-            and not w.runner.pending
-            and not w.data.loading
-            and w.state_label.text() == "Analysis up to date"
-        ),
-        timeout=timeout,
-    )
-
 
 def test_save_then_reopen_is_identical(qtbot, window, demo, tmp_path):
     from covariscope.model.project import load_project, project_to_dict
@@ -98,13 +26,13 @@ def test_save_then_reopen_is_identical(qtbot, window, demo, tmp_path):
     assert project_to_dict(w.project) == saved
 
 
-def test_recovery_is_offered_and_restores(qtbot, demo, tmp_path, monkeypatch):
+def test_recovery_is_offered_and_restores(qtbot, demo, tmp_path, monkeypatch, fake_prompts):
     from covariscope.model.project import project_to_dict
     from covariscope.panels import recovery
     from covariscope.qt.main_window import MainWindow
     from covariscope.qt.project_io import AUTOSAVE_MS, recovery_folder
 
-    first = MainWindow(prompts=FakePrompts(), debounce_ms=20)
+    first = MainWindow(prompts=fake_prompts(), debounce_ms=20)
     qtbot.addWidget(first)
     assert first.io.autosave_timer.interval() == AUTOSAVE_MS == 60_000
     first.io.open(str(demo / "demo_project.json"))
@@ -124,7 +52,7 @@ def test_recovery_is_offered_and_restores(qtbot, demo, tmp_path, monkeypatch):
     assert not written.exists()  # a clean close removes its own file
     monkeypatch.setattr(recovery, "_alive", lambda pid: False)
 
-    prompts = FakePrompts()
+    prompts = fake_prompts()
     prompts.answers["Recover unsaved work"] = True
     second = MainWindow(prompts=prompts, debounce_ms=20)
     qtbot.addWidget(second)

@@ -3,81 +3,11 @@ canvas, open paths highlighted, exports, thresholds, first start."""
 
 from __future__ import annotations
 
-import shutil
-from pathlib import Path
-
 import pytest
 from PySide6.QtCore import Qt
 
-DEMO = Path(__file__).resolve().parents[2] / "demo_data"
-SHOTS = Path("/tmp/shots")
 
-
-class FakePrompts:
-    """Answers the window's questions without dialogs; records what was said."""
-
-    def __init__(self) -> None:
-        self.said: list[tuple[str, str]] = []
-        self.answers: dict[str, object] = {}
-
-    def save_changes(self, name):
-        return self.answers.get("save_changes", "discard")
-
-    def yes_no(self, title, text):
-        self.said.append((title, text))
-        return bool(self.answers.get(title, False))
-
-    def warn(self, title, text):
-        self.said.append((title, text))
-
-    info = warn
-
-    def open_path(self, title, filter_, start=""):
-        return self.answers.get("open_path")
-
-    def save_path(self, title, filter_, start=""):
-        return self.answers.get("save_path")
-
-
-@pytest.fixture
-def demo(tmp_path):
-    if not (DEMO / "demo_project.json").exists():
-        pytest.skip("the demo study is not there yet")
-    for name in ("demo_project.json", "demo_cohort.csv"):
-        shutil.copyfile(DEMO / name, tmp_path / name)
-    return tmp_path
-
-
-@pytest.fixture
-def window(qtbot):
-    from covariscope.qt.app import application
-    from covariscope.qt.main_window import MainWindow
-
-    application()
-    prompts = FakePrompts()
-    w = MainWindow(prompts=prompts, debounce_ms=20)
-    qtbot.addWidget(w)
-    w.show()
-    yield w
-    w.io.extra_modified = False
-    w.undo_stack.setClean()
-    w.close()
-
-
-def wait_for_analysis(qtbot, w, timeout=90_000):
-    qtbot.waitUntil(
-        lambda: (
-            w.result is not None
-            and not w.runner.running
-            and not w.runner.pending
-            and not w.data.loading
-            and w.state_label.text() == "Analysis up to date"
-        ),
-        timeout=timeout,
-    )
-
-
-def test_tick_is_one_undoable_proposed_set(qtbot, window, demo):
+def test_tick_is_one_undoable_proposed_set(qtbot, window, demo, wait_for_analysis):
     w = window
     w.io.open(str(demo / "demo_project.json"))
     wait_for_analysis(qtbot, w)
@@ -103,7 +33,7 @@ def test_tick_is_one_undoable_proposed_set(qtbot, window, demo):
     assert reason in w.review.detail.text()
 
 
-def test_choosing_an_open_path_highlights_it(qtbot, window, demo, monkeypatch):
+def test_choosing_an_open_path_highlights_it(qtbot, window, demo, monkeypatch, wait_for_analysis):
     w = window
     w.io.open(str(demo / "demo_project.json"))
     wait_for_analysis(qtbot, w)
@@ -114,7 +44,7 @@ def test_choosing_an_open_path_highlights_it(qtbot, window, demo, monkeypatch):
     assert seen[-1] == list(w.paths.paths[0])
 
 
-def test_exports(qtbot, window, demo, tmp_path):
+def test_exports(qtbot, window, demo, tmp_path, wait_for_analysis):
     w = window
     w.io.open(str(demo / "demo_project.json"))
     for kind in ("png", "svg", "graphml"):
@@ -129,7 +59,7 @@ def test_exports(qtbot, window, demo, tmp_path):
     assert target.read_text(encoding="utf-8").count("\n") == 1 + len(w.project.diagram.covariates)
 
 
-def test_rationale_pdf(qtbot, window, demo, tmp_path):
+def test_rationale_pdf(qtbot, window, demo, tmp_path, wait_for_analysis):
     pytest.importorskip("covariscope.report.painter")
     w = window
     w.io.open(str(demo / "demo_project.json"))
