@@ -36,7 +36,7 @@ smoke          never / former / current; → lungfn              optional_precis
 activity       → lungfn, and age → activity, an arrow the      review
                diagram leaves out
 inhaler        from lungfn (descendant of the outcome)         exclude_descendant
-canteen        linked to nothing (unrelated)                   optional_precision
+canteen        linked to nothing (unrelated)                   not_needed
 =============  ==============================================  ======================
 
 Outcome versions: ``low_lung`` (lung-function score in the lowest quarter,

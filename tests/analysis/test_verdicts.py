@@ -23,7 +23,7 @@ def _one_sentence(reason: str) -> bool:
 
 def test_vocabulary_is_complete():
     assert set(LABELS) == set(VERDICTS)
-    assert len(VERDICTS) == 11
+    assert len(VERDICTS) == 12
 
 
 def test_proxy_link_to_the_exposure_excludes_whatever_the_role():
@@ -116,6 +116,26 @@ def test_thresholds_are_read_from_the_settings():
     v = decide_verdict(Facts("d", "precision"), n, thresholds={"change_pct": 5.0})
     assert v.code == "review"
     assert "5% guide" in v.reason
+
+
+def test_unrelated_is_not_needed_and_not_called_precision():
+    v = decide_verdict(Facts("canteen", "unrelated"), CALM)
+    assert v.code == "not_needed"
+    assert v.label == "Not needed — unrelated"
+    assert "precision" not in v.reason
+    assert v.reason.startswith(
+        "Not needed: the diagram links it to neither the exposure nor the outcome"
+    )
+    assert "+2.0%" in v.reason
+    assert "10%" in v.reason
+    assert _one_sentence(v.reason)
+    # Past the change guide the data contradict the diagram.
+    assert decide_verdict(Facts("canteen", "unrelated"), Numbers(added=Shift(12.0, 1.0))).code == (
+        "review"
+    )
+    graph_only = decide_verdict(Facts("canteen", "unrelated", has_data=False))
+    assert graph_only.code == "not_needed"
+    assert "no data" in graph_only.reason
 
 
 def test_no_review_under_the_threshold():

@@ -296,10 +296,6 @@ def role_verdict(f: Facts, n: Numbers, t: Mapping[str, float], family: str) -> V
             f"Consider: it descends from a confounder and closes no path itself; it is {advice}{data}.",
         )
     # precision or unrelated
-    if f.role == "precision":
-        what = "it predicts the outcome but not the exposure, so adjusting for it is optional and can sharpen the estimate"
-    else:
-        what = "the diagram links it to neither the exposure nor the outcome, so it is not needed"
     if n.added is not None:
         change = n.added.change_read(ratio)
         data = (
@@ -309,4 +305,12 @@ def role_verdict(f: Facts, n: Numbers, t: Mapping[str, float], family: str) -> V
         )
     else:
         data = "; no data are bound to check it" if not f.has_data else ""
-    return _verdict(f, "optional_precision", f"Optional: {what}{data}{note}.")
+    if f.role == "precision":
+        what = (
+            "it predicts the outcome but not the exposure, so adjusting for it is optional and "
+            "can sharpen the estimate"
+        )
+        return _verdict(f, "optional_precision", f"Optional: {what}{data}{note}.")
+    # Unrelated: not a precision variable, so it is not offered as an option.
+    what = "the diagram links it to neither the exposure nor the outcome, so adjusting for it gains nothing"
+    return _verdict(f, "not_needed", f"Not needed: {what}{data}{note}.")

@@ -7,7 +7,7 @@ the data say, and :class:`Verdict` the answer.
 
 Vocabulary: ``adjust``, ``keep_one_of``, ``exclude_measures_exposure``,
 ``exclude_pathway``, ``exclude_descendant``, ``exclude_collider``,
-``optional_precision``, ``avoid_instrument``, ``consider_proxy``,
+``optional_precision``, ``not_needed``, ``avoid_instrument``, ``consider_proxy``,
 ``review``, ``unmeasured``.
 """
 
@@ -36,6 +36,7 @@ VERDICTS: tuple[str, ...] = (
     "exclude_descendant",
     "exclude_collider",
     "optional_precision",
+    "not_needed",
     "avoid_instrument",
     "consider_proxy",
     "review",
@@ -50,6 +51,7 @@ LABELS: dict[str, str] = {
     "exclude_descendant": "Exclude — descendant",
     "exclude_collider": "Exclude — collider",
     "optional_precision": "Optional — precision",
+    "not_needed": "Not needed — unrelated",
     "avoid_instrument": "Avoid — instrument-like",
     "consider_proxy": "Consider — proxy of a confounder",
     "review": "Review — diagram and data disagree",

@@ -15,7 +15,8 @@ This module is the entry point; the parts live by topic:
 
 Vocabulary (stable; used in ``check --json``): ``adjust``, ``keep_one_of``,
 ``exclude_measures_exposure``, ``exclude_pathway``, ``exclude_descendant``,
-``exclude_collider``, ``optional_precision``, ``avoid_instrument``,
+``exclude_collider``, ``optional_precision``, ``not_needed`` (a covariate
+the diagram links to neither the exposure nor the outcome), ``avoid_instrument``,
 ``consider_proxy``, ``review``, ``unmeasured``.
 
 References
@@ -86,8 +87,8 @@ def decide_verdict(
     instrument or unrelated whose addition (or removal from the full model)
     shifts the estimate past ``change_pct`` → ``review`` (not for an odds or
     hazard ratio shifted by a covariate that does not predict the exposure:
-    that is non-collapsibility); otherwise ``optional_precision``,
-    ``avoid_instrument`` or ``consider_proxy``.
+    that is non-collapsibility); otherwise ``optional_precision`` (precision),
+    ``not_needed`` (unrelated), ``avoid_instrument`` or ``consider_proxy``.
 
     ``names`` maps node ids to the labels the sentence uses (ids where a node
     has none); the verdict's ``node``, ``group`` and ``suggested`` stay ids.
