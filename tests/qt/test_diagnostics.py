@@ -87,3 +87,33 @@ def test_screenshot_of_the_dialog(qtbot, window, demo, tmp_path, wait_for_analys
         assert dialog.grab().save(str(shot))
         shutil.copyfile(shot, shots / name)
         dialog.close()
+
+
+def test_dialog_keeps_another_member_of_the_group(qtbot, window, demo, wait_for_analysis):
+    w = window
+    w.io.open(str(demo / "demo_project.json"))
+    wait_for_analysis(qtbot, w)
+    before = dict(w.project.analysis.keep_choices)
+    dialog = w.open_diagnostics("area")
+    assert dialog.keep is not None and dialog.keep.key == "area|income"
+    assert dialog.keep_box.isVisibleTo(dialog)
+    suggested = dialog.keep.kept
+    assert dialog.keep_member.currentData() == suggested
+    other = next(m for m in dialog.keep.group if m != suggested)
+    dialog.choose_kept(other)
+    assert w.project.analysis.keep_choices["area|income"] == other
+    wait_for_analysis(qtbot, w)
+    assert other in w.result.recommended
+    # the dialog follows the analysis: the choice is shown as the user's
+    assert dialog.keep_member.currentData() == other
+    assert dialog.keep.saved
+    w.undo_stack.undo()
+    assert w.project.analysis.keep_choices == before
+    wait_for_analysis(qtbot, w)
+    assert dialog.keep_member.currentData() == suggested
+    assert not dialog.keep.saved
+    # a covariate with another verdict has no member to choose
+    plain = w.open_diagnostics("age")
+    assert plain.keep is None and not plain.keep_box.isVisibleTo(plain)
+    plain.close()
+    dialog.close()

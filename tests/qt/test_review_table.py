@@ -113,3 +113,51 @@ def test_first_start_offers_the_demo(qtbot, monkeypatch):
         window.io.extra_modified = False
         window.undo_stack.setClean()
         window.close()
+
+
+def _other_member(choice):
+    return next(m for m in choice.group if m != choice.kept)
+
+
+def test_keep_another_member_from_the_table(qtbot, window, demo, wait_for_analysis):
+    from covariscope.model.project import project_to_dict
+
+    w = window
+    w.io.open(str(demo / "demo_project.json"))
+    wait_for_analysis(qtbot, w)
+    saved_before = project_to_dict(w.project)
+    choice = w.review.keep_choice_of("area")
+    assert choice is not None and choice.key == "area|income"
+    assert w.review.keep_choice_of("age") is None  # not a keep_one_of row
+    assert choice.kept in w.result.recommended
+    other = _other_member(choice)
+    assert other not in w.result.recommended
+    strip_before = w.strip.texts()["recommended"]
+
+    menu = w.review.menu_for(other)
+    (keep,) = [a for a in menu.actions() if a.objectName() == "keepThisOne"]
+    assert keep.isEnabled()
+    keep.trigger()
+    menu.deleteLater()
+    assert w.project.analysis.keep_choices[choice.key] == other
+    assert w.isWindowModified()
+    wait_for_analysis(qtbot, w)
+    assert other in w.result.recommended
+    assert choice.kept not in w.result.recommended
+    assert w.result.verdicts[other].suggested == other
+    assert w.strip.texts()["recommended"] != strip_before
+    now = w.review.keep_choice_of(other)
+    assert now.saved and now.kept == other
+    menu = w.review.menu_for(other)
+    (keep,) = [a for a in menu.actions() if a.objectName() == "keepThisOne"]
+    assert not keep.isEnabled()  # already the saved choice
+    assert any(a.objectName() == "keepSuggested" for a in menu.actions())
+    menu.deleteLater()
+
+    w.actions_.undo.trigger()
+    assert project_to_dict(w.project) == saved_before
+    wait_for_analysis(qtbot, w)
+    assert choice.kept in w.result.recommended
+    assert w.strip.texts()["recommended"] == strip_before
+    w.actions_.redo.trigger()
+    assert w.project.analysis.keep_choices[choice.key] == other

@@ -41,6 +41,7 @@ from covariscope.panels.diagnostics import (
     node_diagnostics,
 )
 from covariscope.panels.format import ratio_family
+from covariscope.panels.keep_choice import KeepChoice, keep_choice
 from covariscope.qt.tables import filling
 
 __all__ = ["FAMILY_LABELS", "CovariateDialog", "EndpointDialog", "NodeDialog"]
@@ -159,10 +160,27 @@ class NodeDialog(QDialog):
 class CovariateDialog(NodeDialog):
     """Full diagnostics of one covariate."""
 
+    #: keep a member of the covariate's collinear group: (group key, member id)
+    keep_chosen = Signal(str, object)
+
     def __init__(self, node_id: str, parent: QWidget | None = None) -> None:
         super().__init__(node_id, parent)
         self.resize(1000, 820)
         self.state: NodeDiagnostics | None = None
+        self.keep: KeepChoice | None = None
+        self.keep_box = QGroupBox("Member of the group to keep")
+        self.keep_member = QComboBox()
+        self.keep_member.setToolTip(
+            "The recommended set adjusts for this member of the group; the choice is "
+            "saved with the project."
+        )
+        self.keep_member.activated.connect(self._keep_activated)
+        self.keep_note = QLabel()
+        self.keep_note.setWordWrap(True)
+        keep_lay = QHBoxLayout(self.keep_box)
+        keep_lay.addWidget(self.keep_member)
+        keep_lay.addWidget(self.keep_note, 1)
+        self.keep_box.hide()
         self.heading = QLabel()
         self.heading.setObjectName("dialogHeading")
         self.verdict = QLabel()
@@ -201,6 +219,7 @@ class CovariateDialog(NodeDialog):
         top = QHBoxLayout()
         left = QVBoxLayout()
         left.addWidget(self.verdict)
+        left.addWidget(self.keep_box)
         left.addWidget(checklist_box)
         left.addStretch(1)
         top.addLayout(left, 1)
@@ -236,8 +255,39 @@ class CovariateDialog(NodeDialog):
             measure += f"; the same {sample.used:,} rows in every model."
         self.messages.setText(measure)
         self.set_note(s.note)
+        self._show_keep(keep_choice(project, result, self.node_id))
         self._plot_estimates(s, getattr(result, "family", project.analysis.family))
         self._plot_data(s, project, profiles, frame)
+
+    def _show_keep(self, choice: KeepChoice | None) -> None:
+        self.keep = choice
+        self.keep_box.setVisible(choice is not None)
+        if choice is None:
+            return
+        combo = self.keep_member
+        combo.blockSignals(True)
+        combo.clear()
+        for member in choice.group:
+            combo.addItem(choice.labels[member], member)
+        combo.setCurrentIndex(max(combo.findData(choice.kept), 0))
+        combo.blockSignals(False)
+        self.keep_note.setText(
+            "Your choice, saved with the project."
+            if choice.saved
+            else "Suggested by the analysis; choose another to keep it instead."
+        )
+
+    def choose_kept(self, member: str) -> None:
+        """Keep ``member`` of the group, as choosing it in the list does."""
+        index = self.keep_member.findData(member)
+        if index < 0:
+            raise KeyError(member)
+        self.keep_member.setCurrentIndex(index)
+        self._keep_activated(index)
+
+    def _keep_activated(self, index: int) -> None:
+        if self.keep is not None and index >= 0:
+            self.keep_chosen.emit(self.keep.key, self.keep_member.itemData(index))
 
     def _plot_estimates(self, s: NodeDiagnostics, family: str) -> None:
         fig = self.estimate_figure

@@ -29,6 +29,7 @@ from covariscope.model.commands import Command, Macro, SetKind, SetProposed, Upd
 from covariscope.model.project import Project
 from covariscope.panels.commands import SetSettings
 from covariscope.panels.diagnostics import node_labels
+from covariscope.panels.keep_choice import keep_choices_after
 from covariscope.panels.review import proposed_after_toggle
 from covariscope.qt import output
 from covariscope.qt.actions import WindowActions
@@ -92,6 +93,7 @@ class MainWindow(QMainWindow):
         self.review = ReviewTable()
         self.review.proposed_toggled.connect(self.set_proposed_member)
         self.review.node_activated.connect(self.open_diagnostics)
+        self.review.keep_chosen.connect(self.keep_member)
         self.paths = PathsPanel()
         self.paths.path_chosen.connect(lambda p: self.scene.highlight_path(list(p) if p else None))
         self.docks = {
@@ -289,6 +291,18 @@ class MainWindow(QMainWindow):
         if ids is not None and not self.push(SetProposed(self.project, ids)):
             self.review.refresh(self.project, self.result)
 
+    def keep_member(self, key: str, member: str | None) -> None:
+        """Keep ``member`` of the collinear group filed under ``key`` (None:
+        back to the suggestion); one undo step, then the analysis runs again."""
+        choices = keep_choices_after(self.project, key, member)
+        if choices is None:
+            return
+        if member is None:
+            text = "Let the analysis suggest which member to keep"
+        else:
+            text = f"Keep {node_labels(self.project).get(member, member)} of its group"
+        self.push(SetSettings(self.project, text, keep_choices=choices))
+
     def _selection_changed(self, ids: list) -> None:
         self.selected_ids = [str(i) for i in ids]
         covariates = [i for i in self.selected_ids if i in self.project.diagram]
@@ -381,6 +395,8 @@ class MainWindow(QMainWindow):
             dialog.note_saved.connect(self._save_note)
             if isinstance(dialog, EndpointDialog):
                 dialog.family_changed.connect(self.set_family)
+            else:
+                dialog.keep_chosen.connect(self.keep_member)
             dialog.finished.connect(lambda _r, n=node_id: self.dialogs.pop(n, None))
             self.dialogs[node_id] = dialog
         self._refresh_dialog(dialog)

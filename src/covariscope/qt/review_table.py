@@ -4,19 +4,21 @@ from __future__ import annotations
 
 from typing import Any
 
-from PySide6.QtCore import Qt, Signal
+from PySide6.QtCore import QPoint, Qt, Signal
 from PySide6.QtWidgets import (
     QAbstractItemView,
     QHeaderView,
     QLabel,
     QListWidget,
     QListWidgetItem,
+    QMenu,
     QTableWidget,
     QTableWidgetItem,
     QVBoxLayout,
     QWidget,
 )
 
+from covariscope.panels.keep_choice import KeepChoice, keep_choice
 from covariscope.panels.review import REVIEW_COLUMNS, ReviewRow, review_rows, rows_to_csv
 from covariscope.qt.tables import filling
 
@@ -32,6 +34,9 @@ class ReviewTable(QWidget):
     proposed_toggled = Signal(str, bool)
     node_activated = Signal(str)
     node_selected = Signal(str)
+    #: keep a member of a collinear group: (group key, member id, or None to
+    #: go back to the suggestion)
+    keep_chosen = Signal(str, object)
 
     def __init__(self, parent: QWidget | None = None) -> None:
         super().__init__(parent)
@@ -57,7 +62,10 @@ class ReviewTable(QWidget):
         layout.addWidget(self.table, 1)
         layout.addWidget(self.detail)
         self._rows: list[ReviewRow] = []
+        self._keep: dict[str, KeepChoice] = {}
         self._filling = False
+        self.table.setContextMenuPolicy(Qt.ContextMenuPolicy.CustomContextMenu)
+        self.table.customContextMenuRequested.connect(self._context_menu)
         self.table.itemChanged.connect(self._item_changed)
         self.table.itemSelectionChanged.connect(self._selection_changed)
         self.table.cellDoubleClicked.connect(
@@ -73,6 +81,11 @@ class ReviewTable(QWidget):
     def refresh(self, project: Any, result: Any) -> None:
         selected = self.selected_node()
         self._rows = review_rows(project, result)
+        self._keep = {
+            row.node: choice
+            for row in self._rows
+            if (choice := keep_choice(project, result, row.node)) is not None
+        }
         self._filling = True
         try:
             with filling(self.table):
@@ -131,6 +144,38 @@ class ReviewTable(QWidget):
         self.table.item(r, _CHECK).setCheckState(
             Qt.CheckState.Checked if checked else Qt.CheckState.Unchecked
         )
+
+    def keep_choice_of(self, node_id: str) -> KeepChoice | None:
+        """The collinear group the row's verdict asks to keep one of."""
+        return self._keep.get(node_id)
+
+    def menu_for(self, node_id: str) -> QMenu:
+        """The row's context menu (built, not shown: tests trigger its actions)."""
+        menu = QMenu(self)
+        choice = self._keep.get(node_id)
+        if choice is not None:
+            keep = menu.addAction("Keep this one of the group")
+            keep.setObjectName("keepThisOne")
+            keep.setToolTip(f"Keep it of {{{choice.names()}}}; the choice is saved with the project")
+            keep.setEnabled(not (choice.saved and choice.kept == node_id))
+            keep.triggered.connect(lambda: self.keep_chosen.emit(choice.key, node_id))
+            if choice.saved:
+                back = menu.addAction("Let the analysis suggest which to keep")
+                back.setObjectName("keepSuggested")
+                back.triggered.connect(lambda: self.keep_chosen.emit(choice.key, None))
+            menu.addSeparator()
+        details = menu.addAction("Diagnostics…")
+        details.triggered.connect(lambda: self.node_activated.emit(node_id))
+        return menu
+
+    def _context_menu(self, pos: QPoint) -> None:
+        r = self.table.rowAt(pos.y())
+        if not 0 <= r < len(self._rows):
+            return
+        self.table.selectRow(r)
+        menu = self.menu_for(self._rows[r].node)
+        menu.exec(self.table.viewport().mapToGlobal(pos))
+        menu.deleteLater()
 
     def verdicts(self) -> dict[str, str]:
         return {row.node: row.verdict for row in self._rows}
