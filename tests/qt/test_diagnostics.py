@@ -95,7 +95,8 @@ def test_dialog_keeps_another_member_of_the_group(qtbot, window, demo, wait_for_
     wait_for_analysis(qtbot, w)
     before = dict(w.project.analysis.keep_choices)
     dialog = w.open_diagnostics("area")
-    assert dialog.keep is not None and dialog.keep.key == "area|income"
+    assert dialog.keep is not None
+    assert dialog.keep.key == "area|income"
     assert dialog.keep_box.isVisibleTo(dialog)
     suggested = dialog.keep.kept
     assert dialog.keep_member.currentData() == suggested
@@ -114,6 +115,7 @@ def test_dialog_keeps_another_member_of_the_group(qtbot, window, demo, wait_for_
     assert not dialog.keep.saved
     # a covariate with another verdict has no member to choose
     plain = w.open_diagnostics("age")
-    assert plain.keep is None and not plain.keep_box.isVisibleTo(plain)
+    assert plain.keep is None
+    assert not plain.keep_box.isVisibleTo(plain)
     plain.close()
     dialog.close()

@@ -127,7 +127,8 @@ def test_keep_another_member_from_the_table(qtbot, window, demo, wait_for_analys
     wait_for_analysis(qtbot, w)
     saved_before = project_to_dict(w.project)
     choice = w.review.keep_choice_of("area")
-    assert choice is not None and choice.key == "area|income"
+    assert choice is not None
+    assert choice.key == "area|income"
     assert w.review.keep_choice_of("age") is None  # not a keep_one_of row
     assert choice.kept in w.result.recommended
     other = _other_member(choice)
@@ -147,7 +148,8 @@ def test_keep_another_member_from_the_table(qtbot, window, demo, wait_for_analys
     assert w.result.verdicts[other].suggested == other
     assert w.strip.texts()["recommended"] != strip_before
     now = w.review.keep_choice_of(other)
-    assert now.saved and now.kept == other
+    assert now.saved
+    assert now.kept == other
     menu = w.review.menu_for(other)
     (keep,) = [a for a in menu.actions() if a.objectName() == "keepThisOne"]
     assert not keep.isEnabled()  # already the saved choice
