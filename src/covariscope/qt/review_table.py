@@ -156,7 +156,9 @@ class ReviewTable(QWidget):
         if choice is not None:
             keep = menu.addAction("Keep this one of the group")
             keep.setObjectName("keepThisOne")
-            keep.setToolTip(f"Keep it of {{{choice.names()}}}; the choice is saved with the project")
+            keep.setToolTip(
+                f"Keep it of {{{choice.names()}}}; the choice is saved with the project"
+            )
             keep.setEnabled(not (choice.saved and choice.kept == node_id))
             keep.triggered.connect(lambda: self.keep_chosen.emit(choice.key, node_id))
             if choice.saved:
