@@ -122,3 +122,24 @@ def test_aliases_are_named():
         "copy is an exact linear combination of x",
         "rest is an exact linear combination of grp",
     ]
+
+
+def test_flag_needs_both_a_high_index_and_two_high_proportions():
+    # Rule of Belsley, Kuh & Welsch (1980, ch. 3): a dimension points at a near-dependency
+    # when its condition index reaches the guide AND two or more variance proportions reach
+    # theirs.  On Longley, the dimension with index about 230 has only one proportion above
+    # 0.45 (GNPDEFL, about 0.46), so it is not flagged although its index exceeds 30.
+    x = sm.datasets.longley.load_pandas().exog.to_numpy(float)
+    names = [f"c{j}" for j in range(6)]
+    s = linear_summary(x)
+    report = collinearity_report(s, range(6), names, names, proportion_threshold=0.45)
+    lone = int(np.argmin(np.abs(report.condition_indices - 230.4)))
+    assert report.condition_indices[lone] > 30
+    assert int(np.sum(report.proportions[lone] >= 0.45)) == 1
+    assert all(abs(f.index - report.condition_indices[lone]) > 1 for f in report.flagged)
+    for k, index in enumerate(report.condition_indices):
+        high = int(np.sum(report.proportions[k] >= 0.45))
+        expected = index >= 30 and high >= 2
+        assert expected == any(f.index == pytest.approx(index) for f in report.flagged)
+    strict = collinearity_report(s, range(6), names, names, index_threshold=1e5)
+    assert strict.flagged == ()

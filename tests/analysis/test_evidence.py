@@ -265,3 +265,24 @@ def test_one_step_starts_reach_the_statsmodels_fit_of_every_model(family):
         if "z1" in terms:
             assert fit.term_coefs["z1"][0] == pytest.approx(ref.params["z1"], rel=1e-9)
             assert fit.term_coefs["z1"][1] == pytest.approx(ref.bse["z1"], rel=1e-7)
+
+
+def test_change_is_relative_to_the_size_of_a_negative_reference():
+    # DESIGN §2: 100 × (b_with − b_without) / |b_without|: moving −2.0 to −1.5 is +25 %.
+    cmp = compare(
+        Fit("linear", ("z",), -1.5, 0.2, (-1.9, -1.1), 100),
+        Fit("linear", (), -2.0, 0.1, (-2.2, -1.8), 100),
+    )
+    assert cmp.change_defined
+    assert cmp.change_pct == pytest.approx(25.0)
+
+
+def test_near_zero_is_judged_against_the_standard_error_not_the_units():
+    # A small coefficient with a smaller SE is a real reference (defined); a large one
+    # swamped by its SE is not: the cut-off is a fraction of SE_without, not an absolute value.
+    small = Fit("linear", (), 0.05, 0.01, (0.03, 0.07), 100)
+    assert compare(Fit("linear", ("z",), 0.06, 0.01, (0.04, 0.08), 100), small).change_defined
+    noisy = Fit("linear", (), 5.0, 100.0, (-195.0, 205.0), 100)
+    cmp = compare(Fit("linear", ("z",), 6.0, 100.0, (-194.0, 206.0), 100), noisy)
+    assert not cmp.change_defined
+    assert math.isnan(cmp.change_pct)
