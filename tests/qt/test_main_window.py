@@ -246,3 +246,46 @@ def test_escape_belongs_to_the_canvas(qtbot, window):
     QTest.keyClick(w.view.viewport(), Qt.Key.Key_Escape)
     assert w.scene.mode.name == "select"
     assert w.actions_.mode_select.isChecked()  # the toolbar follows the canvas
+
+
+def test_single_letter_keys_belong_to_the_canvas(qtbot, window, demo, wait_for_analysis):
+    from PySide6.QtTest import QTest
+
+    w = window
+    w.io.open(str(demo / "demo_project.json"))
+    wait_for_analysis(qtbot, w)
+    w.activateWindow()
+    qtbot.waitUntil(lambda: QApplication.activeWindow() is w)
+    before = len(w.project.diagram)
+    for widget in (w.review.table, w.data_panel.table):
+        widget.setFocus()
+        qtbot.waitUntil(widget.hasFocus)
+        for letter in "saxn":
+            QTest.keyClicks(widget, letter)
+            assert w.scene.mode.name == "select", (widget.objectName(), letter)
+            assert w.actions_.mode_select.isChecked()
+    # Delete in a panel does not delete the canvas's selection
+    w.scene.select_ids(["smoke"])
+    w.review.table.setFocus()
+    QTest.keyClick(w.review.table, Qt.Key.Key_Delete)
+    assert len(w.project.diagram) == before
+    # the note box of a diagnostics dialog takes the letters as text
+    dialog = w.open_diagnostics("age")
+    dialog.activateWindow()
+    dialog.note.setFocus()
+    qtbot.waitUntil(dialog.note.hasFocus)
+    QTest.keyClicks(dialog.note, "a sax")
+    assert dialog.note.toPlainText() == "a sax"
+    assert w.scene.mode.name == "select"
+    dialog.close()
+    # on the canvas the same letters still switch the mode
+    w.activateWindow()
+    w.view.setFocus()
+    qtbot.waitUntil(w.view.hasFocus)
+    QTest.keyClick(w.view.viewport(), Qt.Key.Key_A)
+    assert w.scene.mode.name == "arrow"
+    assert w.actions_.mode_arrow.isChecked()
+    QTest.keyClick(w.view.viewport(), Qt.Key.Key_X)
+    assert w.scene.mode.name == "proxy"
+    QTest.keyClick(w.view.viewport(), Qt.Key.Key_S)
+    assert w.scene.mode.name == "select"

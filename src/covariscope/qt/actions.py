@@ -70,6 +70,12 @@ class WindowActions:
         self.mode_arrow = self._mode("Draw &arrow", "arrow", "A")
         self.mode_proxy = self._mode("Draw pro&xy link", "proxy", "X")
         self.mode_select.setChecked(True)
+        # single keys (and Delete) act on the diagram only: typed into the
+        # data panel, the review table or a note they stay text; the window
+        # adds these actions to each new canvas view
+        self.canvas_only = [self.mode_select, self.mode_arrow, self.mode_proxy, self.delete]
+        for act in self.canvas_only:
+            act.setShortcutContext(Qt.ShortcutContext.WidgetWithChildrenShortcut)
         self.make_exposure = a(
             "Make &exposure", lambda: w.set_kind_of_selection("exposure"), "Ctrl+E"
         )

@@ -184,6 +184,7 @@ class MainWindow(QMainWindow):
         scene.proposed_toggled.connect(self.set_proposed_member)
         if hasattr(self, "actions_"):
             scene.mode_changed.connect(self.actions_.sync_mode)
+            view.addActions(self.actions_.canvas_only)
         if self.view is not None:
             self.centre.layout().removeWidget(self.view)
             self.view.deleteLater()
