@@ -149,6 +149,44 @@ def test_cox_without_time_columns_falls_back_to_the_diagram():
     assert r.verdicts["c"].code == "adjust"
 
 
+def test_collinear_confounders_on_different_paths_are_both_adjusted_for():
+    # a and b each confound on a backdoor path of their own (x <- a -> y, x <- b -> y),
+    # and share a common cause u, so they are highly correlated in the data. Neither
+    # closes the other's path: keeping one of them would leave a path open.
+    rng = np.random.default_rng(23)
+    n = 1500
+    u = rng.normal(size=n)
+    a = u + 0.2 * rng.normal(size=n)
+    b = u + 0.2 * rng.normal(size=n)
+    x = 0.5 * a + 0.5 * b + rng.normal(size=n)
+    y = x + a - b + rng.normal(size=n)
+    frame = pd.DataFrame({"x": x, "y": y, "a": a, "b": b})
+    p = _project(["x", "y", "a", "b"], [("a", "x"), ("a", "y"), ("b", "x"), ("b", "y"), ("x", "y")])
+    r = run_study(p, table=_table(frame))
+    r2 = float(np.corrcoef(a, b)[0, 1] ** 2)  # outside reference: numpy's correlation
+    assert r2 >= 0.9
+    assert r.collinear_groups == (("a", "b"),)
+    assert r.recommended == ("a", "b")  # the recommended set keeps both
+    # outside reference: statsmodels' auxiliary regression of a on the full model's
+    # other terms gives the VIF of a
+    ols = sm.OLS(frame["a"], sm.add_constant(frame[["x", "b"]])).fit()
+    vif_a = 1.0 / (1.0 - ols.rsquared)
+    for node in ("a", "b"):
+        v = r.verdicts[node]
+        assert v.code == "adjust"
+        assert v.group == ()
+        assert v.suggested is None
+        assert "the diagram needs both" in v.reason
+        assert "wider confidence interval" in v.reason
+        assert "distinct constructs" in v.reason
+        assert f"their R² is {r2:.3g} against the guide 0.9" in v.reason
+        assert "against 10" in v.reason
+        assert v.reason.count(". ") == 0
+    assert f"VIF {vif_a:.3g} against 10" in r.verdicts["a"].reason
+    assert r.estimates["recommended"] is not None
+    assert abs(r.estimates["recommended"].coef - 1.0) < 0.2
+
+
 def test_progress_is_reported():
     seen = []
     frame = _linear_frame(n=300)

@@ -50,6 +50,7 @@ from covariscope.model.project import DEFAULT_THRESHOLDS, Project
 from covariscope.study_data import prepare_evidence
 from covariscope.study_facts import (
     group_why,
+    needed_together,
     opened_paths,
     stands_for,
     suggest_member,
@@ -297,11 +298,18 @@ def run_study(
         r2_threshold=thresholds["r2"],
     )
 
+    # A choice saved for part of a group (the members left to choose among once
+    # the diagram needs the others) stands for the whole group in the ranking.
+    rec_choices = dict(project.analysis.keep_choices)
+    for g in groups:
+        for key, member in project.analysis.keep_choices.items():
+            if set(key.split("|")) < set(g) and member in g:
+                rec_choices.setdefault("|".join(sorted(g)), member)
     rec = recommend_set(
         minimal,
         proposed=proposed,
         groups=groups,
-        keep_choices=project.analysis.keep_choices,
+        keep_choices=rec_choices,
         se_of=_se_lookup(evidence, set_names),
     )
     recommended = rec.members or ()
@@ -325,6 +333,9 @@ def run_study(
     # Verdicts.
     se_of = _se_lookup(evidence, set_names)
     base = list(recommended) if rec.members is not None else list(proposed)
+    # Members the diagram needs whichever other is kept are adjusted for, with a
+    # caution; the rest of their group (two or more) is still one to keep one of.
+    needed = {g: needed_together(G, exposure, outcome, g, base) for g in groups}
     verdicts: dict[str, Verdict] = {}
     for c, facts in da.roles.items():
         node = diagram.node(c)
@@ -333,7 +344,15 @@ def run_study(
         suggested: str | None = None
         why = ""
         grouped_because = ""
-        if group:
+        is_needed = bool(group) and c in needed[group]
+        if group and not is_needed and needed[group]:
+            remainder = tuple(m for m in group if m not in needed[group])
+            group = remainder if len(remainder) >= 2 else group
+        if is_needed:
+            grouped_because = group_why(
+                group, da.groups, r2_pairs, flagged, thresholds["r2"], names
+            )
+        elif group:
             rest = [m for m in base if m not in group]
             group_alone = tuple(m for m in group if is_sufficient(G, exposure, outcome, [*rest, m]))
             grouped_because = group_why(
@@ -361,6 +380,7 @@ def run_study(
             in_proposed=c in proposed,
             group=group,
             group_alone=group_alone,
+            group_needed=is_needed,
             group_why=grouped_because,
             suggested=suggested,
             suggested_why=why,

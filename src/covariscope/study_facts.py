@@ -11,10 +11,11 @@ from collections.abc import Callable, Mapping, Sequence
 
 import networkx as nx
 
-from covariscope.analysis.graph import DiagramAnalysis, backdoor_paths
+from covariscope.analysis.graph import DiagramAnalysis, backdoor_paths, is_sufficient
 
 __all__ = [
     "group_why",
+    "needed_together",
     "opened_paths",
     "stands_for",
     "suggest_member",
@@ -79,6 +80,27 @@ def group_why(
     if len(reasons) > 1:
         return ", ".join(reasons[:-1]) + " and " + reasons[-1]
     return reasons[0] if reasons else ""
+
+
+def needed_together(
+    G: nx.DiGraph, x: str, y: str, group: Sequence[str], base: Sequence[str]
+) -> tuple[str, ...]:
+    """Members of a collinear group that the diagram needs whichever other is kept.
+
+    Empty when some member alone, with the rest of ``base`` (the adjustment
+    set in use), gives a sufficient set (then one of them is to be kept), or
+    when the rest with the whole group is not sufficient either.  Otherwise
+    the members whose removal, with every other member kept, leaves the set
+    insufficient.
+    """
+    rest = [m for m in base if m not in group]
+    if any(is_sufficient(G, x, y, [*rest, m]) for m in group):
+        return ()
+    if not is_sufficient(G, x, y, [*rest, *group]):
+        return ()
+    return tuple(
+        m for m in group if not is_sufficient(G, x, y, [*rest, *(o for o in group if o != m)])
+    )
 
 
 def stands_for(G: nx.DiGraph, da: DiagramAnalysis, node: str) -> tuple[str, ...]:

@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from dataclasses import replace
+
 import pytest
 
 from covariscope.analysis.verdicts import (
@@ -287,8 +289,12 @@ def test_keep_one_of_names_the_members_that_alone_suffice_with_labels():
     assert "Area is suggested because it alone gives a sufficient set" in v.reason
     assert "choice is saved" in v.reason
     assert _one_sentence(v.reason)
+    # No member alone suffices, yet the diagram was not found to need each one
+    # (the set falls short elsewhere too): still one group, with no claim of need.
     none = decide_verdict(Facts("b", "confounder", group=("a", "b")))
-    assert "needs them all" in none.reason
+    assert none.code == "keep_one_of"
+    assert "no single member alone gives a sufficient set" in none.reason
+    assert "needs" not in none.reason
 
 
 def test_collider_outside_the_proposed_set_names_the_path_it_would_open():
@@ -319,3 +325,28 @@ def test_confounder_in_a_non_collapsible_family_carries_the_caution(family, meas
 def test_a_change_that_rounds_to_zero_has_no_minus_sign():
     v = decide_verdict(Facts("s", "precision"), Numbers(added=Shift(-0.01, -0.04)))
     assert "by +0.0% and its standard error by +0.0%" in v.reason
+
+
+def test_collinear_members_the_diagram_needs_together_are_each_adjusted_for():
+    n = Numbers(added=Shift(4.0, 38.0), vif=14.0, aux_r2=0.93)
+    f = Facts(
+        "a",
+        "confounder",
+        group=("a", "b"),
+        group_needed=True,
+        group_why="their R² is 0.92 against the guide 0.9",
+        set_members=("a", "b", "c"),
+    )
+    v = decide_verdict(f, n)
+    assert v.code == "adjust"
+    assert v.group == ()
+    assert "collinear with b" in v.reason
+    assert "auxiliary R² in the full model is 0.93 against the guide 0.9" in v.reason
+    assert "VIF 14 against 10" in v.reason
+    assert "alone gives a sufficient set with {c}" in v.reason
+    assert "the diagram needs both" in v.reason
+    assert "wider confidence interval" in v.reason
+    assert _one_sentence(v.reason)
+    # Interchangeable members (some member alone suffices) are still one to keep.
+    keep = replace(f, group_needed=False, group_alone=("a", "b"))
+    assert decide_verdict(keep, n).code == "keep_one_of"

@@ -171,7 +171,7 @@ def _noncollapsible_note(n: Numbers, t: Mapping[str, float], family: str) -> str
 def _confounder(f: Facts, n: Numbers, t: Mapping[str, float], family: str) -> Verdict:
     ratio = family in RATIO_FAMILIES
     if len(f.group) >= 2:
-        return group_verdict(f, n, t)
+        return group_verdict(f, n, t, ratio=ratio)
     if not f.has_data or n.added is None:
         return _verdict(
             f,

@@ -146,6 +146,10 @@ class Facts:
         Its collinear confounder group (itself included), if any.
     group_alone : tuple of str
         Members of the group that alone still give a sufficient set.
+    group_needed : bool
+        The diagram needs this member beside the others of its group: no
+        member alone gives a sufficient set with the rest of the adjustment
+        set, and leaving this one out (keeping the others) is not sufficient.
     group_why : str
         Why the members form a group (a clause: "a proxy link joins them", ...).
     suggested, suggested_why : str
@@ -175,6 +179,7 @@ class Facts:
     in_proposed: bool = False
     group: tuple[str, ...] = ()
     group_alone: tuple[str, ...] = ()
+    group_needed: bool = False
     group_why: str = ""
     suggested: str | None = None
     suggested_why: str = ""

@@ -83,7 +83,9 @@ def decide_verdict(
     over ``se_inflation_pct`` → ``exclude_measures_exposure``; a proxy link to
     the outcome, or a descendant → ``exclude_descendant``; mediator →
     ``exclude_pathway``; collider → ``exclude_collider``; confounder →
-    ``keep_one_of`` when in a collinear group, else ``adjust``; precision,
+    ``keep_one_of`` when in a collinear group of which some member alone
+    suffices, else ``adjust`` (with a collinearity caution when the diagram
+    needs every member of its group); precision,
     instrument or unrelated whose addition (or removal from the full model)
     shifts the estimate past ``change_pct`` → ``review`` (not for an odds or
     hazard ratio shifted by a covariate that does not predict the exposure:
