@@ -143,3 +143,12 @@ def test_flag_needs_both_a_high_index_and_two_high_proportions():
         assert expected == any(f.index == pytest.approx(index) for f in report.flagged)
     strict = collinearity_report(s, range(6), names, names, index_threshold=1e5)
     assert strict.flagged == ()
+
+
+def test_constant_column_is_named_as_a_multiple_of_the_intercept():
+    rng = np.random.default_rng(0)
+    a = rng.normal(size=30)
+    found = find_aliases(
+        linear_summary(np.column_stack([a, np.full(30, 2.0)])), {"a": [0], "k": [1]}
+    )
+    assert [f.message for f in found] == ["k is constant: an exact multiple of the intercept"]

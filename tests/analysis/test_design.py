@@ -66,7 +66,7 @@ def test_key_changes_with_data():
 @pytest.mark.parametrize(
     ("change", "kwargs", "needle"),
     [
-        ("const", {}, "same value in every row"),
+        ("const", {}, "exposure column 'x' has the same value in every row"),
         ("multi", {}, "has 3 levels"),
         ("logit", {"family": "logistic"}, "coded 0/1"),
         ("few", {}, "at least"),
@@ -85,8 +85,7 @@ def test_bad_data_gets_one_clear_message(change, kwargs, needle):
     covariates = {"z": TermSpec("y", C)}
     spec = {"outcome": "y", "family": "linear", **kwargs}
     if change == "const":
-        f["k"] = 1.0
-        covariates = {"k": TermSpec("k", C)}
+        f["x"] = 1.0
     elif change == "multi":
         exposure = TermSpec("grp", "categorical")
     elif change == "logit":
@@ -132,3 +131,21 @@ def test_unknown_reference_level():
             outcome="y",
             family="linear",
         )
+
+
+def test_constant_covariate_is_recorded_not_refused():
+    # A covariate that never varies fails only its own models (the evidence engine says so).
+    f = _frame()
+    f["k"] = 1.0
+    f["one"] = "a"
+    d = make_design(
+        f,
+        exposure=TermSpec("x", C),
+        covariates={"k": TermSpec("k", C), "o": TermSpec("one", "categorical")},
+        outcome="y",
+        family="linear",
+    )
+    assert d.constant == ("k", "o")
+    assert len(d.messages) == 2
+    assert "Column 'k' (covariate k) has the same value in every row" in d.messages[0]
+    assert "unbind it or choose another column" in d.messages[0]

@@ -286,3 +286,33 @@ def test_near_zero_is_judged_against_the_standard_error_not_the_units():
     cmp = compare(Fit("linear", ("z",), 6.0, 100.0, (-194.0, 206.0), 100), noisy)
     assert not cmp.change_defined
     assert math.isnan(cmp.change_pct)
+
+
+@pytest.mark.parametrize("family", ["linear", "logistic"])
+def test_constant_covariate_fails_its_models_and_the_rest_run(family):
+    frame = _frame(3, n=300)
+    if family == "logistic":
+        frame["y"] = (frame["y"] > frame["y"].median()).astype(int)
+    frame["k"] = 2.5
+    covs = {**SPECS, "k": TermSpec("k", CONT)}
+    d = make_design(
+        frame, exposure=TermSpec("x", CONT), covariates=covs, outcome="y", family=family
+    )
+    table = compute_evidence(EvidenceEngine(d), candidates=["z1", "g", "k"], added=["z1", "k"])
+    k = table.covariates["k"]
+    assert not k.added.with_fit.ok
+    assert "has the same value in every row" in k.added.with_fit.message
+    assert not table.full.ok
+    assert k.vif is None
+    assert k.vif_exposure_added == 1.0
+    assert table.crude.ok
+    assert table.covariates["z1"].added.with_fit.ok
+    assert table.covariates["k"].dropped.without_fit.ok  # full − k runs
+    # The full model's collinearity is read without the constant: finite, as for z1 and g alone.
+    # Outside source: statsmodels variance_inflation_factor with a constant column.
+    full = pd.get_dummies(frame[["x", "z1", "g"]], columns=["g"], drop_first=True, dtype=float)
+    exog = sm.add_constant(full.to_numpy())
+    assert table.covariates["z1"].vif == pytest.approx(variance_inflation_factor(exog, 2), rel=1e-9)
+    assert "(intercept)" in table.collinearity.columns
+    assert "k" not in table.collinearity.columns
+    assert any("same value in every row" in w for w in table.warnings)

@@ -137,12 +137,18 @@ def find_aliases(
                     raise np.linalg.LinAlgError("kept columns lost rank")
                 inv_l = inverse_lower(chol)
                 border = inv_l @ corr[kept, col]
-                tol = 1.0 - float(border @ border)
+                tol = float(corr[col, col]) - float(border @ border)
             else:
-                tol = 1.0
+                tol = float(corr[col, col])  # 1, or 0 for a constant column
             if tol >= ALIAS_TOLERANCE:
                 kept.append(col)
                 owner[col] = node
+                continue
+            if corr[col, col] == 0.0:
+                # A constant is a multiple of the intercept, whatever else is in the model.
+                text = f"{node} is constant: an exact multiple of the intercept"
+                if not any(f.node == node for f in findings):
+                    findings.append(AliasFinding(node, (INTERCEPT,), text))
                 continue
             weights = inv_l.T @ border
             involved: list[str] = []

@@ -21,7 +21,7 @@ import pandas as pd
 from covariscope.analysis.fits import FAMILIES
 from covariscope.model.errors import DataError
 
-__all__ = ["TERM_TYPES", "Block", "Design", "TermSpec", "make_design"]
+__all__ = ["TERM_TYPES", "Block", "Design", "TermSpec", "constant_message", "make_design"]
 
 #: Column types a term may have.
 TERM_TYPES: tuple[str, ...] = ("continuous", "binary", "count", "categorical")
@@ -78,6 +78,8 @@ class Design:
     key: str
     messages: tuple[str, ...] = ()
     column_names: tuple[str, ...] = field(default=())
+    #: covariate nodes whose column(s) take one value in every row
+    constant: tuple[str, ...] = ()
 
     @property
     def exposure(self) -> np.ndarray:
@@ -87,6 +89,14 @@ class Design:
     def n_design_columns(self) -> int:
         """Exposure plus every covariate column (outcome excluded)."""
         return 1 + sum(b.df for b in self.blocks.values())
+
+
+def constant_message(node: str, column: str) -> str:
+    """The plain words for a covariate whose column never varies."""
+    return (
+        f"Column {column!r} (covariate {node}) has the same value in every row of the analytic "
+        "sample, so it carries no information; unbind it or choose another column."
+    )
 
 
 def _numeric(frame: pd.DataFrame, column: str, what: str) -> np.ndarray:
@@ -140,6 +150,9 @@ def _coded(frame: pd.DataFrame, spec: TermSpec, what: str) -> tuple[list[str], l
         )
     series = frame[spec.column]
     levels, reference = _levels(series, spec.reference)
+    if len(levels) < 2 and what != "exposure":
+        # One level: kept as a constant column, which the engine reports per model.
+        return [spec.column], [np.ones(len(series))]
     if len(levels) < 2:
         raise DataError(
             f"Column {spec.column!r} ({what}) has the same value in every row of the analytic "
@@ -244,12 +257,21 @@ def make_design(
         all_names += cnames
         all_vectors += cvecs
         spans[node] = (cnames, tuple(range(start, start + len(cvecs))))
-    for name, vec in zip(all_names, all_vectors, strict=True):
-        if n > 0 and np.all(vec == vec[0]):
-            raise DataError(
-                f"Column {name!r} has the same value in every row of the analytic sample, so it "
-                "carries no information; unbind it or choose another column."
-            )
+    if n > 0 and np.all(all_vectors[0] == all_vectors[0][0]):
+        raise DataError(
+            f"The exposure column {exposure_name!r} has the same value in every row of the "
+            "analytic sample, so no effect of it can be estimated; bind another column."
+        )
+    # A constant covariate fails only the models that hold it (DESIGN §2: the rest still run).
+    constant = tuple(
+        node
+        for node, (_, idx) in spans.items()
+        if n > 0 and any(np.all(all_vectors[j] == all_vectors[j][0]) for j in idx)
+    )
+    messages = tuple(
+        f"{constant_message(node, covariates[node].column)} The models that hold it are not fitted."
+        for node in constant
+    )
 
     y = None
     if family != "cox":
@@ -315,5 +337,7 @@ def make_design(
         event=event_v,
         n=n,
         key=digest.hexdigest(),
+        messages=messages,
         column_names=tuple(all_names),
+        constant=constant,
     )

@@ -34,7 +34,7 @@ from covariscope.analysis.collinearity import (
     gvif,
     vif,
 )
-from covariscope.analysis.design import Design
+from covariscope.analysis.design import Design, constant_message
 from covariscope.analysis.fits import RATIO_FAMILIES, Fit
 from covariscope.analysis.linear import (
     LinearSummary,
@@ -191,6 +191,9 @@ class EvidenceEngine:
 
     def _precheck(self, terms: tuple[str, ...], n_params: int) -> str | None:
         n = self.design.n
+        constant = [t for t in terms if t in self.design.constant]
+        if constant:
+            return " ".join(constant_message(t, self.design.blocks[t].columns[0]) for t in constant)
         if n <= n_params:
             return f"The model has {n_params} parameters but only {n} rows; it needs at least {n_params + 1}."
         # One factorisation decides; the slower column-by-column search only names the culprits.
@@ -594,8 +597,12 @@ def compute_evidence(
     summary = engine.summary
     crude = engine.fit(())
     full = engine.fit(cands)
-    full_cols = engine.columns(cands)
-    full_vif = vif(summary, full_cols)
+    # A constant covariate has no VIF and would make every other one infinite:
+    # the collinearity of the full model is read without it.
+    constant = set(design.constant)
+    varying = [t for t in cands if t not in constant]
+    vif_cols = engine.columns(varying)
+    full_vif = vif(summary, vif_cols)
     covariates: dict[str, CovariateEvidence] = {}
     dropped_fits: dict[str, Fit] = {}
     for c in added_nodes:
@@ -606,7 +613,12 @@ def compute_evidence(
         )
         dropped_cmp = None
         v = tol = aux = g = g_root = None
-        if c in cands:
+        if c in cands and c in constant:
+            rest = tuple(t for t in cands if t != c)
+            without = engine.fit(rest)
+            dropped_fits[c] = without
+            dropped_cmp = compare(full, without, near_zero=near_zero)
+        elif c in cands:
             rest = tuple(t for t in cands if t != c)
             without = engine.fit(rest)
             dropped_fits[c] = without
@@ -614,15 +626,16 @@ def compute_evidence(
                 full, without, near_zero=near_zero, se_ratio_parts=_se_parts(engine, cands, rest)
             )
             if block.df == 1:
-                v = g = float(full_vif[full_cols.index(block.index[0])])
+                v = g = float(full_vif[vif_cols.index(block.index[0])])
             else:
-                others = [j for j in full_cols if j not in block.index]
+                others = [j for j in vif_cols if j not in block.index]
                 g = gvif(summary, list(block.index), others)
                 v = g ** (1.0 / block.df)
             g_root = g ** (1.0 / (2 * block.df))
             tol = 1.0 / v
             aux = 1.0 - tol
-        vif_x = float(vif(summary, [0, *block.index])[0])
+        # On a constant, the exposure's auxiliary R² is 0 (the intercept absorbs it).
+        vif_x = 1.0 if c in constant else float(vif(summary, [0, *block.index])[0])
         own = _own(with_c, block.columns)
         covariates[c] = CovariateEvidence(
             node=c,
@@ -644,17 +657,22 @@ def compute_evidence(
 
     report = collinearity_report(
         summary,
-        full_cols,
-        [design.column_names[j] for j in full_cols],
-        [design.exposure_node] + [n for n in cands for _ in design.blocks[n].index],
+        vif_cols,
+        [design.column_names[j] for j in vif_cols],
+        [design.exposure_node] + [n for n in varying for _ in design.blocks[n].index],
         index_threshold=index_threshold,
         proportion_threshold=proportion_threshold,
     )
-    aliases = engine.aliased([*cands, *added_nodes])
-    warnings = [f.message + "." for f in aliases]
+    aliases = engine.aliased([t for t in [*cands, *added_nodes] if t not in constant])
+    warnings = [*design.messages, *(f.message + "." for f in aliases)]
     if engine.family == "logistic":
         warnings.append(
             "Odds ratios are non-collapsible: the estimate can change on adjustment even without confounding."
+        )
+    if engine.family == "risk_ratio":
+        warnings.append(
+            "Standard errors are robust (sandwich) ones from the log-link Poisson model, "
+            "as Zou (2004) proposed for risk ratios."
         )
     if engine.family == "cox":
         warnings.append(
