@@ -4,10 +4,11 @@ now, and the project's ``keep_choices`` after a choice."""
 from __future__ import annotations
 
 import copy
+import dataclasses
 
 import pytest
 
-from covariscope.panels.keep_choice import group_key, keep_choice, keep_choices_after
+from covariscope.panels.keep_choice import group_key, keep_choice, keep_choices_after, kept_words
 
 
 def test_group_key_sorts_and_joins():
@@ -46,3 +47,12 @@ def test_choices_after_a_choice(demo_study):
     assert keep_choices_after(project, "x|y", None) is None
     with pytest.raises(ValueError, match="not a member"):
         keep_choices_after(project, "area|income", "age")
+
+
+def test_kept_words_name_the_kept_member(demo_study):
+    project, result, _ = demo_study
+    choice = keep_choice(project, result, "area")
+    kept = "this one" if choice.kept == "area" else choice.labels[choice.kept]
+    assert kept_words(choice) == f"{kept} kept"
+    saved = dataclasses.replace(choice, kept="area", saved=True)
+    assert kept_words(saved) == "this one kept (your choice)"

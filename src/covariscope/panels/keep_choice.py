@@ -12,7 +12,7 @@ from collections.abc import Iterable
 from dataclasses import dataclass
 from typing import Any
 
-__all__ = ["KeepChoice", "group_key", "keep_choice", "keep_choices_after"]
+__all__ = ["KeepChoice", "group_key", "keep_choice", "keep_choices_after", "kept_words"]
 
 
 def group_key(members: Iterable[str]) -> str:
@@ -73,6 +73,16 @@ def keep_choice(project: Any, result: Any, node_id: str) -> KeepChoice | None:
         saved=saved is not None,
         labels=labels,
     )
+
+
+def kept_words(choice: KeepChoice) -> str:
+    """Which member is kept, in a few words for the verdict cell:
+    ``"Income kept"``, ``"this one kept"``, with ``"(your choice)"`` once
+    the user chose it; empty when no member is kept yet."""
+    if choice.kept is None:
+        return ""
+    who = "this one" if choice.kept == choice.node else choice.labels[choice.kept]
+    return f"{who} kept" + (" (your choice)" if choice.saved else "")
 
 
 def keep_choices_after(project: Any, key: str, member: str | None) -> dict[str, str] | None:

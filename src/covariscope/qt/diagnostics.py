@@ -110,7 +110,7 @@ class NodeDialog(QDialog):
             "Your reasoning for this variable, in a sentence or two. It is saved in the "
             "project and printed in the rationale."
         )
-        self.note.setFixedHeight(70)
+        self.note.setFixedHeight(56)
         self.note.textChanged.connect(self._note_edited)
         self.save_note_button = QPushButton("Save note")
         self.save_note_button.setEnabled(False)
@@ -190,10 +190,14 @@ class CovariateDialog(NodeDialog):
         self.checks.setWordWrap(True)
         self.checks.setTextFormat(Qt.TextFormat.RichText)
         self.models = _table(_MODEL_HEADERS)
+        self.models.setHorizontalScrollBarPolicy(Qt.ScrollBarPolicy.ScrollBarAlwaysOff)
+        self.models.setVerticalScrollBarPolicy(Qt.ScrollBarPolicy.ScrollBarAlwaysOff)
+        self.models.horizontalHeader().setSectionResizeMode(0, QHeaderView.ResizeMode.Stretch)
+        self.models.horizontalHeader().setStretchLastSection(False)
         for column, tip in _MODEL_TIPS.items():
             self.models.horizontalHeaderItem(column).setToolTip(tip)
         self.figures = _table(("Collinearity", "Value"))
-        self.figures.setMinimumHeight(160)
+        self.figures.setMinimumHeight(120)
         self.messages = QLabel()
         self.messages.setObjectName("dialogMessages")
         self.estimate_figure = Figure(figsize=(4.4, 3.0), layout="constrained")
@@ -201,7 +205,7 @@ class CovariateDialog(NodeDialog):
         self.data_figure = Figure(figsize=(4.4, 3.0), layout="constrained")
         self.data_canvas = FigureCanvasQTAgg(self.data_figure)
         for c in (self.estimate_canvas, self.data_canvas):
-            c.setMinimumSize(300, 230)
+            c.setMinimumSize(300, 200)
 
         checklist_box = QGroupBox("What the diagram says")
         QVBoxLayout(checklist_box).addWidget(self.checks)
@@ -218,14 +222,16 @@ class CovariateDialog(NodeDialog):
 
         top = QHBoxLayout()
         left = QVBoxLayout()
-        left.addWidget(self.verdict)
         left.addWidget(self.keep_box)
         left.addWidget(checklist_box)
         left.addStretch(1)
-        top.addLayout(left, 1)
-        top.addWidget(numbers, 1)
+        # the numbers need the room of five columns; the checklist wraps
+        top.addLayout(left, 2)
+        top.addWidget(numbers, 3)
         layout = QVBoxLayout(self)
         layout.addWidget(self.heading)
+        # the verdict's reason is the longest text: it gets the full width
+        layout.addWidget(self.verdict)
         layout.addLayout(top, 3)
         layout.addWidget(plots, 2)
         layout.addWidget(self._note_box())
@@ -309,7 +315,7 @@ class CovariateDialog(NodeDialog):
             ax.axvline(1.0 if ratio_family(family) else 0.0, color="#5A5A5A", lw=0.8, ls="--")
             if ratio_family(family):
                 ax.set_xscale("log")
-            ax.set_xlabel(f"Exposure estimate ({s.effect_measure or 'coefficient'}), 95% CI")
+            ax.set_xlabel(f"{s.effect_measure or 'coefficient'} with 95% CI")
             ax.set_title("Exposure estimate across the models", fontsize=10)
         self.estimate_canvas.draw_idle()
 

@@ -18,7 +18,7 @@ from PySide6.QtWidgets import (
     QWidget,
 )
 
-from covariscope.panels.keep_choice import KeepChoice, keep_choice
+from covariscope.panels.keep_choice import KeepChoice, keep_choice, kept_words
 from covariscope.panels.review import REVIEW_COLUMNS, ReviewRow, review_rows, rows_to_csv
 from covariscope.qt.tables import filling
 
@@ -92,6 +92,9 @@ class ReviewTable(QWidget):
                 self.table.setRowCount(len(self._rows))
                 for r, row in enumerate(self._rows):
                     for c, text in enumerate(row.cells()):
+                        if c == _VERDICT and row.node in self._keep:
+                            kept = kept_words(self._keep[row.node])
+                            text = f"{text}: {kept}" if kept else text
                         item = QTableWidgetItem("" if c == _CHECK else text)
                         item.setData(Qt.ItemDataRole.UserRole, row.node)
                         if c == _VERDICT:
