@@ -147,6 +147,8 @@ def test_keep_another_member_from_the_table(qtbot, window, demo, wait_for_analys
     assert choice.kept not in w.result.recommended
     assert w.result.verdicts[other].suggested == other
     assert w.strip.texts()["recommended"] != strip_before
+    verdict_cell = w.review.table.item(w.review.row_of(other), 6).text()
+    assert verdict_cell.endswith("this one kept (your choice)")
     now = w.review.keep_choice_of(other)
     assert now.saved
     assert now.kept == other
