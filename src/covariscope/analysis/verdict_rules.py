@@ -147,6 +147,7 @@ _REVIEW_WORDS = {
 
 
 _MEASURE_WORD = {"logistic": "odds", "cox": "hazard"}
+_ARTICLE = {"logistic": "an", "cox": "a"}
 
 
 def _noncollapsible_note(n: Numbers, t: Mapping[str, float], family: str) -> str:
@@ -193,7 +194,7 @@ def _confounder(f: Facts, n: Numbers, t: Mapping[str, float], family: str) -> Ve
     if family in NONCOLLAPSIBLE_FAMILIES:
         measure = _MEASURE_WORD[family]
         caution = (
-            f" (part of a change in a {measure} ratio can be non-collapsibility rather than "
+            f" (part of a change in {_ARTICLE[family]} {measure} ratio can be non-collapsibility rather than "
             "confounding)"
         )
     return _verdict(
