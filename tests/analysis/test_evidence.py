@@ -316,3 +316,31 @@ def test_constant_covariate_fails_its_models_and_the_rest_run(family):
     assert "(intercept)" in table.collinearity.columns
     assert "k" not in table.collinearity.columns
     assert any("same value in every row" in w for w in table.warnings)
+
+
+def test_too_few_rows_for_the_full_model_are_reported_per_model():
+    """Issue 3 item 9: n ≤ parameters is said per model; the crude and small
+    models still run, and no aliasing is claimed for what is a lack of rows."""
+    import pandas as pd
+
+    from covariscope.analysis.design import TermSpec, make_design
+    from covariscope.analysis.evidence import EvidenceEngine, compute_evidence
+
+    rng = np.random.default_rng(1)
+    frame = pd.DataFrame({f"c{i}": rng.normal(size=6) for i in range(6)})
+    frame["x"] = rng.normal(size=6)
+    frame["y"] = frame["x"] + rng.normal(size=6)
+    covs = {f"c{i}": TermSpec(f"c{i}", "continuous") for i in range(6)}
+    design = make_design(
+        frame, exposure=TermSpec("x", "continuous"), covariates=covs, outcome="y", family="linear"
+    )
+    table = compute_evidence(
+        EvidenceEngine(design, "linear"), candidates=list(covs), added=list(covs)
+    )
+    assert table.crude.ok
+    assert table.covariates["c0"].added.with_fit.ok
+    assert not table.full.ok
+    assert "8 parameters but only 6 rows" in table.full.message
+    assert table.covariates["c0"].vif is None
+    assert table.aliased == ()
+    assert any("no more than the 8 parameters" in w for w in table.warnings)

@@ -302,11 +302,14 @@ def make_design(
     if offset is not None:
         offset_v = _numeric(frame, offset, "offset")
 
-    n_params = len(all_vectors) + (0 if family == "cox" else 1)
+    # Only the crude model must fit; larger models with too few rows are
+    # reported one by one by the engine, and the rest still run.
+    n_params = 1 + (0 if family == "cox" else 1)
     if n <= n_params:
         raise DataError(
-            f"The analytic sample has {n} rows but the largest model has {n_params} parameters; "
-            f"at least {n_params + 1} rows are needed. Load more data or bind fewer covariates."
+            f"The analytic sample has {n} rows, too few even for the crude model "
+            f"({n_params} parameters); at least {n_params + 1} rows are needed. Load more data "
+            "or bind columns with fewer missing values."
         )
 
     q = len(all_vectors) + (1 if y is not None else 0)

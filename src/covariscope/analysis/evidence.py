@@ -602,7 +602,10 @@ def compute_evidence(
     constant = set(design.constant)
     varying = [t for t in cands if t not in constant]
     vif_cols = engine.columns(varying)
-    full_vif = vif(summary, vif_cols)
+    # With no more rows than the full model has parameters every column looks
+    # collinear: its diagnostics are withheld rather than shown as aliasing.
+    few_rows = design.n <= len(vif_cols) + 1
+    full_vif = None if few_rows else vif(summary, vif_cols)
     covariates: dict[str, CovariateEvidence] = {}
     dropped_fits: dict[str, Fit] = {}
     for c in added_nodes:
@@ -625,15 +628,18 @@ def compute_evidence(
             dropped_cmp = compare(
                 full, without, near_zero=near_zero, se_ratio_parts=_se_parts(engine, cands, rest)
             )
-            if block.df == 1:
+            if full_vif is None:
+                pass
+            elif block.df == 1:
                 v = g = float(full_vif[vif_cols.index(block.index[0])])
             else:
                 others = [j for j in vif_cols if j not in block.index]
                 g = gvif(summary, list(block.index), others)
                 v = g ** (1.0 / block.df)
-            g_root = g ** (1.0 / (2 * block.df))
-            tol = 1.0 / v
-            aux = 1.0 - tol
+            if g is not None and v is not None:
+                g_root = g ** (1.0 / (2 * block.df))
+                tol = 1.0 / v
+                aux = 1.0 - tol
         # On a constant, the exposure's auxiliary R² is 0 (the intercept absorbs it).
         vif_x = 1.0 if c in constant else float(vif(summary, [0, *block.index])[0])
         own = _own(with_c, block.columns)
@@ -657,14 +663,25 @@ def compute_evidence(
 
     report = collinearity_report(
         summary,
-        vif_cols,
-        [design.column_names[j] for j in vif_cols],
-        [design.exposure_node] + [n for n in varying for _ in design.blocks[n].index],
+        [] if few_rows else vif_cols,
+        [] if few_rows else [design.column_names[j] for j in vif_cols],
+        []
+        if few_rows
+        else [design.exposure_node] + [n for n in varying for _ in design.blocks[n].index],
         index_threshold=index_threshold,
         proportion_threshold=proportion_threshold,
     )
-    aliases = engine.aliased([t for t in [*cands, *added_nodes] if t not in constant])
+    aliases = (
+        () if few_rows else engine.aliased([t for t in [*cands, *added_nodes] if t not in constant])
+    )
     warnings = [*design.messages, *(f.message + "." for f in aliases)]
+    if few_rows:
+        warnings.append(
+            f"The analytic sample has {design.n} rows, no more than the {len(vif_cols) + 1} "
+            "parameters of the full model: the full model, the models that drop one covariate "
+            "from it and its collinearity diagnostics cannot be estimated. Load more data or "
+            "consider fewer candidate covariates."
+        )
     if engine.family == "logistic":
         warnings.append(
             "Odds ratios are non-collapsible: the estimate can change on adjustment even without confounding."
