@@ -11,8 +11,6 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from covariscope.analysis.glm import (
-    CHUNK_ROWS,
-    _crossprod,
     detect_separation,
     fit_glm,
     fit_glm_path,
@@ -310,17 +308,6 @@ def test_risk_ratio_with_no_events_at_one_level_of_a_covariate() -> None:
 
 
 # ------------------------------------------------------------- the fast path
-
-
-def test_blocked_weighted_cross_product_matches_numpy_in_both_layouts() -> None:
-    # Reference: numpy's X.T @ (w X) on the same array; n spans several row blocks.
-    rng = np.random.default_rng(21)
-    n = 2 * CHUNK_ROWS + 123
-    X = rng.normal(size=(n, 5))
-    w = rng.random(n)
-    ref = X.T @ (w[:, None] * X)
-    np.testing.assert_allclose(_crossprod(X, w), ref, rtol=1e-12)
-    np.testing.assert_allclose(_crossprod(np.asfortranarray(X), w), ref, rtol=1e-12)
 
 
 @pytest.mark.parametrize("family", ["logistic", "risk_ratio"])

@@ -341,7 +341,8 @@ class EvidenceEngine:
         same linear predictor, so one weighted pass over the whole design serves
         them all: each takes its own sub-blocks of the information and score.
         """
-        from covariscope.analysis.glm import DIVERGE_SD, information_and_score
+        from covariscope.analysis.fitting_common import DIVERGE_SD
+        from covariscope.analysis.glm import information_and_score
 
         full = self._intercept_matrix()
         hit = self._glm_step.get(parent)

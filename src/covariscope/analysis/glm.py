@@ -27,10 +27,25 @@ from dataclasses import dataclass
 import numpy as np
 import numpy.typing as npt
 from scipy import optimize, special
-from scipy.linalg.blas import dsyrk
-from scipy.linalg.lapack import dpotrf, dpotri, dpotrs
+from scipy.linalg.lapack import dpotrs
 
 from covariscope.analysis.fits import Fit
+from covariscope.analysis.fitting_common import (
+    ALIAS_TOL,
+    CHUNK_ROWS,
+    DIVERGE_SD,
+    EVENTS_PER_PARAMETER,
+    LEFT_BLANK,
+    SINGULAR_INFORMATION,
+    aliased_columns,
+    design_problem,
+    finish_fit,
+    inverse_from_cholesky,
+    rank_message,
+    too_few_rows,
+    upper_cholesky,
+    weighted_crossprod,
+)
 
 __all__ = [
     "GLM_FAMILIES",
@@ -51,14 +66,6 @@ GLM_FAMILIES: dict[str, str] = {
     "risk_ratio": "Poisson, log link; robust HC0 sandwich SE (Zou 2004)",
 }
 
-#: Two-sided 95% normal quantile, scipy.stats.norm.ppf(0.975).
-Z95 = 1.959963984540054
-
-#: A column whose residual after projection on the earlier columns keeps less
-#: than this share of its (weighted) sum of squares is an exact combination of
-#: them (a VIF above 1e10: common practice, no published source).
-ALIAS_TOL = 1e-10
-
 #: Largest (weighted root-mean-square) change of the linear predictor that the
 #: last Newton step may still bring at convergence.  The logistic and Poisson
 #: weights change by at most that fraction per unit of η, so the standard
@@ -70,17 +77,9 @@ SE_TOL = 1e-7
 #: is taken without checking the deviance (it provably decreases; see `newton_glm`).
 SAFE_STEP = 1.0
 
-#: |coefficient| × column SD beyond which a coefficient is taken as running
-#: off to infinity (a ratio of e^20 per SD; common practice).
-DIVERGE_SD = 20.0
-
 #: Fitted probabilities (or rates relative to the mean) closer than this to
 #: 0 or 1 hint at separation and trigger the separation check.
 EXTREME_MU = 1e-8
-
-#: Events per covariate parameter below which a caution is given
-#: (Peduzzi et al. 1996, J Clin Epidemiol 49:1373).
-EVENTS_PER_PARAMETER = 10
 
 
 @dataclass(frozen=True)
@@ -117,167 +116,6 @@ class Separation:
     @property
     def found(self) -> bool:
         return self.kind != "none"
-
-
-# --------------------------------------------------------------------- helpers
-
-
-#: Rows per block of the weighted cross product: a block of √w·X stays in the
-#: processor cache, so the n × p scaled copy is never written to memory.
-CHUNK_ROWS = 4096
-
-
-def _crossprod(X: Array, w: Array, buf: Array | None = None) -> Array:
-    """X' diag(w) X (w ≥ 0) by symmetric rank-k updates; full matrix returned.
-
-    Rows go in blocks of `CHUNK_ROWS`; each block of √w·X is built in a small
-    buffer (``buf``, optional, at least that many rows and of X's layout) and
-    added to the upper triangle by BLAS ``dsyrk`` (half the flops of a general
-    product).  X may be C- or Fortran-ordered.
-    """
-    n, p = X.shape
-    sw = np.sqrt(w)
-    fortran = bool(X.flags.f_contiguous) and not X.flags.c_contiguous
-    rows = min(n, CHUNK_ROWS)
-    if buf is None or buf.shape[0] < rows or buf.shape[1] != p:
-        buf = np.empty((rows, p), order="F" if fortran else "C")
-    acc = np.zeros((p, p), order="F")
-    for s in range(0, n, rows):
-        e = min(s + rows, n)
-        block = buf[: e - s]
-        np.multiply(X[s:e], sw[s:e, None], out=block)
-        # A Fortran block is read as n × p (trans=1); a C block's transpose is
-        # Fortran p × n (trans=0): BLAS reads either without a copy.
-        if fortran:
-            acc = dsyrk(1.0, block, beta=1.0, c=acc, trans=1, lower=0, overwrite_c=1)
-        else:
-            acc = dsyrk(1.0, block.T, beta=1.0, c=acc, trans=0, lower=0, overwrite_c=1)
-    upper: Array = np.asarray(acc, dtype=np.float64)
-    return np.triu(upper) + np.triu(upper, 1).T
-
-
-def _chol(H: Array) -> Array | None:
-    """Upper Cholesky factor of H, or None if H is not positive definite."""
-    c, info = dpotrf(H, lower=0, clean=1)
-    if info != 0 or not np.all(np.isfinite(c)):
-        return None
-    return np.asarray(c)
-
-
-def _inverse(c: Array) -> Array:
-    inv: Array = np.asarray(dpotri(c, lower=0)[0], dtype=np.float64)
-    return np.triu(inv) + np.triu(inv, 1).T
-
-
-def aliased_columns(G: Array, names: list[str]) -> list[str]:
-    """Clauses "<a> is an exact linear combination of <b>, <c>" for a cross product.
-
-    Columns are taken in order; each is tested against the earlier columns that
-    were kept, so the intercept and the exposure (which come first) are never
-    the ones named as redundant.
-    """
-    d = np.sqrt(np.clip(np.diag(G), 0.0, None))
-    clauses: list[str] = []
-    kept: list[int] = []
-    for j in range(G.shape[0]):
-        if d[j] == 0.0:
-            clauses.append(f"{names[j]} is zero in every row")
-            continue
-        if kept:
-            K = G[np.ix_(kept, kept)] / np.outer(d[kept], d[kept])
-            g = G[kept, j] / (d[kept] * d[j])
-            c = np.linalg.solve(K, g)
-            resid = 1.0 - float(g @ c)
-        else:
-            c, resid = np.zeros(0), 1.0
-        if resid < ALIAS_TOL:
-            parts = [names[kept[i]] for i in range(len(kept)) if abs(c[i]) > 1e-7]
-            clauses.append(f"{names[j]} is an exact linear combination of {', '.join(parts)}")
-        else:
-            kept.append(j)
-    return clauses
-
-
-def rank_message(clauses: list[str]) -> str:
-    return (
-        "The design is rank-deficient: "
-        + "; ".join(clauses)
-        + ". Remove one of the columns involved (or bind a different column)."
-    )
-
-
-def design_problem(X: Array, names: list[str], *, skip: int) -> str:
-    """A plain message for missing values or constant columns, or ""."""
-    if X.shape[0] == 0:
-        return "The analytic sample has no rows."
-    # One min/max pass finds both: a column's range is NaN or infinite exactly
-    # when it holds a NaN or an infinity, and zero when the column is constant.
-    with np.errstate(invalid="ignore"):  # inf − inf is NaN, as wanted
-        spread = np.ptp(X, axis=0)
-    bad = ~np.isfinite(spread)
-    if bad.any():
-        cols = ", ".join(names[j] for j in np.flatnonzero(bad))
-        return f"Missing or infinite values in {cols}: fit the model on complete cases only."
-    const = np.flatnonzero(spread == 0.0)
-    const = const[const >= skip]
-    if const.size:
-        cols = ", ".join(f"{names[j]} (always {X[0, j]:g})" for j in const)
-        return (
-            f"Constant column: {cols} has the same value in every row of the analytic "
-            "sample, so its effect cannot be estimated. Remove it from the model."
-        )
-    return ""
-
-
-def too_few_rows(n: int, p: int) -> str:
-    return (
-        f"Only {n} rows for {p} parameters: a model needs more rows than parameters. "
-        "Drop covariates or use more data."
-    )
-
-
-def fit_from_params(
-    family: str,
-    terms: tuple[str, ...],
-    names: list[str],
-    params: Array,
-    cov: Array,
-    n: int,
-    exposure_index: int,
-    skip: set[int],
-    *,
-    converged: bool = True,
-    message: str = "",
-    warnings: tuple[str, ...] = (),
-    blank: frozenset[int] = frozenset(),
-) -> Fit:
-    """Assemble a `Fit`: the exposure's Wald estimate and every other column's."""
-    se = np.sqrt(np.clip(np.diag(cov), 0.0, None))
-    b, s = float(params[exposure_index]), float(se[exposure_index])
-    nan = float("nan")
-    term_coefs: dict[str, tuple[float, float, float, float]] = {}
-    for j, name in enumerate(names):
-        if j in skip or j == exposure_index:
-            continue
-        if j in blank:
-            term_coefs[name] = (nan, nan, nan, nan)
-        else:
-            bj, sj = float(params[j]), float(se[j])
-            term_coefs[name] = (bj, sj, bj - Z95 * sj, bj + Z95 * sj)
-    return Fit(
-        family,
-        terms,
-        b,
-        s,
-        (b - Z95 * s, b + Z95 * s),
-        n,
-        ok=True,
-        converged=converged,
-        message=message,
-        warnings=warnings,
-        n_params=len(params),
-        term_coefs=term_coefs,
-    )
 
 
 # ------------------------------------------------------------------ the Newton
@@ -366,8 +204,8 @@ def newton_glm(
     cov: Array | None = None
     stop = ""
     for it in range(1, max_iter + 1):
-        H = _crossprod(X, w, buf)
-        c = _chol(H)
+        H = weighted_crossprod(X, w, buf)
+        c = upper_cholesky(H)
         if it == 1 and (c is None or np.min(np.diag(c) ** 2 / np.diag(H)) < ALIAS_TOL):
             # Weights are positive, so X'WX is singular exactly when X is.
             return GlmPath(b, None, it, False, dev, mu, "aliased", H)
@@ -377,7 +215,7 @@ def newton_glm(
         step_, _ = dpotrs(c, score[:, None], lower=0)
         delta = step_[:, 0]
         decrement = float(score @ delta)
-        cov = _inverse(c)
+        cov = inverse_from_cholesky(c)
         # The decrement is Σ wᵢ (xᵢ'δ)²: besides the deviance test, the step left
         # must move the linear predictor by no more than SE_TOL (root mean
         # square, weighted), or the information — and so the standard errors,
@@ -436,7 +274,7 @@ def information_and_score(
     """
     eta = X @ params if offset is None else X @ params + offset
     mu, w, _ = _mean_and_deviance(family, y, eta, 0.0, deviance=False)
-    return _crossprod(X, w), X.T @ (y - mu)
+    return weighted_crossprod(X, w), X.T @ (y - mu)
 
 
 # ------------------------------------------------------------------ separation
@@ -776,16 +614,9 @@ def fit_glm_path(
             if sep.kind == "complete" or exposure_index in sep.columns or path.cov is None:
                 return Fit.failed(family, terms, n, words), None
             blank = frozenset(sep.columns) - {0}
-            warns.append(
-                words + " Their estimates are left blank; the exposure's is the limit of the fit."
-            )
+            warns.append(words + LEFT_BLANK)
         elif path.cov is None:
-            return Fit.failed(
-                family,
-                terms,
-                n,
-                "The information matrix became singular during fitting; check for near-duplicate columns or extreme values.",
-            ), None
+            return Fit.failed(family, terms, n, SINGULAR_INFORMATION), None
         elif extreme and path.converged:
             warns.append(
                 "Some fitted probabilities are numerically 0 or 1: check for sparse categories."
@@ -797,10 +628,10 @@ def fit_glm_path(
         # enter squared, so the last tiny step is not negligible here.
         eta = X @ path.params if off is None else X @ path.params + off
         mu = np.exp(np.minimum(eta, 700.0))
-        c = _chol(_crossprod(X, mu))
+        c = upper_cholesky(weighted_crossprod(X, mu))
         if c is not None:
-            cov = _inverse(c)
-        cov = cov @ _crossprod(X, (y - mu) ** 2) @ cov
+            cov = inverse_from_cholesky(c)
+        cov = cov @ weighted_crossprod(X, (y - mu) ** 2) @ cov
         binary = bool(np.all((y == 0) | (y == 1)))
         if binary and float(np.max(mu)) > 1.0 + 1e-9:
             warns.append(
@@ -814,15 +645,7 @@ def fit_glm_path(
             f"for {p - 1} covariate parameters (fewer than {EVENTS_PER_PARAMETER} per parameter, "
             "Peduzzi et al. 1996): estimates may be unstable."
         )
-    message = ""
-    converged = path.converged or bool(blank)
-    if not converged:
-        message = (
-            f"The fit did not converge after {path.iterations} iterations; the estimates "
-            "shown are the last ones reached. Allow more iterations or simplify the model."
-        )
-        warns.append(message)
-    fit = fit_from_params(
+    fit = finish_fit(
         family,
         terms,
         names,
@@ -831,9 +654,9 @@ def fit_glm_path(
         n,
         exposure_index,
         {0},
-        converged=converged,
-        message=message,
-        warnings=tuple(warns),
+        converged=path.converged,
+        iterations=path.iterations,
+        warnings=warns,
         blank=blank,
     )
     return fit, path

@@ -20,20 +20,22 @@ import numpy.typing as npt
 from scipy.linalg.lapack import dpotrs
 
 from covariscope.analysis.fits import Fit
-from covariscope.analysis.glm import (
+from covariscope.analysis.fitting_common import (
     ALIAS_TOL,
     DIVERGE_SD,
     EVENTS_PER_PARAMETER,
-    _chol,
-    _crossprod,
-    _inverse,
-    _screen_binary,
+    LEFT_BLANK,
+    SINGULAR_INFORMATION,
     aliased_columns,
     design_problem,
-    fit_from_params,
+    finish_fit,
+    inverse_from_cholesky,
     rank_message,
     too_few_rows,
+    upper_cholesky,
+    weighted_crossprod,
 )
+from covariscope.analysis.glm import _screen_binary
 
 __all__ = ["TIES", "CoxPath", "cox_partial_likelihood", "fit_cox", "newton_cox"]
 
@@ -101,7 +103,7 @@ class _RiskSets:
         cum_a = np.concatenate([[0.0], np.cumsum(a)])[self.last_event + 1]
         c = w * cum_a
         c[self.ev_rows] -= w[self.ev_rows] * b[g]
-        H = _crossprod(X, np.clip(c, 0.0, None)) - M.T @ M
+        H = weighted_crossprod(X, np.clip(c, 0.0, None)) - M.T @ M
         return loglik, score, H
 
 
@@ -149,7 +151,7 @@ def newton_cox(
     cov: Array | None = None
     for it in range(1, max_iter + 1):
         assert H is not None
-        c = _chol(H)
+        c = upper_cholesky(H)
         if it == 1 and (c is None or np.min(np.diag(c) ** 2 / np.diag(H)) < ALIAS_TOL):
             return CoxPath(beta, None, it, False, ll, "aliased")
         if c is None:
@@ -157,7 +159,7 @@ def newton_cox(
         step, _ = dpotrs(c, score[:, None], lower=0)
         delta = step[:, 0]
         decrement = float(score @ delta)
-        cov = _inverse(c)
+        cov = inverse_from_cholesky(c)
         if decrement <= tol * (2.0 * abs(ll) + 0.1):
             return CoxPath(beta + delta, cov, it, True, ll)
         t = 1.0
@@ -277,16 +279,9 @@ def fit_cox(
             if exposure_index in cols or path.cov is None:
                 return Fit.failed(family, terms, n, words), None
             blank = frozenset(cols)
-            warns.append(
-                words + " Their estimates are left blank; the exposure's is the limit of the fit."
-            )
+            warns.append(words + LEFT_BLANK)
         elif path.cov is None:
-            return Fit.failed(
-                family,
-                terms,
-                n,
-                "The information matrix became singular during fitting; check for near-duplicate columns or extreme values.",
-            ), None
+            return Fit.failed(family, terms, n, SINGULAR_INFORMATION), None
     assert path.cov is not None
     if risk.n_tied:
         warns.append(f"{risk.n_tied} event times are tied; {TIES[ties]}.")
@@ -296,15 +291,7 @@ def fit_cox(
             f"Only {events} events for {p} parameters (fewer than {EVENTS_PER_PARAMETER} per "
             "parameter, Peduzzi et al. 1995): estimates may be unstable."
         )
-    converged = path.converged or bool(blank)
-    message = ""
-    if not converged:
-        message = (
-            f"The fit did not converge after {path.iterations} iterations; the estimates "
-            "shown are the last ones reached. Allow more iterations or simplify the model."
-        )
-        warns.append(message)
-    fit = fit_from_params(
+    fit = finish_fit(
         family,
         terms,
         names,
@@ -313,9 +300,9 @@ def fit_cox(
         n,
         exposure_index,
         set(),
-        converged=converged,
-        message=message,
-        warnings=tuple(warns),
+        converged=path.converged,
+        iterations=path.iterations,
+        warnings=warns,
         blank=blank,
     )
     return fit, path.params

@@ -1,0 +1,274 @@
+"""Pieces shared by the logistic, Poisson and Cox fits.
+
+The weighted cross product and the Cholesky solve behind every Newton step,
+the plain-words messages for data problems (missing values, constant or
+aliased columns, too few rows, a singular information matrix, a fit that did
+not converge) and the assembly of a `Fit` from the fitted parameters and
+their covariance, so that each model family says these things in the same
+words.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import numpy.typing as npt
+from scipy.linalg.blas import dsyrk
+from scipy.linalg.lapack import dpotrf, dpotri
+
+from covariscope.analysis.fits import Fit
+
+__all__ = [
+    "ALIAS_TOL",
+    "CHUNK_ROWS",
+    "DIVERGE_SD",
+    "EVENTS_PER_PARAMETER",
+    "LEFT_BLANK",
+    "SINGULAR_INFORMATION",
+    "Z95",
+    "aliased_columns",
+    "design_problem",
+    "finish_fit",
+    "fit_from_params",
+    "inverse_from_cholesky",
+    "rank_message",
+    "too_few_rows",
+    "upper_cholesky",
+    "weighted_crossprod",
+]
+
+Array = npt.NDArray[np.float64]
+
+#: Two-sided 95% normal quantile, scipy.stats.norm.ppf(0.975).
+Z95 = 1.959963984540054
+
+#: A column whose residual after projection on the earlier columns keeps less
+#: than this share of its (weighted) sum of squares is an exact combination of
+#: them (a VIF above 1e10: common practice, no published source).
+ALIAS_TOL = 1e-10
+
+#: |coefficient| × column SD beyond which a coefficient is taken as running
+#: off to infinity (a ratio of e^20 per SD; common practice).
+DIVERGE_SD = 20.0
+
+#: Events per covariate parameter below which a caution is given
+#: (Peduzzi et al. 1996, J Clin Epidemiol 49:1373).
+EVENTS_PER_PARAMETER = 10
+
+#: Rows per block of the weighted cross product: a block of √w·X stays in the
+#: processor cache, so the n × p scaled copy is never written to memory.
+CHUNK_ROWS = 4096
+
+
+def weighted_crossprod(X: Array, w: Array, buf: Array | None = None) -> Array:
+    """X' diag(w) X (w ≥ 0) by symmetric rank-k updates; full matrix returned.
+
+    Rows go in blocks of `CHUNK_ROWS`; each block of √w·X is built in a small
+    buffer (``buf``, optional, at least that many rows and of X's layout) and
+    added to the upper triangle by BLAS ``dsyrk`` (half the flops of a general
+    product).  X may be C- or Fortran-ordered.
+    """
+    n, p = X.shape
+    sw = np.sqrt(w)
+    fortran = bool(X.flags.f_contiguous) and not X.flags.c_contiguous
+    rows = min(n, CHUNK_ROWS)
+    if buf is None or buf.shape[0] < rows or buf.shape[1] != p:
+        buf = np.empty((rows, p), order="F" if fortran else "C")
+    acc = np.zeros((p, p), order="F")
+    for s in range(0, n, rows):
+        e = min(s + rows, n)
+        block = buf[: e - s]
+        np.multiply(X[s:e], sw[s:e, None], out=block)
+        # A Fortran block is read as n × p (trans=1); a C block's transpose is
+        # Fortran p × n (trans=0): BLAS reads either without a copy.
+        if fortran:
+            acc = dsyrk(1.0, block, beta=1.0, c=acc, trans=1, lower=0, overwrite_c=1)
+        else:
+            acc = dsyrk(1.0, block.T, beta=1.0, c=acc, trans=0, lower=0, overwrite_c=1)
+    upper: Array = np.asarray(acc, dtype=np.float64)
+    return np.triu(upper) + np.triu(upper, 1).T
+
+
+def upper_cholesky(H: Array) -> Array | None:
+    """Upper Cholesky factor of H, or None if H is not positive definite."""
+    c, info = dpotrf(H, lower=0, clean=1)
+    if info != 0 or not np.all(np.isfinite(c)):
+        return None
+    return np.asarray(c)
+
+
+def inverse_from_cholesky(c: Array) -> Array:
+    inv: Array = np.asarray(dpotri(c, lower=0)[0], dtype=np.float64)
+    return np.triu(inv) + np.triu(inv, 1).T
+
+
+def aliased_columns(G: Array, names: list[str]) -> list[str]:
+    """Clauses "<a> is an exact linear combination of <b>, <c>" for a cross product.
+
+    Columns are taken in order; each is tested against the earlier columns that
+    were kept, so the intercept and the exposure (which come first) are never
+    the ones named as redundant.
+    """
+    d = np.sqrt(np.clip(np.diag(G), 0.0, None))
+    clauses: list[str] = []
+    kept: list[int] = []
+    for j in range(G.shape[0]):
+        if d[j] == 0.0:
+            clauses.append(f"{names[j]} is zero in every row")
+            continue
+        if kept:
+            K = G[np.ix_(kept, kept)] / np.outer(d[kept], d[kept])
+            g = G[kept, j] / (d[kept] * d[j])
+            c = np.linalg.solve(K, g)
+            resid = 1.0 - float(g @ c)
+        else:
+            c, resid = np.zeros(0), 1.0
+        if resid < ALIAS_TOL:
+            parts = [names[kept[i]] for i in range(len(kept)) if abs(c[i]) > 1e-7]
+            clauses.append(f"{names[j]} is an exact linear combination of {', '.join(parts)}")
+        else:
+            kept.append(j)
+    return clauses
+
+
+def rank_message(clauses: list[str]) -> str:
+    return (
+        "The design is rank-deficient: "
+        + "; ".join(clauses)
+        + ". Remove one of the columns involved (or bind a different column)."
+    )
+
+
+def design_problem(X: Array, names: list[str], *, skip: int) -> str:
+    """A plain message for missing values or constant columns, or ""."""
+    if X.shape[0] == 0:
+        return "The analytic sample has no rows."
+    # One min/max pass finds both: a column's range is NaN or infinite exactly
+    # when it holds a NaN or an infinity, and zero when the column is constant.
+    with np.errstate(invalid="ignore"):  # inf − inf is NaN, as wanted
+        spread = np.ptp(X, axis=0)
+    bad = ~np.isfinite(spread)
+    if bad.any():
+        cols = ", ".join(names[j] for j in np.flatnonzero(bad))
+        return f"Missing or infinite values in {cols}: fit the model on complete cases only."
+    const = np.flatnonzero(spread == 0.0)
+    const = const[const >= skip]
+    if const.size:
+        cols = ", ".join(f"{names[j]} (always {X[0, j]:g})" for j in const)
+        return (
+            f"Constant column: {cols} has the same value in every row of the analytic "
+            "sample, so its effect cannot be estimated. Remove it from the model."
+        )
+    return ""
+
+
+def too_few_rows(n: int, p: int) -> str:
+    return (
+        f"Only {n} rows for {p} parameters: a model needs more rows than parameters. "
+        "Drop covariates or use more data."
+    )
+
+
+def fit_from_params(
+    family: str,
+    terms: tuple[str, ...],
+    names: list[str],
+    params: Array,
+    cov: Array,
+    n: int,
+    exposure_index: int,
+    skip: set[int],
+    *,
+    converged: bool = True,
+    message: str = "",
+    warnings: tuple[str, ...] = (),
+    blank: frozenset[int] = frozenset(),
+) -> Fit:
+    """Assemble a `Fit`: the exposure's Wald estimate and every other column's."""
+    se = np.sqrt(np.clip(np.diag(cov), 0.0, None))
+    b, s = float(params[exposure_index]), float(se[exposure_index])
+    nan = float("nan")
+    term_coefs: dict[str, tuple[float, float, float, float]] = {}
+    for j, name in enumerate(names):
+        if j in skip or j == exposure_index:
+            continue
+        if j in blank:
+            term_coefs[name] = (nan, nan, nan, nan)
+        else:
+            bj, sj = float(params[j]), float(se[j])
+            term_coefs[name] = (bj, sj, bj - Z95 * sj, bj + Z95 * sj)
+    return Fit(
+        family,
+        terms,
+        b,
+        s,
+        (b - Z95 * s, b + Z95 * s),
+        n,
+        ok=True,
+        converged=converged,
+        message=message,
+        warnings=warnings,
+        n_params=len(params),
+        term_coefs=term_coefs,
+    )
+
+
+#: Said when the Newton loop met a singular information matrix.
+SINGULAR_INFORMATION = (
+    "The information matrix became singular during fitting; check for "
+    "near-duplicate columns or extreme values."
+)
+
+#: Added to a warning about coefficients that run off to infinity when the
+#: fit goes on without them.
+LEFT_BLANK = " Their estimates are left blank; the exposure's is the limit of the fit."
+
+
+def finish_fit(
+    family: str,
+    terms: tuple[str, ...],
+    names: list[str],
+    params: Array,
+    cov: Array,
+    n: int,
+    exposure_index: int,
+    skip: set[int],
+    *,
+    converged: bool,
+    iterations: int,
+    warnings: list[str],
+    blank: frozenset[int],
+) -> Fit:
+    """`fit_from_params` after the last check: a fit that did not converge says so.
+
+    A fit whose runaway coefficients were left blank counts as converged: the
+    exposure's estimate is then the limit the loop was heading for.
+
+    >>> import numpy as np
+    >>> fit = finish_fit("logistic", (), ["const", "x"], np.zeros(2), np.eye(2), 10, 1, {0},
+    ...                  converged=False, iterations=50, warnings=[], blank=frozenset())
+    >>> fit.converged, fit.message.startswith("The fit did not converge after 50")
+    (False, True)
+    """
+    converged = converged or bool(blank)
+    message = ""
+    warns = list(warnings)
+    if not converged:
+        message = (
+            f"The fit did not converge after {iterations} iterations; the estimates "
+            "shown are the last ones reached. Allow more iterations or simplify the model."
+        )
+        warns.append(message)
+    return fit_from_params(
+        family,
+        terms,
+        names,
+        params,
+        cov,
+        n,
+        exposure_index,
+        skip,
+        converged=converged,
+        message=message,
+        warnings=tuple(warns),
+        blank=blank,
+    )
