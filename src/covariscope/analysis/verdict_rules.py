@@ -11,6 +11,9 @@ research. *Epidemiology* 10:37–48 (confounders, colliders, the M-structure).
 Greenland S, Robins JM, Pearl J (1999). Confounding and collapsibility in
 causal inference. *Statistical Science* 14:29–46 (non-collapsibility of odds
 and hazard ratios).
+
+Maldonado G, Greenland S (1993). Simulation study of confounder-selection
+strategies. *Am J Epidemiol* 138:923–936 (the 10% change-in-estimate guide).
 """
 
 from __future__ import annotations

@@ -7,7 +7,8 @@ the data say, and :class:`Verdict` the answer.
 
 Vocabulary: ``adjust``, ``keep_one_of``, ``exclude_measures_exposure``,
 ``exclude_pathway``, ``exclude_descendant``, ``exclude_collider``,
-``optional_precision``, ``not_needed``, ``avoid_instrument``, ``consider_proxy``,
+``optional_precision``, ``not_needed`` (a covariate the diagram links to
+neither the exposure nor the outcome), ``avoid_instrument``, ``consider_proxy``,
 ``review``, ``unmeasured``.
 """
 

@@ -13,23 +13,9 @@ This module is the entry point; the parts live by topic:
 :mod:`~covariscope.analysis.verdict_groups` (collinear confounder groups) and
 :mod:`~covariscope.analysis.verdict_wording` (sentence parts).
 
-Vocabulary (stable; used in ``check --json``): ``adjust``, ``keep_one_of``,
-``exclude_measures_exposure``, ``exclude_pathway``, ``exclude_descendant``,
-``exclude_collider``, ``optional_precision``, ``not_needed`` (a covariate
-the diagram links to neither the exposure nor the outcome), ``avoid_instrument``,
-``consider_proxy``, ``review``, ``unmeasured``.
-
-References
-----------
-Greenland S, Pearl J, Robins JM (1999). Causal diagrams for epidemiologic
-research. *Epidemiology* 10:37–48 (confounders, colliders, the M-structure).
-
-Greenland S, Robins JM, Pearl J (1999). Confounding and collapsibility in
-causal inference. *Statistical Science* 14:29–46 (non-collapsibility of odds
-and hazard ratios).
-
-Maldonado G, Greenland S (1993). Simulation study of confounder-selection
-strategies. *Am J Epidemiol* 138:923–936 (the 10% change-in-estimate guide).
+The verdict codes (stable; used in ``check --json``) are listed in
+:mod:`~covariscope.analysis.verdict_terms`, the published sources of the
+rules in :mod:`~covariscope.analysis.verdict_rules`.
 """
 
 from __future__ import annotations
