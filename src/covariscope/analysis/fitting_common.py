@@ -27,7 +27,6 @@ __all__ = [
     "Z95",
     "aliased_columns",
     "design_problem",
-    "finish_fit",
     "fit_from_params",
     "inverse_from_cholesky",
     "rank_message",
@@ -168,6 +167,17 @@ def too_few_rows(n: int, p: int) -> str:
     )
 
 
+#: Said when the Newton loop met a singular information matrix.
+SINGULAR_INFORMATION = (
+    "The information matrix became singular during fitting; check for "
+    "near-duplicate columns or extreme values."
+)
+
+#: Added to a warning about coefficients that run off to infinity when the
+#: fit goes on without them.
+LEFT_BLANK = " Their estimates are left blank; the exposure's is the limit of the fit."
+
+
 def fit_from_params(
     family: str,
     terms: tuple[str, ...],
@@ -178,12 +188,34 @@ def fit_from_params(
     exposure_index: int,
     skip: set[int],
     *,
-    converged: bool = True,
-    message: str = "",
-    warnings: tuple[str, ...] = (),
+    converged: bool,
+    iterations: int,
+    warnings: list[str],
     blank: frozenset[int] = frozenset(),
 ) -> Fit:
-    """Assemble a `Fit`: the exposure's Wald estimate and every other column's."""
+    """Assemble a `Fit`: the exposure's Wald estimate and every other column's.
+
+    Columns in ``skip`` (the intercept) are left out of ``term_coefs``, those
+    in ``blank`` (coefficients that run off to infinity) are NaN there.  A fit
+    that did not converge says so in its message and warnings; one whose
+    runaway coefficients were left blank counts as converged, the exposure's
+    estimate then being the limit the loop was heading for.
+
+    >>> import numpy as np
+    >>> fit = fit_from_params("logistic", (), ["const", "x"], np.zeros(2), np.eye(2), 10, 1, {0},
+    ...                       converged=False, iterations=50, warnings=[])
+    >>> fit.converged, fit.message.startswith("The fit did not converge after 50")
+    (False, True)
+    """
+    converged = converged or bool(blank)
+    message = ""
+    warns = list(warnings)
+    if not converged:
+        message = (
+            f"The fit did not converge after {iterations} iterations; the estimates "
+            "shown are the last ones reached. Allow more iterations or simplify the model."
+        )
+        warns.append(message)
     se = np.sqrt(np.clip(np.diag(cov), 0.0, None))
     b, s = float(params[exposure_index]), float(se[exposure_index])
     nan = float("nan")
@@ -206,69 +238,7 @@ def fit_from_params(
         ok=True,
         converged=converged,
         message=message,
-        warnings=warnings,
+        warnings=tuple(warns),
         n_params=len(params),
         term_coefs=term_coefs,
-    )
-
-
-#: Said when the Newton loop met a singular information matrix.
-SINGULAR_INFORMATION = (
-    "The information matrix became singular during fitting; check for "
-    "near-duplicate columns or extreme values."
-)
-
-#: Added to a warning about coefficients that run off to infinity when the
-#: fit goes on without them.
-LEFT_BLANK = " Their estimates are left blank; the exposure's is the limit of the fit."
-
-
-def finish_fit(
-    family: str,
-    terms: tuple[str, ...],
-    names: list[str],
-    params: Array,
-    cov: Array,
-    n: int,
-    exposure_index: int,
-    skip: set[int],
-    *,
-    converged: bool,
-    iterations: int,
-    warnings: list[str],
-    blank: frozenset[int],
-) -> Fit:
-    """`fit_from_params` after the last check: a fit that did not converge says so.
-
-    A fit whose runaway coefficients were left blank counts as converged: the
-    exposure's estimate is then the limit the loop was heading for.
-
-    >>> import numpy as np
-    >>> fit = finish_fit("logistic", (), ["const", "x"], np.zeros(2), np.eye(2), 10, 1, {0},
-    ...                  converged=False, iterations=50, warnings=[], blank=frozenset())
-    >>> fit.converged, fit.message.startswith("The fit did not converge after 50")
-    (False, True)
-    """
-    converged = converged or bool(blank)
-    message = ""
-    warns = list(warnings)
-    if not converged:
-        message = (
-            f"The fit did not converge after {iterations} iterations; the estimates "
-            "shown are the last ones reached. Allow more iterations or simplify the model."
-        )
-        warns.append(message)
-    return fit_from_params(
-        family,
-        terms,
-        names,
-        params,
-        cov,
-        n,
-        exposure_index,
-        skip,
-        converged=converged,
-        message=message,
-        warnings=tuple(warns),
-        blank=blank,
     )

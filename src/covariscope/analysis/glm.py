@@ -39,7 +39,7 @@ from covariscope.analysis.fitting_common import (
     SINGULAR_INFORMATION,
     aliased_columns,
     design_problem,
-    finish_fit,
+    fit_from_params,
     inverse_from_cholesky,
     rank_message,
     too_few_rows,
@@ -645,7 +645,7 @@ def fit_glm_path(
             f"for {p - 1} covariate parameters (fewer than {EVENTS_PER_PARAMETER} per parameter, "
             "Peduzzi et al. 1996): estimates may be unstable."
         )
-    fit = finish_fit(
+    fit = fit_from_params(
         family,
         terms,
         names,

@@ -28,7 +28,7 @@ from covariscope.analysis.fitting_common import (
     SINGULAR_INFORMATION,
     aliased_columns,
     design_problem,
-    finish_fit,
+    fit_from_params,
     inverse_from_cholesky,
     rank_message,
     too_few_rows,
@@ -291,7 +291,7 @@ def fit_cox(
             f"Only {events} events for {p} parameters (fewer than {EVENTS_PER_PARAMETER} per "
             "parameter, Peduzzi et al. 1995): estimates may be unstable."
         )
-    fit = finish_fit(
+    fit = fit_from_params(
         family,
         terms,
         names,
