@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import itertools
 import json
 from importlib import resources
 from pathlib import Path
@@ -84,3 +85,29 @@ def test_schema_rejects_a_missing_field(schema, capsys):
     del out["covariates"]["age"]["dropped"]
     with pytest.raises(jsonschema.ValidationError):
         jsonschema.validate(out, schema)
+
+
+def test_capped_open_paths_validate_with_their_count(schema, capsys, tmp_path):
+    # every arrow of a ten-node causal order: more open paths than are listed
+    order = ["n0", "n1", "n2", "n3", "x", "n5", "n6", "n7", "n8", "y"]
+    kinds = {"x": "exposure", "y": "outcome"}
+    project = {
+        "format": "covariscope-project",
+        "version": 1,
+        "diagram": {
+            "nodes": [{"id": n, "kind": kinds.get(n, "covariate")} for n in order],
+            "arrows": [{"from": a, "to": b} for a, b in itertools.combinations(order, 2)],
+        },
+    }
+    path = tmp_path / "dense.json"
+    path.write_text(json.dumps(project), encoding="utf-8")
+    out = _check(capsys, str(path))
+    jsonschema.validate(out, schema)
+    assert len(out["open_paths"]) == 500
+    assert out["open_paths_total"] > 500
+    assert out["open_paths_total_exact"] is False
+    for key in ("open_paths_total", "open_paths_total_exact"):
+        broken = dict(out)
+        del broken[key]
+        with pytest.raises(jsonschema.ValidationError):
+            jsonschema.validate(broken, schema)

@@ -2,8 +2,10 @@
 
 from __future__ import annotations
 
+import itertools
 from pathlib import Path
 
+import networkx as nx
 import numpy as np
 import pandas as pd
 import pytest
@@ -217,3 +219,68 @@ def test_collinear_group_from_the_data_names_the_member_that_alone_suffices():
     assert "only a alone gives a sufficient set (b alone does not)" in v.reason
     r2 = float(np.corrcoef(a, b)[0, 1] ** 2)  # outside reference: numpy's correlation
     assert f"their R² is {r2:.3g} against the guide 0.9" in v.reason
+
+
+def _hub_project():
+    # x ← a_i ← h → b_j → y for 23 a's and 23 b's: exactly 23² = 529 backdoor paths,
+    # all open when nothing is adjusted, more than the 500 that are listed.
+    a = [f"a{i:02d}" for i in range(23)]
+    b = [f"b{i:02d}" for i in range(23)]
+    arrows = [("x", "y"), *((v, "x") for v in a), *(("h", v) for v in a + b)]
+    arrows += [(v, "y") for v in b]
+    return _project(["x", "y", "h", *a, *b], arrows)
+
+
+def _complete_project():
+    # Every arrow of a ten-node causal order: the open paths outrun the count's budget.
+    order = ["n0", "n1", "n2", "n3", "x", "n5", "n6", "n7", "n8", "y"]
+    return _project(order, list(itertools.combinations(order, 2)))
+
+
+def test_capped_open_paths_carry_their_exact_total():
+    project = _hub_project()
+    r = run_study(project)
+    # outside reference: networkx.all_simple_paths on the undirected skeleton, kept
+    # when the first arrow points into x (none has a collider here, so all are open)
+    G = project.diagram.to_networkx()
+    ref = [p for p in nx.all_simple_paths(G.to_undirected(), "x", "y") if G.has_edge(p[1], "x")]
+    assert len(ref) == 529
+    js = study_to_json(r)
+    assert len(js["open_paths"]) == 500
+    assert js["open_paths_total"] == len(ref) == r.diagram.review.open_paths_total
+    assert js["open_paths_total_exact"] is True
+    keys = list(js)
+    assert keys.index("open_paths_total") == keys.index("open_paths") + 1
+    text = format_study_text(r)
+    assert "NOT sufficient (529 open path(s))" in text
+    assert "    showing 5 of 529 open paths" in text
+    assert text.count("    open: ") == 5
+    # a proposed a00 closes the 23 paths through it: 506 left, still past the cap
+    project.set_proposed(["a00"])
+    r = run_study(project)
+    js = study_to_json(r)
+    assert (len(js["open_paths"]), js["open_paths_total"]) == (500, 506)
+    assert any("it leaves 506 backdoor path(s) open" in m for m in r.messages)
+
+
+def test_open_paths_past_the_count_budget_read_at_least():
+    r = run_study(_complete_project())
+    review = r.diagram.review
+    assert not review.open_paths_total_exact
+    js = study_to_json(r)
+    assert len(js["open_paths"]) == 500
+    assert js["open_paths_total"] == review.open_paths_total > 500
+    assert js["open_paths_total_exact"] is False
+    text = format_study_text(r)
+    assert f"showing 5 of at least {review.open_paths_total:,} open paths" in text
+
+
+def test_uncapped_open_paths_are_counted_without_a_showing_line():
+    p = _project(["x", "y", "c", "d"], [("c", "x"), ("c", "y"), ("d", "x"), ("d", "y"), ("x", "y")])
+    js = study_to_json(run_study(p))
+    assert js["open_paths_total"] == len(js["open_paths"]) == 2
+    assert js["open_paths_total_exact"] is True
+    assert "showing" not in format_study_text(run_study(p))
+    p.set_proposed(["c", "d"])
+    js = study_to_json(run_study(p))
+    assert (js["open_paths"], js["open_paths_total"], js["open_paths_total_exact"]) == ([], 0, True)

@@ -327,7 +327,7 @@ def run_study(
     if proposed and not da.review.sufficient:
         messages.append(
             f"The proposed set {format_set(names[p] for p in proposed)} is not sufficient: it leaves "
-            f"{len(da.review.open_paths)} backdoor path(s) open."
+            f"{da.review.open_paths_text()} backdoor path(s) open."
         )
 
     # Verdicts.

@@ -66,7 +66,14 @@ def study_to_json(result: StudyResult) -> dict[str, Any]:
 
     Fields that do not apply are null, never absent.
     """
-    out: dict[str, Any] = dict(result.diagram.to_json())
+    out: dict[str, Any] = {}
+    review = result.diagram.review
+    for key, value in result.diagram.to_json().items():
+        out[key] = value
+        if key == "open_paths":
+            # ``open_paths`` lists at most 500; the count says how many there are.
+            out["open_paths_total"] = review.open_paths_total
+            out["open_paths_total_exact"] = review.open_paths_total_exact
     out["proposed"] = list(result.proposed)
     ev = result.evidence
     sample = result.sample

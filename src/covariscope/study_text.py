@@ -9,7 +9,10 @@ from covariscope.analysis.fits import RATIO_FAMILIES, Fit
 from covariscope.analysis.verdicts import format_set
 from covariscope.study_result import ESTIMATE_KEYS, StudyResult
 
-__all__ = ["format_study_text"]
+__all__ = ["OPEN_PATHS_SHOWN", "format_study_text"]
+
+#: Open backdoor paths the readable review lists; the rest are counted.
+OPEN_PATHS_SHOWN = 5
 
 
 def _fmt(value: float | None, spec: str = ".1f", suffix: str = "") -> str:
@@ -97,8 +100,11 @@ def format_study_text(result: StudyResult) -> str:
         )
     )
     if da.review.open_paths:
-        for p in da.review.open_paths[:5]:
+        shown = da.review.open_paths[:OPEN_PATHS_SHOWN]
+        for p in shown:
             lines.append(f"    open: {' – '.join(nm(n) for n in p)}")
+        if len(shown) < da.review.open_paths_total or not da.review.open_paths_total_exact:
+            lines.append(f"    showing {len(shown)} of {da.review.open_paths_text()} open paths")
     if da.review.harmful:
         lines.append(f"    harmful: {', '.join(nm(n) for n in da.review.harmful)}")
     if da.review.unnecessary:
