@@ -37,6 +37,9 @@ def test_demo_output_validates(schema, capsys):
     assert out["sample"]["used"] < out["sample"]["rows"]
     assert out["covariates"]["early_life"]["added"] is None
     assert out["evalue"]["estimate"] >= 1
+    assert out["keep_one_groups"] == out["collinear_groups"] == [["area", "income"]]
+    for member in ("area", "income"):
+        assert out["covariates"][member]["group"] == ["area", "income"]
 
 
 @pytest.mark.parametrize("family", ["logistic", "risk_ratio", "cox"])

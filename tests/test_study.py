@@ -284,3 +284,94 @@ def test_uncapped_open_paths_are_counted_without_a_showing_line():
     p.set_proposed(["c", "d"])
     js = study_to_json(run_study(p))
     assert (js["open_paths"], js["open_paths_total"], js["open_paths_total_exact"]) == ([], 0, True)
+
+
+def _mixed_group_study(keep_choices=None):
+    # a and b are interchangeable (x ← a → b → y: either closes that path); c confounds
+    # on a path of its own (x ← c → y). All three share a cause in the data, so each
+    # pair's R² passes 0.9 and they form one collinear group of three.
+    rng = np.random.default_rng(11)
+    n = 1500
+    u = rng.normal(size=n)
+    a = u + 0.15 * rng.normal(size=n)
+    b = a + 0.15 * rng.normal(size=n)
+    c = u + 0.15 * rng.normal(size=n)
+    x = 0.4 * a + 0.4 * c + rng.normal(size=n)
+    y = x + 0.5 * b + 0.5 * c + rng.normal(size=n)
+    frame = pd.DataFrame({"x": x, "y": y, "a": a, "b": b, "c": c})
+    p = _project(
+        ["x", "y", "a", "b", "c"],
+        [("a", "x"), ("a", "b"), ("b", "y"), ("c", "x"), ("c", "y"), ("x", "y")],
+        analysis={"keep_choices": dict(keep_choices or {})},
+    )
+    return p, frame, run_study(p, table=_table(frame))
+
+
+def test_mixed_collinear_group_adjusts_the_needed_member_and_keeps_one_of_the_rest():
+    _, frame, r = _mixed_group_study()
+    # outside reference: numpy's correlation for every pair's R²
+    r2 = np.corrcoef(frame[["a", "b", "c"]].to_numpy().T) ** 2
+    assert r2[np.triu_indices(3, 1)].min() >= 0.9
+    assert r.collinear_groups == (("a", "b", "c"),)
+    assert r.keep_one_groups == (("a", "b"),)
+    assert r.diagram.minimal_sets == (("a", "c"), ("b", "c"))
+    c = r.verdicts["c"]
+    assert c.code == "adjust"
+    assert (c.group, c.suggested) == ((), None)
+    assert "the diagram needs it whichever other member is kept" in c.reason
+    assert f"its R² with a is {r2[0, 2]:.3g} against the guide 0.9" in c.reason
+    for node in ("a", "b"):
+        v = r.verdicts[node]
+        assert v.code == "keep_one_of"
+        assert v.group == ("a", "b")
+        assert v.suggested in ("a", "b")
+        assert "Keep one of {a, b}" in v.reason
+        assert "each member alone gives a sufficient set with {c}" in v.reason
+    assert r.verdicts["a"].suggested == r.verdicts["b"].suggested
+    assert set(r.recommended) == {r.verdicts["a"].suggested, "c"}
+    js = study_to_json(r)
+    assert js["collinear_groups"] == [["a", "b", "c"]]
+    assert js["keep_one_groups"] == [["a", "b"]]
+    assert js["covariates"]["c"]["group"] is None
+    assert js["covariates"]["a"]["group"] == ["a", "b"]
+    text = format_study_text(r)
+    assert "Collinear groups: {a, b, c} (keep one of {a, b}; the diagram needs c)" in text
+
+
+@pytest.mark.parametrize("kept", ["a", "b"])
+def test_saved_choice_in_a_mixed_group_is_kept_beside_the_needed_member(kept, tmp_path):
+    from covariscope.model.project import load_project, save_project
+
+    p, frame, _ = _mixed_group_study({"a|b": kept})
+    # the choice survives the project file
+    loaded = load_project(save_project(p, tmp_path / "mixed.json"))
+    assert loaded.analysis.keep_choices == {"a|b": kept}
+    r = run_study(loaded, table=_table(frame))
+    assert r.recommended == tuple(sorted((kept, "c")))
+    assert "the saved choice standing in for its collinear group" in r.recommended_reason
+    for node in ("a", "b"):
+        v = r.verdicts[node]
+        assert (v.code, v.suggested) == ("keep_one_of", kept)
+        assert "because it is the saved choice" in v.reason
+    assert r.verdicts["c"].code == "adjust"
+    assert r.estimates["recommended"] is not None
+    # outside reference: statsmodels OLS of y on x and the recommended set, same rows
+    ols = sm.OLS(frame["y"], sm.add_constant(frame[["x", *r.recommended]])).fit()
+    assert r.estimates["recommended"].coef == pytest.approx(ols.params["x"], rel=1e-9)
+
+
+def test_groups_the_diagram_needs_whole_are_no_keep_one_group():
+    rng = np.random.default_rng(23)
+    n = 1500
+    u = rng.normal(size=n)
+    a = u + 0.2 * rng.normal(size=n)
+    b = u + 0.2 * rng.normal(size=n)
+    x = 0.5 * a + 0.5 * b + rng.normal(size=n)
+    y = x + a - b + rng.normal(size=n)
+    frame = pd.DataFrame({"x": x, "y": y, "a": a, "b": b})
+    p = _project(["x", "y", "a", "b"], [("a", "x"), ("a", "y"), ("b", "x"), ("b", "y"), ("x", "y")])
+    r = run_study(p, table=_table(frame))
+    js = study_to_json(r)
+    assert js["collinear_groups"] == [["a", "b"]]
+    assert js["keep_one_groups"] == []
+    assert "Collinear groups: {a, b} (the diagram needs every member)" in format_study_text(r)

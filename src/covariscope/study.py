@@ -350,7 +350,7 @@ def run_study(
             group = remainder if len(remainder) >= 2 else group
         if is_needed:
             grouped_because = group_why(
-                group, da.groups, r2_pairs, flagged, thresholds["r2"], names
+                group, da.groups, r2_pairs, flagged, thresholds["r2"], names, member=c
             )
         elif group:
             rest = [m for m in base if m not in group]

@@ -61,20 +61,35 @@ def group_why(
     flagged: Sequence[Sequence[str]],
     r2_guide: float,
     names: Mapping[str, str],
+    member: str | None = None,
 ) -> str:
-    """Why confounders form a collinear group, as a clause naming the numbers."""
+    """Why confounders form a collinear group, as a clause naming the numbers.
+
+    With ``member``, an R² that involves that member is named first, so the
+    clause speaks of the covariate whose verdict it explains.
+    """
     members = set(group)
     reasons: list[str] = []
     if any(len(members & set(g)) >= 2 for g in proxy_groups):
         reasons.append("a proxy link joins them")
     high = sorted(
-        ((r2, a, b) for (a, b), r2 in r2_pairs.items() if {a, b} <= members and r2 >= r2_guide),
+        (
+            (member in (a, b), r2, a, b)
+            for (a, b), r2 in r2_pairs.items()
+            if {a, b} <= members and r2 >= r2_guide
+        ),
         reverse=True,
     )
     if high:
-        r2, a, b = high[0]
-        who = "their" if len(members) == 2 else f"the {names.get(a, a)}–{names.get(b, b)}"
-        reasons.append(f"{who} R² is {r2:.3g} against the guide {r2_guide:g}")
+        own, r2, a, b = high[0]
+        if len(members) == 2:
+            who = "their R²"
+        elif own:
+            other = b if a == member else a
+            who = f"its R² with {names.get(other, other)}"
+        else:
+            who = f"the {names.get(a, a)}–{names.get(b, b)} R²"
+        reasons.append(f"{who} is {r2:.3g} against the guide {r2_guide:g}")
     if any(len(members & set(d)) >= 2 for d in flagged):
         reasons.append("they share a dimension with a high condition index")
     if len(reasons) > 1:

@@ -111,7 +111,10 @@ def study_to_json(result: StudyResult) -> dict[str, Any]:
             "r2_exposure": e.r2_exposure if e else None,
         }
     out["covariates"] = covariates
+    # Data-level groups (members may all be ``adjust``); keep_one_groups are the
+    # ones a script may reduce to a single member.
     out["collinear_groups"] = [list(g) for g in result.collinear_groups]
+    out["keep_one_groups"] = [list(g) for g in result.keep_one_groups]
     out["evalue"] = (
         {
             "estimate": result.evalue.estimate,

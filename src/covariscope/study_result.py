@@ -50,5 +50,22 @@ class StudyResult:
         return " | ".join(self.names.get(m, m) or m for m in node.split("|"))
 
     @property
+    def keep_one_groups(self) -> tuple[tuple[str, ...], ...]:
+        """The groups of which only one member need be kept, sorted.
+
+        Each is the ``group`` of the covariates whose verdict is
+        ``keep_one_of``: a collinear group (:attr:`collinear_groups`) less the
+        members the diagram needs whichever other is kept (those are
+        ``adjust``), so a collinear group may appear whole, in part (two or
+        more members left) or not at all.  A saved keep choice is filed
+        under the members sorted and joined by ``|``.
+        """
+        return tuple(
+            sorted(
+                {tuple(sorted(v.group)) for v in self.verdicts.values() if v.code == "keep_one_of"}
+            )
+        )
+
+    @property
     def has_data(self) -> bool:
         return self.evidence is not None

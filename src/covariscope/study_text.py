@@ -113,7 +113,20 @@ def format_study_text(result: StudyResult) -> str:
     if result.recommended_reason:
         lines.append(f"    {result.recommended_reason}")
     if result.collinear_groups:
-        lines.append("Collinear groups: " + "; ".join(named(g) for g in result.collinear_groups))
+        keep_one = result.keep_one_groups
+        described = []
+        for g in result.collinear_groups:
+            inside = [k for k in keep_one if set(k) <= set(g)]
+            needed = [m for m in g if not any(m in k for k in inside)]
+            if not inside:
+                note = "the diagram needs every member"
+            elif not needed:
+                note = "keep one"
+            else:
+                note = "; ".join(f"keep one of {named(k)}" for k in inside)
+                note += f"; the diagram needs {', '.join(nm(m) for m in needed)}"
+            described.append(f"{named(g)} ({note})")
+        lines.append("Collinear groups: " + "; ".join(described))
     lines.append("")
     if ev is not None:
         lines.append("Estimates:")
