@@ -56,5 +56,5 @@ def test_rows_show_overrides_and_bindings():
         "bmi_kg": SimpleNamespace(type="continuous", missing_pct=0.0, levels=(), reference=None),
     }
     rows = {r.name: r for r in column_rows(p, ["bmi_kg", "smoke"], prof)}
-    assert rows["smoke"].cells() == ("smoke", "categorical (set)", "1.2%", "", "never")
+    assert rows["smoke"].cells() == ("smoke", "categorical*", "1.2%", "", "never")
     assert rows["bmi_kg"].bound_to == "bmi"

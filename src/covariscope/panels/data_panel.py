@@ -13,6 +13,7 @@ __all__ = [
     "COLUMN_MIME",
     "COLUMN_TYPES",
     "DATA_COLUMNS",
+    "DATA_COLUMN_TIPS",
     "ColumnRow",
     "column_rows",
     "matching_bindings",
@@ -26,7 +27,17 @@ COLUMN_MIME = "application/x-covariscope-column"
 #: Types a column can be given (the models' term types).
 COLUMN_TYPES: tuple[str, ...] = ("continuous", "binary", "count", "categorical")
 
-DATA_COLUMNS: tuple[str, ...] = ("Column", "Type", "Missing", "Bound to", "Reference")
+#: Header words, short so the five columns fit a narrow dock.
+DATA_COLUMNS: tuple[str, ...] = ("Column", "Type", "Missing", "Node", "Ref.")
+
+#: What each header word means in full (header tooltips).
+DATA_COLUMN_TIPS: tuple[str, ...] = (
+    "The column's name in the data file; drag it onto the diagram to add a node bound to it",
+    "How the models treat it; * marks a type you set (Type ▸ As inferred undoes it)",
+    "Share of rows with no value in this column",
+    "The diagram node bound to this column",
+    "Reference level of a binary or categorical column",
+)
 
 
 @dataclass(frozen=True)
@@ -40,7 +51,7 @@ class ColumnRow:
     levels: tuple[Any, ...]
 
     def cells(self) -> tuple[str, ...]:
-        type_text = f"{self.type} (set)" if self.type_overridden else self.type
+        type_text = f"{self.type}*" if self.type_overridden else self.type
         return (self.name, type_text, self.missing, self.bound_to, self.reference)
 
 

@@ -22,6 +22,7 @@ from PySide6.QtWidgets import (
 from covariscope.panels.data_panel import (
     COLUMN_MIME,
     COLUMN_TYPES,
+    DATA_COLUMN_TIPS,
     DATA_COLUMNS,
     ColumnRow,
     column_rows,
@@ -30,6 +31,9 @@ from covariscope.panels.data_panel import (
 from covariscope.qt.tables import filling
 
 __all__ = ["ColumnTable", "DataPanel", "column_mime"]
+
+#: widest a column may start (pixels): longer names and node ids are elided
+_CAPPED = {0: 120, 3: 110}
 
 
 def column_mime(name: str) -> QMimeData:
@@ -76,6 +80,10 @@ class DataPanel(QWidget):
 
         self.table = ColumnTable(0, len(DATA_COLUMNS))
         self.table.setHorizontalHeaderLabels(list(DATA_COLUMNS))
+        for c, tip in enumerate(DATA_COLUMN_TIPS):
+            self.table.horizontalHeaderItem(c).setToolTip(tip)
+        self.table.setTextElideMode(Qt.TextElideMode.ElideMiddle)
+        self.table.setWordWrap(False)
         self.table.verticalHeader().hide()
         self.table.setSelectionBehavior(QAbstractItemView.SelectionBehavior.SelectRows)
         self.table.setSelectionMode(QAbstractItemView.SelectionMode.SingleSelection)
@@ -86,6 +94,10 @@ class DataPanel(QWidget):
         self.table.customContextMenuRequested.connect(self._context_menu)
         header = self.table.horizontalHeader()
         header.setSectionResizeMode(QHeaderView.ResizeMode.ResizeToContents)
+        # long names are elided (full name in the tooltip) so the Ref. column
+        # stays in view in a narrow dock
+        for c in (0, 3):
+            header.setSectionResizeMode(c, QHeaderView.ResizeMode.Interactive)
         header.setStretchLastSection(True)
         self.table.verticalHeader().setDefaultSectionSize(24)
         self.table.setMinimumWidth(340)
@@ -127,18 +139,33 @@ class DataPanel(QWidget):
                     item = QTableWidgetItem(text)
                     if c == 0:
                         item.setFlags(item.flags() | Qt.ItemFlag.ItemIsDragEnabled)
+                        item.setToolTip(f"{text} — drag onto the diagram to add a node bound to it")
+                    if c == 1 and row.type_overridden:
+                        item.setToolTip(f"Set by you to {row.type}; Type ▸ As inferred undoes it")
+                    if c == 3 and text:
+                        item.setToolTip(f"Bound to the node {text}")
                     if c == 3 and not text:
                         item.setText("—")
                         item.setToolTip("Not bound to any node")
                     self.table.setItem(r, c, item)
         self.unbound_label.setText(unbound_summary(project, table is not None))
+        self._cap_columns()
         self._fit_width()
+
+    def _cap_columns(self) -> None:
+        header = self.table.horizontalHeader()
+        for c, most in _CAPPED.items():
+            wanted = max(header.sectionSizeHint(c), self.table.sizeHintForColumn(c))
+            header.resizeSection(c, min(wanted, most))
 
     def needed_width(self) -> int:
         """The width that shows every column without a horizontal scroll bar."""
         header = self.table.horizontalHeader()
         columns = sum(
-            max(header.sectionSizeHint(c), self.table.sizeHintForColumn(c))
+            min(
+                max(header.sectionSizeHint(c), self.table.sizeHintForColumn(c)),
+                _CAPPED.get(c, 10_000),
+            )
             for c in range(self.table.columnCount())
         )
         scroll = self.table.verticalScrollBar().sizeHint().width()

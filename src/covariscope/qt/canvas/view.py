@@ -5,7 +5,14 @@ from __future__ import annotations
 from typing import Any
 
 from PySide6.QtCore import QPoint, QPointF, Qt
-from PySide6.QtGui import QCursor, QKeyEvent, QMouseEvent, QPainter, QWheelEvent
+from PySide6.QtGui import (
+    QCursor,
+    QKeyEvent,
+    QMouseEvent,
+    QPainter,
+    QResizeEvent,
+    QWheelEvent,
+)
 from PySide6.QtWidgets import QGraphicsView
 
 from covariscope.qt.canvas.items import LabelEditor
@@ -36,6 +43,7 @@ class DiagramView(QGraphicsView):
         #: the user zoomed or panned: the window stops refitting on resize
         self.user_zoomed = False
         scene.mode_changed.connect(self._on_mode)
+        scene.changed.connect(self._track_items)
 
     # -- zoom ---------------------------------------------------------------------------
     def zoom(self) -> float:
@@ -60,10 +68,33 @@ class DiagramView(QGraphicsView):
             self.resetTransform()
             return
         rect = scene.itemsBoundingRect().adjusted(-30, -30, 30, 30)
+        # the scrollable area is the diagram itself, so a fitted diagram
+        # shows no scroll bars (the scene's own rect is far larger)
+        self.setSceneRect(rect)
         self.fitInView(rect, Qt.AspectRatioMode.KeepAspectRatio)
         if self.zoom() > 1.5:  # a small diagram stays at a readable size
             self.set_zoom(1.5)
             self.centerOn(rect.center())
+        self._track_items()
+
+    def _track_items(self, *_regions: Any) -> None:
+        """Keep the scrollable area = the diagram plus what is in view, so
+        scroll bars appear only when part of the diagram is out of sight and
+        a node added or moved beyond the edge can still be reached."""
+        items = self.diagram_scene.itemsBoundingRect()
+        if items.isNull():
+            return
+        pad = 2.0 / max(self.zoom(), 1e-6)  # rounding must not bring the bars back
+        seen = self.mapToScene(self.viewport().rect()).boundingRect()
+        seen = seen.adjusted(pad, pad, -pad, -pad)
+        wanted = items.adjusted(-30, -30, 30, 30).united(seen)
+        if wanted != self.sceneRect():
+            self.setSceneRect(wanted)
+
+    def resizeEvent(self, event: QResizeEvent) -> None:
+        super().resizeEvent(event)
+        # a scroll bar coming or going resizes the viewport: measure again
+        self._track_items()
 
     def wheelEvent(self, event: QWheelEvent) -> None:
         if event.modifiers() & Qt.KeyboardModifier.ControlModifier:
