@@ -6,6 +6,7 @@ from __future__ import annotations
 
 import shutil
 
+import pytest
 from PySide6.QtCore import QPointF, Qt
 from PySide6.QtGui import QDragEnterEvent, QDropEvent
 from PySide6.QtWidgets import QApplication
@@ -289,3 +290,101 @@ def test_single_letter_keys_belong_to_the_canvas(qtbot, window, demo, wait_for_a
     assert w.scene.mode.name == "proxy"
     QTest.keyClick(w.view.viewport(), Qt.Key.Key_S)
     assert w.scene.mode.name == "select"
+
+
+def _focus(qtbot, w, widget) -> None:
+    w.show()
+    w.activateWindow()
+    widget.setFocus()
+    qtbot.waitUntil(lambda: QApplication.focusWidget() is widget)
+
+
+def test_copy_follows_the_focus(qtbot, window, demo, wait_for_analysis):
+    """Ctrl+C in a table copies its selected rows as tab-separated text with
+    a header row; on the canvas it copies the diagram selection."""
+    from PySide6.QtGui import QKeySequence
+
+    from covariscope.qt.clipboard import SELECTION_MIME
+
+    w = window
+    assert w.io.open(str(demo / "demo_project.json"))
+    wait_for_analysis(qtbot, w)
+    w.scene.select_ids(["age"])
+    board = QApplication.clipboard()
+
+    review = w.review.table
+    w.review.select_node("income")
+    _focus(qtbot, w, review)
+    qtbot.keySequence(review, QKeySequence.StandardKey.Copy)
+    lines = board.text().splitlines()
+    assert not board.mimeData().hasFormat(SELECTION_MIME)
+    assert lines[0].split("\t")[:2] == ["Covariate", "Role"]
+    assert lines[0].split("\t")[-1] == "In proposed set"
+    assert lines[1].split("\t")[0] == "Income (income)"
+    assert lines[1].split("\t")[-1] == "yes"  # the checkbox reads as a word
+    assert len(lines) == 2
+    count = len(w.project.diagram)
+    w.actions_.paste.trigger()  # the table is read-only: nothing pasted on the diagram
+    assert len(w.project.diagram) == count
+
+    data = w.data_panel.table
+    data.selectRow(w.data_panel.row_of("smoke"))
+    _focus(qtbot, w, data)
+    w.actions_.copy.trigger()
+    rows = [line.split("\t") for line in board.text().splitlines()]
+    assert rows[0] == ["Column", "Type", "Missing", "Node", "Ref."]
+    assert rows[1][0] == "smoke"
+    assert rows[1][-1] == "never"
+
+    _focus(qtbot, w, w.view)
+    qtbot.keySequence(w.view, QKeySequence.StandardKey.Copy)
+    assert board.mimeData().hasFormat(SELECTION_MIME)
+    assert board.text().splitlines() == ["Age"]
+
+
+def test_canvas_menu_keeps_one_of_a_group(qtbot, window, demo, wait_for_analysis):
+    """The node menu of a keep-one-of covariate offers the review table's
+    choice; it is one undo step."""
+    from covariscope.panels.keep_choice import group_key
+    from covariscope.qt.canvas.menus import action_by_key
+
+    w = window
+    assert w.io.open(str(demo / "demo_project.json"))
+    wait_for_analysis(qtbot, w)
+    key = group_key(["income", "area"])
+    assert key not in w.project.analysis.keep_choices
+    menu = w.scene.menu_at(w.scene.nodes["area"].scenePos())
+    keep = action_by_key(menu, "keep")
+    assert keep.text() == w.review.menu_for("area").findChild(type(keep), "keepThisOne").text()
+    assert keep.isEnabled()
+    with pytest.raises(KeyError):
+        action_by_key(w.scene.menu_at(w.scene.nodes["age"].scenePos()), "keep")
+    steps = w.undo_stack.count()
+    keep.trigger()
+    assert w.project.analysis.keep_choices[key] == "area"
+    assert w.undo_stack.count() == steps + 1
+    wait_for_analysis(qtbot, w)
+    menu = w.scene.menu_at(w.scene.nodes["area"].scenePos())
+    assert not action_by_key(menu, "keep").isEnabled()  # already the kept one
+    action_by_key(menu, "keep:suggested").trigger()
+    assert key not in w.project.analysis.keep_choices
+    w.actions_.undo.trigger()
+    assert w.project.analysis.keep_choices[key] == "area"
+
+
+@pytest.mark.parametrize("size", [(1280, 800), (1600, 1000)])
+def test_demo_fits_without_scroll_bars(qtbot, window, demo, wait_for_analysis, shots, size):
+    """At common laptop sizes the fitted diagram needs no scroll bars and the
+    data panel shows every column (screenshots for a person to look at)."""
+    w = window
+    w.resize(*size)
+    w.show()
+    assert w.io.open(str(demo / "demo_project.json"))
+    wait_for_analysis(qtbot, w)
+    QApplication.processEvents()
+    w.view.fit_to_window()
+    QApplication.processEvents()
+    assert w.view.horizontalScrollBar().maximum() <= 0
+    assert w.view.verticalScrollBar().maximum() <= 0
+    assert w.data_panel.table.horizontalScrollBar().maximum() <= 0
+    w.grab().save(str(shots / f"p_main_{size[0]}.png"))

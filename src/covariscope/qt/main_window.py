@@ -20,6 +20,7 @@ from PySide6.QtWidgets import (
     QLabel,
     QMainWindow,
     QProgressBar,
+    QTableWidget,
     QToolButton,
     QVBoxLayout,
     QWidget,
@@ -29,7 +30,7 @@ from covariscope.model.commands import Command, Macro, SetKind, SetProposed, Upd
 from covariscope.model.project import Project
 from covariscope.panels.commands import SetSettings
 from covariscope.panels.diagnostics import node_labels
-from covariscope.panels.keep_choice import keep_choices_after
+from covariscope.panels.keep_choice import keep_choice, keep_choices_after
 from covariscope.panels.review import proposed_after_toggle
 from covariscope.qt import output
 from covariscope.qt.actions import WindowActions
@@ -42,6 +43,7 @@ from covariscope.qt.estimates_strip import EstimatesStrip
 from covariscope.qt.project_io import ProjectIO, Prompts
 from covariscope.qt.review_table import PathsPanel, ReviewTable
 from covariscope.qt.settings_dialogs import ThresholdsDialog
+from covariscope.qt.tables import selected_text
 from covariscope.qt.undo import push
 from covariscope.qt.worker import AnalysisRunner
 
@@ -182,6 +184,8 @@ class MainWindow(QMainWindow):
         scene.selection_changed_ids.connect(self._selection_changed)
         scene.message.connect(self.show_message)
         scene.proposed_toggled.connect(self.set_proposed_member)
+        scene.keep_chosen.connect(self.keep_member)
+        scene.keep_choice_of = lambda n: keep_choice(self.project, self.result, n)
         if hasattr(self, "actions_"):
             scene.mode_changed.connect(self.actions_.sync_mode)
             view.addActions(self.actions_.canvas_only)
@@ -337,10 +341,30 @@ class MainWindow(QMainWindow):
         if commands:
             self.push(Macro("Change measured", commands))
 
+    def focused_table(self) -> QTableWidget | None:
+        """The review or data table when the keyboard focus is in it (Copy and
+        Paste then act on the table, not on the diagram)."""
+        focus = QApplication.focusWidget()
+        for table in (self.review.table, self.data_panel.table):
+            if focus is not None and (focus is table or table.isAncestorOf(focus)):
+                return table
+        return None
+
     def copy_selection(self) -> bool:
-        """Put the selected nodes and their links on the system clipboard
-        (our own MIME type, plus the node labels as text), so that Paste
-        works in another window too."""
+        """Copy what the focus is on: the selected cells of a table as
+        tab-separated text with a header row, else the selected nodes and
+        their links (our own MIME type, plus the node labels as text), so
+        that Paste works in another window too."""
+        table = self.focused_table()
+        if table is not None:
+            text = selected_text(table)
+            if not text:
+                self.show_message("Select the rows to copy first.")
+                return False
+            QApplication.clipboard().setText(text)
+            n = text.count("\n") - 1
+            self.show_message(f"Copied {n} row{'s' if n != 1 else ''} as text.")
+            return True
         clip = self.scene.copy_selection()
         if not clip.get("nodes"):
             self.show_message("Select the nodes to copy first.")
@@ -351,6 +375,9 @@ class MainWindow(QMainWindow):
         return True
 
     def paste(self) -> list[str]:
+        if self.focused_table() is not None:
+            self.show_message("The tables are read-only; click the diagram to paste nodes there.")
+            return []
         clip = selection_from_mime(QApplication.clipboard().mimeData())
         if clip is None:
             self.show_message("The clipboard holds no diagram nodes to paste.")

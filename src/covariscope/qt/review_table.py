@@ -20,6 +20,7 @@ from PySide6.QtWidgets import (
 
 from covariscope.panels.keep_choice import KeepChoice, keep_choice, kept_words
 from covariscope.panels.review import REVIEW_COLUMNS, ReviewRow, review_rows, rows_to_csv
+from covariscope.qt.keep_menu import add_keep_actions
 from covariscope.qt.tables import filling
 
 __all__ = ["PathsPanel", "ReviewTable", "open_paths"]
@@ -155,20 +156,7 @@ class ReviewTable(QWidget):
     def menu_for(self, node_id: str) -> QMenu:
         """The row's context menu (built, not shown: tests trigger its actions)."""
         menu = QMenu(self)
-        choice = self._keep.get(node_id)
-        if choice is not None:
-            keep = menu.addAction("Keep this one of the group")
-            keep.setObjectName("keepThisOne")
-            keep.setToolTip(
-                f"Keep it of {{{choice.names()}}}; the choice is saved with the project"
-            )
-            keep.setEnabled(not (choice.saved and choice.kept == node_id))
-            keep.triggered.connect(lambda: self.keep_chosen.emit(choice.key, node_id))
-            if choice.saved:
-                back = menu.addAction("Let the analysis suggest which to keep")
-                back.setObjectName("keepSuggested")
-                back.triggered.connect(lambda: self.keep_chosen.emit(choice.key, None))
-            menu.addSeparator()
+        add_keep_actions(menu, self._keep.get(node_id), node_id, self.keep_chosen.emit)
         details = menu.addAction("Diagnostics…")
         details.triggered.connect(lambda: self.node_activated.emit(node_id))
         return menu

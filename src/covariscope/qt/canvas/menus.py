@@ -1,5 +1,5 @@
 """Context menus of the canvas.  Every action's ``data()`` is a short key
-(``kind:exposure``, ``measured``, ``proposed``, ``rename``, ``proxy``,
+(``kind:exposure``, ``measured``, ``proposed``, ``keep``, ``keep:suggested``, ``rename``, ``proxy``,
 ``delete``, ``reverse``, ``unlink``, ``add``, ``paste``, ``arrange``) so
 that tests and other panels can find and trigger it."""
 
@@ -18,6 +18,7 @@ from covariscope.model.commands import (
     SetProposed,
     UpdateNode,
 )
+from covariscope.qt.keep_menu import add_keep_actions
 
 if TYPE_CHECKING:
     from covariscope.qt.canvas.scene import DiagramScene
@@ -88,6 +89,7 @@ def node_menu(scene: DiagramScene, node_id: str) -> QMenu:
     )
     action_by_key(menu, "proposed").setEnabled(node.kind == "covariate")
     menu.addSeparator()
+    add_keep_actions(menu, scene.keep_choice_of(node_id), node_id, scene.keep_chosen.emit)
     _add(menu, "Rename", "rename", lambda: scene.start_rename(node_id))
     _add(menu, "Link as alternate measure of…", "proxy", lambda: _arm_proxy(scene, node_id))
     menu.addSeparator()

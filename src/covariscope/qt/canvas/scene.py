@@ -8,6 +8,7 @@ undo stack; the model then tells the scene, which redraws.
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from itertools import pairwise
 from typing import Any
 
@@ -40,6 +41,7 @@ from covariscope.model.commands import (
 from covariscope.model.diagram import DiagramEvent, Node
 from covariscope.model.layout import layered_layout
 from covariscope.model.project import Project, ProjectEvent
+from covariscope.panels.keep_choice import KeepChoice
 from covariscope.qt.canvas import menus
 from covariscope.qt.canvas.items import ArrowItem, LabelEditor, NodeItem, ProxyItem
 from covariscope.qt.canvas.modes import ConnectMode, Mode, Pointer, SelectMode
@@ -61,7 +63,13 @@ class DiagramScene(QGraphicsScene):
 
     Signals: ``node_double_clicked(str)``, ``selection_changed_ids(list)``,
     ``message(str)`` (a refused edit's message, as the model words it),
-    ``proposed_toggled(str, bool)``, ``mode_changed(str)``.
+    ``proposed_toggled(str, bool)``, ``mode_changed(str)``,
+    ``keep_chosen(str, object)`` (a collinear group's key and the member to
+    keep, or None for the suggestion: the window pushes the edit).
+
+    :attr:`keep_choice_of` is set by the window to a function from node id
+    to its :class:`~covariscope.panels.keep_choice.KeepChoice` (or None), so
+    the node menu offers the same keep choice as the review table.
     """
 
     node_double_clicked = Signal(str)
@@ -69,6 +77,7 @@ class DiagramScene(QGraphicsScene):
     message = Signal(str)
     proposed_toggled = Signal(str, bool)
     mode_changed = Signal(str)
+    keep_chosen = Signal(str, object)
 
     def __init__(self, project: Project, undo_stack: QUndoStack, parent: Any = None) -> None:
         super().__init__(parent)
@@ -82,6 +91,7 @@ class DiagramScene(QGraphicsScene):
         self.path: list[str] | None = None
         self.label_editor: LabelEditor | None = None
         self._proposed = set(project.proposed)
+        self.keep_choice_of: Callable[[str], KeepChoice | None] = lambda _node: None
         self.modes: dict[str, Mode] = {
             "select": SelectMode(self),
             "arrow": ConnectMode(self, "arrow"),
