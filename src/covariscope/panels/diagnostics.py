@@ -305,7 +305,7 @@ def endpoint_diagnostics(
     sample = getattr(result, "sample", None) if result else None
     prof = (profiles or {}).get(node.column) if node.column else None
     missing_pct = getattr(prof, "missing_pct", None)
-    missing = f"{missing_pct:.1f}% missing in the file" if is_number(missing_pct) else DASH
+    missing = f"{missing_pct:.1f}% of the rows" if is_number(missing_pct) else DASH
     lines = []
     if node.column is None:
         lines.append(f"{node.label} has no data column yet: bind one in the data panel.")

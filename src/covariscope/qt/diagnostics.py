@@ -53,6 +53,13 @@ FAMILY_LABELS: dict[str, str] = {
     "cox": "Cox proportional hazards (hazard ratio)",
 }
 
+#: What the family chooser decides, said beside it.
+FAMILY_HINT = (
+    "Chosen by the outcome's type: linear for a measurement, logistic or log-link "
+    "Poisson for a yes/no outcome, Cox for time to an event. It applies to every "
+    "model of the analysis and sets the effect measure; a change is one undo step."
+)
+
 _MODEL_HEADERS = ("Model", "Estimate", "95% CI", "Change %", "SE inflation %")
 _MODEL_TIPS = {
     3: "Change in the exposure estimate, this model against the same model without the "
@@ -347,18 +354,28 @@ class CovariateDialog(NodeDialog):
         x_cat = x_type in ("binary", "categorical")
         x_name = s.exposure_label or xcol
         if s.categorical and not x_cat:
-            levels = sorted(data[ccol].unique(), key=str)
-            ax.boxplot(
+            levels = _reference_first(project, profiles, ccol, data[ccol])
+            _boxes(
+                ax,
                 [data.loc[data[ccol] == lv, xcol] for lv in levels],
-                tick_labels=[str(v) for v in levels],
+                levels,
+                project,
+                profiles,
+                ccol,
+                frame[[xcol, ccol]].dropna()[ccol],
             )
             ax.set_xlabel(s.label)
             ax.set_ylabel(x_name)
         elif x_cat and not s.categorical:
-            levels = sorted(data[xcol].unique(), key=str)
-            ax.boxplot(
+            levels = _reference_first(project, profiles, xcol, data[xcol])
+            _boxes(
+                ax,
                 [data.loc[data[xcol] == lv, ccol] for lv in levels],
-                tick_labels=[str(v) for v in levels],
+                levels,
+                project,
+                profiles,
+                xcol,
+                frame[[xcol, ccol]].dropna()[xcol],
             )
             ax.set_xlabel(x_name)
             ax.set_ylabel(s.label)
@@ -395,7 +412,7 @@ class EndpointDialog(NodeDialog):
 
     def __init__(self, node_id: str, parent: QWidget | None = None) -> None:
         super().__init__(node_id, parent)
-        self.resize(640, 620)
+        self.resize(660, 640)
         self.state: EndpointDiagnostics | None = None
         self.heading = QLabel()
         self.heading.setObjectName("dialogHeading")
@@ -403,6 +420,11 @@ class EndpointDialog(NodeDialog):
         for key, label in FAMILY_LABELS.items():
             self.family.addItem(label, key)
         self.family.activated.connect(lambda i: self.family_changed.emit(self.family.itemData(i)))
+        self.family.setToolTip(FAMILY_HINT)
+        self.family_hint = QLabel(FAMILY_HINT)
+        self.family_hint.setObjectName("familyHint")
+        self.family_hint.setWordWrap(True)
+        self.family_hint.setStyleSheet("color: palette(placeholder-text);")
         self.missing = QLabel()
         self.lines = QLabel()
         self.lines.setWordWrap(True)
@@ -410,8 +432,10 @@ class EndpointDialog(NodeDialog):
         self.canvas = FigureCanvasQTAgg(self.figure)
         self.canvas.setMinimumHeight(240)
         form = QFormLayout()
-        form.addRow("Model family", self.family)
-        form.addRow("Missing data", self.missing)
+        form.setFieldGrowthPolicy(QFormLayout.FieldGrowthPolicy.AllNonFixedFieldsGrow)
+        form.addRow("Regression for every fit", self.family)
+        form.addRow(self.family_hint)
+        form.addRow("Missing in the file", self.missing)
         layout = QVBoxLayout(self)
         layout.addWidget(self.heading)
         layout.addLayout(form)
@@ -456,3 +480,47 @@ class EndpointDialog(NodeDialog):
             ax.set_xlabel(s.column)
             ax.set_title(f"Distribution of {s.label}", fontsize=10)
         self.canvas.draw_idle()
+
+
+def _reference_of(project: Any, profiles: Any, column: str) -> Any:
+    saved = project.analysis.reference_levels.get(column)
+    return saved if saved is not None else getattr((profiles or {}).get(column), "reference", None)
+
+
+def _reference_first(project: Any, profiles: Any, column: str, values: Any) -> list[Any]:
+    """The levels in the order the models compare them: the reference level
+    first, then the others as sorted text."""
+    levels = sorted(values.unique(), key=str)
+    ref = _reference_of(project, profiles, column)
+    first = [lv for lv in levels if ref is not None and str(lv) == str(ref)]
+    return first + [lv for lv in levels if lv not in first]
+
+
+def _boxes(
+    ax: Any,
+    groups: list[Any],
+    levels: list[Any],
+    project: Any,
+    profiles: Any,
+    column: str,
+    all_values: Any,
+) -> None:
+    """Box plots by level in our palette, each level named with its row count
+    (of every complete row, not just those plotted) and the reference marked."""
+    ref = _reference_of(project, profiles, column)
+    counts = all_values.astype(str).value_counts()
+    labels = []
+    for lv in levels:
+        mark = "\n(reference)" if ref is not None and str(lv) == str(ref) else ""
+        labels.append(f"{lv}{mark}\nn = {int(counts.get(str(lv), 0)):,}")
+    ax.boxplot(
+        groups,
+        tick_labels=labels,
+        patch_artist=True,
+        boxprops={"facecolor": "#56B4E9", "edgecolor": "#0072B2"},
+        medianprops={"color": "#000000", "linewidth": 1.6},
+        whiskerprops={"color": "#0072B2"},
+        capprops={"color": "#0072B2"},
+        flierprops={"marker": ".", "markersize": 3, "markeredgecolor": "#0072B2"},
+    )
+    ax.tick_params(axis="x", labelsize=8)
