@@ -201,3 +201,73 @@ def test_unknown_type_and_unknown_column():
         profile_column(pd.Series([1, 2], name="x"), override_type="ordinal")
     with pytest.raises(DataError, match="not in the data: 'bmi'"):
         profile_table(pd.DataFrame({"x": [1]}), overrides={"bmi": "continuous"})
+
+
+def _labelled_frame() -> pd.DataFrame:
+    # invented, seeded: a three-level code with labels, a 0/1 code with labels, a number
+    rng = np.random.default_rng(7)
+    n = 60
+    return pd.DataFrame(
+        {
+            "region": rng.integers(1, 4, size=n).astype("int8"),
+            "smoker": rng.integers(0, 2, size=n).astype("int8"),
+            "sbp": rng.normal(130, 15, size=n),
+        }
+    )
+
+
+LABELS = {"region": {1: "north", 2: "centre", 3: "south"}, "smoker": {0: "never", 1: "ever"}}
+
+
+def test_stata_value_labels_name_the_levels_and_the_codes_stay(tmp_path):
+    from covariscope.data.coerce import coerce_column
+    from covariscope.data.loading import load_table
+
+    frame = _labelled_frame()
+    path = tmp_path / "labelled.dta"
+    frame.to_stata(path, write_index=False, value_labels=LABELS)
+    table = load_table(path)
+    profiles = profile_table(table.frame, references={"region": 3}, value_labels=table.value_labels)
+    region = profiles["region"]
+    assert region.type == "categorical"
+    assert region.levels == (1, 2, 3)  # the codes: the design and saved references use them
+    assert region.level_labels == {1: "north", 2: "centre", 3: "south"}
+    # outside reference: pandas' own Stata reader turns the same codes into the same labels
+    by_pandas = pd.read_stata(path, convert_categoricals=True)["region"]
+    expected = dict(zip(frame["region"].tolist(), by_pandas.astype(str).tolist(), strict=True))
+    assert {v: region.level_labels[v] for v in region.levels} == expected
+    assert [region.level_text(v) for v in region.levels] == ["north (1)", "centre (2)", "south (3)"]
+    assert region.reference == 3
+    coded = coerce_column(table.frame["region"], "categorical", reference=3)
+    assert coded.cat.categories.tolist() == [3, 1, 2]
+    smoker = profiles["smoker"]
+    assert (smoker.type, smoker.levels, smoker.event_level) == ("binary", (0, 1), 1)
+    assert smoker.level_text(smoker.event_level) == "ever (1)"
+    assert coerce_column(table.frame["smoker"], "binary").tolist() == frame["smoker"].tolist()
+    sbp = profiles["sbp"]
+    assert (sbp.levels, sbp.level_labels, sbp.level_text(1.5)) == ((), {}, "1.5")
+
+
+def test_spss_value_labels_reach_the_profile(tmp_path):
+    pyreadstat = pytest.importorskip("pyreadstat")
+    from covariscope.data.loading import load_table
+
+    frame = _labelled_frame().astype({"region": "float64", "smoker": "float64"})
+    frame.loc[3, "region"] = np.nan
+    path = tmp_path / "labelled.sav"
+    # a label for a code that no row uses is not a level
+    labels = {**LABELS, "region": {**LABELS["region"], 9: "unknown"}}
+    pyreadstat.write_sav(frame, str(path), variable_value_labels=labels)
+    table = load_table(path)
+    region = profile_table(table.frame, value_labels=table.value_labels)["region"]
+    assert region.missing == 1
+    assert region.levels == (1, 2, 3)
+    assert region.level_labels == {1: "north", 2: "centre", 3: "south"}
+
+
+def test_unlabelled_levels_read_as_themselves():
+    p = profile_column(pd.Series([1, 2, 3, 3], name="grade"), value_labels={1: "low"})
+    assert p.level_labels == {1: "low"}
+    assert [p.level_text(v) for v in p.levels] == ["low (1)", "2", "3"]
+    assert profile_column(pd.Series([1, 2, 3], name="grade")).level_labels == {}
+    hash(p)  # a profile stays hashable with its labels

@@ -37,7 +37,7 @@ from __future__ import annotations
 
 import re
 from collections.abc import Mapping
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from typing import Any
 
 import numpy as np
@@ -104,6 +104,11 @@ class ColumnProfile:
         The reference level for binary and categorical columns.
     warnings : tuple of str
         Plain sentences: all missing, constant, numbers mixed with text, ...
+    level_labels : dict
+        Level -> its value label, for the levels that have one (Stata and
+        SPSS files carry them).  The levels themselves stay the codes, so the
+        design and the saved reference level read the same values with or
+        without labels; :meth:`level_text` is the form to show.
     """
 
     name: str
@@ -117,6 +122,14 @@ class ColumnProfile:
     levels: tuple[Any, ...]
     reference: Any
     warnings: tuple[str, ...]
+    # A dict is not hashable; the profile's hash leaves it out.
+    level_labels: Mapping[Any, str] = field(default_factory=dict, hash=False)
+
+    def level_text(self, level: Any) -> str:
+        """A level as the user reads it: ``"female (2)"`` when the code has a
+        value label, else the level itself (``"2"``)."""
+        label = self.level_labels.get(level_key(level))
+        return f"{label} ({level})" if label is not None else str(level)
 
     @property
     def event_level(self) -> Any:
@@ -131,6 +144,7 @@ def profile_table(
     frame: pd.DataFrame,
     overrides: Mapping[str, str] | None = None,
     references: Mapping[str, object] | None = None,
+    value_labels: Mapping[str, Mapping[Any, str]] | None = None,
 ) -> dict[str, ColumnProfile]:
     """Profile every column of ``frame``.
 
@@ -140,6 +154,9 @@ def profile_table(
         Column -> type chosen by the user (one of :data:`COLUMN_TYPES`).
     references : mapping, optional
         Column -> reference level chosen by the user.
+    value_labels : mapping, optional
+        Column -> {code: label}, as :class:`~covariscope.data.loading.LoadedTable`
+        keeps them; they label the levels (``level_labels``) and change no type.
 
     Raises
     ------
@@ -155,6 +172,7 @@ def profile_table(
     """
     overrides = dict(overrides or {})
     references = dict(references or {})
+    labels = dict(value_labels or {})
     unknown = sorted((set(overrides) | set(references)) - {str(c) for c in frame.columns})
     if unknown:
         raise DataError(
@@ -163,14 +181,20 @@ def profile_table(
         )
     return {
         str(name): profile_column(
-            frame[name], override_type=overrides.get(str(name)), reference=references.get(str(name))
+            frame[name],
+            override_type=overrides.get(str(name)),
+            reference=references.get(str(name)),
+            value_labels=labels.get(str(name)),
         )
         for name in frame.columns
     }
 
 
 def profile_column(
-    series: pd.Series, override_type: str | None = None, reference: object = None
+    series: pd.Series,
+    override_type: str | None = None,
+    reference: object = None,
+    value_labels: Mapping[Any, str] | None = None,
 ) -> ColumnProfile:
     """Profile one column and check a user's type or reference choice.
 
@@ -184,6 +208,9 @@ def profile_column(
         Reference level (binary and categorical only; ignored for other
         types, so a stale choice does not block a changed type). Matched
         to a level by value or by its text (``"1"`` matches 1).
+    value_labels : mapping, optional
+        Code -> label for this column; the labels of its levels become
+        ``level_labels`` (the levels stay the codes).
 
     Raises
     ------
@@ -197,6 +224,9 @@ def profile_column(
     >>> p = profile_column(pd.Series(["no", "yes", None, "yes"], name="diabetes"))
     >>> p.type, p.levels, p.reference, p.missing
     ('binary', ('no', 'yes'), 'no', 1)
+    >>> sex = profile_column(pd.Series([1, 2, 2], name="sex"), value_labels={1: "male", 2: "female"})
+    >>> sex.levels, [sex.level_text(v) for v in sex.levels]
+    ((1, 2), ['male (1)', 'female (2)'])
     """
     name = str(series.name)
     present = series.dropna()
@@ -228,7 +258,14 @@ def profile_column(
         levels=levels,
         reference=chosen_reference,
         warnings=tuple(warnings),
+        level_labels=_labels_of(levels, value_labels),
     )
+
+
+def _labels_of(levels: tuple[Any, ...], value_labels: Mapping[Any, str] | None) -> dict[Any, str]:
+    # Codes may be read as 2.0 in one reader and 2 in another: compare level keys.
+    keyed = {level_key(code): str(text) for code, text in (value_labels or {}).items()}
+    return {level: keyed[level] for level in levels if level in keyed}
 
 
 def column_levels(series: pd.Series) -> tuple[Any, ...]:
