@@ -6,6 +6,8 @@ import hashlib
 import importlib.util
 import itertools
 import os
+import sys
+import warnings
 from pathlib import Path
 
 import numpy as np
@@ -406,12 +408,58 @@ def test_damaged_stata_file(tmp_path):
         load_table(path)
 
 
+OLD_XLS = Path(__file__).parent / "fixtures" / "small_cohort.xls"
+
+
 def test_old_xls_without_reader_says_what_to_do(tmp_path, monkeypatch):
-    if _writer_available("xlrd"):
-        pytest.skip("xlrd is installed, so .xls files are read")
+    # Whether or not xlrd is installed: hide it, as on a machine without it.
+    monkeypatch.setitem(sys.modules, "xlrd", None)
     path = tmp_path / "old.xls"
+    path.write_bytes(OLD_XLS.read_bytes())
+    with pytest.raises(DataError, match=r"needs the xlrd package\. Save it as \.xlsx or CSV"):
+        load_table(path)
+
+
+def test_old_xls_is_read_like_an_xlsx():
+    pytest.importorskip("xlrd")
+    table = load_table(OLD_XLS)
+    assert table.format == "excel_old"
+    assert table.sha256 == hashlib.sha256(OLD_XLS.read_bytes()).hexdigest()
+    assert table.notes == ("Read sheet 'cohort'; the workbook also has 'notes'.",)
+    # outside reference: pandas' own .xls reader (engine="xlrd") on the same file
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")  # pandas deprecates its xlrd engine; the values stand
+        expected = pd.read_excel(OLD_XLS, engine="xlrd")
+    pd.testing.assert_frame_equal(table.frame, expected, check_dtype=False)
+    frame = table.frame
+    assert frame["age"].dtype == np.int64
+    assert frame["sbp"].isna().sum() == 1
+    assert pd.api.types.is_datetime64_any_dtype(frame["enrolled"])
+    assert frame["enrolled"].iloc[0] == pd.Timestamp("2021-03-04")
+    assert frame["consent"].tolist() == [True, True, False, True, False]
+    assert frame["smoker"].tolist() == ["no", "yes", "no", "yes", "no"]
+
+
+def test_old_xls_sheets_by_name_and_number(tmp_path):
+    pytest.importorskip("xlrd")
+    with pytest.raises(DataError, match="no rows of data"):
+        load_table(OLD_XLS, sheet="notes")
+    with pytest.raises(
+        DataError, match=r"no sheet named 'results'\. Choose one of: 'cohort', 'notes'"
+    ):
+        load_table(OLD_XLS, sheet="results")
+    assert load_table(OLD_XLS, sheet=0).rows == 5
+
+
+def test_damaged_old_xls_says_what_to_do(tmp_path):
+    pytest.importorskip("xlrd")
+    path = tmp_path / "broken.xls"
     path.write_bytes(b"\xd0\xcf\x11\xe0\xa1\xb1\x1a\xe1" + b"\x00" * 100)
-    with pytest.raises(DataError, match=r"Save it as \.xlsx or CSV"):
+    with pytest.raises(DataError, match=r"could not be opened as an old-style \.xls workbook"):
+        load_table(path)
+    # half of a real workbook
+    path.write_bytes(OLD_XLS.read_bytes()[:2000])
+    with pytest.raises(DataError, match=r"save it again as \.xlsx, or export it as CSV"):
         load_table(path)
 
 

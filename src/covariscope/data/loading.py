@@ -1,7 +1,7 @@
 """Load a study data set from a file, read-only, with progress and cancellation.
 
 Supported: delimited text (CSV, TSV, TXT: delimiter, decimal mark and
-encoding detected), Excel (.xlsx; .xls when the xlrd package is present),
+encoding detected), Excel (.xlsx, and old-style .xls with the xlrd package),
 Parquet, Stata (.dta), SPSS (.sav, .zsav), SAS (.sas7bdat, .xpt).
 
 The file is opened for reading only and nothing is ever written beside it.
@@ -23,7 +23,13 @@ from typing import Any
 import pandas as pd
 
 from covariscope.data.progress import LoadCancelledError, Steps
-from covariscope.data.readers import ReadResult, read_excel, read_parquet, read_statistical
+from covariscope.data.readers import (
+    ReadResult,
+    read_excel,
+    read_old_excel,
+    read_parquet,
+    read_statistical,
+)
 from covariscope.data.scan import scan_file
 from covariscope.data.text import DELIMITER_NAMES, detect_layout, read_delimited
 from covariscope.model.errors import DataError
@@ -297,24 +303,10 @@ def _read_binary(path: Path, kind: str, sheet: str | int | None, steps: Steps) -
     if kind == "excel":
         return read_excel(path, sheet, steps)
     if kind == "excel_old":
-        return _read_old_excel(path, sheet)
+        return read_old_excel(path, sheet, steps)
     if kind == "parquet":
         return read_parquet(path, steps)
     return read_statistical(path, kind, steps)
-
-
-def _read_old_excel(path: Path, sheet: str | int | None) -> ReadResult:
-    try:
-        import xlrd  # noqa: F401  (only its presence matters)
-    except ImportError as exc:
-        raise DataError(
-            f"{path.name} is an old-style .xls workbook, which needs the xlrd package. Save "
-            "it as .xlsx or CSV in your spreadsheet program, or install xlrd."
-        ) from exc
-    frame = pd.read_excel(path, sheet_name=0 if sheet is None else sheet, engine="xlrd", header=0)
-    names = [str(c) for c in frame.columns]
-    frame.columns = range(len(names))
-    return ReadResult(frame, names)
 
 
 def _checked_frame(path: Path, result: ReadResult, notes: list[str]) -> pd.DataFrame:

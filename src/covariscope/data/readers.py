@@ -20,7 +20,7 @@ from covariscope.data.progress import Steps
 from covariscope.data.values import tidy_text_column
 from covariscope.model.errors import DataError
 
-__all__ = ["ReadResult", "read_excel", "read_parquet", "read_statistical"]
+__all__ = ["ReadResult", "read_excel", "read_old_excel", "read_parquet", "read_statistical"]
 
 STAT_CHUNK_ROWS = 200_000
 _EXCEL_PROGRESS_ROWS = 5_000
@@ -68,6 +68,72 @@ def read_excel(path: Path, sheet: str | int | None, steps: Steps) -> ReadResult:
                     steps.report(number / total if total else 0.0)
         finally:
             book.close()
+    return _sheet_result(rows, names, title)
+
+
+def read_old_excel(path: Path, sheet: str | int | None, steps: Steps) -> ReadResult:
+    """Read one sheet of an old-style .xls workbook (BIFF, Excel 97–2003) with xlrd.
+
+    The same rules as :func:`read_excel`: the first non-empty row is the
+    header, blank rows are skipped, cached values of formulas are read, and
+    date cells become dates.
+
+    Raises
+    ------
+    DataError
+        xlrd is not installed, the file is damaged or not a workbook, or
+        the sheet does not exist.
+    """
+    try:
+        import xlrd
+    except ImportError as exc:
+        raise DataError(
+            f"{path.name} is an old-style .xls workbook, which needs the xlrd package. Save "
+            "it as .xlsx or CSV in your spreadsheet program, or install xlrd."
+        ) from exc
+    # The bytes, not the path: xlrd then opens nothing itself (the file is only read).
+    content = path.read_bytes()
+    try:
+        book = xlrd.open_workbook(file_contents=content, on_demand=True)
+    except Exception as exc:  # xlrd raises several kinds for a damaged file
+        raise DataError(
+            f"{path.name} could not be opened as an old-style .xls workbook ({exc}). Open it "
+            "in your spreadsheet program and save it again as .xlsx, or export it as CSV."
+        ) from exc
+    try:
+        names = list(book.sheet_names())
+        title = _pick_sheet(path, names, sheet)
+        sheet_obj = book.sheet_by_name(title)
+        total = sheet_obj.nrows
+        rows: list[tuple[Any, ...]] = []
+        for number in range(total):
+            row = tuple(_old_cell(cell, book.datemode, xlrd) for cell in sheet_obj.row(number))
+            if any(v is not None and not (isinstance(v, str) and not v.strip()) for v in row):
+                rows.append(row)
+            if (number + 1) % _EXCEL_PROGRESS_ROWS == 0:
+                steps.report((number + 1) / total)
+    finally:
+        book.release_resources()
+    return _sheet_result(rows, names, title)
+
+
+def _old_cell(cell: Any, datemode: int, xlrd: Any) -> Any:
+    """A cell's value as openpyxl would give it (None for blanks and errors)."""
+    kind = cell.ctype
+    if kind in (xlrd.XL_CELL_EMPTY, xlrd.XL_CELL_BLANK, xlrd.XL_CELL_ERROR):
+        return None
+    if kind == xlrd.XL_CELL_DATE:
+        try:
+            return xlrd.xldate.xldate_as_datetime(cell.value, datemode)
+        except (ValueError, OverflowError, xlrd.xldate.XLDateError):
+            return cell.value  # a number formatted as a date outside the calendar
+    if kind == xlrd.XL_CELL_BOOLEAN:
+        return bool(cell.value)
+    return cell.value
+
+
+def _sheet_result(rows: list[tuple[Any, ...]], names: list[str], title: str) -> ReadResult:
+    """The frame of a sheet's non-empty rows, the first being the header."""
     notes = []
     if len(names) > 1:
         others = ", ".join(repr(n) for n in names if n != title)
