@@ -308,3 +308,28 @@ def test_open_path_count_in_words() -> None:
     assert review.open_paths_text() == "1"
     bound = replace(review, open_paths_total=10_001, open_paths_total_exact=False)
     assert bound.open_paths_text() == "at least 10,001"
+
+
+def test_a_budgeted_path_count_is_the_same_in_every_run():
+    """The lower bound given when the count budget runs out must not depend
+    on string hashing (a rationale printed twice must read the same)."""
+    import os
+    import subprocess
+    import sys
+
+    script = (
+        "import itertools, networkx as nx\n"
+        "from covariscope.analysis.graph import backdoor_paths\n"
+        "G = nx.DiGraph(itertools.combinations([f'v{i}' for i in range(10)], 2))\n"
+        "L = backdoor_paths(G, 'v3', 'v8')\n"
+        "print(L.total, L.total_exact)\n"
+    )
+    outputs = set()
+    for seed in ("1", "2", "3"):
+        env = {**os.environ, "PYTHONHASHSEED": seed}
+        run = subprocess.run(
+            [sys.executable, "-c", script], capture_output=True, text=True, env=env, check=True
+        )
+        outputs.add(run.stdout.strip())
+    assert len(outputs) == 1, outputs
+    assert outputs.pop().endswith("False")  # the budget did run out

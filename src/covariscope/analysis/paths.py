@@ -8,6 +8,7 @@ is in Z or has a descendant in Z (Pearl 2009, *Causality*, 2nd ed., §3.3.1).
 
 from __future__ import annotations
 
+from collections import deque
 from collections.abc import Callable, Collection, Iterable, Iterator
 from dataclasses import dataclass
 
@@ -156,6 +157,22 @@ def _reaches(adj: _Adjacency, start: str, target: str, blocked: Collection[str])
     return False
 
 
+def _cuthill_mckee_reversed(U: nx.Graph) -> list[str]:
+    """Reverse Cuthill–McKee order of a connected graph (Cuthill & McKee 1969),
+    ties broken by node id so that the order, and a budgeted count that
+    depends on it, is the same in every run (networkx's version iterates sets)."""
+    start = min(U, key=lambda n: (U.degree(n), n))
+    order, seen = [start], {start}
+    queue = deque([start])
+    while queue:
+        v = queue.popleft()
+        for w in sorted((w for w in U[v] if w not in seen), key=lambda n: (U.degree(n), n)):
+            seen.add(w)
+            order.append(w)
+            queue.append(w)
+    return order[::-1]
+
+
 def _walk(
     M: nx.DiGraph,
     adj: _Adjacency,
@@ -242,12 +259,13 @@ def count_backdoor_paths(
     if anZ is not None and Z is not None:
         # Every node on an open path is an ancestor of X, Y or Z.
         M = M.subgraph(ancestors_of(M, {X, Y, *Z}))
-    edges = [(u, v) for u, v in M.edges if u != X]
+    # sorted, so that a budgeted count is the same from run to run
+    edges = sorted((u, v) for u, v in M.edges if u != X)
     U = nx.Graph(edges)
     if X not in U or Y not in U or not nx.has_path(U, X, Y):
         return 0, True
     U = U.subgraph(nx.node_connected_component(U, X))
-    pos = {v: i for i, v in enumerate(nx.utils.reverse_cuthill_mckee_ordering(U))}
+    pos = {v: i for i, v in enumerate(_cuthill_mckee_reversed(U))}
     edges = sorted(
         ((u, v) for u, v in edges if u in pos and v in pos),
         key=lambda e: (min(pos[e[0]], pos[e[1]]), max(pos[e[0]], pos[e[1]])),
