@@ -58,3 +58,20 @@ def test_rows_show_overrides_and_bindings():
     rows = {r.name: r for r in column_rows(p, ["bmi_kg", "smoke"], prof)}
     assert rows["smoke"].cells() == ("smoke", "categorical*", "1.2%", "", "never")
     assert rows["bmi_kg"].bound_to == "bmi"
+
+
+def test_value_labels_name_the_levels_and_the_reference():
+    """A Stata/SPSS column with value labels reads "north (1)", while the
+    reference kept in the project stays the code."""
+    import pandas as pd
+
+    from covariscope.data.profile import profile_table
+
+    frame = pd.DataFrame({"region": [1, 2, 3, 1, 2, 3, 1, 2] * 3})
+    labels = {"region": {1: "north", 2: "south", 3: "east"}}
+    profiles = profile_table(frame, {"region": "categorical"}, {}, value_labels=labels)
+    (row,) = column_rows(Project(), ["region"], profiles)
+    assert row.reference == "1"
+    assert row.reference_text == "north (1)"
+    assert row.level_texts == ("north (1)", "south (2)", "east (3)")
+    assert row.cells()[-1] == "north (1)"

@@ -49,10 +49,19 @@ class ColumnRow:
     bound_to: str
     reference: str
     levels: tuple[Any, ...]
+    #: as the user reads them: with the file's value labels where it has them
+    reference_text: str = ""
+    level_texts: tuple[str, ...] = ()
 
     def cells(self) -> tuple[str, ...]:
         type_text = f"{self.type}*" if self.type_overridden else self.type
-        return (self.name, type_text, self.missing, self.bound_to, self.reference)
+        return (
+            self.name,
+            type_text,
+            self.missing,
+            self.bound_to,
+            self.reference_text or self.reference,
+        )
 
 
 def column_rows(
@@ -72,6 +81,7 @@ def column_rows(
         ctype = overrides.get(name) or getattr(prof, "type", None) or DASH
         missing = getattr(prof, "missing_pct", None)
         ref = refs.get(name, getattr(prof, "reference", None))
+        levels = tuple(getattr(prof, "levels", ()) or ())
         rows.append(
             ColumnRow(
                 name=name,
@@ -80,10 +90,18 @@ def column_rows(
                 missing=f"{missing:.1f}%" if is_number(missing) else DASH,
                 bound_to=", ".join(bound.get(name, [])),
                 reference="" if ref is None else str(ref),
-                levels=tuple(getattr(prof, "levels", ()) or ()),
+                levels=levels,
+                reference_text="" if ref is None else _level_text(prof, ref),
+                level_texts=tuple(_level_text(prof, v) for v in levels),
             )
         )
     return rows
+
+
+def _level_text(profile: Any, level: Any) -> str:
+    """A level with its value label where the file carries one (Stata, SPSS)."""
+    text = getattr(profile, "level_text", None)
+    return text(level) if callable(text) else str(level)
 
 
 def nodes_without_column(project: Any) -> list[str]:

@@ -24,13 +24,16 @@ __all__ = ["DataController", "profile_columns"]
 
 
 def profile_columns(
-    frame: Any, overrides: dict[str, str], references: dict[str, Any]
+    frame: Any,
+    overrides: dict[str, str],
+    references: dict[str, Any],
+    value_labels: dict[str, Any] | None = None,
 ) -> dict[str, Any]:
     """Column profiles from the data layer; a type the column cannot take is
     reported by the caller and the inferred type kept."""
     from covariscope.data.profile import profile_table
 
-    return profile_table(frame, overrides, references)
+    return profile_table(frame, overrides, references, value_labels=value_labels)
 
 
 class DataController(QObject):
@@ -131,7 +134,9 @@ class DataController(QObject):
             return
         a = self.w.project.analysis
         try:
-            self.profiles = profile_columns(self.table.frame, a.column_types, a.reference_levels)
+            self.profiles = profile_columns(
+                self.table.frame, a.column_types, a.reference_levels, self.table.value_labels
+            )
         except CovariscopeError as exc:
             self.w.set_last_error(str(exc))
             self.w.show_message(str(exc))

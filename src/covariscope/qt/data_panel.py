@@ -209,8 +209,9 @@ class DataPanel(QWidget):
             act.setChecked(row.type == kind)
             act.triggered.connect(lambda _=False, k=kind: self.type_requested.emit(row.name, k))
         ref = menu.addMenu("Reference level")
-        for level in row.levels[:50]:
-            act = ref.addAction(str(level))
+        texts = row.level_texts or tuple(str(v) for v in row.levels)
+        for level, text in list(zip(row.levels, texts, strict=True))[:50]:
+            act = ref.addAction(text)
             act.setCheckable(True)
             act.setChecked(str(level) == row.reference)
             act.triggered.connect(
