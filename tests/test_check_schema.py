@@ -91,8 +91,9 @@ def test_schema_rejects_a_missing_field(schema, capsys):
 
 
 def test_capped_open_paths_validate_with_their_count(schema, capsys, tmp_path):
-    # every arrow of a ten-node causal order: more open paths than are listed
-    order = ["n0", "n1", "n2", "n3", "x", "n5", "n6", "n7", "n8", "y"]
+    # every arrow of a twelve-node causal order: more open paths than are listed
+    # and than the count's budget covers
+    order = ["n0", "n1", "n2", "n3", "x", "n5", "n6", "n7", "n8", "n9", "n10", "y"]
     kinds = {"x": "exposure", "y": "outcome"}
     project = {
         "format": "covariscope-project",

@@ -232,8 +232,8 @@ def _hub_project():
 
 
 def _complete_project():
-    # Every arrow of a ten-node causal order: the open paths outrun the count's budget.
-    order = ["n0", "n1", "n2", "n3", "x", "n5", "n6", "n7", "n8", "y"]
+    # Every arrow of a twelve-node causal order: the open paths outrun the count's budget.
+    order = ["n0", "n1", "n2", "n3", "x", "n5", "n6", "n7", "n8", "n9", "n10", "y"]
     return _project(order, list(itertools.combinations(order, 2)))
 
 

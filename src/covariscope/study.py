@@ -17,16 +17,14 @@ from __future__ import annotations
 import math
 from collections.abc import Callable, Mapping, Sequence
 
-import numpy as np
-
-from covariscope.analysis.evalue import COMMON_OUTCOME_PREVALENCE, EValue, evalue_for_estimate
+from covariscope.analysis.evalue import EValue, evalue_for_fit
 from covariscope.analysis.evidence import (
     Comparison,
     EvidenceEngine,
     EvidenceTable,
     compute_evidence,
 )
-from covariscope.analysis.fits import RATIO_FAMILIES, Fit, effect_measure
+from covariscope.analysis.fits import Fit, effect_measure
 from covariscope.analysis.graph import (
     analyse_diagram,
     is_sufficient,
@@ -111,26 +109,6 @@ def _se_lookup(
         return fit.se if fit is not None and fit.ok else None
 
     return se_of
-
-
-def _evalue(
-    fit: Fit | None, family: str, measure: str, prepared_y: np.ndarray | None, share: float | None
-) -> tuple[EValue | None, str | None]:
-    if fit is None or not fit.ok:
-        return None, None
-    try:
-        if family in RATIO_FAMILIES:
-            ratio, ratio_ci = fit.ratio, fit.ratio_ci
-            assert ratio is not None
-            assert ratio_ci is not None
-            common = share is not None and share >= COMMON_OUTCOME_PREVALENCE
-            return evalue_for_estimate(ratio, ratio_ci, measure, common_outcome=common), None
-        if family == "linear" and prepared_y is not None and len(prepared_y) > 1:
-            sd = float(np.std(prepared_y, ddof=1))
-            return evalue_for_estimate(fit.coef, fit.ci, "mean difference", outcome_sd=sd), None
-    except (ValueError, ZeroDivisionError, OverflowError) as exc:
-        return None, f"The E-value could not be computed: {exc}."
-    return None, None
 
 
 # -- the study -----------------------------------------------------------------------
@@ -426,13 +404,7 @@ def run_study(
             estimates["recommended"] = evidence.sets.get(
                 set_names.get(tuple(sorted(rec.members)), "")
             )
-        design = engine.design
-        share = None
-        if family == "cox" and design.event is not None:
-            share = float(np.mean(design.event))
-        elif family in ("logistic", "risk_ratio") and design.y is not None:
-            share = float(np.mean(design.y > 0))
-        ev_value, problem = _evalue(estimates["recommended"], family, measure, design.y, share)
+        ev_value, problem = evalue_for_fit(estimates["recommended"], engine.design, measure)
         if problem:
             messages.append(problem)
 

@@ -75,3 +75,32 @@ def test_bad_input():
         evalue(0.0)
     with pytest.raises(ValueError, match="unknown"):
         as_risk_ratio(1.2, "odds")
+
+
+def test_evalue_for_fit_reads_the_conversion_from_the_sample():
+    """Common outcome (half the rows have the event): the odds ratio goes
+    through its square root (VanderWeele & Ding 2017); the same fit on a rare
+    outcome is used as is."""
+    import numpy as np
+    import pandas as pd
+
+    from covariscope.analysis.design import TermSpec, make_design
+    from covariscope.analysis.evalue import evalue, evalue_for_fit
+    from covariscope.analysis.fits import Fit
+
+    x = np.tile([0.0, 1.0], 50)
+    fit = Fit("logistic", (), math.log(4.0), 0.1, (math.log(3.0), math.log(5.0)), 100)
+    for events, expected in ((50, evalue(2.0)), (5, evalue(4.0))):
+        y = np.zeros(100)
+        y[:events] = 1.0
+        design = make_design(
+            pd.DataFrame({"x": x, "y": y}),
+            exposure=TermSpec("x", "binary"),
+            covariates={},
+            outcome="y",
+            family="logistic",
+        )
+        value, problem = evalue_for_fit(fit, design, "odds ratio")
+        assert problem is None
+        assert value is not None
+        assert value.estimate == pytest.approx(expected)

@@ -33,6 +33,15 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+from typing import TYPE_CHECKING
+
+import numpy as np
+
+from covariscope.analysis.fits import RATIO_FAMILIES
+
+if TYPE_CHECKING:
+    from covariscope.analysis.design import Design
+    from covariscope.analysis.fits import Fit
 
 __all__ = [
     "COMMON_OUTCOME_PREVALENCE",
@@ -40,6 +49,7 @@ __all__ = [
     "as_risk_ratio",
     "evalue",
     "evalue_for_estimate",
+    "evalue_for_fit",
 ]
 
 #: Outcome prevalence from which an outcome counts as common (VanderWeele &
@@ -175,3 +185,37 @@ def evalue_for_estimate(
     hi, _ = as_risk_ratio(ci[1], measure, common_outcome=common_outcome, outcome_sd=outcome_sd)
     lo, hi = min(lo, hi), max(lo, hi)
     return EValue(evalue(rr), _limit_evalue(lo, hi), rr, (lo, hi), how)
+
+
+def evalue_for_fit(
+    fit: Fit | None, design: Design, measure: str
+) -> tuple[EValue | None, str | None]:
+    """E-value of a fitted model's exposure estimate, with the conversion its
+    family needs (VanderWeele & Ding 2017).
+
+    For odds and hazard ratios the share of rows with the event decides
+    between the rare- and the common-outcome conversion; for a mean
+    difference the outcome's standard deviation in the analytic sample
+    standardises it.  Returns the E-value, or None with a plain reason when
+    it cannot be computed (None, None when the fit does not apply).
+    """
+    if fit is None or not fit.ok:
+        return None, None
+    try:
+        if fit.family in RATIO_FAMILIES:
+            ratio, ratio_ci = fit.ratio, fit.ratio_ci
+            assert ratio is not None
+            assert ratio_ci is not None
+            share = None
+            if fit.family == "cox" and design.event is not None:
+                share = float(np.mean(design.event))
+            elif design.y is not None:
+                share = float(np.mean(design.y > 0))
+            common = share is not None and share >= COMMON_OUTCOME_PREVALENCE
+            return evalue_for_estimate(ratio, ratio_ci, measure, common_outcome=common), None
+        if fit.family == "linear" and design.y is not None and len(design.y) > 1:
+            sd = float(np.std(design.y, ddof=1))
+            return evalue_for_estimate(fit.coef, fit.ci, "mean difference", outcome_sd=sd), None
+    except (ValueError, ZeroDivisionError, OverflowError) as exc:
+        return None, f"The E-value could not be computed: {exc}."
+    return None, None
