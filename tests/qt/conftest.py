@@ -127,3 +127,13 @@ def _wait_for_analysis() -> Callable[..., None]:
 def shots() -> Path:
     SHOTS.mkdir(exist_ok=True)
     return SHOTS
+
+
+@pytest.fixture(autouse=True)
+def _empty_clipboard(qapp):
+    """Leave the clipboard empty: mime data still held by the offscreen
+    clipboard when the interpreter exits makes Qt crash in its teardown."""
+    yield
+    from PySide6.QtWidgets import QApplication
+
+    QApplication.clipboard().clear()
