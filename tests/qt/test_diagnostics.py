@@ -37,6 +37,9 @@ def test_dialog_shows_the_json_numbers(qtbot, window, demo, wait_for_analysis):
         assert figures["Tolerance (1 / VIF)"] == number(c["tolerance"], 3)
         assert c["label"] in dialog.verdict.text()
         assert c["reason"] in dialog.verdict.text()
+        # the scatter shows the rows the models used, not every row of the file
+        points = dialog.data_figure.axes[0].collections[0].get_offsets()
+        assert len(points) == js["sample"]["used"] < js["sample"]["rows"]
         dialog.close()
 
 

@@ -82,6 +82,17 @@ def _table(headers: tuple[str, ...]) -> QTableWidget:
     return t
 
 
+def _analysed_rows(sample: Any, frame: Any, s: NodeDiagnostics) -> Any:
+    """The rows the models used (the analytic sample) when it holds both
+    columns of the plot, so the picture shows what the numbers came from;
+    else the loaded file."""
+    rows = getattr(sample, "frame", None)
+    wanted = {s.exposure_column, s.column}
+    if rows is not None and None not in wanted and wanted <= set(rows.columns):
+        return rows
+    return frame
+
+
 def _fill(table: QTableWidget, rows: list[tuple[str, ...]], fit: bool = True) -> None:
     with filling(table):
         table.setRowCount(len(rows))
@@ -270,7 +281,7 @@ class CovariateDialog(NodeDialog):
         self.set_note(s.note)
         self._show_keep(keep_choice(project, result, self.node_id))
         self._plot_estimates(s, getattr(result, "family", project.analysis.family))
-        self._plot_data(s, project, profiles, frame)
+        self._plot_data(s, project, profiles, _analysed_rows(sample, frame, s))
 
     def _show_keep(self, choice: KeepChoice | None) -> None:
         self.keep = choice
