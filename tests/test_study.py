@@ -151,10 +151,9 @@ def test_cox_without_time_columns_falls_back_to_the_diagram():
     assert r.verdicts["c"].code == "adjust"
 
 
-def test_collinear_confounders_on_different_paths_are_both_adjusted_for():
-    # a and b each confound on a backdoor path of their own (x <- a -> y, x <- b -> y),
-    # and share a common cause u, so they are highly correlated in the data. Neither
-    # closes the other's path: keeping one of them would leave a path open.
+def _two_path_confounders():
+    """a and b confound on backdoor paths of their own and share a cause u that
+    the diagram leaves out, so they are highly correlated (seeded; true effect 1)."""
     rng = np.random.default_rng(23)
     n = 1500
     u = rng.normal(size=n)
@@ -164,8 +163,17 @@ def test_collinear_confounders_on_different_paths_are_both_adjusted_for():
     y = x + a - b + rng.normal(size=n)
     frame = pd.DataFrame({"x": x, "y": y, "a": a, "b": b})
     p = _project(["x", "y", "a", "b"], [("a", "x"), ("a", "y"), ("b", "x"), ("b", "y"), ("x", "y")])
-    r = run_study(p, table=_table(frame))
-    r2 = float(np.corrcoef(a, b)[0, 1] ** 2)  # outside reference: numpy's correlation
+    return frame, run_study(p, table=_table(frame))
+
+
+def test_collinear_confounders_on_different_paths_are_both_adjusted_for():
+    # a and b each confound on a backdoor path of their own (x <- a -> y, x <- b -> y),
+    # and share a common cause u, so they are highly correlated in the data. Neither
+    # closes the other's path: keeping one of them would leave a path open.
+    frame, r = _two_path_confounders()
+    r2 = float(
+        np.corrcoef(frame["a"], frame["b"])[0, 1] ** 2
+    )  # outside reference: numpy's correlation
     assert r2 >= 0.9
     assert r.collinear_groups == (("a", "b"),)
     assert r.recommended == ("a", "b")  # the recommended set keeps both
@@ -361,16 +369,7 @@ def test_saved_choice_in_a_mixed_group_is_kept_beside_the_needed_member(kept, tm
 
 
 def test_groups_the_diagram_needs_whole_are_no_keep_one_group():
-    rng = np.random.default_rng(23)
-    n = 1500
-    u = rng.normal(size=n)
-    a = u + 0.2 * rng.normal(size=n)
-    b = u + 0.2 * rng.normal(size=n)
-    x = 0.5 * a + 0.5 * b + rng.normal(size=n)
-    y = x + a - b + rng.normal(size=n)
-    frame = pd.DataFrame({"x": x, "y": y, "a": a, "b": b})
-    p = _project(["x", "y", "a", "b"], [("a", "x"), ("a", "y"), ("b", "x"), ("b", "y"), ("x", "y")])
-    r = run_study(p, table=_table(frame))
+    _, r = _two_path_confounders()
     js = study_to_json(r)
     assert js["collinear_groups"] == [["a", "b"]]
     assert js["keep_one_groups"] == []
