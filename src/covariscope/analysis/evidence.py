@@ -131,6 +131,8 @@ class EvidenceEngine:
     @property
     def summary(self) -> LinearSummary:
         """Means and co-moments of [exposure | covariate columns | outcome], one pass."""
+        if self.design.row_stats is not None:
+            return self.design.row_stats.summary
         cached = _SUMMARY_CACHE.get(self.design.key)
         if cached is None:
             cached = linear_summary(self.design.values)
@@ -217,6 +219,8 @@ class EvidenceEngine:
             return self._fit_linear(terms, names), None
         start = self._warm_start(terms, names, intercept)
         values = self.design.values
+        if self.design.rows is not None:
+            return self._fit_rows(terms, cols, names, start)
         try:
             if intercept:
                 from covariscope.analysis.glm import fit_glm_path
@@ -264,6 +268,44 @@ class EvidenceEngine:
             return Fit.failed(
                 self.family, terms, self.design.n, f"The model could not be fitted: {exc}"
             ), None
+        return fit, params
+
+    def _fit_rows(
+        self, terms: tuple[str, ...], cols: list[int], names: list[str], start: np.ndarray | None
+    ) -> tuple[Fit, np.ndarray | None]:
+        """A logistic or Poisson fit from row sums (the rows stay with their source)."""
+        from covariscope.analysis.glm_rows import RowOutcome, fit_glm_rows
+
+        rows, stats = self.design.rows, self.design.row_stats
+        assert rows is not None
+        assert stats is not None
+        if self.family not in ("logistic", "risk_ratio"):
+            return Fit.failed(
+                self.family, terms, self.design.n, "This family needs the rows in memory."
+            ), None
+        outcome = RowOutcome(
+            mean=float(stats.summary.mean[-1]),
+            offset_exp_sum=stats.offset_exp_sum,
+            n=self.design.n,
+            binary=stats.outcome_not_binary == 0,
+        )
+        try:
+            fit, params, cov = fit_glm_rows(
+                rows,
+                tuple(cols),
+                self.family,
+                outcome=outcome,
+                column_names=["(intercept)", *names],
+                terms=terms,
+                scale=np.concatenate([[0.0], self._column_sd()[cols]]),
+                start=start,
+            )
+        except (ArithmeticError, ValueError, np.linalg.LinAlgError) as exc:
+            return Fit.failed(
+                self.family, terms, self.design.n, f"The model could not be fitted: {exc}"
+            ), None
+        if cov is not None and fit.ok and fit.converged:
+            self._glm_cov[frozenset(terms)] = cov
         return fit, params
 
     def _intercept_matrix(self) -> np.ndarray:
@@ -344,15 +386,21 @@ class EvidenceEngine:
         from covariscope.analysis.fitting_common import DIVERGE_SD
         from covariscope.analysis.glm import information_and_score
 
-        full = self._intercept_matrix()
         hit = self._glm_step.get(parent)
         if hit is None:
-            b = np.zeros(full.shape[1])
+            b = np.zeros(self.design.n_design_columns + 1)
             b[[0, *(c + 1 for c in parent_cols)]] = parent_params
-            assert self.design.y is not None
-            hit = information_and_score(
-                full, self.design.y, self.family, b, offset=self.design.offset
-            )
+            if self.design.rows is not None:
+                from covariscope.analysis.rows import glm_pass
+
+                every = tuple(range(self.design.n_design_columns))
+                sums = glm_pass(self.design.rows, every, b, self.family)
+                hit = (sums.information, sums.score)
+            else:
+                assert self.design.y is not None
+                hit = information_and_score(
+                    self._intercept_matrix(), self.design.y, self.family, b, offset=self.design.offset
+                )
             _remember(self._glm_step, parent, hit, 4)
         H, score = hit
         cols = self.columns(terms)
