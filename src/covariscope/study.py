@@ -41,9 +41,10 @@ from covariscope.analysis.verdicts import (
     decide_verdict,
     format_set,
 )
-from covariscope.data.loading import LoadedTable, load_table
+from covariscope.data.loading import LoadedTable
 from covariscope.data.sample import AnalyticSample
 from covariscope.data.sources.base import DataSource
+from covariscope.data.sources.choose import open_source
 from covariscope.data.sources.memory import MemorySource
 from covariscope.model.errors import DataError
 from covariscope.model.project import DEFAULT_THRESHOLDS, Project
@@ -184,7 +185,13 @@ def run_study(
         source = MemorySource(table)
     if source is None and project.data is not None:
         report(0.05, "Loading the data")
-        source = MemorySource(load_table(project.data.resolve(project.path)))
+        source = open_source(
+            project.data.resolve(project.path),
+            project.analysis.engine,
+            scheduler=project.analysis.scheduler,
+        )
+    if source is not None:
+        messages.extend(source.notes)
     data_name = source.path.name if source is not None else None
     data_sha = source.sha256 if source is not None else None
     stored_sha = project.data.sha256 if project.data is not None else None

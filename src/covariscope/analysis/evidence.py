@@ -399,7 +399,11 @@ class EvidenceEngine:
             else:
                 assert self.design.y is not None
                 hit = information_and_score(
-                    self._intercept_matrix(), self.design.y, self.family, b, offset=self.design.offset
+                    self._intercept_matrix(),
+                    self.design.y,
+                    self.family,
+                    b,
+                    offset=self.design.offset,
                 )
             _remember(self._glm_step, parent, hit, 4)
         H, score = hit

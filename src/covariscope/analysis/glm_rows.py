@@ -121,9 +121,7 @@ def _newton(
         t = 1.0
         for _ in range(40):
             new = glm_pass(reducer, columns, b + t * delta, family)
-            if math.isfinite(new.deviance) and new.deviance <= s.deviance + 1e-12 * abs(
-                s.deviance
-            ):
+            if math.isfinite(new.deviance) and new.deviance <= s.deviance + 1e-12 * abs(s.deviance):
                 break
             t *= 0.5
         else:

@@ -165,7 +165,9 @@ def glm_sums(
         r = 1.0 / (1.0 + e)
         mu = np.where(eta >= 0.0, r, e * r)
         w = e * r * r
-        dev = 2.0 * (float(np.sum(np.log1p(e))) + float(np.sum(np.maximum(eta, 0.0))) - float(y @ eta))
+        dev = 2.0 * (
+            float(np.sum(np.log1p(e))) + float(np.sum(np.maximum(eta, 0.0))) - float(y @ eta)
+        )
         low = float(np.min(np.minimum(mu, 1.0 - mu))) if len(y) else math.inf
     else:
         mu = np.exp(np.minimum(eta, 700.0))
@@ -226,9 +228,7 @@ def merge_sandwich_sums(a: SandwichSums, b: SandwichSums) -> SandwichSums:
     return SandwichSums(a.bread + b.bread, a.meat + b.meat, max(a.mu_high, b.mu_high))
 
 
-def glm_pass(
-    reducer: RowReducer, columns: tuple[int, ...], params: Array, family: str
-) -> GlmSums:
+def glm_pass(reducer: RowReducer, columns: tuple[int, ...], params: Array, family: str) -> GlmSums:
     """One reduction of :func:`glm_sums` over every row."""
     fn = partial(
         glm_sums,

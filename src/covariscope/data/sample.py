@@ -96,7 +96,9 @@ def analytic_sample(frame: pd.DataFrame, columns: Sequence[str]) -> AnalyticSamp
     check_known([str(c) for c in frame.columns], chosen)
     rows = len(frame)
     if not chosen:
-        return AnalyticSample(frame.iloc[:, :0], rows, rows, chosen, message=summary_text(rows, rows))
+        return AnalyticSample(
+            frame.iloc[:, :0], rows, rows, chosen, message=summary_text(rows, rows)
+        )
     missing = frame.loc[:, list(chosen)].isna().to_numpy()
     per_row = missing.sum(axis=1)
     keep = per_row == 0

@@ -57,6 +57,8 @@ class DataSource(Protocol):
     engine: str
     path: Path
     columns: tuple[str, ...]
+    #: plain sentences for the user: the engine chosen, a conversion made
+    notes: tuple[str, ...]
 
     @property
     def sha256(self) -> str:

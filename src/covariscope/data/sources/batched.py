@@ -60,13 +60,15 @@ class FrameCounts:
     high: dict[str, float] = field(default_factory=dict)
 
 
-def count_frame(frame: pd.DataFrame, columns: tuple[str, ...], tracked: tuple[str, ...]) -> FrameCounts:
+def count_frame(
+    frame: pd.DataFrame, columns: tuple[str, ...], tracked: tuple[str, ...]
+) -> FrameCounts:
     """The :class:`FrameCounts` of one batch."""
     missing = frame.loc[:, list(columns)].isna().to_numpy()
     per_row = missing.sum(axis=1)
     levels: dict[str, set[Any] | None] = {}
     for c in tracked:
-        values = set(level_key(v) for v in pd.unique(frame[c].dropna()))
+        values = {level_key(v) for v in pd.unique(frame[c].dropna())}
         levels[c] = values if len(values) <= MAX_TRACKED_LEVELS else None
     low: dict[str, float] = {}
     high: dict[str, float] = {}
@@ -149,6 +151,7 @@ class BatchSource(ABC):
         self.columns = columns
         self._rows = rows
         self._sha: str | None = None
+        self.notes: tuple[str, ...] = ()
         self._sample: AnalyticSample | None = None
 
     # -- what each engine provides -------------------------------------------------
@@ -202,14 +205,18 @@ class BatchSource(ABC):
         inferred = profile_table(sample, {k: v for k, v in types.items() if k in columns})
         tracked = tuple(c for c in columns if inferred[c].type in LEVEL_TYPES)
         counts: FrameCounts = self.reduce_frames(
-            columns, partial(count_frame, columns=columns, tracked=tracked), merge_counts,
+            columns,
+            partial(count_frame, columns=columns, tracked=tracked),
+            merge_counts,
             complete=False,
         )
         if progress is not None:
             progress(1.0, "Counted missing values and levels")
         return {c: self._exact(inferred[c], counts, references.get(c)) for c in columns}
 
-    def _exact(self, profile: ColumnProfile, counts: FrameCounts, reference: object) -> ColumnProfile:
+    def _exact(
+        self, profile: ColumnProfile, counts: FrameCounts, reference: object
+    ) -> ColumnProfile:
         name = profile.name
         missing = counts.missing[name]
         changes: dict[str, Any] = {
@@ -248,7 +255,9 @@ class BatchSource(ABC):
             missing_by_column=counts.missing,
             lost_by_column=counts.alone,
             lost_to_several=counts.several,
-            message=summary_text(counts.rows, counts.complete, counts.alone, counts.several, len(chosen)),
+            message=summary_text(
+                counts.rows, counts.complete, counts.alone, counts.several, len(chosen)
+            ),
             frame_is_sample=counts.complete > len(frame),
         )
         return self._sample
@@ -276,13 +285,17 @@ class BatchSource(ABC):
         levels = self.reduce_frames(
             needed, partial(level_values, uses=request.uses), merge_levels, complete=True
         )
-        exposure = plan_term(request.exposure, sorted_values(levels, request.exposure.column), "exposure")
+        exposure = plan_term(
+            request.exposure, sorted_values(levels, request.exposure.column), "exposure"
+        )
         covariates: dict[str, TermCoding] = {
             node: plan_term(spec, sorted_values(levels, spec.column), f"covariate {node}")
             for node, spec in request.covariates.items()
         }
         assert request.outcome is not None
-        plan = BatchPlan(request.uses, (exposure, *covariates.values()), request.outcome, request.offset)
+        plan = BatchPlan(
+            request.uses, (exposure, *covariates.values()), request.outcome, request.offset
+        )
         return make_row_design(
             _Rows(self, needed, plan),
             exposure=exposure,

@@ -56,6 +56,8 @@ class DuckSource(BatchSource):
         Worker threads of the database (default: its own choice).
     batch_rows : int
         Rows per record batch handed to the statistics.
+    origin : Path, optional
+        The file the user chose, when ``path`` is a converted copy of it.
     """
 
     engine = "duckdb"
@@ -67,7 +69,7 @@ class DuckSource(BatchSource):
         memory_limit: str | None = None,
         threads: int | None = None,
         batch_rows: int = BATCH_ROWS,
-        note: str = "",
+        origin: Path | None = None,
     ) -> None:
         try:
             import duckdb
@@ -85,23 +87,24 @@ class DuckSource(BatchSource):
         config["temp_directory"] = self._tmp.name
         self._con = duckdb.connect(":memory:", config=config)
         self.batch_rows = batch_rows
-        self.note = note
         self._from = self._table_function(path)
         try:
-            described = self._con.execute(f"DESCRIBE SELECT * FROM {self._from}").fetchall()
-            rows = int(self._con.execute(f"SELECT COUNT(*) FROM {self._from}").fetchone()[0])  # type: ignore[index]
+            described = self._con.sql(f"DESCRIBE SELECT * FROM {self._from}").fetchall()
+            rows = int(self._con.sql(f"SELECT COUNT(*) FROM {self._from}").fetchall()[0][0])
         except duckdb.Error as exc:
             raise DataError(
                 f"{path.name} could not be read by DuckDB ({exc}). Check the file, or load it "
                 "with the in-memory engine."
             ) from exc
-        super().__init__(path, tuple(str(r[0]) for r in described), rows)
+        super().__init__(origin or path, tuple(str(r[0]) for r in described), rows)
 
     def _table_function(self, path: Path) -> str:
         if path.suffix.lower() in (".parquet", ".pq"):
             return f"read_parquet({_literal(str(path))})"
         nulls = ", ".join(_literal(v) for v in _NULLS)
-        return f"read_csv({_literal(str(path))}, header = true, sample_size = -1, nullstr = [{nulls}])"
+        return (
+            f"read_csv({_literal(str(path))}, header = true, sample_size = -1, nullstr = [{nulls}])"
+        )
 
     def _select(self, columns: tuple[str, ...], complete: bool) -> str:
         names = ", ".join(quote_name(c) for c in columns)
@@ -131,8 +134,10 @@ class DuckSource(BatchSource):
     def sample_rows(self, columns: tuple[str, ...], rows: int, *, complete: bool) -> pd.DataFrame:
         query = self._select(columns, complete)
         if self.rows > rows:
-            query = f"SELECT * FROM ({query}) USING SAMPLE reservoir({int(rows)} ROWS) REPEATABLE (7)"
-        frame: pd.DataFrame = self._con.execute(query).df()
+            query = (
+                f"SELECT * FROM ({query}) USING SAMPLE reservoir({int(rows)} ROWS) REPEATABLE (7)"
+            )
+        frame: pd.DataFrame = self._con.sql(query).df()
         if complete:
             frame = frame.dropna()
         return frame.reset_index(drop=True)
