@@ -15,6 +15,7 @@ from pypdf import PdfReader
 from covariscope.model.project import load_project
 from covariscope.report.layout import MIN_BODY_PT
 from covariscope.report.painter import render_image, write_pdf
+from covariscope.study import run_study
 from covariscope.views.check_json import study_to_json
 from covariscope.views.report_content import build_content, format_interval, format_number
 
@@ -82,11 +83,10 @@ def _check_record(record, *, covariates: int) -> None:
 
 @pytest.fixture(scope="module")
 def demo():
-    study = pytest.importorskip("covariscope.study")
     if not DEMO.exists():
         pytest.skip("demo project not present")
     project = load_project(DEMO)
-    result = study.run_study(project)
+    result = run_study(project)
     return project, result, study_to_json(result)
 
 
@@ -97,9 +97,8 @@ def test_demo_pdf_is_one_page_with_the_checked_numbers(qapp, tmp_path, demo, pag
 
 
 def test_demo_ratio_page_shows_the_checked_ratios(qapp, tmp_path, demo):
-    study = pytest.importorskip("covariscope.study")
     project = demo[0]
-    result = study.run_study(project, family="logistic")
+    result = run_study(project, family="logistic")
     checked = study_to_json(result)
     assert build_content(result, project).ratio
     _check_demo_page(tmp_path, project, result, checked, "a4")

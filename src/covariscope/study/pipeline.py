@@ -45,8 +45,7 @@ from covariscope.data.loading import LoadedTable, load_table
 from covariscope.data.sample import AnalyticSample
 from covariscope.errors import DataError
 from covariscope.model.project import DEFAULT_THRESHOLDS, Project
-from covariscope.study_data import prepare_evidence
-from covariscope.study_facts import (
+from covariscope.study.facts import (
     group_why,
     needed_together,
     opened_paths,
@@ -55,7 +54,8 @@ from covariscope.study_facts import (
     would_close,
     would_open,
 )
-from covariscope.study_result import ESTIMATE_KEYS, Progress, StudyResult
+from covariscope.study.prepare import prepare_evidence
+from covariscope.study.result import ESTIMATE_KEYS, Progress, StudyResult
 
 __all__ = [
     "ESTIMATE_KEYS",
