@@ -33,7 +33,8 @@ def _refused(capsys, argv, expected):
     assert code == 2, err
     assert expected in err
     assert len(err.strip().splitlines()) == 1
-    assert "internal error" not in err and "Traceback" not in err + out
+    assert "internal error" not in err
+    assert "Traceback" not in err + out
 
 
 @pytest.mark.parametrize(
@@ -116,7 +117,8 @@ def test_check_into_a_closed_pipe_is_quiet(demo):
         stdout=subprocess.PIPE,
         stderr=subprocess.PIPE,
     )
-    assert proc.stdout is not None and proc.stderr is not None
+    assert proc.stdout is not None
+    assert proc.stderr is not None
     proc.stdout.read(10)
     proc.stdout.close()  # the reader goes away, as `| head -c 10` does
     err = proc.stderr.read().decode()

@@ -165,11 +165,10 @@ def _headless_qt() -> None:
 
 def _cmd_report(args: argparse.Namespace) -> int:
     _headless_qt()
-    from covariscope.report.painter import write_pdf
-
     from covariscope.data.loading import load_table
     from covariscope.model.files import check_output_path
     from covariscope.model.project import load_project
+    from covariscope.report.painter import write_pdf
 
     project = load_project(args.project)
     reads = [
