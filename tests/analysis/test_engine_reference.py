@@ -1,6 +1,11 @@
 """Today's engine against the values the engine gave before the fitting loops
 were reworked for speed (recorded at commit 9ecfd80).
 
+The record was made with that engine's own stopping tolerances tightened
+(deviance decrement 1e-15, its SE_TOL 1e-11, Cox decrement 1e-18), so that it
+holds the old algorithm's answer at its limit rather than wherever its looser
+rule happened to stop (its standard errors were settled to about 1e-8 only).
+
 Estimates and standard errors must agree to 1e-8: relative for a standard
 error; for an estimate, relative to the larger of the estimate and its
 standard error (a coefficient near zero has no relative precision of its own,
@@ -191,6 +196,14 @@ def _compare(now: dict[str, dict[str, Any]], then: dict[str, dict[str, Any]]) ->
         assert new["ok"] == old["ok"], model
         assert new["message"] == old["message"], model
         assert new["warnings"] == old["warnings"], model
+        if any(b is None for b, _ in old["terms"].values()):
+            # A coefficient that runs off to infinity is left blank and the
+            # exposure's estimate is the limit the loop was heading for: its
+            # precision is set by where the divergence is caught (|b|·SD > 20),
+            # which depends on the start, not by the stopping rule.
+            assert new["coef"] == pytest.approx(old["coef"], rel=1e-3), model
+            assert new["se"] == pytest.approx(old["se"], rel=1e-2), model
+            continue
         assert _close_estimate(new["coef"], old["coef"], old["se"]), (model, new, old)
         assert _close_se(new["se"], old["se"]), (model, new["se"], old["se"])
         assert new["terms"].keys() == old["terms"].keys()
