@@ -43,7 +43,7 @@ from covariscope.analysis.verdicts import (
 )
 from covariscope.data.loading import LoadedTable, load_table
 from covariscope.data.sample import AnalyticSample
-from covariscope.model.errors import DataError
+from covariscope.errors import DataError
 from covariscope.model.project import DEFAULT_THRESHOLDS, Project
 from covariscope.study.facts import (
     group_why,
