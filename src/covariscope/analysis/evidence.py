@@ -35,7 +35,7 @@ from covariscope.analysis.collinearity import (
     vif,
 )
 from covariscope.analysis.design import Design, constant_message
-from covariscope.analysis.fits import RATIO_FAMILIES, Fit
+from covariscope.analysis.fits import Fit
 from covariscope.analysis.linear import (
     LinearSummary,
     OLSResult,
@@ -44,6 +44,7 @@ from covariscope.analysis.linear import (
     solve_ols,
 )
 from covariscope.errors import DataError
+from covariscope.vocabulary import RATIO_FAMILIES
 
 __all__ = [
     "NEAR_ZERO_SE_FRACTION",
