@@ -22,10 +22,11 @@ import pytest
 from covariscope.data.loading import load_table
 from covariscope.data.sources import MemorySource, open_source
 from covariscope.data.sources.duck import DuckSource
+from covariscope.errors import DataError
 from covariscope.model import Diagram, Node, Project
-from covariscope.model.errors import DataError
 from covariscope.model.project import AnalysisSettings, DataRef, load_project
-from covariscope.study import run_study, study_to_json
+from covariscope.study import run_study
+from covariscope.views.check_json import study_to_json
 
 DEMO = Path(__file__).parents[2] / "src" / "covariscope" / "demo"
 FAMILIES = ("linear", "logistic", "risk_ratio", "cox")
@@ -170,7 +171,7 @@ def test_the_demo_study_is_the_same_through_duckdb(family: str, tmp_path: Path) 
 def test_categorical_terms_and_reference_levels_are_coded_alike(
     generated_file: Path, dask_source: Any
 ) -> None:
-    from covariscope.study_data import prepare_evidence
+    from covariscope.study.prepare import prepare_evidence
 
     project = generated_project(generated_file, "logistic")
     names = []

@@ -20,7 +20,7 @@ import pandas as pd
 
 from covariscope.analysis.fits import FAMILIES
 from covariscope.analysis.rows import ColumnStats, RowReducer
-from covariscope.model.errors import DataError
+from covariscope.errors import DataError
 
 __all__ = [
     "TERM_TYPES",

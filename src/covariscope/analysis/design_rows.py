@@ -18,7 +18,7 @@ import numpy as np
 from covariscope.analysis.design import Block, Design, TermCoding, constant_message
 from covariscope.analysis.fits import FAMILIES
 from covariscope.analysis.rows import ColumnStats, RowReducer, column_stats, merge_column_stats
-from covariscope.model.errors import DataError
+from covariscope.errors import DataError
 
 __all__ = ["make_row_design"]
 

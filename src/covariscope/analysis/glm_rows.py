@@ -11,8 +11,8 @@ taken there then serve the next step, so an accepted step costs one pass.
 Logistic standard errors are model-based (the inverse information at the
 last Newton point); risk-ratio standard errors are the robust HC0 sandwich
 of Zou (2004), "A modified Poisson regression approach to prospective
-studies with binary data", Am J Epidemiol 159:702, taken at the final
-coefficients in one more pass.
+studies with binary data", Am J Epidemiol 159:702, its middle term taken at
+the last Newton point in one more pass.
 
 What needs the rows themselves is not done here: when a fit does not
 converge, or its fitted probabilities reach 0 or 1, the search for the
@@ -28,7 +28,6 @@ from functools import partial
 
 import numpy as np
 import numpy.typing as npt
-from scipy.linalg.lapack import dpotrs
 
 from covariscope.analysis.fits import Fit
 from covariscope.analysis.fitting_common import (
@@ -39,10 +38,11 @@ from covariscope.analysis.fitting_common import (
     aliased_columns,
     fit_from_params,
     inverse_from_cholesky,
+    newton_done,
     rank_message,
     upper_cholesky,
 )
-from covariscope.analysis.glm import EXTREME_MU, SE_TOL
+from covariscope.analysis.glm import EXTREME_MU
 from covariscope.analysis.rows import (
     GlmSums,
     RowReducer,
@@ -81,6 +81,8 @@ class _Path:
     converged: bool
     sums: GlmSums
     stop: str = ""
+    #: the last Newton point (where ``cov`` and ``sums`` were taken)
+    last: Array | None = None
 
 
 def _start(outcome: RowOutcome, family: str, p: int) -> Array:
@@ -100,8 +102,8 @@ def _newton(
     family: str,
     b: Array,
     scale: Array,
+    reach: Array,
     max_iter: int,
-    tol: float,
 ) -> _Path:
     s = glm_pass(reducer, columns, b, family)
     cov: Array | None = None
@@ -112,12 +114,10 @@ def _newton(
             return _Path(b, None, it, False, s, "aliased")
         if c is None:
             return _Path(b, None, it, False, s, "singular")
-        step_, _ = dpotrs(c, s.score[:, None], lower=0)
-        delta = step_[:, 0]
-        decrement = float(s.score @ delta)
         cov = inverse_from_cholesky(c)
-        if decrement <= tol * (abs(s.deviance) + 0.1) and decrement <= SE_TOL**2 * s.weight_sum:
-            return _Path(b + delta, cov, it, True, s)
+        delta = cov @ s.score
+        if newton_done(delta, cov, reach):
+            return _Path(b + delta, cov, it, True, s, last=b)
         t = 1.0
         for _ in range(40):
             new = glm_pass(reducer, columns, b + t * delta, family)
@@ -141,9 +141,9 @@ def fit_glm_rows(
     column_names: list[str],
     terms: tuple[str, ...],
     scale: Array,
+    reach: Array,
     start: Array | None = None,
     max_iter: int = 50,
-    tol: float = 1e-13,
 ) -> tuple[Fit, Array | None, Array | None]:
     """Fit exposure + ``columns`` by Newton–Raphson on row sums.
 
@@ -158,6 +158,8 @@ def fit_glm_rows(
         Mean of the outcome and Σ exp(offset), for the start.
     column_names : names of [intercept, columns...].
     scale : standard deviation of [intercept, columns...] (0 for the intercept).
+    reach : largest absolute value of [intercept, columns...] (the stopping rule's scale,
+        see :func:`~covariscope.analysis.fitting_common.newton_done`).
     start : coefficients to start from (length 1 + len(columns)), optional.
 
     Returns
@@ -173,13 +175,13 @@ def fit_glm_rows(
     >>> v = np.column_stack([[0, 0, 1, 1, 0, 1.0], [0, 1, 1, 1, 0, 0.0]])
     >>> fit, params, cov = fit_glm_rows(Whole(v), (0,), "logistic",
     ...     outcome=RowOutcome(0.5, 0.0, 6, True), column_names=["const", "x"], terms=(),
-    ...     scale=np.array([0.0, 0.5]))
+    ...     scale=np.array([0.0, 0.5]), reach=np.ones(2))
     >>> round(fit.coef, 4)  # log(4): odds 1/2 → 2, as the in-memory fit
     1.3863
     """
     p = len(columns) + 1
     b = _start(outcome, family, p) if start is None or np.shape(start) != (p,) else start
-    path = _newton(reducer, columns, family, np.array(b, dtype=np.float64), scale, max_iter, tol)
+    path = _newton(reducer, columns, family, np.array(b, dtype=np.float64), scale, reach, max_iter)
     n = outcome.n
     if path.stop == "aliased":
         clauses = aliased_columns(path.sums.information, column_names) or [
@@ -206,10 +208,12 @@ def fit_glm_rows(
         )
     cov = path.cov
     if family == "risk_ratio":
-        cov, mu_high = _sandwich(reducer, columns, path.params, cov)
-        if outcome.binary and mu_high > 1.0 + 1e-9:
+        # HC0 sandwich, both parts at the last Newton point (as the in-memory fit).
+        assert path.last is not None
+        cov = _sandwich(reducer, columns, path.last, cov)
+        if outcome.binary and s.mu_high > 1.0 + 1e-9:
             warns.append(
-                f"Some fitted risks exceed 1 (largest {mu_high:.3g}); the risk "
+                f"Some fitted risks exceed 1 (largest {s.mu_high:.3g}); the risk "
                 "ratios remain usable but the fitted risks are not."
             )
     total = outcome.mean * n
@@ -237,12 +241,7 @@ def fit_glm_rows(
     return fit, path.params, path.cov
 
 
-def _sandwich(
-    reducer: RowReducer, columns: tuple[int, ...], params: Array, cov: Array
-) -> tuple[Array, float]:
+def _sandwich(reducer: RowReducer, columns: tuple[int, ...], params: Array, cov: Array) -> Array:
     fn = partial(sandwich_sums, columns=columns, params=params)
     sums: SandwichSums = reducer.reduce(fn, merge_sandwich_sums)
-    c = upper_cholesky(sums.bread)
-    if c is not None:
-        cov = inverse_from_cholesky(c)
-    return cov @ sums.meat @ cov, sums.mu_high
+    return cov @ sums.meat @ cov

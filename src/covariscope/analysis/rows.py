@@ -201,31 +201,25 @@ def merge_glm_sums(a: GlmSums, b: GlmSums) -> GlmSums:
 
 @dataclass(frozen=True, eq=False)
 class SandwichSums:
-    """The bread X'diag(μ)X and meat X'diag((y − μ)²)X of a Poisson sandwich."""
+    """The middle term X'diag((y − μ)²)X of a Poisson sandwich."""
 
-    bread: Array
     meat: Array
-    mu_high: float
 
 
 def sandwich_sums(batch: RowBatch, *, columns: tuple[int, ...], params: Array) -> SandwichSums:
-    """Bread and meat of the robust (HC0) covariance of a log-link Poisson fit (Zou 2004)."""
+    """Middle term of the robust (HC0) covariance of a log-link Poisson fit (Zou 2004)."""
     X = _intercept_design(batch.values, columns)
     y = batch.values[:, -1]
     eta = X @ params
     if batch.offset is not None:
         eta = eta + batch.offset
     mu = np.exp(np.minimum(eta, 700.0))
-    return SandwichSums(
-        bread=weighted_crossprod(X, mu),
-        meat=weighted_crossprod(X, (y - mu) ** 2),
-        mu_high=float(np.max(mu)) if len(y) else -math.inf,
-    )
+    return SandwichSums(weighted_crossprod(X, (y - mu) ** 2))
 
 
 def merge_sandwich_sums(a: SandwichSums, b: SandwichSums) -> SandwichSums:
     """Sandwich sums of two disjoint sets of rows."""
-    return SandwichSums(a.bread + b.bread, a.meat + b.meat, max(a.mu_high, b.mu_high))
+    return SandwichSums(a.meat + b.meat)
 
 
 def glm_pass(reducer: RowReducer, columns: tuple[int, ...], params: Array, family: str) -> GlmSums:

@@ -1,16 +1,7 @@
 """The diagram, the project file and edit commands (no Qt)."""
 
 from covariscope.model.diagram import KINDS, Diagram, DiagramEvent, Node
-from covariscope.model.errors import (
-    CovariscopeError,
-    CovariscopeWarning,
-    CycleError,
-    DataError,
-    DiagramError,
-    ProjectFileError,
-)
 from covariscope.model.project import (
-    DEFAULT_THRESHOLDS,
     AnalysisSettings,
     DataRef,
     Project,
@@ -19,20 +10,13 @@ from covariscope.model.project import (
 )
 
 __all__ = [
-    "DEFAULT_THRESHOLDS",
     "KINDS",
     "AnalysisSettings",
-    "CovariscopeError",
-    "CovariscopeWarning",
-    "CycleError",
-    "DataError",
     "DataRef",
     "Diagram",
-    "DiagramError",
     "DiagramEvent",
     "Node",
     "Project",
-    "ProjectFileError",
     "load_project",
     "save_project",
 ]

@@ -3,7 +3,7 @@
 The diagram is the single source of truth that the canvas projects.  Every
 change goes through a method here, which validates it, applies it and tells
 the listeners in a fine-grained :class:`DiagramEvent`.  Refused edits raise a
-:class:`~covariscope.model.errors.DiagramError` whose message the user
+:class:`~covariscope.errors.DiagramError` whose message the user
 interface shows as it is, and leave the diagram unchanged.
 """
 
@@ -16,7 +16,8 @@ from typing import Any
 
 import networkx as nx
 
-from covariscope.model.errors import CycleError, DiagramError
+from covariscope.errors import CycleError, DiagramError
+from covariscope.vocabulary import Kind, group_key
 
 __all__ = [
     "KINDS",
@@ -27,7 +28,7 @@ __all__ = [
 ]
 
 #: Node kinds: the one exposure, the one outcome, and any number of covariates.
-KINDS: tuple[str, ...] = ("exposure", "outcome", "covariate")
+KINDS: tuple[str, ...] = tuple(Kind)
 
 _ID_PATTERN = re.compile(r"^[A-Za-z_][A-Za-z0-9_.\-]*$")
 
@@ -211,7 +212,7 @@ class Diagram:
         groups = _measure_groups(self._nodes, proxies)
         if not groups:
             return None
-        name = {m: "|".join(sorted(g)) for g in groups for m in g}
+        name = {m: group_key(g) for g in groups for m in g}
         merged = nx.DiGraph()
         for a, b in graph.edges:
             ma, mb = name.get(a, a), name.get(b, b)

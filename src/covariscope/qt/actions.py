@@ -11,6 +11,7 @@ from PySide6.QtWidgets import QMenu, QToolBar
 
 from covariscope.qt.diagnostics import FAMILY_LABELS
 from covariscope.qt.icons import icon
+from covariscope.vocabulary import CAUTIONS as VOCABULARY_CAUTIONS
 
 if TYPE_CHECKING:
     from covariscope.qt.main_window import MainWindow
@@ -18,20 +19,23 @@ if TYPE_CHECKING:
 __all__ = ["CAUTIONS", "WindowActions"]
 
 CAUTIONS = (
-    "<p><b>Read the results with these cautions.</b></p>"
-    "<ul>"
-    "<li>The diagram holds assumptions — which variable causes which — that the data "
-    "cannot fully test. A verdict is only as sound as the diagram behind it.</li>"
-    "<li>The thresholds (change in estimate, SE inflation, VIF, condition index) are "
-    "guides from common practice, not rules. Edit them under Analysis ▸ Thresholds.</li>"
-    "<li>Unmeasured confounding is always possible; the E-value says how strong it would "
-    "have to be to explain the estimate away.</li>"
-    "<li>Covariscope supports the analyst's judgment and the study's pre-specified analysis "
-    "plan. It does not replace them.</li>"
-    "</ul>"
+    "<p><b>Read the results with these cautions.</b></p><ul>"
+    + "".join(f"<li>{text}</li>" for text in VOCABULARY_CAUTIONS)
+    + "</ul>"
 )
 
 _Std = QKeySequence.StandardKey
+
+
+def redo_keys(platform: list[QKeySequence] | None = None) -> list[QKeySequence]:
+    """Ctrl+Shift+Z and Ctrl+Y, plus the platform's own Redo keys
+    (``platform``; default: ``QKeySequence.keyBindings(Redo)``), each once."""
+    own = QKeySequence.keyBindings(_Std.Redo) if platform is None else platform
+    keys: list[QKeySequence] = []
+    for key in (QKeySequence("Ctrl+Shift+Z"), QKeySequence("Ctrl+Y"), *own):
+        if not key.isEmpty() and key not in keys:
+            keys.append(key)
+    return keys
 
 
 class WindowActions:
@@ -58,7 +62,10 @@ class WindowActions:
         self.undo = w.undo_stack.createUndoAction(w, "&Undo")
         self.undo.setShortcut(_Std.Undo)
         self.redo = w.undo_stack.createRedoAction(w, "&Redo")
-        self.redo.setShortcuts([QKeySequence("Ctrl+Shift+Z"), QKeySequence(_Std.Redo)])
+        # both common Redo keys, each once: the platform's StandardKey.Redo is
+        # Ctrl+Shift+Z on most Linux desktops, and a key bound twice is
+        # "ambiguous" to Qt, so neither would fire
+        self.redo.setShortcuts(redo_keys())
         self.copy = a("&Copy", w.copy_selection, _Std.Copy)
         self.paste = a("&Paste", w.paste, _Std.Paste)
         self.delete = a("&Delete", lambda: w.scene.delete_selection(), _Std.Delete)

@@ -16,7 +16,7 @@ from covariscope.data.loading import SUPPORTED_SUFFIXES, load_table
 from covariscope.data.sources.base import DataSource
 from covariscope.data.sources.memory import MemorySource
 from covariscope.data.sources.memuse import available_memory
-from covariscope.model.errors import DataError
+from covariscope.errors import DataError
 
 __all__ = ["MEMORY_SHARE", "choose_engine", "estimated_memory", "open_source"]
 

@@ -20,7 +20,7 @@ import pandas as pd
 
 from covariscope.data.sources.batched import BatchSource
 from covariscope.data.sources.memuse import resident_text
-from covariscope.model.errors import DataError
+from covariscope.errors import DataError
 
 __all__ = ["MISSING_EXTRA", "DaskSource"]
 

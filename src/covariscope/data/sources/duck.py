@@ -17,7 +17,7 @@ import pandas as pd
 
 from covariscope.data.sources.batched import BatchSource
 from covariscope.data.sources.memuse import resident_text
-from covariscope.model.errors import DataError
+from covariscope.errors import DataError
 
 __all__ = ["BATCH_ROWS", "DuckSource", "quote_name"]
 

@@ -1,0 +1,183 @@
+"""Facts about one covariate that its verdict sentence needs, read from the diagram.
+
+Paths a collider opens, paths an unmeasured confounder would have closed,
+why confounders form a collinear group and which member to keep.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Callable, Mapping, Sequence
+
+import networkx as nx
+
+from covariscope.analysis.graph import DiagramAnalysis, backdoor_paths, is_sufficient
+from covariscope.analysis.recommend import MemberRanking, rank_members
+
+__all__ = [
+    "group_why",
+    "needed_together",
+    "opened_paths",
+    "stands_for",
+    "suggest_member",
+    "would_close",
+    "would_open",
+]
+
+
+def opened_paths(
+    G: nx.DiGraph, x: str, y: str, proposed: Sequence[str], node: str
+) -> tuple[tuple[str, ...], ...]:
+    """Backdoor paths open given the proposed set but closed without ``node``."""
+    with_open = {p.nodes for p in backdoor_paths(G, x, y, proposed).paths if p.open}
+    rest = [p for p in proposed if p != node]
+    without_open = {p.nodes for p in backdoor_paths(G, x, y, rest).paths if p.open}
+    return tuple(sorted(with_open - without_open))
+
+
+def would_close(da: DiagramAnalysis, node: str) -> tuple[tuple[str, ...], ...]:
+    facts = da.roles[node]
+    paths = da.paths.paths
+    out = [
+        paths[i].nodes
+        for i, collider in facts.on_paths
+        if not collider and i < len(paths) and paths[i].open
+    ]
+    return tuple(out)
+
+
+def would_open(da: DiagramAnalysis, node: str) -> tuple[tuple[str, ...], ...]:
+    """Blocked backdoor paths on which ``node`` is a collider (or descends from one)."""
+    facts = da.roles[node]
+    paths = da.paths.paths
+    return tuple(
+        paths[i].nodes for i, collider in facts.on_paths if i < len(paths) and not paths[i].open
+    )
+
+
+def group_why(
+    group: Sequence[str],
+    proxy_groups: Sequence[Sequence[str]],
+    r2_pairs: Mapping[tuple[str, str], float],
+    flagged: Sequence[Sequence[str]],
+    r2_guide: float,
+    names: Mapping[str, str],
+    member: str | None = None,
+) -> str:
+    """Why confounders form a collinear group, as a clause naming the numbers.
+
+    With ``member``, an R² that involves that member is named first, so the
+    clause speaks of the covariate whose verdict it explains.
+    """
+    members = set(group)
+    reasons: list[str] = []
+    if any(len(members & set(g)) >= 2 for g in proxy_groups):
+        reasons.append("a proxy link joins them")
+    high = sorted(
+        (
+            (member in (a, b), r2, a, b)
+            for (a, b), r2 in r2_pairs.items()
+            if {a, b} <= members and r2 >= r2_guide
+        ),
+        reverse=True,
+    )
+    if high:
+        own, r2, a, b = high[0]
+        if len(members) == 2:
+            who = "their R²"
+        elif own:
+            other = b if a == member else a
+            who = f"its R² with {names.get(other, other)}"
+        else:
+            who = f"the {names.get(a, a)}–{names.get(b, b)} R²"
+        reasons.append(f"{who} is {r2:.3g} against the guide {r2_guide:g}")
+    if any(len(members & set(d)) >= 2 for d in flagged):
+        reasons.append("they share a dimension with a high condition index")
+    if len(reasons) > 1:
+        return ", ".join(reasons[:-1]) + " and " + reasons[-1]
+    return reasons[0] if reasons else ""
+
+
+def needed_together(
+    G: nx.DiGraph, x: str, y: str, group: Sequence[str], base: Sequence[str]
+) -> tuple[str, ...]:
+    """Members of a collinear group that the diagram needs whichever other is kept.
+
+    Empty when some member alone, with the rest of ``base`` (the adjustment
+    set in use), gives a sufficient set (then one of them is to be kept), or
+    when the rest with the whole group is not sufficient either.  Otherwise
+    the members whose removal, with every other member kept, leaves the set
+    insufficient.
+    """
+    rest = [m for m in base if m not in group]
+    if any(is_sufficient(G, x, y, [*rest, m]) for m in group):
+        return ()
+    if not is_sufficient(G, x, y, [*rest, *group]):
+        return ()
+    return tuple(
+        m for m in group if not is_sufficient(G, x, y, [*rest, *(o for o in group if o != m)])
+    )
+
+
+def stands_for(G: nx.DiGraph, da: DiagramAnalysis, node: str) -> tuple[str, ...]:
+    return tuple(
+        sorted(
+            a for a in nx.ancestors(G, node) if a in da.roles and da.roles[a].role == "confounder"
+        )
+    )
+
+
+def suggest_member(
+    group: Sequence[str],
+    alone: Sequence[str],
+    *,
+    chosen: str | None,
+    recommended: Sequence[str],
+    proposed: Sequence[str],
+    rest: Sequence[str],
+    estimate_of: Callable[[tuple[str, ...]], float | None],
+    se_of: Callable[[tuple[str, ...]], float | None],
+    names: Mapping[str, str],
+) -> tuple[str | None, str]:
+    """The member of a collinear group to keep, and why (a clause).
+
+    The saved choice wins; then the member the proposed set holds alone;
+    then the member that carries the most of the confounding
+    (:func:`~covariscope.analysis.recommend.rank_members`), the standard
+    error deciding only between equivalent members.
+    """
+    if chosen in group:
+        return chosen, "it is the saved choice"
+    in_rec = [m for m in group if m in recommended]
+    in_proposed = [m for m in group if m in proposed]
+    if len(in_proposed) == 1 and in_proposed[0] in alone:
+        return in_proposed[0], "it is the member in the proposed set"
+    ranking = rank_members(
+        [m for m in group if m in alone] or group, rest, estimate_of=estimate_of, se_of=se_of
+    )
+    pick = ranking.best or (in_rec[0] if in_rec else (alone[0] if alone else None))
+    if pick is None:
+        return None, ""
+    if ranking.best is None or ranking.whole is None or len(ranking.alone) < 2:
+        if pick in in_rec:
+            return pick, "it is the member in the recommended set"
+        return pick, "it alone gives a sufficient set"
+    return pick, _carries_most(ranking, pick, names)
+
+
+def _carries_most(ranking: MemberRanking, pick: str, names: Mapping[str, str]) -> str:
+    """Why ``pick`` is kept, naming the estimates (and the SEs when they decided)."""
+    others = ", ".join(
+        f"{b:.4g} with {names.get(m, m)}" for m, b in sorted(ranking.alone.items()) if m != pick
+    )
+    if ranking.by_se:
+        return (
+            "the members move the exposure estimate alike, and its set gives the smaller "
+            f"standard error ({ranking.se.get(pick, math.nan):.4g})"
+        )
+    return (
+        "it carries the most of the confounding: adjusting for it alone gives an exposure "
+        f"estimate of {ranking.alone[pick]:.4g}, the closest to {ranking.whole:.4g} with the "
+        f"whole group (against {others}); a noisier measure leaves residual confounding even "
+        "when its standard error looks smaller"
+    )

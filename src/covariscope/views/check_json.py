@@ -1,0 +1,131 @@
+"""The ``covariscope check --json`` object of a study.
+
+Ids are the keys; the schema ships in ``schemas/check.schema.json``.
+"""
+
+from __future__ import annotations
+
+import math
+from typing import Any
+
+import numpy as np
+
+from covariscope.analysis.evidence import Comparison
+from covariscope.analysis.fits import Fit
+from covariscope.study.result import ESTIMATE_KEYS, StudyResult
+
+__all__ = ["study_to_json"]
+
+
+def _clean(value: Any) -> Any:
+    """JSON-safe: NaN and infinities become null, tuples lists."""
+    if isinstance(value, float | np.floating):
+        v = float(value)
+        return v if math.isfinite(v) else None
+    if isinstance(value, np.integer):
+        return int(value)
+    if isinstance(value, dict):
+        return {str(k): _clean(v) for k, v in value.items()}
+    if isinstance(value, list | tuple):
+        return [_clean(v) for v in value]
+    return value
+
+
+def _fit_json(fit: Fit | None) -> dict[str, Any] | None:
+    if fit is None:
+        return None
+    return {
+        "coef": fit.coef,
+        "se": fit.se,
+        "ci": list(fit.ci),
+        "ratio": fit.ratio,
+        "ratio_ci": list(fit.ratio_ci) if fit.ratio_ci is not None else None,
+        "n": fit.n,
+        "ok": fit.ok,
+        "message": fit.message or None,
+    }
+
+
+def _cmp_json(
+    c: Comparison | None, *, with_vif: float | None = None, added: bool
+) -> dict[str, Any] | None:
+    if c is None:
+        return None
+    out: dict[str, Any] = {
+        "change_pct": c.change_pct if c.change_defined else None,
+        "change_pct_ratio": c.change_pct_ratio,
+        "se_inflation_pct": c.se_inflation_pct,
+    }
+    if added:
+        out["vif_exposure"] = with_vif
+    return out
+
+
+def study_to_json(result: StudyResult) -> dict[str, Any]:
+    """The ``covariscope check --json`` object (schema: schemas/check.schema.json).
+
+    Fields that do not apply are null, never absent.
+    """
+    out: dict[str, Any] = {}
+    review = result.diagram.review
+    for key, value in result.diagram.to_json().items():
+        out[key] = value
+        if key == "open_paths":
+            # ``open_paths`` lists at most 500; the count says how many there are.
+            out["open_paths_total"] = review.open_paths_total
+            out["open_paths_total_exact"] = review.open_paths_total_exact
+    out["proposed"] = list(result.proposed)
+    ev = result.evidence
+    sample = result.sample
+    out["family"] = result.family
+    out["effect_measure"] = result.effect_measure
+    out["data"] = (
+        {"name": result.data_name, "sha256": result.data_sha256} if result.data_name else None
+    )
+    out["sample"] = (
+        {
+            "rows": sample.rows,
+            "used": sample.used,
+            "missing_by_column": dict(sample.missing_by_column),
+        }
+        if sample is not None and ev is not None
+        else None
+    )
+    out["estimates"] = {k: _fit_json(result.estimates.get(k)) for k in ESTIMATE_KEYS}
+    out["recommended"] = list(result.recommended)
+    covariates: dict[str, Any] = {}
+    for c, v in result.verdicts.items():
+        e = ev.covariates.get(c) if ev is not None else None
+        covariates[c] = {
+            "role": result.diagram.roles[c].role,
+            "verdict": v.code,
+            "label": v.label,
+            "reason": v.reason,
+            "group": list(v.group) if v.group else None,
+            "suggested": v.suggested,
+            "added": _cmp_json(e.added, with_vif=e.vif_exposure_added, added=True) if e else None,
+            "dropped": _cmp_json(e.dropped, added=False) if e else None,
+            "vif": e.vif if e else None,
+            "tolerance": e.tolerance if e else None,
+            "aux_r2": e.aux_r2 if e else None,
+            "r2_exposure": e.r2_exposure if e else None,
+        }
+    out["covariates"] = covariates
+    # Data-level groups (members may all be ``adjust``); keep_one_groups are the
+    # ones a script may reduce to a single member.
+    out["collinear_groups"] = [list(g) for g in result.collinear_groups]
+    out["keep_one_groups"] = [list(g) for g in result.keep_one_groups]
+    out["evalue"] = (
+        {
+            "estimate": result.evalue.estimate,
+            "ci": result.evalue.ci,
+            "conversion": result.evalue.conversion,
+        }
+        if result.evalue is not None
+        else None
+    )
+    out["thresholds"] = dict(result.thresholds)
+    out["disagreements"] = list(result.disagreements)
+    out["messages"] = list(result.messages)
+    cleaned: dict[str, Any] = _clean(out)
+    return cleaned

@@ -1,0 +1,161 @@
+"""The readable review that ``covariscope check`` prints."""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Iterable
+
+from covariscope.analysis.fits import Fit
+from covariscope.analysis.verdicts import format_set
+from covariscope.study.result import ESTIMATE_KEYS, StudyResult
+from covariscope.vocabulary import (
+    CAUTIONS,
+    RATIO_FAMILIES,
+    ROLE_TERMS,
+    VERDICT_TERMS,
+    change_read,
+    role_label,
+    verdict_label,
+)
+
+__all__ = ["OPEN_PATHS_SHOWN", "format_study_text"]
+
+#: Open backdoor paths the readable review lists; the rest are counted.
+OPEN_PATHS_SHOWN = 5
+
+
+def _fmt(value: float | None, spec: str = ".1f", suffix: str = "") -> str:
+    if value is None or not math.isfinite(value):
+        return "–"
+    if spec.endswith("f") and not round(value, int(spec[-2])):
+        value = 0.0  # never "-0.0"
+    return f"{value:{spec}}{suffix}"
+
+
+def _estimate_line(name: str, fit: Fit | None, measure: str) -> str:
+    if fit is None:
+        return f"  {name:<12} not fitted"
+    if not fit.ok:
+        return f"  {name:<12} could not be fitted: {fit.message}"
+    if fit.ratio is not None and fit.ratio_ci is not None:
+        lo, hi = fit.ratio_ci
+        return f"  {name:<12} {measure} {fit.ratio:.3f} (95% CI {lo:.3f} to {hi:.3f}), n = {fit.n}"
+    lo, hi = fit.ci
+    return (
+        f"  {name:<12} {measure} {fit.coef:.3f} (95% CI {lo:.3f} to {hi:.3f}), "
+        f"SE {fit.se:.3f}, n = {fit.n}"
+    )
+
+
+def format_study_text(result: StudyResult) -> str:
+    """The readable review that ``covariscope check`` prints."""
+    t = result.thresholds
+    nm = result.name
+
+    def named(ids: Iterable[str]) -> str:
+        return format_set(nm(i) for i in ids)
+
+    width = min(24, max([9, *(len(nm(c)) for c in result.verdicts)]))
+    lines = [
+        f"Effect of {nm(result.exposure)} on {nm(result.outcome)} ({result.family} model, "
+        f"{result.effect_measure})",
+        f"Data: {result.data_name or 'none'}"
+        + (
+            f"; {result.sample.used} of {result.sample.rows} rows used (complete cases)"
+            if result.sample is not None and result.evidence is not None
+            else ""
+        ),
+        f"Guides (not rules): change {t['change_pct']:g}%, SE inflation {t['se_inflation_pct']:g}%, "
+        f"VIF {t['vif']:g}, R² {t['r2']:g}, condition index {t['condition_index']:g}",
+        "",
+    ]
+    ev = result.evidence
+    role_w = max(len(t.label) for t in ROLE_TERMS.values())
+    verdict_w = max(len(t.label) for t in VERDICT_TERMS.values())
+    header = (
+        f"{'covariate':<{width}} {'role':<{role_w}} {'verdict':<{verdict_w}} {'change %':>9} "
+        f"{'SE infl %':>10} {'VIF':>7}"
+    )
+    lines += [header, "-" * len(header)]
+    for c, v in result.verdicts.items():
+        e = ev.covariates.get(c) if ev is not None else None
+        change = se = vif = None
+        if e is not None:
+            change = change_read(
+                e.added.change_pct if e.added.change_defined else None,
+                e.added.change_pct_ratio,
+                ratio=result.family in RATIO_FAMILIES,
+            )
+            se = e.added.se_inflation_pct
+            vif = e.vif  # of the covariate in the full model; none when it is not a candidate
+        lines.append(
+            f"{nm(c)[:width]:<{width}} {role_label(result.diagram.roles[c].role):<{role_w}} "
+            f"{verdict_label(v.code):<{verdict_w}} {_fmt(change, '+.1f'):>9} "
+            f"{_fmt(se, '+.1f'):>10} {_fmt(vif, '.2f'):>7}"
+        )
+    lines.append(
+        "change % and SE infl %: the covariate added alone to the crude model; "
+        "VIF: the covariate in the full model (– when it is not a candidate)."
+    )
+    lines.append("")
+    lines.append("Reasons:")
+    for c, v in result.verdicts.items():
+        lines.append(f"  {nm(c)}: {v.reason}")
+    lines.append("")
+    da = result.diagram
+    sets = "; ".join(named(s) for s in da.minimal_sets) or "none (not identified by adjustment)"
+    lines.append(f"Minimal sufficient sets: {sets}")
+    lines.append(
+        f"Proposed set: {named(result.proposed)} — "
+        + (
+            "sufficient"
+            if da.review.sufficient
+            else f"NOT sufficient ({da.review.open_paths_text()} open path(s))"
+        )
+    )
+    if da.review.open_paths:
+        shown = da.review.open_paths[:OPEN_PATHS_SHOWN]
+        for p in shown:
+            lines.append(f"    open: {' – '.join(nm(n) for n in p)}")
+        if len(shown) < da.review.open_paths_total or not da.review.open_paths_total_exact:
+            lines.append(f"    showing {len(shown)} of {da.review.open_paths_text()} open paths")
+    if da.review.harmful:
+        lines.append(f"    harmful: {', '.join(nm(n) for n in da.review.harmful)}")
+    if da.review.unnecessary:
+        lines.append(f"    unnecessary: {', '.join(nm(n) for n in da.review.unnecessary)}")
+    lines.append(f"Recommended set: {named(result.recommended) if result.recommended else 'none'}")
+    if result.recommended_reason:
+        lines.append(f"    {result.recommended_reason}")
+    if result.collinear_groups:
+        keep_one = result.keep_one_groups
+        described = []
+        for g in result.collinear_groups:
+            inside = [k for k in keep_one if set(k) <= set(g)]
+            needed = [m for m in g if not any(m in k for k in inside)]
+            if not inside:
+                note = "the diagram needs every member"
+            elif not needed:
+                note = "keep one"
+            else:
+                note = "; ".join(f"keep one of {named(k)}" for k in inside)
+                note += f"; the diagram needs {', '.join(nm(m) for m in needed)}"
+            described.append(f"{named(g)} ({note})")
+        lines.append("Collinear groups: " + "; ".join(described))
+    lines.append("")
+    if ev is not None:
+        lines.append("Estimates:")
+        for key in ESTIMATE_KEYS:
+            lines.append(_estimate_line(key, result.estimates.get(key), result.effect_measure))
+        if result.evalue is not None:
+            lines.append(
+                f"E-value (recommended): {result.evalue.estimate:.2f} for the estimate, "
+                f"{result.evalue.ci:.2f} for the CI limit nearer the null ({result.evalue.conversion})"
+            )
+        lines.append("")
+    if result.disagreements:
+        lines.append("Where diagram and data disagree:")
+        lines += [f"  - {d}" for d in result.disagreements]
+        lines.append("")
+    lines.append("Cautions:")
+    lines += [f"  - {m}" for m in (*result.messages, *CAUTIONS)]
+    return "\n".join(lines) + "\n"

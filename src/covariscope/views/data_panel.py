@@ -1,0 +1,170 @@
+"""The data panel: the dataset's columns with inferred type, missing share
+and the node each is bound to, and which measured nodes still lack a column."""
+
+from __future__ import annotations
+
+from collections.abc import Iterable, Mapping
+from dataclasses import dataclass
+from typing import Any
+
+from covariscope.data.loading import FORMAT_LABELS, SUPPORTED_SUFFIXES
+from covariscope.views.format import DASH, is_number
+from covariscope.vocabulary import ColumnType
+
+__all__ = [
+    "COLUMN_MIME",
+    "COLUMN_TYPES",
+    "DATA_COLUMNS",
+    "DATA_COLUMN_TIPS",
+    "ColumnRow",
+    "column_rows",
+    "data_file_filter",
+    "matching_bindings",
+    "nodes_without_column",
+    "unbound_summary",
+]
+
+#: Drag-and-drop type of a column dragged from the panel: UTF-8 column name.
+COLUMN_MIME = "application/x-covariscope-column"
+
+#: Types a column can be given (the models' term types).
+COLUMN_TYPES: tuple[str, ...] = (
+    ColumnType.CONTINUOUS,
+    ColumnType.BINARY,
+    ColumnType.COUNT,
+    ColumnType.CATEGORICAL,
+)
+
+#: Header words, short so the five columns fit a narrow dock.
+DATA_COLUMNS: tuple[str, ...] = ("Column", "Type", "Missing", "Node", "Ref.")
+
+#: What each header word means in full (header tooltips).
+DATA_COLUMN_TIPS: tuple[str, ...] = (
+    "The column's name in the data file; drag it onto the diagram to add a node bound to it",
+    "How the models treat it; * marks a type you set (Type ▸ As inferred undoes it)",
+    "Share of rows with no value in this column",
+    "The diagram node bound to this column",
+    "Reference level of a binary or categorical column",
+)
+
+
+@dataclass(frozen=True)
+class ColumnRow:
+    name: str
+    type: str
+    type_overridden: bool
+    missing: str
+    bound_to: str
+    reference: str
+    levels: tuple[Any, ...]
+    #: as the user reads them: with the file's value labels where it has them
+    reference_text: str = ""
+    level_texts: tuple[str, ...] = ()
+
+    def cells(self) -> tuple[str, ...]:
+        type_text = f"{self.type}*" if self.type_overridden else self.type
+        return (
+            self.name,
+            type_text,
+            self.missing,
+            self.bound_to,
+            self.reference_text or self.reference,
+        )
+
+
+def column_rows(
+    project: Any, columns: Iterable[str], profiles: Mapping[str, Any] | None
+) -> list[ColumnRow]:
+    """One row per data column, in file order."""
+    profiles = profiles or {}
+    overrides = project.analysis.column_types
+    refs = project.analysis.reference_levels
+    bound: dict[str, list[str]] = {}
+    for node in project.diagram.nodes:
+        if node.column:
+            bound.setdefault(node.column, []).append(node.id)
+    rows = []
+    for name in columns:
+        prof = profiles.get(name)
+        ctype = overrides.get(name) or getattr(prof, "type", None) or DASH
+        missing = getattr(prof, "missing_pct", None)
+        ref = refs.get(name, getattr(prof, "reference", None))
+        levels = tuple(getattr(prof, "levels", ()) or ())
+        rows.append(
+            ColumnRow(
+                name=name,
+                type=str(ctype),
+                type_overridden=name in overrides,
+                missing=f"{missing:.1f}%" if is_number(missing) else DASH,
+                bound_to=", ".join(bound.get(name, [])),
+                reference="" if ref is None else str(ref),
+                levels=levels,
+                reference_text="" if ref is None else _level_text(prof, ref),
+                level_texts=tuple(_level_text(prof, v) for v in levels),
+            )
+        )
+    return rows
+
+
+def _level_text(profile: Any, level: Any) -> str:
+    """A level with its value label where the file carries one (Stata, SPSS)."""
+    text = getattr(profile, "level_text", None)
+    return text(level) if callable(text) else str(level)
+
+
+def nodes_without_column(project: Any) -> list[str]:
+    """Measured nodes that have no column yet (unmeasured ones need none)."""
+    return [n.id for n in project.diagram.nodes if n.measured and not n.column]
+
+
+def unbound_summary(project: Any, has_data: bool) -> str:
+    """One line for the foot of the panel."""
+    missing = nodes_without_column(project)
+    if not project.diagram.nodes:
+        return "No nodes yet: drag a column onto the diagram to add one."
+    if not missing:
+        return "Every measured node has a column."
+    names = ", ".join(missing)
+    if not has_data:
+        return f"No data loaded; nodes without a column: {names}."
+    return f"Nodes without a column: {names}."
+
+
+def matching_bindings(project: Any, columns: Iterable[str]) -> dict[str, str]:
+    """Node id → column for unbound nodes whose id (or label) names a column
+    that no node is bound to yet: exact match first, then ignoring case."""
+    columns = list(columns)
+    taken = {n.column for n in project.diagram.nodes if n.column}
+    free = [c for c in columns if c not in taken]
+    by_lower: dict[str, list[str]] = {}
+    for c in free:
+        by_lower.setdefault(c.lower(), []).append(c)
+    out: dict[str, str] = {}
+    for node in project.diagram.nodes:
+        if node.column or not node.measured:
+            continue
+        for key in (node.id, node.label):
+            if key in free and key not in out.values():
+                out[node.id] = key
+                break
+            candidates = [c for c in by_lower.get(key.lower(), []) if c not in out.values()]
+            if len(candidates) == 1:
+                out[node.id] = candidates[0]
+                break
+    return out
+
+
+def data_file_filter() -> str:
+    """The open-file filter: every extension the loader reads, then one entry
+    per format, then all files.
+
+    >>> "*.parquet" in data_file_filter()
+    True
+    """
+    every = " ".join(f"*{suffix}" for suffix in SUPPORTED_SUFFIXES)
+    per_format = [
+        f"{label[:1].upper()}{label[1:]} ({' '.join(f'*{s}' for s, fmt in SUPPORTED_SUFFIXES.items() if fmt == key)})"
+        for key, label in FORMAT_LABELS.items()
+        if key in SUPPORTED_SUFFIXES.values()
+    ]
+    return ";;".join([f"Data files ({every})", *per_format, "All files (*)"])

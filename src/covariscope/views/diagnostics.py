@@ -1,0 +1,333 @@
+"""The diagnostics dialog's content for one node, as plain rows and text.
+
+For a covariate: the conceptual checklist in words, the role and verdict,
+the numeric table of the four comparison models (crude, crude + C, full,
+full − C), the collinearity figures and the data the two plots draw.  For
+the exposure or the outcome: its missing data and the model family.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Mapping
+from dataclasses import dataclass, field
+from typing import Any
+
+from covariscope.views.estimates import display_scale
+from covariscope.views.format import DASH, is_number, number, percent
+from covariscope.views.review import change_value, role_words
+from covariscope.vocabulary import CAUTIONS
+
+__all__ = [
+    "DIAGNOSTIC_CAUTION",
+    "EndpointDiagnostics",
+    "ModelRow",
+    "NodeDiagnostics",
+    "checklist",
+    "endpoint_diagnostics",
+    "node_diagnostics",
+    "node_labels",
+]
+
+#: The cautions, as the dialog shows them under its figures.
+DIAGNOSTIC_CAUTION = " ".join(CAUTIONS)
+
+
+@dataclass(frozen=True)
+class ModelRow:
+    """One comparison model in the numeric table."""
+
+    model: str
+    estimate: str
+    ci: str
+    change: str
+    se_inflation: str
+    #: (label, estimate, low, high) on the display scale, for the plot
+    point: tuple[str, float, float, float] | None = None
+
+
+@dataclass(frozen=True)
+class NodeDiagnostics:
+    node: str
+    label: str
+    title: str
+    role: str
+    verdict: str
+    reason: str
+    checklist: tuple[str, ...]
+    models: tuple[ModelRow, ...]
+    figures: tuple[tuple[str, str], ...]
+    effect_measure: str
+    messages: tuple[str, ...] = ()
+    note: str = ""
+    column: str | None = None
+    exposure_column: str | None = None
+    exposure_label: str = ""
+    categorical: bool = False
+    numbers: dict[str, Any] = field(default_factory=dict)
+
+
+@dataclass(frozen=True)
+class EndpointDiagnostics:
+    node: str
+    label: str
+    kind: str
+    title: str
+    column: str | None
+    family: str
+    effect_measure: str
+    missing: str
+    lines: tuple[str, ...]
+    note: str = ""
+
+
+def _name(step: str, labels: Mapping[str, str]) -> str:
+    """A path step in the user's words; a measure group ("a|b") names each member."""
+    return " | ".join(labels.get(part, part) for part in step.split("|"))
+
+
+def _path_text(nodes: tuple[str, ...], labels: Mapping[str, str] | None = None) -> str:
+    return " – ".join(_name(n, labels or {}) for n in nodes)
+
+
+def node_labels(project: Any) -> dict[str, str]:
+    """Node id → the label the user gave it (the id when there is none)."""
+    return {n.id: (n.label or n.id) for n in project.diagram.nodes}
+
+
+def _paths(result: Any) -> tuple[Any, ...]:
+    listing = getattr(getattr(result, "diagram", None), "paths", None)
+    return tuple(getattr(listing, "paths", ()) or ())
+
+
+def checklist(
+    node_id: str, result: Any, labels: Mapping[str, str] | None = None
+) -> tuple[str, ...]:
+    """The classical criteria in words, from the diagram's facts about
+    ``node_id``; variables are named by ``labels`` (node id → label) where given."""
+    facts = getattr(getattr(result, "diagram", None), "roles", {}).get(node_id)
+    if facts is None:
+        return ("The diagram has not been analysed yet.",)
+    labels = labels or {}
+    exposure = getattr(result, "exposure", None)
+    outcome = getattr(result, "outcome", None)
+    exposure = labels.get(exposure, exposure) if exposure else "the exposure"
+    outcome = labels.get(outcome, outcome) if outcome else "the outcome"
+    paths = _paths(result)
+    on = list(getattr(facts, "on_paths", ()) or ())
+    through = [paths[i] for i, collider in on if not collider and i < len(paths)]
+    as_collider = [paths[i] for i, collider in on if collider and i < len(paths)]
+    lines = []
+    if through:
+        shown = "; ".join(_path_text(p.nodes, labels) for p in through[:3])
+        more = f" (and {len(through) - 3} more)" if len(through) > 3 else ""
+        lines.append(f"Associated with {exposure}: yes, through the backdoor path {shown}{more}.")
+    elif getattr(facts, "ancestor_of_exposure", False):
+        lines.append(f"Associated with {exposure}: yes, it is a cause of {exposure}.")
+    elif getattr(facts, "descendant_of_exposure", False):
+        lines.append(f"Associated with {exposure}: yes, as its consequence.")
+    else:
+        lines.append(f"Associated with {exposure}: not through any open path in the diagram.")
+    if getattr(facts, "descendant_of_outcome", False):
+        lines.append(
+            f"Affects {outcome} apart from {exposure}: no, it is a consequence of {outcome}."
+        )
+    elif getattr(facts, "ancestor_of_outcome", False):
+        lines.append(f"Affects {outcome} apart from {exposure}: yes, it is a cause of {outcome}.")
+    else:
+        lines.append(
+            f"Affects {outcome} apart from {exposure}: no, the diagram has no such arrow path."
+        )
+    mediator = getattr(facts, "role", "") == "mediator"
+    lines.append(
+        f"On the causal pathway from {exposure} to {outcome}: "
+        + ("yes — adjusting for it would remove part of the effect." if mediator else "no.")
+    )
+    if as_collider:
+        shown = "; ".join(_path_text(p.nodes, labels) for p in as_collider[:3])
+        lines.append(f"Collider: yes, on {shown} — adjusting for it would open that path.")
+    else:
+        lines.append("Collider: not on any backdoor path.")
+    if getattr(facts, "common_cause", False):
+        lines.append(f"Common cause of {exposure} and {outcome}: yes.")
+    return tuple(lines)
+
+
+def _row(title: str, fit: Any, family: str, change: Any = None, se: Any = None) -> ModelRow:
+    shown = display_scale(fit, family)
+    if shown is None:
+        why = getattr(fit, "message", "") if fit is not None else ""
+        return ModelRow(title, DASH, why or "not fitted", DASH, DASH)
+    est, lo, hi = shown
+    return ModelRow(
+        title,
+        number(est),
+        f"{number(lo)} to {number(hi)}",
+        percent(change) if change is not None else "",
+        percent(se) if se is not None else "",
+        (title, est, lo, hi),
+    )
+
+
+def node_diagnostics(
+    project: Any, result: Any, node_id: str, profiles: Any = None
+) -> NodeDiagnostics:
+    """Everything the covariate diagnostics dialog shows for ``node_id``."""
+    node = project.diagram.node(node_id)
+    labels = node_labels(project)
+    name = node.label or node_id
+    family = getattr(result, "family", None) or project.analysis.family
+    facts = getattr(getattr(result, "diagram", None), "roles", {}).get(node_id) if result else None
+    verdict = (getattr(result, "verdicts", None) or {}).get(node_id) if result else None
+    evidence = getattr(result, "evidence", None) if result else None
+    ev = (getattr(evidence, "covariates", None) or {}).get(node_id)
+    added = getattr(ev, "added", None)
+    dropped = getattr(ev, "dropped", None)
+    models: list[ModelRow] = []
+    if ev is not None:
+        models = [
+            _row(
+                "Crude",
+                getattr(added, "without_fit", None) or getattr(evidence, "crude", None),
+                family,
+            ),
+            _row(
+                f"Crude + {name}",
+                getattr(added, "with_fit", None),
+                family,
+                change_value(added, family),
+                getattr(added, "se_inflation_pct", None),
+            ),
+            _row(
+                "Full",
+                getattr(dropped, "with_fit", None) or getattr(evidence, "full", None),
+                family,
+                change_value(dropped, family),
+                getattr(dropped, "se_inflation_pct", None),
+            ),
+            _row(f"Full − {name}", getattr(dropped, "without_fit", None), family),
+        ]
+    figures: list[tuple[str, str]] = []
+    numbers: dict[str, Any] = {}
+    if ev is not None:
+        vif = getattr(ev, "vif", None)
+        vif_x = getattr(ev, "vif_exposure_added", None)
+        if not is_number(vif_x):
+            r2x = getattr(ev, "r2_exposure", None)
+            vif_x = 1.0 / (1.0 - r2x) if is_number(r2x) and r2x < 1 else None
+        numbers = {
+            "vif": vif,
+            "tolerance": getattr(ev, "tolerance", None),
+            "aux_r2": getattr(ev, "aux_r2", None),
+            "gvif": getattr(ev, "gvif", None),
+            "gvif_root": getattr(ev, "gvif_root", None),
+            "vif_exposure": vif_x,
+        }
+        multi = int(getattr(ev, "df", 1) or 1) > 1 and is_number(numbers["gvif"])
+        vif_label = "GVIF^(1/df)" if multi else "VIF"
+        figures += [
+            (f"{vif_label} of {name} in the full model", number(vif)),
+            ("Tolerance (1 / VIF)", number(numbers["tolerance"], 3)),
+            ("Auxiliary R² (1 − 1 / VIF)", number(numbers["aux_r2"], 3)),
+        ]
+        if multi:
+            figures += [
+                ("Generalized VIF (Fox & Monette 1992)", number(numbers["gvif"])),
+                ("GVIF^(1/(2·df))", number(numbers["gvif_root"], 3)),
+            ]
+        figures.append((f"VIF of the exposure in crude + {name}", number(vif_x)))
+        figures += _own(name, getattr(ev, "own_coef", None), getattr(ev, "own_ci", None))
+        for name, comparison in (("adding", added), ("dropping", dropped)):
+            parts = getattr(comparison, "se_ratio_parts", None)
+            if parts:
+                figures += _se_parts(name, parts)
+    messages = list(getattr(result, "messages", ()) or ()) if result else []
+    prof = (profiles or {}).get(node.column) if node.column else None
+    ctype = project.analysis.column_types.get(node.column or "") or getattr(prof, "type", None)
+    exposure = project.diagram.exposure
+    return NodeDiagnostics(
+        node=node_id,
+        label=node.label,
+        title=f"Diagnostics — {node.label}",
+        role=role_words(getattr(facts, "role", None)),
+        verdict=getattr(verdict, "label", None) or ("Pending" if result is None else DASH),
+        reason=getattr(verdict, "reason", "") or "",
+        checklist=checklist(node_id, result, labels) if result else ("Waiting for the analysis.",),
+        models=tuple(models),
+        figures=tuple(figures),
+        effect_measure=getattr(result, "effect_measure", "") or "",
+        messages=tuple(messages),
+        note=node.note,
+        column=node.column,
+        exposure_column=exposure.column if exposure else None,
+        exposure_label=exposure.label if exposure else "",
+        categorical=ctype in ("binary", "categorical"),
+        numbers=numbers,
+    )
+
+
+def _own(node_id: str, coef: Any, ci: Any) -> list[tuple[str, str]]:
+    """The covariate's own coefficient in crude + C (one per level when multi-level)."""
+    if isinstance(coef, dict):
+        items = [(k, v, (ci or {}).get(k)) for k, v in coef.items()]
+    elif is_number(coef):
+        items = [(node_id, coef, ci)]
+    else:
+        return []
+    out = []
+    for name, value, interval in items:
+        ci_text = f" (95% CI {number(interval[0])} to {number(interval[1])})" if interval else ""
+        out.append((f"Coefficient of {name} given the exposure", number(value) + ci_text))
+    return out
+
+
+def _se_parts(name: str, parts: Any) -> list[tuple[str, str]]:
+    """The linear SE-ratio split on ``name`` the covariate: variance
+    inflation × residual variance × degrees of freedom = SE ratio."""
+    labels = ("variance inflation", "residual variance", "degrees of freedom")
+    values = [float(v) for v in parts]
+    out = [
+        (f"SE ratio on {name}: {label} part", number(v, 3))
+        for label, v in zip(labels, values, strict=False)
+    ]
+    out.append((f"SE ratio on {name} (product of the parts)", number(math.prod(values), 3)))
+    return out
+
+
+def endpoint_diagnostics(
+    project: Any, result: Any, node_id: str, profiles: Any = None
+) -> EndpointDiagnostics:
+    """The exposure's or outcome's dialog: missing data and the family."""
+    node = project.diagram.node(node_id)
+    family = project.analysis.family
+    sample = getattr(result, "sample", None) if result else None
+    prof = (profiles or {}).get(node.column) if node.column else None
+    missing_pct = getattr(prof, "missing_pct", None)
+    missing = f"{missing_pct:.1f}% of the rows" if is_number(missing_pct) else DASH
+    lines = []
+    if node.column is None:
+        lines.append(f"{node.label} has no data column yet: bind one in the data panel.")
+    if sample is not None:
+        rows, used = getattr(sample, "rows", None), getattr(sample, "used", None)
+        if rows is not None and used is not None:
+            lines.append(
+                f"Analytic sample: {used:,} of {rows:,} rows (complete cases on every "
+                "candidate covariate)."
+            )
+        lost = (getattr(sample, "lost_by_column", None) or {}).get(node.column or "")
+        if lost:
+            lines.append(f"Rows lost to missing {node.column}: {lost:,}.")
+    if result is not None and getattr(result, "effect_measure", None):
+        lines.append(f"Effect measure: {result.effect_measure}.")
+    return EndpointDiagnostics(
+        node=node_id,
+        label=node.label,
+        kind=node.kind,
+        title=f"{node.kind.capitalize()} — {node.label}",
+        column=node.column,
+        family=family,
+        effect_measure=getattr(result, "effect_measure", "") or "",
+        missing=missing,
+        lines=tuple(lines),
+        note=node.note,
+    )

@@ -1,0 +1,52 @@
+"""Number formatting shared by the panels (one place, so every panel and
+the CSV export write a number the same way)."""
+
+from __future__ import annotations
+
+import math
+from typing import Any
+
+from covariscope.vocabulary import RATIO_FAMILIES
+
+__all__ = ["DASH", "fit_ok", "is_number", "number", "percent", "ratio_family"]
+
+#: Shown where a value does not exist (unmeasured, not fitted, undefined).
+DASH = "—"
+
+
+def is_number(value: Any) -> bool:
+    """True for a finite int or float (not a bool)."""
+    if isinstance(value, bool) or not isinstance(value, int | float):
+        return False
+    return math.isfinite(value)
+
+
+def number(value: Any, digits: int = 2) -> str:
+    """``1.23456`` → ``"1.23"``; missing or non-finite → a dash."""
+    if not is_number(value):
+        return DASH
+    if abs(value) >= 1e5 or (value != 0 and abs(value) < 10 ** (-digits - 1)):
+        return f"{value:.{digits}g}"
+    return f"{value:.{digits}f}"
+
+
+def percent(value: Any, digits: int = 1) -> str:
+    """A signed percentage without the sign of a zero: ``"+12.3"``, ``"-4.0"``."""
+    if not is_number(value):
+        return DASH
+    text = f"{value:+.{digits}f}"
+    return text.replace("+0.0", "0.0").replace("-0.0", "0.0") if abs(value) < 0.05 else text
+
+
+def ratio_family(family: str | None) -> bool:
+    """True when the family's estimate is a ratio (shown on the exp scale)."""
+    return family in RATIO_FAMILIES
+
+
+def fit_ok(fit: Any) -> bool:
+    """True for a fitted model whose exposure estimate can be shown."""
+    return (
+        fit is not None
+        and bool(getattr(fit, "ok", False))
+        and is_number(getattr(fit, "coef", None))
+    )

@@ -1,0 +1,166 @@
+"""The covariate review table: one row per covariate, what the diagram says
+(role) beside what the data say (change in estimate, SE inflation, VIF) and
+the verdict that puts them together."""
+
+from __future__ import annotations
+
+import csv
+import io
+from dataclasses import dataclass
+from typing import Any
+
+from covariscope.analysis.evidence import Comparison
+from covariscope.views.format import DASH, is_number, number, percent, ratio_family
+from covariscope.vocabulary import change_read, role_label
+
+__all__ = [
+    "REVIEW_COLUMNS",
+    "ReviewRow",
+    "change_value",
+    "proposed_after_toggle",
+    "review_rows",
+    "rows_to_csv",
+]
+
+#: Column titles, in order (the last one is the checkbox).
+REVIEW_COLUMNS: tuple[str, ...] = (
+    "Covariate",
+    "Role",
+    "Added: change %",
+    "Dropped: change %",
+    "SE inflation %",
+    "VIF",
+    "Verdict",
+    "In proposed set",
+)
+
+
+def role_words(role: str | None) -> str:
+    """A role's label from the vocabulary: ``"descendant_of_exposure"`` →
+    ``"descendant of exposure"``; a dash for none."""
+    return role_label(role) or DASH
+
+
+@dataclass(frozen=True)
+class ReviewRow:
+    """One covariate's row, as text, with the raw numbers for export."""
+
+    node: str
+    label: str
+    role: str
+    added_change: str
+    dropped_change: str
+    se_inflation: str
+    vif: str
+    verdict: str
+    verdict_code: str
+    reason: str
+    detail: str
+    proposed: bool
+    measured: bool
+
+    def cells(self) -> tuple[str, ...]:
+        """The text cells, in :data:`REVIEW_COLUMNS` order (checkbox as yes/no)."""
+        return (
+            self.label if self.label == self.node else f"{self.label} ({self.node})",
+            self.role,
+            self.added_change,
+            self.dropped_change,
+            self.se_inflation,
+            self.vif,
+            self.verdict,
+            "yes" if self.proposed else "no",
+        )
+
+
+def change_value(comparison: Comparison | None, family: str) -> float | None:
+    """The change in estimate the threshold reads (see
+    :func:`covariscope.vocabulary.change_read`); None without a comparison."""
+    if comparison is None:
+        return None
+    return change_read(
+        comparison.change_pct, comparison.change_pct_ratio, ratio=ratio_family(family)
+    )
+
+
+def _evidence_for(result: Any, node_id: str) -> Any:
+    evidence = getattr(result, "evidence", None) if result is not None else None
+    covariates = getattr(evidence, "covariates", None) or {}
+    return covariates.get(node_id)
+
+
+def review_rows(project: Any, result: Any = None) -> list[ReviewRow]:
+    """Rows for every covariate of the project's diagram, in diagram order.
+
+    Before an analysis (``result`` None) or for a covariate the result does
+    not know yet, the numbers are dashes and the verdict says it is pending.
+    """
+    proposed = set(project.proposed)
+    family = getattr(result, "family", None) or project.analysis.family
+    roles = getattr(getattr(result, "diagram", None), "roles", None) or {}
+    verdicts = getattr(result, "verdicts", None) or {}
+    rows = []
+    for node in project.diagram.covariates:
+        facts = roles.get(node.id)
+        ev = _evidence_for(result, node.id)
+        verdict = verdicts.get(node.id)
+        added = getattr(ev, "added", None)
+        dropped = getattr(ev, "dropped", None)
+        vif_value = getattr(ev, "vif", None)
+        label = getattr(verdict, "label", None) or ("Pending" if result is None else DASH)
+        reason = getattr(verdict, "reason", "") or (
+            "Waiting for the analysis." if result is None else ""
+        )
+        if not node.measured and verdict is None:
+            label, reason = "Unmeasured", "Not measured: the data cannot speak for it."
+        detail_bits = [f"{node.label}: {label}"]
+        if reason:
+            detail_bits.append(reason)
+        explanation = getattr(facts, "explanation", "")
+        if explanation:
+            detail_bits.append(f"Diagram: {explanation}")
+        rows.append(
+            ReviewRow(
+                node=node.id,
+                label=node.label,
+                role=role_words(getattr(facts, "role", None)),
+                added_change=percent(change_value(added, family)),
+                dropped_change=percent(change_value(dropped, family)),
+                se_inflation=percent(getattr(added, "se_inflation_pct", None)),
+                vif=number(vif_value) if is_number(vif_value) else DASH,
+                verdict=label,
+                verdict_code=getattr(verdict, "code", "") or "",
+                reason=reason,
+                detail=" — ".join(detail_bits),
+                proposed=node.id in proposed,
+                measured=node.measured,
+            )
+        )
+    return rows
+
+
+def proposed_after_toggle(project: Any, node_id: str, checked: bool) -> list[str] | None:
+    """The proposed set after ticking (or unticking) ``node_id``; None when
+    nothing changes.  Order is kept: a new member goes at the end."""
+    current = list(project.proposed)
+    if checked and node_id not in current:
+        return [*current, node_id]
+    if not checked and node_id in current:
+        return [p for p in current if p != node_id]
+    return None
+
+
+def rows_to_csv(rows: list[ReviewRow]) -> str:
+    """The review table as CSV text (UTF-8 friendly; one header row).
+
+    A missing number is an empty cell (not the dash the table shows), so
+    that a spreadsheet or a statistics package reads it as missing."""
+    out = io.StringIO()
+    writer = csv.writer(out, lineterminator="\n")
+    writer.writerow(["node", *REVIEW_COLUMNS, "verdict_code", "reason"])
+    for row in rows:
+        cells = list(row.cells())
+        cells[0] = row.label
+        cells = ["" if c == DASH else c for c in cells]
+        writer.writerow([row.node, *cells, row.verdict_code, row.reason])
+    return out.getvalue()

@@ -1,0 +1,129 @@
+"""The rationale's words and numbers, built without Qt."""
+
+from __future__ import annotations
+
+import datetime
+import subprocess
+import sys
+
+import pytest
+
+from covariscope import __version__
+from covariscope.views.report_content import (
+    build_content,
+    estimate_decimals,
+    format_interval,
+    format_number,
+    format_percent,
+    name_nodes,
+)
+from covariscope.vocabulary import CAUTIONS
+
+
+def test_content_module_does_not_load_qt():
+    code = (
+        "import sys; import covariscope.views.report_content; "
+        "print(any(m.startswith('PySide6') for m in sys.modules))"
+    )
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
+    assert out.stdout.strip() == "False"
+
+
+@pytest.mark.parametrize(
+    ("value", "decimals", "text"),
+    [(1.23456, 2, "1.23"), (-0.004, 2, "0.00"), (-1.5, 3, "-1.500"), (float("nan"), 2, "n/a")],
+)
+def test_format_number(value, decimals, text):
+    assert format_number(value, decimals) == text
+
+
+def test_formats_match_python_rounding():
+    assert format_percent(12.345) == f"{12.345:.1f}%"
+    assert format_interval(-1.97286, -1.59488, 2) == "-1.97 to -1.59"
+
+
+def test_decimals_follow_the_narrowest_interval():
+    assert estimate_decimals([0.84], ratio=False) == 2
+    assert estimate_decimals([0.04], ratio=True) == 3
+    assert estimate_decimals([120.0], ratio=False) == 2
+    assert estimate_decimals([], ratio=False) == 2
+
+
+def test_build_content_holds_every_section(make):
+    project = make.project(8, 50)
+    result = make.result(project)
+    c = build_content(result, project, today=datetime.date(2024, 5, 1))
+    assert c.question == "Effect of Night-shift work on Systolic blood pressure"
+    assert "mean difference" in c.measure
+    assert "linear regression" in c.measure
+    assert c.data[0] == "File: cohort.csv  (SHA-256 0123456789ab)"
+    assert "2,310 of 2,500" in c.data[1]
+    assert "c1 120" in c.data[2]
+    assert "c3 70" in c.data[2]
+    assert "does NOT suffice" in c.adjustment[0]
+    assert any(line.startswith("Open path: Night-shift work") for line in c.adjustment)
+    assert [r.name for r in c.estimates] == ["Crude", "Set chosen", "Recommended set"]
+    assert c.estimates[0].estimate == format_number(4.8361, c.decimals)
+    assert len(c.covariates) == 8
+    assert c.covariates[0].verdict == "Adjust"
+    assert c.covariates[0].sets == "C R"
+    assert c.covariates[4].change == "—"  # unmeasured: no data evidence
+    assert c.collinearity == ("Cov 0, Covariate number 2: kept Cov 0.",)
+    assert "E-value: 2.13" in c.evalue
+    assert "change in estimate 10%" in c.thresholds
+    assert "as guides" in c.thresholds
+    assert c.cautions == CAUTIONS
+    assert (
+        c.footer == f"2024-05-01 · Covariscope {__version__} · project night_shift.covariscope.json"
+    )
+    assert sum(n.adjusted for n in c.diagram.nodes) == len(project.proposed)
+
+
+def test_ratio_family_shows_ratios(make):
+    project = make.project(4)
+    result = make.result(project, "logistic")
+    c = build_content(result, project)
+    crude = result.estimates["crude"]
+    assert c.ratio
+    assert c.estimates[0].estimate == format_number(crude.ratio, c.decimals)
+    lo, hi = crude.ratio_ci
+    assert c.estimates[0].interval == format_interval(lo, hi, c.decimals)
+    assert c.covariates[0].change == format_percent(8.04)  # ratio scale
+    assert "odds ratio" in c.measure
+
+
+def test_graph_only_result_says_what_is_missing(make):
+    project = make.project(3)
+    result = make.result(project, data=False)
+    c = build_content(result, project)
+    assert c.data == ("No data bound: the page shows what the diagram says only.",)
+    assert all(r.estimate == "n/a" for r in c.estimates)
+    assert "not available" in c.evalue
+
+
+def test_findings_and_messages_use_labels(make):
+    project = make.project(8)
+    result = make.result(project)
+    result.disagreements = ("c1: Review: the diagram calls it unrelated.",)
+    result.sample.message = "2,310 of 2,500 rows used."
+    result.messages = (
+        "2,310 of 2,500 rows used.",  # the Data section says it
+        "The proposed set {c0, c2} is not sufficient: it leaves 1 backdoor path(s) open.",
+        "Ties in {c0, c1} follow shift – c0|c2 – sbp.",
+    )
+    c = build_content(result, project)
+    assert c.disagreements == ("Covariate number 1: the diagram calls it unrelated.",)
+    result.disagreements = ("Covariate number 1: Review: it moves the estimate.",)
+    c = build_content(result, project)
+    assert c.disagreements == ("Covariate number 1: it moves the estimate.",)
+    # the adjustment section already says the set does not suffice
+    assert c.messages == (
+        "Ties in {Cov 0, Covariate number 1} follow "
+        "Night-shift work – Cov 0 | Covariate number 2 – Systolic blood pressure.",
+    )
+
+
+def test_name_nodes_leaves_words_that_are_not_ids():
+    labels = {"age": "Age", "x": "Dust"}
+    assert name_nodes("{age, smoking}", labels) == "{age, smoking}"
+    assert name_nodes("age – x and well-known", labels) == "Age – Dust and well-known"
