@@ -15,6 +15,8 @@ from typing import Any
 
 import pandas as pd
 
+from covariscope.analysis.design import Design
+from covariscope.data.sources.base import DesignRequest
 from covariscope.data.sources.batched import BatchSource
 from covariscope.data.sources.memuse import resident_text
 from covariscope.errors import DataError
@@ -61,6 +63,7 @@ class DuckSource(BatchSource):
     """
 
     engine = "duckdb"
+    quote = staticmethod(quote_name)
 
     def __init__(
         self,
@@ -96,15 +99,22 @@ class DuckSource(BatchSource):
                 f"{path.name} could not be read by DuckDB ({exc}). Check the file, or load it "
                 "with the in-memory engine."
             ) from exc
-        super().__init__(origin or path, tuple(str(r[0]) for r in described), rows)
+        self.column_types = {str(r[0]): str(r[1]) for r in described}
+        if path.suffix.lower() not in (".parquet", ".pq"):
+            # The types found on the whole file are pinned: later queries skip that scan.
+            self._from = self._table_function(path, self.column_types)
+        super().__init__(origin or path, tuple(self.column_types), rows)
 
-    def _table_function(self, path: Path) -> str:
+    def _table_function(self, path: Path, types: dict[str, str] | None = None) -> str:
         if path.suffix.lower() in (".parquet", ".pq"):
             return f"read_parquet({_literal(str(path))})"
         nulls = ", ".join(_literal(v) for v in _NULLS)
-        return (
-            f"read_csv({_literal(str(path))}, header = true, sample_size = -1, nullstr = [{nulls}])"
-        )
+        if types is None:
+            detect = "sample_size = -1"
+        else:
+            listed = ", ".join(f"{_literal(k)}: {_literal(v)}" for k, v in types.items())
+            detect = f"columns = {{{listed}}}"
+        return f"read_csv({_literal(str(path))}, header = true, {detect}, nullstr = [{nulls}])"
 
     def _select(self, columns: tuple[str, ...], complete: bool) -> str:
         names = ", ".join(quote_name(c) for c in columns)
@@ -141,6 +151,14 @@ class DuckSource(BatchSource):
         if complete:
             frame = frame.dropna()
         return frame.reset_index(drop=True)
+
+    def design(self, request: DesignRequest, messages: list[str]) -> Design:
+        """The design coded in SQL where the columns allow (see :mod:`.duck_sql`)."""
+        from covariscope.data.sources.duck_sql import sql_design
+
+        needed = tuple(dict.fromkeys(u.column for u in request.uses))
+        found = sql_design(self, request, self.source_key(needed))
+        return found if found is not None else super().design(request, messages)
 
     def status(self) -> str:
         return f"DuckDB: {self.rows:,} rows read where they lie; {resident_text()}"
