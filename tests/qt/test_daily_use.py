@@ -225,3 +225,72 @@ def test_scroll_bars_and_scene_area_do_not_chase_each_other(qtbot, demo):
         QApplication.processEvents()
     view.viewport().removeEventFilter(guard)
     assert guard.count <= 3
+
+
+@pytest.mark.parametrize(
+    ("family", "chosen"),
+    [
+        ("logistic", {"outcome": "low_lung"}),
+        ("risk_ratio", {"outcome": "low_lung", "offset": None}),
+        ("cox", {"time": "years_to_dx", "event": "dx"}),
+    ],
+)
+def test_outcome_columns_chosen_in_the_window_and_saved(
+    qtbot, window, demo, wait_for_analysis, family, chosen
+):
+    from covariscope.model.project import load_project
+
+    w = window
+    assert w.io.open(str(demo / "demo_project.json"))
+    wait_for_analysis(qtbot, w)
+    w.set_family(family)
+    # clear what the demo file set, as a new study starts
+    w.apply_outcome_columns(dict.fromkeys(chosen))
+    wait_for_analysis(qtbot, w)
+    if family != "risk_ratio":  # a log-link Poisson fit of a measured outcome still runs
+        assert w.result.sample is None
+    problems = [m for m in w.messages_bar.messages if m.severity == "problem"]
+    assert problems and problems[0].fix == "outcome_columns"
+    assert w.messages_bar.headline.text() == problems[0].text
+    assert w.messages_bar.fix_button.isVisible()
+    assert "problem" in w.messages_bar.counts.text()
+
+    dialog = w.outcome_columns_dialog()
+    assert set(dialog.combos) == set(chosen)
+    for key, column in chosen.items():
+        dialog.choose(key, column)
+    w.apply_outcome_columns(dialog.values())
+    dialog.deleteLater()
+    wait_for_analysis(qtbot, w)
+    assert w.result.sample is not None
+    assert not [m for m in w.messages_bar.messages if m.severity == "problem"]
+    assert not w.messages_bar.fix_button.isVisible()
+    assert w.io.save()
+    saved = load_project(demo / "demo_project.json")
+    assert saved.analysis.family_columns[family] == {k: v for k, v in chosen.items() if v}
+    outcome = w.open_diagnostics("lungfn")
+    assert outcome.state.column == (chosen.get("outcome") or chosen.get("event"))
+    outcome.close()
+
+
+def test_logistic_on_a_continuous_outcome_says_what_is_missing(
+    qtbot, window, demo, wait_for_analysis
+):
+    w = window
+    assert w.io.open(str(demo / "demo_project.json"))
+    wait_for_analysis(qtbot, w)
+    w.set_family("logistic")
+    w.apply_outcome_columns({"outcome": None})
+    wait_for_analysis(qtbot, w)
+    (problem,) = [m for m in w.messages_bar.messages if m.severity == "problem"]
+    assert "lungfn is continuous" in problem.text
+    assert "binary" in problem.text
+    assert "Diagram only" in w.rows_label.text()
+    # the caution that odds ratios are non-collapsible and the rows lost are visible
+    w.apply_outcome_columns({"outcome": "low_lung"})
+    wait_for_analysis(qtbot, w)
+    cautions = [m.text for m in w.messages_bar.messages if m.severity == "caution"]
+    assert any("rows used" in t or "dropped" in t for t in cautions)
+    w.messages_bar.toggle.click()
+    assert w.messages_bar.list.isVisible()
+    assert w.messages_bar.list.count() == len(w.messages_bar.messages)
