@@ -250,7 +250,8 @@ def test_outcome_columns_chosen_in_the_window_and_saved(
     if family != "risk_ratio":  # a log-link Poisson fit of a measured outcome still runs
         assert w.result.sample is None
     problems = [m for m in w.messages_bar.messages if m.severity == "problem"]
-    assert problems and problems[0].fix == "outcome_columns"
+    assert problems
+    assert problems[0].fix == "outcome_columns"
     assert w.messages_bar.headline.text() == problems[0].text
     assert w.messages_bar.fix_button.isVisible()
     assert "problem" in w.messages_bar.counts.text()
