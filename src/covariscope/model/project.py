@@ -29,14 +29,13 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
-from covariscope.analysis.verdicts import DEFAULT_THRESHOLDS
 from covariscope.errors import CovariscopeError, DiagramError, ProjectFileError
 from covariscope.model.diagram import KINDS, Diagram, Node
 from covariscope.model.files import read_project_bytes, remove_stale_temporaries
 from covariscope.model.project_json import finite_number, parse_project_json
+from covariscope.vocabulary import DEFAULT_THRESHOLDS, Family
 
 __all__ = [
-    "DEFAULT_THRESHOLDS",
     "FORMAT",
     "FORMAT_VERSION",
     "AnalysisSettings",
@@ -60,7 +59,7 @@ outcome hold tens of nodes, rarely hundreds."""
 MAX_LINKS = 20_000
 MAX_THRESHOLD = 1e6
 """No guide threshold (percent, VIF, condition index) means anything past this."""
-FAMILY_NAMES = ("linear", "logistic", "risk_ratio", "cox")
+FAMILY_NAMES: tuple[str, ...] = tuple(Family)
 COLUMN_ROLES = ("outcome", "time", "event", "offset")
 
 
