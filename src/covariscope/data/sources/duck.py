@@ -17,8 +17,8 @@ import pandas as pd
 
 from covariscope.analysis.design import Design
 from covariscope.data.sources.base import DesignRequest
-from covariscope.data.sources.batched import BatchSource
-from covariscope.data.sources.memuse import resident_text
+from covariscope.data.sources.batched import BatchSource, FrameCounts
+from covariscope.data.sources.memuse import process_limit, resident_text
 from covariscope.errors import DataError
 
 __all__ = ["BATCH_ROWS", "DuckSource", "quote_name"]
@@ -82,6 +82,11 @@ class DuckSource(BatchSource):
                 "(pip install duckdb) or use the in-memory engine."
             ) from exc
         config: dict[str, Any] = {}
+        limit = process_limit()
+        if memory_limit is None and limit is not None:
+            # DuckDB sizes its buffers by the machine's memory; a limit placed on
+            # this process is the one that counts (a share: Python holds the rest).
+            memory_limit = f"{max(limit * 3 // 10, 64 * 2**20) // 2**20}MB"
         if memory_limit:
             config["memory_limit"] = memory_limit
         if threads:
@@ -89,6 +94,8 @@ class DuckSource(BatchSource):
         self._tmp = tempfile.TemporaryDirectory(prefix="covariscope-duckdb-")
         config["temp_directory"] = self._tmp.name
         self._con = duckdb.connect(":memory:", config=config)
+        # Its own progress bar would print into the output of `check --json`.
+        self._con.sql("SET enable_progress_bar = false")
         self.batch_rows = batch_rows
         self._from = self._table_function(path)
         try:
@@ -159,6 +166,12 @@ class DuckSource(BatchSource):
         needed = tuple(dict.fromkeys(u.column for u in request.uses))
         found = sql_design(self, request, self.source_key(needed))
         return found if found is not None else super().design(request, messages)
+
+    def count_rows(self, columns: tuple[str, ...], tracked: tuple[str, ...]) -> FrameCounts:
+        """The counts as one aggregate query (and one DISTINCT per level column)."""
+        from covariscope.data.sources.duck_sql import sql_counts
+
+        return sql_counts(self, columns, tracked)
 
     def status(self) -> str:
         return f"DuckDB: {self.rows:,} rows read where they lie; {resident_text()}"

@@ -27,10 +27,11 @@ from covariscope.analysis.design_rows import make_row_design
 from covariscope.analysis.rows import RowBatch
 from covariscope.data.coerce import coerce_column
 from covariscope.data.sources.base import DesignRequest
+from covariscope.data.sources.batched import MAX_TRACKED_LEVELS, FrameCounts
 from covariscope.data.sources.coding import ColumnUse
 from covariscope.data.values import level_key
 
-__all__ = ["sql_design"]
+__all__ = ["sql_counts", "sql_design"]
 
 _NUMERIC = (
     "TINYINT",
@@ -190,3 +191,53 @@ def _expressions(coding: TermCoding, stored: dict[Any, list[Any]] | None, quote:
         return ["1.0"]
     assert stored is not None
     return [_is_in(column, stored.get(level, [])) for level in coding.levels]
+
+
+def _missing(column: str, kind: str) -> str:
+    nan = f" OR isnan({column})" if kind.upper() in _FLOATING else ""
+    return f"({column} IS NULL{nan})"
+
+
+def sql_counts(source: Any, columns: tuple[str, ...], tracked: tuple[str, ...]) -> FrameCounts:
+    """Missing values, rows lost, ranges and levels of ``columns``, counted by the database."""
+    quote, types = source.quote, source.column_types
+    flags = [
+        f"CAST({_missing(quote(c), types[c])} AS INTEGER) AS m{i}" for i, c in enumerate(columns)
+    ]
+    total = " + ".join(f"m{i}" for i in range(len(columns))) or "0"
+    parts = [
+        "COUNT(*)",
+        f"COUNT(*) FILTER (WHERE {total} > 1)",
+        f"COUNT(*) FILTER (WHERE {total} = 0)",
+    ]
+    for i in range(len(columns)):
+        parts += [f"SUM(m{i})", f"COUNT(*) FILTER (WHERE m{i} = 1 AND {total} = 1)"]
+    numeric = [c for c in columns if types[c].split("(")[0].upper() in _NUMERIC]
+    ranged = ", ".join(f"{quote(c)}" for c in numeric)
+    for c in numeric:
+        parts += [
+            f"MIN({quote(c)}) FILTER (WHERE NOT {_missing(quote(c), types[c])})",
+            f"MAX({quote(c)}) FILTER (WHERE NOT {_missing(quote(c), types[c])})",
+        ]
+    inner = ", ".join([*flags, ranged] if ranged else flags)
+    row = source._con.sql(
+        f"SELECT {', '.join(parts)} FROM (SELECT {inner} FROM {source._from})"
+    ).fetchall()[0]
+    rows, several, complete = int(row[0]), int(row[1] or 0), int(row[2] or 0)
+    missing = {c: int(row[3 + 2 * i] or 0) for i, c in enumerate(columns)}
+    alone = {c: int(row[4 + 2 * i] or 0) for i, c in enumerate(columns)}
+    base = 3 + 2 * len(columns)
+    low, high = {}, {}
+    for k, c in enumerate(numeric):
+        lo, hi = row[base + 2 * k], row[base + 2 * k + 1]
+        if lo is not None:
+            low[c], high[c] = float(lo), float(hi)
+    levels: dict[str, set[Any] | None] = {}
+    for c in tracked:
+        found = source._con.sql(
+            f"SELECT DISTINCT {quote(c)} FROM {source._from} WHERE NOT {_missing(quote(c), types[c])} "
+            f"LIMIT {MAX_TRACKED_LEVELS + 1}"
+        ).fetchall()
+        keys = {level_key(r[0]) for r in found}
+        levels[c] = keys if len(found) <= MAX_TRACKED_LEVELS else None
+    return FrameCounts(rows, missing, alone, several, complete, levels, low, high)
