@@ -90,7 +90,7 @@ REFUSED = [
 )
 def test_a_degenerate_design_is_refused_in_one_line(tmp_path, capsys, build, kw, expected):
     code = main(["check", str(build(tmp_path, **kw))])
-    out, err = capsys.readouterr()
+    _, err = capsys.readouterr()
     assert code == 2, err
     assert expected in err
     assert len(err.strip().splitlines()) == 1
