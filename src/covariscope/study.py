@@ -29,6 +29,7 @@ from covariscope.analysis.graph import (
     analyse_diagram,
     is_sufficient,
 )
+from covariscope.analysis.joint_region import CollinearityPicture, collinearity_pictures
 from covariscope.analysis.recommend import pair_r2, recommend_set
 from covariscope.analysis.verdicts import (
     LABELS,
@@ -396,7 +397,14 @@ def run_study(
 
     estimates: dict[str, Fit | None] = dict.fromkeys(ESTIMATE_KEYS)
     ev_value: EValue | None = None
+    pictures: tuple[CollinearityPicture, ...] = ()
     if evidence is not None and engine is not None:
+        aliases = [
+            c
+            for c, e in evidence.covariates.items()
+            if c in evidence.candidates and e.vif_exposure_added >= thresholds["vif"]
+        ]
+        pictures = collinearity_pictures(evidence.full, engine.design, groups, aliases)
         estimates["crude"] = evidence.crude
         estimates["full"] = evidence.full
         estimates["proposed"] = evidence.sets.get("proposed")
@@ -440,6 +448,7 @@ def run_study(
         data_sha256=data_sha,
         recommended_reason=rec.reason,
         names=names,
+        pictures=pictures,
     )
 
 

@@ -9,6 +9,7 @@ from covariscope.analysis.evalue import EValue
 from covariscope.analysis.evidence import EvidenceTable
 from covariscope.analysis.fits import Fit
 from covariscope.analysis.graph import DiagramAnalysis
+from covariscope.analysis.joint_region import CollinearityPicture
 from covariscope.analysis.verdicts import Verdict
 from covariscope.data.sample import AnalyticSample
 
@@ -44,6 +45,8 @@ class StudyResult:
     recommended_reason: str = ""
     #: Node id → label, for prose (ids stay the keys of the JSON).
     names: dict[str, str] = field(default_factory=dict)
+    #: joint confidence regions of collinear groups (and of near-aliases of the exposure)
+    pictures: tuple[CollinearityPicture, ...] = ()
 
     def name(self, node: str) -> str:
         """The label prose uses for a node (a measure group by its members' labels)."""
@@ -65,6 +68,10 @@ class StudyResult:
                 {tuple(sorted(v.group)) for v in self.verdicts.values() if v.code == "keep_one_of"}
             )
         )
+
+    def pictures_of(self, node: str) -> tuple[CollinearityPicture, ...]:
+        """The collinearity pictures that hold ``node``."""
+        return tuple(p for p in self.pictures if node in p.members)
 
     @property
     def has_data(self) -> bool:

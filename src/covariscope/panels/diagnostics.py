@@ -15,6 +15,7 @@ from typing import Any
 
 from covariscope.panels.estimates import display_scale
 from covariscope.panels.format import DASH, is_number, number, percent
+from covariscope.panels.joint_picture import PictureView, picture_views
 from covariscope.panels.review import change_value, role_words
 
 __all__ = [
@@ -67,6 +68,8 @@ class NodeDiagnostics:
     exposure_label: str = ""
     categorical: bool = False
     numbers: dict[str, Any] = field(default_factory=dict)
+    #: the collinearity pictures of the groups that hold the node
+    pictures: tuple[PictureView, ...] = ()
 
 
 @dataclass(frozen=True)
@@ -265,6 +268,7 @@ def node_diagnostics(
         exposure_label=exposure.label if exposure else "",
         categorical=ctype in ("binary", "categorical"),
         numbers=numbers,
+        pictures=picture_views(getattr(result, "pictures", ()) or (), node_id, labels),
     )
 
 

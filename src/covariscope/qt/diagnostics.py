@@ -26,8 +26,10 @@ from PySide6.QtWidgets import (
     QLabel,
     QPlainTextEdit,
     QPushButton,
+    QSizePolicy,
     QSplitter,
     QTableWidget,
+    QTabWidget,
     QTableWidgetItem,
     QVBoxLayout,
     QWidget,
@@ -42,6 +44,7 @@ from covariscope.panels.diagnostics import (
 )
 from covariscope.panels.format import ratio_family
 from covariscope.panels.keep_choice import KeepChoice, keep_choice
+from covariscope.qt.joint_plot import draw_picture
 from covariscope.qt.tables import filling
 
 __all__ = ["FAMILY_LABELS", "CovariateDialog", "EndpointDialog", "NodeDialog"]
@@ -222,8 +225,14 @@ class CovariateDialog(NodeDialog):
         self.estimate_canvas = FigureCanvasQTAgg(self.estimate_figure)
         self.data_figure = Figure(figsize=(4.4, 3.0), layout="constrained")
         self.data_canvas = FigureCanvasQTAgg(self.data_figure)
-        for c in (self.estimate_canvas, self.data_canvas):
-            c.setMinimumSize(300, 200)
+        self.joint_figure = Figure(figsize=(7.0, 1.7), layout="constrained")
+        self.joint_canvas = FigureCanvasQTAgg(self.joint_figure)
+        self.joint_note = QLabel()
+        self.joint_note.setObjectName("jointNote")
+        self.joint_note.setWordWrap(True)
+        for c in (self.estimate_canvas, self.data_canvas, self.joint_canvas):
+            # the tab bar takes 30 px of the plots' height; the dialog must still fit 768 px
+            c.setMinimumSize(300, 170)
 
         checklist_box = QGroupBox("What the diagram says")
         QVBoxLayout(checklist_box).addWidget(self.checks)
@@ -234,9 +243,22 @@ class CovariateDialog(NodeDialog):
         nl.addWidget(self.models)
         nl.addWidget(self.figures, 1)
         nl.addWidget(self.messages)
-        plots = QSplitter(Qt.Orientation.Horizontal)
-        plots.addWidget(self.estimate_canvas)
-        plots.addWidget(self.data_canvas)
+        pair = QSplitter(Qt.Orientation.Horizontal)
+        pair.addWidget(self.estimate_canvas)
+        pair.addWidget(self.data_canvas)
+        joint = QWidget()
+        jl = QHBoxLayout(joint)
+        jl.setContentsMargins(0, 0, 0, 0)
+        jl.addWidget(self.joint_canvas, 1)
+        # the sentence reads beside the picture: the dialog has width to spare, not height
+        self.joint_note.setFixedWidth(250)
+        self.joint_note.setSizePolicy(QSizePolicy.Policy.Fixed, QSizePolicy.Policy.Ignored)
+        self.joint_note.setAlignment(Qt.AlignmentFlag.AlignTop | Qt.AlignmentFlag.AlignLeft)
+        jl.addWidget(self.joint_note)
+        self.plots = plots = QTabWidget()
+        plots.setDocumentMode(True)
+        plots.addTab(pair, "Estimates and data")
+        self._joint_tab = plots.addTab(joint, "What collinearity does")
 
         top = QHBoxLayout()
         left = QVBoxLayout()
@@ -282,6 +304,20 @@ class CovariateDialog(NodeDialog):
         self._show_keep(keep_choice(project, result, self.node_id))
         self._plot_estimates(s, getattr(result, "family", project.analysis.family))
         self._plot_data(s, project, profiles, _analysed_rows(sample, frame, s))
+        self._plot_joint(s)
+
+    def _plot_joint(self, s: NodeDiagnostics) -> None:
+        view = s.pictures[0] if s.pictures else None
+        draw_picture(self.joint_figure, view)
+        self.joint_note.setText(view.sentence if view is not None else "")
+        self.plots.setTabEnabled(self._joint_tab, view is not None)
+        self.plots.setTabToolTip(
+            self._joint_tab,
+            "The joint confidence region of the group's coefficients and the interval of their sum"
+            if view is not None
+            else "Shown for a member of a collinear group",
+        )
+        self.joint_canvas.draw_idle()
 
     def _show_keep(self, choice: KeepChoice | None) -> None:
         self.keep = choice
