@@ -12,7 +12,7 @@ import numpy as np
 
 from covariscope.analysis.evidence import Comparison
 from covariscope.analysis.fits import Fit
-from covariscope.study_result import ESTIMATE_KEYS, StudyResult
+from covariscope.study.result import ESTIMATE_KEYS, StudyResult
 
 __all__ = ["study_to_json"]
 

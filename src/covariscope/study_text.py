@@ -7,7 +7,7 @@ from collections.abc import Iterable
 
 from covariscope.analysis.fits import RATIO_FAMILIES, Fit
 from covariscope.analysis.verdicts import format_set
-from covariscope.study_result import ESTIMATE_KEYS, StudyResult
+from covariscope.study.result import ESTIMATE_KEYS, StudyResult
 
 __all__ = ["OPEN_PATHS_SHOWN", "format_study_text"]
 

@@ -32,7 +32,8 @@ def drop_column(w, column: str, scene_pos: QPointF) -> None:
 
 def test_build_the_demo_from_an_empty_window(qtbot, window, demo, wait_for_analysis):
     from covariscope.model.project import load_project
-    from covariscope.study import run_study, study_to_json
+    from covariscope.study import run_study
+    from covariscope.study_json import study_to_json
 
     w = window
     expected_project = load_project(demo / "demo_project.json")

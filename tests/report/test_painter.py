@@ -16,6 +16,8 @@ from covariscope.model.project import load_project
 from covariscope.report.content import build_content, format_interval, format_number
 from covariscope.report.layout import MIN_BODY_PT
 from covariscope.report.painter import render_image, write_pdf
+from covariscope.study import run_study
+from covariscope.study_json import study_to_json
 
 DEMO = Path(__file__).resolve().parents[2] / "demo_data" / "demo_project.json"
 POINTS = {"a4": (595.3, 841.9), "letter": (612.0, 792.0)}
@@ -81,12 +83,11 @@ def _check_record(record, *, covariates: int) -> None:
 
 @pytest.fixture(scope="module")
 def demo():
-    study = pytest.importorskip("covariscope.study")
     if not DEMO.exists():
         pytest.skip("demo project not present")
     project = load_project(DEMO)
-    result = study.run_study(project)
-    return project, result, study.study_to_json(result)
+    result = run_study(project)
+    return project, result, study_to_json(result)
 
 
 @pytest.mark.parametrize("page", ["a4", "letter"])
@@ -96,10 +97,9 @@ def test_demo_pdf_is_one_page_with_the_checked_numbers(qapp, tmp_path, demo, pag
 
 
 def test_demo_ratio_page_shows_the_checked_ratios(qapp, tmp_path, demo):
-    study = pytest.importorskip("covariscope.study")
     project = demo[0]
-    result = study.run_study(project, family="logistic")
-    checked = study.study_to_json(result)
+    result = run_study(project, family="logistic")
+    checked = study_to_json(result)
     assert build_content(result, project).ratio
     _check_demo_page(tmp_path, project, result, checked, "a4")
 

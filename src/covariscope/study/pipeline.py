@@ -46,8 +46,7 @@ from covariscope.data.loading import LoadedTable, load_table
 from covariscope.data.sample import AnalyticSample
 from covariscope.model.errors import DataError
 from covariscope.model.project import DEFAULT_THRESHOLDS, Project
-from covariscope.study_data import prepare_evidence
-from covariscope.study_facts import (
+from covariscope.study.facts import (
     group_why,
     needed_together,
     opened_paths,
@@ -56,7 +55,8 @@ from covariscope.study_facts import (
     would_close,
     would_open,
 )
-from covariscope.study_result import ESTIMATE_KEYS, Progress, StudyResult
+from covariscope.study.prepare import prepare_evidence
+from covariscope.study.result import ESTIMATE_KEYS, Progress, StudyResult
 
 __all__ = [
     "ESTIMATE_KEYS",
@@ -64,9 +64,7 @@ __all__ = [
     "VERDICTS",
     "StudyResult",
     "Verdict",
-    "format_study_text",
     "run_study",
-    "study_to_json",
 ]
 
 # -- helpers -------------------------------------------------------------------------
@@ -450,9 +448,3 @@ def run_study(
         names=names,
         pictures=pictures,
     )
-
-
-# Imported last: the output modules are re-exported here, where the GUI, the
-# report and the command line have always found them.
-from covariscope.study_json import study_to_json  # noqa: E402
-from covariscope.study_text import format_study_text  # noqa: E402
