@@ -137,7 +137,8 @@ def test_collinearity_picture_renders(qtbot, window, demo, wait_for_analysis, sh
     dialog.plots.setCurrentIndex(1)
     QApplication.processEvents()
     assert dialog.plots.isTabEnabled(1)
-    assert dialog.state is not None and dialog.state.pictures
+    assert dialog.state is not None
+    assert dialog.state.pictures
     assert "carry an effect of" in dialog.joint_note.text()
     dialog.joint_canvas.draw()
     image = dialog.joint_canvas.grab().toImage()
