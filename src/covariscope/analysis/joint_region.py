@@ -202,8 +202,8 @@ def collinearity_picture(
     >>> pic = collinearity_picture(fit, [("a", "a"), ("b", "b")])
     >>> round(pic.total.estimate, 2), round(pic.total.se, 3)
     (1.0, 0.141)
-    >>> round(pic.pairs[0].correlation, 3)
-    -0.938
+    >>> round(pic.pairs[0].correlation, 2)
+    -0.94
     """
     if not fit.ok or len(members) < 2:
         return None
