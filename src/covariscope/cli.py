@@ -21,7 +21,7 @@ from pathlib import Path
 from typing import Any
 
 from covariscope import __version__
-from covariscope.model.errors import CovariscopeError
+from covariscope.errors import CovariscopeError
 
 __all__ = ["demo_folder", "error_log_path", "has_display", "main", "one_line", "write_demo"]
 
@@ -146,8 +146,8 @@ def _run(project_path: str, data: str | None, family: str | None) -> tuple[Any, 
 
 def _cmd_check(args: argparse.Namespace) -> int:
     _, result = _run(args.project, args.data, args.family)
-    from covariscope.study_json import study_to_json
-    from covariscope.study_text import format_study_text
+    from covariscope.views.check_json import study_to_json
+    from covariscope.views.check_text import format_study_text
 
     if args.json:
         json.dump(study_to_json(result), sys.stdout, indent=2, allow_nan=False)
@@ -206,7 +206,7 @@ def _cmd_demo(args: argparse.Namespace) -> int:
         return _cmd_gui(str(project_path), demo=True)
     if not args.no_window:
         print("No display was found, so the window cannot open here; writing the review instead.")
-    from covariscope.study_text import format_study_text
+    from covariscope.views.check_text import format_study_text
 
     project, result = _run(str(project_path), None, None)
     print(format_study_text(result))

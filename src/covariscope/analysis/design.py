@@ -19,7 +19,7 @@ import numpy as np
 import pandas as pd
 
 from covariscope.analysis.fits import FAMILIES
-from covariscope.model.errors import DataError
+from covariscope.errors import DataError
 
 __all__ = ["TERM_TYPES", "Block", "Design", "TermSpec", "constant_message", "make_design"]
 

@@ -22,7 +22,7 @@ import time
 from collections.abc import Iterable
 from pathlib import Path
 
-from covariscope.model.errors import CovariscopeError, ProjectFileError
+from covariscope.errors import CovariscopeError, ProjectFileError
 
 __all__ = [
     "MAX_PROJECT_BYTES",

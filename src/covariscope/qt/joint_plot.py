@@ -1,14 +1,14 @@
 """Draws the collinearity picture: the joint confidence ellipse of two
 coefficients with the line of constant sum, beside the interval of their sum
 against each one's own interval.  The numbers come ready from
-:mod:`covariscope.panels.joint_picture`; this module only draws."""
+:mod:`covariscope.views.joint_picture`; this module only draws."""
 
 from __future__ import annotations
 
 import numpy as np
 from matplotlib.figure import Figure
 
-from covariscope.panels.joint_picture import PictureView
+from covariscope.views.joint_picture import PictureView
 
 __all__ = ["draw_picture"]
 

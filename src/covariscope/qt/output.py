@@ -10,7 +10,7 @@ from typing import TYPE_CHECKING
 from PySide6.QtCore import QRectF
 from PySide6.QtGui import QPainter
 
-from covariscope.model.errors import CovariscopeError
+from covariscope.errors import CovariscopeError
 from covariscope.model.files import check_output_path
 
 if TYPE_CHECKING:
@@ -31,7 +31,7 @@ def _ask(w: MainWindow, kind: str, title: str, stem: str) -> Path | None:
     base = (
         w.project.path.with_name(f"{w.project.path.stem}{stem}.{kind}")
         if w.project.path
-        else Path(f"covariscope{stem}.{kind}")
+        else Path(w.io.start_folder()) / f"covariscope{stem}.{kind}"
     )
     path = w.prompts.save_path(title, _FILTERS[kind], str(base))
     if not path:
@@ -109,8 +109,8 @@ def print_rationale(w: MainWindow) -> bool:
     if not _ready(w):
         return False
     try:
-        from covariscope.report.content import build_content
         from covariscope.report.painter import paint_rationale
+        from covariscope.views.report_content import build_content
     except ImportError:
         w.prompts.warn(
             "Printing not available", "The rationale report is not installed in this build."

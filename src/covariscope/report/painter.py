@@ -33,11 +33,11 @@ from PySide6.QtGui import (
 )
 
 from covariscope import __version__
-from covariscope.model.errors import CovariscopeError
+from covariscope.errors import CovariscopeError
 from covariscope.model.files import temporary_prefix
-from covariscope.report.content import RationaleContent, build_content
 from covariscope.report.layout import Fonts, PagePlan, TextItem, plan_page
 from covariscope.report.sketch import draw_sketch
+from covariscope.views.report_content import RationaleContent, build_content
 
 __all__ = [
     "PAGE_SIZES",

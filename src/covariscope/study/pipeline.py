@@ -44,7 +44,7 @@ from covariscope.analysis.verdicts import (
 )
 from covariscope.data.loading import LoadedTable, load_table
 from covariscope.data.sample import AnalyticSample
-from covariscope.model.errors import DataError
+from covariscope.errors import DataError
 from covariscope.model.project import DEFAULT_THRESHOLDS, Project
 from covariscope.study.facts import (
     group_why,
@@ -108,6 +108,28 @@ def _se_lookup(
         return fit.se if fit is not None and fit.ok else None
 
     return se_of
+
+
+def _fit_lookup(
+    engine: EvidenceEngine | None,
+) -> tuple[Callable[[tuple[str, ...]], float | None], Callable[[tuple[str, ...]], float | None]]:
+    """Exposure coefficient and SE of the model with a set (the engine caches its fits)."""
+
+    def fit(members: tuple[str, ...]) -> Fit | None:
+        if engine is None:
+            return None
+        f = engine.fit(members)
+        return f if f.ok else None
+
+    def estimate_of(members: tuple[str, ...]) -> float | None:
+        f = fit(members)
+        return f.coef if f is not None else None
+
+    def se_of(members: tuple[str, ...]) -> float | None:
+        f = fit(members)
+        return f.se if f is not None else None
+
+    return estimate_of, se_of
 
 
 # -- the study -----------------------------------------------------------------------
@@ -288,6 +310,7 @@ def run_study(
         groups=groups,
         keep_choices=rec_choices,
         se_of=_se_lookup(evidence, set_names),
+        estimate_of=_fit_lookup(engine)[0] if evidence is not None else None,
     )
     recommended = rec.members or ()
     if evidence is not None and rec.members is not None:
@@ -308,7 +331,7 @@ def run_study(
         )
 
     # Verdicts.
-    se_of = _se_lookup(evidence, set_names)
+    estimate_of, se_of = _fit_lookup(engine if evidence is not None else None)
     base = list(recommended) if rec.members is not None else list(proposed)
     # Members the diagram needs whichever other is kept are adjusted for, with a
     # caution; the rest of their group (two or more) is still one to keep one of.
@@ -341,7 +364,8 @@ def run_study(
                 chosen=project.analysis.keep_choices.get("|".join(sorted(group))),
                 recommended=recommended,
                 proposed=proposed,
-                minimal=minimal,
+                rest=rest,
+                estimate_of=estimate_of,
                 se_of=se_of,
                 names=names,
             )

@@ -14,7 +14,7 @@ from collections.abc import Mapping
 from dataclasses import dataclass
 
 from covariscope.analysis.joint_region import CollinearityPicture
-from covariscope.panels.format import number
+from covariscope.views.format import number
 
 __all__ = ["PictureView", "picture_views"]
 
