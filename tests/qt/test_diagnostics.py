@@ -155,3 +155,23 @@ def test_collinearity_picture_renders(qtbot, window, demo, wait_for_analysis, sh
     plain = w.open_diagnostics("age")
     assert not plain.plots.isTabEnabled(1)
     plain.close()
+
+
+def test_effect_modification_tab_draws_the_strata(qtbot, window, demo, wait_for_analysis, shots):
+    # The forest plot has one point per level, and the sentence says that
+    # modification is not confounding.
+    from covariscope.views.modification import NOT_CONFOUNDING
+
+    w = window
+    w.io.open(str(demo / "demo_project.json"))
+    wait_for_analysis(qtbot, w)
+    dialog = w.open_diagnostics("smoke")
+    dialog.plots.setCurrentIndex(2)
+    QApplication.processEvents()
+    assert dialog.plots.isTabEnabled(2)
+    strata = w.result.modification["smoke"].strata
+    points = dialog.modification_figure.axes[0].lines[0].get_xdata()
+    assert len(points) == len(strata) == 3
+    assert NOT_CONFOUNDING in dialog.modification_note.text()
+    assert dialog.grab().save(str(shots / "diagnostics_modification.png"))
+    dialog.close()

@@ -50,6 +50,9 @@ class Block:
     values: np.ndarray
     #: column positions in :attr:`Design.values`
     index: tuple[int, ...]
+    #: a binary or categorical term's levels as text, the reference first, then
+    #: one per column; empty for a continuous or count term
+    levels: tuple[str, ...] = ()
 
     @property
     def df(self) -> int:
@@ -136,14 +139,29 @@ def _levels(series: pd.Series, reference: Any) -> tuple[list[Any], Any]:
     return levels, reference
 
 
+def _level_text(value: Any) -> str:
+    """A level as text: a whole number read as a float (1.0) shows as 1."""
+    if isinstance(value, float | np.floating) and float(value).is_integer():
+        return str(int(value))
+    return str(value)
+
+
 def _coded(frame: pd.DataFrame, spec: TermSpec, what: str) -> tuple[list[str], list[np.ndarray]]:
     """Design columns of one term: names and vectors."""
+    names, vectors, _ = _coded_levels(frame, spec, what)
+    return names, vectors
+
+
+def _coded_levels(
+    frame: pd.DataFrame, spec: TermSpec, what: str
+) -> tuple[list[str], list[np.ndarray], tuple[str, ...]]:
+    """Design columns of one term: names, vectors and levels (reference first)."""
     if spec.type not in TERM_TYPES:
         raise DataError(
             f"Unknown column type {spec.type!r} for {spec.column!r}; use one of {', '.join(TERM_TYPES)}."
         )
     if spec.type in ("continuous", "count"):
-        return [spec.column], [_numeric(frame, spec.column, what)]
+        return [spec.column], [_numeric(frame, spec.column, what)], ()
     if spec.column not in frame.columns:
         raise DataError(
             f"Column {spec.column!r} ({what}) is not in the analytic sample; bind an existing column."
@@ -152,7 +170,7 @@ def _coded(frame: pd.DataFrame, spec: TermSpec, what: str) -> tuple[list[str], l
     levels, reference = _levels(series, spec.reference)
     if len(levels) < 2 and what != "exposure":
         # One level: kept as a constant column, which the engine reports per model.
-        return [spec.column], [np.ones(len(series))]
+        return [spec.column], [np.ones(len(series))], ()
     if len(levels) < 2:
         raise DataError(
             f"Column {spec.column!r} ({what}) has the same value in every row of the analytic "
@@ -164,11 +182,13 @@ def _coded(frame: pd.DataFrame, spec: TermSpec, what: str) -> tuple[list[str], l
             "declare it categorical."
         )
     others = [v for v in levels if v != reference]
+    texts = (_level_text(reference), *(_level_text(v) for v in others))
     if spec.type == "binary" and len(others) == 1:
-        return [spec.column], [(series == others[0]).to_numpy(dtype=np.float64)]
+        return [spec.column], [(series == others[0]).to_numpy(dtype=np.float64)], texts
     return (
         [f"{spec.column}[{v}]" for v in others],
         [(series == v).to_numpy(dtype=np.float64) for v in others],
+        texts,
     )
 
 
@@ -251,8 +271,9 @@ def make_design(
     all_names = [exposure_name]
     all_vectors = list(vectors)
     spans: dict[str, tuple[list[str], tuple[int, ...]]] = {}
+    level_texts: dict[str, tuple[str, ...]] = {}
     for node, spec in covariates.items():
-        cnames, cvecs = _coded(frame, spec, f"covariate {node}")
+        cnames, cvecs, level_texts[node] = _coded_levels(frame, spec, f"covariate {node}")
         start = len(all_vectors)
         all_names += cnames
         all_vectors += cvecs
@@ -320,7 +341,7 @@ def make_design(
     if y is not None:
         values[:, -1] = y
     blocks = {
-        node: Block(node, tuple(cn), values[:, idx[0] : idx[-1] + 1], idx)
+        node: Block(node, tuple(cn), values[:, idx[0] : idx[-1] + 1], idx, level_texts[node])
         for node, (cn, idx) in spans.items()
     }
     digest = hashlib.sha256(values.data.cast("B"))

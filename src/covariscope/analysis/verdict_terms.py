@@ -76,6 +76,10 @@ DEFAULT_THRESHOLDS: dict[str, float] = {
     "vif": 10.0,
     "r2": 0.9,
     "condition_index": 30.0,
+    # effect modification (not confounding): flagged when the interaction test's
+    # p is below the first and the stratum estimates differ by more than the second
+    "modification_p": 0.05,
+    "modification_ratio": 1.5,
 }
 
 

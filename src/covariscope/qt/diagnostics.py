@@ -36,6 +36,7 @@ from PySide6.QtWidgets import (
 )
 
 from covariscope.qt.joint_plot import draw_picture
+from covariscope.qt.modification_plot import draw_modification
 from covariscope.qt.tables import filling
 from covariscope.views.diagnostics import (
     DIAGNOSTIC_CAUTION,
@@ -114,6 +115,19 @@ def _fill(table: QTableWidget, rows: list[tuple[str, ...]], fit: bool = True) ->
         table.horizontalHeader().height() + sum(table.rowHeight(i) for i in range(len(rows))) + 6
     )
     table.setFixedHeight(max(height, 40))
+
+
+def _beside(canvas: QWidget, note: QLabel) -> QWidget:
+    """A plot with its sentence to the right: the dialog has width to spare, not height."""
+    page = QWidget()
+    lay = QHBoxLayout(page)
+    lay.setContentsMargins(0, 0, 0, 0)
+    lay.addWidget(canvas, 1)
+    note.setFixedWidth(250)
+    note.setSizePolicy(QSizePolicy.Policy.Fixed, QSizePolicy.Policy.Ignored)
+    note.setAlignment(Qt.AlignmentFlag.AlignTop | Qt.AlignmentFlag.AlignLeft)
+    lay.addWidget(note)
+    return page
 
 
 class NodeDialog(QDialog):
@@ -230,7 +244,17 @@ class CovariateDialog(NodeDialog):
         self.joint_note = QLabel()
         self.joint_note.setObjectName("jointNote")
         self.joint_note.setWordWrap(True)
-        for c in (self.estimate_canvas, self.data_canvas, self.joint_canvas):
+        self.modification_figure = Figure(figsize=(7.0, 1.7), layout="constrained")
+        self.modification_canvas = FigureCanvasQTAgg(self.modification_figure)
+        self.modification_note = QLabel()
+        self.modification_note.setObjectName("modificationNote")
+        self.modification_note.setWordWrap(True)
+        for c in (
+            self.estimate_canvas,
+            self.data_canvas,
+            self.joint_canvas,
+            self.modification_canvas,
+        ):
             # the tab bar takes 30 px of the plots' height; the dialog must still fit 768 px
             c.setMinimumSize(300, 170)
 
@@ -246,19 +270,14 @@ class CovariateDialog(NodeDialog):
         pair = QSplitter(Qt.Orientation.Horizontal)
         pair.addWidget(self.estimate_canvas)
         pair.addWidget(self.data_canvas)
-        joint = QWidget()
-        jl = QHBoxLayout(joint)
-        jl.setContentsMargins(0, 0, 0, 0)
-        jl.addWidget(self.joint_canvas, 1)
-        # the sentence reads beside the picture: the dialog has width to spare, not height
-        self.joint_note.setFixedWidth(250)
-        self.joint_note.setSizePolicy(QSizePolicy.Policy.Fixed, QSizePolicy.Policy.Ignored)
-        self.joint_note.setAlignment(Qt.AlignmentFlag.AlignTop | Qt.AlignmentFlag.AlignLeft)
-        jl.addWidget(self.joint_note)
+        joint = _beside(self.joint_canvas, self.joint_note)
         self.plots = plots = QTabWidget()
         plots.setDocumentMode(True)
         plots.addTab(pair, "Estimates and data")
         self._joint_tab = plots.addTab(joint, "What collinearity does")
+        self._modification_tab = plots.addTab(
+            _beside(self.modification_canvas, self.modification_note), "Effect modification"
+        )
 
         top = QHBoxLayout()
         left = QVBoxLayout()
@@ -305,6 +324,14 @@ class CovariateDialog(NodeDialog):
         self._plot_estimates(s, getattr(result, "family", project.analysis.family))
         self._plot_data(s, project, profiles, _analysed_rows(sample, frame, s))
         self._plot_joint(s)
+        self._plot_modification(s)
+
+    def _plot_modification(self, s: NodeDiagnostics) -> None:
+        view = s.modification
+        draw_modification(self.modification_figure, view)
+        self.modification_note.setText(view.summary if view is not None else "")
+        self.plots.setTabEnabled(self._modification_tab, view is not None)
+        self.modification_canvas.draw_idle()
 
     def _plot_joint(self, s: NodeDiagnostics) -> None:
         view = s.pictures[0] if s.pictures else None

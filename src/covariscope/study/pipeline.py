@@ -30,6 +30,7 @@ from covariscope.analysis.graph import (
     is_sufficient,
 )
 from covariscope.analysis.joint_region import CollinearityPicture, collinearity_pictures
+from covariscope.analysis.modification import Modification, modification_table
 from covariscope.analysis.recommend import pair_r2, recommend_set
 from covariscope.analysis.verdicts import (
     LABELS,
@@ -420,6 +421,7 @@ def run_study(
     estimates: dict[str, Fit | None] = dict.fromkeys(ESTIMATE_KEYS)
     ev_value: EValue | None = None
     pictures: tuple[CollinearityPicture, ...] = ()
+    modification: dict[str, Modification] = {}
     if evidence is not None and engine is not None:
         aliases = [
             c
@@ -437,6 +439,16 @@ def run_study(
         ev_value, problem = evalue_for_fit(estimates["recommended"], engine.design, measure)
         if problem:
             messages.append(problem)
+        rec_fit = estimates["recommended"]
+        if rec_fit is not None and rec_fit.ok:
+            report(0.97, "Looking for effect modification")
+            modification = modification_table(
+                engine.design,
+                rec_fit.terms,
+                evidence.candidates,
+                p_guide=thresholds["modification_p"],
+                ratio_guide=thresholds["modification_ratio"],
+            )
 
     disagreements = tuple(
         f"{names.get(v.node, v.node)}: {v.reason}"
@@ -471,4 +483,5 @@ def run_study(
         recommended_reason=rec.reason,
         names=names,
         pictures=pictures,
+        modification=modification,
     )

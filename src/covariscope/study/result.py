@@ -10,6 +10,7 @@ from covariscope.analysis.evidence import EvidenceTable
 from covariscope.analysis.fits import Fit
 from covariscope.analysis.graph import DiagramAnalysis
 from covariscope.analysis.joint_region import CollinearityPicture
+from covariscope.analysis.modification import Modification
 from covariscope.analysis.verdicts import Verdict
 from covariscope.data.sample import AnalyticSample
 
@@ -47,6 +48,9 @@ class StudyResult:
     names: dict[str, str] = field(default_factory=dict)
     #: joint confidence regions of collinear groups (and of near-aliases of the exposure)
     pictures: tuple[CollinearityPicture, ...] = ()
+    #: effect modification of the exposure's effect by each candidate, in the
+    #: recommended model (not confounding; changes no verdict)
+    modification: dict[str, Modification] = field(default_factory=dict)
 
     def name(self, node: str) -> str:
         """The label prose uses for a node (a measure group by its members' labels)."""

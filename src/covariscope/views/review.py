@@ -12,9 +12,11 @@ from typing import Any
 from covariscope.views.format import DASH, is_number, number, percent, ratio_family
 
 __all__ = [
+    "MODIFICATION_CAUTION",
     "REVIEW_COLUMNS",
     "ReviewRow",
     "change_value",
+    "modifier_text",
     "proposed_after_toggle",
     "review_rows",
     "rows_to_csv",
@@ -28,8 +30,16 @@ REVIEW_COLUMNS: tuple[str, ...] = (
     "Dropped: change %",
     "SE inflation %",
     "VIF",
+    "Modifies effect",
     "Verdict",
     "In proposed set",
+)
+
+#: Said beside the effect-modification column and in its tooltips.
+MODIFICATION_CAUTION = (
+    "Effect modification: the exposure's effect differs across levels of this covariate "
+    "(interaction test and stratum estimates against the editable guides). It is not "
+    "confounding, and it is no reason to adjust for the covariate or not."
 )
 
 _ROLE_WORDS = {
@@ -69,6 +79,8 @@ class ReviewRow:
     detail: str
     proposed: bool
     measured: bool
+    #: "yes, p = …" past the modification guides, "no" below them, a dash when not examined
+    modifier: str = DASH
 
     def cells(self) -> tuple[str, ...]:
         """The text cells, in :data:`REVIEW_COLUMNS` order (checkbox as yes/no)."""
@@ -79,6 +91,7 @@ class ReviewRow:
             self.dropped_change,
             self.se_inflation,
             self.vif,
+            self.modifier,
             self.verdict,
             "yes" if self.proposed else "no",
         )
@@ -94,6 +107,15 @@ def change_value(comparison: Any, family: str) -> float | None:
         if value is not None:
             return value
     return getattr(comparison, "change_pct", None)
+
+
+def modifier_text(modification: Any) -> str:
+    """The effect-modification cell: flagged or not, with the interaction p."""
+    if modification is None or not modification.strata:
+        return DASH
+    p = modification.interaction_p
+    p_text = "p < 0.001" if is_number(p) and p < 0.001 else f"p = {number(p, 3)}"
+    return f"yes, {p_text}" if modification.flagged else "no"
 
 
 def _evidence_for(result: Any, node_id: str) -> Any:
@@ -112,6 +134,7 @@ def review_rows(project: Any, result: Any = None) -> list[ReviewRow]:
     family = getattr(result, "family", None) or project.analysis.family
     roles = getattr(getattr(result, "diagram", None), "roles", None) or {}
     verdicts = getattr(result, "verdicts", None) or {}
+    modifications = getattr(result, "modification", None) or {}
     rows = []
     for node in project.diagram.covariates:
         facts = roles.get(node.id)
@@ -147,6 +170,7 @@ def review_rows(project: Any, result: Any = None) -> list[ReviewRow]:
                 detail=" — ".join(detail_bits),
                 proposed=node.id in proposed,
                 measured=node.measured,
+                modifier=modifier_text(modifications.get(node.id)),
             )
         )
     return rows
