@@ -36,7 +36,7 @@ import numpy as np
 import scipy.stats
 
 from covariscope.analysis.design import Design
-from covariscope.analysis.fits import RATIO_FAMILIES
+from covariscope.vocabulary import RATIO_FAMILIES
 
 __all__ = ["Modification", "Stratum", "effect_modification", "modification_table", "reri"]
 

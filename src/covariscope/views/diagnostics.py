@@ -18,6 +18,7 @@ from covariscope.views.format import DASH, is_number, number, percent
 from covariscope.views.joint_picture import PictureView, picture_views
 from covariscope.views.modification import ModificationView, modification_view
 from covariscope.views.review import change_value, role_words
+from covariscope.vocabulary import CAUTIONS
 
 __all__ = [
     "DIAGNOSTIC_CAUTION",
@@ -30,11 +31,8 @@ __all__ = [
     "node_labels",
 ]
 
-DIAGNOSTIC_CAUTION = (
-    "The diagram holds assumptions the data cannot fully test, and the thresholds are "
-    "guides. These figures support your judgment and the study's analysis plan; they do "
-    "not replace them."
-)
+#: The cautions, as the dialog shows them under its figures.
+DIAGNOSTIC_CAUTION = " ".join(CAUTIONS)
 
 
 @dataclass(frozen=True)
