@@ -41,6 +41,7 @@ __all__ = [
     "Family",
     "FamilyTerm",
     "Kind",
+    "ModificationForm",
     "Role",
     "Term",
     "Threshold",
@@ -435,6 +436,15 @@ class Threshold(StrEnum):
     CONDITION_INDEX = "condition_index"
     MODIFICATION_P = "modification_p"
     MODIFICATION_RATIO = "modification_ratio"
+
+
+class ModificationForm(StrEnum):
+    """How the exposure's effect across a modifier's levels was estimated."""
+
+    #: linear combinations of one model with exposure × covariate product terms
+    MODEL = "model"
+    #: separate fits on each stratum's rows
+    STRATA = "strata"
 
 
 @dataclass(frozen=True)

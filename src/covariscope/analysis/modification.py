@@ -36,7 +36,7 @@ import numpy as np
 import scipy.stats
 
 from covariscope.analysis.design import Design
-from covariscope.vocabulary import RATIO_FAMILIES
+from covariscope.vocabulary import RATIO_FAMILIES, ModificationForm
 
 __all__ = ["Modification", "Stratum", "effect_modification", "modification_table", "reri"]
 
@@ -239,7 +239,9 @@ def effect_modification(
     kind, strata_spec = _strata_values(design, node)
     nan = float("nan")
     if isinstance(fitted, str):
-        return Modification(node, "model", kind, (), nan, block.df, nan, nan, False, message=fitted)
+        return Modification(
+            node, ModificationForm.MODEL, kind, (), nan, block.df, nan, nan, False, message=fitted
+        )
     ratio = design.family in RATIO_FAMILIES
     p_idx = list(range(len(names), len(names) + block.df))
     z = (
@@ -278,7 +280,7 @@ def effect_modification(
         )
     return Modification(
         node=node,
-        form="model",
+        form=ModificationForm.MODEL,
         kind=kind,
         strata=tuple(strata),
         interaction_stat=stat,
