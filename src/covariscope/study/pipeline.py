@@ -43,8 +43,11 @@ from covariscope.analysis.verdicts import (
     decide_verdict,
     format_set,
 )
-from covariscope.data.loading import LoadedTable, load_table
+from covariscope.data.loading import LoadedTable
 from covariscope.data.sample import AnalyticSample
+from covariscope.data.sources.base import DataSource
+from covariscope.data.sources.choose import open_source
+from covariscope.data.sources.memory import MemorySource
 from covariscope.errors import DataError
 from covariscope.model.project import Project
 from covariscope.study.facts import (
@@ -141,6 +144,7 @@ def run_study(
     project: Project,
     *,
     table: LoadedTable | None = None,
+    source: DataSource | None = None,
     family: str | None = None,
     progress: Progress | None = None,
     cancel: Callable[[], bool] | None = None,
@@ -151,7 +155,10 @@ def run_study(
     ----------
     project : Project
     table : LoadedTable, optional
-        Data to use; default: the project's data file when it names one.
+        Data to use, in memory; default: the project's data file when it names one.
+    source : DataSource, optional
+        Data to use through another engine (see :mod:`covariscope.data.sources`);
+        wins over ``table``.
     family : str, optional
         Model family; default: the project's.
     progress : callable(fraction, text), optional
@@ -197,13 +204,21 @@ def run_study(
     G = diagram.to_networkx()
     da = analyse_diagram(G, exposure, outcome, proposed)
 
-    if table is None and project.data is not None:
+    if source is None and table is not None:
+        source = MemorySource(table)
+    if source is None and project.data is not None:
         report(0.05, "Loading the data")
-        table = load_table(project.data.resolve(project.path))
-    data_name = table.path.name if table is not None else None
-    data_sha = table.sha256 if table is not None else None
+        source = open_source(
+            project.data.resolve(project.path),
+            project.analysis.engine,
+            scheduler=project.analysis.scheduler,
+        )
+    if source is not None:
+        messages.extend(source.notes)
+    data_name = source.path.name if source is not None else None
+    data_sha = source.sha256 if source is not None else None
     stored_sha = project.data.sha256 if project.data is not None else None
-    if table is not None and stored_sha and data_sha and data_sha != stored_sha:
+    if source is not None and stored_sha and data_sha and data_sha != stored_sha:
         messages.append(
             f"The data file {data_name} has changed since it was bound to this project "
             "(its SHA-256 differs); check that it is the intended file."
@@ -213,10 +228,10 @@ def run_study(
     engine: EvidenceEngine | None = None
     evidence: EvidenceTable | None = None
     bound: list[str] = []
-    if table is not None:
+    if source is not None:
         try:
             sample, engine, bound = prepare_evidence(
-                project, table.frame, family, exposure, outcome, da, messages
+                project, source, family, exposure, outcome, da, messages
             )
         except DataError as exc:
             messages.append(f"{exc} Only the diagram is analysed.")
@@ -429,7 +444,10 @@ def run_study(
             for c, e in evidence.covariates.items()
             if c in evidence.candidates and e.vif_exposure_added >= thresholds["vif"]
         ]
-        pictures = collinearity_pictures(evidence.full, engine.design, groups, aliases)
+        # the pictures, modification and spline checks read the rows themselves
+        in_memory = engine.design.rows_in_memory
+        if in_memory:
+            pictures = collinearity_pictures(evidence.full, engine.design, groups, aliases)
         estimates["crude"] = evidence.crude
         estimates["full"] = evidence.full
         estimates["proposed"] = evidence.sets.get("proposed")
@@ -441,7 +459,7 @@ def run_study(
         if problem:
             messages.append(problem)
         rec_fit = estimates["recommended"]
-        if rec_fit is not None and rec_fit.ok:
+        if in_memory and rec_fit is not None and rec_fit.ok:
             report(0.97, "Looking for effect modification")
             modification = modification_table(
                 engine.design,
