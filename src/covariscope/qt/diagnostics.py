@@ -318,7 +318,13 @@ class CovariateDialog(NodeDialog):
         self.set_note(s.note)
         self._show_keep(keep_choice(project, result, self.node_id))
         self._plot_estimates(s, getattr(result, "family", project.analysis.family))
-        self._plot_data(s, project, profiles, _analysed_rows(sample, frame, s))
+        rows = _analysed_rows(sample, frame, s)
+        of_rows = (
+            sample.used
+            if getattr(sample, "frame_is_sample", False) and rows is sample.frame
+            else None
+        )
+        self._plot_data(s, project, profiles, rows, of_rows)
         self._plot_joint(s)
         self._plot_modification(s)
 
@@ -396,7 +402,15 @@ class CovariateDialog(NodeDialog):
             ax.set_title("Exposure estimate across the models", fontsize=10)
         self.estimate_canvas.draw_idle()
 
-    def _plot_data(self, s: NodeDiagnostics, project: Any, profiles: Any, frame: Any) -> None:
+    def _plot_data(
+        self,
+        s: NodeDiagnostics,
+        project: Any,
+        profiles: Any,
+        frame: Any,
+        of_rows: int | None = None,
+    ) -> None:
+        """``of_rows``: the analytic sample's size when ``frame`` holds only a random sample of it."""
         fig = self.data_figure
         fig.clear()
         ax = fig.add_subplot()
@@ -471,7 +485,11 @@ class CovariateDialog(NodeDialog):
             ax.scatter(data[ccol], data[xcol], s=6, alpha=0.35, color="#0072B2", edgecolors="none")
             ax.set_xlabel(s.label)
             ax.set_ylabel(x_name)
-        ax.set_title(f"{s.label} against the exposure", fontsize=10)
+        title = f"{s.label} against the exposure"
+        every = of_rows or len(frame[[xcol, ccol]].dropna())
+        if len(data) < every:
+            title += f"\nrandom sample of {len(data):,} of {every:,} rows"
+        ax.set_title(title, fontsize=10)
         self.data_canvas.draw_idle()
 
 
