@@ -146,9 +146,10 @@ class ReviewTable(QWidget):
         r = self.row_of(node_id)
         if r < 0:
             raise KeyError(node_id)
-        self.table.item(r, _CHECK).setCheckState(
-            Qt.CheckState.Checked if checked else Qt.CheckState.Unchecked
-        )
+        item = self.table.item(r, _CHECK)
+        if item is None:
+            raise KeyError(node_id)
+        item.setCheckState(Qt.CheckState.Checked if checked else Qt.CheckState.Unchecked)
 
     def keep_choice_of(self, node_id: str) -> KeepChoice | None:
         """The collinear group the row's verdict asks to keep one of."""

@@ -71,8 +71,8 @@ class _CleanScene:
     def __exit__(self, *exc: object) -> None:
         for item in self.hidden:
             item.show()
-        for item in self.selected:
-            item.setSelected(True)
+        for chosen in self.selected:
+            chosen.setSelected(True)
 
 
 def _check_writable(path: Path) -> None:
@@ -96,7 +96,7 @@ def export_png(scene: DiagramScene, path: str | os.PathLike[str], scale: float =
         )
         scene.render(painter, QRectF(image.rect()), rect)
         painter.end()
-    if not image.save(str(path), "PNG"):
+    if not image.save(str(path), b"PNG"):
         raise CovariscopeError(
             f"Could not write the image {path}; check that the folder is writable."
         )
