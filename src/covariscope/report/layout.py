@@ -423,7 +423,7 @@ def _compose(
             c.line(
                 line, xs[i] + pad, body, bold=True, y=head_top + small_gap + k * fm.lineSpacing()
             )
-        head_h = max(head_h, len(lines) * fm.lineSpacing())
+        head_h = max(head_h, len(wrapped) * fm.lineSpacing())
     head_h += 2 * small_gap
     plan.shades.append(Shade(QRectF(page.left(), head_top, page.width(), head_h), 0))
     c.y = head_top + head_h
