@@ -60,7 +60,8 @@ class ReviewTable(QWidget):
         for i in range(len(REVIEW_COLUMNS)):
             header.setSectionResizeMode(i, QHeaderView.ResizeMode.ResizeToContents)
         header.setSectionResizeMode(_VERDICT, QHeaderView.ResizeMode.Stretch)
-        self.table.horizontalHeaderItem(_VERDICT - 1).setToolTip(MODIFICATION_CAUTION)
+        if (modifies := self.table.horizontalHeaderItem(_VERDICT - 1)) is not None:
+            modifies.setToolTip(MODIFICATION_CAUTION)
         self.detail = QLabel("Select a covariate to read its verdict in full.")
         self.detail.setObjectName("reviewDetail")
         self.detail.setWordWrap(True)
