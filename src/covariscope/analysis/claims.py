@@ -40,6 +40,7 @@ import networkx as nx
 from covariscope.analysis.constructs import merge_diagram, merge_every_link
 
 __all__ = [
+    "CORRECTIONS",
     "DEFAULT_CLAIM_LIMIT",
     "UNTESTABLE_REASONS",
     "Claim",
@@ -52,6 +53,11 @@ __all__ = [
 #: diagram of 22 measured variables implies at most 231, most far fewer.
 DEFAULT_CLAIM_LIMIT = 200
 
+#: Multiplicity corrections, by their code in project files and JSON: Holm's
+#: step-down family-wise method (the default) and Benjamini–Hochberg's
+#: false-discovery rate.
+CORRECTIONS: tuple[str, ...] = ("holm", "bh")
+
 #: Why a pair that the diagram calls separable cannot be tested.
 UNTESTABLE_REASONS: tuple[str, ...] = ("unmeasured", "measures_endpoint", "no_fit")
 
@@ -61,12 +67,15 @@ class Claim:
     """The diagram says ``a`` and ``b`` are independent given ``given``.
 
     ``a < b``; ``given`` is sorted and holds every node with data of each
-    construct in the separating set.
+    construct in the separating set.  ``arrows`` are the arrows between the
+    two that the diagram could take without a cycle (``(a, b)`` for
+    a → b), the suggestions should the data disagree.
     """
 
     a: str
     b: str
     given: tuple[str, ...]
+    arrows: tuple[tuple[str, str], ...] = ()
 
 
 @dataclass(frozen=True)
@@ -154,6 +163,8 @@ def implied_claims(
     >>> s = implied_claims(G, "x", "y", ["c", "x", "m", "y"])
     >>> [(c.a, c.b, c.given) for c in s.claims]
     [('c', 'm', ('x',)), ('x', 'y', ('c', 'm'))]
+    >>> s.claims[0].arrows  # m → c would close the cycle c → x → m → c
+    (('c', 'm'),)
     """
     merge_diagram(G, exposure, outcome)  # refuses unknown ends and cycles in plain words
     M, construct_of, unmerged = _claim_graph(G, exposure, outcome)
@@ -177,7 +188,12 @@ def implied_claims(
             untestable.append(Untestable(a, b, "unmeasured", needs))
             continue
         given = tuple(sorted(m for c in found for m in with_data[c]))
-        claims.append(Claim(a, b, given))
+        arrows = tuple(
+            (u, v)
+            for u, v, cu, cv in ((a, b, ca, cb), (b, a, cb, ca))
+            if not nx.has_path(M, cv, cu)
+        )
+        claims.append(Claim(a, b, given, arrows))
     ends = frozenset((exposure, outcome))
     kept = sorted(claims, key=lambda c: _priority(c, ends))[: max(limit, 0)]
     return ClaimSet(

@@ -10,7 +10,8 @@ Schema (``"format": "covariscope-project"``, ``"version": 1``)::
                   "thresholds": {"change_pct", "se_inflation_pct", "vif", "r2", "condition_index"},
                   "column_types": {column: type}, "reference_levels": {column: level},
                   "family_columns": {family: {"outcome"|"time"|"event"|"offset": column}},
-                  "keep_choices": {"a|b": member}}}
+                  "keep_choices": {"a|b": member},
+                  "diagram_checks": {"correction": "holm"|"bh", "limit": int}}}
 
 ``data`` and ``analysis`` are optional.  Loading validates everything and
 reports every problem with where it is; saving is atomic.
@@ -28,6 +29,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
+from covariscope.analysis.claims import CORRECTIONS, DEFAULT_CLAIM_LIMIT
 from covariscope.analysis.verdicts import DEFAULT_THRESHOLDS
 from covariscope.errors import CovariscopeError, DiagramError, ProjectFileError
 from covariscope.model.diagram import KINDS, Diagram, Node
@@ -76,6 +78,10 @@ class AnalysisSettings:
     reference_levels: dict[str, Any] = field(default_factory=dict)
     family_columns: dict[str, dict[str, str]] = field(default_factory=dict)
     keep_choices: dict[str, str] = field(default_factory=dict)
+    #: multiplicity correction of the diagram's independence claims
+    claim_correction: str = "holm"
+    #: most independence claims tested (the analyst may raise it)
+    claim_limit: int = DEFAULT_CLAIM_LIMIT
 
 
 @dataclass(frozen=True)
@@ -380,7 +386,27 @@ def _read_analysis(raw: Any, diagram: Diagram, problems: _Problems) -> AnalysisS
                 elif _expect(problems, f"{where}.{role}", col, (str,), "a column name"):
                     clean[role] = col
             settings.family_columns[fam] = clean
+    _read_claim_settings(raw.get("diagram_checks", {}), settings, problems)
     return settings
+
+
+def _read_claim_settings(raw: Any, settings: AnalysisSettings, problems: _Problems) -> None:
+    if not _expect(problems, "analysis.diagram_checks", raw, (dict,), "an object"):
+        return
+    correction = raw.get("correction", "holm")
+    where = "analysis.diagram_checks.correction"
+    if _expect(problems, where, correction, (str,), "text"):
+        if correction in CORRECTIONS:
+            settings.claim_correction = correction
+        else:
+            problems.add(where, f'"{correction}" is not one of {", ".join(CORRECTIONS)}')
+    limit = raw.get("limit", DEFAULT_CLAIM_LIMIT)
+    where = "analysis.diagram_checks.limit"
+    if _expect(problems, where, limit, (int,), "a whole number"):
+        if isinstance(limit, bool) or limit < 1:
+            problems.add(where, "must be a whole number of at least 1")
+        else:
+            settings.claim_limit = int(limit)
 
 
 def load_project(path: str | os.PathLike[str]) -> Project:
@@ -425,6 +451,7 @@ def project_to_dict(project: Project) -> dict[str, Any]:
         "reference_levels": dict(a.reference_levels),
         "family_columns": {k: dict(v) for k, v in a.family_columns.items()},
         "keep_choices": dict(a.keep_choices),
+        "diagram_checks": {"correction": a.claim_correction, "limit": a.claim_limit},
     }
     return out
 

@@ -45,6 +45,7 @@ from covariscope.data.loading import LoadedTable, load_table
 from covariscope.data.sample import AnalyticSample
 from covariscope.errors import DataError
 from covariscope.model.project import DEFAULT_THRESHOLDS, Project
+from covariscope.study.checks import check_diagram, with_failed_claims
 from covariscope.study.facts import (
     group_why,
     needed_together,
@@ -416,6 +417,17 @@ def run_study(
             )
         verdicts[c] = verdict
 
+    checks = None
+    if engine is not None:
+        report(0.96, "Checking the diagram against the data")
+        checks = check_diagram(project, G, exposure, outcome, engine, cancel=cancel)
+        verdicts = with_failed_claims(verdicts, checks, names)
+        if checks.omitted:
+            messages.append(
+                f"The diagram implies {checks.tested + checks.omitted} independence claims; "
+                f"only {checks.limit} were tested (raise the limit in the analysis settings)."
+            )
+
     estimates: dict[str, Fit | None] = dict.fromkeys(ESTIMATE_KEYS)
     ev_value: EValue | None = None
     if evidence is not None and engine is not None:
@@ -462,4 +474,5 @@ def run_study(
         data_sha256=data_sha,
         recommended_reason=rec.reason,
         names=names,
+        diagram_checks=checks,
     )
