@@ -16,6 +16,7 @@ from covariscope.analysis.claims import Claim, Untestable
 __all__ = [
     "CAUTION",
     "CORRECTION_NAMES",
+    "SHORT_CAUTION",
     "STRENGTH_NAMES",
     "TEST_NAMES",
     "claim_words",
@@ -54,6 +55,9 @@ CAUTION = (
     "to see a departure), and a large sample flags departures too small to matter: read the "
     "strength, not only the p-value."
 )
+
+#: The caution in a few words, for the page.
+SHORT_CAUTION = "Passing is no proof; read the strength, not only p."
 
 
 def _name(node: str, names: Mapping[str, str]) -> str:
@@ -123,9 +127,15 @@ def untestable_words(u: Untestable, names: Mapping[str, str]) -> str:
     return f"not tested: {u.detail or 'no model could be fitted'}"
 
 
-def summary_line(checks: DiagramChecks, names: Mapping[str, str], *, top: int = 3) -> str:
+_SHORT_CORRECTION = {"holm": "Holm correction", "bh": "Benjamini–Hochberg correction"}
+
+
+def summary_line(
+    checks: DiagramChecks, names: Mapping[str, str], *, top: int = 3, short: bool = False
+) -> str:
     """One line for the page: tested, failed after correction, the strongest failures."""
-    correction = CORRECTION_NAMES.get(checks.method, checks.method)
+    words = _SHORT_CORRECTION if short else CORRECTION_NAMES
+    correction = words.get(checks.method, checks.method)
     head = (
         f"Diagram checks: {checks.tested} independence claim(s) tested, "
         f"{checks.failed} failed after {correction}"

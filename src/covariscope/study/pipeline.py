@@ -421,7 +421,6 @@ def run_study(
     if engine is not None:
         report(0.96, "Checking the diagram against the data")
         checks = check_diagram(project, G, exposure, outcome, engine, cancel=cancel)
-        verdicts = with_failed_claims(verdicts, checks, names)
         if checks.omitted:
             messages.append(
                 f"The diagram implies {checks.tested + checks.omitted} independence claims; "
@@ -448,6 +447,9 @@ def run_study(
         if v.code == "review"
         or (v.code == "exclude_measures_exposure" and v.node not in da.measures_exposure)
     )
+    if checks is not None:
+        # After the disagreements: their short form stays the verdict's own sentence.
+        verdicts = with_failed_claims(verdicts, checks, names)
     messages.append(
         "The diagram holds assumptions the data cannot fully test; the thresholds are guides, "
         "not rules, and unmeasured confounding is possible."
