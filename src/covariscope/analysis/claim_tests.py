@@ -58,6 +58,7 @@ from covariscope.analysis.claim_fits import (
 from covariscope.analysis.claims import CORRECTIONS, Claim, ClaimSet, Untestable
 from covariscope.analysis.design import Design
 from covariscope.analysis.linear import LinearSummary, linear_summary
+from covariscope.vocabulary import StrengthKind
 
 __all__ = [
     "STRENGTH_KINDS",
@@ -72,13 +73,7 @@ __all__ = [
 ]
 
 #: Kinds of strength a claim's result may carry.
-STRENGTH_KINDS: tuple[str, ...] = (
-    "partial_correlation",
-    "standardised_coefficient",
-    "standardised_difference",
-    "odds_ratio",
-    "odds_ratio_per_sd",
-)
+STRENGTH_KINDS: tuple[str, ...] = tuple(k.value for k in StrengthKind)
 
 _TYPES = frozenset({"continuous", "binary", "count", "categorical"})
 _NUMERIC = frozenset({"continuous", "count"})

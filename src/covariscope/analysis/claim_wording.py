@@ -12,6 +12,13 @@ from collections.abc import Mapping
 
 from covariscope.analysis.claim_tests import ClaimResult, DiagramChecks, Strength
 from covariscope.analysis.claims import Claim, Untestable
+from covariscope.vocabulary import (
+    CLAIM_CAUTION,
+    CLAIM_CAUTION_SHORT,
+    CLAIM_TEST_TERMS,
+    CORRECTION_TERMS,
+    STRENGTH_TERMS,
+)
 
 __all__ = [
     "CAUTION",
@@ -28,36 +35,14 @@ __all__ = [
     "untestable_words",
 ]
 
-CORRECTION_NAMES: Mapping[str, str] = {
-    "holm": "Holm's step-down correction",
-    "bh": "the Benjamini–Hochberg false-discovery-rate correction",
-}
-
-STRENGTH_NAMES: Mapping[str, str] = {
-    "partial_correlation": "partial correlation",
-    "standardised_coefficient": "standardised coefficient",
-    "standardised_difference": "standardised difference",
-    "odds_ratio": "odds ratio",
-    "odds_ratio_per_sd": "odds ratio per SD",
-}
-
+CORRECTION_NAMES: Mapping[str, str] = {t.code: t.label for t in CORRECTION_TERMS.values()}
+STRENGTH_NAMES: Mapping[str, str] = {t.code: t.label for t in STRENGTH_TERMS.values()}
 #: Plain names of the tests, by the code a result carries.
-TEST_NAMES: Mapping[str, str] = {
-    "linear t": "t test, linear regression",
-    "linear F": "F test, linear regression",
-    "logistic LR": "likelihood-ratio test, logistic regression",
-    "Poisson LR": "likelihood-ratio test, Poisson regression",
-    "multinomial LR": "likelihood-ratio test, multinomial regression",
-}
-
-CAUTION = (
-    "A claim that passes is no proof that the diagram is right (the data may lack the power "
-    "to see a departure), and a large sample flags departures too small to matter: read the "
-    "strength, not only the p-value."
-)
-
+TEST_NAMES: Mapping[str, str] = {t.code: t.label for t in CLAIM_TEST_TERMS.values()}
+CAUTION = CLAIM_CAUTION
 #: The caution in a few words, for the page.
-SHORT_CAUTION = "Passing is no proof; read the strength, not only p."
+SHORT_CAUTION = CLAIM_CAUTION_SHORT
+_SHORT_CORRECTION = {t.code: t.short for t in CORRECTION_TERMS.values()}
 
 
 def _name(node: str, names: Mapping[str, str]) -> str:
@@ -125,9 +110,6 @@ def untestable_words(u: Untestable, names: Mapping[str, str]) -> str:
     if u.reason == "measures_endpoint":
         return "not tested: one of them measures the exposure or outcome (proxy link)"
     return f"not tested: {u.detail or 'no model could be fitted'}"
-
-
-_SHORT_CORRECTION = {"holm": "Holm correction", "bh": "Benjamini–Hochberg correction"}
 
 
 def summary_line(

@@ -38,6 +38,8 @@ from dataclasses import dataclass
 import networkx as nx
 
 from covariscope.analysis.constructs import merge_diagram, merge_every_link
+from covariscope.vocabulary import DEFAULT_CLAIM_LIMIT, Correction
+from covariscope.vocabulary import Untestable as UntestableReason
 
 __all__ = [
     "CORRECTIONS",
@@ -49,17 +51,13 @@ __all__ = [
     "implied_claims",
 ]
 
-#: Claims tested by default; the analyst may raise it.  Common practice: a
-#: diagram of 22 measured variables implies at most 231, most far fewer.
-DEFAULT_CLAIM_LIMIT = 200
-
 #: Multiplicity corrections, by their code in project files and JSON: Holm's
 #: step-down family-wise method (the default) and Benjamini–Hochberg's
 #: false-discovery rate.
-CORRECTIONS: tuple[str, ...] = ("holm", "bh")
+CORRECTIONS: tuple[str, ...] = tuple(c.value for c in Correction)
 
 #: Why a pair that the diagram calls separable cannot be tested.
-UNTESTABLE_REASONS: tuple[str, ...] = ("unmeasured", "measures_endpoint", "no_fit")
+UNTESTABLE_REASONS: tuple[str, ...] = tuple(u.value for u in UntestableReason)
 
 
 @dataclass(frozen=True)

@@ -29,13 +29,11 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
-from covariscope.analysis.claims import CORRECTIONS, DEFAULT_CLAIM_LIMIT
-from covariscope.analysis.verdicts import DEFAULT_THRESHOLDS
 from covariscope.errors import CovariscopeError, DiagramError, ProjectFileError
 from covariscope.model.diagram import KINDS, Diagram, Node
+from covariscope.vocabulary import DEFAULT_CLAIM_LIMIT, DEFAULT_THRESHOLDS, Correction, Family
 
 __all__ = [
-    "DEFAULT_THRESHOLDS",
     "FORMAT",
     "FORMAT_VERSION",
     "AnalysisSettings",
@@ -50,7 +48,7 @@ __all__ = [
 
 FORMAT = "covariscope-project"
 FORMAT_VERSION = 1
-FAMILY_NAMES = ("linear", "logistic", "risk_ratio", "cox")
+FAMILY_NAMES: tuple[str, ...] = tuple(Family)
 COLUMN_ROLES = ("outcome", "time", "event", "offset")
 
 
@@ -396,10 +394,11 @@ def _read_claim_settings(raw: Any, settings: AnalysisSettings, problems: _Proble
     correction = raw.get("correction", "holm")
     where = "analysis.diagram_checks.correction"
     if _expect(problems, where, correction, (str,), "text"):
-        if correction in CORRECTIONS:
+        codes = [c.value for c in Correction]
+        if correction in codes:
             settings.claim_correction = correction
         else:
-            problems.add(where, f'"{correction}" is not one of {", ".join(CORRECTIONS)}')
+            problems.add(where, f'"{correction}" is not one of {", ".join(codes)}')
     limit = raw.get("limit", DEFAULT_CLAIM_LIMIT)
     where = "analysis.diagram_checks.limit"
     if _expect(problems, where, limit, (int,), "a whole number"):

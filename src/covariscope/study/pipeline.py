@@ -44,7 +44,7 @@ from covariscope.analysis.verdicts import (
 from covariscope.data.loading import LoadedTable, load_table
 from covariscope.data.sample import AnalyticSample
 from covariscope.errors import DataError
-from covariscope.model.project import DEFAULT_THRESHOLDS, Project
+from covariscope.model.project import Project
 from covariscope.study.checks import check_diagram, with_failed_claims
 from covariscope.study.facts import (
     group_why,
@@ -57,6 +57,7 @@ from covariscope.study.facts import (
 )
 from covariscope.study.prepare import prepare_evidence
 from covariscope.study.result import ESTIMATE_KEYS, Progress, StudyResult
+from covariscope.vocabulary import DEFAULT_THRESHOLDS, group_key
 
 __all__ = [
     "ESTIMATE_KEYS",
@@ -303,7 +304,7 @@ def run_study(
     for g in groups:
         for key, member in project.analysis.keep_choices.items():
             if set(key.split("|")) < set(g) and member in g:
-                rec_choices.setdefault("|".join(sorted(g)), member)
+                rec_choices.setdefault(group_key(g), member)
     rec = recommend_set(
         minimal,
         proposed=proposed,
@@ -361,7 +362,7 @@ def run_study(
             suggested, why = suggest_member(
                 group,
                 group_alone,
-                chosen=project.analysis.keep_choices.get("|".join(sorted(group))),
+                chosen=project.analysis.keep_choices.get(group_key(group)),
                 recommended=recommended,
                 proposed=proposed,
                 rest=rest,
