@@ -33,6 +33,7 @@ __all__ = [
     "suggestion_words",
     "summary_line",
     "untestable_words",
+    "verdict_clause",
 ]
 
 CORRECTION_NAMES: Mapping[str, str] = {t.code: t.label for t in CORRECTION_TERMS.values()}
@@ -86,6 +87,15 @@ def disagree_sentence(r: ClaimResult, names: Mapping[str, str]) -> str:
     return (
         f"The diagram says {claim_words(r.claim, names)}; the data {verb} "
         f"({strength_words(r.strength)}, adjusted {p_words(r.p_adjusted)})."
+    )
+
+
+def verdict_clause(r: ClaimResult, names: Mapping[str, str], others: int = 0) -> str:
+    """The clause a ``review`` verdict's sentence gains from a failed claim on its covariate."""
+    more = f", and with {others} more claim(s) on it" if others else ""
+    return (
+        f"the data also disagree with the diagram's claim that {claim_words(r.claim, names)} "
+        f"({strength_words(r.strength)}, adjusted {p_words(r.p_adjusted)}){more}"
     )
 
 

@@ -15,7 +15,7 @@ from dataclasses import replace
 import networkx as nx
 
 from covariscope.analysis.claim_tests import DiagramChecks, check_claims, design_claim_data
-from covariscope.analysis.claim_wording import disagree_sentence
+from covariscope.analysis.claim_wording import verdict_clause
 from covariscope.analysis.claims import implied_claims
 from covariscope.analysis.evidence import EvidenceEngine
 from covariscope.analysis.verdicts import Verdict
@@ -64,8 +64,7 @@ def with_failed_claims(
         failures = checks.failures_involving(node)
         if verdict.code != "review" or not failures:
             continue
-        others = len(failures) - 1
-        more = f" {others} more failed claim(s) involve it." if others else ""
-        reason = f"{verdict.reason.rstrip()} {disagree_sentence(failures[0], names)}{more}"
+        clause = verdict_clause(failures[0], names, len(failures) - 1)
+        reason = f"{verdict.reason.rstrip().rstrip('.')}; {clause}."
         out[node] = replace(verdict, reason=reason)
     return out
