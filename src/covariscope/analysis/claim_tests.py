@@ -107,7 +107,12 @@ class ClaimData:
 
     @property
     def n(self) -> int:
-        return int(self.values.shape[0])
+        return int(self.summary.n)
+
+    @property
+    def rows_in_memory(self) -> bool:
+        """False when the rows stay in their source (only the summary is here)."""
+        return bool(self.values.shape[0] == self.summary.n)
 
 
 def claim_data(
@@ -388,13 +393,23 @@ def _partial_r(t: DirectionTest, n: int, k: int) -> Strength:
     return Strength(r, "partial_correlation", math.tanh(z - half), math.tanh(z + half))
 
 
+_ROWS_ELSEWHERE = (
+    "the rows stay in the data source, where only claims between numeric variables are "
+    "tested (from the cross-product matrix)"
+)
+
+
 def _test_claim(fits: _Fits, claim: Claim) -> tuple[DirectionTest, Strength] | str:
     """The reported direction and the strength, or why no model could be fitted."""
     d = fits.data
     a, b, given = claim.a, claim.b, claim.given
+    if not d.rows_in_memory and not {d.types[a], d.types[b]} <= _NUMERIC:
+        return _ROWS_ELSEWHERE
     symmetric = d.types[a] == "continuous" and d.types[b] == "continuous"
     pairs = [(a, b)] if symmetric else [(a, b), (b, a)]
-    tried = [(r, p, fits.direction(r, p, given)) for r, p in pairs]
+    # Rows left in their source: least squares from the cross-product matrix only.
+    summary_only = not d.rows_in_memory
+    tried = [(r, p, fits.direction(r, p, given, linear=summary_only)) for r, p in pairs]
     done = [(r, p, t) for r, p, t in tried if t is not None]
     if not done:
         return (
