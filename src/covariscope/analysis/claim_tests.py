@@ -184,6 +184,15 @@ def design_claim_data(
         columns[outcome] = (design.values.shape[1] - 1,)
         types[outcome] = _outcome_type(design, design.y)
         names.append(outcome)
+    elif design.row_stats is not None and outcome is not None:
+        # Rows in their source: the outcome is the summary's last column.
+        columns[outcome] = (design.values.shape[1] - 1,)
+        stats = design.row_stats
+        binary = stats.outcome_not_binary == 0
+        types[outcome] = (
+            "binary" if binary else "count" if design.family == "risk_ratio" else "continuous"
+        )
+        names.append(outcome)
     return ClaimData(design.values, columns, types, summary, tuple(names))
 
 
