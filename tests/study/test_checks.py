@@ -78,19 +78,11 @@ def test_correction_and_limit_are_project_settings(demo) -> None:
 
 
 def test_stage_key_ignores_layout_but_not_arrows(demo) -> None:
-    from covariscope.analysis.evidence import EvidenceEngine
-    from covariscope.analysis.graph import analyse_diagram
-    from covariscope.data.loading import load_table
-    from covariscope.study.prepare import prepare_evidence
+    from types import SimpleNamespace
 
     project, _ = demo
-    table = load_table(project.data.resolve(project.path))
-    x, y = project.diagram.require_question()
+    engine = SimpleNamespace(design=SimpleNamespace(key="data digest"))
     G = project.diagram.to_networkx()
-    _, engine, _ = prepare_evidence(
-        project, table.frame, "linear", x, y, analyse_diagram(G, x, y, project.proposed), []
-    )
-    assert isinstance(engine, EvidenceEngine)
     key = checks_key(project, G, engine)
     moved = G.copy()
     for node in moved.nodes:
@@ -99,3 +91,5 @@ def test_stage_key_ignores_layout_but_not_arrows(demo) -> None:
     fewer = G.copy()
     fewer.remove_edge(*next(iter(G.edges)))
     assert checks_key(project, fewer, engine) != key
+    other = SimpleNamespace(design=SimpleNamespace(key="other data"))
+    assert checks_key(project, G, other) != key
