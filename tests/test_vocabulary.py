@@ -27,6 +27,7 @@ from covariscope.vocabulary import (
     Correction,
     Family,
     Kind,
+    ModificationForm,
     Role,
     StrengthKind,
     Threshold,
@@ -73,7 +74,10 @@ def test_schema_enums_equal_the_vocabulary():
     claim = f"{checks}/claims/items/properties"
     assert enums[f"{claim}/test"] == [t.value for t in ClaimTest]
     assert enums[f"{claim}/strength_kind"] == [k.value for k in StrengthKind]
-    assert len(enums) == 8  # a new enum in the schema must be compared here too
+    assert enums["/properties/modification/additionalProperties/properties/form"] == [
+        f.value for f in ModificationForm
+    ]
+    assert len(enums) == 9  # a new enum in the schema must be compared here too
 
 
 @pytest.mark.parametrize(
@@ -109,6 +113,9 @@ def test_threshold_defaults_are_the_documented_guides():
         "vif": 10.0,
         "r2": 0.9,
         "condition_index": 30.0,
+        # effect modification: p < 0.05 is the usual test level; the ratio 1.5 is common practice
+        "modification_p": 0.05,
+        "modification_ratio": 1.5,
     }
 
 

@@ -29,6 +29,8 @@ from covariscope.analysis.graph import (
     analyse_diagram,
     is_sufficient,
 )
+from covariscope.analysis.joint_region import CollinearityPicture, collinearity_pictures
+from covariscope.analysis.modification import Modification, modification_table
 from covariscope.analysis.recommend import pair_r2, recommend_set
 from covariscope.analysis.verdicts import (
     LABELS,
@@ -46,9 +48,10 @@ from covariscope.data.sample import AnalyticSample
 from covariscope.data.sources.base import DataSource
 from covariscope.data.sources.choose import open_source
 from covariscope.data.sources.memory import MemorySource
-from covariscope.errors import DataError
+from covariscope.errors import DataError, DesignError
 from covariscope.model.project import Project
 from covariscope.study.checks import check_diagram, with_failed_claims
+from covariscope.study.degenerate import aliased_pairs, check_crude_fit
 from covariscope.study.facts import (
     group_why,
     needed_together,
@@ -232,10 +235,16 @@ def run_study(
             sample, engine, bound = prepare_evidence(
                 project, source, family, exposure, outcome, da, messages
             )
+        except DesignError:
+            raise  # no number could mean anything: the study stops, saying why
         except DataError as exc:
             messages.append(f"{exc} Only the diagram is analysed.")
             sample, engine = None, None
-        columns = project.analysis.family_columns.get(family, {})
+        columns = {
+            k: v
+            for k, v in project.analysis.family_columns.get(family, {}).items()
+            if k != "offset" or family == "risk_ratio"  # others take no offset (said above)
+        }
         if engine is not None and columns:
             # The outcome node may be bound to another column than this family reads.
             shown = ", ".join(f"{k} {v!r}" for k, v in sorted(columns.items()))
@@ -251,6 +260,8 @@ def run_study(
 
     minimal = [tuple(s) for s in da.minimal_sets]
     set_names = {m: f"minimal:{i}" for i, m in enumerate(minimal)}
+    if engine is not None and family == "linear":
+        check_crude_fit(engine.ols(()), names[exposure], names[outcome])
     if engine is not None:
         report(0.15, "Fitting the comparison models")
         roles = da.roles
@@ -353,6 +364,9 @@ def run_study(
     # caution; the rest of their group (two or more) is still one to keep one of.
     needed = {g: needed_together(G, exposure, outcome, g, base) for g in groups}
     verdicts: dict[str, Verdict] = {}
+    aliases = aliased_pairs(
+        evidence.aliased if evidence is not None else (), set(da.roles), da.groups
+    )
     for c, facts in da.roles.items():
         node = diagram.node(c)
         group = next((g for g in groups if c in g), ())
@@ -413,6 +427,7 @@ def run_study(
             sufficient_without=(True if rec.members is not None else (False if proposed else None)),
             set_name="recommended" if rec.members is not None else "proposed",
             set_members=tuple(base),
+            aliased_with=aliases.get(c, ()),
         )
         verdict = decide_verdict(
             f, _numbers(evidence, c), family=family, thresholds=thresholds, names=names
@@ -445,7 +460,23 @@ def run_study(
 
     estimates: dict[str, Fit | None] = dict.fromkeys(ESTIMATE_KEYS)
     ev_value: EValue | None = None
+    pictures: tuple[CollinearityPicture, ...] = ()
+    modification: dict[str, Modification] = {}
     if evidence is not None and engine is not None:
+        aliases = [
+            c
+            for c, e in evidence.covariates.items()
+            if c in evidence.candidates and e.vif_exposure_added >= thresholds["vif"]
+        ]
+        # the pictures, modification and spline checks read the rows themselves
+        in_memory = engine.design.rows_in_memory
+        if not in_memory:
+            messages.append(
+                "Effect modification and the collinearity picture read the rows themselves, "
+                "so they are shown only when the data are analysed in memory."
+            )
+        if in_memory:
+            pictures = collinearity_pictures(evidence.full, engine.design, groups, aliases)
         estimates["crude"] = evidence.crude
         estimates["full"] = evidence.full
         estimates["proposed"] = evidence.sets.get("proposed")
@@ -456,6 +487,16 @@ def run_study(
         ev_value, problem = evalue_for_fit(estimates["recommended"], engine.design, measure)
         if problem:
             messages.append(problem)
+        rec_fit = estimates["recommended"]
+        if in_memory and rec_fit is not None and rec_fit.ok:
+            report(0.97, "Looking for effect modification")
+            modification = modification_table(
+                engine.design,
+                rec_fit.terms,
+                evidence.candidates,
+                p_guide=thresholds["modification_p"],
+                ratio_guide=thresholds["modification_ratio"],
+            )
 
     disagreements = tuple(
         f"{names.get(v.node, v.node)}: {v.reason}"
@@ -493,4 +534,6 @@ def run_study(
         recommended_reason=rec.reason,
         names=names,
         diagram_checks=checks,
+        pictures=pictures,
+        modification=modification,
     )

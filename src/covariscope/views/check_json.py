@@ -13,6 +13,7 @@ import numpy as np
 from covariscope.analysis.claim_wording import untestable_words
 from covariscope.analysis.evidence import Comparison
 from covariscope.analysis.fits import Fit
+from covariscope.analysis.modification import Modification
 from covariscope.study.result import ESTIMATE_KEYS, StudyResult
 
 __all__ = ["study_to_json"]
@@ -96,6 +97,31 @@ def _checks_json(result: StudyResult) -> dict[str, Any] | None:
     }
 
 
+def _modification_json(m: Modification) -> dict[str, Any]:
+    """One covariate as a modifier of the exposure's effect (not confounding)."""
+    return {
+        "form": m.form,
+        "strata": [
+            {
+                "level": s.level,
+                "coef": s.coef,
+                "se": s.se,
+                "ci": list(s.ci),
+                "ratio": s.ratio,
+                "ratio_ci": list(s.ratio_ci) if s.ratio_ci is not None else None,
+                "n": s.n,
+            }
+            for s in m.strata
+        ],
+        "interaction_stat": m.interaction_stat,
+        "interaction_df": m.interaction_df,
+        "interaction_p": m.interaction_p,
+        "reri": m.reri,
+        "reri_ci": list(m.reri_ci) if m.reri_ci is not None else None,
+        "flagged": m.flagged,
+    }
+
+
 def study_to_json(result: StudyResult) -> dict[str, Any]:
     """The ``covariscope check --json`` object (schema: schemas/check.schema.json).
 
@@ -160,6 +186,7 @@ def study_to_json(result: StudyResult) -> dict[str, Any]:
         else None
     )
     out["thresholds"] = dict(result.thresholds)
+    out["modification"] = {c: _modification_json(m) for c, m in result.modification.items()}
     out["disagreements"] = list(result.disagreements)
     out["messages"] = list(result.messages)
     out["diagram_checks"] = _checks_json(result)

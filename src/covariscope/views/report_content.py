@@ -23,6 +23,7 @@ from typing import Any
 
 from covariscope import __version__
 from covariscope.analysis.claim_wording import SHORT_CAUTION, summary_line
+from covariscope.views.modification import flagged_lines
 from covariscope.views.review import change_value, role_words
 from covariscope.vocabulary import CAUTIONS, family_term
 
@@ -187,6 +188,8 @@ class RationaleContent:
     project_name: str
     #: one line on the diagram's independence claims ("" without data)
     diagram_checks: str = ""
+    #: one line per flagged modifier of the exposure's effect (not confounding)
+    modification: tuple[str, ...] = ()
 
 
 def _get(obj: Any, name: str, default: Any = None) -> Any:
@@ -545,6 +548,8 @@ def build_content(result: Any, project: Any, *, today: _dt.date | None = None) -
         ("vif", "VIF", ""),
         ("r2", "R²", ""),
         ("condition_index", "condition index", ""),
+        ("modification_p", "interaction p", ""),
+        ("modification_ratio", "ratio of stratum estimates", ""),
     ):
         if key in thresholds:
             parts.append(f"{words} {thresholds[key]:g}{suffix}")
@@ -603,4 +608,5 @@ def build_content(result: Any, project: Any, *, today: _dt.date | None = None) -
         outcome=y_label,
         project_name=project_name,
         diagram_checks=_checks_line(result, label_of),
+        modification=tuple(flagged_lines(_get(result, "modification", {}) or {}, label_of)),
     )
