@@ -19,9 +19,20 @@ import numpy as np
 import pandas as pd
 
 from covariscope.analysis.fits import FAMILIES
+from covariscope.analysis.rows import ColumnStats, RowReducer
 from covariscope.errors import DataError
 
-__all__ = ["TERM_TYPES", "Block", "Design", "TermSpec", "constant_message", "make_design"]
+__all__ = [
+    "TERM_TYPES",
+    "Block",
+    "Design",
+    "TermCoding",
+    "TermSpec",
+    "code_term",
+    "constant_message",
+    "make_design",
+    "plan_term",
+]
 
 #: Column types a term may have.
 TERM_TYPES: tuple[str, ...] = ("continuous", "binary", "count", "categorical")
@@ -80,6 +91,10 @@ class Design:
     column_names: tuple[str, ...] = field(default=())
     #: covariate nodes whose column(s) take one value in every row
     constant: tuple[str, ...] = ()
+    #: for a design whose rows stay with their source: the rows (``values`` is then
+    #: 0 × q and ``y`` None) and their column statistics
+    rows: RowReducer | None = None
+    row_stats: ColumnStats | None = None
 
     @property
     def exposure(self) -> np.ndarray:
@@ -120,8 +135,8 @@ def _numeric(frame: pd.DataFrame, column: str, what: str) -> np.ndarray:
     return values
 
 
-def _levels(series: pd.Series, reference: Any) -> tuple[list[Any], Any]:
-    levels = sorted(pd.unique(series), key=lambda v: (str(type(v)), v))
+def _levels(values: Any, reference: Any, column: str) -> tuple[list[Any], Any]:
+    levels = sorted(pd.unique(values), key=lambda v: (str(type(v)), v))
     if reference is None:
         reference = levels[0]
     elif reference not in levels:
@@ -129,30 +144,43 @@ def _levels(series: pd.Series, reference: Any) -> tuple[list[Any], Any]:
         matches = [v for v in levels if str(v) == str(reference)]
         if not matches:
             raise DataError(
-                f"Reference level {reference!r} of column {series.name!r} does not occur in the "
+                f"Reference level {reference!r} of column {column!r} does not occur in the "
                 f"analytic sample (levels: {', '.join(map(str, levels))}); choose one of these."
             )
         reference = matches[0]
     return levels, reference
 
 
-def _coded(frame: pd.DataFrame, spec: TermSpec, what: str) -> tuple[list[str], list[np.ndarray]]:
-    """Design columns of one term: names and vectors."""
+@dataclass(frozen=True)
+class TermCoding:
+    """How one term's design columns are made from its (coerced) column.
+
+    ``levels`` is None for a numeric term (the column itself), empty for a
+    one-level term (a constant column of ones), else the non-reference
+    levels, one 0/1 column each.
+    """
+
+    column: str
+    names: tuple[str, ...]
+    levels: tuple[Any, ...] | None
+    what: str
+
+
+def plan_term(spec: TermSpec, uniques: Any, what: str) -> TermCoding:
+    """The coding of one term, given the distinct values of its column in the analytic sample.
+
+    The same rules whether the values are in memory or not (see :func:`make_design`).
+    """
     if spec.type not in TERM_TYPES:
         raise DataError(
             f"Unknown column type {spec.type!r} for {spec.column!r}; use one of {', '.join(TERM_TYPES)}."
         )
     if spec.type in ("continuous", "count"):
-        return [spec.column], [_numeric(frame, spec.column, what)]
-    if spec.column not in frame.columns:
-        raise DataError(
-            f"Column {spec.column!r} ({what}) is not in the analytic sample; bind an existing column."
-        )
-    series = frame[spec.column]
-    levels, reference = _levels(series, spec.reference)
+        return TermCoding(spec.column, (spec.column,), None, what)
+    levels, reference = _levels(uniques, spec.reference, spec.column)
     if len(levels) < 2 and what != "exposure":
         # One level: kept as a constant column, which the engine reports per model.
-        return [spec.column], [np.ones(len(series))]
+        return TermCoding(spec.column, (spec.column,), (), what)
     if len(levels) < 2:
         raise DataError(
             f"Column {spec.column!r} ({what}) has the same value in every row of the analytic "
@@ -163,13 +191,35 @@ def _coded(frame: pd.DataFrame, spec: TermSpec, what: str) -> tuple[list[str], l
             f"Column {spec.column!r} ({what}) is declared binary but has {len(levels)} levels; "
             "declare it categorical."
         )
-    others = [v for v in levels if v != reference]
+    others = tuple(v for v in levels if v != reference)
     if spec.type == "binary" and len(others) == 1:
-        return [spec.column], [(series == others[0]).to_numpy(dtype=np.float64)]
-    return (
-        [f"{spec.column}[{v}]" for v in others],
-        [(series == v).to_numpy(dtype=np.float64) for v in others],
-    )
+        return TermCoding(spec.column, (spec.column,), others, what)
+    return TermCoding(spec.column, tuple(f"{spec.column}[{v}]" for v in others), others, what)
+
+
+def code_term(frame: pd.DataFrame, coding: TermCoding) -> list[np.ndarray]:
+    """The design columns of one term on some rows, by its :class:`TermCoding`."""
+    if coding.levels is None:
+        return [_numeric(frame, coding.column, coding.what)]
+    if coding.column not in frame.columns:
+        raise DataError(
+            f"Column {coding.column!r} ({coding.what}) is not in the analytic sample; bind an existing column."
+        )
+    series = frame[coding.column]
+    if not coding.levels:
+        return [np.ones(len(series))]
+    return [(series == v).to_numpy(dtype=np.float64) for v in coding.levels]
+
+
+def _coded(frame: pd.DataFrame, spec: TermSpec, what: str) -> tuple[list[str], list[np.ndarray]]:
+    """Design columns of one term: names and vectors."""
+    if spec.type not in ("continuous", "count") and spec.column not in frame.columns:
+        raise DataError(
+            f"Column {spec.column!r} ({what}) is not in the analytic sample; bind an existing column."
+        )
+    uniques = frame[spec.column] if spec.type not in ("continuous", "count") else ()
+    coding = plan_term(spec, uniques, what)
+    return list(coding.names), code_term(frame, coding)
 
 
 def _check_outcome(y: np.ndarray, family: str, column: str) -> None:

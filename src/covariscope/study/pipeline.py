@@ -41,8 +41,11 @@ from covariscope.analysis.verdicts import (
     decide_verdict,
     format_set,
 )
-from covariscope.data.loading import LoadedTable, load_table
+from covariscope.data.loading import LoadedTable
 from covariscope.data.sample import AnalyticSample
+from covariscope.data.sources.base import DataSource
+from covariscope.data.sources.choose import open_source
+from covariscope.data.sources.memory import MemorySource
 from covariscope.errors import DataError
 from covariscope.model.project import Project
 from covariscope.study.facts import (
@@ -139,6 +142,7 @@ def run_study(
     project: Project,
     *,
     table: LoadedTable | None = None,
+    source: DataSource | None = None,
     family: str | None = None,
     progress: Progress | None = None,
     cancel: Callable[[], bool] | None = None,
@@ -149,7 +153,10 @@ def run_study(
     ----------
     project : Project
     table : LoadedTable, optional
-        Data to use; default: the project's data file when it names one.
+        Data to use, in memory; default: the project's data file when it names one.
+    source : DataSource, optional
+        Data to use through another engine (see :mod:`covariscope.data.sources`);
+        wins over ``table``.
     family : str, optional
         Model family; default: the project's.
     progress : callable(fraction, text), optional
@@ -195,13 +202,21 @@ def run_study(
     G = diagram.to_networkx()
     da = analyse_diagram(G, exposure, outcome, proposed)
 
-    if table is None and project.data is not None:
+    if source is None and table is not None:
+        source = MemorySource(table)
+    if source is None and project.data is not None:
         report(0.05, "Loading the data")
-        table = load_table(project.data.resolve(project.path))
-    data_name = table.path.name if table is not None else None
-    data_sha = table.sha256 if table is not None else None
+        source = open_source(
+            project.data.resolve(project.path),
+            project.analysis.engine,
+            scheduler=project.analysis.scheduler,
+        )
+    if source is not None:
+        messages.extend(source.notes)
+    data_name = source.path.name if source is not None else None
+    data_sha = source.sha256 if source is not None else None
     stored_sha = project.data.sha256 if project.data is not None else None
-    if table is not None and stored_sha and data_sha and data_sha != stored_sha:
+    if source is not None and stored_sha and data_sha and data_sha != stored_sha:
         messages.append(
             f"The data file {data_name} has changed since it was bound to this project "
             "(its SHA-256 differs); check that it is the intended file."
@@ -211,10 +226,10 @@ def run_study(
     engine: EvidenceEngine | None = None
     evidence: EvidenceTable | None = None
     bound: list[str] = []
-    if table is not None:
+    if source is not None:
         try:
             sample, engine, bound = prepare_evidence(
-                project, table.frame, family, exposure, outcome, da, messages
+                project, source, family, exposure, outcome, da, messages
             )
         except DataError as exc:
             messages.append(f"{exc} Only the diagram is analysed.")

@@ -7,16 +7,16 @@ falls back to the diagram alone.
 
 from __future__ import annotations
 
+from collections.abc import Mapping
 from typing import Any
 
-import pandas as pd
-
-from covariscope.analysis.design import TermSpec, make_design
+from covariscope.analysis.design import TermSpec
 from covariscope.analysis.evidence import EvidenceEngine
 from covariscope.analysis.graph import DiagramAnalysis
-from covariscope.data.coerce import coerce_column
-from covariscope.data.profile import profile_table
-from covariscope.data.sample import AnalyticSample, analytic_sample
+from covariscope.data.profile import ColumnProfile
+from covariscope.data.sample import AnalyticSample
+from covariscope.data.sources.base import DataSource, DesignRequest
+from covariscope.data.sources.coding import ColumnUse, term_spec
 from covariscope.model.project import Project
 
 __all__ = ["prepare_evidence"]
@@ -41,7 +41,7 @@ def _outcome_columns(
 
 def prepare_evidence(
     project: Project,
-    frame: pd.DataFrame,
+    source: DataSource,
     family: str,
     exposure: str,
     outcome: str,
@@ -73,7 +73,7 @@ def prepare_evidence(
     for node in diagram.covariates:
         if not node.measured or node.column is None:
             continue
-        if node.column not in frame.columns:
+        if node.column not in source.columns:
             messages.append(
                 f'"{node.label}" is bound to the column "{node.column}", which is not in the data; it is left out.'
             )
@@ -83,20 +83,15 @@ def prepare_evidence(
     needed = list(
         dict.fromkeys([*outcome_cols, x_col, *(diagram.node(b).column or "" for b in bound)])
     )
-    missing_cols = [c for c in needed if c not in frame.columns]
+    missing_cols = [c for c in needed if c not in source.columns]
     if missing_cols:
         messages.append(
             f"The data have no column {', '.join(map(repr, missing_cols))}; only the diagram is analysed. "
             "Bind existing columns."
         )
         return None, None, []
-    types = project.analysis.column_types
-    refs = project.analysis.reference_levels
-    sub = frame.loc[:, needed]
-    profiles = profile_table(
-        sub,
-        {k: v for k, v in types.items() if k in sub.columns},
-        {k: v for k, v in refs.items() if k in sub.columns},
+    profiles = source.profiles(
+        tuple(needed), project.analysis.column_types, project.analysis.reference_levels
     )
     usable: list[str] = []
     for b in bound:
@@ -114,43 +109,62 @@ def prepare_evidence(
     needed = list(
         dict.fromkeys([*outcome_cols, x_col, *(diagram.node(b).column or "" for b in bound)])
     )
-    sample = analytic_sample(frame, needed)
-    work = sample.frame.copy()
+    sample = source.analytic_sample(tuple(needed))
+    request = _request(project, profiles, family, exposure, x_col, bound, cols)
+    design = source.design(request, messages)
+    return sample, EvidenceEngine(design, family), bound
+
+
+def _use(column: str, kind: str, reference: Any) -> ColumnUse:
+    if kind in ("continuous", "count"):
+        return ColumnUse(column, kind)
+    if kind == "binary":
+        return ColumnUse(column, "binary", reference)
+    return ColumnUse(column, "categorical", reference)
+
+
+def _request(
+    project: Project,
+    profiles: Mapping[str, ColumnProfile],
+    family: str,
+    exposure: str,
+    x_col: str,
+    bound: list[str],
+    cols: dict[str, str | None],
+) -> DesignRequest:
+    """How each column is coerced and which term it makes (the same for every source)."""
+    diagram = project.diagram
+    uses: dict[str, ColumnUse] = {}
     specs: dict[str, TermSpec] = {}
     for b in bound:
         column = diagram.node(b).column
         assert column is not None
-        specs[b] = _spec(work, column, profiles[column].type, profiles[column].reference)
-    x_spec = _spec(work, x_col, profiles[x_col].type, profiles[x_col].reference)
+        uses[column] = _use(column, profiles[column].type, profiles[column].reference)
+        specs[b] = term_spec(uses[column])
+    uses[x_col] = _use(x_col, profiles[x_col].type, profiles[x_col].reference)
+    x_spec = term_spec(uses[x_col])
     for key in ("outcome", "event"):
         col = cols[key]
         if col is not None and profiles[col].type == "binary":
-            work[col] = coerce_column(work[col], "binary", profiles[col].reference)
+            uses[col] = ColumnUse(col, "binary", profiles[col].reference)
     for key in ("time", "offset"):
         col = cols[key]
         if col is not None:
-            work[col] = coerce_column(work[col], "continuous")
-    if cols["outcome"] is not None and profiles[cols["outcome"]].type in ("continuous", "count"):
-        work[cols["outcome"]] = coerce_column(work[cols["outcome"]], "continuous")
-    design = make_design(
-        work,
+            uses[col] = ColumnUse(col, "continuous")
+    out = cols["outcome"]
+    if out is not None and profiles[out].type in ("continuous", "count"):
+        uses[out] = ColumnUse(out, "continuous")
+    for col in (out, cols["time"], cols["event"], cols["offset"]):
+        if col is not None and col not in uses:
+            uses[col] = ColumnUse(col, "raw")
+    return DesignRequest(
+        uses=tuple(uses.values()),
         exposure=x_spec,
         covariates=specs,
-        outcome=cols["outcome"],
         family=family,
+        exposure_node=exposure,
+        outcome=out,
         time=cols["time"],
         event=cols["event"],
         offset=cols["offset"],
-        exposure_node=exposure,
     )
-    return sample, EvidenceEngine(design, family), bound
-
-
-def _spec(work: pd.DataFrame, column: str, kind: str, reference: Any) -> TermSpec:
-    if kind in ("continuous", "count"):
-        work[column] = coerce_column(work[column], kind)
-        return TermSpec(column, kind)
-    if kind == "binary":
-        work[column] = coerce_column(work[column], "binary", reference)
-        return TermSpec(column, "binary", 0.0)
-    return TermSpec(column, "categorical", reference)
