@@ -30,6 +30,7 @@ __all__ = [
     "TermSpec",
     "code_term",
     "constant_message",
+    "level_texts",
     "make_design",
     "plan_term",
 ]
@@ -61,6 +62,9 @@ class Block:
     values: np.ndarray
     #: column positions in :attr:`Design.values`
     index: tuple[int, ...]
+    #: a binary or categorical term's levels as text, the reference first, then
+    #: one per column; empty for a continuous or count term
+    levels: tuple[str, ...] = ()
 
     @property
     def df(self) -> int:
@@ -99,6 +103,11 @@ class Design:
     @property
     def exposure(self) -> np.ndarray:
         return self.values[:, 0]
+
+    @property
+    def rows_in_memory(self) -> bool:
+        """True when :attr:`values` holds the rows (not a design of rows left at their source)."""
+        return bool(self.values.shape[0] == self.n)
 
     @property
     def n_design_columns(self) -> int:
@@ -164,6 +173,8 @@ class TermCoding:
     names: tuple[str, ...]
     levels: tuple[Any, ...] | None
     what: str
+    #: the reference level of a binary or categorical term
+    reference: Any = None
 
 
 def plan_term(spec: TermSpec, uniques: Any, what: str) -> TermCoding:
@@ -193,8 +204,24 @@ def plan_term(spec: TermSpec, uniques: Any, what: str) -> TermCoding:
         )
     others = tuple(v for v in levels if v != reference)
     if spec.type == "binary" and len(others) == 1:
-        return TermCoding(spec.column, (spec.column,), others, what)
-    return TermCoding(spec.column, tuple(f"{spec.column}[{v}]" for v in others), others, what)
+        return TermCoding(spec.column, (spec.column,), others, what, reference)
+    return TermCoding(
+        spec.column, tuple(f"{spec.column}[{v}]" for v in others), others, what, reference
+    )
+
+
+def _level_text(value: Any) -> str:
+    """A level as text: a whole number read as a float (1.0) shows as 1."""
+    if isinstance(value, float | np.floating) and float(value).is_integer():
+        return str(int(value))
+    return str(value)
+
+
+def level_texts(coding: TermCoding) -> tuple[str, ...]:
+    """A coded term's levels as text, the reference first; empty for a numeric or constant term."""
+    if not coding.levels:
+        return ()
+    return (_level_text(coding.reference), *(_level_text(v) for v in coding.levels))
 
 
 def code_term(frame: pd.DataFrame, coding: TermCoding) -> list[np.ndarray]:
@@ -211,15 +238,17 @@ def code_term(frame: pd.DataFrame, coding: TermCoding) -> list[np.ndarray]:
     return [(series == v).to_numpy(dtype=np.float64) for v in coding.levels]
 
 
-def _coded(frame: pd.DataFrame, spec: TermSpec, what: str) -> tuple[list[str], list[np.ndarray]]:
-    """Design columns of one term: names and vectors."""
+def _coded(
+    frame: pd.DataFrame, spec: TermSpec, what: str
+) -> tuple[list[str], list[np.ndarray], tuple[str, ...]]:
+    """Design columns of one term: names, vectors and level texts (reference first)."""
     if spec.type not in ("continuous", "count") and spec.column not in frame.columns:
         raise DataError(
             f"Column {spec.column!r} ({what}) is not in the analytic sample; bind an existing column."
         )
     uniques = frame[spec.column] if spec.type not in ("continuous", "count") else ()
     coding = plan_term(spec, uniques, what)
-    return list(coding.names), code_term(frame, coding)
+    return list(coding.names), code_term(frame, coding), level_texts(coding)
 
 
 def _check_outcome(y: np.ndarray, family: str, column: str) -> None:
@@ -291,7 +320,7 @@ def make_design(
         raise DataError(f"Unknown model family {family!r}; use one of {', '.join(FAMILIES)}.")
     exposure_node = exposure_node or exposure.column
     n = len(frame)
-    names, vectors = _coded(frame, exposure, "exposure")
+    names, vectors, _ = _coded(frame, exposure, "exposure")
     if len(vectors) > 1:
         raise DataError(
             f"The exposure {exposure.column!r} has {len(vectors) + 1} levels; Covariscope compares "
@@ -301,8 +330,9 @@ def make_design(
     all_names = [exposure_name]
     all_vectors = list(vectors)
     spans: dict[str, tuple[list[str], tuple[int, ...]]] = {}
+    texts: dict[str, tuple[str, ...]] = {}
     for node, spec in covariates.items():
-        cnames, cvecs = _coded(frame, spec, f"covariate {node}")
+        cnames, cvecs, texts[node] = _coded(frame, spec, f"covariate {node}")
         start = len(all_vectors)
         all_names += cnames
         all_vectors += cvecs
@@ -370,7 +400,7 @@ def make_design(
     if y is not None:
         values[:, -1] = y
     blocks = {
-        node: Block(node, tuple(cn), values[:, idx[0] : idx[-1] + 1], idx)
+        node: Block(node, tuple(cn), values[:, idx[0] : idx[-1] + 1], idx, texts[node])
         for node, (cn, idx) in spans.items()
     }
     digest = hashlib.sha256(values.data.cast("B"))

@@ -29,6 +29,8 @@ from covariscope.analysis.graph import (
     analyse_diagram,
     is_sufficient,
 )
+from covariscope.analysis.joint_region import CollinearityPicture, collinearity_pictures
+from covariscope.analysis.modification import Modification, modification_table
 from covariscope.analysis.recommend import pair_r2, recommend_set
 from covariscope.analysis.verdicts import (
     LABELS,
@@ -441,7 +443,23 @@ def run_study(
 
     estimates: dict[str, Fit | None] = dict.fromkeys(ESTIMATE_KEYS)
     ev_value: EValue | None = None
+    pictures: tuple[CollinearityPicture, ...] = ()
+    modification: dict[str, Modification] = {}
     if evidence is not None and engine is not None:
+        aliases = [
+            c
+            for c, e in evidence.covariates.items()
+            if c in evidence.candidates and e.vif_exposure_added >= thresholds["vif"]
+        ]
+        # the pictures, modification and spline checks read the rows themselves
+        in_memory = engine.design.rows_in_memory
+        if not in_memory:
+            messages.append(
+                "Effect modification and the collinearity picture read the rows themselves, "
+                "so they are shown only when the data are analysed in memory."
+            )
+        if in_memory:
+            pictures = collinearity_pictures(evidence.full, engine.design, groups, aliases)
         estimates["crude"] = evidence.crude
         estimates["full"] = evidence.full
         estimates["proposed"] = evidence.sets.get("proposed")
@@ -452,6 +470,16 @@ def run_study(
         ev_value, problem = evalue_for_fit(estimates["recommended"], engine.design, measure)
         if problem:
             messages.append(problem)
+        rec_fit = estimates["recommended"]
+        if in_memory and rec_fit is not None and rec_fit.ok:
+            report(0.97, "Looking for effect modification")
+            modification = modification_table(
+                engine.design,
+                rec_fit.terms,
+                evidence.candidates,
+                p_guide=thresholds["modification_p"],
+                ratio_guide=thresholds["modification_ratio"],
+            )
 
     disagreements = tuple(
         f"{names.get(v.node, v.node)}: {v.reason}"
@@ -485,4 +513,6 @@ def run_study(
         data_sha256=data_sha,
         recommended_reason=rec.reason,
         names=names,
+        pictures=pictures,
+        modification=modification,
     )
