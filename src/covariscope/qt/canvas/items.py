@@ -9,7 +9,7 @@ from __future__ import annotations
 from collections.abc import Callable
 
 from PySide6.QtCore import QPointF, QRectF, Qt
-from PySide6.QtGui import QKeyEvent, QPainter, QPainterPath, QPen
+from PySide6.QtGui import QFocusEvent, QKeyEvent, QPainter, QPainterPath, QPen
 from PySide6.QtWidgets import (
     QGraphicsItem,
     QGraphicsLineItem,
@@ -24,17 +24,19 @@ from covariscope.model.diagram import Node
 from covariscope.qt.canvas.drawing import (
     NodeLook,
     arrow_shape,
+    distance,
     label_font,
     link_ends,
     node_geometry,
     paint_arrow,
     paint_node,
     paint_proxy,
+    paint_suggestion,
     verdict_text,
 )
 from covariscope.qt.palette import colour
 
-__all__ = ["ArrowItem", "LabelEditor", "NodeItem", "ProxyItem", "RubberLink"]
+__all__ = ["ArrowItem", "LabelEditor", "NodeItem", "ProxyItem", "RubberLink", "SuggestionItem"]
 
 
 class NodeItem(QGraphicsObject):
@@ -194,6 +196,28 @@ class ProxyItem(_LinkItem):
         paint_proxy(painter, self.p1, self.p2, self.highlighted, self.isSelected())
 
 
+class SuggestionItem(_LinkItem):
+    """A link the data suggest the diagram may lack (a failed independence
+    claim): drawn over the diagram, not part of it, never selectable."""
+
+    def __init__(
+        self, pair: tuple[str, str], a: NodeItem, b: NodeItem, heads: tuple[bool, bool]
+    ) -> None:
+        self.heads = heads
+        super().__init__(pair, a, b)
+        self.setFlags(QGraphicsItem.GraphicsItemFlag(0))
+        self.setZValue(1.5)  # over the links, under the nodes (their labels stay readable)
+
+    def boundingRect(self) -> QRectF:
+        pad = min(0.18 * distance(self.p1, self.p2), 40.0) + 14.0
+        return QRectF(self.p1, self.p2).normalized().adjusted(-pad, -pad, pad, pad)
+
+    def paint(
+        self, painter: QPainter, option: QStyleOptionGraphicsItem, widget: QWidget | None = None
+    ) -> None:
+        paint_suggestion(painter, self.p1, self.p2, self.heads)
+
+
 class RubberLink(QGraphicsLineItem):
     """The line that follows the pointer while a link is being drawn."""
 
@@ -237,7 +261,7 @@ class LabelEditor(QGraphicsTextItem):
         painter.setPen(QPen(colour("selection"), 1.2))
         painter.setBrush(colour("badge_fill"))
         painter.drawRect(self.boundingRect())
-        super().paint(painter, option, widget)
+        super().paint(painter, option, widget)  # type: ignore[arg-type]  # Qt accepts no widget
 
     def finish(self, commit: bool) -> None:
         if self._finished:
@@ -256,8 +280,8 @@ class LabelEditor(QGraphicsTextItem):
         else:
             super().keyPressEvent(event)
 
-    def focusOutEvent(self, event: object) -> None:  # type: ignore[override]
-        super().focusOutEvent(event)  # type: ignore[arg-type]
+    def focusOutEvent(self, event: QFocusEvent) -> None:
+        super().focusOutEvent(event)
         self.finish(True)
 
     def mouseDoubleClickEvent(self, event: QGraphicsSceneMouseEvent) -> None:
