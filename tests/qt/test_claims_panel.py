@@ -36,3 +36,22 @@ def test_failed_claim_draws_a_suggested_link(qtbot, window, demo, wait_for_analy
     assert w.scene.suggestion is not None
     w.claims.refresh(None)
     assert w.scene.suggestion is None
+
+
+def test_correction_and_limit_are_set_from_the_panel(qtbot, window, demo, wait_for_analysis):
+    w = window
+    w.io.open(str(demo / "demo_project.json"))
+    wait_for_analysis(qtbot, w)
+    panel = w.claims
+    assert panel.correction.currentData() == "holm"
+    panel.correction.setCurrentIndex(panel.correction.findData("bh"))
+    panel.correction.activated.emit(panel.correction.currentIndex())
+    assert w.project.analysis.claim_correction == "bh"
+    wait_for_analysis(qtbot, w)
+    assert w.result.diagram_checks.method == "bh"
+    panel.limit.setValue(10)
+    panel.limit.editingFinished.emit()
+    assert w.project.analysis.claim_limit == 10
+    wait_for_analysis(qtbot, w)
+    assert w.result.diagram_checks.tested == 10
+    assert "more not tested" in panel.summary.text()
