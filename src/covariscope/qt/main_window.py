@@ -37,6 +37,7 @@ from covariscope.qt.data_controller import DataController
 from covariscope.qt.data_panel import DataPanel
 from covariscope.qt.diagnostics import CovariateDialog, EndpointDialog, NodeDialog
 from covariscope.qt.estimates_strip import EstimatesStrip
+from covariscope.qt.geometry import restore_layout, save_layout, window_size
 from covariscope.qt.messages_bar import MessagesBar
 from covariscope.qt.outcome_dialog import OutcomeColumnsDialog
 from covariscope.qt.project_io import ProjectIO, Prompts
@@ -67,7 +68,7 @@ class MainWindow(QMainWindow):
     ) -> None:
         super().__init__()
         self.setObjectName("mainWindow")
-        self.resize(1400, 900)
+        self.resize(window_size(self.screen().availableGeometry().size()))
         self.project = Project()
         self.undo_stack = QUndoStack(self)
         self.prompts = prompts or Prompts(self)
@@ -88,9 +89,10 @@ class MainWindow(QMainWindow):
         self.messages_bar = MessagesBar()
         self.messages_bar.fix_requested.connect(self.apply_fix)
         self.centre = QWidget()
-        QVBoxLayout(self.centre).setContentsMargins(0, 0, 0, 0)
-        self.centre.layout().addWidget(self.messages_bar)
-        self.centre.layout().addWidget(self.strip)
+        self.centre_layout = QVBoxLayout(self.centre)
+        self.centre_layout.setContentsMargins(0, 0, 0, 0)
+        self.centre_layout.addWidget(self.messages_bar)
+        self.centre_layout.addWidget(self.strip)
         self.setCentralWidget(self.centre)
         self.scene: Any = None
         self.view: Any = None
@@ -106,9 +108,9 @@ class MainWindow(QMainWindow):
         self.review.node_activated.connect(self.open_diagnostics)
         self.review.keep_chosen.connect(self.keep_member)
         self.paths = PathsPanel()
-        self.paths.path_chosen.connect(lambda p: self.scene.highlight_path(list(p) if p else None))
+        self.paths.path_chosen.connect(self._highlight_path)
         self.claims = ClaimsPanel()
-        self.claims.suggestion_chosen.connect(lambda c: self.scene.show_suggestion(c))
+        self.claims.suggestion_chosen.connect(self._show_suggestion)
         self.claims.settings_changed.connect(lambda ch: self.project.update_settings(**ch))
         self.docks = {
             "data": self._dock("Data", self.data_panel, Qt.DockWidgetArea.LeftDockWidgetArea),
@@ -128,12 +130,14 @@ class MainWindow(QMainWindow):
         # the paths list is short: it shares the left column with the data
         # panel, so the canvas keeps the whole width between them and the edge
         self.splitDockWidget(self.docks["data"], self.docks["paths"], Qt.Orientation.Vertical)
-        self.resizeDocks([self.docks["data"]], [430], Qt.Orientation.Horizontal)
+        self.resizeDocks([self.docks["data"]], [450], Qt.Orientation.Horizontal)
         self.resizeDocks(
             [self.docks["data"], self.docks["paths"]], [420, 150], Qt.Orientation.Vertical
         )
-        self.resizeDocks([self.docks["review"]], [260], Qt.Orientation.Vertical)
+        self._size_review()
         self._fitted = False
+        self._layout_settled = False
+        self._restored = False
 
         self.state_label = QLabel("No analysis yet")
         self.rows_label = QLabel("")
@@ -156,11 +160,22 @@ class MainWindow(QMainWindow):
 
         self.actions_ = WindowActions(self)
         self.actions_.build_menus()
-        self.addToolBar(self.actions_.build_toolbar())
+        self.addToolBar(
+            self.actions_.build_toolbar(compact=self.screen().availableGeometry().height() < 900)
+        )
         for dock in self.docks.values():
             self.actions_.view_menu.addAction(dock.toggleViewAction())
         self.set_project(project or Project())
         self.io.mark_clean()
+        self._restored = restore_layout(self)
+
+    def _size_review(self) -> None:
+        """The review table is the main output: give it a good share of the height."""
+        if not shiboken6.isValid(self):
+            return
+        review_height = max(260, int(self.height() * 0.4))
+        self.resizeDocks([self.docks["review"]], [review_height], Qt.Orientation.Vertical)
+        self.resizeDocks([self.docks["data"]], [450], Qt.Orientation.Horizontal)
 
     def _dock(self, title: str, widget: QWidget, area: Qt.DockWidgetArea) -> QDockWidget:
         dock = QDockWidget(title, self)
@@ -208,11 +223,11 @@ class MainWindow(QMainWindow):
             scene.mode_changed.connect(self.actions_.sync_mode)
             view.addActions(self.actions_.canvas_only)
         if self.view is not None:
-            self.centre.layout().removeWidget(self.view)
+            self.centre_layout.removeWidget(self.view)
             self.view.deleteLater()
         old_scene = self.scene
         self.scene, self.view = scene, view
-        self.centre.layout().addWidget(view, 1)
+        self.centre_layout.addWidget(view, 1)
         if old_scene is not None:
             old_scene.deleteLater()
         project.diagram.subscribe(self._model_changed)
@@ -227,11 +242,11 @@ class MainWindow(QMainWindow):
             self.data.start_load()
         self.request_analysis()
         if len(project.diagram):
-            view.fit_to_window()
+            view.fit_to_window(readable=True)
             self._fit_soon()
 
     def open_demo(self) -> bool:
-        from covariscope.cli import demo_folder, write_demo
+        from covariscope.model.demo import demo_folder, write_demo
 
         return self.io.open(str(write_demo(demo_folder())))
 
@@ -334,7 +349,17 @@ class MainWindow(QMainWindow):
             text = f"Keep {node_labels(self.project).get(member, member)} of its group"
         self.push(SetSettings(self.project, text, keep_choices=choices))
 
-    def _selection_changed(self, ids: list) -> None:
+    def _show_suggestion(self, claim: object) -> None:
+        if self.scene is not None:
+            self.scene.show_suggestion(claim)
+
+    def _highlight_path(self, path: object) -> None:
+        if self.scene is not None:
+            self.scene.highlight_path(
+                list(path) if isinstance(path, list | tuple) and path else None
+            )
+
+    def _selection_changed(self, ids: list[object]) -> None:
         self.selected_ids = [str(i) for i in ids]
         covariates = [i for i in self.selected_ids if i in self.project.diagram]
         if len(covariates) == 1:
@@ -408,7 +433,8 @@ class MainWindow(QMainWindow):
         if clip is None:
             self.show_message("The clipboard holds no diagram nodes to paste.")
             return []
-        return self.scene.paste(clip)
+        pasted: list[str] = self.scene.paste(clip)
+        return pasted
 
     def add_node_at_centre(self) -> None:
         centre = self.view.mapToScene(self.view.viewport().rect().center())
@@ -547,10 +573,26 @@ class MainWindow(QMainWindow):
 
     def resizeEvent(self, event: Any) -> None:
         super().resizeEvent(event)
+        # a window opened small and then widened gives the data panel its
+        # columns back (the canvas takes the rest)
+        data = self.docks["data"]
+        if (
+            self.width() >= 1200
+            and data.isVisible()
+            and not data.isFloating()
+            and data.width() < 450
+        ):
+            self.resizeDocks([data], [450], Qt.Orientation.Horizontal)
         self._fit_soon()
 
     def showEvent(self, event: Any) -> None:
         super().showEvent(event)
+        if not self._layout_settled:
+            # the docks take their share once the window has its real size,
+            # unless a remembered layout put them where the user left them
+            self._layout_settled = True
+            if not self._restored:
+                QTimer.singleShot(0, self._size_review)
         self._fit_soon()
 
     def _fit_soon(self) -> None:
@@ -569,7 +611,7 @@ class MainWindow(QMainWindow):
             and shiboken6.isValid(self.view)
             and not getattr(self.view, "user_zoomed", False)
         ):
-            self.view.fit_to_window()
+            self.view.fit_to_window(readable=True)
 
     # -- closing --------------------------------------------------------------------------
     def closeEvent(self, event: Any) -> None:
@@ -581,6 +623,7 @@ class MainWindow(QMainWindow):
             return
         for dialog in list(self.dialogs.values()):
             dialog.close()
+        save_layout(self)
         self.runner.shutdown(30_000)
         self.data.loader.shutdown(30_000)
         self.io.shutdown()
