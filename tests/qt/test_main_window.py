@@ -113,10 +113,7 @@ def test_screenshot_with_the_demo(qtbot, window, demo, tmp_path, wait_for_analys
     shutil.copyfile(shot, shots / "main_window.png")
     assert "Analysis up to date" in w.state_label.text()
     sample = w.result.sample
-    assert w.rows_label.text().startswith(
-        f"{sample.used:,} of {sample.rows:,} rows used · in memory · "
-    )
-    assert w.rows_label.text().endswith("MB in memory")  # the engine and the memory it holds
+    assert w.rows_label.text() == f"{sample.used:,} of {sample.rows:,} rows used"
 
 
 def test_window_title_marks_unsaved_changes(qtbot, window, demo):

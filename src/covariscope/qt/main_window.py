@@ -317,12 +317,7 @@ class MainWindow(QMainWindow):
             self._refresh_dialog(dialog)
         sample = getattr(result, "sample", None)
         if sample is not None:
-            from covariscope.data.sources.memuse import resident_text
-
-            # The window reads its data in memory; the engine and the memory held are named.
-            self.rows_label.setText(
-                f"{sample.used:,} of {sample.rows:,} rows used · in memory · {resident_text()}"
-            )
+            self.rows_label.setText(f"{sample.used:,} of {sample.rows:,} rows used")
         elif self.data.table is not None:
             self.rows_label.setText("Diagram only: see the messages above the diagram")
         else:
