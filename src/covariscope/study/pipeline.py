@@ -50,6 +50,7 @@ from covariscope.data.sources.choose import open_source
 from covariscope.data.sources.memory import MemorySource
 from covariscope.errors import DataError, DesignError
 from covariscope.model.project import Project
+from covariscope.study.checks import check_diagram, with_failed_claims
 from covariscope.study.degenerate import aliased_pairs, check_crude_fit
 from covariscope.study.facts import (
     group_why,
@@ -164,7 +165,7 @@ def run_study(
         Model family; default: the project's.
     progress : callable(fraction, text), optional
     cancel : callable() → bool, optional
-        Checked between models (raises
+        Checked between models and between passes over the rows (raises
         :class:`~covariscope.analysis.evidence.EvidenceCancelledError`).
 
     Raises
@@ -288,12 +289,19 @@ def run_study(
         def step(done: int, total: int) -> None:
             report(0.15 + 0.8 * done / max(total, 1), f"Fitting model {done} of {total}")
 
+        def each_pass(model: int, total: int, passes: int) -> None:
+            report(
+                0.15 + 0.8 * (model - 1) / max(total, 1),
+                f"Fitting model {model} of {total}, pass {passes} over the rows",
+            )
+
         evidence = compute_evidence(
             engine,
             candidates=candidates,
             added=bound,
             sets=sets,
             progress=step,
+            pass_progress=each_pass,
             cancel=cancel,
             index_threshold=thresholds["condition_index"],
         )
@@ -447,6 +455,16 @@ def run_study(
             )
         verdicts[c] = verdict
 
+    checks = None
+    if engine is not None:
+        report(0.96, "Checking the diagram against the data")
+        checks = check_diagram(project, G, exposure, outcome, engine, cancel=cancel)
+        if checks.omitted:
+            messages.append(
+                f"The diagram implies {checks.tested + checks.omitted} independence claims; "
+                f"only {checks.limit} were tested (raise the limit in the analysis settings)."
+            )
+
     estimates: dict[str, Fit | None] = dict.fromkeys(ESTIMATE_KEYS)
     ev_value: EValue | None = None
     pictures: tuple[CollinearityPicture, ...] = ()
@@ -493,6 +511,9 @@ def run_study(
         if v.code == "review"
         or (v.code == "exclude_measures_exposure" and v.node not in da.measures_exposure)
     )
+    if checks is not None:
+        # After the disagreements: their short form stays the verdict's own sentence.
+        verdicts = with_failed_claims(verdicts, checks, names)
     messages.append(
         "The diagram holds assumptions the data cannot fully test; the thresholds are guides, "
         "not rules, and unmeasured confounding is possible."
@@ -519,6 +540,7 @@ def run_study(
         data_sha256=data_sha,
         recommended_reason=rec.reason,
         names=names,
+        diagram_checks=checks,
         pictures=pictures,
         modification=modification,
     )
