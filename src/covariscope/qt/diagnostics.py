@@ -47,6 +47,7 @@ from covariscope.views.diagnostics import (
 )
 from covariscope.views.format import ratio_family
 from covariscope.views.keep_choice import KeepChoice, keep_choice
+from covariscope.views.residual import FORM_CHOICES
 from covariscope.vocabulary import FAMILY_TERMS
 
 __all__ = ["FAMILY_LABELS", "CovariateDialog", "EndpointDialog", "NodeDialog"]
@@ -193,6 +194,8 @@ class CovariateDialog(NodeDialog):
 
     #: keep a member of the covariate's collinear group: (group key, member id)
     keep_chosen = Signal(str, object)
+    #: enter the covariate's column linearly (0) or as a spline with this many knots
+    form_chosen = Signal(str, int)
 
     def __init__(self, node_id: str, parent: QWidget | None = None) -> None:
         super().__init__(node_id, parent)
@@ -212,6 +215,17 @@ class CovariateDialog(NodeDialog):
         keep_lay.addWidget(self.keep_member)
         keep_lay.addWidget(self.keep_note, 1)
         self.keep_box.hide()
+        self.form_box = QGroupBox("Form in the models")
+        self.form = QComboBox()
+        for knots, label in FORM_CHOICES:
+            self.form.addItem(label, knots)
+        self.form.setToolTip(
+            "A continuous covariate enters linearly, or as a natural cubic spline with knots "
+            "at quantiles when its effect may be curved (saved with the project; one undo step)."
+        )
+        self.form.activated.connect(self._form_activated)
+        QHBoxLayout(self.form_box).addWidget(self.form)
+        self.form_box.hide()
         self.heading = QLabel()
         self.heading.setObjectName("dialogHeading")
         self.verdict = QLabel()
@@ -278,6 +292,7 @@ class CovariateDialog(NodeDialog):
         top = QHBoxLayout()
         left = QVBoxLayout()
         left.addWidget(self.keep_box)
+        left.addWidget(self.form_box)
         left.addWidget(checklist_box)
         left.addStretch(1)
         # the numbers need the room of five columns; the checklist wraps
@@ -317,6 +332,9 @@ class CovariateDialog(NodeDialog):
         self.messages.setText(measure)
         self.set_note(s.note)
         self._show_keep(keep_choice(project, result, self.node_id))
+        self.form_box.setVisible(s.knots is not None)
+        if s.knots is not None:
+            self.form.setCurrentIndex(max(self.form.findData(s.knots), 0))
         self._plot_estimates(s, getattr(result, "family", project.analysis.family))
         self._plot_data(s, project, profiles, _analysed_rows(sample, frame, s))
         self._plot_joint(s)
@@ -367,6 +385,19 @@ class CovariateDialog(NodeDialog):
             raise KeyError(member)
         self.keep_member.setCurrentIndex(index)
         self._keep_activated(index)
+
+    def choose_form(self, knots: int) -> None:
+        """Enter the covariate linearly (0) or as a spline, as choosing it in the list does."""
+        index = self.form.findData(knots)
+        if index < 0:
+            raise KeyError(knots)
+        self.form.setCurrentIndex(index)
+        self._form_activated(index)
+
+    def _form_activated(self, index: int) -> None:
+        column = self.state.column if self.state is not None else None
+        if column and index >= 0:
+            self.form_chosen.emit(column, int(self.form.itemData(index)))
 
     def _keep_activated(self, index: int) -> None:
         if self.keep is not None and index >= 0:

@@ -32,6 +32,7 @@ from covariscope.analysis.graph import (
 from covariscope.analysis.joint_region import CollinearityPicture, collinearity_pictures
 from covariscope.analysis.modification import Modification, modification_table
 from covariscope.analysis.recommend import pair_r2, recommend_set
+from covariscope.analysis.splines import ResidualCheck, residual_table
 from covariscope.analysis.verdicts import (
     LABELS,
     VERDICTS,
@@ -438,6 +439,7 @@ def run_study(
     ev_value: EValue | None = None
     pictures: tuple[CollinearityPicture, ...] = ()
     modification: dict[str, Modification] = {}
+    residual: dict[str, ResidualCheck] = {}
     if evidence is not None and engine is not None:
         aliases = [
             c
@@ -467,6 +469,22 @@ def run_study(
                 evidence.candidates,
                 p_guide=thresholds["modification_p"],
                 ratio_guide=thresholds["modification_ratio"],
+            )
+            report(0.98, "Checking continuous confounders for residual confounding")
+            spline_knots = {
+                c: project.analysis.spline_knots.get(diagram.node(c).column or "", 0)
+                for c in rec_fit.terms
+            }
+            residual = residual_table(
+                engine.design,
+                rec_fit.terms,
+                [
+                    c
+                    for c in rec_fit.terms
+                    if getattr(da.roles.get(c), "role", None) == "confounder"
+                ],
+                knots=spline_knots,
+                change_guide=thresholds["change_pct"],
             )
 
     disagreements = tuple(
@@ -503,4 +521,5 @@ def run_study(
         names=names,
         pictures=pictures,
         modification=modification,
+        residual_confounding=residual,
     )

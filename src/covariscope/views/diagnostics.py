@@ -17,6 +17,7 @@ from covariscope.views.estimates import display_scale
 from covariscope.views.format import DASH, is_number, number, percent
 from covariscope.views.joint_picture import PictureView, picture_views
 from covariscope.views.modification import ModificationView, modification_view
+from covariscope.views.residual import residual_figures
 from covariscope.views.review import change_value, role_words
 from covariscope.vocabulary import CAUTIONS
 
@@ -71,6 +72,8 @@ class NodeDiagnostics:
     pictures: tuple[PictureView, ...] = ()
     #: the exposure's effect across the covariate's levels (effect modification)
     modification: ModificationView | None = None
+    #: the covariate's form, knots of its spline (0: linear); None when it is not continuous
+    knots: int | None = None
 
 
 @dataclass(frozen=True)
@@ -243,6 +246,10 @@ def node_diagnostics(
             ]
         figures.append((f"VIF of the exposure in crude + {name}", number(vif_x)))
         figures += _own(name, getattr(ev, "own_coef", None), getattr(ev, "own_ci", None))
+        figures += residual_figures(
+            (getattr(result, "residual_confounding", None) or {}).get(node_id),
+            node.label or node_id,
+        )
         for name, comparison in (("adding", added), ("dropping", dropped)):
             parts = getattr(comparison, "se_ratio_parts", None)
             if parts:
@@ -269,6 +276,11 @@ def node_diagnostics(
         exposure_label=exposure.label if exposure else "",
         categorical=ctype in ("binary", "categorical"),
         numbers=numbers,
+        knots=(
+            project.analysis.spline_knots.get(node.column, 0)
+            if node.column and ctype in ("continuous", "count")
+            else None
+        ),
         pictures=picture_views(getattr(result, "pictures", ()) or (), node_id, labels),
         modification=modification_view(
             (getattr(result, "modification", None) or {}).get(node_id),

@@ -23,6 +23,7 @@ from typing import Any
 
 from covariscope import __version__
 from covariscope.views.modification import flagged_lines
+from covariscope.views.residual import flagged_residual_lines
 from covariscope.views.review import change_value, role_words
 from covariscope.vocabulary import CAUTIONS, family_term
 
@@ -187,6 +188,8 @@ class RationaleContent:
     project_name: str
     #: one line per flagged modifier of the exposure's effect (not confounding)
     modification: tuple[str, ...] = ()
+    #: one line per continuous confounder whose spline moves the estimate past the guide
+    residual: tuple[str, ...] = ()
 
 
 def _get(obj: Any, name: str, default: Any = None) -> Any:
@@ -597,5 +600,8 @@ def build_content(result: Any, project: Any, *, today: _dt.date | None = None) -
         exposure=x_label,
         outcome=y_label,
         project_name=project_name,
+        residual=tuple(
+            flagged_residual_lines(_get(result, "residual_confounding", {}) or {}, label_of)
+        ),
         modification=tuple(flagged_lines(_get(result, "modification", {}) or {}, label_of)),
     )
