@@ -448,6 +448,11 @@ def run_study(
         ]
         # the pictures, modification and spline checks read the rows themselves
         in_memory = engine.design.rows_in_memory
+        if not in_memory:
+            messages.append(
+                "Effect modification and the collinearity picture read the rows themselves, "
+                "so they are shown only when the data are analysed in memory."
+            )
         if in_memory:
             pictures = collinearity_pictures(evidence.full, engine.design, groups, aliases)
         estimates["crude"] = evidence.crude
