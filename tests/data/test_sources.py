@@ -33,8 +33,9 @@ FAMILIES = ("linear", "logistic", "risk_ratio", "cox")
 #: Relative agreement: exact sums for linear models, the Newton tolerance otherwise.
 TOLERANCE = {"linear": 1e-10, "logistic": 1e-7, "risk_ratio": 1e-7, "cox": 1e-10}
 #: Parts of the result that name the engine or the file, not the analysis, and the
-#: checks that read the rows themselves (effect modification), made in memory only.
-ENGINE_WORDS = ("messages", "data", "modification")
+#: checks that read the rows themselves (effect modification, residual confounding),
+#: made in memory only.
+ENGINE_WORDS = ("messages", "data", "modification", "residual_confounding")
 
 
 def _leaves(value: Any, path: str = "") -> dict[str, Any]:

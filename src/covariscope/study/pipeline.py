@@ -450,9 +450,15 @@ def run_study(
         in_memory = engine.design.rows_in_memory
         if not in_memory:
             messages.append(
-                "Effect modification and the collinearity picture read the rows themselves, "
-                "so they are shown only when the data are analysed in memory."
+                "Effect modification, the residual-confounding check of continuous confounders "
+                "and the collinearity picture read the rows themselves, so they are shown only "
+                "when the data are analysed in memory."
             )
+            if project.analysis.spline_knots:
+                messages.append(
+                    "Splines are built from the rows in memory: with the data read where they "
+                    "lie, every continuous covariate enters linearly."
+                )
         if in_memory:
             pictures = collinearity_pictures(evidence.full, engine.design, groups, aliases)
         estimates["crude"] = evidence.crude
