@@ -200,3 +200,23 @@ def test_form_chooser_enters_a_covariate_as_a_spline(qtbot, window, demo, wait_f
     assert not plain.form_box.isVisibleTo(plain)
     plain.close()
     dialog.close()
+
+
+def test_dialog_plots_are_saved_with_the_collinearity_picture(
+    qtbot, window, demo, tmp_path, wait_for_analysis
+):
+    w = window
+    w.io.open(str(demo / "demo_project.json"))
+    wait_for_analysis(qtbot, w)
+    dialog = w.open_diagnostics("income")
+    w.prompts.answers["save_path"] = str(tmp_path / "income.png")
+    dialog.save_plots_button.click()
+    names = sorted(p.name for p in tmp_path.glob("income-*.png"))
+    assert names == [
+        "income-collinearity.png",
+        "income-data.png",
+        "income-estimates.png",
+        "income-modification.png",
+    ]
+    assert all((tmp_path / n).stat().st_size > 1000 for n in names)
+    dialog.close()

@@ -8,6 +8,7 @@ the exposure's or outcome's shows its distribution, the model family
 
 from __future__ import annotations
 
+from pathlib import Path
 from typing import Any
 
 import numpy as np
@@ -196,6 +197,8 @@ class CovariateDialog(NodeDialog):
     keep_chosen = Signal(str, object)
     #: enter the covariate's column linearly (0) or as a spline with this many knots
     form_chosen = Signal(str, int)
+    #: the user asked to save the dialog's plots (node id)
+    plots_requested = Signal(str)
 
     def __init__(self, node_id: str, parent: QWidget | None = None) -> None:
         super().__init__(node_id, parent)
@@ -226,6 +229,14 @@ class CovariateDialog(NodeDialog):
         self.form.activated.connect(self._form_activated)
         QHBoxLayout(self.form_box).addWidget(self.form)
         self.form_box.hide()
+        self.save_plots_button = self.buttons.addButton(
+            "Save plots…", QDialogButtonBox.ButtonRole.ActionRole
+        )
+        self.save_plots_button.setToolTip(
+            "Save every plot of this dialog (estimates, data, the collinearity picture and "
+            "effect modification when shown) as images"
+        )
+        self.save_plots_button.clicked.connect(lambda: self.plots_requested.emit(self.node_id))
         self.heading = QLabel()
         self.heading.setObjectName("dialogHeading")
         self.verdict = QLabel()
@@ -385,6 +396,26 @@ class CovariateDialog(NodeDialog):
             raise KeyError(member)
         self.keep_member.setCurrentIndex(index)
         self._keep_activated(index)
+
+    def save_plots(self, target: Path) -> list[Path]:
+        """Write each shown plot beside ``target``: ``<stem>-<plot><suffix>`` (PNG by default)."""
+        suffix = target.suffix or ".png"
+        plots = [("estimates", self.estimate_figure, True), ("data", self.data_figure, True)]
+        plots.append(("collinearity", self.joint_figure, self.plots.isTabEnabled(self._joint_tab)))
+        plots.append(
+            (
+                "modification",
+                self.modification_figure,
+                self.plots.isTabEnabled(self._modification_tab),
+            )
+        )
+        written = []
+        for name, figure, shown in plots:
+            if shown:
+                path = target.with_name(f"{target.stem}-{name}{suffix}")
+                figure.savefig(path, dpi=150)
+                written.append(path)
+        return written
 
     def choose_form(self, knots: int) -> None:
         """Enter the covariate linearly (0) or as a spline, as choosing it in the list does."""

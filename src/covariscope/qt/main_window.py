@@ -478,6 +478,7 @@ class MainWindow(QMainWindow):
             else:
                 dialog.keep_chosen.connect(self.keep_member)
                 dialog.form_chosen.connect(self.set_form)
+                dialog.plots_requested.connect(lambda n: output.export_dialog_plots(self, n))
             dialog.finished.connect(lambda _r, n=node_id: self.dialogs.pop(n, None))
             self.dialogs[node_id] = dialog
         self._refresh_dialog(dialog)
