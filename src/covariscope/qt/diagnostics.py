@@ -143,7 +143,7 @@ class NodeDialog(QDialog):
             "Your reasoning for this variable, in a sentence or two. It is saved in the "
             "project and printed in the rationale."
         )
-        self.note.setFixedHeight(56)
+        self.note.setFixedHeight(44)
         self.note.textChanged.connect(self._note_edited)
         self.save_note_button = QPushButton("Save note")
         self.save_note_button.setEnabled(False)
@@ -218,7 +218,8 @@ class CovariateDialog(NodeDialog):
         keep_lay.addWidget(self.keep_member)
         keep_lay.addWidget(self.keep_note, 1)
         self.keep_box.hide()
-        self.form_box = QGroupBox("Form in the models")
+        # a compact row beside the heading: the dialog has width to spare, not height
+        self.form_box = QWidget()
         self.form = QComboBox()
         for knots, label in FORM_CHOICES:
             self.form.addItem(label, knots)
@@ -227,7 +228,10 @@ class CovariateDialog(NodeDialog):
             "at quantiles when its effect may be curved (saved with the project; one undo step)."
         )
         self.form.activated.connect(self._form_activated)
-        QHBoxLayout(self.form_box).addWidget(self.form)
+        form_row = QHBoxLayout(self.form_box)
+        form_row.setContentsMargins(0, 0, 0, 0)
+        form_row.addWidget(QLabel("Form in the models:"))
+        form_row.addWidget(self.form)
         self.form_box.hide()
         self.save_plots_button = self.buttons.addButton(
             "Save plots…", QDialogButtonBox.ButtonRole.ActionRole
@@ -260,12 +264,12 @@ class CovariateDialog(NodeDialog):
         self.estimate_canvas = FigureCanvasQTAgg(self.estimate_figure)
         self.data_figure = Figure(figsize=(4.4, 3.0), layout="constrained")
         self.data_canvas = FigureCanvasQTAgg(self.data_figure)
-        self.joint_figure = Figure(figsize=(7.0, 1.7), layout="constrained")
+        self.joint_figure = Figure(figsize=(7.0, 1.5), layout="constrained")
         self.joint_canvas = FigureCanvasQTAgg(self.joint_figure)
         self.joint_note = QLabel()
         self.joint_note.setObjectName("jointNote")
         self.joint_note.setWordWrap(True)
-        self.modification_figure = Figure(figsize=(7.0, 1.7), layout="constrained")
+        self.modification_figure = Figure(figsize=(7.0, 1.5), layout="constrained")
         self.modification_canvas = FigureCanvasQTAgg(self.modification_figure)
         self.modification_note = QLabel()
         self.modification_note.setObjectName("modificationNote")
@@ -277,7 +281,7 @@ class CovariateDialog(NodeDialog):
             self.modification_canvas,
         ):
             # the tab bar takes 30 px of the plots' height; the dialog must still fit 768 px
-            c.setMinimumSize(300, 170)
+            c.setMinimumSize(300, 150)
 
         checklist_box = QGroupBox("What the diagram says")
         QVBoxLayout(checklist_box).addWidget(self.checks)
@@ -303,14 +307,16 @@ class CovariateDialog(NodeDialog):
         top = QHBoxLayout()
         left = QVBoxLayout()
         left.addWidget(self.keep_box)
-        left.addWidget(self.form_box)
         left.addWidget(checklist_box)
         left.addStretch(1)
         # the numbers need the room of five columns; the checklist wraps
         top.addLayout(left, 2)
         top.addWidget(numbers, 3)
         layout = QVBoxLayout(self)
-        layout.addWidget(self.heading)
+        head = QHBoxLayout()
+        head.addWidget(self.heading, 1)
+        head.addWidget(self.form_box)
+        layout.addLayout(head)
         # the verdict's reason is the longest text: it gets the full width
         layout.addWidget(self.verdict)
         layout.addLayout(top, 3)
