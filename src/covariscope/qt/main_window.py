@@ -31,6 +31,7 @@ from covariscope.model.project import Project
 from covariscope.qt import output
 from covariscope.qt.actions import WindowActions
 from covariscope.qt.canvas import DiagramScene, DiagramView
+from covariscope.qt.claims_panel import ClaimsPanel
 from covariscope.qt.clipboard import selection_from_mime, selection_mime
 from covariscope.qt.data_controller import DataController
 from covariscope.qt.data_panel import DataPanel
@@ -107,6 +108,8 @@ class MainWindow(QMainWindow):
         self.review.keep_chosen.connect(self.keep_member)
         self.paths = PathsPanel()
         self.paths.path_chosen.connect(lambda p: self.scene.highlight_path(list(p) if p else None))
+        self.claims = ClaimsPanel()
+        self.claims.suggestion_chosen.connect(lambda c: self.scene.show_suggestion(c))
         self.docks = {
             "data": self._dock("Data", self.data_panel, Qt.DockWidgetArea.LeftDockWidgetArea),
             "review": self._dock(
@@ -115,7 +118,13 @@ class MainWindow(QMainWindow):
             "paths": self._dock(
                 "Open backdoor paths", self.paths, Qt.DockWidgetArea.LeftDockWidgetArea
             ),
+            "claims": self._dock(
+                "Independence claims", self.claims, Qt.DockWidgetArea.BottomDockWidgetArea
+            ),
         }
+        # the claims share the bottom with the review, one tab each
+        self.tabifyDockWidget(self.docks["review"], self.docks["claims"])
+        self.docks["review"].raise_()
         # the paths list is short: it shares the left column with the data
         # panel, so the canvas keeps the whole width between them and the edge
         self.splitDockWidget(self.docks["data"], self.docks["paths"], Qt.Orientation.Vertical)
@@ -267,6 +276,7 @@ class MainWindow(QMainWindow):
         self.data_panel.refresh(self.project, self.data.table, self.data.profiles)
         self.review.refresh(self.project, self.result)
         self.paths.refresh(self.result, node_labels(self.project))
+        self.claims.refresh(self.result)
         self.strip.refresh(self.result)
         self.messages_bar.refresh(
             window_messages(

@@ -49,8 +49,10 @@ from covariscope.data.sample import AnalyticSample
 from covariscope.data.sources.base import DataSource
 from covariscope.data.sources.choose import open_source
 from covariscope.data.sources.memory import MemorySource
-from covariscope.errors import DataError
+from covariscope.errors import DataError, DesignError
 from covariscope.model.project import Project
+from covariscope.study.checks import check_diagram, with_failed_claims
+from covariscope.study.degenerate import aliased_pairs, check_crude_fit
 from covariscope.study.facts import (
     group_why,
     needed_together,
@@ -234,10 +236,16 @@ def run_study(
             sample, engine, bound = prepare_evidence(
                 project, source, family, exposure, outcome, da, messages
             )
+        except DesignError:
+            raise  # no number could mean anything: the study stops, saying why
         except DataError as exc:
             messages.append(f"{exc} Only the diagram is analysed.")
             sample, engine = None, None
-        columns = project.analysis.family_columns.get(family, {})
+        columns = {
+            k: v
+            for k, v in project.analysis.family_columns.get(family, {}).items()
+            if k != "offset" or family == "risk_ratio"  # others take no offset (said above)
+        }
         if engine is not None and columns:
             # The outcome node may be bound to another column than this family reads.
             shown = ", ".join(f"{k} {v!r}" for k, v in sorted(columns.items()))
@@ -253,6 +261,8 @@ def run_study(
 
     minimal = [tuple(s) for s in da.minimal_sets]
     set_names = {m: f"minimal:{i}" for i, m in enumerate(minimal)}
+    if engine is not None and family == "linear":
+        check_crude_fit(engine.ols(()), names[exposure], names[outcome])
     if engine is not None:
         report(0.15, "Fitting the comparison models")
         roles = da.roles
@@ -355,6 +365,9 @@ def run_study(
     # caution; the rest of their group (two or more) is still one to keep one of.
     needed = {g: needed_together(G, exposure, outcome, g, base) for g in groups}
     verdicts: dict[str, Verdict] = {}
+    aliases = aliased_pairs(
+        evidence.aliased if evidence is not None else (), set(da.roles), da.groups
+    )
     for c, facts in da.roles.items():
         node = diagram.node(c)
         group = next((g for g in groups if c in g), ())
@@ -415,6 +428,7 @@ def run_study(
             sufficient_without=(True if rec.members is not None else (False if proposed else None)),
             set_name="recommended" if rec.members is not None else "proposed",
             set_members=tuple(base),
+            aliased_with=aliases.get(c, ()),
         )
         verdict = decide_verdict(
             f, _numbers(evidence, c), family=family, thresholds=thresholds, names=names
@@ -434,6 +448,16 @@ def run_study(
                 verdict.suggested,
             )
         verdicts[c] = verdict
+
+    checks = None
+    if engine is not None:
+        report(0.96, "Checking the diagram against the data")
+        checks = check_diagram(project, G, exposure, outcome, engine, cancel=cancel)
+        if checks.omitted:
+            messages.append(
+                f"The diagram implies {checks.tested + checks.omitted} independence claims; "
+                f"only {checks.limit} were tested (raise the limit in the analysis settings)."
+            )
 
     estimates: dict[str, Fit | None] = dict.fromkeys(ESTIMATE_KEYS)
     ev_value: EValue | None = None
@@ -504,6 +528,9 @@ def run_study(
         if v.code == "review"
         or (v.code == "exclude_measures_exposure" and v.node not in da.measures_exposure)
     )
+    if checks is not None:
+        # After the disagreements: their short form stays the verdict's own sentence.
+        verdicts = with_failed_claims(verdicts, checks, names)
     messages.append(
         "The diagram holds assumptions the data cannot fully test; the thresholds are guides, "
         "not rules, and unmeasured confounding is possible."
@@ -530,6 +557,7 @@ def run_study(
         data_sha256=data_sha,
         recommended_reason=rec.reason,
         names=names,
+        diagram_checks=checks,
         pictures=pictures,
         modification=modification,
         residual_confounding=residual,
