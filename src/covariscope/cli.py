@@ -11,9 +11,11 @@ import argparse
 import contextlib
 import errno
 import json
+import math
 import os
 import shutil
 import sys
+import time
 import traceback
 from collections.abc import Sequence
 from importlib import resources
@@ -24,7 +26,15 @@ from covariscope import __version__
 from covariscope.errors import CovariscopeError
 from covariscope.vocabulary import Family
 
-__all__ = ["demo_folder", "error_log_path", "has_display", "main", "one_line", "write_demo"]
+__all__ = [
+    "TerminalProgress",
+    "demo_folder",
+    "error_log_path",
+    "has_display",
+    "main",
+    "one_line",
+    "write_demo",
+]
 
 COMMANDS = ("gui", "check", "report", "export", "demo")
 FAMILY_CHOICES = [f.value for f in Family]
@@ -136,6 +146,41 @@ def write_demo(folder: Path) -> Path:
     return target
 
 
+class TerminalProgress:
+    """Progress of a long run on standard error: only on a terminal, and only
+    once the run has taken more than a second (short runs print nothing).
+
+    >>> import io
+    >>> show = TerminalProgress(io.StringIO())  # not a terminal: silent
+    >>> show(0.5, "Fitting model 3 of 42, pass 2 over the rows"); show.close()
+    """
+
+    def __init__(self, stream: Any, *, delay: float = 1.0, every: float = 0.1) -> None:
+        self.stream = stream
+        self.active = bool(getattr(stream, "isatty", lambda: False)())
+        self.delay, self.every = delay, every
+        self.start = time.monotonic()
+        self.last = -math.inf
+        self.width = 0
+
+    def __call__(self, fraction: float, text: str = "") -> None:
+        now = time.monotonic()
+        if not self.active or now - self.start < self.delay or now - self.last < self.every:
+            return
+        self.last = now
+        line = f"{100 * fraction:3.0f}%  {text}"[:78]
+        self.stream.write("\r" + line.ljust(self.width))
+        self.stream.flush()
+        self.width = len(line)
+
+    def close(self) -> None:
+        """Clear the progress line (if one was shown)."""
+        if self.width:
+            self.stream.write("\r" + " " * self.width + "\r")
+            self.stream.flush()
+            self.width = 0
+
+
 def _run(args: argparse.Namespace) -> tuple[Any, Any]:
     from covariscope.data.sources.choose import open_source
     from covariscope.model.project import load_project
@@ -150,9 +195,11 @@ def _run(args: argparse.Namespace) -> tuple[Any, Any]:
         source = open_source(args.data, engine, scheduler=scheduler)
     elif project.data is not None:
         source = open_source(project.data.resolve(project.path), engine, scheduler=scheduler)
+    progress = TerminalProgress(sys.stderr)
     try:
-        result = run_study(project, source=source, family=args.family)
+        result = run_study(project, source=source, family=args.family, progress=progress)
     finally:
+        progress.close()
         close = getattr(source, "close", None)
         if close is not None:
             close()

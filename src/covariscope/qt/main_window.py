@@ -37,6 +37,7 @@ from covariscope.qt.data_controller import DataController
 from covariscope.qt.data_panel import DataPanel
 from covariscope.qt.diagnostics import CovariateDialog, EndpointDialog, NodeDialog
 from covariscope.qt.estimates_strip import EstimatesStrip
+from covariscope.qt.geometry import restore_layout, save_layout, window_size
 from covariscope.qt.messages_bar import MessagesBar
 from covariscope.qt.outcome_dialog import OutcomeColumnsDialog
 from covariscope.qt.project_io import ProjectIO, Prompts
@@ -68,7 +69,7 @@ class MainWindow(QMainWindow):
     ) -> None:
         super().__init__()
         self.setObjectName("mainWindow")
-        self.resize(1400, 900)
+        self.resize(window_size(self.screen().availableGeometry().size()))
         self.project = Project()
         self.undo_stack = QUndoStack(self)
         self.prompts = prompts or Prompts(self)
@@ -128,12 +129,14 @@ class MainWindow(QMainWindow):
         # the paths list is short: it shares the left column with the data
         # panel, so the canvas keeps the whole width between them and the edge
         self.splitDockWidget(self.docks["data"], self.docks["paths"], Qt.Orientation.Vertical)
-        self.resizeDocks([self.docks["data"]], [430], Qt.Orientation.Horizontal)
+        self.resizeDocks([self.docks["data"]], [450], Qt.Orientation.Horizontal)
         self.resizeDocks(
             [self.docks["data"], self.docks["paths"]], [420, 150], Qt.Orientation.Vertical
         )
-        self.resizeDocks([self.docks["review"]], [260], Qt.Orientation.Vertical)
+        self._size_review()
         self._fitted = False
+        self._layout_settled = False
+        self._restored = False
 
         self.state_label = QLabel("No analysis yet")
         self.rows_label = QLabel("")
@@ -156,11 +159,22 @@ class MainWindow(QMainWindow):
 
         self.actions_ = WindowActions(self)
         self.actions_.build_menus()
-        self.addToolBar(self.actions_.build_toolbar())
+        self.addToolBar(
+            self.actions_.build_toolbar(compact=self.screen().availableGeometry().height() < 900)
+        )
         for dock in self.docks.values():
             self.actions_.view_menu.addAction(dock.toggleViewAction())
         self.set_project(project or Project())
         self.io.mark_clean()
+        self._restored = restore_layout(self)
+
+    def _size_review(self) -> None:
+        """The review table is the main output: give it a good share of the height."""
+        if not shiboken6.isValid(self):
+            return
+        review_height = max(260, int(self.height() * 0.4))
+        self.resizeDocks([self.docks["review"]], [review_height], Qt.Orientation.Vertical)
+        self.resizeDocks([self.docks["data"]], [450], Qt.Orientation.Horizontal)
 
     def _dock(self, title: str, widget: QWidget, area: Qt.DockWidgetArea) -> QDockWidget:
         dock = QDockWidget(title, self)
@@ -227,7 +241,7 @@ class MainWindow(QMainWindow):
             self.data.start_load()
         self.request_analysis()
         if len(project.diagram):
-            view.fit_to_window()
+            view.fit_to_window(readable=True)
             self._fit_soon()
 
     def open_demo(self) -> bool:
@@ -553,10 +567,26 @@ class MainWindow(QMainWindow):
 
     def resizeEvent(self, event: Any) -> None:
         super().resizeEvent(event)
+        # a window opened small and then widened gives the data panel its
+        # columns back (the canvas takes the rest)
+        data = self.docks["data"]
+        if (
+            self.width() >= 1200
+            and data.isVisible()
+            and not data.isFloating()
+            and data.width() < 450
+        ):
+            self.resizeDocks([data], [450], Qt.Orientation.Horizontal)
         self._fit_soon()
 
     def showEvent(self, event: Any) -> None:
         super().showEvent(event)
+        if not self._layout_settled:
+            # the docks take their share once the window has its real size,
+            # unless a remembered layout put them where the user left them
+            self._layout_settled = True
+            if not self._restored:
+                QTimer.singleShot(0, self._size_review)
         self._fit_soon()
 
     def _fit_soon(self) -> None:
@@ -575,7 +605,7 @@ class MainWindow(QMainWindow):
             and shiboken6.isValid(self.view)
             and not getattr(self.view, "user_zoomed", False)
         ):
-            self.view.fit_to_window()
+            self.view.fit_to_window(readable=True)
 
     # -- closing --------------------------------------------------------------------------
     def closeEvent(self, event: Any) -> None:
@@ -587,6 +617,7 @@ class MainWindow(QMainWindow):
             return
         for dialog in list(self.dialogs.values()):
             dialog.close()
+        save_layout(self)
         self.runner.shutdown(30_000)
         self.data.loader.shutdown(30_000)
         self.io.shutdown()

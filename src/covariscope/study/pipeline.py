@@ -166,7 +166,7 @@ def run_study(
         Model family; default: the project's.
     progress : callable(fraction, text), optional
     cancel : callable() → bool, optional
-        Checked between models (raises
+        Checked between models and between passes over the rows (raises
         :class:`~covariscope.analysis.evidence.EvidenceCancelledError`).
 
     Raises
@@ -290,12 +290,19 @@ def run_study(
         def step(done: int, total: int) -> None:
             report(0.15 + 0.8 * done / max(total, 1), f"Fitting model {done} of {total}")
 
+        def each_pass(model: int, total: int, passes: int) -> None:
+            report(
+                0.15 + 0.8 * (model - 1) / max(total, 1),
+                f"Fitting model {model} of {total}, pass {passes} over the rows",
+            )
+
         evidence = compute_evidence(
             engine,
             candidates=candidates,
             added=bound,
             sets=sets,
             progress=step,
+            pass_progress=each_pass,
             cancel=cancel,
             index_threshold=thresholds["condition_index"],
         )

@@ -55,9 +55,9 @@ __all__ = [
     "verdict_text",
 ]
 
-LABEL_PX = 13  # label font size in scene units
-TAG_PX = 10
-BADGE_PX = 10
+LABEL_PX = 14  # label font size in scene units
+TAG_PX = 12  # at the window's smallest default zoom, about 8 px on screen
+BADGE_PX = 12
 _PAD_X = 12.0
 _FRAME_GAP = 6.0
 
