@@ -472,7 +472,7 @@ def run_study(
     modification: dict[str, Modification] = {}
     residual: dict[str, ResidualCheck] = {}
     if evidence is not None and engine is not None:
-        aliases = [
+        high_vif = [
             c
             for c, e in evidence.covariates.items()
             if c in evidence.candidates and e.vif_exposure_added >= thresholds["vif"]
@@ -491,7 +491,7 @@ def run_study(
                     "lie, every continuous covariate enters linearly."
                 )
         if in_memory:
-            pictures = collinearity_pictures(evidence.full, engine.design, groups, aliases)
+            pictures = collinearity_pictures(evidence.full, engine.design, groups, high_vif)
         estimates["crude"] = evidence.crude
         estimates["full"] = evidence.full
         estimates["proposed"] = evidence.sets.get("proposed")
