@@ -288,7 +288,8 @@ def condition_rows(report: Any, node_id: str, name: str) -> list[tuple[str, str]
     if report.condition_indices.size == 0:
         return []
     guide = f"guide {report.index_threshold:g}"
-    rows = [("Largest condition index, full model", f"{number(report.max_index)} ({guide})")]
+    largest = float(report.condition_indices[-1])  # ascending: the largest is last
+    rows = [("Largest condition index, full model", f"{number(largest)} ({guide})")]
     holding = [f for f in report.flagged if node_id in f.nodes]
     for f in holding:
         shares = ", ".join(
