@@ -165,7 +165,7 @@ def run_study(
         Model family; default: the project's.
     progress : callable(fraction, text), optional
     cancel : callable() → bool, optional
-        Checked between models (raises
+        Checked between models and between passes over the rows (raises
         :class:`~covariscope.analysis.evidence.EvidenceCancelledError`).
 
     Raises
@@ -289,12 +289,19 @@ def run_study(
         def step(done: int, total: int) -> None:
             report(0.15 + 0.8 * done / max(total, 1), f"Fitting model {done} of {total}")
 
+        def each_pass(model: int, total: int, passes: int) -> None:
+            report(
+                0.15 + 0.8 * (model - 1) / max(total, 1),
+                f"Fitting model {model} of {total}, pass {passes} over the rows",
+            )
+
         evidence = compute_evidence(
             engine,
             candidates=candidates,
             added=bound,
             sets=sets,
             progress=step,
+            pass_progress=each_pass,
             cancel=cancel,
             index_threshold=thresholds["condition_index"],
         )
@@ -463,7 +470,7 @@ def run_study(
     pictures: tuple[CollinearityPicture, ...] = ()
     modification: dict[str, Modification] = {}
     if evidence is not None and engine is not None:
-        aliases = [
+        high_vif = [
             c
             for c, e in evidence.covariates.items()
             if c in evidence.candidates and e.vif_exposure_added >= thresholds["vif"]
@@ -476,7 +483,7 @@ def run_study(
                 "so they are shown only when the data are analysed in memory."
             )
         if in_memory:
-            pictures = collinearity_pictures(evidence.full, engine.design, groups, aliases)
+            pictures = collinearity_pictures(evidence.full, engine.design, groups, high_vif)
         estimates["crude"] = evidence.crude
         estimates["full"] = evidence.full
         estimates["proposed"] = evidence.sets.get("proposed")
