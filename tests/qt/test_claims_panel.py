@@ -11,6 +11,7 @@ import json
 import numpy as np
 import pandas as pd
 import pytest
+from PySide6.QtCore import QPointF
 
 from covariscope.qt.canvas.items import ArrowItem, ProxyItem, SuggestionItem
 
@@ -68,6 +69,17 @@ def test_failed_claim_draws_a_suggested_link(qtbot, window, small_study, wait_fo
     assert not isinstance(hint, ArrowItem | ProxyItem)
     assert set(hint.pair) == {"a", "b"}
     assert not hint.flags() & hint.GraphicsItemFlag.ItemIsSelectable
+    # the bow bends to the side away from the other nodes (so its "?" stays clear)
+    centres = [w.scene.nodes[n].pos() for n in w.scene.nodes if n not in ("a", "b")]
+
+    def clearance(side: float) -> float:
+        d = hint.p2 - hint.p1
+        length = (d.x() ** 2 + d.y() ** 2) ** 0.5
+        bow = min(0.18 * length, 40.0) * side / length
+        mid = (hint.p1 + hint.p2) * 0.5 + QPointF(-d.y() * bow, d.x() * bow) * 0.5
+        return min(((mid - c).x() ** 2 + (mid - c).y() ** 2) ** 0.5 for c in centres)
+
+    assert clearance(hint.side) == max(clearance(1.0), clearance(-1.0))
     assert "the data disagree" in panel.detail.toPlainText()
     assert "Perhaps a missing arrow" in panel.detail.toPlainText()
     # a claim the data do not contradict draws nothing

@@ -189,10 +189,6 @@ class CollinearityReport:
     index_threshold: float
     proportion_threshold: float
 
-    @property
-    def max_index(self) -> float:
-        return float(self.condition_indices.max()) if self.condition_indices.size else 1.0
-
 
 def collinearity_report(
     summary: LinearSummary,

@@ -167,10 +167,6 @@ class EvidenceEngine:
         terms = list(self.design.blocks) if terms is None else terms
         return find_aliases(self.summary, self.groups(terms))
 
-    def exposure_vif(self, terms: Sequence[str]) -> float:
-        """VIF of the exposure in the model with ``terms`` (1 for the crude model)."""
-        return float(vif(self.summary, self.columns(terms))[0])
-
     # -- fitting -------------------------------------------------------------------
     def fit(self, terms: Sequence[str], on_pass: Callable[[], None] | None = None) -> Fit:
         """The model exposure + ``terms``; a failed :class:`Fit` (never an exception) when it cannot be fitted.
