@@ -802,7 +802,8 @@ def compute_evidence(
                 others = [j for j in vif_cols if j not in block.index]
                 g = gvif(summary, list(block.index), others)
                 v = g ** (1.0 / block.df)
-            if g is not None and v is not None:
+            if g is not None and v is not None and math.isfinite(v) and v > 0:
+                # (a VIF of 0 or NaN comes from a degenerate block: not available)
                 g_root = g ** (1.0 / (2 * block.df))
                 tol = 1.0 / v
                 aux = 1.0 - tol
