@@ -33,9 +33,10 @@ FAMILIES = ("linear", "logistic", "risk_ratio", "cox")
 #: Relative agreement: exact sums for linear models, the Newton tolerance otherwise.
 TOLERANCE = {"linear": 1e-10, "logistic": 1e-7, "risk_ratio": 1e-7, "cox": 1e-10}
 #: Parts of the result that name the engine or the file, not the analysis, and the
-#: checks that read the rows themselves (effect modification), made in memory only;
-#: the diagram checks are compared claim by claim (see _same_numeric_claims).
-ENGINE_WORDS = ("messages", "data", "modification", "diagram_checks")
+#: checks that read the rows themselves (effect modification, residual confounding),
+#: made in memory only; the diagram checks are compared claim by claim (see
+#: _same_numeric_claims).
+ENGINE_WORDS = ("messages", "data", "modification", "residual_confounding", "diagram_checks")
 
 
 def _leaves(value: Any, path: str = "") -> dict[str, Any]:

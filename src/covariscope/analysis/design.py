@@ -20,6 +20,7 @@ import pandas as pd
 
 from covariscope.analysis.fits import FAMILIES
 from covariscope.analysis.rows import ColumnStats, RowReducer
+from covariscope.analysis.spline_basis import spline_basis
 from covariscope.errors import DataError
 
 __all__ = [
@@ -51,6 +52,9 @@ class TermSpec:
     column: str
     type: str
     reference: Any = None
+    #: a continuous term's natural cubic spline knots (3 to 7; rows in memory
+    #: only); 0 enters it linearly
+    knots: int = 0
 
 
 @dataclass(frozen=True, eq=False)
@@ -65,6 +69,8 @@ class Block:
     #: a binary or categorical term's levels as text, the reference first, then
     #: one per column; empty for a continuous or count term
     levels: tuple[str, ...] = ()
+    #: a spline term's raw values (its columns are the basis); None otherwise
+    raw: np.ndarray | None = None
 
     @property
     def df(self) -> int:
@@ -241,6 +247,22 @@ def code_term(frame: pd.DataFrame, coding: TermCoding) -> list[np.ndarray]:
     return [(series == v).to_numpy(dtype=np.float64) for v in coding.levels]
 
 
+def _spline_columns(
+    values: np.ndarray, spec: TermSpec, what: str
+) -> tuple[list[str], list[np.ndarray]]:
+    """A continuous term's natural cubic spline basis columns (see
+    :mod:`covariscope.analysis.spline_basis`)."""
+    try:
+        basis = spline_basis(values, spec.knots)
+    except ValueError as exc:
+        raise DataError(
+            f"Column {spec.column!r} ({what}) cannot enter as a spline with {spec.knots} knots: "
+            f"{exc}; enter it linearly or choose fewer knots."
+        ) from exc
+    names = [f"{spec.column}[spline {j + 1}]" for j in range(basis.shape[1])]
+    return names, [basis[:, j] for j in range(basis.shape[1])]
+
+
 def _coded(
     frame: pd.DataFrame, spec: TermSpec, what: str
 ) -> tuple[list[str], list[np.ndarray], tuple[str, ...]]:
@@ -334,8 +356,12 @@ def make_design(
     all_vectors = list(vectors)
     spans: dict[str, tuple[list[str], tuple[int, ...]]] = {}
     texts: dict[str, tuple[str, ...]] = {}
+    raws: dict[str, np.ndarray] = {}
     for node, spec in covariates.items():
         cnames, cvecs, texts[node] = _coded(frame, spec, f"covariate {node}")
+        if spec.knots and spec.type in ("continuous", "count"):
+            raws[node] = cvecs[0]
+            cnames, cvecs = _spline_columns(cvecs[0], spec, f"covariate {node}")
         start = len(all_vectors)
         all_names += cnames
         all_vectors += cvecs
@@ -403,7 +429,9 @@ def make_design(
     if y is not None:
         values[:, -1] = y
     blocks = {
-        node: Block(node, tuple(cn), values[:, idx[0] : idx[-1] + 1], idx, texts[node])
+        node: Block(
+            node, tuple(cn), values[:, idx[0] : idx[-1] + 1], idx, texts[node], raws.get(node)
+        )
         for node, (cn, idx) in spans.items()
     }
     digest = hashlib.sha256(values.data.cast("B"))

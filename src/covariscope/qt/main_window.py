@@ -52,6 +52,7 @@ from covariscope.views.diagram import canvas_annotations
 from covariscope.views.keep_choice import keep_choice, keep_choices_after
 from covariscope.views.messages import window_messages
 from covariscope.views.outcome_settings import family_columns_after
+from covariscope.views.residual import spline_knots_after
 from covariscope.views.review import proposed_after_toggle
 
 __all__ = ["MainWindow"]
@@ -443,6 +444,13 @@ class MainWindow(QMainWindow):
         centre = self.view.mapToScene(self.view.viewport().rect().center())
         self.scene.add_node_at(QPointF(centre))
 
+    def set_form(self, column: str, knots: int) -> None:
+        """Enter ``column`` linearly (0) or as a spline with ``knots`` knots; one undo step."""
+        choices = spline_knots_after(self.project, column, knots)
+        if choices is not None:
+            text = f"Enter {column} as a spline" if knots else f"Enter {column} linearly"
+            self.push(SetSettings(self.project, text, spline_knots=choices))
+
     def set_family(self, family: str) -> None:
         if family != self.project.analysis.family:
             self.push(SetSettings(self.project, f"Use the {family} model", family=family))
@@ -512,6 +520,8 @@ class MainWindow(QMainWindow):
                 dialog.family_changed.connect(self.set_family)
             else:
                 dialog.keep_chosen.connect(self.keep_member)
+                dialog.form_chosen.connect(self.set_form)
+                dialog.plots_requested.connect(lambda n: output.export_dialog_plots(self, n))
             dialog.finished.connect(lambda _r, n=node_id: self.dialogs.pop(n, None))
             self.dialogs[node_id] = dialog
         self._refresh_dialog(dialog)

@@ -32,6 +32,7 @@ from covariscope.analysis.graph import (
 from covariscope.analysis.joint_region import CollinearityPicture, collinearity_pictures
 from covariscope.analysis.modification import Modification, modification_table
 from covariscope.analysis.recommend import pair_r2, recommend_set
+from covariscope.analysis.splines import ResidualCheck, residual_table
 from covariscope.analysis.verdicts import (
     LABELS,
     VERDICTS,
@@ -469,6 +470,7 @@ def run_study(
     ev_value: EValue | None = None
     pictures: tuple[CollinearityPicture, ...] = ()
     modification: dict[str, Modification] = {}
+    residual: dict[str, ResidualCheck] = {}
     if evidence is not None and engine is not None:
         high_vif = [
             c
@@ -479,9 +481,15 @@ def run_study(
         in_memory = engine.design.rows_in_memory
         if not in_memory:
             messages.append(
-                "Effect modification and the collinearity picture read the rows themselves, "
-                "so they are shown only when the data are analysed in memory."
+                "Effect modification, the residual-confounding check of continuous confounders "
+                "and the collinearity picture read the rows themselves, so they are shown only "
+                "when the data are analysed in memory."
             )
+            if project.analysis.spline_knots:
+                messages.append(
+                    "Splines are built from the rows in memory: with the data read where they "
+                    "lie, every continuous covariate enters linearly."
+                )
         if in_memory:
             pictures = collinearity_pictures(evidence.full, engine.design, groups, high_vif)
         estimates["crude"] = evidence.crude
@@ -503,6 +511,22 @@ def run_study(
                 evidence.candidates,
                 p_guide=thresholds["modification_p"],
                 ratio_guide=thresholds["modification_ratio"],
+            )
+            report(0.98, "Checking continuous confounders for residual confounding")
+            spline_knots = {
+                c: project.analysis.spline_knots.get(diagram.node(c).column or "", 0)
+                for c in rec_fit.terms
+            }
+            residual = residual_table(
+                engine.design,
+                rec_fit.terms,
+                [
+                    c
+                    for c in rec_fit.terms
+                    if getattr(da.roles.get(c), "role", None) == "confounder"
+                ],
+                knots=spline_knots,
+                change_guide=thresholds["change_pct"],
             )
 
     disagreements = tuple(
@@ -540,4 +564,5 @@ def run_study(
         diagram_checks=checks,
         pictures=pictures,
         modification=modification,
+        residual_confounding=residual,
     )

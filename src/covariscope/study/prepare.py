@@ -7,6 +7,7 @@ falls back to the diagram alone.
 
 from __future__ import annotations
 
+import dataclasses
 from collections.abc import Mapping
 from typing import Any
 
@@ -152,6 +153,9 @@ def _request(
         assert column is not None
         uses[column] = _use(column, profiles[column].type, profiles[column].reference)
         specs[b] = term_spec(uses[column])
+        knots = project.analysis.spline_knots.get(column, 0)
+        if knots and specs[b].type in ("continuous", "count"):
+            specs[b] = dataclasses.replace(specs[b], knots=knots)
     uses[x_col] = _use(x_col, profiles[x_col].type, profiles[x_col].reference)
     x_spec = term_spec(uses[x_col])
     for key in ("outcome", "event"):

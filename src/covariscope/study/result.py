@@ -12,6 +12,7 @@ from covariscope.analysis.fits import Fit
 from covariscope.analysis.graph import DiagramAnalysis
 from covariscope.analysis.joint_region import CollinearityPicture
 from covariscope.analysis.modification import Modification
+from covariscope.analysis.splines import ResidualCheck
 from covariscope.analysis.verdicts import Verdict
 from covariscope.data.sample import AnalyticSample
 
@@ -54,6 +55,8 @@ class StudyResult:
     #: effect modification of the exposure's effect by each candidate, in the
     #: recommended model (not confounding; changes no verdict)
     modification: dict[str, Modification] = field(default_factory=dict)
+    #: continuous confounders of the recommended model, linear against a spline
+    residual_confounding: dict[str, ResidualCheck] = field(default_factory=dict)
 
     def name(self, node: str) -> str:
         """The label prose uses for a node (a measure group by its members' labels)."""
