@@ -67,6 +67,18 @@ def _qt_test_mode(qapp):
 
 
 @pytest.fixture(autouse=True)
+def _fresh_settings(qapp):
+    """Every test starts with no remembered window layout or recent files:
+    Qt keeps one settings file per process, so a window closed by an earlier
+    test would otherwise hand its geometry and docks to the next one."""
+    from PySide6.QtCore import QSettings
+
+    QSettings().clear()
+    yield
+    QSettings().clear()
+
+
+@pytest.fixture(autouse=True)
 def _no_leaked_windows(qapp):
     from PySide6.QtWidgets import QApplication
 

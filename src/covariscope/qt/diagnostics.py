@@ -357,7 +357,9 @@ class CovariateDialog(NodeDialog):
         rows = _analysed_rows(sample, frame, s)
         of_rows = (
             sample.used
-            if getattr(sample, "frame_is_sample", False) and rows is sample.frame
+            if sample is not None
+            and getattr(sample, "frame_is_sample", False)
+            and rows is sample.frame
             else None
         )
         self._plot_data(s, project, profiles, rows, of_rows)
