@@ -1,16 +1,18 @@
 """Numeric design of the comparison models, built once from the analytic sample.
 
 The design holds every column any comparison model may use, in one
-C-contiguous float64 array (exposure, covariate columns in the order given,
-outcome last), so the linear summary reads it in a single pass and every
-model takes its columns as views.  Categorical terms become treatment
+column-major float64 array (exposure, covariate columns in the order given,
+outcome last), filled one column at a time from the coded terms, so the
+linear summary reads it in a single pass and every model takes its columns
+as views.  A term is coded on its distinct values (factorized), never row by
+row.  Categorical terms become treatment
 (reference-level) dummies named ``"column[level]"``; binary terms are coded
 0/1 with the non-reference level as 1.
 """
 
 from __future__ import annotations
 
-import hashlib
+import uuid
 from collections.abc import Mapping
 from dataclasses import dataclass, field
 from typing import Any
@@ -21,7 +23,20 @@ import pandas as pd
 from covariscope.analysis.fits import FAMILIES
 from covariscope.model.errors import DataError
 
-__all__ = ["TERM_TYPES", "Block", "Design", "TermSpec", "constant_message", "make_design"]
+__all__ = [
+    "TERM_TYPES",
+    "Block",
+    "CodedTerm",
+    "Design",
+    "DesignBuilder",
+    "Outcomes",
+    "TermSpec",
+    "check_exposure",
+    "code_term",
+    "constant_message",
+    "make_design",
+    "outcome_values",
+]
 
 #: Column types a term may have.
 TERM_TYPES: tuple[str, ...] = ("continuous", "binary", "count", "categorical")
@@ -60,9 +75,11 @@ class Block:
 class Design:
     """Numbers for every comparison model of one analytic sample.
 
-    ``values`` is n × q: the exposure (column 0), the covariate columns of
-    each block in order, then the outcome when there is one.  ``key`` is a
-    digest of the numbers and the specification; results are cached by it.
+    ``values`` is n × q (column-major): the exposure (column 0), the
+    covariate columns of each block in order, then the outcome when there is
+    one.  ``key`` names the design for caches: its builder makes it from what
+    the design was built from (the data's digest and the column
+    specifications), or a fresh unique value; the numbers are never hashed.
     """
 
     family: str
@@ -99,12 +116,15 @@ def constant_message(node: str, column: str) -> str:
     )
 
 
-def _numeric(frame: pd.DataFrame, column: str, what: str) -> np.ndarray:
-    if column not in frame.columns:
+def _column(frame: pd.DataFrame | Mapping[str, pd.Series], column: str, what: str) -> pd.Series:
+    if column not in frame:
         raise DataError(
             f"Column {column!r} ({what}) is not in the analytic sample; bind an existing column."
         )
-    series = frame[column]
+    return frame[column]
+
+
+def _numeric(series: pd.Series, column: str, what: str) -> np.ndarray:
     if series.dtype == bool:
         series = series.astype(np.float64)
     values: np.ndarray = np.asarray(
@@ -120,8 +140,20 @@ def _numeric(frame: pd.DataFrame, column: str, what: str) -> np.ndarray:
     return values
 
 
-def _levels(series: pd.Series, reference: Any) -> tuple[list[Any], Any]:
-    levels = sorted(pd.unique(series), key=lambda v: (str(type(v)), v))
+@dataclass(frozen=True, eq=False)
+class CodedTerm:
+    """The design columns of one term: their names and an n × k array."""
+
+    names: tuple[str, ...]
+    values: np.ndarray
+
+    @property
+    def nbytes(self) -> int:
+        return int(self.values.nbytes)
+
+
+def _levels(uniques: list[Any], name: object, reference: Any) -> tuple[list[Any], Any]:
+    levels = sorted(uniques, key=lambda v: (str(type(v)), v))
     if reference is None:
         reference = levels[0]
     elif reference not in levels:
@@ -129,30 +161,46 @@ def _levels(series: pd.Series, reference: Any) -> tuple[list[Any], Any]:
         matches = [v for v in levels if str(v) == str(reference)]
         if not matches:
             raise DataError(
-                f"Reference level {reference!r} of column {series.name!r} does not occur in the "
+                f"Reference level {reference!r} of column {name!r} does not occur in the "
                 f"analytic sample (levels: {', '.join(map(str, levels))}); choose one of these."
             )
         reference = matches[0]
     return levels, reference
 
 
-def _coded(frame: pd.DataFrame, spec: TermSpec, what: str) -> tuple[list[str], list[np.ndarray]]:
-    """Design columns of one term: names and vectors."""
+def _dummies(codes: np.ndarray, positions: list[int]) -> np.ndarray:
+    out = np.empty((len(codes), len(positions)), dtype=np.float64, order="F")
+    for j, p in enumerate(positions):
+        np.equal(codes, p, out=out[:, j], casting="unsafe")
+    return out
+
+
+def code_term(series: pd.Series, spec: TermSpec, what: str) -> CodedTerm:
+    """The design columns of one term, from the analytic sample's rows of its column.
+
+    Levels are found by factorizing the column (one pass, no Python call
+    per row); the dummies compare the integer codes.
+
+    Raises
+    ------
+    DataError
+        An unknown type, a non-numeric value in a numeric term, a binary
+        term with more than two levels, a reference that does not occur,
+        or a constant exposure.
+    """
     if spec.type not in TERM_TYPES:
         raise DataError(
             f"Unknown column type {spec.type!r} for {spec.column!r}; use one of {', '.join(TERM_TYPES)}."
         )
+    n = len(series)
     if spec.type in ("continuous", "count"):
-        return [spec.column], [_numeric(frame, spec.column, what)]
-    if spec.column not in frame.columns:
-        raise DataError(
-            f"Column {spec.column!r} ({what}) is not in the analytic sample; bind an existing column."
-        )
-    series = frame[spec.column]
-    levels, reference = _levels(series, spec.reference)
+        return CodedTerm((spec.column,), _numeric(series, spec.column, what).reshape(n, 1))
+    codes, uniques = pd.factorize(series, sort=False, use_na_sentinel=True)
+    present = list(pd.Index(uniques).tolist())
+    levels, reference = _levels(present, series.name, spec.reference)
     if len(levels) < 2 and what != "exposure":
         # One level: kept as a constant column, which the engine reports per model.
-        return [spec.column], [np.ones(len(series))]
+        return CodedTerm((spec.column,), np.ones((n, 1)))
     if len(levels) < 2:
         raise DataError(
             f"Column {spec.column!r} ({what}) has the same value in every row of the analytic "
@@ -163,13 +211,17 @@ def _coded(frame: pd.DataFrame, spec: TermSpec, what: str) -> tuple[list[str], l
             f"Column {spec.column!r} ({what}) is declared binary but has {len(levels)} levels; "
             "declare it categorical."
         )
+    position = {_key(v): i for i, v in enumerate(present)}
     others = [v for v in levels if v != reference]
+    positions = [position[_key(v)] for v in others]
     if spec.type == "binary" and len(others) == 1:
-        return [spec.column], [(series == others[0]).to_numpy(dtype=np.float64)]
-    return (
-        [f"{spec.column}[{v}]" for v in others],
-        [(series == v).to_numpy(dtype=np.float64) for v in others],
-    )
+        return CodedTerm((spec.column,), _dummies(codes, positions))
+    return CodedTerm(tuple(f"{spec.column}[{v}]" for v in others), _dummies(codes, positions))
+
+
+def _key(value: Any) -> tuple[str, Any]:
+    # 1 and True, or 1 and 1.0, are one dictionary key but distinct levels here.
+    return (str(type(value)), value)
 
 
 def _check_outcome(y: np.ndarray, family: str, column: str) -> None:
@@ -192,7 +244,7 @@ def _check_outcome(y: np.ndarray, family: str, column: str) -> None:
 
 
 def make_design(
-    frame: pd.DataFrame,
+    frame: pd.DataFrame | Mapping[str, pd.Series],
     *,
     exposure: TermSpec,
     covariates: Mapping[str, TermSpec],
@@ -237,60 +289,72 @@ def make_design(
     >>> d.blocks["z"].columns
     ('z[b]', 'z[c]')
     """
-    if family not in FAMILIES:
-        raise DataError(f"Unknown model family {family!r}; use one of {', '.join(FAMILIES)}.")
     exposure_node = exposure_node or exposure.column
-    n = len(frame)
-    names, vectors = _coded(frame, exposure, "exposure")
-    if len(vectors) > 1:
-        raise DataError(
-            f"The exposure {exposure.column!r} has {len(vectors) + 1} levels; Covariscope compares "
-            "one contrast at a time. Recode it to two levels or a numeric dose."
-        )
-    exposure_name = names[0]
-    all_names = [exposure_name]
-    all_vectors = list(vectors)
-    spans: dict[str, tuple[list[str], tuple[int, ...]]] = {}
-    for node, spec in covariates.items():
-        cnames, cvecs = _coded(frame, spec, f"covariate {node}")
-        start = len(all_vectors)
-        all_names += cnames
-        all_vectors += cvecs
-        spans[node] = (cnames, tuple(range(start, start + len(cvecs))))
-    if n > 0 and np.all(all_vectors[0] == all_vectors[0][0]):
-        raise DataError(
-            f"The exposure column {exposure_name!r} has the same value in every row of the "
-            "analytic sample, so no effect of it can be estimated; bind another column."
-        )
-    # A constant covariate fails only the models that hold it (DESIGN §2: the rest still run).
-    constant = tuple(
-        node
-        for node, (_, idx) in spans.items()
-        if n > 0 and any(np.all(all_vectors[j] == all_vectors[j][0]) for j in idx)
-    )
-    messages = tuple(
-        f"{constant_message(node, covariates[node].column)} The models that hold it are not fitted."
-        for node in constant
+    x_term = code_term(_column(frame, exposure.column, "exposure"), exposure, "exposure")
+    terms = {
+        node: code_term(_column(frame, spec.column, f"covariate {node}"), spec, f"covariate {node}")
+        for node, spec in covariates.items()
+    }
+    check_exposure(x_term)
+    names = {"outcome": outcome, "time": time, "event": event, "offset": offset}
+    outcomes = outcome_values(frame, family, names)
+    width = 1 + sum(len(t.names) for t in terms.values())
+    builder = DesignBuilder(len(x_term.values), width=width, outcome=outcomes.y is not None)
+    builder.add_exposure(x_term)
+    for node, term in terms.items():
+        builder.add(node, covariates[node].column, term)
+    return builder.build(
+        family=family, exposure_node=exposure_node, outcomes=outcomes, key=uuid.uuid4().hex
     )
 
-    y = None
+
+@dataclass(frozen=True, eq=False)
+class Outcomes:
+    """The outcome side of a design: outcome, or time and event; an optional offset."""
+
+    y: np.ndarray | None = None
+    time: np.ndarray | None = None
+    event: np.ndarray | None = None
+    offset: np.ndarray | None = None
+
+    @property
+    def nbytes(self) -> int:
+        return sum(
+            int(v.nbytes) for v in (self.y, self.time, self.event, self.offset) if v is not None
+        )
+
+
+def outcome_values(
+    frame: pd.DataFrame | Mapping[str, pd.Series], family: str, columns: Mapping[str, str | None]
+) -> Outcomes:
+    """Read and check the outcome columns a family needs (``columns``: outcome, time, event, offset).
+
+    Raises
+    ------
+    DataError
+        An unknown family, a missing or non-numeric column, or values the
+        family cannot model (naming the fix).
+    """
+    if family not in FAMILIES:
+        raise DataError(f"Unknown model family {family!r}; use one of {', '.join(FAMILIES)}.")
+    outcome, time, event, offset = (columns.get(k) for k in ("outcome", "time", "event", "offset"))
+    y = time_v = event_v = offset_v = None
     if family != "cox":
         if outcome is None:
             raise DataError(f"The {family} family needs an outcome column; bind the outcome node.")
-        y = _numeric(frame, outcome, "outcome")
-        if n > 0:
+        y = _numeric(_column(frame, outcome, "outcome"), outcome, "outcome")
+        if len(y) > 0:
             _check_outcome(y, family, outcome)
-    time_v = event_v = offset_v = None
     if family == "cox":
         if time is None or event is None:
             raise DataError("The Cox family needs a time column and an event column; choose both.")
-        time_v = _numeric(frame, time, "survival time")
+        time_v = _numeric(_column(frame, time, "survival time"), time, "survival time")
         if (time_v <= 0).any():
             raise DataError(
                 f"Survival times must be positive, but {time!r} has "
                 f"{int((time_v <= 0).sum())} zero or negative values; correct them or drop those rows."
             )
-        event_v = _numeric(frame, event, "event indicator")
+        event_v = _numeric(_column(frame, event, "event indicator"), event, "event indicator")
         if not np.isin(event_v, (0.0, 1.0)).all():
             raise DataError(
                 f"The event indicator {event!r} must be coded 0/1 (1 = event); recode it."
@@ -300,47 +364,109 @@ def make_design(
                 f"The event indicator {event!r} records no events; a hazard ratio cannot be estimated."
             )
     if offset is not None:
-        offset_v = _numeric(frame, offset, "offset")
+        offset_v = _numeric(_column(frame, offset, "offset"), offset, "offset")
+    return Outcomes(y, time_v, event_v, offset_v)
 
-    # Only the crude model must fit; larger models with too few rows are
-    # reported one by one by the engine, and the rest still run.
-    n_params = 1 + (0 if family == "cox" else 1)
-    if n <= n_params:
+
+def _is_constant(values: np.ndarray) -> bool:
+    return bool(len(values)) and bool(np.all(values == values[0]))
+
+
+def check_exposure(exposure: CodedTerm) -> None:
+    """Refuse a multi-level or constant exposure, naming the fix."""
+    if exposure.values.shape[1] > 1:
         raise DataError(
-            f"The analytic sample has {n} rows, too few even for the crude model "
-            f"({n_params} parameters); at least {n_params + 1} rows are needed. Load more data "
-            "or bind columns with fewer missing values."
+            f"The exposure {exposure.names[0].split('[')[0]!r} has {exposure.values.shape[1] + 1} "
+            "levels; Covariscope compares one contrast at a time. Recode it to two levels or a "
+            "numeric dose."
+        )
+    if _is_constant(exposure.values[:, 0]):
+        raise DataError(
+            f"The exposure column {exposure.names[0]!r} has the same value in every row of the "
+            "analytic sample, so no effect of it can be estimated; bind another column."
         )
 
-    q = len(all_vectors) + (1 if y is not None else 0)
-    values = np.empty((n, q), dtype=np.float64)
-    for j, vec in enumerate(all_vectors):
-        values[:, j] = vec
-    del all_vectors
-    if y is not None:
-        values[:, -1] = y
-    blocks = {
-        node: Block(node, tuple(cn), values[:, idx[0] : idx[-1] + 1], idx)
-        for node, (cn, idx) in spans.items()
-    }
-    digest = hashlib.sha256(values.data.cast("B"))
-    digest.update(repr((family, exposure_node, all_names, list(covariates), outcome)).encode())
-    for extra in (time_v, event_v, offset_v):
-        if extra is not None:
-            digest.update(np.ascontiguousarray(extra).data.cast("B"))
-    return Design(
-        family=family,
-        exposure_node=exposure_node,
-        exposure_name=exposure_name,
-        values=values,
-        blocks=blocks,
-        y=values[:, -1] if y is not None else None,
-        offset=offset_v,
-        time=time_v,
-        event=event_v,
-        n=n,
-        key=digest.hexdigest(),
-        messages=messages,
-        column_names=tuple(all_names),
-        constant=constant,
-    )
+
+class DesignBuilder:
+    """Fills a column-major design one coded term at a time, never holding two copies.
+
+    ``width`` bounds the number of exposure and covariate columns (a
+    categorical term may turn out narrower on the analytic sample than its
+    levels in the file); the outcome column follows them.
+
+    Examples
+    --------
+    >>> b = DesignBuilder(3, width=2, outcome=True)
+    >>> b.add_exposure(CodedTerm(("x",), np.array([[0.0], [1.0], [1.0]])))
+    >>> b.add("z", "z", CodedTerm(("z",), np.array([[1.0], [2.0], [4.0]])))
+    >>> d = b.build(family="linear", exposure_node="x", outcomes=Outcomes(y=np.array([1.0, 2.0, 3.0])), key="k")
+    >>> d.column_names, d.values.flags.f_contiguous
+    (('x', 'z'), True)
+    """
+
+    def __init__(self, n: int, *, width: int, outcome: bool) -> None:
+        self.n = n
+        self._values = np.empty((n, width + int(outcome)), dtype=np.float64, order="F")
+        self._names: list[str] = []
+        self._spans: dict[str, tuple[tuple[str, ...], tuple[int, ...]]] = {}
+        self._columns: dict[str, str] = {}
+
+    def add_exposure(self, exposure: CodedTerm) -> None:
+        """Write the exposure (first, once); refuses a multi-level or constant one."""
+        check_exposure(exposure)
+        self._values[:, 0] = exposure.values[:, 0]
+        self._names.append(exposure.names[0])
+
+    def add(self, node: str, column: str, term: CodedTerm) -> None:
+        """Write one covariate term after those already written."""
+        start = len(self._names)
+        k = len(term.names)
+        self._values[:, start : start + k] = term.values
+        self._names += term.names
+        self._spans[node] = (term.names, tuple(range(start, start + k)))
+        self._columns[node] = column
+
+    def build(self, *, family: str, exposure_node: str, outcomes: Outcomes, key: str) -> Design:
+        """The design; raises :class:`DataError` when too few rows for the crude model."""
+        n = self.n
+        # Only the crude model must fit; larger models with too few rows are
+        # reported one by one by the engine, and the rest still run.
+        n_params = 1 + (0 if family == "cox" else 1)
+        if n <= n_params:
+            raise DataError(
+                f"The analytic sample has {n} rows, too few even for the crude model "
+                f"({n_params} parameters); at least {n_params + 1} rows are needed. Load more data "
+                "or bind columns with fewer missing values."
+            )
+        q = len(self._names)
+        y = outcomes.y
+        # A prefix of a column-major array's columns is itself contiguous: no copy.
+        values = self._values[:, : q + (1 if y is not None else 0)]
+        if y is not None:
+            values[:, q] = y
+        spans = self._spans
+        constant = tuple(
+            node for node, (_, idx) in spans.items() if any(_is_constant(values[:, j]) for j in idx)
+        )
+        return Design(
+            family=family,
+            exposure_node=exposure_node,
+            exposure_name=self._names[0],
+            values=values,
+            blocks={
+                node: Block(node, cn, values[:, idx[0] : idx[-1] + 1], idx)
+                for node, (cn, idx) in spans.items()
+            },
+            y=values[:, q] if y is not None else None,
+            offset=outcomes.offset,
+            time=outcomes.time,
+            event=outcomes.event,
+            n=n,
+            key=key,
+            messages=tuple(
+                f"{constant_message(node, self._columns[node])} The models that hold it are not fitted."
+                for node in constant
+            ),
+            column_names=tuple(self._names),
+            constant=constant,
+        )

@@ -1,61 +1,44 @@
-"""The study: one project, its data and every analysis, tied together.
+"""The study: one project, its data and every analysis, as a chain of cached stages.
 
-:func:`run_study` is the one place that turns a project (diagram, data
-reference, settings) into the answer the analyst reads: roles and
-adjustment sets from the diagram, the comparison models and evidence from
-the data, one verdict per covariate, the recommended set with its estimate
-and E-value, and plain-words messages.  The GUI, the command line and the
-report call it; none of them recomputes a statistic.
+:func:`run_study` turns a project (diagram, data reference, settings) into
+the answer the analyst reads.  It is a short composition of pure stages,
+each cached under exactly what it reads (see :mod:`covariscope.study.cache`):
 
-Without data (no data file, or none bound) the result is graph-only: the
-verdicts come from the diagram alone and say so, and the sample, evidence,
-estimates and E-value are None.
+data source → bindings → profiles → analytic sample → design → sufficient
+statistics → fits and evidence → graph criteria → proposal review →
+collinear groups, recommended set and verdicts → result.
+
+The GUI, the command line and the report call it; none of them recomputes a
+statistic.  Without data (no data file, or none bound) the result is
+graph-only: the verdicts come from the diagram alone and say so, and the
+sample, evidence, estimates and E-value are None.
 """
 
 from __future__ import annotations
 
-import math
-from collections.abc import Callable, Mapping, Sequence
+import time
+from collections.abc import Callable, Sequence
+from dataclasses import dataclass
+from typing import Any
 
-from covariscope.analysis.evalue import EValue, evalue_for_fit
 from covariscope.analysis.evidence import (
-    Comparison,
     EvidenceEngine,
     EvidenceTable,
     compute_evidence,
 )
-from covariscope.analysis.fits import Fit, effect_measure
-from covariscope.analysis.graph import (
-    analyse_diagram,
-    is_sufficient,
-)
-from covariscope.analysis.recommend import pair_r2, recommend_set
-from covariscope.analysis.verdicts import (
-    LABELS,
-    VERDICTS,
-    Facts,
-    Numbers,
-    Shift,
-    Verdict,
-    collinear_groups,
-    decide_verdict,
-    format_set,
-)
+from covariscope.analysis.fits import effect_measure
+from covariscope.analysis.graph import DiagramAnalysis
+from covariscope.analysis.verdicts import LABELS, VERDICTS, Verdict
 from covariscope.data.loading import LoadedTable, load_table
-from covariscope.data.sample import AnalyticSample
+from covariscope.data.sample import CompleteCases
 from covariscope.model.errors import DataError
 from covariscope.model.project import DEFAULT_THRESHOLDS, Project
-from covariscope.study.facts import (
-    group_why,
-    needed_together,
-    opened_paths,
-    stands_for,
-    suggest_member,
-    would_close,
-    would_open,
-)
-from covariscope.study.prepare import prepare_evidence
+from covariscope.study.cache import StudyCache
+from covariscope.study.criteria import GraphCriteria, graph_criteria, proposal_review, structure_key
+from covariscope.study.decide import Decisions, Question, decide, set_names
+from covariscope.study.prepare import Run, prepare_design, read_bindings, sufficient_statistics
 from covariscope.study.result import ESTIMATE_KEYS, Progress, StudyResult
+from covariscope.study.source import DataSource, source_of
 
 __all__ = [
     "ESTIMATE_KEYS",
@@ -66,73 +49,188 @@ __all__ = [
     "run_study",
 ]
 
-# -- helpers -------------------------------------------------------------------------
+CAUTION = (
+    "The diagram holds assumptions the data cannot fully test; the thresholds are guides, "
+    "not rules, and unmeasured confounding is possible."
+)
 
 
-def _finite(value: float | None) -> float | None:
-    if value is None:
-        return None
-    value = float(value)
-    return value if math.isfinite(value) else None
-
-
-def _shift(c: Comparison | None) -> Shift | None:
-    if c is None:
-        return None
-    change = _finite(c.change_pct) if c.change_defined else None
-    return Shift(change, _finite(c.se_inflation_pct), _finite(c.change_pct_ratio))
-
-
-def _numbers(ev: EvidenceTable | None, node: str) -> Numbers | None:
-    if ev is None or node not in ev.covariates:
-        return None
-    c = ev.covariates[node]
-    return Numbers(
-        added=_shift(c.added),
-        dropped=_shift(c.dropped),
-        vif_exposure=_finite(c.vif_exposure_added),
-        vif=_finite(c.vif),
-        aux_r2=_finite(c.aux_r2),
-        r2_exposure=_finite(c.r2_exposure),
+def question(project: Project, family: str | None) -> Question:
+    """What the last stages read of the project besides the diagram's structure."""
+    diagram = project.diagram
+    exposure, outcome = diagram.require_question()
+    family = family or project.analysis.family
+    thresholds = dict(DEFAULT_THRESHOLDS)
+    thresholds.update(project.analysis.thresholds)
+    return Question(
+        exposure=exposure,
+        outcome=outcome,
+        family=family,
+        effect_measure=effect_measure(family),
+        proposed=tuple(p for p in project.proposed if p in diagram),
+        thresholds=tuple(thresholds.items()),
+        keep_choices=tuple(project.analysis.keep_choices.items()),
+        # Prose names a variable by its label; ids stay the keys of the JSON.
+        names=tuple((n.id, n.label) for n in diagram.nodes),
+        measured=tuple((n.id, n.measured) for n in diagram.nodes),
     )
 
 
-def _se_lookup(
-    ev: EvidenceTable | None, names: Mapping[tuple[str, ...], str]
-) -> Callable[[tuple[str, ...]], float | None]:
-    def se_of(members: tuple[str, ...]) -> float | None:
-        if ev is None:
-            return None
-        fit = ev.sets.get(names.get(members, ""))
-        return fit.se if fit is not None and fit.ok else None
+@dataclass(frozen=True, eq=False)
+class DataStage:
+    """The data's side of a study: sample, engine and evidence, or why there are none."""
 
-    return se_of
+    sample: CompleteCases | None
+    engine: EvidenceEngine | None
+    evidence: EvidenceTable | None
+    key: Any
+    messages: tuple[str, ...]
 
 
-# -- the study -----------------------------------------------------------------------
+def _table(project: Project, table: LoadedTable | DataSource | None) -> DataSource | None:
+    if table is None and project.data is not None:
+        table = load_table(project.data.resolve(project.path))
+    return None if table is None else source_of(table)
+
+
+def _data_stage(
+    run: Run,
+    project: Project,
+    q: Question,
+    da: DiagramAnalysis,
+    source: DataSource,
+    report: Progress,
+) -> DataStage:
+    messages: list[str] = []
+    bindings = run.get(
+        "bindings",
+        (source.digest, q.family, q.exposure, q.outcome, _binding_key(project, q.family)),
+        lambda: read_bindings(project, q.family, q.exposure, q.outcome, source),
+    )
+    messages.extend(bindings.messages)
+    if not bindings.ready:
+        return DataStage(None, None, None, None, tuple(messages))
+    try:
+        prepared = prepare_design(run, source, project, q.family, q.exposure, bindings)
+    except DataError as exc:
+        messages.append(f"{exc} Only the diagram is analysed.")
+        return DataStage(None, None, None, None, tuple(messages))
+    messages.extend(prepared.messages)
+    columns = project.analysis.family_columns.get(q.family, {})
+    if columns:
+        # The outcome node may be bound to another column than this family reads.
+        shown = ", ".join(f"{k} {v!r}" for k, v in sorted(columns.items()))
+        messages.append(
+            f"The {q.family} model of {dict(q.names)[q.outcome]} reads the column(s) {shown} "
+            "(set per family in the project's analysis settings)."
+        )
+    design = prepared.design
+    summary = sufficient_statistics(run, design, prepared.identity)
+    engine: EvidenceEngine = run.get(
+        "engine",
+        (design.key,),
+        lambda: EvidenceEngine(design, q.family, summary=summary, record=run.cache.record),
+    )
+    report(0.15, "Fitting the comparison models")
+    plan = _plan(q, da, prepared.bound, messages)
+    evidence = _evidence(run, engine, plan, q, report)
+    messages.extend(evidence.warnings)
+    if prepared.sample.message:
+        messages.append(prepared.sample.message)
+    return DataStage(prepared.sample, engine, evidence, (design.key, plan), tuple(messages))
+
+
+def _binding_key(project: Project, family: str) -> tuple[Any, ...]:
+    d = project.diagram
+    return (
+        tuple((n.id, n.kind, n.measured, n.column, n.label) for n in d.nodes),
+        tuple(sorted(project.analysis.family_columns.get(family, {}).items())),
+    )
+
+
+@dataclass(frozen=True)
+class Plan:
+    """Which models the evidence holds: candidates, covariates added alone, named sets."""
+
+    candidates: tuple[str, ...]
+    added: tuple[str, ...]
+    sets: tuple[tuple[str, tuple[str, ...]], ...]
+
+
+def _plan(q: Question, da: DiagramAnalysis, bound: Sequence[str], messages: list[str]) -> Plan:
+    roles = da.roles
+    candidates = tuple(
+        b
+        for b in bound
+        if not roles[b].descendant_of_exposure
+        and not roles[b].descendant_of_outcome
+        and b not in da.measures_exposure
+        and b not in da.measures_outcome
+    )
+    sets: dict[str, tuple[str, ...]] = {}
+    unbound = [p for p in q.proposed if p not in bound]
+    if unbound:
+        label = dict(q.names)
+        messages.append(
+            f"The proposed set holds {', '.join(label[u] for u in unbound)}, which has no data, so the "
+            "proposed model is not fitted."
+        )
+    else:
+        sets["proposed"] = q.proposed
+    for members, name in set_names(da).items():
+        if all(m in bound for m in members):
+            sets[name] = members
+    return Plan(candidates, tuple(bound), tuple(sets.items()))
+
+
+def _evidence(
+    run: Run, engine: EvidenceEngine, plan: Plan, q: Question, report: Progress
+) -> EvidenceTable:
+    def step(done: int, total: int) -> None:
+        report(0.15 + 0.8 * done / max(total, 1), f"Fitting model {done} of {total}")
+
+    index = q.threshold["condition_index"]
+    evidence: EvidenceTable = run.get(
+        "evidence",
+        (engine.design.key, plan, index),
+        lambda: compute_evidence(
+            engine,
+            candidates=plan.candidates,
+            added=plan.added,
+            sets=dict(plan.sets),
+            progress=step,
+            cancel=run.cancel,
+            index_threshold=index,
+        ),
+    )
+    return evidence
 
 
 def run_study(
     project: Project,
     *,
-    table: LoadedTable | None = None,
+    table: LoadedTable | DataSource | None = None,
     family: str | None = None,
     progress: Progress | None = None,
     cancel: Callable[[], bool] | None = None,
+    cache: StudyCache | None = None,
 ) -> StudyResult:
     """Analyse a project: diagram, data, evidence, verdicts and the recommended set.
 
     Parameters
     ----------
     project : Project
-    table : LoadedTable, optional
+    table : LoadedTable or DataSource, optional
         Data to use; default: the project's data file when it names one.
     family : str, optional
         Model family; default: the project's.
     progress : callable(fraction, text), optional
     cancel : callable() → bool, optional
-        Checked between models (raises
+        Checked between stages, between columns and between models (raises
         :class:`~covariscope.analysis.evidence.EvidenceCancelledError`).
+    cache : StudyCache, optional
+        The stage results of earlier runs (the window's, or one command-line
+        run's); default a new, empty one.
 
     Raises
     ------
@@ -153,289 +251,98 @@ def run_study(
     >>> r.verdicts["c"].code, r.recommended, r.evidence is None
     ('adjust', ('c',), True)
     """
-    diagram = project.diagram
-    exposure, outcome = diagram.require_question()
-    family = family or project.analysis.family
-    measure = effect_measure(family)
-    thresholds = dict(DEFAULT_THRESHOLDS)
-    thresholds.update(project.analysis.thresholds)
-    proposed = tuple(p for p in project.proposed if p in diagram)
-    # Prose names a variable by its label; ids stay the keys of the JSON.
-    names = {n.id: n.label for n in diagram.nodes}
-    messages: list[str] = []
+    started = time.perf_counter()
+    run = Run(cache if cache is not None else StudyCache(), [], cancel)
 
     def report(fraction: float, text: str) -> None:
         if progress is not None:
             progress(fraction, text)
 
+    q = question(project, family)
     report(0.0, "Reading the diagram")
-    G = diagram.to_networkx()
-    da = analyse_diagram(G, exposure, outcome, proposed)
-
+    criteria: GraphCriteria = run.get(
+        "graph",
+        structure_key(project.diagram, q.exposure, q.outcome),
+        lambda: graph_criteria(project.diagram, q.exposure, q.outcome),
+    )
+    review = run.get(
+        "review", (criteria.key, q.proposed), lambda: proposal_review(criteria, q.proposed)
+    )
+    da = criteria.with_review(review)
     if table is None and project.data is not None:
         report(0.05, "Loading the data")
-        table = load_table(project.data.resolve(project.path))
-    data_name = table.path.name if table is not None else None
-    data_sha = table.sha256 if table is not None else None
-    stored_sha = project.data.sha256 if project.data is not None else None
-    if table is not None and stored_sha and data_sha and data_sha != stored_sha:
-        messages.append(
-            f"The data file {data_name} has changed since it was bound to this project "
-            "(its SHA-256 differs); check that it is the intended file."
-        )
-
-    sample: AnalyticSample | None = None
-    engine: EvidenceEngine | None = None
-    evidence: EvidenceTable | None = None
-    bound: list[str] = []
-    if table is not None:
-        try:
-            sample, engine, bound = prepare_evidence(
-                project, table.frame, family, exposure, outcome, da, messages
-            )
-        except DataError as exc:
-            messages.append(f"{exc} Only the diagram is analysed.")
-            sample, engine = None, None
-        columns = project.analysis.family_columns.get(family, {})
-        if engine is not None and columns:
-            # The outcome node may be bound to another column than this family reads.
-            shown = ", ".join(f"{k} {v!r}" for k, v in sorted(columns.items()))
-            messages.append(
-                f"The {family} model of {names[outcome]} reads the column(s) {shown} "
-                "(set per family in the project's analysis settings)."
-            )
-    else:
-        messages.append(
-            "No data are bound to this project, so the verdicts come from the diagram alone; "
-            "load the study data to see how each covariate moves the estimate."
-        )
-
-    minimal = [tuple(s) for s in da.minimal_sets]
-    set_names = {m: f"minimal:{i}" for i, m in enumerate(minimal)}
-    if engine is not None:
-        report(0.15, "Fitting the comparison models")
-        roles = da.roles
-        candidates = [
-            b
-            for b in bound
-            if not roles[b].descendant_of_exposure
-            and not roles[b].descendant_of_outcome
-            and b not in da.measures_exposure
-            and b not in da.measures_outcome
-        ]
-        sets: dict[str, Sequence[str]] = {}
-        unbound_proposed = [p for p in proposed if p not in bound]
-        if unbound_proposed:
-            messages.append(
-                f"The proposed set holds {', '.join(names[u] for u in unbound_proposed)}, which has no data, so the "
-                "proposed model is not fitted."
-            )
-        else:
-            sets["proposed"] = proposed
-        for members, name in set_names.items():
-            if all(m in bound for m in members):
-                sets[name] = members
-
-        def step(done: int, total: int) -> None:
-            report(0.15 + 0.8 * done / max(total, 1), f"Fitting model {done} of {total}")
-
-        evidence = compute_evidence(
-            engine,
-            candidates=candidates,
-            added=bound,
-            sets=sets,
-            progress=step,
-            cancel=cancel,
-            index_threshold=thresholds["condition_index"],
-        )
-        messages.extend(evidence.warnings)
-        if sample is not None and sample.message:
-            messages.append(sample.message)
-
-    # Collinear confounder groups (proxy links, R² between them, flagged dimensions).
-    confounders = [
-        c
-        for c, f in da.roles.items()
-        if f.role == "confounder" and diagram.node(c).measured and c not in da.measures_exposure
-    ]
-    r2_pairs: dict[tuple[str, str], float] = {}
-    flagged: list[tuple[str, ...]] = []
-    if evidence is not None and engine is not None:
-        blocks = {
-            c: list(engine.design.blocks[c].index) for c in confounders if c in engine.design.blocks
-        }
-        r2_pairs = pair_r2(engine.summary.correlation, blocks)
-        flagged = [tuple(d.nodes) for d in evidence.collinearity.flagged]
-    groups = collinear_groups(
-        confounders,
-        proxy_groups=da.groups,
-        pair_r2=r2_pairs,
-        flagged=flagged,
-        r2_threshold=thresholds["r2"],
-    )
-
-    # A choice saved for part of a group (the members left to choose among once
-    # the diagram needs the others) stands for the whole group in the ranking.
-    rec_choices = dict(project.analysis.keep_choices)
-    for g in groups:
-        for key, member in project.analysis.keep_choices.items():
-            if set(key.split("|")) < set(g) and member in g:
-                rec_choices.setdefault("|".join(sorted(g)), member)
-    rec = recommend_set(
-        minimal,
-        proposed=proposed,
-        groups=groups,
-        keep_choices=rec_choices,
-        se_of=_se_lookup(evidence, set_names),
-    )
-    recommended = rec.members or ()
-    if evidence is not None and rec.members is not None:
-        name = set_names.get(tuple(sorted(rec.members)), "")
-        if name not in evidence.sets:
-            messages.append(
-                "The recommended set holds a covariate without data, so its model is not fitted."
-            )
-    if not da.identifiable:
-        messages.append(
-            "No set of measured covariates is sufficient in this diagram: the effect is not "
-            "identified by adjustment (see the unmeasured variables and the E-value)."
-        )
-    if proposed and not da.review.sufficient:
-        messages.append(
-            f"The proposed set {format_set(names[p] for p in proposed)} is not sufficient: it leaves "
-            f"{da.review.open_paths_text()} backdoor path(s) open."
-        )
-
-    # Verdicts.
-    se_of = _se_lookup(evidence, set_names)
-    base = list(recommended) if rec.members is not None else list(proposed)
-    # Members the diagram needs whichever other is kept are adjusted for, with a
-    # caution; the rest of their group (two or more) is still one to keep one of.
-    needed = {g: needed_together(G, exposure, outcome, g, base) for g in groups}
-    verdicts: dict[str, Verdict] = {}
-    for c, facts in da.roles.items():
-        node = diagram.node(c)
-        group = next((g for g in groups if c in g), ())
-        group_alone: tuple[str, ...] = ()
-        suggested: str | None = None
-        why = ""
-        grouped_because = ""
-        is_needed = bool(group) and c in needed[group]
-        if group and not is_needed and needed[group]:
-            remainder = tuple(m for m in group if m not in needed[group])
-            group = remainder if len(remainder) >= 2 else group
-        if is_needed:
-            grouped_because = group_why(
-                group, da.groups, r2_pairs, flagged, thresholds["r2"], names, member=c
-            )
-        elif group:
-            rest = [m for m in base if m not in group]
-            group_alone = tuple(m for m in group if is_sufficient(G, exposure, outcome, [*rest, m]))
-            grouped_because = group_why(
-                group, da.groups, r2_pairs, flagged, thresholds["r2"], names
-            )
-            suggested, why = suggest_member(
-                group,
-                group_alone,
-                chosen=project.analysis.keep_choices.get("|".join(sorted(group))),
-                recommended=recommended,
-                proposed=proposed,
-                minimal=minimal,
-                se_of=se_of,
-                names=names,
-            )
-        stands = stands_for(G, da, c) if facts.role == "confounder_proxy" else ()
-        adjusted = tuple(s for s in stands if diagram.node(s).measured and s in base)
-        f = Facts(
-            node=c,
-            role=facts.role,
-            measured=node.measured,
-            has_data=evidence is not None and c in evidence.covariates,
-            measures_exposure=c in da.measures_exposure,
-            measures_outcome=c in da.measures_outcome,
-            in_proposed=c in proposed,
-            group=group,
-            group_alone=group_alone,
-            group_needed=is_needed,
-            group_why=grouped_because,
-            suggested=suggested,
-            suggested_why=why,
-            opened_paths=(
-                opened_paths(G, exposure, outcome, proposed, c)
-                if facts.role == "collider" and c in proposed
-                else ()
-            ),
-            would_open=would_open(da, c) if facts.role == "collider" else (),
-            stands_for=stands,
-            stands_for_adjusted=adjusted,
-            would_close=would_close(da, c) if not node.measured else (),
-            sufficient_without=(True if rec.members is not None else (False if proposed else None)),
-            set_name="recommended" if rec.members is not None else "proposed",
-            set_members=tuple(base),
-        )
-        verdict = decide_verdict(
-            f, _numbers(evidence, c), family=family, thresholds=thresholds, names=names
-        )
-        if (
-            evidence is None
-            and node.measured
-            and verdict.code != "unmeasured"
-            and "no data" not in verdict.reason
-        ):
-            verdict = Verdict(
-                verdict.node,
-                verdict.code,
-                verdict.label,
-                verdict.reason.rstrip(".") + " (from the diagram alone; no data).",
-                verdict.group,
-                verdict.suggested,
-            )
-        verdicts[c] = verdict
-
-    estimates: dict[str, Fit | None] = dict.fromkeys(ESTIMATE_KEYS)
-    ev_value: EValue | None = None
-    if evidence is not None and engine is not None:
-        estimates["crude"] = evidence.crude
-        estimates["full"] = evidence.full
-        estimates["proposed"] = evidence.sets.get("proposed")
-        if rec.members is not None:
-            estimates["recommended"] = evidence.sets.get(
-                set_names.get(tuple(sorted(rec.members)), "")
-            )
-        ev_value, problem = evalue_for_fit(estimates["recommended"], engine.design, measure)
-        if problem:
-            messages.append(problem)
-
-    disagreements = tuple(
-        f"{names.get(v.node, v.node)}: {v.reason}"
-        for v in verdicts.values()
-        if v.code == "review"
-        or (v.code == "exclude_measures_exposure" and v.node not in da.measures_exposure)
-    )
-    messages.append(
-        "The diagram holds assumptions the data cannot fully test; the thresholds are guides, "
-        "not rules, and unmeasured confounding is possible."
+    source = _table(project, table)
+    data = _data_or_none(run, project, q, da, source, report)
+    decisions: Decisions = run.get(
+        "verdicts",
+        (criteria.key, q, data.key),
+        lambda: decide(q, criteria.graph, da, data.evidence, data.engine),
     )
     report(1.0, "Done")
+    return _result(q, da, data, decisions, source, project, run, started)
+
+
+def _data_or_none(
+    run: Run,
+    project: Project,
+    q: Question,
+    da: DiagramAnalysis,
+    source: DataSource | None,
+    report: Progress,
+) -> DataStage:
+    if source is None:
+        return DataStage(
+            None,
+            None,
+            None,
+            None,
+            (
+                "No data are bound to this project, so the verdicts come from the diagram alone; "
+                "load the study data to see how each covariate moves the estimate.",
+            ),
+        )
+    return _data_stage(run, project, q, da, source, report)
+
+
+def _result(
+    q: Question,
+    da: DiagramAnalysis,
+    data: DataStage,
+    decisions: Decisions,
+    source: DataSource | None,
+    project: Project,
+    run: Run,
+    started: float,
+) -> StudyResult:
+    messages: list[str] = []
+    stored = project.data.sha256 if project.data is not None else None
+    if source is not None and stored and source.digest != stored:
+        messages.append(
+            f"The data file {source.name} has changed since it was bound to this project "
+            "(its SHA-256 differs); check that it is the intended file."
+        )
+    messages += [*data.messages, *decisions.messages, CAUTION]
     return StudyResult(
-        exposure=exposure,
-        outcome=outcome,
-        family=family,
-        effect_measure=measure,
+        exposure=q.exposure,
+        outcome=q.outcome,
+        family=q.family,
+        effect_measure=q.effect_measure,
         diagram=da,
-        proposed=proposed,
-        sample=sample,
-        evidence=evidence,
-        verdicts=verdicts,
-        recommended=tuple(recommended),
-        estimates=estimates,
-        collinear_groups=groups,
-        evalue=ev_value,
-        thresholds=thresholds,
-        disagreements=disagreements,
+        proposed=q.proposed,
+        sample=data.sample if data.evidence is not None else None,
+        evidence=data.evidence,
+        verdicts=decisions.verdicts,
+        recommended=decisions.recommended,
+        estimates=decisions.estimates,
+        collinear_groups=decisions.groups,
+        evalue=decisions.evalue,
+        thresholds=q.threshold,
+        disagreements=decisions.disagreements,
         messages=tuple(dict.fromkeys(messages)),
-        data_name=data_name,
-        data_sha256=data_sha,
-        recommended_reason=rec.reason,
-        names=names,
+        data_name=source.name if source is not None else None,
+        data_sha256=source.digest if source is not None else None,
+        recommended_reason=decisions.recommended_reason,
+        names=dict(q.names),
+        recomputed=tuple(dict.fromkeys(run.trace)),
+        seconds=time.perf_counter() - started,
     )

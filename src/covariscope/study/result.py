@@ -10,7 +10,7 @@ from covariscope.analysis.evidence import EvidenceTable
 from covariscope.analysis.fits import Fit
 from covariscope.analysis.graph import DiagramAnalysis
 from covariscope.analysis.verdicts import Verdict
-from covariscope.data.sample import AnalyticSample
+from covariscope.data.sample import CompleteCases
 
 __all__ = ["ESTIMATE_KEYS", "Progress", "StudyResult"]
 
@@ -21,7 +21,7 @@ Progress = Callable[[float, str], None]
 
 @dataclass(frozen=True)
 class StudyResult:
-    """Everything Covariscope says about one project (see STUDY_API)."""
+    """Everything Covariscope says about one project: what :func:`~covariscope.study.run_study` returns."""
 
     exposure: str
     outcome: str
@@ -29,7 +29,7 @@ class StudyResult:
     effect_measure: str
     diagram: DiagramAnalysis
     proposed: tuple[str, ...]
-    sample: AnalyticSample | None
+    sample: CompleteCases | None
     evidence: EvidenceTable | None
     verdicts: dict[str, Verdict]
     recommended: tuple[str, ...]
@@ -44,6 +44,10 @@ class StudyResult:
     recommended_reason: str = ""
     #: Node id → label, for prose (ids stay the keys of the JSON).
     names: dict[str, str] = field(default_factory=dict)
+    #: The stages this run computed (the rest came from the cache), in order.
+    recomputed: tuple[str, ...] = ()
+    #: Wall-clock seconds this run took.
+    seconds: float = 0.0
 
     def name(self, node: str) -> str:
         """The label prose uses for a node (a measure group by its members' labels)."""

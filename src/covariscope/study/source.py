@@ -1,0 +1,96 @@
+"""The first stage of the pipeline: where the study's data come from.
+
+The pipeline reads its data only through :class:`DataSource`: a digest that
+names the data (the cache keys start with it), the column names, the row
+count, and one column at a time.  :class:`TableSource` serves a table
+loaded in memory; a source that reads a file where it lies (DuckDB) or a
+cluster plugs in here by offering the same few members.
+"""
+
+from __future__ import annotations
+
+from typing import Protocol, runtime_checkable
+
+import numpy as np
+import pandas as pd
+
+from covariscope.data.loading import LoadedTable
+
+__all__ = ["DataSource", "TableSource", "source_of"]
+
+
+@runtime_checkable
+class DataSource(Protocol):
+    """What the pipeline reads of a data set."""
+
+    @property
+    def digest(self) -> str:
+        """Names the data's content (a file's SHA-256): equal digests, equal data."""
+        ...
+
+    @property
+    def name(self) -> str:
+        """The file name shown to the user."""
+        ...
+
+    @property
+    def rows(self) -> int:
+        """Rows in the data."""
+        ...
+
+    def has_column(self, column: str) -> bool:
+        """Whether the data have this column."""
+        ...
+
+    def column(self, column: str) -> pd.Series:
+        """One column, every row, as read (no coding)."""
+        ...
+
+    def missing(self, column: str) -> np.ndarray:
+        """Boolean mask of the rows where ``column`` is missing (one pass)."""
+        ...
+
+
+class TableSource:
+    """A :class:`DataSource` over a table loaded in memory.
+
+    Examples
+    --------
+    >>> from pathlib import Path
+    >>> t = LoadedTable(pd.DataFrame({"a": [1.0, None]}), Path("a.csv"), "csv", "0" * 64)
+    >>> s = TableSource(t)
+    >>> s.rows, s.has_column("a"), s.missing("a").tolist()
+    (2, True, [False, True])
+    """
+
+    def __init__(self, table: LoadedTable) -> None:
+        self.table = table
+        self._names = {str(c) for c in table.frame.columns}
+
+    @property
+    def digest(self) -> str:
+        return self.table.sha256
+
+    @property
+    def name(self) -> str:
+        return self.table.path.name
+
+    @property
+    def rows(self) -> int:
+        return len(self.table.frame)
+
+    def has_column(self, column: str) -> bool:
+        return column in self._names
+
+    def column(self, column: str) -> pd.Series:
+        return self.table.frame[column]
+
+    def missing(self, column: str) -> np.ndarray:
+        return np.asarray(self.table.frame[column].isna().to_numpy(), dtype=bool)
+
+
+def source_of(table: LoadedTable | DataSource) -> DataSource:
+    """The data source of a loaded table (a source is returned as it is)."""
+    if isinstance(table, LoadedTable):
+        return TableSource(table)
+    return table
