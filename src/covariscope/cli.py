@@ -8,11 +8,12 @@ is written to a log file and summarised in one line (exit status 1).
 from __future__ import annotations
 
 import argparse
+import contextlib
+import errno
 import json
 import os
 import shutil
 import sys
-import tempfile
 import traceback
 from collections.abc import Sequence
 from importlib import resources
@@ -20,9 +21,9 @@ from pathlib import Path
 from typing import Any
 
 from covariscope import __version__
-from covariscope.model.errors import CovariscopeError
+from covariscope.errors import CovariscopeError
 
-__all__ = ["demo_folder", "has_display", "main", "one_line", "write_demo"]
+__all__ = ["demo_folder", "error_log_path", "has_display", "main", "one_line", "write_demo"]
 
 COMMANDS = ("gui", "check", "report", "demo")
 DEMO_PROJECT = "demo_project.json"
@@ -57,6 +58,9 @@ def _parser() -> argparse.ArgumentParser:
     report = sub.add_parser("report", help="write the one-page adjustment rationale as PDF")
     report.add_argument("project", help="project file (.json)")
     report.add_argument("-o", "--output", required=True, help="PDF file to write")
+    report.add_argument(
+        "--force", action="store_true", help="replace an existing file that is not a PDF"
+    )
     report.add_argument("--page", choices=("a4", "letter"), default="a4", help="paper size")
     report.add_argument("--data", help="data file to use instead of the one the project names")
     report.add_argument(
@@ -142,8 +146,8 @@ def _run(project_path: str, data: str | None, family: str | None) -> tuple[Any, 
 
 def _cmd_check(args: argparse.Namespace) -> int:
     _, result = _run(args.project, args.data, args.family)
-    from covariscope.study_json import study_to_json
-    from covariscope.study_text import format_study_text
+    from covariscope.views.check_json import study_to_json
+    from covariscope.views.check_text import format_study_text
 
     if args.json:
         json.dump(study_to_json(result), sys.stdout, indent=2, allow_nan=False)
@@ -151,6 +155,7 @@ def _cmd_check(args: argparse.Namespace) -> int:
     else:
         text = format_study_text(result)
         sys.stdout.write(text if text.endswith("\n") else text + "\n")
+    sys.stdout.flush()  # a full disk or a closed pipe is reported here, not at exit
     return 0
 
 
@@ -161,10 +166,23 @@ def _headless_qt() -> None:
 
 def _cmd_report(args: argparse.Namespace) -> int:
     _headless_qt()
+    from covariscope.data.loading import load_table
+    from covariscope.model.files import check_output_path
+    from covariscope.model.project import load_project
     from covariscope.report.painter import write_pdf
 
-    project, result = _run(args.project, args.data, args.family)
-    path = write_pdf(result, project, Path(args.output), page=args.page)
+    project = load_project(args.project)
+    reads = [
+        ("the project file itself", Path(args.project)),
+        ("the study's data file", Path(args.data) if args.data else project.data_path()),
+    ]
+    output = check_output_path(Path(args.output), reads, force=args.force)
+    table = load_table(args.data) if args.data else None
+    project.diagram.require_question()
+    from covariscope.study import run_study
+
+    result = run_study(project, table=table, family=args.family)
+    path = write_pdf(result, project, output, page=args.page)
     print(f"Wrote the adjustment rationale to {path}")
     return 0
 
@@ -188,7 +206,7 @@ def _cmd_demo(args: argparse.Namespace) -> int:
         return _cmd_gui(str(project_path), demo=True)
     if not args.no_window:
         print("No display was found, so the window cannot open here; writing the review instead.")
-    from covariscope.study_text import format_study_text
+    from covariscope.views.check_text import format_study_text
 
     project, result = _run(str(project_path), None, None)
     print(format_study_text(result))
@@ -223,19 +241,58 @@ def main(argv: Sequence[str] | None = None) -> int:
     except KeyboardInterrupt:
         print("covariscope: interrupted", file=sys.stderr)
         return 130
+    except BrokenPipeError:
+        return _quiet_broken_pipe()
+    except OSError as exc:
+        print(f"covariscope: {_output_failure(exc)}", file=sys.stderr)
+        return 2
     except Exception as exc:  # the user never sees a traceback
-        log = Path(tempfile.gettempdir()) / "covariscope-error.log"
-        try:
-            log.write_text(traceback.format_exc(), encoding="utf-8")
-            where = f"; details are in {log}"
-        except OSError:
-            where = ""
-        print(
-            f"covariscope: an internal error stopped the command ({type(exc).__name__}: {exc}){where}. "
-            "Please report it with the project file.",
-            file=sys.stderr,
+        return _internal_error(exc)
+
+
+def _quiet_broken_pipe() -> int:
+    """The reader went away (``| head``): stop quietly, as command-line tools do."""
+    with contextlib.suppress(OSError):
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(devnull, sys.stdout.fileno())
+    return 0
+
+
+def _output_failure(exc: OSError) -> str:
+    if exc.errno == errno.ENOSPC:
+        return (
+            "the output could not be written: no space left on the device. "
+            "Free some space or write elsewhere."
         )
-        return 1
+    where = f" ({exc.filename})" if exc.filename else ""
+    return (
+        f"a file could not be read or written{where}: {exc.strerror or exc}. "
+        "Check the path and its permissions."
+    )
+
+
+def error_log_path() -> Path:
+    """The internal-error log in the user's own log folder (never a file
+    shared by every user of the machine)."""
+    from platformdirs import user_log_dir
+
+    return Path(user_log_dir("covariscope", appauthor=False)) / "internal-errors.log"
+
+
+def _internal_error(exc: Exception) -> int:
+    log = error_log_path()
+    try:
+        log.parent.mkdir(parents=True, exist_ok=True)
+        log.write_text(traceback.format_exc(), encoding="utf-8")
+        where = f"; details are in {log}"
+    except OSError:
+        where = ""
+    print(
+        f"covariscope: an internal error stopped the command ({type(exc).__name__}: {exc}){where}. "
+        "Please report it with the project file.",
+        file=sys.stderr,
+    )
+    return 1
 
 
 if __name__ == "__main__":  # pragma: no cover

@@ -7,7 +7,7 @@ import pandas as pd
 import pytest
 
 from covariscope.analysis.design import TermSpec, make_design
-from covariscope.model.errors import DataError
+from covariscope.errors import DataError
 
 C = "continuous"
 

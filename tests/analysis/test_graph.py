@@ -18,7 +18,7 @@ from covariscope.analysis.graph import (
     minimal_adjustment_sets,
     review_proposal,
 )
-from covariscope.model.errors import CycleError, DiagramError
+from covariscope.errors import CycleError, DiagramError
 
 
 def diagram(

@@ -7,7 +7,7 @@ import pandas as pd
 import pytest
 
 from covariscope.data.coerce import binary_coding, coerce_column
-from covariscope.model.errors import DataError
+from covariscope.errors import DataError
 
 
 def test_continuous_from_text_numbers():

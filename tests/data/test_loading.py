@@ -16,7 +16,7 @@ import pytest
 
 from covariscope.data import loading, text
 from covariscope.data.loading import LoadCancelledError, file_sha256, load_table
-from covariscope.model.errors import DataError
+from covariscope.errors import DataError
 
 
 def small_frame() -> pd.DataFrame:

@@ -7,7 +7,7 @@ import pandas as pd
 import pytest
 
 from covariscope.data.profile import COLUMN_TYPES, profile_column, profile_table
-from covariscope.model.errors import DataError
+from covariscope.errors import DataError
 
 
 @pytest.fixture

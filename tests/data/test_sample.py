@@ -9,7 +9,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from covariscope.data.sample import analytic_sample
-from covariscope.model.errors import DataError
+from covariscope.errors import DataError
 
 
 def frame_with_gaps(seed: int, n: int, columns: int, rate: float) -> pd.DataFrame:

@@ -8,9 +8,9 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
+from covariscope.errors import DiagramError
 from covariscope.model import commands as c
 from covariscope.model.diagram import Node
-from covariscope.model.errors import DiagramError
 from covariscope.model.project import Project, project_to_dict
 
 

@@ -9,8 +9,8 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
+from covariscope.errors import CycleError, DiagramError
 from covariscope.model.diagram import Diagram, Node
-from covariscope.model.errors import CycleError, DiagramError
 
 
 def chain(*ids: str) -> Diagram:

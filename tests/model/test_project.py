@@ -10,8 +10,8 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
+from covariscope.errors import ProjectFileError
 from covariscope.model.diagram import Diagram, Node
-from covariscope.model.errors import ProjectFileError
 from covariscope.model.project import (
     DataRef,
     Project,

@@ -7,8 +7,8 @@ from PySide6.QtWidgets import QAbstractItemView
 
 from covariscope.model.diagram import Node
 from covariscope.model.project import Project
-from covariscope.panels.data_panel import COLUMN_MIME
 from covariscope.qt.canvas.scene import column_from_mime
+from covariscope.views.data_panel import COLUMN_MIME
 
 
 class _Table:

@@ -10,9 +10,9 @@ from PySide6.QtWidgets import QApplication
 
 def test_dialog_shows_the_json_numbers(qtbot, window, demo, wait_for_analysis):
     from covariscope.model.project import load_project
-    from covariscope.panels.format import number, percent
     from covariscope.study import run_study
-    from covariscope.study_json import study_to_json
+    from covariscope.views.check_json import study_to_json
+    from covariscope.views.format import number, percent
 
     w = window
     js = study_to_json(run_study(load_project(demo / "demo_project.json")))

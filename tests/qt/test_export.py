@@ -10,8 +10,8 @@ import pytest
 from PySide6.QtCore import QRectF
 from PySide6.QtGui import QColor, QImage, QPainter, QUndoStack
 
+from covariscope.errors import CovariscopeError
 from covariscope.model.diagram import Diagram, Node
-from covariscope.model.errors import CovariscopeError
 from covariscope.model.layout import layered_layout
 from covariscope.model.project import Project
 from covariscope.qt.canvas import (

@@ -33,7 +33,7 @@ def drop_column(w, column: str, scene_pos: QPointF) -> None:
 def test_build_the_demo_from_an_empty_window(qtbot, window, demo, wait_for_analysis):
     from covariscope.model.project import load_project
     from covariscope.study import run_study
-    from covariscope.study_json import study_to_json
+    from covariscope.views.check_json import study_to_json
 
     w = window
     expected_project = load_project(demo / "demo_project.json")
@@ -346,8 +346,8 @@ def test_copy_follows_the_focus(qtbot, window, demo, wait_for_analysis):
 def test_canvas_menu_keeps_one_of_a_group(qtbot, window, demo, wait_for_analysis):
     """The node menu of a keep-one-of covariate offers the review table's
     choice; it is one undo step."""
-    from covariscope.panels.keep_choice import group_key
     from covariscope.qt.canvas.menus import action_by_key
+    from covariscope.views.keep_choice import group_key
 
     w = window
     assert w.io.open(str(demo / "demo_project.json"))

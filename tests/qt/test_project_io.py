@@ -28,9 +28,9 @@ def test_save_then_reopen_is_identical(qtbot, window, demo, tmp_path):
 
 def test_recovery_is_offered_and_restores(qtbot, demo, tmp_path, monkeypatch, fake_prompts):
     from covariscope.model.project import project_to_dict
-    from covariscope.panels import recovery
     from covariscope.qt.main_window import MainWindow
     from covariscope.qt.project_io import AUTOSAVE_MS, recovery_folder
+    from covariscope.views import recovery
 
     first = MainWindow(prompts=fake_prompts(), debounce_ms=20)
     qtbot.addWidget(first)

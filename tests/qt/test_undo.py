@@ -5,9 +5,9 @@ from __future__ import annotations
 import pytest
 from PySide6.QtGui import QUndoStack
 
+from covariscope.errors import CycleError
 from covariscope.model.commands import AddArrow, AddNode, Macro
 from covariscope.model.diagram import Node
-from covariscope.model.errors import CycleError
 from covariscope.model.project import Project, project_to_dict
 from covariscope.qt.undo import push
 

@@ -81,7 +81,7 @@ def test_requests_are_debounced(qtbot, qapp):
 
 
 def test_errors_come_back_in_words(qtbot, qapp):
-    from covariscope.model.errors import DiagramError
+    from covariscope.errors import DiagramError
 
     def refuse(*_):
         raise DiagramError("The diagram has no exposure.")
@@ -94,7 +94,7 @@ def test_errors_come_back_in_words(qtbot, qapp):
 
 
 def test_load_can_be_cancelled(qtbot, qapp):
-    from covariscope.model.errors import DataError
+    from covariscope.errors import DataError
 
     started = threading.Event()
 

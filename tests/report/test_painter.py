@@ -13,11 +13,11 @@ import pytest
 from pypdf import PdfReader
 
 from covariscope.model.project import load_project
-from covariscope.report.content import build_content, format_interval, format_number
 from covariscope.report.layout import MIN_BODY_PT
 from covariscope.report.painter import render_image, write_pdf
 from covariscope.study import run_study
-from covariscope.study_json import study_to_json
+from covariscope.views.check_json import study_to_json
+from covariscope.views.report_content import build_content, format_interval, format_number
 
 DEMO = Path(__file__).resolve().parents[2] / "demo_data" / "demo_project.json"
 POINTS = {"a4": (595.3, 841.9), "letter": (612.0, 792.0)}
@@ -211,7 +211,7 @@ def test_printer_uses_the_same_page(qapp, tmp_path, small_study):
 
 
 def test_unknown_paper_size_is_refused_plainly(qapp, tmp_path, small_study):
-    from covariscope.model.errors import CovariscopeError
+    from covariscope.errors import CovariscopeError
 
     result, project = small_study
     with pytest.raises(CovariscopeError, match="not a paper size"):

@@ -14,8 +14,8 @@ import statsmodels.api as sm
 from covariscope.data.loading import LoadedTable
 from covariscope.model.project import project_from_dict
 from covariscope.study import run_study
-from covariscope.study_json import study_to_json
-from covariscope.study_text import format_study_text
+from covariscope.views.check_json import study_to_json
+from covariscope.views.check_text import format_study_text
 
 
 def _project(nodes, arrows, proposed=(), *, analysis=None, proxies=()):

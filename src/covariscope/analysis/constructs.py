@@ -14,7 +14,7 @@ from dataclasses import dataclass, field
 
 import networkx as nx
 
-from covariscope.model.errors import CycleError, DiagramError
+from covariscope.errors import CycleError, DiagramError
 
 __all__ = [
     "MergedDiagram",

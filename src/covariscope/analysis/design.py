@@ -21,7 +21,7 @@ import numpy as np
 import pandas as pd
 
 from covariscope.analysis.fits import FAMILIES
-from covariscope.model.errors import DataError
+from covariscope.errors import DataError
 
 __all__ = [
     "TERM_TYPES",

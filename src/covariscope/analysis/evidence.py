@@ -45,7 +45,7 @@ from covariscope.analysis.linear import (
     linear_summary,
     solve_ols,
 )
-from covariscope.model.errors import DataError
+from covariscope.errors import DataError
 
 __all__ = [
     "NEAR_ZERO_SE_FRACTION",

@@ -100,7 +100,7 @@ def analyse_diagram(
 
     Raises
     ------
-    covariscope.model.errors.DiagramError
+    covariscope.errors.DiagramError
         Unknown exposure or outcome, exposure equal to outcome, a cycle, or a
         proposed id that is not a covariate of the diagram.
 

@@ -15,7 +15,7 @@ from dataclasses import dataclass
 import networkx as nx
 
 from covariscope.analysis.constructs import MergedDiagram, merge_diagram
-from covariscope.model.errors import DiagramError
+from covariscope.errors import DiagramError
 
 __all__ = [
     "COUNT_BUDGET",

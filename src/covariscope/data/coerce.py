@@ -25,7 +25,7 @@ from covariscope.data.profile import (
     validate_type,
 )
 from covariscope.data.values import level_key, parse_numbers
-from covariscope.model.errors import DataError
+from covariscope.errors import DataError
 
 __all__ = ["binary_coding", "coerce_column"]
 

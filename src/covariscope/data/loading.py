@@ -32,7 +32,7 @@ from covariscope.data.readers import (
 )
 from covariscope.data.scan import scan_file
 from covariscope.data.text import DELIMITER_NAMES, detect_layout, read_delimited
-from covariscope.model.errors import DataError
+from covariscope.errors import DataError
 
 __all__ = [
     "FORMAT_LABELS",

@@ -50,7 +50,7 @@ from covariscope.data.values import (
     quote_examples,
     sort_levels,
 )
-from covariscope.model.errors import DataError
+from covariscope.errors import DataError
 
 __all__ = [
     "COLUMN_TYPES",

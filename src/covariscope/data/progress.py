@@ -10,7 +10,7 @@ from __future__ import annotations
 
 from collections.abc import Callable
 
-from covariscope.model.errors import DataError
+from covariscope.errors import DataError
 
 __all__ = ["LoadCancelledError", "Steps"]
 

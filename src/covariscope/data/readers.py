@@ -18,7 +18,7 @@ import pandas as pd
 
 from covariscope.data.progress import Steps
 from covariscope.data.values import tidy_text_column
-from covariscope.model.errors import DataError
+from covariscope.errors import DataError
 
 __all__ = ["ReadResult", "read_excel", "read_old_excel", "read_parquet", "read_statistical"]
 

@@ -15,7 +15,7 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 
-from covariscope.model.errors import DataError
+from covariscope.errors import DataError
 
 __all__ = ["AnalyticSample", "CompleteCases", "analytic_sample", "complete_cases"]
 

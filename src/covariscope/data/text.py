@@ -20,7 +20,7 @@ import pandas as pd
 
 from covariscope.data.progress import Steps
 from covariscope.data.values import tidy_text_column
-from covariscope.model.errors import DataError
+from covariscope.errors import DataError
 
 __all__ = ["CANDIDATE_DELIMITERS", "TextLayout", "detect_layout", "read_delimited"]
 

@@ -1,14 +1,6 @@
 """The diagram, the project file and edit commands (no Qt)."""
 
 from covariscope.model.diagram import KINDS, Diagram, DiagramEvent, Node
-from covariscope.model.errors import (
-    CovariscopeError,
-    CovariscopeWarning,
-    CycleError,
-    DataError,
-    DiagramError,
-    ProjectFileError,
-)
 from covariscope.model.project import (
     DEFAULT_THRESHOLDS,
     AnalysisSettings,
@@ -22,17 +14,11 @@ __all__ = [
     "DEFAULT_THRESHOLDS",
     "KINDS",
     "AnalysisSettings",
-    "CovariscopeError",
-    "CovariscopeWarning",
-    "CycleError",
-    "DataError",
     "DataRef",
     "Diagram",
-    "DiagramError",
     "DiagramEvent",
     "Node",
     "Project",
-    "ProjectFileError",
     "load_project",
     "save_project",
 ]

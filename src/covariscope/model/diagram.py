@@ -3,7 +3,7 @@
 The diagram is the single source of truth that the canvas projects.  Every
 change goes through a method here, which validates it, applies it and tells
 the listeners in a fine-grained :class:`DiagramEvent`.  Refused edits raise a
-:class:`~covariscope.model.errors.DiagramError` whose message the user
+:class:`~covariscope.errors.DiagramError` whose message the user
 interface shows as it is, and leave the diagram unchanged.
 """
 
@@ -16,7 +16,7 @@ from typing import Any
 
 import networkx as nx
 
-from covariscope.model.errors import CycleError, DiagramError
+from covariscope.errors import CycleError, DiagramError
 
 __all__ = [
     "KINDS",

@@ -28,8 +28,8 @@ from pathlib import Path
 from typing import Any
 
 from covariscope.analysis.verdicts import DEFAULT_THRESHOLDS
+from covariscope.errors import CovariscopeError, DiagramError, ProjectFileError
 from covariscope.model.diagram import KINDS, Diagram, Node
-from covariscope.model.errors import CovariscopeError, DiagramError, ProjectFileError
 
 __all__ = [
     "DEFAULT_THRESHOLDS",

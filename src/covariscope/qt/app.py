@@ -9,7 +9,7 @@ from importlib import resources
 from PySide6.QtCore import QSettings
 from PySide6.QtWidgets import QApplication
 
-from covariscope.model.errors import CovariscopeError
+from covariscope.errors import CovariscopeError
 
 __all__ = ["application", "run_gui", "style_sheet"]
 

@@ -9,13 +9,13 @@ from typing import TYPE_CHECKING, Any
 
 from PySide6.QtCore import QObject
 
+from covariscope.errors import CovariscopeError
 from covariscope.model.commands import Macro
-from covariscope.model.errors import CovariscopeError
 from covariscope.model.project import DataRef
-from covariscope.panels.commands import SetData, SetSettings, bind_column
-from covariscope.panels.data_panel import matching_bindings
 from covariscope.qt.project_io import DATA_FILTER
 from covariscope.qt.worker import LoadRunner
+from covariscope.views.commands import SetData, SetSettings, bind_column
+from covariscope.views.data_panel import matching_bindings
 
 if TYPE_CHECKING:
     from covariscope.qt.main_window import MainWindow

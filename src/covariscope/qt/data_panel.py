@@ -19,7 +19,8 @@ from PySide6.QtWidgets import (
     QWidget,
 )
 
-from covariscope.panels.data_panel import (
+from covariscope.qt.tables import filling
+from covariscope.views.data_panel import (
     COLUMN_MIME,
     COLUMN_TYPES,
     DATA_COLUMN_TIPS,
@@ -28,7 +29,6 @@ from covariscope.panels.data_panel import (
     column_rows,
     unbound_summary,
 )
-from covariscope.qt.tables import filling
 
 __all__ = ["ColumnTable", "DataPanel", "column_mime"]
 
@@ -57,7 +57,7 @@ class ColumnTable(QTableWidget):
 
 
 class DataPanel(QWidget):
-    """Shows :func:`covariscope.panels.data_panel.column_rows`; asks the
+    """Shows :func:`covariscope.views.data_panel.column_rows`; asks the
     window (through signals) to load data or change bindings and types."""
 
     load_requested = Signal()

@@ -33,16 +33,16 @@ from PySide6.QtWidgets import (
     QWidget,
 )
 
-from covariscope.panels.diagnostics import (
+from covariscope.qt.tables import filling
+from covariscope.views.diagnostics import (
     DIAGNOSTIC_CAUTION,
     EndpointDiagnostics,
     NodeDiagnostics,
     endpoint_diagnostics,
     node_diagnostics,
 )
-from covariscope.panels.format import ratio_family
-from covariscope.panels.keep_choice import KeepChoice, keep_choice
-from covariscope.qt.tables import filling
+from covariscope.views.format import ratio_family
+from covariscope.views.keep_choice import KeepChoice, keep_choice
 
 __all__ = ["FAMILY_LABELS", "CovariateDialog", "EndpointDialog", "NodeDialog"]
 

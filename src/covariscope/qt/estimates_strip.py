@@ -6,7 +6,7 @@ from typing import Any
 
 from PySide6.QtWidgets import QFrame, QHBoxLayout, QLabel, QVBoxLayout, QWidget
 
-from covariscope.panels.estimates import estimate_cells, evalue_text
+from covariscope.views.estimates import estimate_cells, evalue_text
 
 __all__ = ["EstimatesStrip"]
 

@@ -7,7 +7,7 @@ from collections.abc import Callable
 
 from PySide6.QtWidgets import QMenu
 
-from covariscope.panels.keep_choice import KeepChoice
+from covariscope.views.keep_choice import KeepChoice
 
 __all__ = ["add_keep_actions"]
 

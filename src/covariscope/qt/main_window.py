@@ -3,7 +3,7 @@ paths list and estimates strip around it, status bar below.
 
 Kept thin: actions live in :mod:`covariscope.qt.actions`, files in
 :mod:`covariscope.qt.project_io`, data in :mod:`covariscope.qt.data_controller`,
-panel logic in :mod:`covariscope.panels`.
+panel logic in :mod:`covariscope.views`.
 """
 
 from __future__ import annotations
@@ -28,10 +28,6 @@ from PySide6.QtWidgets import (
 
 from covariscope.model.commands import Command, Macro, SetKind, SetProposed, UpdateNode
 from covariscope.model.project import Project
-from covariscope.panels.commands import SetSettings
-from covariscope.panels.diagnostics import node_labels
-from covariscope.panels.keep_choice import keep_choice, keep_choices_after
-from covariscope.panels.review import proposed_after_toggle
 from covariscope.qt import output
 from covariscope.qt.actions import WindowActions
 from covariscope.qt.canvas import DiagramScene, DiagramView
@@ -46,6 +42,10 @@ from covariscope.qt.settings_dialogs import ThresholdsDialog
 from covariscope.qt.tables import selected_text
 from covariscope.qt.undo import push
 from covariscope.qt.worker import AnalysisRunner
+from covariscope.views.commands import SetSettings
+from covariscope.views.diagnostics import node_labels
+from covariscope.views.keep_choice import keep_choice, keep_choices_after
+from covariscope.views.review import proposed_after_toggle
 
 __all__ = ["MainWindow"]
 

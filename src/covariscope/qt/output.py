@@ -10,7 +10,8 @@ from typing import TYPE_CHECKING
 from PySide6.QtCore import QRectF
 from PySide6.QtGui import QPainter
 
-from covariscope.model.errors import CovariscopeError
+from covariscope.errors import CovariscopeError
+from covariscope.model.files import check_output_path
 
 if TYPE_CHECKING:
     from covariscope.qt.main_window import MainWindow
@@ -39,10 +40,28 @@ def _ask(w: MainWindow, kind: str, title: str, stem: str) -> Path | None:
     return target if target.suffix else target.with_suffix(f".{kind}")
 
 
+def _writable(w: MainWindow, target: Path, kind: str) -> Path | None:
+    """The target, unless it is a file the project reads (then say so).
+
+    The save dialog has already asked about replacing an existing file; the
+    project file and the data file are never replaced.
+    """
+    reads = [
+        ("the project file itself", w.project.path),
+        ("the study's data file", w.project.data_path()),
+    ]
+    try:
+        return check_output_path(Path(target), reads, kind=kind, force=True)
+    except CovariscopeError as exc:
+        w.prompts.warn(f"Cannot write the {kind}", str(exc))
+        return None
+
+
 def export_diagram(w: MainWindow, kind: str, path: str | None = None) -> bool:
     target = (
         Path(path) if path else _ask(w, kind, f"Export the diagram as {kind.upper()}", "_diagram")
     )
+    target = _writable(w, target, kind.upper()) if target is not None else None
     if target is None:
         return False
     try:
@@ -63,6 +82,7 @@ def export_diagram(w: MainWindow, kind: str, path: str | None = None) -> bool:
 
 def export_review_csv(w: MainWindow, path: str | None = None) -> bool:
     target = Path(path) if path else _ask(w, "csv", "Export the review table", "_review")
+    target = _writable(w, target, "CSV") if target is not None else None
     if target is None:
         return False
     try:
@@ -89,8 +109,8 @@ def print_rationale(w: MainWindow) -> bool:
     if not _ready(w):
         return False
     try:
-        from covariscope.report.content import build_content
         from covariscope.report.painter import paint_rationale
+        from covariscope.views.report_content import build_content
     except ImportError:
         w.prompts.warn(
             "Printing not available", "The rationale report is not installed in this build."
@@ -123,6 +143,9 @@ def save_rationale_pdf(w: MainWindow, path: str | None = None) -> bool:
         from covariscope.report.painter import write_pdf
     except ImportError:
         w.prompts.warn("PDF not available", "The rationale report is not installed in this build.")
+        return False
+    target = _writable(w, target, "PDF")
+    if target is None:
         return False
     try:
         written = write_pdf(w.result, w.project, target)

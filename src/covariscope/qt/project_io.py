@@ -13,9 +13,9 @@ from typing import TYPE_CHECKING, Any
 from PySide6.QtCore import QObject, QSettings, QStandardPaths, QTimer, Signal
 from PySide6.QtWidgets import QFileDialog, QMessageBox, QWidget
 
-from covariscope.model.errors import CovariscopeError
+from covariscope.errors import CovariscopeError
 from covariscope.model.project import Project, load_project, save_project
-from covariscope.panels import recovery
+from covariscope.views import recovery
 
 if TYPE_CHECKING:
     from covariscope.qt.main_window import MainWindow

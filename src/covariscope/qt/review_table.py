@@ -18,10 +18,10 @@ from PySide6.QtWidgets import (
     QWidget,
 )
 
-from covariscope.panels.keep_choice import KeepChoice, keep_choice, kept_words
-from covariscope.panels.review import REVIEW_COLUMNS, ReviewRow, review_rows, rows_to_csv
 from covariscope.qt.keep_menu import add_keep_actions
 from covariscope.qt.tables import filling
+from covariscope.views.keep_choice import KeepChoice, keep_choice, kept_words
+from covariscope.views.review import REVIEW_COLUMNS, ReviewRow, review_rows, rows_to_csv
 
 __all__ = ["PathsPanel", "ReviewTable", "open_paths"]
 

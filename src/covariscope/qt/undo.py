@@ -11,8 +11,8 @@ from collections.abc import Callable
 
 from PySide6.QtGui import QUndoCommand, QUndoStack
 
+from covariscope.errors import CovariscopeError
 from covariscope.model.commands import Command
-from covariscope.model.errors import CovariscopeError
 
 __all__ = ["UndoableEdit", "push"]
 
@@ -44,7 +44,7 @@ def push(
     """Apply ``command`` and put it on ``stack``.
 
     Returns True when the edit was made.  A refused edit (the model raises a
-    :class:`~covariscope.model.errors.CovariscopeError`) leaves the model and
+    :class:`~covariscope.errors.CovariscopeError`) leaves the model and
     the stack as they were; its message is passed to ``on_refused``, or the
     error is raised again when no ``on_refused`` is given.
     """

@@ -18,7 +18,7 @@ from typing import Any
 
 from PySide6.QtCore import QObject, QRunnable, QThreadPool, QTimer, Signal
 
-from covariscope.model.errors import CovariscopeError
+from covariscope.errors import CovariscopeError
 from covariscope.model.project import Project
 
 __all__ = ["AnalysisRunner", "LoadRunner", "snapshot"]

@@ -18,7 +18,7 @@ from dataclasses import dataclass, field
 from PySide6.QtCore import QRectF, Qt
 from PySide6.QtGui import QFont, QFontDatabase, QFontMetricsF, QPaintDevice
 
-from covariscope.report.content import RationaleContent
+from covariscope.views.report_content import RationaleContent
 
 __all__ = ["MIN_BODY_PT", "Fonts", "PagePlan", "Shade", "TextItem", "plan_page", "wrap_text"]
 

@@ -10,6 +10,9 @@ measured.
 
 from __future__ import annotations
 
+import contextlib
+import os
+import tempfile
 from collections.abc import Callable
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -30,10 +33,11 @@ from PySide6.QtGui import (
 )
 
 from covariscope import __version__
-from covariscope.model.errors import CovariscopeError
-from covariscope.report.content import RationaleContent, build_content
+from covariscope.errors import CovariscopeError
+from covariscope.model.files import temporary_prefix
 from covariscope.report.layout import Fonts, PagePlan, TextItem, plan_page
 from covariscope.report.sketch import draw_sketch
+from covariscope.views.report_content import RationaleContent, build_content
 
 __all__ = [
     "PAGE_SIZES",
@@ -184,17 +188,36 @@ def _write_pdf(
     if path.parent and not path.parent.exists():
         raise CovariscopeError(f"Cannot write {path}: the folder {path.parent} does not exist.")
     content = content or build_content(result, project)
-    writer = QPdfWriter(str(path))
-    writer.setResolution(_PDF_DPI)
-    writer.setPageLayout(_page_layout(page))
-    writer.setTitle(f"Adjustment rationale — {content.question}")
-    writer.setCreator(f"Covariscope {__version__}")
-    done = _paint_on(writer, content, None)
-    del writer  # flushes and closes the file
+    # Written beside the target and moved into place: a failed write never
+    # leaves a broken file where the user's earlier PDF was.
+    fd, tmp_name = tempfile.mkstemp(
+        prefix=temporary_prefix(path), suffix=".tmp", dir=path.parent or None
+    )
+    os.close(fd)
+    tmp = Path(tmp_name)
+    try:
+        writer = QPdfWriter(str(tmp))
+        writer.setResolution(_PDF_DPI)
+        writer.setPageLayout(_page_layout(page))
+        writer.setTitle(f"Adjustment rationale — {content.question}")
+        writer.setCreator(f"Covariscope {__version__}")
+        done = _paint_on(writer, content, None)
+        del writer  # flushes and closes the file
+        if tmp.stat().st_size == 0:
+            raise CovariscopeError(
+                f"Cannot write {path}: check that the location is writable and not full."
+            )
+        os.replace(tmp, path)
+    except OSError as exc:
+        raise CovariscopeError(
+            f"Cannot write {path} ({exc.strerror or exc}); check that the location is "
+            "writable and not full."
+        ) from None
+    finally:
+        with contextlib.suppress(OSError):
+            tmp.unlink()
     if record is not None:
         record.append(done)
-    if not path.exists() or path.stat().st_size == 0:
-        raise CovariscopeError(f"Cannot write {path}: check that the location is writable.")
     return path
 
 

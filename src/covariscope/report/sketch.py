@@ -15,8 +15,8 @@ import math
 from PySide6.QtCore import QLineF, QPointF, QRectF, Qt
 from PySide6.QtGui import QBrush, QColor, QPainter, QPen, QPolygonF
 
-from covariscope.report.content import DiagramSketch
 from covariscope.report.layout import Fonts, TextItem, wrap_text
+from covariscope.views.report_content import DiagramSketch
 
 __all__ = ["draw_sketch"]
 

@@ -31,7 +31,7 @@ from covariscope.analysis.graph import DiagramAnalysis
 from covariscope.analysis.verdicts import LABELS, VERDICTS, Verdict
 from covariscope.data.loading import LoadedTable, load_table
 from covariscope.data.sample import CompleteCases
-from covariscope.model.errors import DataError
+from covariscope.errors import DataError
 from covariscope.model.project import DEFAULT_THRESHOLDS, Project
 from covariscope.study.cache import StudyCache
 from covariscope.study.criteria import GraphCriteria, graph_criteria, proposal_review, structure_key

@@ -19,8 +19,8 @@ import networkx as nx
 from PySide6.QtCore import QPointF, QRectF, QSize
 from PySide6.QtGui import QColor, QImage, QPainter
 
+from covariscope.errors import CovariscopeError
 from covariscope.model.diagram import Diagram
-from covariscope.model.errors import CovariscopeError
 from covariscope.qt.canvas.drawing import (
     LABEL_PX,
     Annotations,

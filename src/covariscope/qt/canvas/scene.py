@@ -41,12 +41,12 @@ from covariscope.model.commands import (
 from covariscope.model.diagram import DiagramEvent, Node
 from covariscope.model.layout import layered_layout
 from covariscope.model.project import Project, ProjectEvent
-from covariscope.panels.keep_choice import KeepChoice
 from covariscope.qt.canvas import menus
 from covariscope.qt.canvas.items import ArrowItem, LabelEditor, NodeItem, ProxyItem
 from covariscope.qt.canvas.modes import ConnectMode, Mode, Pointer, SelectMode
 from covariscope.qt.palette import colour
 from covariscope.qt.undo import push
+from covariscope.views.keep_choice import KeepChoice
 
 __all__ = ["COLUMN_MIME", "DiagramScene", "column_from_mime"]
 
@@ -68,7 +68,7 @@ class DiagramScene(QGraphicsScene):
     keep, or None for the suggestion: the window pushes the edit).
 
     :attr:`keep_choice_of` is set by the window to a function from node id
-    to its :class:`~covariscope.panels.keep_choice.KeepChoice` (or None), so
+    to its :class:`~covariscope.views.keep_choice.KeepChoice` (or None), so
     the node menu offers the same keep choice as the review table.
     """
 

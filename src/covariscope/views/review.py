@@ -9,7 +9,7 @@ import io
 from dataclasses import dataclass
 from typing import Any
 
-from covariscope.panels.format import DASH, is_number, number, percent, ratio_family
+from covariscope.views.format import DASH, is_number, number, percent, ratio_family
 
 __all__ = [
     "REVIEW_COLUMNS",

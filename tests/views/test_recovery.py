@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from covariscope.model.diagram import Node
 from covariscope.model.project import DataRef, Project, project_to_dict
-from covariscope.panels import recovery
+from covariscope.views import recovery
 
 
 def test_live_writer_is_not_offered(tmp_path):

@@ -8,7 +8,7 @@ import dataclasses
 
 import pytest
 
-from covariscope.panels.keep_choice import group_key, keep_choice, keep_choices_after, kept_words
+from covariscope.views.keep_choice import group_key, keep_choice, keep_choices_after, kept_words
 
 
 def test_group_key_sorts_and_joins():

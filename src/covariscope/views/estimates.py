@@ -7,7 +7,7 @@ import math
 from dataclasses import dataclass
 from typing import Any
 
-from covariscope.panels.format import DASH, fit_ok, is_number, number, ratio_family
+from covariscope.views.format import DASH, fit_ok, is_number, number, ratio_family
 
 __all__ = ["ESTIMATE_KEYS", "EstimateCell", "display_scale", "estimate_cells", "evalue_text"]
 

@@ -9,7 +9,7 @@ import sys
 import pytest
 
 from covariscope import __version__
-from covariscope.report.content import (
+from covariscope.views.report_content import (
     CAUTIONS,
     build_content,
     estimate_decimals,
@@ -22,7 +22,7 @@ from covariscope.report.content import (
 
 def test_content_module_does_not_load_qt():
     code = (
-        "import sys; import covariscope.report.content; "
+        "import sys; import covariscope.views.report_content; "
         "print(any(m.startswith('PySide6') for m in sys.modules))"
     )
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)

@@ -5,7 +5,7 @@ from __future__ import annotations
 from covariscope.model.commands import History
 from covariscope.model.diagram import Node
 from covariscope.model.project import DataRef, Project, project_to_dict
-from covariscope.panels.commands import SetData, SetSettings, bind_column
+from covariscope.views.commands import SetData, SetSettings, bind_column
 
 
 def _round_trip(project, command):

@@ -6,7 +6,7 @@ from types import SimpleNamespace
 
 from covariscope.model.diagram import Node
 from covariscope.model.project import Project
-from covariscope.panels.data_panel import (
+from covariscope.views.data_panel import (
     column_rows,
     matching_bindings,
     nodes_without_column,

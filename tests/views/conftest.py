@@ -24,7 +24,7 @@ def demo_folder(tmp_path_factory):
 def demo_study(demo_folder):
     from covariscope.model.project import load_project
     from covariscope.study import run_study
-    from covariscope.study_json import study_to_json
+    from covariscope.views.check_json import study_to_json
 
     project = load_project(demo_folder / "demo_project.json")
     result = run_study(project)

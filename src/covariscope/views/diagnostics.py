@@ -13,9 +13,9 @@ from collections.abc import Mapping
 from dataclasses import dataclass, field
 from typing import Any
 
-from covariscope.panels.estimates import display_scale
-from covariscope.panels.format import DASH, is_number, number, percent
-from covariscope.panels.review import change_value, role_words
+from covariscope.views.estimates import display_scale
+from covariscope.views.format import DASH, is_number, number, percent
+from covariscope.views.review import change_value, role_words
 
 __all__ = [
     "DIAGNOSTIC_CAUTION",

@@ -7,7 +7,7 @@ from collections.abc import Iterable, Mapping
 from dataclasses import dataclass
 from typing import Any
 
-from covariscope.panels.format import DASH, is_number
+from covariscope.views.format import DASH, is_number
 
 __all__ = [
     "COLUMN_MIME",

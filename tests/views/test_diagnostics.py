@@ -4,13 +4,13 @@ from __future__ import annotations
 
 import pytest
 
-from covariscope.panels.diagnostics import (
+from covariscope.views.diagnostics import (
     checklist,
     endpoint_diagnostics,
     node_diagnostics,
     node_labels,
 )
-from covariscope.panels.format import number, percent
+from covariscope.views.format import number, percent
 
 
 @pytest.mark.parametrize("node", ["age", "income", "screen"])

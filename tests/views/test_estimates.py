@@ -2,8 +2,8 @@
 
 from __future__ import annotations
 
-from covariscope.panels.estimates import estimate_cells, evalue_text
-from covariscope.panels.format import DASH, number
+from covariscope.views.estimates import estimate_cells, evalue_text
+from covariscope.views.format import DASH, number
 
 
 def test_cells_show_the_json_estimates(demo_study):

@@ -7,8 +7,8 @@ import io
 
 from covariscope.model.diagram import Node
 from covariscope.model.project import Project
-from covariscope.panels.format import DASH, number, percent
-from covariscope.panels.review import (
+from covariscope.views.format import DASH, number, percent
+from covariscope.views.review import (
     REVIEW_COLUMNS,
     proposed_after_toggle,
     review_rows,
