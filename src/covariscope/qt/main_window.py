@@ -45,9 +45,13 @@ from covariscope.qt.worker import AnalysisRunner
 from covariscope.views.commands import SetSettings
 from covariscope.views.diagnostics import node_labels
 from covariscope.views.keep_choice import keep_choice, keep_choices_after
+from covariscope.views.recompute import recompute_summary
 from covariscope.views.review import proposed_after_toggle
 
 __all__ = ["MainWindow"]
+
+#: Node fields no analysis reads: editing them asks for none.
+LAYOUT_FIELDS = frozenset({"x", "y", "note"})
 
 
 class MainWindow(QMainWindow):
@@ -228,6 +232,8 @@ class MainWindow(QMainWindow):
     # -- reacting to the model -----------------------------------------------------------
     def _model_changed(self, event: Any) -> None:
         self.refresh_panels()
+        if event.kind == "node_changed" and set(event.changes) <= LAYOUT_FIELDS:
+            return  # where a node sits and what its note says change no number
         self.request_analysis()
 
     def _project_changed(self, event: Any) -> None:
@@ -282,6 +288,9 @@ class MainWindow(QMainWindow):
         else:
             self.rows_label.setText("No data")
         self._set_state("Analysis up to date")
+        recomputed = getattr(result, "recomputed", None)
+        if recomputed is not None:
+            self.show_message(recompute_summary(recomputed, result.models_fitted, result.seconds))
         msgs = getattr(result, "messages", ())
         self.error_label.setToolTip("\n".join(msgs))
 

@@ -18,7 +18,7 @@ from __future__ import annotations
 
 import time
 from collections.abc import Callable, Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from typing import Any
 
 from covariscope.analysis.evidence import (
@@ -253,6 +253,7 @@ def run_study(
     """
     started = time.perf_counter()
     run = Run(cache if cache is not None else StudyCache(), [], cancel)
+    fits_before = run.cache.count("fit").misses
 
     def report(fraction: float, text: str) -> None:
         if progress is not None:
@@ -279,7 +280,12 @@ def run_study(
         lambda: decide(q, criteria.graph, da, data.evidence, data.engine),
     )
     report(1.0, "Done")
-    return _result(q, da, data, decisions, source, project, run, started)
+    result = _result(q, da, data, decisions, source, project, run)
+    return replace(
+        result,
+        models_fitted=run.cache.count("fit").misses - fits_before,
+        seconds=time.perf_counter() - started,
+    )
 
 
 def _data_or_none(
@@ -312,7 +318,6 @@ def _result(
     source: DataSource | None,
     project: Project,
     run: Run,
-    started: float,
 ) -> StudyResult:
     messages: list[str] = []
     stored = project.data.sha256 if project.data is not None else None
@@ -344,5 +349,4 @@ def _result(
         recommended_reason=decisions.recommended_reason,
         names=dict(q.names),
         recomputed=tuple(dict.fromkeys(run.trace)),
-        seconds=time.perf_counter() - started,
     )

@@ -200,6 +200,15 @@ def _missing(run: Run, source: DataSource, column: str) -> np.ndarray:
     return mask
 
 
+def rows_key(source: DataSource, sample: CompleteCases) -> tuple[Any, ...]:
+    """Names the sample's rows: the data and the chosen columns that miss any value.
+
+    Columns without a missing value drop no row, so binding one keeps the
+    rows (and every coded column of them) as they were.
+    """
+    return (source.digest, tuple(sorted(c for c, n in sample.missing_by_column.items() if n)))
+
+
 def _rows(source: DataSource, sample: CompleteCases, column: str) -> pd.Series:
     series = source.column(column)
     return series if sample.complete else series[sample.keep]
@@ -310,7 +319,7 @@ def _identity(
     if design.y is not None:
         y_spec = tuple((k, c, profiles[c].type if c else None) for k, c in bindings.outcome_columns)
         ids.append((("outcome", y_spec), ""))
-    return ((source.digest, sample.columns), tuple(ids))
+    return (rows_key(source, sample), tuple(ids))
 
 
 def _design(
@@ -323,7 +332,7 @@ def _design(
     usable: list[tuple[str, str]],
     profiles: Mapping[str, ColumnProfile],
 ) -> Design:
-    base = (source.digest, sample.columns)
+    base = rows_key(source, sample)
     x_col = bindings.exposure_column
     x_spec = (x_col, *_spec_of(x_col, profiles[x_col]))
     specs = tuple((node, col, *_spec_of(col, profiles[col])) for node, col in usable)

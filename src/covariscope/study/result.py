@@ -46,6 +46,8 @@ class StudyResult:
     names: dict[str, str] = field(default_factory=dict)
     #: The stages this run computed (the rest came from the cache), in order.
     recomputed: tuple[str, ...] = ()
+    #: Models this run fitted (the rest came from the cache).
+    models_fitted: int = 0
     #: Wall-clock seconds this run took.
     seconds: float = 0.0
 
