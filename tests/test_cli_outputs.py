@@ -18,7 +18,9 @@ from covariscope.cli import error_log_path, main, write_demo
 
 
 @pytest.fixture
-def demo(tmp_path):
+def demo(tmp_path, qapp):
+    """The demo study; ``qapp`` first, so that the report's PDF writer finds a
+    full QApplication rather than creating a plain one the GUI tests cannot use."""
     project = write_demo(tmp_path / "study")
     return project, project.parent / "demo_cohort.csv"
 

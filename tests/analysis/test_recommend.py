@@ -6,7 +6,7 @@ import numpy as np
 import pytest
 import statsmodels.api as sm
 
-from covariscope.analysis.recommend import pair_r2, recommend_set
+from covariscope.analysis.recommend import pair_r2, rank_members, recommend_set
 
 
 def test_members_of_the_proposed_set_come_first():
@@ -77,3 +77,65 @@ def test_reason_names_the_criterion_that_decided():
     assert "smallest standard error (0.1, against 0.3" in r.reason
     r = recommend_set([("a", "c"), ("b", "c")], proposed=["b"], se_of=se)
     assert "most members of the proposed set" in r.reason
+
+
+def _two_measures(seed: int = 7, n: int = 4000):
+    """A confounder U measured twice: ``good`` with reliability 0.95, ``noisy``
+    with reliability 0.6 (reliability = var(U) / var(measure)); true effect 1.6."""
+    rng = np.random.default_rng(seed)
+    u = rng.normal(size=n)
+    good = u + rng.normal(scale=np.sqrt(1 / 0.95 - 1), size=n)
+    noisy = u + rng.normal(scale=np.sqrt(1 / 0.6 - 1), size=n)
+    x = 1.5 * u + rng.normal(size=n)
+    y = 1.6 * x + 0.5 * u + rng.normal(size=n)
+    return {"good": good, "noisy": noisy, "x": x, "y": y}
+
+
+def _ols_lookup(data):
+    # Outside reference: statsmodels OLS fits give the estimates the ranking reads.
+    def fit(members):
+        X = sm.add_constant(np.column_stack([data["x"], *(data[m] for m in members)]))
+        return sm.OLS(data["y"], X).fit()
+
+    return (lambda s: float(fit(s).params[1])), (lambda s: float(fit(s).bse[1]))
+
+
+def test_keep_one_default_keeps_the_more_reliable_measure():
+    data = _two_measures()
+    estimate_of, se_of = _ols_lookup(data)
+    # The trap: the noisy measure is less correlated with the exposure, so its
+    # model gives the smaller standard error while it leaves confounding behind.
+    assert se_of(("noisy",)) < se_of(("good",))
+    assert abs(estimate_of(("good",)) - 1.6) < abs(estimate_of(("noisy",)) - 1.6)
+    r = recommend_set(
+        [("good",), ("noisy",)], groups=[("good", "noisy")], se_of=se_of, estimate_of=estimate_of
+    )
+    assert r.members == ("good",)
+    assert "closest to adjusting for every member" in r.reason
+    ranking = rank_members(("good", "noisy"), (), estimate_of=estimate_of, se_of=se_of)
+    assert ranking.best == "good"
+    assert not ranking.by_se
+
+
+def test_standard_error_decides_between_equivalent_members():
+    est = {("a",): 1.0, ("b",): 1.0, ("a", "b"): 1.2}.get
+    se = {("a",): 0.3, ("b",): 0.2}.get
+    ranking = rank_members(("a", "b"), (), estimate_of=est, se_of=se)
+    assert ranking.best == "b"
+    assert ranking.by_se
+    assert recommend_set(
+        [("a",), ("b",)], groups=[("a", "b")], se_of=se, estimate_of=est
+    ).members == ("b",)
+
+
+def test_saved_choice_beats_the_confounding_default():
+    data = _two_measures()
+    estimate_of, se_of = _ols_lookup(data)
+    r = recommend_set(
+        [("good",), ("noisy",)],
+        groups=[("good", "noisy")],
+        keep_choices={"good|noisy": "noisy"},
+        se_of=se_of,
+        estimate_of=estimate_of,
+    )
+    assert r.members == ("noisy",)

@@ -376,3 +376,32 @@ def test_groups_the_diagram_needs_whole_are_no_keep_one_group():
     assert js["collinear_groups"] == [["a", "b"]]
     assert js["keep_one_groups"] == []
     assert "Collinear groups: {a, b} (the diagram needs every member)" in format_study_text(r)
+
+
+def test_keep_one_default_keeps_the_measure_that_carries_the_confounding():
+    # Two measures of one confounder U, reliabilities 0.95 ("good") and 0.6
+    # ("noisy"), joined by a proxy link; true effect 1.6 by construction.
+    rng = np.random.default_rng(11)
+    n = 4000
+    u = rng.normal(size=n)
+    good = u + rng.normal(scale=np.sqrt(1 / 0.95 - 1), size=n)
+    noisy = u + rng.normal(scale=np.sqrt(1 / 0.6 - 1), size=n)
+    x = 1.5 * u + rng.normal(size=n)
+    y = 1.6 * x + 0.5 * u + rng.normal(size=n)
+    frame = pd.DataFrame({"x": x, "y": y, "good": good, "noisy": noisy})
+    p = _project(
+        ["x", "y", "good", "noisy"],
+        [("good", "x"), ("good", "y"), ("x", "y")],
+        proxies=[("good", "noisy")],
+    )
+    r = run_study(p, table=_table(frame))
+    assert r.verdicts["noisy"].code == "keep_one_of"
+    assert r.verdicts["noisy"].suggested == "good"
+    assert "carries the most of the confounding" in r.verdicts["noisy"].reason
+    assert r.recommended == ("good",)
+    assert abs(r.estimates["recommended"].coef - 1.6) < 0.1
+    # The analyst's saved choice still wins.
+    p.analysis.keep_choices["good|noisy"] = "noisy"
+    r = run_study(p, table=_table(frame))
+    assert r.recommended == ("noisy",)
+    assert r.verdicts["good"].suggested == "noisy"

@@ -21,6 +21,7 @@ __all__ = [
     "cycle_text",
     "merge_cycle",
     "merge_diagram",
+    "merge_every_link",
 ]
 
 _ENDPOINT_KINDS = frozenset({"exposure", "outcome"})
@@ -231,3 +232,28 @@ def merge_cycle(
             raise DiagramError(f'"{node}" is not a node of the diagram.')
     M, *_ = _build(G, pairs, _endpoints(G, exposure, outcome))
     return _find_cycle(M)
+
+
+def merge_every_link(G: nx.DiGraph) -> tuple[nx.DiGraph, dict[str, str]] | None:
+    """Merge every proxy link, those to the exposure and outcome included.
+
+    The independence claims of a diagram treat any two proxy-linked nodes
+    as two measures of one thing, whatever their kind: a covariate that
+    measures the exposure stands where the exposure stands.  Returns the
+    construct graph and the map node → construct, or None when the merge
+    closes a cycle (the caller then falls back to :func:`merge_diagram`).
+
+    Examples
+    --------
+    >>> import networkx as nx
+    >>> G = nx.DiGraph([("x", "y"), ("c", "x")])
+    >>> G.add_node("m")
+    >>> G.graph["proxies"] = [("m", "x")]
+    >>> M, of = merge_every_link(G)
+    >>> sorted(M.edges), of["m"]
+    ([('c', 'm|x'), ('m|x', 'y')], 'm|x')
+    """
+    M, construct_of, *_ = _build(G, _proxy_pairs(G), frozenset())
+    if _find_cycle(M) is not None:
+        return None
+    return M, construct_of

@@ -21,6 +21,7 @@ from __future__ import annotations
 import contextlib
 import json
 import os
+import stat
 import tempfile
 from collections.abc import Callable
 from dataclasses import dataclass, field
@@ -428,12 +429,33 @@ def project_to_dict(project: Project) -> dict[str, Any]:
     return out
 
 
+def _current_umask() -> int:
+    """The process's umask (read by setting it and putting it back at once)."""
+    mask = os.umask(0o022)
+    os.umask(mask)
+    return mask
+
+
+def file_mode_for(path: Path) -> int:
+    """The permission bits a saved file should have: those of the file it
+    replaces, else those of a newly created file (0666 less the umask), so
+    co-authors on a shared folder keep their access.  (``mkstemp`` alone
+    would leave the file readable by its owner only.)"""
+    try:
+        return stat.S_IMODE(os.stat(path).st_mode)
+    except OSError:
+        return 0o666 & ~_current_umask()
+
+
 def write_atomically(path: Path, text: str) -> None:
     """Write a temporary file beside ``path`` and replace it in one step, so
-    a crash never leaves a half-written file."""
+    a crash never leaves a half-written file; the file keeps its mode."""
     path = Path(path)
+    mode = file_mode_for(path)
     fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=path.parent)
     try:
+        with contextlib.suppress(OSError):  # a file system without modes
+            os.chmod(tmp, mode)
         with os.fdopen(fd, "w", encoding="utf-8") as handle:
             handle.write(text)
             handle.flush()

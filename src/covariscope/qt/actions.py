@@ -34,6 +34,17 @@ CAUTIONS = (
 _Std = QKeySequence.StandardKey
 
 
+def redo_keys(platform: list[QKeySequence] | None = None) -> list[QKeySequence]:
+    """Ctrl+Shift+Z and Ctrl+Y, plus the platform's own Redo keys
+    (``platform``; default: ``QKeySequence.keyBindings(Redo)``), each once."""
+    own = QKeySequence.keyBindings(_Std.Redo) if platform is None else platform
+    keys: list[QKeySequence] = []
+    for key in (QKeySequence("Ctrl+Shift+Z"), QKeySequence("Ctrl+Y"), *own):
+        if not key.isEmpty() and key not in keys:
+            keys.append(key)
+    return keys
+
+
 class WindowActions:
     """Creates every action once; the window connects nothing else by hand."""
 
@@ -58,7 +69,10 @@ class WindowActions:
         self.undo = w.undo_stack.createUndoAction(w, "&Undo")
         self.undo.setShortcut(_Std.Undo)
         self.redo = w.undo_stack.createRedoAction(w, "&Redo")
-        self.redo.setShortcuts([QKeySequence("Ctrl+Shift+Z"), QKeySequence(_Std.Redo)])
+        # both common Redo keys, each once: the platform's StandardKey.Redo is
+        # Ctrl+Shift+Z on most Linux desktops, and a key bound twice is
+        # "ambiguous" to Qt, so neither would fire
+        self.redo.setShortcuts(redo_keys())
         self.copy = a("&Copy", w.copy_selection, _Std.Copy)
         self.paste = a("&Paste", w.paste, _Std.Paste)
         self.delete = a("&Delete", lambda: w.scene.delete_selection(), _Std.Delete)

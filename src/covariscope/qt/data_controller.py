@@ -52,10 +52,14 @@ class DataController(QObject):
         return self.loader.running
 
     # -- loading ---------------------------------------------------------------------
+    def _data_folder(self) -> str:
+        """The folder of the data now loaded, else the project's folder."""
+        if self.table is not None:
+            return str(Path(self.table.path).parent)
+        return self.w.io.start_folder()
+
     def choose_and_load(self) -> bool:
-        path = self.w.prompts.open_path(
-            "Load the study data", DATA_FILTER, self.w.io._start_folder()
-        )
+        path = self.w.prompts.open_path("Load the study data", DATA_FILTER, self._data_folder())
         return bool(path) and self.load_file(path)
 
     def load_file(self, path: str) -> bool:

@@ -31,7 +31,7 @@ def _ask(w: MainWindow, kind: str, title: str, stem: str) -> Path | None:
     base = (
         w.project.path.with_name(f"{w.project.path.stem}{stem}.{kind}")
         if w.project.path
-        else Path(f"covariscope{stem}.{kind}")
+        else Path(w.io.start_folder()) / f"covariscope{stem}.{kind}"
     )
     path = w.prompts.save_path(title, _FILTERS[kind], str(base))
     if not path:

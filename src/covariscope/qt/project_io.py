@@ -142,7 +142,7 @@ class ProjectIO(QObject):
             return False
         if path is None:
             path = self.window.prompts.open_path(
-                "Open project", PROJECT_FILTER, self._start_folder()
+                "Open project", PROJECT_FILTER, self.start_folder()
             )
             if not path:
                 return False
@@ -163,7 +163,7 @@ class ProjectIO(QObject):
 
     def save_as(self, path: str | None = None) -> bool:
         if path is None:
-            start = str(self.project.path or Path(self._start_folder()) / "project.json")
+            start = str(self.project.path or Path(self.start_folder()) / "project.json")
             path = self.window.prompts.save_path("Save project as", PROJECT_FILTER, start)
             if not path:
                 return False
@@ -184,7 +184,9 @@ class ProjectIO(QObject):
         self.window.show_message(f"Saved {self.project.path}")
         return True
 
-    def _start_folder(self) -> str:
+    def start_folder(self) -> str:
+        """Where open and save dialogs start: the project's folder, else the
+        user's documents folder."""
         if self.project.path:
             return str(self.project.path.parent)
         docs = QStandardPaths.writableLocation(QStandardPaths.StandardLocation.DocumentsLocation)

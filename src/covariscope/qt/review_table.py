@@ -124,8 +124,9 @@ class ReviewTable(QWidget):
             self._filling = False
         if selected:
             self.select_node(selected)
-        else:
-            self._selection_changed()
+        # the same row may stay selected, which emits no selection change, so
+        # the full-reason line is refreshed here in any case
+        self._show_detail()
 
     def selected_node(self) -> str | None:
         rows = {i.row() for i in self.table.selectedItems()}
@@ -184,14 +185,18 @@ class ReviewTable(QWidget):
         if checked != row.proposed:
             self.proposed_toggled.emit(row.node, checked)
 
-    def _selection_changed(self) -> None:
+    def _show_detail(self) -> str | None:
         node = self.selected_node()
         if node is None:
             self.detail.setText("Select a covariate to read its verdict in full.")
-            return
-        row = self._rows[self.row_of(node)]
-        self.detail.setText(row.detail)
-        self.node_selected.emit(node)
+            return None
+        self.detail.setText(self._rows[self.row_of(node)].detail)
+        return node
+
+    def _selection_changed(self) -> None:
+        node = self._show_detail()
+        if node is not None:
+            self.node_selected.emit(node)
 
 
 def _review_of(result: Any) -> Any:

@@ -120,6 +120,28 @@ def _se_lookup(
     return se_of
 
 
+def _fit_lookup(
+    engine: EvidenceEngine | None,
+) -> tuple[Callable[[tuple[str, ...]], float | None], Callable[[tuple[str, ...]], float | None]]:
+    """Exposure coefficient and SE of the model with a set (the engine caches its fits)."""
+
+    def fit(members: tuple[str, ...]) -> Fit | None:
+        if engine is None:
+            return None
+        f = engine.fit(members)
+        return f if f.ok else None
+
+    def estimate_of(members: tuple[str, ...]) -> float | None:
+        f = fit(members)
+        return f.coef if f is not None else None
+
+    def se_of(members: tuple[str, ...]) -> float | None:
+        f = fit(members)
+        return f.se if f is not None else None
+
+    return estimate_of, se_of
+
+
 def _groups(
     q: Question, da: DiagramAnalysis, evidence: EvidenceTable | None, engine: EvidenceEngine | None
 ) -> tuple[tuple[tuple[str, ...], ...], dict[tuple[str, str], float], list[tuple[str, ...]]]:
@@ -152,6 +174,7 @@ def _recommend(
     da: DiagramAnalysis,
     groups: tuple[tuple[str, ...], ...],
     evidence: EvidenceTable | None,
+    engine: EvidenceEngine | None,
     messages: list[str],
 ) -> Recommendation:
     # A choice saved for part of a group (the members left to choose among once
@@ -169,6 +192,7 @@ def _recommend(
         groups=groups,
         keep_choices=rec_choices,
         se_of=_se_lookup(evidence, names),
+        estimate_of=_fit_lookup(engine)[0] if evidence is not None else None,
     )
     if (
         evidence is not None
@@ -205,6 +229,7 @@ class _Context:
     sufficient: bool | None
     set_name: str
     evidence: EvidenceTable | None
+    engine: EvidenceEngine | None
 
 
 def _group_facts(
@@ -227,14 +252,16 @@ def _group_facts(
     rest = [m for m in ctx.base if m not in group]
     alone = tuple(m for m in group if is_sufficient(graph, q.exposure, q.outcome, [*rest, m]))
     why = group_why(group, da.groups, ctx.r2_pairs, ctx.flagged, r2_guide, label)
+    estimate_of, se_of = _fit_lookup(ctx.engine if ctx.evidence is not None else None)
     suggested, suggested_why = suggest_member(
         group,
         alone,
         chosen=dict(q.keep_choices).get("|".join(sorted(group))),
         recommended=ctx.recommended,
         proposed=q.proposed,
-        minimal=[tuple(s) for s in da.minimal_sets],
-        se_of=_se_lookup(ctx.evidence, set_names(da)),
+        rest=rest,
+        estimate_of=estimate_of,
+        se_of=se_of,
         names=label,
     )
     return group, alone, False, why, suggested, suggested_why
@@ -303,7 +330,7 @@ def decide(
     """Collinear groups, the recommended set, one verdict per covariate, the estimates."""
     messages: list[str] = []
     groups, r2_pairs, flagged = _groups(q, da, evidence, engine)
-    rec = _recommend(q, da, groups, evidence, messages)
+    rec = _recommend(q, da, groups, evidence, engine, messages)
     recommended = rec.members or ()
     base = tuple(recommended) if rec.members is not None else q.proposed
     # Members the diagram needs whichever other is kept are adjusted for, with a
@@ -321,6 +348,7 @@ def decide(
         sufficient=True if rec.members is not None else (False if q.proposed else None),
         set_name="recommended" if rec.members is not None else "proposed",
         evidence=evidence,
+        engine=engine,
     )
     verdicts = {c: _verdict(ctx, graph, c) for c in da.roles}
     estimates: dict[str, Fit | None] = dict.fromkeys(ESTIMATE_KEYS)

@@ -12,6 +12,7 @@ from collections.abc import Callable, Mapping, Sequence
 import networkx as nx
 
 from covariscope.analysis.graph import DiagramAnalysis, backdoor_paths, is_sufficient
+from covariscope.analysis.recommend import MemberRanking, rank_members
 
 __all__ = [
     "group_why",
@@ -133,39 +134,50 @@ def suggest_member(
     chosen: str | None,
     recommended: Sequence[str],
     proposed: Sequence[str],
-    minimal: Sequence[tuple[str, ...]],
+    rest: Sequence[str],
+    estimate_of: Callable[[tuple[str, ...]], float | None],
     se_of: Callable[[tuple[str, ...]], float | None],
     names: Mapping[str, str],
 ) -> tuple[str | None, str]:
-    """The member of a collinear group to keep, and why (a clause)."""
+    """The member of a collinear group to keep, and why (a clause).
+
+    The saved choice wins; then the member the proposed set holds alone;
+    then the member that carries the most of the confounding
+    (:func:`~covariscope.analysis.recommend.rank_members`), the standard
+    error deciding only between equivalent members.
+    """
     if chosen in group:
         return chosen, "it is the saved choice"
-    # The smallest SE among the minimal sets that hold the member and no other.
-    best_se: dict[str, float] = {}
-    for m in group:
-        ses = [
-            se
-            for s in minimal
-            if m in s and not (set(group) - {m}) & set(s)
-            for se in [se_of(s)]
-            if se is not None and math.isfinite(se)
-        ]
-        if ses:
-            best_se[m] = min(ses)
     in_rec = [m for m in group if m in recommended]
-    pick = in_rec[0] if in_rec else (alone[0] if alone else None)
+    in_proposed = [m for m in group if m in proposed]
+    if len(in_proposed) == 1 and in_proposed[0] in alone:
+        return in_proposed[0], "it is the member in the proposed set"
+    ranking = rank_members(
+        [m for m in group if m in alone] or group, rest, estimate_of=estimate_of, se_of=se_of
+    )
+    pick = ranking.best or (in_rec[0] if in_rec else (alone[0] if alone else None))
     if pick is None:
         return None, ""
-    in_proposed = [m for m in group if m in proposed]
-    if in_proposed == [pick]:
-        return pick, "it is the member in the proposed set"
-    others = {m: se for m, se in best_se.items() if m != pick}
-    if pick in best_se and others:
-        against = ", ".join(f"{se:.4g} with {names.get(m, m)}" for m, se in sorted(others.items()))
-        return pick, (
-            "its set gives the exposure estimate the smallest standard error "
-            f"({best_se[pick]:.4g}, against {against})"
+    if ranking.best is None or ranking.whole is None or len(ranking.alone) < 2:
+        if pick in in_rec:
+            return pick, "it is the member in the recommended set"
+        return pick, "it alone gives a sufficient set"
+    return pick, _carries_most(ranking, pick, names)
+
+
+def _carries_most(ranking: MemberRanking, pick: str, names: Mapping[str, str]) -> str:
+    """Why ``pick`` is kept, naming the estimates (and the SEs when they decided)."""
+    others = ", ".join(
+        f"{b:.4g} with {names.get(m, m)}" for m, b in sorted(ranking.alone.items()) if m != pick
+    )
+    if ranking.by_se:
+        return (
+            "the members move the exposure estimate alike, and its set gives the smaller "
+            f"standard error ({ranking.se.get(pick, math.nan):.4g})"
         )
-    if pick in in_rec:
-        return pick, "it is the member in the recommended set"
-    return pick, "it alone gives a sufficient set"
+    return (
+        "it carries the most of the confounding: adjusting for it alone gives an exposure "
+        f"estimate of {ranking.alone[pick]:.4g}, the closest to {ranking.whole:.4g} with the "
+        f"whole group (against {others}); a noisier measure leaves residual confounding even "
+        "when its standard error looks smaller"
+    )

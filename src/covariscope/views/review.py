@@ -164,12 +164,16 @@ def proposed_after_toggle(project: Any, node_id: str, checked: bool) -> list[str
 
 
 def rows_to_csv(rows: list[ReviewRow]) -> str:
-    """The review table as CSV text (UTF-8 friendly; one header row)."""
+    """The review table as CSV text (UTF-8 friendly; one header row).
+
+    A missing number is an empty cell (not the dash the table shows), so
+    that a spreadsheet or a statistics package reads it as missing."""
     out = io.StringIO()
     writer = csv.writer(out, lineterminator="\n")
     writer.writerow(["node", *REVIEW_COLUMNS, "verdict_code", "reason"])
     for row in rows:
         cells = list(row.cells())
         cells[0] = row.label
+        cells = ["" if c == DASH else c for c in cells]
         writer.writerow([row.node, *cells, row.verdict_code, row.reason])
     return out.getvalue()

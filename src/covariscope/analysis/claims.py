@@ -1,0 +1,203 @@
+"""The independences a diagram claims between the variables that have data.
+
+A causal diagram claims more than an adjustment set: every pair of measured
+variables with no arrow between them is claimed independent given some set
+of others (the local Markov property; Pearl 2009, §1.2.3).  Those claims are
+the data's only direct check on the drawing.  This module lists them; the
+tests live in :mod:`covariscope.analysis.claim_tests`.
+
+For each pair of testable nodes (measured and bound to data) that are not
+adjacent and not joined by a proxy link, one claim ``a ⫫ b | S`` is made,
+where ``S`` is a minimal d-separating set drawn from the testable nodes
+(van der Zander & Liśkiewicz 2020, through
+``networkx.find_minimal_d_separator`` with ``restricted``).  A pair that no
+such set separates is listed as untestable, naming an unmeasured variable a
+separating set would need.
+
+Proxy links follow DESIGN §2: proxy-linked nodes are two measures of one
+thing, merged into one construct that carries the union of their arrows.
+Two members of one construct make no claim; a construct in a separating set
+is conditioned on through every member that has data.
+
+References
+----------
+Pearl, J. (2009). *Causality*, 2nd ed. Cambridge University Press.
+van der Zander, B. & Liśkiewicz, M. (2020). Finding minimal d-separators in
+linear time and applications. *Proceedings of UAI 2019*, PMLR 115, 637–647.
+Shipley, B. (2000). A new inferential test for path models based on directed
+acyclic graphs. *Structural Equation Modeling* 7(2), 206–218 (from memory:
+testing a diagram through its implied independences).
+"""
+
+from __future__ import annotations
+
+import itertools
+from collections.abc import Iterable, Mapping
+from dataclasses import dataclass
+
+import networkx as nx
+
+from covariscope.analysis.constructs import merge_diagram, merge_every_link
+
+__all__ = [
+    "DEFAULT_CLAIM_LIMIT",
+    "UNTESTABLE_REASONS",
+    "Claim",
+    "ClaimSet",
+    "Untestable",
+    "implied_claims",
+]
+
+#: Claims tested by default; the analyst may raise it.  Common practice: a
+#: diagram of 22 measured variables implies at most 231, most far fewer.
+DEFAULT_CLAIM_LIMIT = 200
+
+#: Why a pair that the diagram calls separable cannot be tested.
+UNTESTABLE_REASONS: tuple[str, ...] = ("unmeasured", "measures_endpoint", "no_fit")
+
+
+@dataclass(frozen=True)
+class Claim:
+    """The diagram says ``a`` and ``b`` are independent given ``given``.
+
+    ``a < b``; ``given`` is sorted and holds every node with data of each
+    construct in the separating set.
+    """
+
+    a: str
+    b: str
+    given: tuple[str, ...]
+
+
+@dataclass(frozen=True)
+class Untestable:
+    """A pair with no arrow between them whose claim cannot be tested.
+
+    ``reason`` is one of :data:`UNTESTABLE_REASONS`: ``unmeasured`` (every
+    separating set holds a variable without data; ``needs`` names those of
+    one such set), ``measures_endpoint`` (one of them measures the exposure
+    or outcome and the merge of its proxy link would close a cycle), or
+    ``no_fit`` (no test model could be fitted; ``detail`` says why).
+    """
+
+    a: str
+    b: str
+    reason: str
+    needs: tuple[str, ...] = ()
+    detail: str = ""
+
+
+@dataclass(frozen=True)
+class ClaimSet:
+    """Every claim of a diagram about its testable nodes.
+
+    ``claims`` holds at most ``limit`` claims (those nearest the exposure and
+    outcome and with the smallest sets first); ``omitted`` counts the rest.
+    Both lists are sorted by ``(a, b)``.
+    """
+
+    claims: tuple[Claim, ...]
+    untestable: tuple[Untestable, ...]
+    omitted: int
+    limit: int
+
+
+def _claim_graph(
+    G: nx.DiGraph, exposure: str, outcome: str
+) -> tuple[nx.DiGraph, Mapping[str, str], frozenset[str]]:
+    """Construct graph, node → construct, and nodes left unmerged that measure X or Y."""
+    merged = merge_every_link(G)
+    if merged is not None:
+        return merged[0], merged[1], frozenset()
+    md = merge_diagram(G, exposure, outcome)
+    return md.graph, md.construct_of, md.measures_exposure | md.measures_outcome
+
+
+def _priority(claim: Claim, ends: frozenset[str]) -> tuple[int, int, str, str]:
+    return (0 if {claim.a, claim.b} & ends else 1, len(claim.given), claim.a, claim.b)
+
+
+def implied_claims(
+    G: nx.DiGraph,
+    exposure: str,
+    outcome: str,
+    testable: Iterable[str],
+    *,
+    limit: int = DEFAULT_CLAIM_LIMIT,
+) -> ClaimSet:
+    """List the conditional independences the diagram claims among ``testable``.
+
+    Parameters
+    ----------
+    G : networkx.DiGraph
+        The diagram (``G.graph["proxies"]`` its proxy links).
+    exposure, outcome : str
+        Node ids of the exposure and the outcome.
+    testable : iterable of str
+        Nodes with data on the analytic sample (the exposure and outcome
+        among them when bound).
+    limit : int
+        Most claims kept; the rest are counted in ``omitted``.
+
+    Returns
+    -------
+    ClaimSet
+
+    Raises
+    ------
+    covariscope.model.errors.DiagramError
+        As :func:`~covariscope.analysis.constructs.merge_diagram`.
+
+    Examples
+    --------
+    >>> G = nx.DiGraph([("c", "x"), ("c", "y"), ("x", "m"), ("m", "y")])
+    >>> s = implied_claims(G, "x", "y", ["c", "x", "m", "y"])
+    >>> [(c.a, c.b, c.given) for c in s.claims]
+    [('c', 'm', ('x',)), ('x', 'y', ('c', 'm'))]
+    """
+    merge_diagram(G, exposure, outcome)  # refuses unknown ends and cycles in plain words
+    M, construct_of, unmerged = _claim_graph(G, exposure, outcome)
+    nodes = sorted(set(testable))
+    with_data: dict[str, list[str]] = {}
+    for node in nodes:
+        with_data.setdefault(construct_of[node], []).append(node)
+    claims: list[Claim] = []
+    untestable: list[Untestable] = []
+    for a, b in itertools.combinations(nodes, 2):
+        ca, cb = construct_of[a], construct_of[b]
+        if ca == cb or M.has_edge(ca, cb) or M.has_edge(cb, ca):
+            continue
+        if {a, b} & unmerged:
+            untestable.append(Untestable(a, b, "measures_endpoint"))
+            continue
+        allowed = set(with_data) - {ca, cb}
+        found = nx.find_minimal_d_separator(M, ca, cb, restricted=allowed)
+        if found is None:
+            needs = _needs(M, ca, cb, with_data, construct_of)
+            untestable.append(Untestable(a, b, "unmeasured", needs))
+            continue
+        given = tuple(sorted(m for c in found for m in with_data[c]))
+        claims.append(Claim(a, b, given))
+    ends = frozenset((exposure, outcome))
+    kept = sorted(claims, key=lambda c: _priority(c, ends))[: max(limit, 0)]
+    return ClaimSet(
+        claims=tuple(sorted(kept, key=lambda c: (c.a, c.b))),
+        untestable=tuple(untestable),
+        omitted=len(claims) - len(kept),
+        limit=limit,
+    )
+
+
+def _needs(
+    M: nx.DiGraph,
+    ca: str,
+    cb: str,
+    with_data: Mapping[str, list[str]],
+    construct_of: Mapping[str, str],
+) -> tuple[str, ...]:
+    """Variables without data in one minimal separating set (any set is allowed)."""
+    found = nx.find_minimal_d_separator(M, ca, cb)
+    if found is None:  # cannot happen for non-adjacent nodes of a DAG
+        return ()
+    lacking = set(found) - set(with_data)
+    return tuple(sorted(n for n, c in construct_of.items() if c in lacking))
