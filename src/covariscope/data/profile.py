@@ -35,8 +35,9 @@ software. The user can choose another level.
 
 from __future__ import annotations
 
+import functools
 import re
-from collections.abc import Mapping
+from collections.abc import Callable, Mapping
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -116,7 +117,6 @@ class ColumnProfile:
     inferred_type: str
     missing: int
     missing_pct: float
-    distinct: int
     minimum: Any
     maximum: Any
     levels: tuple[Any, ...]
@@ -124,6 +124,17 @@ class ColumnProfile:
     warnings: tuple[str, ...]
     # A dict is not hashable; the profile's hash leaves it out.
     level_labels: Mapping[Any, str] = field(default_factory=dict, hash=False)
+    # Counting every distinct value of a float column costs more than all the
+    # type rules: they need only "one, two or more", so the exact count waits
+    # until something asks for it.
+    count_distinct: Callable[[], int] = field(
+        default=lambda: 0, hash=False, compare=False, repr=False
+    )
+
+    @functools.cached_property
+    def distinct(self) -> int:
+        """Distinct present values (counted on first use)."""
+        return self.count_distinct()
 
     def level_text(self, level: Any) -> str:
         """A level as the user reads it: ``"female (2)"`` when the code has a
@@ -232,7 +243,7 @@ def profile_column(
     present = series.dropna()
     missing = int(len(series) - len(present))
     missing_pct = 100.0 * missing / len(series) if len(series) else 0.0
-    distinct = int(present.nunique())
+    distinct = _distinct_for_rules(series, present)
     warnings: list[str] = []
     inferred = _infer(series, present, distinct, warnings)
     kind = inferred
@@ -245,6 +256,8 @@ def profile_column(
         levels = column_levels(series)
         chosen_reference = match_level(name, levels, reference)
     minimum, maximum = _range(series, present, kind)
+    if kind in LEVEL_TYPES:
+        distinct = len(levels)  # the warnings count levels exactly
     _general_warnings(series, present, kind, distinct, missing_pct, warnings)
     return ColumnProfile(
         name=name,
@@ -252,7 +265,7 @@ def profile_column(
         inferred_type=inferred,
         missing=missing,
         missing_pct=missing_pct,
-        distinct=distinct,
+        count_distinct=lambda: int(series.nunique()),
         minimum=minimum,
         maximum=maximum,
         levels=levels,
@@ -260,6 +273,24 @@ def profile_column(
         warnings=tuple(warnings),
         level_labels=_labels_of(levels, value_labels),
     )
+
+
+def _distinct_for_rules(series: pd.Series, present: pd.Series) -> int:
+    """Distinct present values, exact except that a column of numbers that are not
+    all whole reports 3 for "three or more" (the type rules ask no more of it)."""
+    numeric = pd.api.types.is_numeric_dtype(series.dtype) and not (
+        pd.api.types.is_bool_dtype(series.dtype) or isinstance(series.dtype, pd.CategoricalDtype)
+    )
+    if not numeric or len(present) == 0:
+        return int(present.nunique())
+    values = present.to_numpy(dtype=np.float64)
+    if bool(np.all(values == np.round(values))):
+        return int(present.nunique())
+    other = values != values[0]
+    if not other.any():
+        return 1
+    second = values[int(np.argmax(other))]
+    return 2 if bool(np.all(~other | (values == second))) else 3
 
 
 def _labels_of(levels: tuple[Any, ...], value_labels: Mapping[Any, str] | None) -> dict[Any, str]:
