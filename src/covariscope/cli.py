@@ -22,17 +22,14 @@ from typing import Any
 
 from covariscope import __version__
 from covariscope.errors import CovariscopeError
+from covariscope.vocabulary import Family
 
 __all__ = ["demo_folder", "error_log_path", "has_display", "main", "one_line", "write_demo"]
 
-COMMANDS = ("gui", "check", "report", "demo")
+COMMANDS = ("gui", "check", "report", "export", "demo")
+FAMILY_CHOICES = [f.value for f in Family]
 DEMO_PROJECT = "demo_project.json"
 DEMO_DATA = "demo_cohort.csv"
-
-CAUTION = (
-    "The diagram holds assumptions the data cannot fully test; thresholds are guides. "
-    "Covariscope supports your judgment and the study's analysis plan; it does not replace them."
-)
 
 
 def _parser() -> argparse.ArgumentParser:
@@ -51,9 +48,7 @@ def _parser() -> argparse.ArgumentParser:
     check.add_argument("project", help="project file (.json)")
     check.add_argument("--json", action="store_true", help="print the machine-readable result")
     check.add_argument("--data", help="data file to use instead of the one the project names")
-    check.add_argument(
-        "--family", choices=("linear", "logistic", "risk_ratio", "cox"), help="model family"
-    )
+    check.add_argument("--family", choices=FAMILY_CHOICES, help="model family")
 
     report = sub.add_parser("report", help="write the one-page adjustment rationale as PDF")
     report.add_argument("project", help="project file (.json)")
@@ -63,9 +58,11 @@ def _parser() -> argparse.ArgumentParser:
     )
     report.add_argument("--page", choices=("a4", "letter"), default="a4", help="paper size")
     report.add_argument("--data", help="data file to use instead of the one the project names")
-    report.add_argument(
-        "--family", choices=("linear", "logistic", "risk_ratio", "cox"), help="model family"
-    )
+    report.add_argument("--family", choices=FAMILY_CHOICES, help="model family")
+
+    export = sub.add_parser("export", help="write the diagram as GraphML (no display needed)")
+    export.add_argument("project", help="project file (.json)")
+    export.add_argument("-o", "--output", required=True, help="GraphML file to write")
 
     demo = sub.add_parser("demo", help="write the invented demo study to a folder and open it")
     demo.add_argument("folder", nargs="?", help="where to write it (default: your documents)")
@@ -187,6 +184,22 @@ def _cmd_report(args: argparse.Namespace) -> int:
     return 0
 
 
+def _cmd_export(args: argparse.Namespace) -> int:
+    from covariscope.model.files import check_output_path
+    from covariscope.model.project import load_project
+    from covariscope.views.diagram import export_graphml
+
+    project = load_project(args.project)
+    reads = [
+        ("the project file itself", Path(args.project)),
+        ("the study's data file", project.data_path()),
+    ]
+    output = check_output_path(Path(args.output), reads, kind="GraphML", magic=b"<?xml")
+    path = export_graphml(project.diagram, output)
+    print(f"Wrote the diagram as GraphML to {path}")
+    return 0
+
+
 def _cmd_gui(project: str | None, *, demo: bool = False) -> int:
     if not has_display():
         raise CovariscopeError(
@@ -232,6 +245,8 @@ def main(argv: Sequence[str] | None = None) -> int:
             return _cmd_check(args)
         if args.command == "report":
             return _cmd_report(args)
+        if args.command == "export":
+            return _cmd_export(args)
         if args.command == "demo":
             return _cmd_demo(args)
         return _cmd_gui(getattr(args, "project", None))

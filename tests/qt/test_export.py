@@ -16,11 +16,11 @@ from covariscope.model.layout import layered_layout
 from covariscope.model.project import Project
 from covariscope.qt.canvas import (
     DiagramScene,
-    export_graphml,
     export_png,
     export_svg,
     render_diagram,
 )
+from covariscope.views.diagram import export_graphml
 
 
 def _project() -> Project:

@@ -347,7 +347,7 @@ def test_canvas_menu_keeps_one_of_a_group(qtbot, window, demo, wait_for_analysis
     """The node menu of a keep-one-of covariate offers the review table's
     choice; it is one undo step."""
     from covariscope.qt.canvas.menus import action_by_key
-    from covariscope.views.keep_choice import group_key
+    from covariscope.vocabulary import group_key
 
     w = window
     assert w.io.open(str(demo / "demo_project.json"))

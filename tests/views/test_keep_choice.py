@@ -8,7 +8,8 @@ import dataclasses
 
 import pytest
 
-from covariscope.views.keep_choice import group_key, keep_choice, keep_choices_after, kept_words
+from covariscope.views.keep_choice import keep_choice, keep_choices_after, kept_words
+from covariscope.vocabulary import group_key
 
 
 def test_group_key_sorts_and_joins():

@@ -10,7 +10,6 @@ import pytest
 
 from covariscope import __version__
 from covariscope.views.report_content import (
-    CAUTIONS,
     build_content,
     estimate_decimals,
     format_interval,
@@ -18,6 +17,7 @@ from covariscope.views.report_content import (
     format_percent,
     name_nodes,
 )
+from covariscope.vocabulary import CAUTIONS
 
 
 def test_content_module_does_not_load_qt():

@@ -15,6 +15,7 @@ from dataclasses import dataclass, field
 import networkx as nx
 
 from covariscope.errors import CycleError, DiagramError
+from covariscope.vocabulary import group_key
 
 __all__ = [
     "MergedDiagram",
@@ -103,7 +104,7 @@ def _build(
     members: dict[str, tuple[str, ...]] = {}
     for comp in nx.connected_components(links):
         group = tuple(sorted(comp))
-        name = "|".join(group)
+        name = group_key(group)
         members[name] = group
         for node in group:
             construct_of[node] = name

@@ -37,7 +37,7 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
-from covariscope.analysis.fits import RATIO_FAMILIES
+from covariscope.vocabulary import RATIO_FAMILIES
 
 if TYPE_CHECKING:
     from covariscope.analysis.design import Design

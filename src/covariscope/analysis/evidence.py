@@ -37,7 +37,7 @@ from covariscope.analysis.collinearity import (
     vif,
 )
 from covariscope.analysis.design import Design, constant_message
-from covariscope.analysis.fits import RATIO_FAMILIES, Fit
+from covariscope.analysis.fits import Fit
 from covariscope.analysis.linear import (
     LinearSummary,
     OLSResult,
@@ -46,6 +46,7 @@ from covariscope.analysis.linear import (
     solve_ols,
 )
 from covariscope.errors import DataError
+from covariscope.vocabulary import RATIO_FAMILIES
 
 __all__ = [
     "NEAR_ZERO_SE_FRACTION",
@@ -138,6 +139,8 @@ class EvidenceEngine:
         # model start from a one-step update instead of from the bare parameters.
         self._glm_cov: dict[frozenset[str], np.ndarray] = {}
         self._glm_matrix: np.ndarray | None = None
+        self._reach_cache: np.ndarray | None = None
+        self._cox: Any = None  # the CoxSample, built on the first Cox fit
         # Information and score over every design column at a fitted model's
         # parameters: the first Newton step of each model that adds terms to it.
         self._glm_step: OrderedDict[frozenset[str], tuple[np.ndarray, np.ndarray]] = OrderedDict()
@@ -184,8 +187,12 @@ class EvidenceEngine:
         return float(vif(self.summary, self.columns(terms))[0])
 
     # -- fitting -------------------------------------------------------------------
-    def fit(self, terms: Sequence[str]) -> Fit:
-        """The model exposure + ``terms``; a failed :class:`Fit` (never an exception) when it cannot be fitted."""
+    def fit(self, terms: Sequence[str], on_pass: Callable[[], None] | None = None) -> Fit:
+        """The model exposure + ``terms``; a failed :class:`Fit` (never an exception) when it cannot be fitted.
+
+        ``on_pass`` is called after every pass over the rows (progress, and
+        cancellation: an exception it raises stops the fit and caches nothing).
+        """
         unknown = [t for t in terms if t not in self._order]
         if unknown:
             return Fit.failed(
@@ -200,7 +207,7 @@ class EvidenceEngine:
             if self._record is not None:
                 self._record("fit", hit is not None)
             if hit is None:
-                hit = self._fit_uncached(self.ordered(terms))
+                hit = self._fit_uncached(self.ordered(terms), on_pass)
                 self._fits[key] = hit
             return hit[0]
 
@@ -230,7 +237,9 @@ class EvidenceEngine:
             return names + ", so this model cannot separate them."
         return None
 
-    def _fit_uncached(self, terms: tuple[str, ...]) -> tuple[Fit, np.ndarray | None]:
+    def _fit_uncached(
+        self, terms: tuple[str, ...], on_pass: Callable[[], None] | None = None
+    ) -> tuple[Fit, np.ndarray | None]:
         cols = self.columns(terms)
         names = [self.design.column_names[c] for c in cols]
         intercept = self.family != "cox"
@@ -240,59 +249,100 @@ class EvidenceEngine:
         if self.family == "linear":
             return self._fit_linear(terms, names), None
         start = self._warm_start(terms, names, intercept)
-        values = self.design.values
         try:
             if intercept:
-                from covariscope.analysis.glm import fit_glm_path
-
-                full = self._intercept_matrix()
-                X = np.empty((self.design.n, len(cols) + 1), order="F")
-                for i, c in enumerate([0, *(c + 1 for c in cols)]):
-                    X[:, i] = full[:, c]  # contiguous column copies
-                scale = np.concatenate([[0.0], self._column_sd()[cols]])
-                assert self.design.y is not None  # make_design requires an outcome here
-                # make_design has checked the values, the outcome and the constant
-                # columns, and _precheck the rows and the rank: the fit need not scan again.
-                fit, path = fit_glm_path(
-                    X,
-                    self.design.y,
-                    self.family,
-                    column_names=["(intercept)", *names],
-                    terms=terms,
-                    exposure_index=1,
-                    offset=self.design.offset,
-                    start=start,
-                    checked=True,
-                    scale=scale,
-                )
-                params = None if path is None else path.params
-                if path is not None and path.cov is not None and fit.ok and fit.converged:
-                    self._glm_cov[frozenset(terms)] = path.cov
+                fit, path = self._fit_glm(terms, cols, names, start, on_pass)
             else:
-                from covariscope.analysis.survival import fit_cox
-
-                # make_design requires both columns for the Cox family
-                assert self.design.time is not None
-                assert self.design.event is not None
-                fit, params = fit_cox(
-                    np.ascontiguousarray(values[:, cols]),
-                    self.design.time,
-                    self.design.event,
-                    column_names=names,
-                    terms=terms,
-                    exposure_index=0,
-                    start=start,
-                )
+                fit, path = self._fit_cox(terms, cols, names, start, on_pass)
         except (ArithmeticError, ValueError, np.linalg.LinAlgError) as exc:
             # The fitting functions report their own failures; anything left is still a per-model failure.
             return Fit.failed(
                 self.family, terms, self.design.n, f"The model could not be fitted: {exc}"
             ), None
-        return fit, params
+        if path is not None and path.cov is not None and fit.ok and fit.converged:
+            self._glm_cov[frozenset(terms)] = path.cov
+        return fit, None if path is None else path.params
+
+    def _fit_glm(
+        self,
+        terms: tuple[str, ...],
+        cols: list[int],
+        names: list[str],
+        start: np.ndarray | None,
+        on_pass: Callable[[], None] | None,
+    ) -> tuple[Fit, Any]:
+        from covariscope.analysis.glm import fit_glm_path
+
+        full = self._intercept_matrix()
+        idx = np.array([0, *(c + 1 for c in cols)], dtype=np.intp)
+        assert self.design.y is not None  # make_design requires an outcome here
+        # make_design has checked the values, the outcome and the constant
+        # columns, and _precheck the rows and the rank: the fit need not scan
+        # again.  The model's columns are read in place from the shared matrix.
+        return fit_glm_path(
+            full,
+            self.design.y,
+            self.family,
+            column_names=["(intercept)", *names],
+            terms=terms,
+            exposure_index=1,
+            offset=self.design.offset,
+            start=start,
+            checked=True,
+            scale=np.concatenate([[0.0], self._column_sd()[cols]]),
+            cols=idx,
+            reach=self._reach()[idx],
+            on_pass=on_pass,
+        )
+
+    def _fit_cox(
+        self,
+        terms: tuple[str, ...],
+        cols: list[int],
+        names: list[str],
+        start: np.ndarray | None,
+        on_pass: Callable[[], None] | None,
+    ) -> tuple[Fit, Any]:
+        from covariscope.analysis.survival import fit_cox_sample
+
+        sample = self._cox_sample()
+        idx = np.array(cols, dtype=np.intp)
+        return fit_cox_sample(
+            sample,
+            idx,
+            column_names=names,
+            terms=terms,
+            exposure_index=0,
+            start=start,
+            scale=sample.sd[idx],
+            on_pass=on_pass,
+        )
+
+    def _cox_sample(self) -> Any:
+        """The survival sample sorted and centred once, shared by every Cox model."""
+        if self._cox is None:
+            from covariscope.analysis.survival import CoxSample
+
+            # make_design requires both columns for the Cox family
+            assert self.design.time is not None
+            assert self.design.event is not None
+            q = self.design.n_design_columns
+            self._cox = CoxSample(
+                self.design.values[:, :q], self.design.time, self.design.event, "efron"
+            )
+        return self._cox
+
+    def _reach(self) -> np.ndarray:
+        """Largest |value| of each column of the intercept matrix (the stopping rule's scale)."""
+        if self._reach_cache is None:
+            q = self.design.n_design_columns
+            absmax = np.max(np.abs(self.design.values[:, :q]), axis=0)
+            self._reach_cache = np.concatenate([[1.0], absmax])
+        return self._reach_cache
 
     def _intercept_matrix(self) -> np.ndarray:
-        """[1 | design columns] in Fortran order, built once: each model copies
-        its columns from it as contiguous blocks."""
+        """[1 | design columns] in Fortran order, built once: every model reads
+        its columns from it in place."""
         if self._glm_matrix is None:
             q = self.design.n_design_columns
             full = np.empty((self.design.n, q + 1), order="F")
@@ -305,29 +355,44 @@ class EvidenceEngine:
         summary = self.summary
         return np.sqrt(np.clip(np.diag(summary.comoment), 0.0, None) / max(summary.n, 1))
 
-    def _warm_start(
-        self, terms: tuple[str, ...], names: list[str], intercept: bool
-    ) -> np.ndarray | None:
-        wanted = frozenset(terms)
-        best: tuple[int, frozenset[str], np.ndarray] | None = None
+    def _parent(self, wanted: frozenset[str]) -> tuple[frozenset[str], np.ndarray] | None:
+        """The fitted model to start from: the nearest one, a model that holds
+        every wanted term (a one-step drop update, no pass) before one whose
+        terms are all wanted (a one-step add update; preferably from a model
+        whose pass over every column is already made)."""
+        best: tuple[tuple[int, int], frozenset[str], np.ndarray] | None = None
         for tset, (_, params) in self._fits.items():
             if params is None:
                 continue
             distance = len(tset ^ wanted)
-            if best is None or distance < best[0]:
-                best = (distance, tset, params)
-        if best is None:
+            if tset >= wanted and tset in self._glm_cov:
+                rank = 0
+            elif tset <= wanted and tset in self._glm_step:
+                rank = 1
+            else:
+                rank = 2
+            key = (distance + (1 if rank == 2 else 0), rank)
+            if best is None or key < best[0]:
+                best = (key, tset, params)
+        return None if best is None else (best[1], best[2])
+
+    def _warm_start(
+        self, terms: tuple[str, ...], names: list[str], intercept: bool
+    ) -> np.ndarray | None:
+        wanted = frozenset(terms)
+        found = self._parent(wanted)
+        if found is None:
             return None
-        old_cols = self.columns(list(best[1]))
+        parent, params = found
+        old_cols = self.columns(list(parent))
         old_names = (["(intercept)"] if intercept else []) + [
             self.design.column_names[c] for c in old_cols
         ]
-        params = best[2]
         if len(old_names) != len(params):
             return None
-        cov = self._glm_cov.get(best[1])
+        cov = self._glm_cov.get(parent)
         new_names = (["(intercept)"] if intercept else []) + names
-        if cov is not None and wanted < best[1]:
+        if cov is not None and wanted < parent:
             # Dropping terms from a fitted model: minimise the quadratic
             # approximation of its log-likelihood with the dropped coefficients
             # held at zero, b_K − V_KD V_DD⁻¹ b_D (V the inverse information).
@@ -347,9 +412,36 @@ class EvidenceEngine:
                 params[drop] = 0.0
         lookup = dict(zip(old_names, params, strict=True))
         start = np.array([lookup.get(name, 0.0) for name in new_names])
-        if intercept and wanted > best[1] and self.family in ("logistic", "risk_ratio"):
-            return self._added_start(best[1], old_cols, best[2], terms, start)
+        if wanted > parent:
+            return self._added_start(parent, old_cols, found[1], terms, start)
         return start
+
+    def _step_at(
+        self, parent: frozenset[str], parent_cols: list[int], parent_params: np.ndarray
+    ) -> tuple[np.ndarray, np.ndarray]:
+        """Information and score over every design column at a fitted model's
+        parameters (zero for the columns it lacks): one pass, kept."""
+        hit = self._glm_step.get(parent)
+        if hit is not None:
+            return hit
+        if self.family == "cox":
+            sample = self._cox_sample()
+            b = np.zeros(sample.X.shape[1])
+            b[parent_cols] = parent_params
+            score, H = sample.derivatives(sample.X, sample.point(sample.X, b))
+            hit = (H, score)
+        else:
+            from covariscope.analysis.glm import information_and_score
+
+            full = self._intercept_matrix()
+            b = np.zeros(full.shape[1])
+            b[[0, *(c + 1 for c in parent_cols)]] = parent_params
+            assert self.design.y is not None
+            hit = information_and_score(
+                full, self.design.y, self.family, b, offset=self.design.offset
+            )
+        _remember(self._glm_step, parent, hit, 4)
+        return hit
 
     def _added_start(
         self,
@@ -366,27 +458,17 @@ class EvidenceEngine:
         them all: each takes its own sub-blocks of the information and score.
         """
         from covariscope.analysis.fitting_common import DIVERGE_SD
-        from covariscope.analysis.glm import information_and_score
 
-        full = self._intercept_matrix()
-        hit = self._glm_step.get(parent)
-        if hit is None:
-            b = np.zeros(full.shape[1])
-            b[[0, *(c + 1 for c in parent_cols)]] = parent_params
-            assert self.design.y is not None
-            hit = information_and_score(
-                full, self.design.y, self.family, b, offset=self.design.offset
-            )
-            _remember(self._glm_step, parent, hit, 4)
-        H, score = hit
+        H, score = self._step_at(parent, parent_cols, parent_params)
         cols = self.columns(terms)
-        idx = [0, *(c + 1 for c in cols)]
+        cox = self.family == "cox"
+        idx = cols if cox else [0, *(c + 1 for c in cols)]
         try:
             step = np.linalg.solve(H[np.ix_(idx, idx)], score[idx])
         except np.linalg.LinAlgError:
             return start
         candidate = start + step
-        sd = np.concatenate([[0.0], self._column_sd()[cols]])
+        sd = self._column_sd()[cols] if cox else np.concatenate([[0.0], self._column_sd()[cols]])
         # A step that runs far out (near separation) is left to the damped loop.
         if not np.all(np.isfinite(candidate)) or np.any(np.abs(candidate) * sd > DIVERGE_SD / 2):
             return start

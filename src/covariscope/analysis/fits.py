@@ -5,13 +5,12 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass, field
 
-__all__ = ["FAMILIES", "RATIO_FAMILIES", "Fit", "effect_measure"]
+from covariscope.vocabulary import RATIO_FAMILIES, Family, family_term
+
+__all__ = ["FAMILIES", "Fit", "effect_measure"]
 
 #: Model families, by the name used in project files and in ``check --json``.
-FAMILIES: tuple[str, ...] = ("linear", "logistic", "risk_ratio", "cox")
-
-#: Families whose exposure coefficient is a log ratio.
-RATIO_FAMILIES: frozenset[str] = frozenset({"logistic", "risk_ratio", "cox"})
+FAMILIES: tuple[str, ...] = tuple(Family)
 
 
 def effect_measure(family: str, *, count_outcome: bool = False) -> str:
@@ -20,15 +19,8 @@ def effect_measure(family: str, *, count_outcome: bool = False) -> str:
     >>> effect_measure("logistic")
     'odds ratio'
     """
-    if family == "linear":
-        return "mean difference"
-    if family == "logistic":
-        return "odds ratio"
-    if family == "risk_ratio":
-        return "rate ratio" if count_outcome else "risk ratio"
-    if family == "cox":
-        return "hazard ratio"
-    raise ValueError(f"unknown model family {family!r}")
+    term = family_term(family)
+    return term.count_measure if count_outcome else term.effect_measure
 
 
 @dataclass(frozen=True)

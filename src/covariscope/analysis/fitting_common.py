@@ -12,8 +12,6 @@ from __future__ import annotations
 
 import numpy as np
 import numpy.typing as npt
-from scipy.linalg.blas import dsyrk
-from scipy.linalg.lapack import dpotrf, dpotri
 
 from covariscope.analysis.fits import Fit
 
@@ -21,14 +19,18 @@ __all__ = [
     "ALIAS_TOL",
     "CHUNK_ROWS",
     "DIVERGE_SD",
+    "ETA_TOL",
     "EVENTS_PER_PARAMETER",
     "LEFT_BLANK",
     "SINGULAR_INFORMATION",
+    "STEP_TOL",
     "Z95",
     "aliased_columns",
+    "cholesky_solve",
     "design_problem",
     "fit_from_params",
     "inverse_from_cholesky",
+    "newton_done",
     "rank_message",
     "too_few_rows",
     "upper_cholesky",
@@ -53,51 +55,89 @@ DIVERGE_SD = 20.0
 #: (Peduzzi et al. 1996, J Clin Epidemiol 49:1373).
 EVENTS_PER_PARAMETER = 10
 
+#: Convergence of every Newton loop, stated in the quantities reported.  A
+#: loop stops at a point where the information was freshly computed and the
+#: Newton step from it (i) moves no coefficient by more than `STEP_TOL` of its
+#: standard error and (ii) moves no row's linear predictor by more than
+#: `ETA_TOL` (bounded by Σⱼ maxᵢ|xᵢⱼ|·|δⱼ|).  The step is then taken: Newton's
+#: error after it is of the order of the step squared, so the estimates are
+#: far closer to the maximum than (i) says; and the standard errors, taken
+#: from the information before the step, are off by about (ii), relatively,
+#: because each row's weight (μ(1 − μ), μ, or a risk-set share) changes by a
+#: factor of at most e^{|Δη|} (common practice, no published source).  Both
+#: are far below the three or four significant digits ever printed.
+STEP_TOL = 1e-6
+ETA_TOL = 1e-8
+
 #: Rows per block of the weighted cross product: a block of √w·X stays in the
 #: processor cache, so the n × p scaled copy is never written to memory.
 CHUNK_ROWS = 4096
 
 
 def weighted_crossprod(X: Array, w: Array, buf: Array | None = None) -> Array:
-    """X' diag(w) X (w ≥ 0) by symmetric rank-k updates; full matrix returned.
+    """X' diag(w) X (w ≥ 0), accumulated over blocks of rows; full matrix returned.
 
     Rows go in blocks of `CHUNK_ROWS`; each block of √w·X is built in a small
-    buffer (``buf``, optional, at least that many rows and of X's layout) and
-    added to the upper triangle by BLAS ``dsyrk`` (half the flops of a general
-    product).  X may be C- or Fortran-ordered.
+    buffer (``buf``, optional, at least that many rows) and its cross product
+    added by numpy's ``B.T @ B``, which BLAS computes as a symmetric rank-k
+    update (half the flops of a general product).  X may be C- or
+    Fortran-ordered.  Only numpy's BLAS is called, so that the passes and the
+    small solves share one BLAS thread pool (two pools on two cores wait on
+    each other).
     """
     n, p = X.shape
     sw = np.sqrt(w)
-    fortran = bool(X.flags.f_contiguous) and not X.flags.c_contiguous
     rows = min(n, CHUNK_ROWS)
     if buf is None or buf.shape[0] < rows or buf.shape[1] != p:
-        buf = np.empty((rows, p), order="F" if fortran else "C")
-    acc = np.zeros((p, p), order="F")
+        buf = np.empty((rows, p))
+    acc = np.zeros((p, p))
     for s in range(0, n, rows):
         e = min(s + rows, n)
         block = buf[: e - s]
         np.multiply(X[s:e], sw[s:e, None], out=block)
-        # A Fortran block is read as n × p (trans=1); a C block's transpose is
-        # Fortran p × n (trans=0): BLAS reads either without a copy.
-        if fortran:
-            acc = dsyrk(1.0, block, beta=1.0, c=acc, trans=1, lower=0, overwrite_c=1)
-        else:
-            acc = dsyrk(1.0, block.T, beta=1.0, c=acc, trans=0, lower=0, overwrite_c=1)
-    upper: Array = np.asarray(acc, dtype=np.float64)
-    return np.triu(upper) + np.triu(upper, 1).T
+        acc += block.T @ block
+    return acc
 
 
 def upper_cholesky(H: Array) -> Array | None:
     """Upper Cholesky factor of H, or None if H is not positive definite."""
-    c, info = dpotrf(H, lower=0, clean=1)
-    if info != 0 or not np.all(np.isfinite(c)):
+    if not np.all(np.isfinite(H)):
         return None
-    return np.asarray(c)
+    try:
+        lower = np.linalg.cholesky(H)
+    except np.linalg.LinAlgError:
+        return None
+    upper: Array = np.asarray(lower.T, dtype=np.float64)
+    return upper
 
 
 def inverse_from_cholesky(c: Array) -> Array:
-    inv: Array = np.asarray(dpotri(c, lower=0)[0], dtype=np.float64)
-    return np.triu(inv) + np.triu(inv, 1).T
+    """H⁻¹ from the upper Cholesky factor c of H (H = c'c), symmetric."""
+    ci = np.linalg.inv(c)
+    inv: Array = ci @ ci.T
+    return (inv + inv.T) / 2.0
+
+
+def cholesky_solve(c: Array, g: Array) -> Array:
+    """Solve H x = g given the upper Cholesky factor c of H."""
+    x: Array = np.linalg.solve(c, np.linalg.solve(c.T, g))
+    return x
+
+
+def newton_done(delta: Array, cov: Array, reach: Array) -> bool:
+    """Whether the Newton step ``delta`` meets the stopping rule (`STEP_TOL`, `ETA_TOL`).
+
+    ``cov`` is the inverse information at the current point; ``reach`` each
+    column's largest absolute value, so that Σⱼ reachⱼ·|δⱼ| bounds the change
+    of every row's linear predictor.
+
+    >>> import numpy as np
+    >>> newton_done(np.array([1e-12, 0.0]), np.eye(2), np.ones(2))
+    True
+    """
+    se = np.sqrt(np.clip(np.diag(cov), 0.0, None))
+    step = np.abs(delta)
+    return bool(np.all(step <= STEP_TOL * se) and float(reach @ step) <= ETA_TOL)
 
 
 def aliased_columns(G: Array, names: list[str]) -> list[str]:

@@ -13,39 +13,36 @@ Conventions
 * ``offset`` (Poisson only) is the *log* of each row's person-time (pass
   ``numpy.log(person_years)``), added to the linear predictor with a fixed
   coefficient of 1; the exposure coefficient is then a log rate ratio.
-* Convergence is judged on the deviance: the loop stops when the Newton
-  decrement (the deviance decrease the next full step would bring) falls below
-  ``tol × (|deviance| + 0.1)``; the scale-free form follows R's ``glm``.  The
-  step left must also be too small to move the standard errors (`SE_TOL`).
+* Convergence is judged on the reported quantities: the loop stops when the
+  Newton step left moves no coefficient by more than a millionth of its
+  standard error and no row's linear predictor by more than 1e-9, so that
+  estimates and standard errors are settled far below the printed digits
+  (`covariscope.analysis.fitting_common.newton_done`).
+* ``cols`` (optional) picks the model's columns of a wider X, which is then
+  read in place, never copied per model.
 """
 
 from __future__ import annotations
 
-import math
+from collections.abc import Callable
 from dataclasses import dataclass
 
 import numpy as np
 import numpy.typing as npt
-from scipy import optimize, special
-from scipy.linalg.lapack import dpotrs
+from scipy import optimize
 
 from covariscope.analysis.fits import Fit
 from covariscope.analysis.fitting_common import (
-    ALIAS_TOL,
-    CHUNK_ROWS,
-    DIVERGE_SD,
     EVENTS_PER_PARAMETER,
     LEFT_BLANK,
     SINGULAR_INFORMATION,
     aliased_columns,
     design_problem,
     fit_from_params,
-    inverse_from_cholesky,
     rank_message,
     too_few_rows,
-    upper_cholesky,
-    weighted_crossprod,
 )
+from covariscope.analysis.glm_newton import GlmPath, information_and_score, newton_glm
 
 __all__ = [
     "GLM_FAMILIES",
@@ -66,38 +63,9 @@ GLM_FAMILIES: dict[str, str] = {
     "risk_ratio": "Poisson, log link; robust HC0 sandwich SE (Zou 2004)",
 }
 
-#: Largest (weighted root-mean-square) change of the linear predictor that the
-#: last Newton step may still bring at convergence.  The logistic and Poisson
-#: weights change by at most that fraction per unit of η, so the standard
-#: errors, taken from the information before that step, are then good to
-#: about half this, relatively (common practice, no published source).
-SE_TOL = 1e-7
-
-#: Largest change of any row's linear predictor for which a full Newton step
-#: is taken without checking the deviance (it provably decreases; see `newton_glm`).
-SAFE_STEP = 1.0
-
 #: Fitted probabilities (or rates relative to the mean) closer than this to
 #: 0 or 1 hint at separation and trigger the separation check.
 EXTREME_MU = 1e-8
-
-
-@dataclass(frozen=True)
-class GlmPath:
-    """Where a Newton run ended: parameters, covariance and how it got there."""
-
-    params: Array
-    cov: Array | None
-    iterations: int
-    converged: bool
-    #: deviance at the last Newton point (before the final step); after steps
-    #: that skip its evaluation (see `newton_glm`) a second-order estimate
-    deviance: float
-    mu: Array
-    #: why the loop stopped early ("" when it converged or ran out of iterations)
-    stop: str = ""
-    #: the information at the start, kept when the design proved rank-deficient
-    info: Array | None = None
 
 
 @dataclass(frozen=True)
@@ -116,165 +84,6 @@ class Separation:
     @property
     def found(self) -> bool:
         return self.kind != "none"
-
-
-# ------------------------------------------------------------------ the Newton
-
-
-def _mean_and_deviance(
-    family: str, y: Array, eta: Array, ylogy: float, *, deviance: bool = True
-) -> tuple[Array, Array, float]:
-    """Fitted means, Newton weights and deviance at the linear predictor ``eta``
-    (the deviance is NaN when ``deviance`` is False, which saves a log per row).
-
-    For the logistic family one ``exp(−|η|)`` serves all three: with
-    e = exp(−|η|), log(1 + eᶯ) = max(η, 0) + log1p(e), μ = 1/(1 + e) for η ≥ 0
-    and e/(1 + e) otherwise, and μ(1 − μ) = e/(1 + e)², which stays exact
-    where 1 − μ would round to zero.
-    """
-    if family == "logistic":
-        e = np.abs(eta)
-        np.negative(e, out=e)
-        np.exp(e, out=e)
-        dev = math.nan
-        if deviance:
-            dev = 2.0 * (
-                float(np.sum(np.log1p(e))) + float(np.sum(np.maximum(eta, 0.0))) - float(y @ eta)
-            )
-        r = np.add(e, 1.0)
-        np.reciprocal(r, out=r)
-        mu = np.where(eta >= 0.0, r, e * r)
-        w = np.multiply(e, r, out=e)
-        w *= r
-        return mu, w, dev
-    mu = np.exp(np.minimum(eta, 700.0))
-    dev = 2.0 * float(np.sum(mu) - y @ eta + ylogy) if deviance else math.nan
-    return mu, mu, dev
-
-
-def _start(family: str, X: Array, y: Array, off: Array | None) -> Array:
-    b = np.zeros(X.shape[1])
-    x0 = X[0, 0]
-    if np.all(X[:, 0] == x0) and x0 != 0.0:
-        ybar = float(np.mean(y))
-        if family == "logistic":
-            ybar = min(max(ybar, 1e-6), 1 - 1e-6)
-            b[0] = math.log(ybar / (1 - ybar)) / x0
-        else:
-            denom = float(np.sum(np.exp(off))) if off is not None else float(len(y))
-            b[0] = math.log(max(float(np.sum(y)), 1e-10) / denom) / x0
-    return b
-
-
-def newton_glm(
-    X: Array,
-    y: Array,
-    family: str,
-    *,
-    offset: Array | None = None,
-    start: Array | None = None,
-    max_iter: int = 50,
-    tol: float = 1e-13,
-    scale: Array | None = None,
-) -> GlmPath:
-    """Maximise a logistic or Poisson log-likelihood by Newton–Raphson (= IRLS
-    for these canonical links) with step halving.
-
-    Returns the last parameters and the inverse information at the last
-    Newton point (``cov``; None when the information was singular).  The
-    caller checks the design beforehand; this function only iterates.  X may
-    be C- or Fortran-ordered (Fortran is faster: its columns are contiguous).
-    ``scale`` is each column's standard deviation (computed when not given),
-    used to tell a coefficient running off to infinity.
-
-    >>> import numpy as np
-    >>> X = np.column_stack([np.ones(6), [0, 0, 1, 1, 0, 1.0]])
-    >>> path = newton_glm(X, np.array([0, 1, 1, 1, 0, 0.0]), "logistic")
-    >>> bool(path.converged), round(float(path.params[1]), 4)  # log(4), odds 1/2 → 2
-    (True, 1.3863)
-    """
-    ylogy = float(np.sum(special.xlogy(y, y) - y)) if family == "risk_ratio" else 0.0
-    b = _start(family, X, y, offset) if start is None else np.array(start, dtype=np.float64)
-    fresh = True  # whether dev is the deviance at b, or only its estimate
-    scale = np.std(X, axis=0) if scale is None else np.asarray(scale, dtype=np.float64)
-    eta = X @ b if offset is None else X @ b + offset
-    mu, w, dev = _mean_and_deviance(family, y, eta, ylogy)
-    fortran = bool(X.flags.f_contiguous) and not X.flags.c_contiguous
-    buf = np.empty((min(X.shape[0], CHUNK_ROWS), X.shape[1]), order="F" if fortran else "C")
-    cov: Array | None = None
-    stop = ""
-    for it in range(1, max_iter + 1):
-        H = weighted_crossprod(X, w, buf)
-        c = upper_cholesky(H)
-        if it == 1 and (c is None or np.min(np.diag(c) ** 2 / np.diag(H)) < ALIAS_TOL):
-            # Weights are positive, so X'WX is singular exactly when X is.
-            return GlmPath(b, None, it, False, dev, mu, "aliased", H)
-        if c is None:
-            return GlmPath(b, None, it, False, dev, mu, "singular")
-        score = X.T @ (y - mu)
-        step_, _ = dpotrs(c, score[:, None], lower=0)
-        delta = step_[:, 0]
-        decrement = float(score @ delta)
-        cov = inverse_from_cholesky(c)
-        # The decrement is Σ wᵢ (xᵢ'δ)²: besides the deviance test, the step left
-        # must move the linear predictor by no more than SE_TOL (root mean
-        # square, weighted), or the information — and so the standard errors,
-        # which are taken here, before that step — would still be off by as much.
-        if decrement <= tol * (abs(dev) + 0.1) and decrement <= SE_TOL**2 * float(np.sum(w)):
-            return GlmPath(b + delta, cov, it, True, dev, mu)
-        X_delta = X @ delta
-        if float(np.max(np.abs(X_delta))) <= SAFE_STEP:
-            # Each row's negative log-likelihood φ(η) has |φ‴| ≤ φ″ in both
-            # families, so a full Newton step that moves no η by more than
-            # t = SAFE_STEP lowers the deviance by at least
-            # 2λ²(1 − (eᵗ − t − 1)/t²) > 0, λ² the decrement (Bach 2010,
-            # "Self-concordant analysis for logistic regression", Electron J
-            # Stat 4:384, Proposition 1, from memory): the step needs no
-            # deviance check, and the deviance (a log per row) is skipped.
-            b = b + delta
-            eta = eta + X_delta
-            mu, w, _ = _mean_and_deviance(family, y, eta, ylogy, deviance=False)
-            # Second-order estimate of the new deviance (off by O(t·λ²)); an
-            # exact one is taken before any step that needs checking.
-            dev, fresh = dev - decrement, False
-        else:
-            if not fresh:
-                dev, fresh = _mean_and_deviance(family, y, eta, ylogy)[2], True
-            t = 1.0
-            for _ in range(40):
-                b_new = b + t * delta
-                eta_new = eta + t * X_delta
-                mu_new, w_new, dev_new = _mean_and_deviance(family, y, eta_new, ylogy)
-                if math.isfinite(dev_new) and dev_new <= dev + 1e-12 * abs(dev):
-                    break
-                t *= 0.5
-            else:
-                return GlmPath(b, cov, it, False, dev, mu, "no_progress")
-            b, eta, mu, w, dev = b_new, eta_new, mu_new, w_new, dev_new
-        if np.any(np.abs(b[1:]) * scale[1:] > DIVERGE_SD):
-            stop = "diverging"
-            return GlmPath(b, cov, it, False, dev, mu, stop)
-    return GlmPath(b, cov, max_iter, False, dev, mu, stop)
-
-
-def information_and_score(
-    X: Array, y: Array, family: str, params: Array, *, offset: Array | None = None
-) -> tuple[Array, Array]:
-    """Fisher information X'WX and score X'(y − μ) at ``params``.
-
-    One pass gives the Newton step from ``params`` for every model whose
-    columns are a subset of X's: take the sub-blocks (the evidence engine
-    starts all "crude + C" models from the crude fit this way).
-
-    >>> import numpy as np
-    >>> X = np.column_stack([np.ones(4), [0, 1, 0, 1.0]])
-    >>> H, g = information_and_score(X, np.array([0, 1, 1, 1.0]), "logistic", np.zeros(2))
-    >>> H.tolist(), g.tolist()
-    ([[1.0, 0.5], [0.5, 0.5]], [1.0, 1.0])
-    """
-    eta = X @ params if offset is None else X @ params + offset
-    mu, w, _ = _mean_and_deviance(family, y, eta, 0.0, deviance=False)
-    return weighted_crossprod(X, w), X.T @ (y - mu)
 
 
 # ------------------------------------------------------------------ separation
@@ -473,7 +282,6 @@ def fit_glm(
     offset: Array | None = None,
     start: Array | None = None,
     max_iter: int = 50,
-    tol: float = 1e-13,
     checked: bool = False,
     scale: Array | None = None,
 ) -> tuple[Fit, Array | None]:
@@ -527,7 +335,6 @@ def fit_glm(
         offset=offset,
         start=start,
         max_iter=max_iter,
-        tol=tol,
         checked=checked,
         scale=scale,
     )
@@ -545,15 +352,21 @@ def fit_glm_path(
     offset: Array | None = None,
     start: Array | None = None,
     max_iter: int = 50,
-    tol: float = 1e-13,
     checked: bool = False,
     scale: Array | None = None,
+    cols: npt.NDArray[np.intp] | None = None,
+    reach: Array | None = None,
+    on_pass: Callable[[], None] | None = None,
 ) -> tuple[Fit, GlmPath | None]:
     """`fit_glm`, returning the whole Newton result (parameters and covariance)
     instead of the parameters alone; the path is None when the fit failed.
 
     The covariance lets a caller warm-start a nested model by a one-step
-    update (see `covariscope.analysis.evidence`).
+    update (see `covariscope.analysis.evidence`).  ``cols`` picks the model's
+    columns of a wider X (read in place; ``column_names``, ``scale`` and
+    ``reach`` then follow ``cols``); ``reach`` is each column's largest
+    absolute value (see `newton_glm`); ``on_pass`` is called after every pass
+    over the rows.
 
     >>> import numpy as np
     >>> X = np.column_stack([np.ones(6), [0, 0, 1, 1, 0, 1.0]])
@@ -566,7 +379,10 @@ def fit_glm_path(
     if X.dtype != np.float64 or not (X.flags.c_contiguous or X.flags.f_contiguous):
         X = np.ascontiguousarray(X, dtype=np.float64)
     y = np.asarray(y, dtype=np.float64)
-    n, p = X.shape
+    if cols is not None and not checked:
+        X, cols = np.ascontiguousarray(X[:, cols]), None
+    n = X.shape[0]
+    p = X.shape[1] if cols is None else len(cols)
     if family not in GLM_FAMILIES:
         return Fit.failed(family, terms, n, f"Unknown model family {family!r}."), None
     off = None
@@ -592,21 +408,28 @@ def fit_glm_path(
     if start is not None and np.shape(start) != (p,):
         start = None  # a mismatched start is ignored rather than trusted
     path = newton_glm(
-        X, y, family, offset=off, start=start, max_iter=max_iter, tol=tol, scale=scale
+        X,
+        y,
+        family,
+        offset=off,
+        start=start,
+        max_iter=max_iter,
+        scale=scale,
+        cols=cols,
+        reach=reach,
+        meat=family == "risk_ratio",
+        on_pass=on_pass,
     )
     if path.stop == "aliased":
         assert path.info is not None
         clauses = aliased_columns(path.info, names) or ["the columns are nearly collinear"]
         return Fit.failed(family, terms, n, rank_message(clauses)), None
-    extreme = (
-        float(np.min(np.minimum(path.mu, 1.0 - path.mu))) < EXTREME_MU
-        if family == "logistic"
-        else float(np.min(path.mu)) < EXTREME_MU * float(np.mean(y))
-    )
+    extreme = path.mu_low < (EXTREME_MU if family == "logistic" else EXTREME_MU * float(np.mean(y)))
     blank: frozenset[int] = frozenset()
     warns: list[str] = []
     if not path.converged or extreme:
-        sep = detect_separation(X, y, family=family)
+        Xm = X if cols is None else X[:, cols]
+        sep = detect_separation(Xm, y, family=family)
         if sep.found:
             words = _separation_words(
                 sep, names, family, counts=not bool(np.all((y == 0) | (y == 1)))
@@ -623,19 +446,15 @@ def fit_glm_path(
             )
     assert path.cov is not None
     cov = path.cov
+    if family == "risk_ratio" and path.meat is not None:
+        # HC0 sandwich H⁻¹ (Σ rᵢ² xᵢxᵢ') H⁻¹, both parts from the last Newton
+        # pass (the step left moves no linear predictor by more than ETA_TOL).
+        cov = cov @ path.meat @ cov
     if family == "risk_ratio":
-        # Sandwich H⁻¹ (Σ rᵢ² xᵢxᵢ') H⁻¹ at the final parameters: the residuals
-        # enter squared, so the last tiny step is not negligible here.
-        eta = X @ path.params if off is None else X @ path.params + off
-        mu = np.exp(np.minimum(eta, 700.0))
-        c = upper_cholesky(weighted_crossprod(X, mu))
-        if c is not None:
-            cov = inverse_from_cholesky(c)
-        cov = cov @ weighted_crossprod(X, (y - mu) ** 2) @ cov
         binary = bool(np.all((y == 0) | (y == 1)))
-        if binary and float(np.max(mu)) > 1.0 + 1e-9:
+        if binary and path.mu_high > 1.0 + 1e-9:
             warns.append(
-                f"Some fitted risks exceed 1 (largest {float(np.max(mu)):.3g}); the risk "
+                f"Some fitted risks exceed 1 (largest {path.mu_high:.3g}); the risk "
                 "ratios remain usable but the fitted risks are not."
             )
     events = float(np.sum(y)) if family == "risk_ratio" else float(min(np.sum(y), n - np.sum(y)))

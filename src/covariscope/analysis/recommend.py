@@ -22,6 +22,8 @@ from collections.abc import Callable, Iterable, Mapping, Sequence
 from dataclasses import dataclass
 from typing import Any
 
+from covariscope.vocabulary import group_key
+
 __all__ = [
     "MemberRanking",
     "Recommendation",
@@ -57,7 +59,7 @@ def _against_choice(
 ) -> int:
     count = 0
     for g in groups:
-        chosen = choices.get("|".join(sorted(g)))
+        chosen = choices.get(group_key(g))
         if chosen is None:
             continue
         count += sum(1 for m in members if m in g and m != chosen)
@@ -257,7 +259,7 @@ def recommend_set(
     # A saved choice within a group is the analyst's later word on that group:
     # it stands in for whichever members the proposed set holds.
     for g in group_list:
-        chosen = choices.get("|".join(sorted(g)))
+        chosen = choices.get(group_key(g))
         if chosen in g:
             wanted = (wanted - set(g)) | {chosen}
     if not minimal_sets:

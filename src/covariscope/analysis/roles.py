@@ -10,6 +10,7 @@ import networkx as nx
 from covariscope.analysis.adjustment import without_exposure_arrows
 from covariscope.analysis.constructs import MergedDiagram, merge_diagram
 from covariscope.analysis.paths import PathListing, ancestors_of, listing, open_path_with_collider
+from covariscope.vocabulary import Role
 
 __all__ = [
     "ROLES",
@@ -17,17 +18,8 @@ __all__ = [
     "classify_covariates",
 ]
 
-ROLES: tuple[str, ...] = (
-    "mediator",
-    "descendant_of_outcome",
-    "descendant_of_exposure",
-    "confounder",
-    "collider",
-    "instrument",
-    "precision",
-    "confounder_proxy",
-    "unrelated",
-)
+#: Role codes in the order their rules are tried (DESIGN §2).
+ROLES: tuple[str, ...] = tuple(Role)
 
 
 @dataclass(frozen=True)

@@ -1,23 +1,26 @@
 """Cox proportional hazards fits for the comparison models.
 
-Pure numpy: the partial likelihood, its score and information are built from
-reverse cumulative sums over the rows sorted by time, so one Newton iteration
-costs a few passes over the rows and one weighted cross product (no loop over
-the rows, no n × p × p array).  Tied event times are handled by Efron's
-method (Efron 1977, "The efficiency of Cox's likelihood function for
-censored data", JASA 72:557) unless Breslow's is asked for (Breslow 1974,
-Biometrics 30:89).  Data problems come back as a failed `Fit` or as warnings,
-never as an exception.
+Pure numpy.  The rows are sorted once per analytic sample, latest time first,
+so that every risk set is a prefix of the rows: the partial likelihood, its
+score and information then come from one cumulative sum per Newton step,
+taken down the columns of a column-major array that holds the risk weights
+and every weighted covariate at once, and from one weighted cross product
+(no loop over the rows or the event times, no n × p × p array).  Tied event
+times are handled by Efron's method (Efron 1977, "The efficiency of Cox's
+likelihood function for censored data", JASA 72:557) with grouped sums over
+each tied set, unless Breslow's is asked for (Breslow 1974, Biometrics
+30:89).  Data problems come back as a failed `Fit` or as warnings, never as
+an exception.
 """
 
 from __future__ import annotations
 
 import math
+from collections.abc import Callable
 from dataclasses import dataclass
 
 import numpy as np
 import numpy.typing as npt
-from scipy.linalg.lapack import dpotrs
 
 from covariscope.analysis.fits import Fit
 from covariscope.analysis.fitting_common import (
@@ -30,22 +33,36 @@ from covariscope.analysis.fitting_common import (
     design_problem,
     fit_from_params,
     inverse_from_cholesky,
+    newton_done,
     rank_message,
     too_few_rows,
     upper_cholesky,
-    weighted_crossprod,
 )
-from covariscope.analysis.glm import _screen_binary
+from covariscope.analysis.risk_sets import CoxPoint, CoxSample
 
-__all__ = ["TIES", "CoxPath", "cox_partial_likelihood", "fit_cox", "newton_cox"]
+__all__ = [
+    "TIES",
+    "CoxPath",
+    "CoxSample",
+    "cox_partial_likelihood",
+    "fit_cox",
+    "fit_cox_sample",
+    "newton_cox",
+]
 
 Array = npt.NDArray[np.float64]
+Index = npt.NDArray[np.intp]
 
 #: How tied event times are handled, in the words the report uses.
 TIES: dict[str, str] = {
     "efron": "tied event times handled by Efron's method (Efron 1977)",
     "breslow": "tied event times handled by Breslow's method (Breslow 1974)",
 }
+
+
+#: Relative gain in twice the log partial likelihood below which a fit whose
+#: coefficients run off to infinity is taken as having reached its limit.
+FLAT = 1e-13
 
 
 @dataclass(frozen=True)
@@ -60,53 +77,6 @@ class CoxPath:
     stop: str = ""
 
 
-class _RiskSets:
-    """The data sorted by time, with the index arithmetic that does not depend on β."""
-
-    def __init__(self, X: Array, time: Array, event: Array, ties: str) -> None:
-        order = np.argsort(time, kind="stable")
-        self.X = np.ascontiguousarray(X[order] - X.mean(axis=0))  # centring leaves β unchanged
-        t = time[order]
-        e = event[order] > 0
-        self.ev_rows = np.flatnonzero(e)
-        ev_t, first = np.unique(t[self.ev_rows], return_index=True)
-        self.first = first  # start of each tied group within the event rows
-        self.group = np.searchsorted(ev_t, t[self.ev_rows])  # event row → its event time
-        self.d = np.bincount(self.group, minlength=len(ev_t)).astype(np.float64)
-        self.risk_start = np.searchsorted(t, ev_t, side="left")
-        within = np.arange(len(self.ev_rows)) - first[self.group]
-        self.phi = within / self.d[self.group] if ties == "efron" else np.zeros(len(within))
-        self.last_event = np.searchsorted(ev_t, t, side="right") - 1  # row → last event time ≤ t
-        self.is_event = e
-        self.n_tied = int(np.count_nonzero(self.d > 1))
-        self.X_ev_sum = self.X[self.ev_rows].sum(axis=0)
-
-    def evaluate(self, beta: Array, *, info: bool = True) -> tuple[float, Array, Array | None]:
-        """Log partial likelihood, score and (optionally) information at β."""
-        X, g, phi = self.X, self.group, self.phi
-        eta = X @ beta
-        eta -= eta.max()  # the shift cancels between numerator and denominators
-        w = np.exp(eta)
-        wX = w[:, None] * X
-        s0 = np.cumsum(w[::-1])[::-1][self.risk_start]
-        s1 = np.cumsum(wX[::-1], axis=0)[::-1][self.risk_start]
-        s0d = np.add.reduceat(w[self.ev_rows], self.first)
-        s1d = np.add.reduceat(wX[self.ev_rows], self.first, axis=0)
-        den = s0[g] - phi * s0d[g]
-        M = (s1[g] - phi[:, None] * s1d[g]) / den[:, None]
-        loglik = float(np.sum(eta[self.ev_rows]) - np.sum(np.log(den)))
-        score = self.X_ev_sum - M.sum(axis=0)
-        if not info:
-            return loglik, score, None
-        a = np.bincount(g, weights=1.0 / den, minlength=len(self.d))
-        b = np.bincount(g, weights=phi / den, minlength=len(self.d))
-        cum_a = np.concatenate([[0.0], np.cumsum(a)])[self.last_event + 1]
-        c = w * cum_a
-        c[self.ev_rows] -= w[self.ev_rows] * b[g]
-        H = weighted_crossprod(X, np.clip(c, 0.0, None)) - M.T @ M
-        return loglik, score, H
-
-
 def cox_partial_likelihood(
     X: Array, time: Array, event: Array, beta: Array, *, ties: str = "efron"
 ) -> float:
@@ -117,25 +87,31 @@ def cox_partial_likelihood(
     >>> round(cox_partial_likelihood(X, np.array([1, 2, 3, 4.0]), np.ones(4), np.zeros(1)), 4)
     -3.1781
     """
-    return _RiskSets(X, time, event, ties).evaluate(beta, info=False)[0]
+    X = np.asarray(X, dtype=np.float64).reshape(len(time), -1)
+    return CoxSample(X, np.asarray(time, float), np.asarray(event, float), ties).loglik(beta)
 
 
 def newton_cox(
-    X: Array,
-    time: Array,
-    event: Array,
+    X: Array | None,
+    time: Array | None,
+    event: Array | None,
     *,
     ties: str = "efron",
     start: Array | None = None,
     max_iter: int = 50,
-    tol: float = 1e-13,
-    _risk: _RiskSets | None = None,
+    sample: CoxSample | None = None,
+    cols: Index | None = None,
+    scale: Array | None = None,
+    on_pass: Callable[[], None] | None = None,
 ) -> CoxPath:
     """Maximise the Cox partial likelihood by Newton–Raphson with step halving.
 
-    Stops when the Newton decrement (the increase in twice the log partial
-    likelihood that the next full step would bring) falls below
-    ``tol × (|2 loglik| + 0.1)``.
+    Stops by the rule stated in the reported quantities
+    (`covariscope.analysis.fitting_common.newton_done`).  Each accepted step
+    costs one evaluation: the likelihood at the trial point first, and its
+    score and information from the same weights once the step is accepted.
+    ``sample`` (built once per analytic sample) and ``cols`` (the model's
+    columns of it) replace X, time and event; ``scale`` is each column's SD.
 
     >>> import numpy as np
     >>> X = np.array([[0.0], [1.0], [0.0], [1.0], [1.0], [0.0]])
@@ -143,39 +119,54 @@ def newton_cox(
     >>> bool(path.converged)
     True
     """
-    risk = _risk if _risk is not None else _RiskSets(X, time, event, ties)
-    p = X.shape[1]
+    if sample is None:
+        if X is None or time is None or event is None:
+            raise ValueError("newton_cox needs X, time and event, or a CoxSample")
+        sample = CoxSample(X, time, event, ties)
+    Xm = sample.columns(cols)
+    reach = sample.reach if cols is None else sample.reach[cols]
+    p = Xm.shape[1]
     beta = np.zeros(p) if start is None else np.array(start, dtype=np.float64)
-    scale = np.std(X, axis=0)
-    ll, score, H = risk.evaluate(beta)
+    scale = np.std(Xm, axis=0) if scale is None else scale
+
+    def evaluate(b: Array) -> CoxPoint:
+        pt = sample.point(Xm, b)
+        if on_pass is not None:
+            on_pass()
+        return pt
+
+    ev_sum = Xm[sample.ev_rows].sum(axis=0)
+    pt = evaluate(beta)
+    score, H = sample.derivatives(Xm, pt, ev_sum)
     cov: Array | None = None
     for it in range(1, max_iter + 1):
-        assert H is not None
         c = upper_cholesky(H)
         if it == 1 and (c is None or np.min(np.diag(c) ** 2 / np.diag(H)) < ALIAS_TOL):
-            return CoxPath(beta, None, it, False, ll, "aliased")
+            return CoxPath(beta, None, it, False, pt.loglik, "aliased")
         if c is None:
-            return CoxPath(beta, None, it, False, ll, "singular")
-        step, _ = dpotrs(c, score[:, None], lower=0)
-        delta = step[:, 0]
-        decrement = float(score @ delta)
+            return CoxPath(beta, None, it, False, pt.loglik, "singular")
         cov = inverse_from_cholesky(c)
-        if decrement <= tol * (2.0 * abs(ll) + 0.1):
-            return CoxPath(beta + delta, cov, it, True, ll)
+        delta = cov @ score
+        # A coefficient running off to infinity (monotone likelihood) never
+        # meets the rule; the loop stops once the likelihood is flat instead
+        # and the fit blanks that coefficient.
+        runaway = bool(np.any(np.abs(beta) * scale > DIVERGE_SD / 2))
+        flat = float(score @ delta) <= FLAT * (2.0 * abs(pt.loglik) + 0.1)
+        if newton_done(delta, cov, reach) or (runaway and flat):
+            return CoxPath(beta + delta, cov, it, True, pt.loglik)
         t = 1.0
         for _ in range(40):
-            new = beta + t * delta
-            ll_new, _, _ = risk.evaluate(new, info=False)
-            if math.isfinite(ll_new) and ll_new >= ll - 1e-12 * abs(ll):
+            trial = evaluate(beta + t * delta)
+            if math.isfinite(trial.loglik) and trial.loglik >= pt.loglik - 1e-12 * abs(pt.loglik):
                 break
             t *= 0.5
         else:
-            return CoxPath(beta, cov, it, False, ll, "no_progress")
-        beta = new
-        ll, score, H = risk.evaluate(beta)
+            return CoxPath(beta, cov, it, False, pt.loglik, "no_progress")
+        beta, pt = trial.beta, trial
+        score, H = sample.derivatives(Xm, pt, ev_sum)
         if np.any(np.abs(beta) * scale > DIVERGE_SD):
-            return CoxPath(beta, cov, it, False, ll, "diverging")
-    return CoxPath(beta, cov, max_iter, False, ll)
+            return CoxPath(beta, cov, it, False, pt.loglik, "diverging")
+    return CoxPath(beta, cov, max_iter, False, pt.loglik)
 
 
 def fit_cox(
@@ -189,7 +180,6 @@ def fit_cox(
     start: Array | None = None,
     ties: str = "efron",
     max_iter: int = 50,
-    tol: float = 1e-13,
 ) -> tuple[Fit, Array | None]:
     """Fit a Cox proportional hazards model (hazard ratio), model-based SE.
 
@@ -243,13 +233,67 @@ def fit_cox(
         return Fit.failed(family, terms, n, problem), None
     if start is not None and np.shape(start) != (p,):
         start = None
+    sample = CoxSample(X, time, event, ties)
+    fit, path = fit_cox_sample(
+        sample,
+        None,
+        column_names=names,
+        terms=terms,
+        exposure_index=exposure_index,
+        start=start,
+        ties=ties,
+        max_iter=max_iter,
+    )
+    return fit, None if path is None else path.params
 
-    risk = _RiskSets(X, time, event, ties)
+
+def fit_cox_sample(
+    sample: CoxSample,
+    cols: Index | None,
+    *,
+    column_names: list[str] | tuple[str, ...],
+    terms: tuple[str, ...],
+    exposure_index: int = 0,
+    start: Array | None = None,
+    ties: str = "efron",
+    max_iter: int = 50,
+    scale: Array | None = None,
+    on_pass: Callable[[], None] | None = None,
+) -> tuple[Fit, CoxPath | None]:
+    """`fit_cox` on the columns ``cols`` of a sample sorted once (`CoxSample`).
+
+    The caller has checked times, events and columns (as `fit_cox` and the
+    evidence engine do).  Returns the Fit and the Newton result (None on
+    failure), whose covariance lets a nested model start from a one-step
+    update.  ``scale`` is each model column's SD; ``on_pass`` is called
+    after every pass over the rows.
+
+    >>> import numpy as np
+    >>> X = np.array([[0.0, 1], [1, 0], [0, 0], [1, 1], [1, 0], [0, 1]])
+    >>> s = CoxSample(X, np.array([1, 2, 3, 4, 5, 6.0]), np.array([1, 1, 0, 1, 0, 1.0]), "efron")
+    >>> fit, path = fit_cox_sample(s, np.array([0]), column_names=["x"], terms=())
+    >>> fit.ok, path.cov.shape
+    (True, (1, 1))
+    """
+    names = list(column_names)
+    n, family = sample.n, "cox"
+    idx = np.arange(sample.X.shape[1]) if cols is None else np.asarray(cols, dtype=np.intp)
+    p = len(idx)
     path = newton_cox(
-        X, time, event, ties=ties, start=start, max_iter=max_iter, tol=tol, _risk=risk
+        None,
+        None,
+        None,
+        ties=ties,
+        start=start,
+        max_iter=max_iter,
+        sample=sample,
+        cols=None if cols is None else idx,
+        scale=scale,
+        on_pass=on_pass,
     )
     if path.stop == "aliased":
-        clauses = aliased_columns(risk.X.T @ risk.X, names)
+        Xm = sample.columns(None if cols is None else idx)
+        clauses = aliased_columns(Xm.T @ Xm, names)
         if not clauses:
             return Fit.failed(
                 family,
@@ -262,30 +306,31 @@ def fit_cox(
     blank: frozenset[int] = frozenset()
     # Coefficients that run off to infinity do not stop the Newton loop (the
     # likelihood still converges), so look for them whatever the loop said.
-    scale = np.std(X, axis=0)
+    if scale is None:
+        scale = sample.sd[idx]
     huge = np.abs(path.params) * scale > DIVERGE_SD / 2
     if path.cov is not None:
         huge |= np.sqrt(np.clip(np.diag(path.cov), 0.0, None)) * scale > 5 * DIVERGE_SD
-    sep = _screen_binary(X, event, "risk_ratio", first=0)
-    if sep.found or huge.any() or not path.converged:
-        cols = sep.columns if sep.found else tuple(int(j) for j in np.flatnonzero(huge))
-        if cols:
-            who = ", ".join(names[j] for j in cols)
+    flagged = np.flatnonzero(sample.no_events_at_one_level()[idx])
+    if flagged.size or huge.any() or not path.converged:
+        found = (int(flagged[0]),) if flagged.size else tuple(int(j) for j in np.flatnonzero(huge))
+        if found:
+            who = ", ".join(names[j] for j in found)
             words = (
                 f"Monotone likelihood: the hazard ratio of {who} runs off to infinity (for "
                 "example, no events in one group), so it cannot be estimated. Merge sparse "
                 "categories, remove the column, or use penalised (Firth) Cox regression."
             )
-            if exposure_index in cols or path.cov is None:
+            if exposure_index in found or path.cov is None:
                 return Fit.failed(family, terms, n, words), None
-            blank = frozenset(cols)
+            blank = frozenset(found)
             warns.append(words + LEFT_BLANK)
         elif path.cov is None:
             return Fit.failed(family, terms, n, SINGULAR_INFORMATION), None
     assert path.cov is not None
-    if risk.n_tied:
-        warns.append(f"{risk.n_tied} event times are tied; {TIES[ties]}.")
-    events = int(np.count_nonzero(event))
+    if sample.n_tied:
+        warns.append(f"{sample.n_tied} event times are tied; {TIES[ties]}.")
+    events = len(sample.ev_rows)
     if events / p < EVENTS_PER_PARAMETER:
         warns.append(
             f"Only {events} events for {p} parameters (fewer than {EVENTS_PER_PARAMETER} per "
@@ -305,4 +350,4 @@ def fit_cox(
         warnings=warns,
         blank=blank,
     )
-    return fit, path.params
+    return fit, path

@@ -20,11 +20,9 @@ from __future__ import annotations
 
 from collections.abc import Mapping
 
-from covariscope.analysis.fits import RATIO_FAMILIES
 from covariscope.analysis.verdict_groups import group_verdict
 from covariscope.analysis.verdict_terms import (
     LABELS,
-    NONCOLLAPSIBLE_FAMILIES,
     NONCOLLAPSIBLE_R2,
     Facts,
     Numbers,
@@ -41,6 +39,7 @@ from covariscope.analysis.verdict_wording import (
     scale_words,
     shift_clause,
 )
+from covariscope.vocabulary import NONCOLLAPSIBLE_FAMILIES, RATIO_FAMILIES
 
 __all__ = ["role_verdict"]
 

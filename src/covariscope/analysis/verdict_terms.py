@@ -14,13 +14,14 @@ neither the exposure nor the outcome), ``avoid_instrument``, ``consider_proxy``,
 
 from __future__ import annotations
 
-import math
+from collections.abc import Mapping
 from dataclasses import dataclass, field
+from types import MappingProxyType
+
+from covariscope.vocabulary import VERDICT_TERMS, VerdictCode, change_read
 
 __all__ = [
-    "DEFAULT_THRESHOLDS",
     "LABELS",
-    "NONCOLLAPSIBLE_FAMILIES",
     "NONCOLLAPSIBLE_R2",
     "VERDICTS",
     "Facts",
@@ -29,38 +30,12 @@ __all__ = [
     "Verdict",
 ]
 
-VERDICTS: tuple[str, ...] = (
-    "adjust",
-    "keep_one_of",
-    "exclude_measures_exposure",
-    "exclude_pathway",
-    "exclude_descendant",
-    "exclude_collider",
-    "optional_precision",
-    "not_needed",
-    "avoid_instrument",
-    "consider_proxy",
-    "review",
-    "unmeasured",
+VERDICTS: tuple[str, ...] = tuple(VerdictCode)
+
+LABELS: Mapping[str, str] = MappingProxyType(
+    {code.value: term.label for code, term in VERDICT_TERMS.items()}
 )
 
-LABELS: dict[str, str] = {
-    "adjust": "Adjust",
-    "keep_one_of": "Keep one of",
-    "exclude_measures_exposure": "Exclude — measures the exposure",
-    "exclude_pathway": "Exclude — on the pathway",
-    "exclude_descendant": "Exclude — descendant",
-    "exclude_collider": "Exclude — collider",
-    "optional_precision": "Optional — precision",
-    "not_needed": "Not needed — unrelated",
-    "avoid_instrument": "Avoid — instrument-like",
-    "consider_proxy": "Consider — proxy of a confounder",
-    "review": "Review — diagram and data disagree",
-    "unmeasured": "Not measured",
-}
-
-#: Families whose effect measure is non-collapsible (odds and hazard ratios).
-NONCOLLAPSIBLE_FAMILIES = frozenset({"logistic", "cox"})
 
 #: Below this R² of the exposure on a covariate's terms, a shift in an odds or
 #: hazard ratio is read as non-collapsibility rather than confounding: a
@@ -68,15 +43,6 @@ NONCOLLAPSIBLE_FAMILIES = frozenset({"logistic", "cox"})
 #: moves a non-collapsible estimate whenever it predicts the outcome (common
 #: practice; no published cut-off).
 NONCOLLAPSIBLE_R2 = 0.01
-
-#: The guides (common practice; see :mod:`covariscope.analysis.verdicts`).
-DEFAULT_THRESHOLDS: dict[str, float] = {
-    "change_pct": 10.0,
-    "se_inflation_pct": 20.0,
-    "vif": 10.0,
-    "r2": 0.9,
-    "condition_index": 30.0,
-}
 
 
 @dataclass(frozen=True)
@@ -111,8 +77,7 @@ class Shift:
 
     def change_read(self, ratio_family: bool) -> float | None:
         """The change the threshold reads: the ratio scale for ratio families."""
-        value = self.change_pct_ratio if ratio_family else self.change_pct
-        return value if value is not None and math.isfinite(value) else None
+        return change_read(self.change_pct, self.change_pct_ratio, ratio=ratio_family)
 
 
 @dataclass(frozen=True)

@@ -26,9 +26,7 @@ from dataclasses import replace
 from covariscope.analysis.verdict_groups import collinear_groups
 from covariscope.analysis.verdict_rules import role_verdict
 from covariscope.analysis.verdict_terms import (
-    DEFAULT_THRESHOLDS,
     LABELS,
-    NONCOLLAPSIBLE_FAMILIES,
     NONCOLLAPSIBLE_R2,
     VERDICTS,
     Facts,
@@ -37,11 +35,10 @@ from covariscope.analysis.verdict_terms import (
     Verdict,
 )
 from covariscope.analysis.verdict_wording import format_set, labelled
+from covariscope.vocabulary import DEFAULT_THRESHOLDS
 
 __all__ = [
-    "DEFAULT_THRESHOLDS",
     "LABELS",
-    "NONCOLLAPSIBLE_FAMILIES",
     "NONCOLLAPSIBLE_R2",
     "VERDICTS",
     "Facts",

@@ -52,6 +52,7 @@ from covariscope.data.values import (
     sort_levels,
 )
 from covariscope.errors import DataError
+from covariscope.vocabulary import ColumnType
 
 __all__ = [
     "COLUMN_TYPES",
@@ -66,7 +67,7 @@ __all__ = [
     "validate_type",
 ]
 
-COLUMN_TYPES = ("continuous", "binary", "categorical", "count", "date", "identifier", "text")
+COLUMN_TYPES: tuple[str, ...] = tuple(ColumnType)
 LEVEL_TYPES = ("binary", "categorical")
 NUMERIC_TYPES = ("continuous", "count", "binary")
 

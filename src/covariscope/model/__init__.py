@@ -2,7 +2,6 @@
 
 from covariscope.model.diagram import KINDS, Diagram, DiagramEvent, Node
 from covariscope.model.project import (
-    DEFAULT_THRESHOLDS,
     AnalysisSettings,
     DataRef,
     Project,
@@ -11,7 +10,6 @@ from covariscope.model.project import (
 )
 
 __all__ = [
-    "DEFAULT_THRESHOLDS",
     "KINDS",
     "AnalysisSettings",
     "DataRef",

@@ -17,6 +17,7 @@ from typing import Any
 import networkx as nx
 
 from covariscope.errors import CycleError, DiagramError
+from covariscope.vocabulary import Kind, group_key
 
 __all__ = [
     "KINDS",
@@ -27,7 +28,7 @@ __all__ = [
 ]
 
 #: Node kinds: the one exposure, the one outcome, and any number of covariates.
-KINDS: tuple[str, ...] = ("exposure", "outcome", "covariate")
+KINDS: tuple[str, ...] = tuple(Kind)
 
 _ID_PATTERN = re.compile(r"^[A-Za-z_][A-Za-z0-9_.\-]*$")
 
@@ -211,7 +212,7 @@ class Diagram:
         groups = _measure_groups(self._nodes, proxies)
         if not groups:
             return None
-        name = {m: "|".join(sorted(g)) for g in groups for m in g}
+        name = {m: group_key(g) for g in groups for m in g}
         merged = nx.DiGraph()
         for a, b in graph.edges:
             ma, mb = name.get(a, a), name.get(b, b)

@@ -28,12 +28,11 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
-from covariscope.analysis.verdicts import DEFAULT_THRESHOLDS
 from covariscope.errors import CovariscopeError, DiagramError, ProjectFileError
 from covariscope.model.diagram import KINDS, Diagram, Node
+from covariscope.vocabulary import DEFAULT_THRESHOLDS, Family
 
 __all__ = [
-    "DEFAULT_THRESHOLDS",
     "FORMAT",
     "FORMAT_VERSION",
     "AnalysisSettings",
@@ -48,7 +47,7 @@ __all__ = [
 
 FORMAT = "covariscope-project"
 FORMAT_VERSION = 1
-FAMILY_NAMES = ("linear", "logistic", "risk_ratio", "cox")
+FAMILY_NAMES: tuple[str, ...] = tuple(Family)
 COLUMN_ROLES = ("outcome", "time", "event", "offset")
 
 

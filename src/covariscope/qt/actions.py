@@ -11,6 +11,7 @@ from PySide6.QtWidgets import QMenu, QToolBar
 
 from covariscope.qt.diagnostics import FAMILY_LABELS
 from covariscope.qt.icons import icon
+from covariscope.vocabulary import CAUTIONS as VOCABULARY_CAUTIONS
 
 if TYPE_CHECKING:
     from covariscope.qt.main_window import MainWindow
@@ -18,17 +19,9 @@ if TYPE_CHECKING:
 __all__ = ["CAUTIONS", "WindowActions"]
 
 CAUTIONS = (
-    "<p><b>Read the results with these cautions.</b></p>"
-    "<ul>"
-    "<li>The diagram holds assumptions — which variable causes which — that the data "
-    "cannot fully test. A verdict is only as sound as the diagram behind it.</li>"
-    "<li>The thresholds (change in estimate, SE inflation, VIF, condition index) are "
-    "guides from common practice, not rules. Edit them under Analysis ▸ Thresholds.</li>"
-    "<li>Unmeasured confounding is always possible; the E-value says how strong it would "
-    "have to be to explain the estimate away.</li>"
-    "<li>Covariscope supports the analyst's judgment and the study's pre-specified analysis "
-    "plan. It does not replace them.</li>"
-    "</ul>"
+    "<p><b>Read the results with these cautions.</b></p><ul>"
+    + "".join(f"<li>{text}</li>" for text in VOCABULARY_CAUTIONS)
+    + "</ul>"
 )
 
 _Std = QKeySequence.StandardKey

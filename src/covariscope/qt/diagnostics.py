@@ -43,15 +43,11 @@ from covariscope.views.diagnostics import (
 )
 from covariscope.views.format import ratio_family
 from covariscope.views.keep_choice import KeepChoice, keep_choice
+from covariscope.vocabulary import FAMILY_TERMS
 
 __all__ = ["FAMILY_LABELS", "CovariateDialog", "EndpointDialog", "NodeDialog"]
 
-FAMILY_LABELS: dict[str, str] = {
-    "linear": "Linear (mean difference)",
-    "logistic": "Logistic (odds ratio)",
-    "risk_ratio": "Log-link Poisson, robust SE (risk or rate ratio)",
-    "cox": "Cox proportional hazards (hazard ratio)",
-}
+FAMILY_LABELS: dict[str, str] = {f.value: t.label for f, t in FAMILY_TERMS.items()}
 
 #: What the family chooser decides, said beside it.
 FAMILY_HINT = (

@@ -44,6 +44,7 @@ from covariscope.qt.undo import push
 from covariscope.qt.worker import AnalysisRunner
 from covariscope.views.commands import SetSettings
 from covariscope.views.diagnostics import node_labels
+from covariscope.views.diagram import canvas_annotations
 from covariscope.views.keep_choice import keep_choice, keep_choices_after
 from covariscope.views.recompute import recompute_summary
 from covariscope.views.review import proposed_after_toggle
@@ -272,14 +273,8 @@ class MainWindow(QMainWindow):
         self.review.setProperty("stale", False)
         self.review.style().polish(self.review.table)
         self.refresh_panels()
-        roles = {
-            k: getattr(v, "role", None)
-            for k, v in (getattr(result.diagram, "roles", {}) or {}).items()
-        }
-        verdicts = {
-            k: (v.code, v.label) for k, v in (getattr(result, "verdicts", {}) or {}).items()
-        }
-        self.scene.set_annotations(roles, verdicts)
+        notes = canvas_annotations(result)
+        self.scene.set_annotations(notes.roles, notes.verdicts)
         for dialog in self.dialogs.values():
             self._refresh_dialog(dialog)
         sample = getattr(result, "sample", None)

@@ -64,15 +64,16 @@ def export_diagram(w: MainWindow, kind: str, path: str | None = None) -> bool:
     target = _writable(w, target, kind.upper()) if target is not None else None
     if target is None:
         return False
-    try:
-        from covariscope.qt import canvas
+    from covariscope.qt.canvas import export_png, export_svg
+    from covariscope.views.diagram import export_graphml
 
-        exporter = getattr(canvas, f"export_{kind}")
-    except (ImportError, AttributeError):
-        w.prompts.warn("Export not available", "The diagram export is not installed in this build.")
-        return False
     try:
-        exporter(w.project.diagram if kind == "graphml" else w.scene, target)
+        if kind == "graphml":
+            export_graphml(w.project.diagram, target)
+        elif kind == "svg":
+            export_svg(w.scene, target)
+        else:
+            export_png(w.scene, target)
     except (CovariscopeError, OSError) as exc:
         w.prompts.warn("Export failed", str(exc))
         return False

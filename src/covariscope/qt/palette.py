@@ -13,9 +13,7 @@ from PySide6.QtGui import QColor
 __all__ = [
     "BODY_SHAPES",
     "INK",
-    "KIND_TAGS",
     "ROLE_GLYPHS",
-    "ROLE_TAGS",
     "colour",
     "kind_fill",
     "kind_outline",
@@ -58,22 +56,6 @@ BODY_SHAPES: dict[str, str] = {
     "exposure": "pointed",
     "outcome": "notched",
     "covariate": "capsule",
-}
-
-#: The small text over the label that names the kind.
-KIND_TAGS: dict[str, str] = {"exposure": "EXPOSURE", "outcome": "OUTCOME", "covariate": "covariate"}
-
-#: Role tags shown after analysis (the trade terms, in plain words).
-ROLE_TAGS: dict[str, str] = {
-    "confounder": "confounder",
-    "mediator": "mediator",
-    "collider": "collider",
-    "instrument": "instrument",
-    "precision": "precision",
-    "confounder_proxy": "confounder proxy",
-    "descendant_of_exposure": "after exposure",
-    "descendant_of_outcome": "after outcome",
-    "unrelated": "unrelated",
 }
 
 #: A glyph per role, drawn at the left of the node: the role reads by shape

@@ -16,6 +16,7 @@ from PySide6.QtWidgets import QFileDialog, QMessageBox, QWidget
 from covariscope.errors import CovariscopeError
 from covariscope.model.project import Project, load_project, save_project
 from covariscope.views import recovery
+from covariscope.views.data_panel import data_file_filter
 
 if TYPE_CHECKING:
     from covariscope.qt.main_window import MainWindow
@@ -23,10 +24,7 @@ if TYPE_CHECKING:
 __all__ = ["PROJECT_FILTER", "ProjectIO", "Prompts", "recovery_folder"]
 
 PROJECT_FILTER = "Covariscope projects (*.json);;All files (*)"
-DATA_FILTER = (
-    "Data files (*.csv *.tsv *.txt *.xlsx *.xls *.parquet *.dta *.sav *.zsav *.sas7bdat *.xpt);;"
-    "All files (*)"
-)
+DATA_FILTER = data_file_filter()
 MAX_RECENT = 8
 AUTOSAVE_MS = 60_000
 

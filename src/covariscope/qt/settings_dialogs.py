@@ -11,7 +11,7 @@ from PySide6.QtWidgets import (
     QWidget,
 )
 
-from covariscope.model.project import DEFAULT_THRESHOLDS
+from covariscope.vocabulary import DEFAULT_THRESHOLDS
 
 __all__ = ["THRESHOLD_LABELS", "ThresholdsDialog"]
 

@@ -37,6 +37,7 @@ from covariscope.study.facts import (
     would_open,
 )
 from covariscope.study.result import ESTIMATE_KEYS
+from covariscope.vocabulary import group_key
 
 __all__ = ["Decisions", "Question", "decide"]
 
@@ -184,7 +185,7 @@ def _recommend(
     for g in groups:
         for key, member in choices.items():
             if set(key.split("|")) < set(g) and member in g:
-                rec_choices.setdefault("|".join(sorted(g)), member)
+                rec_choices.setdefault(group_key(g), member)
     names = set_names(da)
     rec = recommend_set(
         [tuple(s) for s in da.minimal_sets],
@@ -256,7 +257,7 @@ def _group_facts(
     suggested, suggested_why = suggest_member(
         group,
         alone,
-        chosen=dict(q.keep_choices).get("|".join(sorted(group))),
+        chosen=dict(q.keep_choices).get(group_key(group)),
         recommended=ctx.recommended,
         proposed=q.proposed,
         rest=rest,

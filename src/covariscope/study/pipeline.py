@@ -32,13 +32,14 @@ from covariscope.analysis.verdicts import LABELS, VERDICTS, Verdict
 from covariscope.data.loading import LoadedTable, load_table
 from covariscope.data.sample import CompleteCases
 from covariscope.errors import DataError
-from covariscope.model.project import DEFAULT_THRESHOLDS, Project
+from covariscope.model.project import Project
 from covariscope.study.cache import StudyCache
 from covariscope.study.criteria import GraphCriteria, graph_criteria, proposal_review, structure_key
 from covariscope.study.decide import Decisions, Question, decide, set_names
 from covariscope.study.prepare import Run, prepare_design, read_bindings, sufficient_statistics
 from covariscope.study.result import ESTIMATE_KEYS, Progress, StudyResult
 from covariscope.study.source import DataSource, source_of
+from covariscope.vocabulary import DEFAULT_THRESHOLDS
 
 __all__ = [
     "ESTIMATE_KEYS",

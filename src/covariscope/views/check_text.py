@@ -5,9 +5,18 @@ from __future__ import annotations
 import math
 from collections.abc import Iterable
 
-from covariscope.analysis.fits import RATIO_FAMILIES, Fit
+from covariscope.analysis.fits import Fit
 from covariscope.analysis.verdicts import format_set
 from covariscope.study.result import ESTIMATE_KEYS, StudyResult
+from covariscope.vocabulary import (
+    CAUTIONS,
+    RATIO_FAMILIES,
+    ROLE_TERMS,
+    VERDICT_TERMS,
+    change_read,
+    role_label,
+    verdict_label,
+)
 
 __all__ = ["OPEN_PATHS_SHOWN", "format_study_text"]
 
@@ -61,22 +70,27 @@ def format_study_text(result: StudyResult) -> str:
         "",
     ]
     ev = result.evidence
-    ratio = result.family in RATIO_FAMILIES
-    header = f"{'covariate':<{width}} {'role':<22} {'verdict':<26} {'change %':>9} {'SE infl %':>10} {'VIF':>7}"
+    role_w = max(len(t.label) for t in ROLE_TERMS.values())
+    verdict_w = max(len(t.label) for t in VERDICT_TERMS.values())
+    header = (
+        f"{'covariate':<{width}} {'role':<{role_w}} {'verdict':<{verdict_w}} {'change %':>9} "
+        f"{'SE infl %':>10} {'VIF':>7}"
+    )
     lines += [header, "-" * len(header)]
     for c, v in result.verdicts.items():
         e = ev.covariates.get(c) if ev is not None else None
         change = se = vif = None
         if e is not None:
-            change = (
-                e.added.change_pct_ratio
-                if ratio
-                else (e.added.change_pct if e.added.change_defined else None)
+            change = change_read(
+                e.added.change_pct if e.added.change_defined else None,
+                e.added.change_pct_ratio,
+                ratio=result.family in RATIO_FAMILIES,
             )
             se = e.added.se_inflation_pct
             vif = e.vif  # of the covariate in the full model; none when it is not a candidate
         lines.append(
-            f"{nm(c)[:width]:<{width}} {result.diagram.roles[c].role:<22} {v.code:<26} {_fmt(change, '+.1f'):>9} "
+            f"{nm(c)[:width]:<{width}} {role_label(result.diagram.roles[c].role):<{role_w}} "
+            f"{verdict_label(v.code):<{verdict_w}} {_fmt(change, '+.1f'):>9} "
             f"{_fmt(se, '+.1f'):>10} {_fmt(vif, '.2f'):>7}"
         )
     lines.append(
@@ -143,5 +157,5 @@ def format_study_text(result: StudyResult) -> str:
         lines += [f"  - {d}" for d in result.disagreements]
         lines.append("")
     lines.append("Cautions:")
-    lines += [f"  - {m}" for m in result.messages]
+    lines += [f"  - {m}" for m in (*result.messages, *CAUTIONS)]
     return "\n".join(lines) + "\n"

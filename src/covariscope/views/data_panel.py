@@ -7,7 +7,9 @@ from collections.abc import Iterable, Mapping
 from dataclasses import dataclass
 from typing import Any
 
+from covariscope.data.loading import FORMAT_LABELS, SUPPORTED_SUFFIXES
 from covariscope.views.format import DASH, is_number
+from covariscope.vocabulary import ColumnType
 
 __all__ = [
     "COLUMN_MIME",
@@ -16,6 +18,7 @@ __all__ = [
     "DATA_COLUMN_TIPS",
     "ColumnRow",
     "column_rows",
+    "data_file_filter",
     "matching_bindings",
     "nodes_without_column",
     "unbound_summary",
@@ -25,7 +28,12 @@ __all__ = [
 COLUMN_MIME = "application/x-covariscope-column"
 
 #: Types a column can be given (the models' term types).
-COLUMN_TYPES: tuple[str, ...] = ("continuous", "binary", "count", "categorical")
+COLUMN_TYPES: tuple[str, ...] = (
+    ColumnType.CONTINUOUS,
+    ColumnType.BINARY,
+    ColumnType.COUNT,
+    ColumnType.CATEGORICAL,
+)
 
 #: Header words, short so the five columns fit a narrow dock.
 DATA_COLUMNS: tuple[str, ...] = ("Column", "Type", "Missing", "Node", "Ref.")
@@ -144,3 +152,19 @@ def matching_bindings(project: Any, columns: Iterable[str]) -> dict[str, str]:
                 out[node.id] = candidates[0]
                 break
     return out
+
+
+def data_file_filter() -> str:
+    """The open-file filter: every extension the loader reads, then one entry
+    per format, then all files.
+
+    >>> "*.parquet" in data_file_filter()
+    True
+    """
+    every = " ".join(f"*{suffix}" for suffix in SUPPORTED_SUFFIXES)
+    per_format = [
+        f"{label[:1].upper()}{label[1:]} ({' '.join(f'*{s}' for s, fmt in SUPPORTED_SUFFIXES.items() if fmt == key)})"
+        for key, label in FORMAT_LABELS.items()
+        if key in SUPPORTED_SUFFIXES.values()
+    ]
+    return ";;".join([f"Data files ({every})", *per_format, "All files (*)"])

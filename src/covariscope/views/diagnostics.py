@@ -16,6 +16,7 @@ from typing import Any
 from covariscope.views.estimates import display_scale
 from covariscope.views.format import DASH, is_number, number, percent
 from covariscope.views.review import change_value, role_words
+from covariscope.vocabulary import CAUTIONS
 
 __all__ = [
     "DIAGNOSTIC_CAUTION",
@@ -28,11 +29,8 @@ __all__ = [
     "node_labels",
 ]
 
-DIAGNOSTIC_CAUTION = (
-    "The diagram holds assumptions the data cannot fully test, and the thresholds are "
-    "guides. These figures support your judgment and the study's analysis plan; they do "
-    "not replace them."
-)
+#: The cautions, as the dialog shows them under its figures.
+DIAGNOSTIC_CAUTION = " ".join(CAUTIONS)
 
 
 @dataclass(frozen=True)

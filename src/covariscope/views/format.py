@@ -6,12 +6,12 @@ from __future__ import annotations
 import math
 from typing import Any
 
+from covariscope.vocabulary import RATIO_FAMILIES
+
 __all__ = ["DASH", "fit_ok", "is_number", "number", "percent", "ratio_family"]
 
 #: Shown where a value does not exist (unmeasured, not fitted, undefined).
 DASH = "—"
-
-_RATIO_FAMILIES = frozenset({"logistic", "risk_ratio", "cox"})
 
 
 def is_number(value: Any) -> bool:
@@ -40,7 +40,7 @@ def percent(value: Any, digits: int = 1) -> str:
 
 def ratio_family(family: str | None) -> bool:
     """True when the family's estimate is a ratio (shown on the exp scale)."""
-    return family in _RATIO_FAMILIES
+    return family in RATIO_FAMILIES
 
 
 def fit_ok(fit: Any) -> bool:

@@ -8,23 +8,12 @@ then builds the recommended set around it.
 
 from __future__ import annotations
 
-from collections.abc import Iterable
 from dataclasses import dataclass
 from typing import Any
 
-__all__ = ["KeepChoice", "group_key", "keep_choice", "keep_choices_after", "kept_words"]
+from covariscope.vocabulary import group_key
 
-
-def group_key(members: Iterable[str]) -> str:
-    """The key a group's saved choice is filed under: its sorted node ids
-    joined by ``|``.
-
-    Examples
-    --------
-    >>> group_key(["income", "area"])
-    'area|income'
-    """
-    return "|".join(sorted(members))
+__all__ = ["KeepChoice", "keep_choice", "keep_choices_after", "kept_words"]
 
 
 @dataclass(frozen=True)

@@ -22,10 +22,10 @@ from itertools import pairwise
 from typing import Any
 
 from covariscope import __version__
+from covariscope.views.review import change_value, role_words
+from covariscope.vocabulary import CAUTIONS, family_term
 
 __all__ = [
-    "CAUTIONS",
-    "RATIO_FAMILIES",
     "CovariateRow",
     "DiagramSketch",
     "EstimateRow",
@@ -37,27 +37,8 @@ __all__ = [
     "format_number",
     "format_percent",
     "name_nodes",
-    "role_text",
 ]
 
-#: Families whose exposure coefficient is a log ratio (shown as a ratio).
-RATIO_FAMILIES = frozenset({"logistic", "risk_ratio", "cox"})
-
-_FAMILY_NAMES = {
-    "linear": "linear regression",
-    "logistic": "logistic regression",
-    "risk_ratio": "log-link Poisson regression with robust SE",
-    "cox": "Cox proportional hazards regression",
-}
-
-#: DESIGN §6, in plain words.
-CAUTIONS: tuple[str, ...] = (
-    "The diagram encodes assumptions that the data cannot fully test.",
-    "The thresholds are rules of thumb, shown as guides, not rules.",
-    "Unmeasured confounding is possible; the E-value says how strong it would have to be.",
-    "This page is an aid to the analyst's judgment and to the study's pre-specified "
-    "analysis plan, not a substitute for them.",
-)
 
 _NOT_AVAILABLE = "n/a"
 
@@ -119,11 +100,6 @@ def estimate_decimals(widths: Iterable[float], *, ratio: bool) -> int:
         return 2
     digits = 1 - math.floor(math.log10(min(finite)))
     return max(2, min(4, digits))
-
-
-def role_text(role: str | None) -> str:
-    """``'descendant_of_exposure'`` → ``'descendant of exposure'``."""
-    return role.replace("_", " ") if role else "—"
 
 
 # -- content -----------------------------------------------------------------------------
@@ -374,7 +350,7 @@ def build_content(result: Any, project: Any, *, today: _dt.date | None = None) -
     x_label = label_of.get(exposure, exposure or "?")
     y_label = label_of.get(outcome, outcome or "?")
     family = _get(result, "family") or "linear"
-    ratio = family in RATIO_FAMILIES
+    ratio = family_term(family).ratio
     measure = _get(result, "effect_measure") or ("ratio" if ratio else "mean difference")
 
     proposed = tuple(_get(result, "proposed", ()) or ())
@@ -507,9 +483,7 @@ def build_content(result: Any, project: Any, *, today: _dt.date | None = None) -
         verdict = verdicts.get(node.id)
         ev = ev_covariates.get(node.id)
         added = _get(ev, "added")
-        change = _get(added, "change_pct_ratio") if ratio else None
-        if change is None:
-            change = _get(added, "change_pct")
+        change = change_value(added, family)
         cov_rows.append(
             CovariateRow(
                 node=node.id,
@@ -520,7 +494,7 @@ def build_content(result: Any, project: Any, *, today: _dt.date | None = None) -
                     for flag, inside in (("C", node.id in proposed), ("R", node.id in recommended))
                     if inside
                 ),
-                role=role_text(_get(facts, "role") if facts is not None else None),
+                role=role_words(_get(facts, "role") if facts is not None else None),
                 change=format_percent(change) if ev is not None else "—",
                 se_inflation=format_percent(_get(added, "se_inflation_pct"))
                 if ev is not None
@@ -581,7 +555,7 @@ def build_content(result: Any, project: Any, *, today: _dt.date | None = None) -
                 float(n.x),
                 float(n.y),
                 n.id in proposed,
-                role_text(_get(roles.get(n.id), "role")) if n.kind == "covariate" else n.kind,
+                role_words(_get(roles.get(n.id), "role")) if n.kind == "covariate" else n.kind,
             )
             for n in diagram.nodes
         ),
@@ -597,7 +571,7 @@ def build_content(result: Any, project: Any, *, today: _dt.date | None = None) -
     return RationaleContent(
         title="Adjustment rationale",
         question=f"Effect of {x_label} on {y_label}",
-        measure=f"Effect measure: {measure} · model family: {_FAMILY_NAMES.get(family, family)}",
+        measure=f"Effect measure: {measure} · model family: {family_term(family).model}",
         data=tuple(data_lines),
         adjustment=tuple(adjustment),
         estimates_caption=estimates_caption,

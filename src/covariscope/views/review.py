@@ -9,7 +9,9 @@ import io
 from dataclasses import dataclass
 from typing import Any
 
+from covariscope.analysis.evidence import Comparison
 from covariscope.views.format import DASH, is_number, number, percent, ratio_family
+from covariscope.vocabulary import change_read, role_label
 
 __all__ = [
     "REVIEW_COLUMNS",
@@ -32,24 +34,11 @@ REVIEW_COLUMNS: tuple[str, ...] = (
     "In proposed set",
 )
 
-_ROLE_WORDS = {
-    "mediator": "mediator",
-    "descendant_of_outcome": "descendant of outcome",
-    "descendant_of_exposure": "descendant of exposure",
-    "confounder": "confounder",
-    "collider": "collider",
-    "instrument": "instrument",
-    "precision": "precision",
-    "confounder_proxy": "confounder proxy",
-    "unrelated": "unrelated",
-}
-
 
 def role_words(role: str | None) -> str:
-    """``"descendant_of_exposure"`` → ``"descendant of exposure"``."""
-    if not role:
-        return DASH
-    return _ROLE_WORDS.get(role, role.replace("_", " "))
+    """A role's label from the vocabulary: ``"descendant_of_exposure"`` →
+    ``"descendant of exposure"``; a dash for none."""
+    return role_label(role) or DASH
 
 
 @dataclass(frozen=True)
@@ -84,16 +73,14 @@ class ReviewRow:
         )
 
 
-def change_value(comparison: Any, family: str) -> float | None:
-    """The change in estimate the threshold reads: on the ratio scale for
-    ratio measures, on the coefficient scale otherwise (DESIGN §2)."""
+def change_value(comparison: Comparison | None, family: str) -> float | None:
+    """The change in estimate the threshold reads (see
+    :func:`covariscope.vocabulary.change_read`); None without a comparison."""
     if comparison is None:
         return None
-    if ratio_family(family):
-        value = getattr(comparison, "change_pct_ratio", None)
-        if value is not None:
-            return value
-    return getattr(comparison, "change_pct", None)
+    return change_read(
+        comparison.change_pct, comparison.change_pct_ratio, ratio=ratio_family(family)
+    )
 
 
 def _evidence_for(result: Any, node_id: str) -> Any:

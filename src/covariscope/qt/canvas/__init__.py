@@ -1,7 +1,7 @@
 """The diagram canvas: scene, view, mouse modes and export."""
 
 from covariscope.qt.canvas.drawing import Annotations
-from covariscope.qt.canvas.export import export_graphml, export_png, export_svg, render_diagram
+from covariscope.qt.canvas.export import export_png, export_svg, render_diagram
 from covariscope.qt.canvas.modes import Pointer
 from covariscope.qt.canvas.scene import COLUMN_MIME, DiagramScene
 from covariscope.qt.canvas.view import DiagramView
@@ -12,7 +12,6 @@ __all__ = [
     "DiagramScene",
     "DiagramView",
     "Pointer",
-    "export_graphml",
     "export_png",
     "export_svg",
     "render_diagram",

@@ -30,14 +30,13 @@ from PySide6.QtGui import (
 from covariscope.model.diagram import Node
 from covariscope.qt.palette import (
     BODY_SHAPES,
-    KIND_TAGS,
     ROLE_GLYPHS,
-    ROLE_TAGS,
     colour,
     kind_fill,
     kind_outline,
     role_colour,
 )
+from covariscope.vocabulary import KIND_TERMS, ROLE_TERMS, Kind, Role
 
 __all__ = [
     "LABEL_PX",
@@ -140,9 +139,9 @@ class NodeLook:
         """The small text over the label: kind (or role, for a covariate
         after analysis), then whether data are missing."""
         if self.role:
-            words = [ROLE_TAGS.get(self.role, self.role.replace("_", " "))]
+            words = [ROLE_TERMS[Role(self.role)].label]
         else:
-            words = [KIND_TAGS.get(self.kind, self.kind)]
+            words = [KIND_TERMS[Kind(self.kind)].short]
         if not self.measured:
             words.append("no data")
         elif not self.bound:

@@ -1,10 +1,6 @@
-"""Diagram export: PNG and SVG of the canvas, GraphML of the model, and a
-vector drawing of the model into any painter (the report uses it).
-
-GraphML node keys are our own: ``cs_label``, ``cs_kind``, ``cs_measured``,
-``cs_column`` (empty when unbound), ``cs_x``, ``cs_y``.  Arrows are edges
-with ``cs_link = "arrow"``; proxy links are edges with ``cs_link = "proxy"``
-(one per pair, written from the first id to the second; they are undirected).
+"""Diagram export: PNG and SVG of the canvas, and a vector drawing of the
+model into any painter (the report uses it).  GraphML needs no Qt and lives
+in :mod:`covariscope.views.diagram`.
 """
 
 from __future__ import annotations
@@ -15,7 +11,6 @@ from itertools import pairwise
 from pathlib import Path
 from typing import Any
 
-import networkx as nx
 from PySide6.QtCore import QPointF, QRectF, QSize
 from PySide6.QtGui import QColor, QImage, QPainter
 
@@ -36,8 +31,6 @@ from covariscope.qt.canvas.items import LabelEditor, RubberLink
 from covariscope.qt.canvas.scene import DiagramScene
 
 __all__ = [
-    "diagram_to_graphml_graph",
-    "export_graphml",
     "export_png",
     "export_svg",
     "render_diagram",
@@ -131,37 +124,6 @@ def export_svg(scene: DiagramScene, path: str | os.PathLike[str]) -> Path:
         painter.fillRect(QRectF(0, 0, rect.width(), rect.height()), QColor("#FFFFFF"))
         scene.render(painter, QRectF(0, 0, rect.width(), rect.height()), rect)
         painter.end()
-    return path
-
-
-def diagram_to_graphml_graph(diagram: Diagram) -> nx.MultiDiGraph:
-    """The diagram as a networkx graph carrying our GraphML attributes."""
-    graph = nx.MultiDiGraph()
-    for n in diagram.nodes:
-        graph.add_node(
-            n.id,
-            cs_label=n.label,
-            cs_kind=n.kind,
-            cs_measured=bool(n.measured),
-            cs_column=n.column or "",
-            cs_x=float(n.x),
-            cs_y=float(n.y),
-        )
-    for a, b in diagram.arrows:
-        graph.add_edge(a, b, key="arrow", cs_link="arrow")
-    for a, b in diagram.proxies:
-        graph.add_edge(a, b, key="proxy", cs_link="proxy")
-    return graph
-
-
-def export_graphml(diagram: Diagram, path: str | os.PathLike[str]) -> Path:
-    """Write the diagram as GraphML (an open standard other tools read)."""
-    path = Path(path)
-    _check_writable(path)
-    try:
-        nx.write_graphml(diagram_to_graphml_graph(diagram), path, named_key_ids=True)
-    except OSError as exc:
-        raise CovariscopeError(f"Could not write {path}: {exc.strerror or exc}.") from None
     return path
 
 

@@ -1,0 +1,527 @@
+"""Every word the user sees for a kind, role, verdict, family, column type or
+threshold, defined once.
+
+Each enumeration is a :class:`~enum.StrEnum` whose values are the stable codes
+written to project files and to ``check --json``, and a frozen table that
+gives every code its :class:`Term`: the label the screens and the page show,
+a short label where space is tight, and a one-sentence explanation.  The
+canvas, the review table, the diagnostics dialog, the page, ``check`` and the
+JSON Schema read their words from here, so they cannot drift apart.
+
+Examples
+--------
+>>> ROLE_TERMS[Role.DESCENDANT_OF_EXPOSURE].label
+'descendant of exposure'
+>>> family_term("logistic").effect_measure
+'odds ratio'
+>>> group_key(["income", "area"])
+'area|income'
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Iterable, Mapping
+from dataclasses import dataclass
+from enum import StrEnum
+from types import MappingProxyType
+
+__all__ = [
+    "CAUTIONS",
+    "COLUMN_TYPE_TERMS",
+    "DEFAULT_THRESHOLDS",
+    "FAMILY_TERMS",
+    "KIND_TERMS",
+    "NONCOLLAPSIBLE_FAMILIES",
+    "RATIO_FAMILIES",
+    "ROLE_TERMS",
+    "THRESHOLD_TERMS",
+    "VERDICT_TERMS",
+    "ColumnType",
+    "Family",
+    "FamilyTerm",
+    "Kind",
+    "Role",
+    "Term",
+    "Threshold",
+    "ThresholdTerm",
+    "VerdictCode",
+    "change_read",
+    "family_term",
+    "group_key",
+    "role_label",
+    "verdict_label",
+]
+
+
+@dataclass(frozen=True)
+class Term:
+    """The words for one code: ``label`` (full), ``short`` (where space is
+    tight) and ``explanation`` (one plain sentence)."""
+
+    code: str
+    label: str
+    short: str
+    explanation: str
+
+
+# -- node kinds ------------------------------------------------------------------------
+
+
+class Kind(StrEnum):
+    """What a node of the diagram stands for."""
+
+    EXPOSURE = "exposure"
+    OUTCOME = "outcome"
+    COVARIATE = "covariate"
+
+
+KIND_TERMS: Mapping[Kind, Term] = MappingProxyType(
+    {
+        Kind.EXPOSURE: Term(
+            "exposure", "exposure", "EXPOSURE", "The variable whose effect is estimated."
+        ),
+        Kind.OUTCOME: Term(
+            "outcome", "outcome", "OUTCOME", "The variable the exposure is thought to affect."
+        ),
+        Kind.COVARIATE: Term(
+            "covariate",
+            "covariate",
+            "covariate",
+            "Any other variable of the diagram, a candidate for adjustment.",
+        ),
+    }
+)
+
+
+# -- roles (DESIGN §2, first rule that holds wins) -------------------------------------
+
+
+class Role(StrEnum):
+    """The role of a covariate for the total effect of the exposure on the outcome."""
+
+    MEDIATOR = "mediator"
+    DESCENDANT_OF_OUTCOME = "descendant_of_outcome"
+    DESCENDANT_OF_EXPOSURE = "descendant_of_exposure"
+    CONFOUNDER = "confounder"
+    COLLIDER = "collider"
+    INSTRUMENT = "instrument"
+    PRECISION = "precision"
+    CONFOUNDER_PROXY = "confounder_proxy"
+    UNRELATED = "unrelated"
+
+
+ROLE_TERMS: Mapping[Role, Term] = MappingProxyType(
+    {
+        Role.MEDIATOR: Term(
+            "mediator",
+            "mediator",
+            "mediator",
+            "A descendant of the exposure and a cause of the outcome: on the causal pathway.",
+        ),
+        Role.DESCENDANT_OF_OUTCOME: Term(
+            "descendant_of_outcome",
+            "descendant of outcome",
+            "after outcome",
+            "An effect of the outcome; adjusting for it can bias the estimate.",
+        ),
+        Role.DESCENDANT_OF_EXPOSURE: Term(
+            "descendant_of_exposure",
+            "descendant of exposure",
+            "after exposure",
+            "An effect of the exposure that is not on the way to the outcome.",
+        ),
+        Role.CONFOUNDER: Term(
+            "confounder",
+            "confounder",
+            "confounder",
+            "A non-collider on a backdoor path that is open when nothing is adjusted.",
+        ),
+        Role.COLLIDER: Term(
+            "collider",
+            "collider",
+            "collider",
+            "Adjusting for it alone opens a backdoor path that is otherwise blocked.",
+        ),
+        Role.INSTRUMENT: Term(
+            "instrument",
+            "instrument",
+            "instrument",
+            "Linked to the exposure, but linked to the outcome only through the exposure.",
+        ),
+        Role.PRECISION: Term(
+            "precision",
+            "precision",
+            "precision",
+            "A cause of the outcome not linked to the exposure; it can sharpen the estimate.",
+        ),
+        Role.CONFOUNDER_PROXY: Term(
+            "confounder_proxy",
+            "confounder proxy",
+            "proxy",
+            "Linked to both ends but on no open backdoor path; it may stand in for an "
+            "unmeasured confounder.",
+        ),
+        Role.UNRELATED: Term(
+            "unrelated",
+            "unrelated",
+            "unrelated",
+            "The diagram links it to neither end in a way that matters for adjustment.",
+        ),
+    }
+)
+
+
+# -- verdicts ---------------------------------------------------------------------------
+
+
+class VerdictCode(StrEnum):
+    """What to do with a covariate: role, evidence and thresholds put together."""
+
+    ADJUST = "adjust"
+    KEEP_ONE_OF = "keep_one_of"
+    EXCLUDE_MEASURES_EXPOSURE = "exclude_measures_exposure"
+    EXCLUDE_PATHWAY = "exclude_pathway"
+    EXCLUDE_DESCENDANT = "exclude_descendant"
+    EXCLUDE_COLLIDER = "exclude_collider"
+    OPTIONAL_PRECISION = "optional_precision"
+    NOT_NEEDED = "not_needed"
+    AVOID_INSTRUMENT = "avoid_instrument"
+    CONSIDER_PROXY = "consider_proxy"
+    REVIEW = "review"
+    UNMEASURED = "unmeasured"
+
+
+VERDICT_TERMS: Mapping[VerdictCode, Term] = MappingProxyType(
+    {
+        VerdictCode.ADJUST: Term(
+            "adjust", "Adjust", "Adjust", "A confounder: adjust for it to remove its bias."
+        ),
+        VerdictCode.KEEP_ONE_OF: Term(
+            "keep_one_of",
+            "Keep one of",
+            "Keep one",
+            "Collinear confounders that close the same paths: adjust for one of them.",
+        ),
+        VerdictCode.EXCLUDE_MEASURES_EXPOSURE: Term(
+            "exclude_measures_exposure",
+            "Exclude — measures the exposure",
+            "Exclude",
+            "It measures the exposure itself; adjusting for it removes the effect sought.",
+        ),
+        VerdictCode.EXCLUDE_PATHWAY: Term(
+            "exclude_pathway",
+            "Exclude — on the pathway",
+            "Exclude",
+            "A mediator: adjusting for it removes part of the total effect.",
+        ),
+        VerdictCode.EXCLUDE_DESCENDANT: Term(
+            "exclude_descendant",
+            "Exclude — descendant",
+            "Exclude",
+            "An effect of the exposure or the outcome: adjusting for it can bias the estimate.",
+        ),
+        VerdictCode.EXCLUDE_COLLIDER: Term(
+            "exclude_collider",
+            "Exclude — collider",
+            "Exclude",
+            "Adjusting for it opens a backdoor path and brings in bias.",
+        ),
+        VerdictCode.OPTIONAL_PRECISION: Term(
+            "optional_precision",
+            "Optional — precision",
+            "Optional",
+            "Not needed against bias; it may narrow the confidence interval.",
+        ),
+        VerdictCode.NOT_NEEDED: Term(
+            "not_needed",
+            "Not needed — unrelated",
+            "Not needed",
+            "The diagram links it to neither end; adjusting changes nothing but the variance.",
+        ),
+        VerdictCode.AVOID_INSTRUMENT: Term(
+            "avoid_instrument",
+            "Avoid — instrument-like",
+            "Avoid",
+            "Adjusting for it adds variance and removes no bias.",
+        ),
+        VerdictCode.CONSIDER_PROXY: Term(
+            "consider_proxy",
+            "Consider — proxy of a confounder",
+            "Consider",
+            "It closes no path itself, but may reduce bias from a confounder not measured.",
+        ),
+        VerdictCode.REVIEW: Term(
+            "review",
+            "Review — diagram and data disagree",
+            "Review",
+            "The data move the estimate where the diagram says they should not: check both.",
+        ),
+        VerdictCode.UNMEASURED: Term(
+            "unmeasured",
+            "Not measured",
+            "Not measured",
+            "The variable was not measured, so it cannot be adjusted for.",
+        ),
+    }
+)
+
+
+# -- model families ---------------------------------------------------------------------
+
+
+class Family(StrEnum):
+    """The regression model every comparison model of a study uses."""
+
+    LINEAR = "linear"
+    LOGISTIC = "logistic"
+    RISK_RATIO = "risk_ratio"
+    COX = "cox"
+
+
+@dataclass(frozen=True)
+class FamilyTerm(Term):
+    """A family's words: ``model`` names the regression in the trade's words,
+    ``effect_measure`` (``count_measure`` for a count outcome) what it
+    estimates; ``ratio`` is True when the exposure coefficient is a log ratio,
+    ``noncollapsible`` when the measure can change on adjustment without
+    confounding (odds and hazard ratios)."""
+
+    model: str
+    effect_measure: str
+    count_measure: str
+    ratio: bool
+    noncollapsible: bool
+
+
+FAMILY_TERMS: Mapping[Family, FamilyTerm] = MappingProxyType(
+    {
+        Family.LINEAR: FamilyTerm(
+            "linear",
+            "Linear (mean difference)",
+            "Linear",
+            "For a measured outcome; the effect is a difference in means.",
+            model="linear regression",
+            effect_measure="mean difference",
+            count_measure="mean difference",
+            ratio=False,
+            noncollapsible=False,
+        ),
+        Family.LOGISTIC: FamilyTerm(
+            "logistic",
+            "Logistic (odds ratio)",
+            "Logistic",
+            "For a yes/no outcome; the effect is an odds ratio.",
+            model="logistic regression",
+            effect_measure="odds ratio",
+            count_measure="odds ratio",
+            ratio=True,
+            noncollapsible=True,
+        ),
+        Family.RISK_RATIO: FamilyTerm(
+            "risk_ratio",
+            "Log-link Poisson, robust SE (risk or rate ratio)",
+            "Risk ratio",
+            "For a yes/no outcome (risk ratio) or a count (rate ratio, optional offset).",
+            model="log-link Poisson regression with robust SE",
+            effect_measure="risk ratio",
+            count_measure="rate ratio",
+            ratio=True,
+            noncollapsible=False,
+        ),
+        Family.COX: FamilyTerm(
+            "cox",
+            "Cox proportional hazards (hazard ratio)",
+            "Cox",
+            "For time to an event; the effect is a hazard ratio.",
+            model="Cox proportional hazards regression",
+            effect_measure="hazard ratio",
+            count_measure="hazard ratio",
+            ratio=True,
+            noncollapsible=True,
+        ),
+    }
+)
+
+
+#: Families whose exposure coefficient is a log ratio (shown on the ratio scale).
+RATIO_FAMILIES: frozenset[str] = frozenset(f.value for f, t in FAMILY_TERMS.items() if t.ratio)
+
+#: Families whose measure can change on adjustment without confounding.
+NONCOLLAPSIBLE_FAMILIES: frozenset[str] = frozenset(
+    f.value for f, t in FAMILY_TERMS.items() if t.noncollapsible
+)
+
+
+def family_term(family: str) -> FamilyTerm:
+    """The words of a family given by its code; ``ValueError`` names the known codes.
+
+    >>> family_term("cox").ratio
+    True
+    """
+    try:
+        return FAMILY_TERMS[Family(family)]
+    except ValueError:
+        known = ", ".join(f.value for f in Family)
+        raise ValueError(f"unknown model family {family!r} (known: {known})") from None
+
+
+def change_read(
+    change_pct: float | None, change_pct_ratio: float | None, *, ratio: bool
+) -> float | None:
+    """The change in estimate that the threshold reads (DESIGN §2): on the
+    ratio scale for ratio measures (``ratio`` True), on the coefficient scale
+    otherwise; None when that change is undefined or not finite.
+
+    >>> change_read(12.0, 8.0, ratio=True), change_read(12.0, None, ratio=False)
+    (8.0, 12.0)
+    """
+    value = change_pct_ratio if ratio else change_pct
+    return value if value is not None and math.isfinite(value) else None
+
+
+# -- column types -----------------------------------------------------------------------
+
+
+class ColumnType(StrEnum):
+    """How a data column is read."""
+
+    CONTINUOUS = "continuous"
+    BINARY = "binary"
+    CATEGORICAL = "categorical"
+    COUNT = "count"
+    DATE = "date"
+    IDENTIFIER = "identifier"
+    TEXT = "text"
+
+
+COLUMN_TYPE_TERMS: Mapping[ColumnType, Term] = MappingProxyType(
+    {
+        ColumnType.CONTINUOUS: Term(
+            "continuous", "continuous", "cont.", "A measurement, entered as a number."
+        ),
+        ColumnType.BINARY: Term(
+            "binary", "binary", "bin.", "Two levels, coded 0/1 against the reference level."
+        ),
+        ColumnType.CATEGORICAL: Term(
+            "categorical",
+            "categorical",
+            "cat.",
+            "Several levels, each contrasted with the reference level.",
+        ),
+        ColumnType.COUNT: Term("count", "count", "count", "A whole number of events or items."),
+        ColumnType.DATE: Term("date", "date", "date", "A calendar date; not used in a model."),
+        ColumnType.IDENTIFIER: Term(
+            "identifier",
+            "identifier",
+            "id",
+            "A row label such as a participant number; not used in a model.",
+        ),
+        ColumnType.TEXT: Term("text", "text", "text", "Free text; not used in a model."),
+    }
+)
+
+
+# -- thresholds (guides, common practice) -----------------------------------------------
+
+
+class Threshold(StrEnum):
+    """The editable guides the verdicts compare the evidence with."""
+
+    CHANGE_PCT = "change_pct"
+    SE_INFLATION_PCT = "se_inflation_pct"
+    VIF = "vif"
+    R2 = "r2"
+    CONDITION_INDEX = "condition_index"
+
+
+@dataclass(frozen=True)
+class ThresholdTerm(Term):
+    """A threshold's words and its default (common practice, a guide)."""
+
+    default: float
+
+
+THRESHOLD_TERMS: Mapping[Threshold, ThresholdTerm] = MappingProxyType(
+    {
+        Threshold.CHANGE_PCT: ThresholdTerm(
+            "change_pct",
+            "Change in estimate (%)",
+            "change",
+            "A covariate that moves the exposure estimate by more than this is taken to "
+            "confound it (on the ratio scale for ratio measures).",
+            default=10.0,
+        ),
+        Threshold.SE_INFLATION_PCT: ThresholdTerm(
+            "se_inflation_pct",
+            "SE inflation (%)",
+            "SE inflation",
+            "An increase of the exposure estimate's standard error past this is called inflation.",
+            default=20.0,
+        ),
+        Threshold.VIF: ThresholdTerm(
+            "vif",
+            "Variance inflation factor",
+            "VIF",
+            "A VIF above this marks a covariate as collinear with the others.",
+            default=10.0,
+        ),
+        Threshold.R2: ThresholdTerm(
+            "r2",
+            "R² of the exposure on a covariate",
+            "R²",
+            "Above this, with SE inflation, a covariate is read as a measure of the exposure.",
+            default=0.9,
+        ),
+        Threshold.CONDITION_INDEX: ThresholdTerm(
+            "condition_index",
+            "Condition index",
+            "condition index",
+            "A condition index of the full model above this points at a collinear group.",
+            default=30.0,
+        ),
+    }
+)
+
+#: The default of every threshold, by code (common practice; guides, not rules).
+DEFAULT_THRESHOLDS: Mapping[str, float] = MappingProxyType(
+    {t.value: term.default for t, term in THRESHOLD_TERMS.items()}
+)
+
+
+# -- cautions (DESIGN §7) ---------------------------------------------------------------
+
+#: What every output says beside its findings, in plain words.
+CAUTIONS: tuple[str, ...] = (
+    "The diagram encodes assumptions that the data cannot fully test; a verdict is only "
+    "as sound as the diagram behind it.",
+    "The thresholds (change in estimate, SE inflation, VIF, condition index) are rules of "
+    "thumb from common practice, shown as guides, not rules.",
+    "Unmeasured confounding is possible; the E-value says how strong it would have to be "
+    "to explain the estimate away.",
+    "Covariscope supports the analyst's judgment and the study's pre-specified analysis "
+    "plan; it does not replace them.",
+)
+
+
+# -- small shared rules ------------------------------------------------------------------
+
+
+def group_key(members: Iterable[str]) -> str:
+    """The name of a measure group or collinear group: its member ids, sorted,
+    joined by ``|`` (DESIGN §2).
+
+    >>> group_key(("b", "a"))
+    'a|b'
+    """
+    return "|".join(sorted(members))
+
+
+def role_label(role: str | None) -> str | None:
+    """The label of a role code (None when there is no role)."""
+    return ROLE_TERMS[Role(role)].label if role else None
+
+
+def verdict_label(code: str | None) -> str | None:
+    """The label of a verdict code (None when there is no verdict)."""
+    return VERDICT_TERMS[VerdictCode(code)].label if code else None
