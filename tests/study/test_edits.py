@@ -222,3 +222,23 @@ def test_switching_family_and_back_refits_nothing(warm, rerun):
     rerun(project, source, cache)
     assert _misses(cache) == {}
     assert source.read == []
+
+
+def test_binding_a_column_refits_only_the_models_that_hold_it(rerun):
+    project, table = _generated()
+    project.analysis.family = "logistic"
+    source = LoggingSource(table)
+    project.diagram.update_node("p1", column=None)
+    cache = StudyCache()
+    run_study(project, table=source, cache=cache)
+    cache.reset_counts()
+    project.diagram.update_node("p1", column="p1")
+    result = rerun(project, source, cache)
+    ev = result.evidence
+    models = {(), tuple(ev.candidates), *((c,) for c in ev.covariates)}
+    models |= {tuple(t for t in ev.candidates if t != c) for c in ev.candidates}
+    models |= {f.terms for f in ev.sets.values()}
+    holding = [m for m in models if "p1" in m]
+    # The models without p1 come over from the engine of the design without it;
+    # two more allow for the keep-one ranking's own models.
+    assert cache.count("fit").misses <= len(holding) + 2 < len(models)

@@ -177,6 +177,24 @@ class EvidenceEngine:
             groups[node] = list(self.design.blocks[node].index)
         return groups
 
+    def adopt(self, other: EvidenceEngine, terms: frozenset[str]) -> int:
+        """Take over ``other``'s fits of models made of ``terms`` only; returns how many.
+
+        The caller vouches that ``other`` was built from the same rows, with
+        the same exposure, outcome and family, and that every one of
+        ``terms`` has the same columns in both designs (so binding one more
+        covariate, or recoding one, refits only the models that hold it).
+        """
+        with other._lock:
+            fits = {k: v for k, v in other._fits.items() if k <= terms}
+            ols = {k: v for k, v in other._ols.items() if k <= terms}
+            cov = {k: v for k, v in other._glm_cov.items() if k <= terms}
+        with self._lock:
+            self._fits.update(fits)
+            self._ols.update(ols)
+            self._glm_cov.update(cov)
+        return len(fits)
+
     def aliased(self, terms: Sequence[str] | None = None) -> tuple[AliasFinding, ...]:
         """Exact linear combinations among the exposure and ``terms`` (default: every term)."""
         terms = list(self.design.blocks) if terms is None else terms

@@ -28,6 +28,7 @@ from covariscope.analysis.evidence import (
 )
 from covariscope.analysis.fits import effect_measure
 from covariscope.analysis.graph import DiagramAnalysis
+from covariscope.analysis.linear import LinearSummary
 from covariscope.analysis.verdicts import LABELS, VERDICTS, Verdict
 from covariscope.data.loading import LoadedTable, load_table
 from covariscope.data.sample import CompleteCases
@@ -36,7 +37,14 @@ from covariscope.model.project import Project
 from covariscope.study.cache import StudyCache
 from covariscope.study.criteria import GraphCriteria, graph_criteria, proposal_review, structure_key
 from covariscope.study.decide import Decisions, Question, decide, set_names
-from covariscope.study.prepare import Run, prepare_design, read_bindings, sufficient_statistics
+from covariscope.study.prepare import (
+    DesignSpec,
+    Prepared,
+    Run,
+    prepare_design,
+    read_bindings,
+    sufficient_statistics,
+)
 from covariscope.study.result import ESTIMATE_KEYS, Progress, StudyResult
 from covariscope.study.source import DataSource, source_of
 from covariscope.vocabulary import DEFAULT_THRESHOLDS
@@ -127,11 +135,7 @@ def _data_stage(
         )
     design = prepared.design
     summary = sufficient_statistics(run, design, prepared.identity)
-    engine: EvidenceEngine = run.get(
-        "engine",
-        (design.key,),
-        lambda: EvidenceEngine(design, q.family, summary=summary, record=run.cache.record),
-    )
+    engine = _engine(run, prepared, summary)
     report(0.15, "Fitting the comparison models")
     plan = _plan(q, da, prepared.bound, messages)
     evidence = _evidence(run, engine, plan, q, report)
@@ -139,6 +143,23 @@ def _data_stage(
     if prepared.sample.message:
         messages.append(prepared.sample.message)
     return DataStage(prepared.sample, engine, evidence, (design.key, plan), tuple(messages))
+
+
+def _engine(run: Run, prepared: Prepared, summary: LinearSummary) -> EvidenceEngine:
+    """The design's engine; a new one takes over the fits of an earlier design's
+    engine for every model its changed covariates are not in."""
+    design, spec = prepared.design, prepared.spec
+
+    def build() -> tuple[DesignSpec, EvidenceEngine]:
+        engine = EvidenceEngine(design, spec.family, summary=summary, record=run.cache.record)
+        for _, (old_spec, old) in reversed(run.cache.entries("engine")):
+            if old_spec.shares_models_with(spec):
+                engine.adopt(old, spec.common_terms(old_spec))
+                break
+        return spec, engine
+
+    entry: tuple[DesignSpec, EvidenceEngine] = run.get("engine", (design.key,), build)
+    return entry[1]
 
 
 def _binding_key(project: Project, family: str) -> tuple[Any, ...]:

@@ -155,6 +155,32 @@ def read_bindings(
     return Bindings(True, x_col, tuple(cols.items()), tuple(bound), tuple(messages))
 
 
+@dataclass(frozen=True)
+class DesignSpec:
+    """What a design is built from; two designs that differ only in ``terms`` share their other models."""
+
+    rows: tuple[Any, ...]
+    family: str
+    exposure: str
+    exposure_spec: tuple[Any, ...]
+    outcome_spec: tuple[Any, ...]
+    terms: tuple[tuple[Any, ...], ...]
+
+    def shares_models_with(self, other: DesignSpec) -> bool:
+        """Same rows, family, exposure and outcome: fits of common terms carry over."""
+        return (self.rows, self.family, self.exposure, self.exposure_spec, self.outcome_spec) == (
+            other.rows,
+            other.family,
+            other.exposure,
+            other.exposure_spec,
+            other.outcome_spec,
+        )
+
+    def common_terms(self, other: DesignSpec) -> frozenset[str]:
+        """Covariates bound to the same column, type and reference level in both."""
+        return frozenset(t[0] for t in set(self.terms) & set(other.terms))
+
+
 @dataclass(frozen=True, eq=False)
 class Prepared:
     """The data stages' result: the sample, the design and which covariates it holds."""
@@ -165,6 +191,8 @@ class Prepared:
     messages: tuple[str, ...]
     #: (sample key, one name per design column: its column's spec and level)
     identity: tuple[Any, ...]
+    #: What the design was built from: rows, family, exposure and outcome specs, term specs
+    spec: DesignSpec
 
 
 def _profile(run: Run, source: DataSource, column: str, project: Project) -> ColumnProfile:
@@ -291,13 +319,37 @@ def prepare_design(
         dict.fromkeys([*outcome_cols, bindings.exposure_column, *(c for _, c in usable)])
     )
     sample = _sample(run, source, columns)
-    design = _design(run, source, sample, family, exposure, bindings, usable, profiles)
+    spec = _spec(source, sample, family, exposure, bindings, usable, profiles)
+    design = _design(run, source, sample, spec, bindings, usable, profiles)
     return Prepared(
         sample,
         design,
         tuple(n for n, _ in usable),
         tuple(messages),
         _identity(source, sample, design, bindings, usable, profiles),
+        spec,
+    )
+
+
+def _spec(
+    source: DataSource,
+    sample: CompleteCases,
+    family: str,
+    exposure: str,
+    bindings: Bindings,
+    usable: list[tuple[str, str]],
+    profiles: Mapping[str, ColumnProfile],
+) -> DesignSpec:
+    x_col = bindings.exposure_column
+    return DesignSpec(
+        rows=rows_key(source, sample),
+        family=family,
+        exposure=exposure,
+        exposure_spec=(x_col, *_spec_of(x_col, profiles[x_col])),
+        outcome_spec=tuple(
+            (k, c, profiles[c].type if c else None) for k, c in bindings.outcome_columns
+        ),
+        terms=tuple((node, col, *_spec_of(col, profiles[col])) for node, col in usable),
     )
 
 
@@ -326,18 +378,15 @@ def _design(
     run: Run,
     source: DataSource,
     sample: CompleteCases,
-    family: str,
-    exposure: str,
+    spec: DesignSpec,
     bindings: Bindings,
     usable: list[tuple[str, str]],
     profiles: Mapping[str, ColumnProfile],
 ) -> Design:
-    base = rows_key(source, sample)
-    x_col = bindings.exposure_column
-    x_spec = (x_col, *_spec_of(x_col, profiles[x_col]))
-    specs = tuple((node, col, *_spec_of(col, profiles[col])) for node, col in usable)
+    base = spec.rows
+    family, exposure = spec.family, spec.exposure
+    x_spec, specs, y_spec = spec.exposure_spec, spec.terms, spec.outcome_spec
     cols = bindings.outcomes
-    y_spec = tuple((k, c, profiles[c].type if c else None) for k, c in cols.items())
     key = (base, family, exposure, x_spec, specs, y_spec)
 
     def build() -> Design:
@@ -352,7 +401,8 @@ def _design(
             (base, family, y_spec),
             lambda: _outcomes(source, sample, family, cols, profiles),
         )
-        x_term = term(*x_spec, "exposure")
+        x_col, x_kind, x_ref = x_spec
+        x_term = term(x_col, x_kind, x_ref, "exposure")
         width = 1 + sum(_width(profiles[col]) for _, col in usable)
         builder = DesignBuilder(sample.used, width=width, outcome=outcomes.y is not None)
         builder.add_exposure(x_term)
