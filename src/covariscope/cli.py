@@ -49,6 +49,7 @@ def _parser() -> argparse.ArgumentParser:
     check.add_argument("--json", action="store_true", help="print the machine-readable result")
     check.add_argument("--data", help="data file to use instead of the one the project names")
     check.add_argument("--family", choices=FAMILY_CHOICES, help="model family")
+    _engine_arguments(check)
 
     report = sub.add_parser("report", help="write the one-page adjustment rationale as PDF")
     report.add_argument("project", help="project file (.json)")
@@ -59,6 +60,7 @@ def _parser() -> argparse.ArgumentParser:
     report.add_argument("--page", choices=("a4", "letter"), default="a4", help="paper size")
     report.add_argument("--data", help="data file to use instead of the one the project names")
     report.add_argument("--family", choices=FAMILY_CHOICES, help="model family")
+    _engine_arguments(report)
 
     export = sub.add_parser("export", help="write the diagram as GraphML (no display needed)")
     export.add_argument("project", help="project file (.json)")
@@ -70,6 +72,20 @@ def _parser() -> argparse.ArgumentParser:
         "--no-window", action="store_true", help="do not open the window; print the review"
     )
     return parser
+
+
+def _engine_arguments(command: argparse.ArgumentParser) -> None:
+    command.add_argument(
+        "--engine",
+        choices=("auto", "memory", "duckdb", "dask"),
+        help="how the data are read: in memory, where they lie (duckdb), or on a Dask cluster "
+        "(default: the project's setting; auto = in memory unless the file is too large)",
+    )
+    command.add_argument(
+        "--scheduler",
+        help="address of a Dask scheduler for --engine dask (e.g. tcp://host:8786; "
+        "default: a local cluster)",
+    )
 
 
 # -- helpers -------------------------------------------------------------------------
@@ -120,21 +136,26 @@ def write_demo(folder: Path) -> Path:
     return target
 
 
-def _load(project_path: str, data: str | None) -> tuple[Any, Any]:
-    from covariscope.data.loading import load_table
+def _run(args: argparse.Namespace) -> tuple[Any, Any]:
+    from covariscope.data.sources.choose import open_source
     from covariscope.model.project import load_project
-
-    project = load_project(project_path)
-    table = load_table(data) if data else None
-    return project, table
-
-
-def _run(project_path: str, data: str | None, family: str | None) -> tuple[Any, Any]:
-    project, table = _load(project_path, data)
-    project.diagram.require_question()
     from covariscope.study import run_study
 
-    result = run_study(project, table=table, family=family)
+    project = load_project(args.project)
+    project.diagram.require_question()
+    engine = args.engine or project.analysis.engine
+    scheduler = args.scheduler or project.analysis.scheduler
+    source = None
+    if args.data:
+        source = open_source(args.data, engine, scheduler=scheduler)
+    elif project.data is not None:
+        source = open_source(project.data.resolve(project.path), engine, scheduler=scheduler)
+    try:
+        result = run_study(project, source=source, family=args.family)
+    finally:
+        close = getattr(source, "close", None)
+        if close is not None:
+            close()
     return project, result
 
 
@@ -142,7 +163,7 @@ def _run(project_path: str, data: str | None, family: str | None) -> tuple[Any, 
 
 
 def _cmd_check(args: argparse.Namespace) -> int:
-    _, result = _run(args.project, args.data, args.family)
+    _, result = _run(args)
     from covariscope.views.check_json import study_to_json
     from covariscope.views.check_text import format_study_text
 
@@ -163,7 +184,6 @@ def _headless_qt() -> None:
 
 def _cmd_report(args: argparse.Namespace) -> int:
     _headless_qt()
-    from covariscope.data.loading import load_table
     from covariscope.model.files import check_output_path
     from covariscope.model.project import load_project
     from covariscope.report.painter import write_pdf
@@ -174,11 +194,7 @@ def _cmd_report(args: argparse.Namespace) -> int:
         ("the study's data file", Path(args.data) if args.data else project.data_path()),
     ]
     output = check_output_path(Path(args.output), reads, force=args.force)
-    table = load_table(args.data) if args.data else None
-    project.diagram.require_question()
-    from covariscope.study import run_study
-
-    result = run_study(project, table=table, family=args.family)
+    project, result = _run(args)
     path = write_pdf(result, project, output, page=args.page)
     print(f"Wrote the adjustment rationale to {path}")
     return 0
@@ -221,7 +237,11 @@ def _cmd_demo(args: argparse.Namespace) -> int:
         print("No display was found, so the window cannot open here; writing the review instead.")
     from covariscope.views.check_text import format_study_text
 
-    project, result = _run(str(project_path), None, None)
+    project, result = _run(
+        argparse.Namespace(
+            project=str(project_path), data=None, family=None, engine=None, scheduler=None
+        )
+    )
     print(format_study_text(result))
     try:
         _headless_qt()

@@ -42,7 +42,7 @@ def test_categorical_dummies_against_reference():
     np.testing.assert_array_equal(d.blocks["g"].values[:, 1], (f["grp"] == "c").to_numpy(float))
     np.testing.assert_array_equal(d.blocks["z"].values[:, 0], f["x"].to_numpy())
     np.testing.assert_array_equal(d.y, f["y"].to_numpy())
-    assert d.values.flags.f_contiguous  # filled column by column (issue 9)
+    assert d.values.flags.c_contiguous
     assert d.n == 20
 
 

@@ -145,7 +145,7 @@ def implied_claims(
 
     Raises
     ------
-    covariscope.model.errors.DiagramError
+    covariscope.errors.DiagramError
         As :func:`~covariscope.analysis.constructs.merge_diagram`.
 
     Examples

@@ -1,18 +1,16 @@
 """Numeric design of the comparison models, built once from the analytic sample.
 
 The design holds every column any comparison model may use, in one
-column-major float64 array (exposure, covariate columns in the order given,
-outcome last), filled one column at a time from the coded terms, so the
-linear summary reads it in a single pass and every model takes its columns
-as views.  A term is coded on its distinct values (factorized), never row by
-row.  Categorical terms become treatment
+C-contiguous float64 array (exposure, covariate columns in the order given,
+outcome last), so the linear summary reads it in a single pass and every
+model takes its columns as views.  Categorical terms become treatment
 (reference-level) dummies named ``"column[level]"``; binary terms are coded
 0/1 with the non-reference level as 1.
 """
 
 from __future__ import annotations
 
-import uuid
+import hashlib
 from collections.abc import Mapping
 from dataclasses import dataclass, field
 from typing import Any
@@ -21,6 +19,7 @@ import numpy as np
 import pandas as pd
 
 from covariscope.analysis.fits import FAMILIES
+from covariscope.analysis.rows import ColumnStats, RowReducer
 from covariscope.errors import DataError
 
 __all__ = [
@@ -30,12 +29,15 @@ __all__ = [
     "Design",
     "DesignBuilder",
     "Outcomes",
+    "TermCoding",
     "TermSpec",
     "check_exposure",
+    "code_column",
     "code_term",
     "constant_message",
     "make_design",
     "outcome_values",
+    "plan_term",
 ]
 
 #: Column types a term may have.
@@ -75,11 +77,9 @@ class Block:
 class Design:
     """Numbers for every comparison model of one analytic sample.
 
-    ``values`` is n × q (column-major): the exposure (column 0), the
-    covariate columns of each block in order, then the outcome when there is
-    one.  ``key`` names the design for caches: its builder makes it from what
-    the design was built from (the data's digest and the column
-    specifications), or a fresh unique value; the numbers are never hashed.
+    ``values`` is n × q: the exposure (column 0), the covariate columns of
+    each block in order, then the outcome when there is one.  ``key`` is a
+    digest of the numbers and the specification; results are cached by it.
     """
 
     family: str
@@ -97,6 +97,10 @@ class Design:
     column_names: tuple[str, ...] = field(default=())
     #: covariate nodes whose column(s) take one value in every row
     constant: tuple[str, ...] = ()
+    #: for a design whose rows stay with their source: the rows (``values`` is then
+    #: 0 × q and ``y`` None) and their column statistics
+    rows: RowReducer | None = None
+    row_stats: ColumnStats | None = None
 
     @property
     def exposure(self) -> np.ndarray:
@@ -116,15 +120,12 @@ def constant_message(node: str, column: str) -> str:
     )
 
 
-def _column(frame: pd.DataFrame | Mapping[str, pd.Series], column: str, what: str) -> pd.Series:
-    if column not in frame:
+def _numeric(frame: pd.DataFrame, column: str, what: str) -> np.ndarray:
+    if column not in frame.columns:
         raise DataError(
             f"Column {column!r} ({what}) is not in the analytic sample; bind an existing column."
         )
-    return frame[column]
-
-
-def _numeric(series: pd.Series, column: str, what: str) -> np.ndarray:
+    series = frame[column]
     if series.dtype == bool:
         series = series.astype(np.float64)
     values: np.ndarray = np.asarray(
@@ -140,6 +141,93 @@ def _numeric(series: pd.Series, column: str, what: str) -> np.ndarray:
     return values
 
 
+def _levels(values: Any, reference: Any, column: str) -> tuple[list[Any], Any]:
+    levels = sorted(pd.unique(values), key=lambda v: (str(type(v)), v))
+    if reference is None:
+        reference = levels[0]
+    elif reference not in levels:
+        # A reference given as text for a numeric column (or the reverse) still matches.
+        matches = [v for v in levels if str(v) == str(reference)]
+        if not matches:
+            raise DataError(
+                f"Reference level {reference!r} of column {column!r} does not occur in the "
+                f"analytic sample (levels: {', '.join(map(str, levels))}); choose one of these."
+            )
+        reference = matches[0]
+    return levels, reference
+
+
+@dataclass(frozen=True)
+class TermCoding:
+    """How one term's design columns are made from its (coerced) column.
+
+    ``levels`` is None for a numeric term (the column itself), empty for a
+    one-level term (a constant column of ones), else the non-reference
+    levels, one 0/1 column each.
+    """
+
+    column: str
+    names: tuple[str, ...]
+    levels: tuple[Any, ...] | None
+    what: str
+
+
+def plan_term(spec: TermSpec, uniques: Any, what: str) -> TermCoding:
+    """The coding of one term, given the distinct values of its column in the analytic sample.
+
+    The same rules whether the values are in memory or not (see :func:`make_design`).
+    """
+    if spec.type not in TERM_TYPES:
+        raise DataError(
+            f"Unknown column type {spec.type!r} for {spec.column!r}; use one of {', '.join(TERM_TYPES)}."
+        )
+    if spec.type in ("continuous", "count"):
+        return TermCoding(spec.column, (spec.column,), None, what)
+    levels, reference = _levels(uniques, spec.reference, spec.column)
+    if len(levels) < 2 and what != "exposure":
+        # One level: kept as a constant column, which the engine reports per model.
+        return TermCoding(spec.column, (spec.column,), (), what)
+    if len(levels) < 2:
+        raise DataError(
+            f"Column {spec.column!r} ({what}) has the same value in every row of the analytic "
+            "sample, so it carries no information; unbind it or choose another column."
+        )
+    if spec.type == "binary" and len(levels) > 2:
+        raise DataError(
+            f"Column {spec.column!r} ({what}) is declared binary but has {len(levels)} levels; "
+            "declare it categorical."
+        )
+    others = tuple(v for v in levels if v != reference)
+    if spec.type == "binary" and len(others) == 1:
+        return TermCoding(spec.column, (spec.column,), others, what)
+    return TermCoding(spec.column, tuple(f"{spec.column}[{v}]" for v in others), others, what)
+
+
+def code_term(frame: pd.DataFrame, coding: TermCoding) -> list[np.ndarray]:
+    """The design columns of one term on some rows, by its :class:`TermCoding`."""
+    if coding.levels is None:
+        return [_numeric(frame, coding.column, coding.what)]
+    if coding.column not in frame.columns:
+        raise DataError(
+            f"Column {coding.column!r} ({coding.what}) is not in the analytic sample; bind an existing column."
+        )
+    series = frame[coding.column]
+    if not coding.levels:
+        return [np.ones(len(series))]
+    return [(series == v).to_numpy(dtype=np.float64) for v in coding.levels]
+
+
+def _coded(frame: pd.DataFrame, spec: TermSpec, what: str) -> tuple[list[str], list[np.ndarray]]:
+    """Design columns of one term: names and vectors."""
+    if spec.type not in ("continuous", "count") and spec.column not in frame.columns:
+        raise DataError(
+            f"Column {spec.column!r} ({what}) is not in the analytic sample; bind an existing column."
+        )
+    uniques = frame[spec.column] if spec.type not in ("continuous", "count") else ()
+    coding = plan_term(spec, uniques, what)
+    return list(coding.names), code_term(frame, coding)
+
+
 @dataclass(frozen=True, eq=False)
 class CodedTerm:
     """The design columns of one term: their names and an n × k array."""
@@ -152,7 +240,7 @@ class CodedTerm:
         return int(self.values.nbytes)
 
 
-def _levels(uniques: list[Any], name: object, reference: Any) -> tuple[list[Any], Any]:
+def _sample_levels(uniques: list[Any], name: object, reference: Any) -> tuple[list[Any], Any]:
     levels = sorted(uniques, key=lambda v: (str(type(v)), v))
     if reference is None:
         reference = levels[0]
@@ -175,7 +263,7 @@ def _dummies(codes: np.ndarray, positions: list[int]) -> np.ndarray:
     return out
 
 
-def code_term(series: pd.Series, spec: TermSpec, what: str) -> CodedTerm:
+def code_column(series: pd.Series, spec: TermSpec, what: str) -> CodedTerm:
     """The design columns of one term, from the analytic sample's rows of its column.
 
     Levels are found by factorizing the column (one pass, no Python call
@@ -194,10 +282,10 @@ def code_term(series: pd.Series, spec: TermSpec, what: str) -> CodedTerm:
         )
     n = len(series)
     if spec.type in ("continuous", "count"):
-        return CodedTerm((spec.column,), _numeric(series, spec.column, what).reshape(n, 1))
+        return CodedTerm((spec.column,), _numeric_series(series, spec.column, what).reshape(n, 1))
     codes, uniques = pd.factorize(series, sort=False, use_na_sentinel=True)
     present = list(pd.Index(uniques).tolist())
-    levels, reference = _levels(present, series.name, spec.reference)
+    levels, reference = _sample_levels(present, series.name, spec.reference)
     if len(levels) < 2 and what != "exposure":
         # One level: kept as a constant column, which the engine reports per model.
         return CodedTerm((spec.column,), np.ones((n, 1)))
@@ -224,6 +312,19 @@ def _key(value: Any) -> tuple[str, Any]:
     return (str(type(value)), value)
 
 
+def _column(frame: pd.DataFrame | Mapping[str, pd.Series], column: str, what: str) -> pd.Series:
+    if column not in frame:
+        raise DataError(
+            f"Column {column!r} ({what}) is not in the analytic sample; bind an existing column."
+        )
+    return frame[column]
+
+
+def _numeric_series(series: pd.Series, column: str, what: str) -> np.ndarray:
+    """``_numeric`` on a column already taken out of its frame."""
+    return _numeric(pd.DataFrame({column: series}, copy=False), column, what)
+
+
 def _check_outcome(y: np.ndarray, family: str, column: str) -> None:
     if family == "logistic" and not np.isin(y, (0.0, 1.0)).all():
         bad = y[~np.isin(y, (0.0, 1.0))][0]
@@ -244,7 +345,7 @@ def _check_outcome(y: np.ndarray, family: str, column: str) -> None:
 
 
 def make_design(
-    frame: pd.DataFrame | Mapping[str, pd.Series],
+    frame: pd.DataFrame,
     *,
     exposure: TermSpec,
     covariates: Mapping[str, TermSpec],
@@ -289,22 +390,112 @@ def make_design(
     >>> d.blocks["z"].columns
     ('z[b]', 'z[c]')
     """
+    if family not in FAMILIES:
+        raise DataError(f"Unknown model family {family!r}; use one of {', '.join(FAMILIES)}.")
     exposure_node = exposure_node or exposure.column
-    x_term = code_term(_column(frame, exposure.column, "exposure"), exposure, "exposure")
-    terms = {
-        node: code_term(_column(frame, spec.column, f"covariate {node}"), spec, f"covariate {node}")
-        for node, spec in covariates.items()
+    n = len(frame)
+    names, vectors = _coded(frame, exposure, "exposure")
+    if len(vectors) > 1:
+        raise DataError(
+            f"The exposure {exposure.column!r} has {len(vectors) + 1} levels; Covariscope compares "
+            "one contrast at a time. Recode it to two levels or a numeric dose."
+        )
+    exposure_name = names[0]
+    all_names = [exposure_name]
+    all_vectors = list(vectors)
+    spans: dict[str, tuple[list[str], tuple[int, ...]]] = {}
+    for node, spec in covariates.items():
+        cnames, cvecs = _coded(frame, spec, f"covariate {node}")
+        start = len(all_vectors)
+        all_names += cnames
+        all_vectors += cvecs
+        spans[node] = (cnames, tuple(range(start, start + len(cvecs))))
+    if n > 0 and np.all(all_vectors[0] == all_vectors[0][0]):
+        raise DataError(
+            f"The exposure column {exposure_name!r} has the same value in every row of the "
+            "analytic sample, so no effect of it can be estimated; bind another column."
+        )
+    # A constant covariate fails only the models that hold it (DESIGN §2: the rest still run).
+    constant = tuple(
+        node
+        for node, (_, idx) in spans.items()
+        if n > 0 and any(np.all(all_vectors[j] == all_vectors[j][0]) for j in idx)
+    )
+    messages = tuple(
+        f"{constant_message(node, covariates[node].column)} The models that hold it are not fitted."
+        for node in constant
+    )
+
+    y = None
+    if family != "cox":
+        if outcome is None:
+            raise DataError(f"The {family} family needs an outcome column; bind the outcome node.")
+        y = _numeric(frame, outcome, "outcome")
+        if n > 0:
+            _check_outcome(y, family, outcome)
+    time_v = event_v = offset_v = None
+    if family == "cox":
+        if time is None or event is None:
+            raise DataError("The Cox family needs a time column and an event column; choose both.")
+        time_v = _numeric(frame, time, "survival time")
+        if (time_v <= 0).any():
+            raise DataError(
+                f"Survival times must be positive, but {time!r} has "
+                f"{int((time_v <= 0).sum())} zero or negative values; correct them or drop those rows."
+            )
+        event_v = _numeric(frame, event, "event indicator")
+        if not np.isin(event_v, (0.0, 1.0)).all():
+            raise DataError(
+                f"The event indicator {event!r} must be coded 0/1 (1 = event); recode it."
+            )
+        if not event_v.any():
+            raise DataError(
+                f"The event indicator {event!r} records no events; a hazard ratio cannot be estimated."
+            )
+    if offset is not None:
+        offset_v = _numeric(frame, offset, "offset")
+
+    # Only the crude model must fit; larger models with too few rows are
+    # reported one by one by the engine, and the rest still run.
+    n_params = 1 + (0 if family == "cox" else 1)
+    if n <= n_params:
+        raise DataError(
+            f"The analytic sample has {n} rows, too few even for the crude model "
+            f"({n_params} parameters); at least {n_params + 1} rows are needed. Load more data "
+            "or bind columns with fewer missing values."
+        )
+
+    q = len(all_vectors) + (1 if y is not None else 0)
+    values = np.empty((n, q), dtype=np.float64)
+    for j, vec in enumerate(all_vectors):
+        values[:, j] = vec
+    del all_vectors
+    if y is not None:
+        values[:, -1] = y
+    blocks = {
+        node: Block(node, tuple(cn), values[:, idx[0] : idx[-1] + 1], idx)
+        for node, (cn, idx) in spans.items()
     }
-    check_exposure(x_term)
-    names = {"outcome": outcome, "time": time, "event": event, "offset": offset}
-    outcomes = outcome_values(frame, family, names)
-    width = 1 + sum(len(t.names) for t in terms.values())
-    builder = DesignBuilder(len(x_term.values), width=width, outcome=outcomes.y is not None)
-    builder.add_exposure(x_term)
-    for node, term in terms.items():
-        builder.add(node, covariates[node].column, term)
-    return builder.build(
-        family=family, exposure_node=exposure_node, outcomes=outcomes, key=uuid.uuid4().hex
+    digest = hashlib.sha256(values.data.cast("B"))
+    digest.update(repr((family, exposure_node, all_names, list(covariates), outcome)).encode())
+    for extra in (time_v, event_v, offset_v):
+        if extra is not None:
+            digest.update(np.ascontiguousarray(extra).data.cast("B"))
+    return Design(
+        family=family,
+        exposure_node=exposure_node,
+        exposure_name=exposure_name,
+        values=values,
+        blocks=blocks,
+        y=values[:, -1] if y is not None else None,
+        offset=offset_v,
+        time=time_v,
+        event=event_v,
+        n=n,
+        key=digest.hexdigest(),
+        messages=messages,
+        column_names=tuple(all_names),
+        constant=constant,
     )
 
 
@@ -342,19 +533,21 @@ def outcome_values(
     if family != "cox":
         if outcome is None:
             raise DataError(f"The {family} family needs an outcome column; bind the outcome node.")
-        y = _numeric(_column(frame, outcome, "outcome"), outcome, "outcome")
+        y = _numeric_series(_column(frame, outcome, "outcome"), outcome, "outcome")
         if len(y) > 0:
             _check_outcome(y, family, outcome)
     if family == "cox":
         if time is None or event is None:
             raise DataError("The Cox family needs a time column and an event column; choose both.")
-        time_v = _numeric(_column(frame, time, "survival time"), time, "survival time")
+        time_v = _numeric_series(_column(frame, time, "survival time"), time, "survival time")
         if (time_v <= 0).any():
             raise DataError(
                 f"Survival times must be positive, but {time!r} has "
                 f"{int((time_v <= 0).sum())} zero or negative values; correct them or drop those rows."
             )
-        event_v = _numeric(_column(frame, event, "event indicator"), event, "event indicator")
+        event_v = _numeric_series(
+            _column(frame, event, "event indicator"), event, "event indicator"
+        )
         if not np.isin(event_v, (0.0, 1.0)).all():
             raise DataError(
                 f"The event indicator {event!r} must be coded 0/1 (1 = event); recode it."
@@ -364,7 +557,7 @@ def outcome_values(
                 f"The event indicator {event!r} records no events; a hazard ratio cannot be estimated."
             )
     if offset is not None:
-        offset_v = _numeric(_column(frame, offset, "offset"), offset, "offset")
+        offset_v = _numeric_series(_column(frame, offset, "offset"), offset, "offset")
     return Outcomes(y, time_v, event_v, offset_v)
 
 

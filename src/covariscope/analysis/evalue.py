@@ -211,10 +211,15 @@ def evalue_for_fit(
                 share = float(np.mean(design.event))
             elif design.y is not None:
                 share = float(np.mean(design.y > 0))
+            elif design.row_stats is not None and design.n > 0:
+                share = design.row_stats.outcome_positive / design.n
             common = share is not None and share >= COMMON_OUTCOME_PREVALENCE
             return evalue_for_estimate(ratio, ratio_ci, measure, common_outcome=common), None
         if fit.family == "linear" and design.y is not None and len(design.y) > 1:
             sd = float(np.std(design.y, ddof=1))
+            return evalue_for_estimate(fit.coef, fit.ci, "mean difference", outcome_sd=sd), None
+        if fit.family == "linear" and design.row_stats is not None and design.n > 1:
+            sd = math.sqrt(float(design.row_stats.summary.comoment[-1, -1]) / (design.n - 1))
             return evalue_for_estimate(fit.coef, fit.ci, "mean difference", outcome_sd=sd), None
     except (ValueError, ZeroDivisionError, OverflowError) as exc:
         return None, f"The E-value could not be computed: {exc}."

@@ -149,6 +149,8 @@ class EvidenceEngine:
     @property
     def summary(self) -> LinearSummary:
         """Means and co-moments of [exposure | covariate columns | outcome], one pass."""
+        if self.design.row_stats is not None:
+            return self.design.row_stats.summary
         with self._lock:
             if self._summary is None:
                 self._summary = linear_summary(self.design.values)
@@ -267,6 +269,8 @@ class EvidenceEngine:
         if self.family == "linear":
             return self._fit_linear(terms, names), None
         start = self._warm_start(terms, names, intercept)
+        if self.design.rows is not None:
+            return self._fit_rows(terms, cols, names, start)
         try:
             if intercept:
                 fit, path = self._fit_glm(terms, cols, names, start, on_pass)
@@ -354,9 +358,52 @@ class EvidenceEngine:
         """Largest |value| of each column of the intercept matrix (the stopping rule's scale)."""
         if self._reach_cache is None:
             q = self.design.n_design_columns
-            absmax = np.max(np.abs(self.design.values[:, :q]), axis=0)
+            stats = self.design.row_stats
+            if stats is not None:
+                absmax = np.maximum(np.abs(stats.low), np.abs(stats.high))[:q]
+            else:
+                absmax = np.max(np.abs(self.design.values[:, :q]), axis=0)
             self._reach_cache = np.concatenate([[1.0], absmax])
         return self._reach_cache
+
+    def _fit_rows(
+        self, terms: tuple[str, ...], cols: list[int], names: list[str], start: np.ndarray | None
+    ) -> tuple[Fit, np.ndarray | None]:
+        """A logistic or Poisson fit from row sums (the rows stay with their source)."""
+        from covariscope.analysis.glm_rows import RowOutcome, fit_glm_rows
+
+        rows, stats = self.design.rows, self.design.row_stats
+        assert rows is not None
+        assert stats is not None
+        if self.family not in ("logistic", "risk_ratio"):
+            return Fit.failed(
+                self.family, terms, self.design.n, "This family needs the rows in memory."
+            ), None
+        outcome = RowOutcome(
+            mean=float(stats.summary.mean[-1]),
+            offset_exp_sum=stats.offset_exp_sum,
+            n=self.design.n,
+            binary=stats.outcome_not_binary == 0,
+        )
+        try:
+            fit, params, cov = fit_glm_rows(
+                rows,
+                tuple(cols),
+                self.family,
+                outcome=outcome,
+                column_names=["(intercept)", *names],
+                terms=terms,
+                scale=np.concatenate([[0.0], self._column_sd()[cols]]),
+                reach=self._reach()[[0, *(c + 1 for c in cols)]],
+                start=start,
+            )
+        except (ArithmeticError, ValueError, np.linalg.LinAlgError) as exc:
+            return Fit.failed(
+                self.family, terms, self.design.n, f"The model could not be fitted: {exc}"
+            ), None
+        if cov is not None and fit.ok and fit.converged:
+            self._glm_cov[frozenset(terms)] = cov
+        return fit, params
 
     def _intercept_matrix(self) -> np.ndarray:
         """[1 | design columns] in Fortran order, built once: every model reads
@@ -442,7 +489,15 @@ class EvidenceEngine:
         hit = self._glm_step.get(parent)
         if hit is not None:
             return hit
-        if self.family == "cox":
+        if self.design.rows is not None:
+            from covariscope.analysis.rows import glm_pass
+
+            b = np.zeros(self.design.n_design_columns + 1)
+            b[[0, *(c + 1 for c in parent_cols)]] = parent_params
+            every = tuple(range(self.design.n_design_columns))
+            sums = glm_pass(self.design.rows, every, b, self.family)
+            hit = (sums.information, sums.score)
+        elif self.family == "cox":
             sample = self._cox_sample()
             b = np.zeros(sample.X.shape[1])
             b[parent_cols] = parent_params

@@ -17,7 +17,15 @@ import pandas as pd
 
 from covariscope.errors import DataError
 
-__all__ = ["AnalyticSample", "CompleteCases", "analytic_sample", "complete_cases"]
+__all__ = [
+    "AnalyticSample",
+    "CompleteCases",
+    "analytic_sample",
+    "check_known",
+    "complete_cases",
+    "no_rows_error",
+    "summary_text",
+]
 
 
 @dataclass(frozen=True, eq=False)
@@ -76,7 +84,7 @@ def complete_cases(missing: Mapping[str, np.ndarray], rows: int) -> CompleteCase
     chosen = tuple(missing)
     if not chosen:
         return CompleteCases(
-            np.ones(rows, dtype=bool), rows, rows, chosen, message=_summary(rows, rows)
+            np.ones(rows, dtype=bool), rows, rows, chosen, message=summary_text(rows, rows)
         )
     per_row = np.zeros(rows, dtype=np.int32)
     for mask in missing.values():
@@ -88,7 +96,7 @@ def complete_cases(missing: Mapping[str, np.ndarray], rows: int) -> CompleteCase
     lost_to_several = int(np.count_nonzero(per_row > 1))
     used = int(np.count_nonzero(keep))
     if used == 0:
-        raise _no_rows_error(rows, missing_by_column)
+        raise no_rows_error(rows, missing_by_column)
     return CompleteCases(
         keep=keep,
         rows=rows,
@@ -97,7 +105,7 @@ def complete_cases(missing: Mapping[str, np.ndarray], rows: int) -> CompleteCase
         missing_by_column=missing_by_column,
         lost_by_column=lost_by_column,
         lost_to_several=lost_to_several,
-        message=_summary(rows, used, lost_by_column, lost_to_several, len(chosen)),
+        message=summary_text(rows, used, lost_by_column, lost_to_several, len(chosen)),
     )
 
 
@@ -127,6 +135,10 @@ class AnalyticSample:
         ``lost_by_column`` it adds up to ``rows - used``.
     message : str
         A plain summary for the user.
+    frame_is_sample : bool
+        True when ``frame`` holds a random sample of the complete rows, not all
+        of them (a source that reads the file where it lies); the counts above
+        are still exact.
     """
 
     frame: pd.DataFrame
@@ -137,11 +149,16 @@ class AnalyticSample:
     lost_by_column: dict[str, int] = field(default_factory=dict)
     lost_to_several: int = 0
     message: str = ""
+    frame_is_sample: bool = False
 
     @property
     def dropped(self) -> int:
         """Rows left out."""
         return self.rows - self.used
+
+    def rows_of(self, frame: pd.DataFrame) -> pd.DataFrame:
+        """The sample's rows (``frame`` is not needed: they are held here)."""
+        return self.frame
 
 
 def analytic_sample(frame: pd.DataFrame, columns: Sequence[str]) -> AnalyticSample:
@@ -169,25 +186,37 @@ def analytic_sample(frame: pd.DataFrame, columns: Sequence[str]) -> AnalyticSamp
     (4, 2, {'y': 1, 'x': 1}, {'y': 1, 'x': 1})
     """
     chosen = tuple(dict.fromkeys(str(c) for c in columns))
-    _check_known(frame, chosen)
+    check_known([str(c) for c in frame.columns], chosen)
     rows = len(frame)
     if not chosen:
-        return AnalyticSample(frame.iloc[:, :0], rows, rows, chosen, message=_summary(rows, rows))
-    cc = complete_cases({c: frame[c].isna().to_numpy() for c in chosen}, rows)
+        return AnalyticSample(
+            frame.iloc[:, :0], rows, rows, chosen, message=summary_text(rows, rows)
+        )
+    missing = frame.loc[:, list(chosen)].isna().to_numpy()
+    per_row = missing.sum(axis=1)
+    keep = per_row == 0
+    missing_by_column = {c: int(n) for c, n in zip(chosen, missing.sum(axis=0), strict=True)}
+    alone = missing[per_row == 1].sum(axis=0)
+    lost_by_column = {c: int(n) for c, n in zip(chosen, alone, strict=True)}
+    lost_to_several = int(np.count_nonzero(per_row > 1))
+    used = int(np.count_nonzero(keep))
+    if used == 0:
+        raise no_rows_error(rows, missing_by_column)
+    message = summary_text(rows, used, lost_by_column, lost_to_several, len(chosen))
     return AnalyticSample(
-        frame=cc.rows_of(frame),
+        frame=frame.loc[keep, list(chosen)],
         rows=rows,
-        used=cc.used,
+        used=used,
         columns=chosen,
-        missing_by_column=cc.missing_by_column,
-        lost_by_column=cc.lost_by_column,
-        lost_to_several=cc.lost_to_several,
-        message=cc.message,
+        missing_by_column=missing_by_column,
+        lost_by_column=lost_by_column,
+        lost_to_several=lost_to_several,
+        message=message,
     )
 
 
-def _check_known(frame: pd.DataFrame, chosen: tuple[str, ...]) -> None:
-    names = [str(c) for c in frame.columns]
+def check_known(names: Sequence[str], chosen: Sequence[str]) -> None:
+    """Raise :class:`DataError` naming the chosen columns that are not in ``names``."""
     unknown = [c for c in chosen if c not in names]
     if not unknown:
         return
@@ -201,7 +230,8 @@ def _check_known(frame: pd.DataFrame, chosen: tuple[str, ...]) -> None:
     )
 
 
-def _no_rows_error(rows: int, missing_by_column: dict[str, int]) -> DataError:
+def no_rows_error(rows: int, missing_by_column: dict[str, int]) -> DataError:
+    """The plain message for an analytic sample without rows."""
     if rows == 0:
         return DataError("The data have no rows, so there is no analytic sample. Load a data file.")
     empty = [c for c, n in missing_by_column.items() if n == rows]
@@ -219,13 +249,14 @@ def _no_rows_error(rows: int, missing_by_column: dict[str, int]) -> DataError:
     )
 
 
-def _summary(
+def summary_text(
     rows: int,
     used: int,
     lost: dict[str, int] | None = None,
     several: int = 0,
     count: int = 0,
 ) -> str:
+    """The plain summary of an analytic sample: rows used, dropped, and why."""
     if used == rows:
         return f"All {rows:,} rows are complete and used."
     dropped = rows - used

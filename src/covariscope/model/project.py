@@ -10,7 +10,8 @@ Schema (``"format": "covariscope-project"``, ``"version": 1``)::
                   "thresholds": {"change_pct", "se_inflation_pct", "vif", "r2", "condition_index"},
                   "column_types": {column: type}, "reference_levels": {column: level},
                   "family_columns": {family: {"outcome"|"time"|"event"|"offset": column}},
-                  "keep_choices": {"a|b": member}}}
+                  "keep_choices": {"a|b": member},
+                  "engine": "auto"|"memory"|"duckdb"|"dask", "scheduler": "tcp://host:8786"}}
 
 ``data`` and ``analysis`` are optional.  Loading validates everything and
 reports every problem with where it is; saving is atomic.
@@ -33,6 +34,7 @@ from covariscope.model.diagram import KINDS, Diagram, Node
 from covariscope.vocabulary import DEFAULT_THRESHOLDS, Family
 
 __all__ = [
+    "ENGINE_CHOICES",
     "FORMAT",
     "FORMAT_VERSION",
     "AnalysisSettings",
@@ -75,6 +77,14 @@ class AnalysisSettings:
     reference_levels: dict[str, Any] = field(default_factory=dict)
     family_columns: dict[str, dict[str, str]] = field(default_factory=dict)
     keep_choices: dict[str, str] = field(default_factory=dict)
+    #: how the data are read: "auto" (in memory unless the file is too large), "memory",
+    #: "duckdb" or "dask"; ``scheduler`` is the Dask cluster's address ("" = a local one)
+    engine: str = "auto"
+    scheduler: str = ""
+
+
+#: The values of ``analysis.engine``.
+ENGINE_CHOICES = ("auto", "memory", "duckdb", "dask")
 
 
 @dataclass(frozen=True)
@@ -379,6 +389,17 @@ def _read_analysis(raw: Any, diagram: Diagram, problems: _Problems) -> AnalysisS
                 elif _expect(problems, f"{where}.{role}", col, (str,), "a column name"):
                     clean[role] = col
             settings.family_columns[fam] = clean
+    engine = raw.get("engine", "auto")
+    if _expect(problems, "analysis.engine", engine, (str,), "text"):
+        if engine in ENGINE_CHOICES:
+            settings.engine = engine
+        else:
+            problems.add("analysis.engine", f'"{engine}" is not one of {", ".join(ENGINE_CHOICES)}')
+    scheduler = raw.get("scheduler", "")
+    if _expect(
+        problems, "analysis.scheduler", scheduler, (str,), "an address such as tcp://host:8786"
+    ):
+        settings.scheduler = scheduler
     return settings
 
 
@@ -425,6 +446,10 @@ def project_to_dict(project: Project) -> dict[str, Any]:
         "family_columns": {k: dict(v) for k, v in a.family_columns.items()},
         "keep_choices": dict(a.keep_choices),
     }
+    if a.engine != "auto":
+        out["analysis"]["engine"] = a.engine
+    if a.scheduler:
+        out["analysis"]["scheduler"] = a.scheduler
     return out
 
 

@@ -30,8 +30,11 @@ from covariscope.analysis.fits import effect_measure
 from covariscope.analysis.graph import DiagramAnalysis
 from covariscope.analysis.linear import LinearSummary
 from covariscope.analysis.verdicts import LABELS, VERDICTS, Verdict
-from covariscope.data.loading import LoadedTable, load_table
-from covariscope.data.sample import CompleteCases
+from covariscope.data.loading import LoadedTable
+from covariscope.data.sample import AnalyticSample, CompleteCases
+from covariscope.data.sources.base import DataSource
+from covariscope.data.sources.choose import open_source
+from covariscope.data.sources.memory import MemorySource
 from covariscope.errors import DataError
 from covariscope.model.project import Project
 from covariscope.study.cache import StudyCache
@@ -46,7 +49,8 @@ from covariscope.study.prepare import (
     sufficient_statistics,
 )
 from covariscope.study.result import ESTIMATE_KEYS, Progress, StudyResult
-from covariscope.study.source import DataSource, source_of
+from covariscope.study.source import ColumnSource, source_of
+from covariscope.study.whole_source import prepare_evidence
 from covariscope.vocabulary import DEFAULT_THRESHOLDS
 
 __all__ = [
@@ -89,17 +93,46 @@ def question(project: Project, family: str | None) -> Question:
 class DataStage:
     """The data's side of a study: sample, engine and evidence, or why there are none."""
 
-    sample: CompleteCases | None
+    sample: CompleteCases | AnalyticSample | None
     engine: EvidenceEngine | None
     evidence: EvidenceTable | None
     key: Any
     messages: tuple[str, ...]
 
 
-def _table(project: Project, table: LoadedTable | DataSource | None) -> DataSource | None:
-    if table is None and project.data is not None:
-        table = load_table(project.data.resolve(project.path))
-    return None if table is None else source_of(table)
+@dataclass(frozen=True, eq=False)
+class Origin:
+    """Where the data come from: a table in memory (read column by column,
+    incrementally) or a source that keeps its rows (read whole, per stage)."""
+
+    columns: ColumnSource | None
+    whole: DataSource | None
+    name: str
+    digest: str
+    notes: tuple[str, ...] = ()
+
+
+def data_origin(
+    project: Project,
+    table: LoadedTable | ColumnSource | None,
+    source: DataSource | None,
+) -> Origin | None:
+    """The first stage: the data source a run reads, or None when there are no data."""
+    if source is None and table is None and project.data is not None:
+        source = open_source(
+            project.data.resolve(project.path),
+            project.analysis.engine,
+            scheduler=project.analysis.scheduler,
+        )
+    if isinstance(source, MemorySource):
+        table = source.table
+    elif source is not None:
+        return Origin(None, source, source.path.name, source.sha256, tuple(source.notes))
+    if table is None:
+        return None
+    notes = tuple(source.notes) if source is not None else ()
+    columns = source_of(table)
+    return Origin(columns, None, columns.name, columns.digest, notes)
 
 
 def _data_stage(
@@ -107,7 +140,7 @@ def _data_stage(
     project: Project,
     q: Question,
     da: DiagramAnalysis,
-    source: DataSource,
+    source: ColumnSource,
     report: Progress,
 ) -> DataStage:
     messages: list[str] = []
@@ -125,14 +158,7 @@ def _data_stage(
         messages.append(f"{exc} Only the diagram is analysed.")
         return DataStage(None, None, None, None, tuple(messages))
     messages.extend(prepared.messages)
-    columns = project.analysis.family_columns.get(q.family, {})
-    if columns:
-        # The outcome node may be bound to another column than this family reads.
-        shown = ", ".join(f"{k} {v!r}" for k, v in sorted(columns.items()))
-        messages.append(
-            f"The {q.family} model of {dict(q.names)[q.outcome]} reads the column(s) {shown} "
-            "(set per family in the project's analysis settings)."
-        )
+    _family_columns_message(project, q, messages)
     design = prepared.design
     summary = sufficient_statistics(run, design, prepared.identity)
     engine = _engine(run, prepared, summary)
@@ -231,7 +257,8 @@ def _evidence(
 def run_study(
     project: Project,
     *,
-    table: LoadedTable | DataSource | None = None,
+    table: LoadedTable | ColumnSource | None = None,
+    source: DataSource | None = None,
     family: str | None = None,
     progress: Progress | None = None,
     cancel: Callable[[], bool] | None = None,
@@ -242,8 +269,11 @@ def run_study(
     Parameters
     ----------
     project : Project
-    table : LoadedTable or DataSource, optional
-        Data to use; default: the project's data file when it names one.
+    table : LoadedTable or ColumnSource, optional
+        Data to use, in memory; default: the project's data file when it names one.
+    source : DataSource, optional
+        Data to use through another engine (see :mod:`covariscope.data.sources`);
+        wins over ``table``.
     family : str, optional
         Model family; default: the project's.
     progress : callable(fraction, text), optional
@@ -294,15 +324,15 @@ def run_study(
     da = criteria.with_review(review)
     if table is None and project.data is not None:
         report(0.05, "Loading the data")
-    source = _table(project, table)
-    data = _data_or_none(run, project, q, da, source, report)
+    origin = data_origin(project, table, source)
+    data = _data_or_none(run, project, q, da, origin, report)
     decisions: Decisions = run.get(
         "verdicts",
         (criteria.key, q, data.key),
         lambda: decide(q, criteria.graph, da, data.evidence, data.engine),
     )
     report(1.0, "Done")
-    result = _result(q, da, data, decisions, source, project, run)
+    result = _result(q, da, data, decisions, origin, project, run)
     return replace(
         result,
         models_fitted=run.cache.count("fit").misses - fits_before,
@@ -315,10 +345,10 @@ def _data_or_none(
     project: Project,
     q: Question,
     da: DiagramAnalysis,
-    source: DataSource | None,
+    origin: Origin | None,
     report: Progress,
 ) -> DataStage:
-    if source is None:
+    if origin is None:
         return DataStage(
             None,
             None,
@@ -329,7 +359,68 @@ def _data_or_none(
                 "load the study data to see how each covariate moves the estimate.",
             ),
         )
-    return _data_stage(run, project, q, da, source, report)
+    if origin.whole is not None:
+        return _whole_stage(run, project, q, da, origin.whole, report)
+    assert origin.columns is not None
+    return _data_stage(run, project, q, da, origin.columns, report)
+
+
+def _whole_stage(
+    run: Run,
+    project: Project,
+    q: Question,
+    da: DiagramAnalysis,
+    source: DataSource,
+    report: Progress,
+) -> DataStage:
+    """The data stages on a source that keeps its rows: one cached stage for
+    profiles, sample and design, keyed by what they read."""
+    a = project.analysis
+    key = (
+        source.sha256,
+        source.engine,
+        q.family,
+        q.exposure,
+        q.outcome,
+        _binding_key(project, q.family),
+        tuple(sorted(a.column_types.items())),
+        tuple(sorted((k, repr(v)) for k, v in a.reference_levels.items())),
+    )
+
+    def prepare() -> tuple[Any, EvidenceEngine | None, list[str], tuple[str, ...]]:
+        messages: list[str] = []
+        try:
+            sample, engine, bound = prepare_evidence(
+                project, source, q.family, q.exposure, q.outcome, da, messages
+            )
+        except DataError as exc:
+            messages.append(f"{exc} Only the diagram is analysed.")
+            return None, None, [], tuple(messages)
+        return sample, engine, bound, tuple(messages)
+
+    sample, engine, bound, prepared_messages = run.get("source", key, prepare)
+    messages = list(prepared_messages)
+    if engine is None:
+        return DataStage(None, None, None, None, tuple(messages))
+    _family_columns_message(project, q, messages)
+    report(0.15, "Fitting the comparison models")
+    plan = _plan(q, da, bound, messages)
+    evidence = _evidence(run, engine, plan, q, report)
+    messages.extend(evidence.warnings)
+    if sample is not None and sample.message:
+        messages.append(sample.message)
+    return DataStage(sample, engine, evidence, (engine.design.key, plan), tuple(messages))
+
+
+def _family_columns_message(project: Project, q: Question, messages: list[str]) -> None:
+    columns = project.analysis.family_columns.get(q.family, {})
+    if columns:
+        # The outcome node may be bound to another column than this family reads.
+        shown = ", ".join(f"{k} {v!r}" for k, v in sorted(columns.items()))
+        messages.append(
+            f"The {q.family} model of {dict(q.names)[q.outcome]} reads the column(s) {shown} "
+            "(set per family in the project's analysis settings)."
+        )
 
 
 def _result(
@@ -337,15 +428,17 @@ def _result(
     da: DiagramAnalysis,
     data: DataStage,
     decisions: Decisions,
-    source: DataSource | None,
+    origin: Origin | None,
     project: Project,
     run: Run,
 ) -> StudyResult:
     messages: list[str] = []
     stored = project.data.sha256 if project.data is not None else None
-    if source is not None and stored and source.digest != stored:
+    if origin is not None:
+        messages.extend(origin.notes)
+    if origin is not None and stored and origin.digest != stored:
         messages.append(
-            f"The data file {source.name} has changed since it was bound to this project "
+            f"The data file {origin.name} has changed since it was bound to this project "
             "(its SHA-256 differs); check that it is the intended file."
         )
     messages += [*data.messages, *decisions.messages, CAUTION]
@@ -366,8 +459,8 @@ def _result(
         thresholds=q.threshold,
         disagreements=decisions.disagreements,
         messages=tuple(dict.fromkeys(messages)),
-        data_name=source.name if source is not None else None,
-        data_sha256=source.digest if source is not None else None,
+        data_name=origin.name if origin is not None else None,
+        data_sha256=origin.digest if origin is not None else None,
         recommended_reason=decisions.recommended_reason,
         names=dict(q.names),
         recomputed=tuple(dict.fromkeys(run.trace)),

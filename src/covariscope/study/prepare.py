@@ -25,7 +25,7 @@ from covariscope.analysis.design import (
     DesignBuilder,
     Outcomes,
     TermSpec,
-    code_term,
+    code_column,
     outcome_values,
 )
 from covariscope.analysis.evidence import EvidenceCancelledError
@@ -35,7 +35,7 @@ from covariscope.data.profile import ColumnProfile, profile_column
 from covariscope.data.sample import CompleteCases, complete_cases
 from covariscope.model.project import Project
 from covariscope.study.cache import StudyCache
-from covariscope.study.source import DataSource
+from covariscope.study.source import ColumnSource
 
 __all__ = [
     "Bindings",
@@ -109,7 +109,7 @@ def _not_ready(messages: list[str]) -> Bindings:
 
 
 def read_bindings(
-    project: Project, family: str, exposure: str, outcome: str, source: DataSource
+    project: Project, family: str, exposure: str, outcome: str, source: ColumnSource
 ) -> Bindings:
     """The bound columns of a project for a family, with plain messages for what is missing."""
     diagram = project.diagram
@@ -195,7 +195,7 @@ class Prepared:
     spec: DesignSpec
 
 
-def _profile(run: Run, source: DataSource, column: str, project: Project) -> ColumnProfile:
+def _profile(run: Run, source: ColumnSource, column: str, project: Project) -> ColumnProfile:
     kind = project.analysis.column_types.get(column)
     ref = project.analysis.reference_levels.get(column)
     key = (source.digest, column, kind, _hashable(ref))
@@ -215,7 +215,7 @@ def _hashable(value: Any) -> Any:
     return value
 
 
-def _sample(run: Run, source: DataSource, columns: tuple[str, ...]) -> CompleteCases:
+def _sample(run: Run, source: ColumnSource, columns: tuple[str, ...]) -> CompleteCases:
     masks = {c: _missing(run, source, c) for c in columns}
     sample: CompleteCases = run.get(
         "sample", (source.digest, columns), lambda: complete_cases(masks, source.rows)
@@ -223,12 +223,12 @@ def _sample(run: Run, source: DataSource, columns: tuple[str, ...]) -> CompleteC
     return sample
 
 
-def _missing(run: Run, source: DataSource, column: str) -> np.ndarray:
+def _missing(run: Run, source: ColumnSource, column: str) -> np.ndarray:
     mask: np.ndarray = run.get("missing", (source.digest, column), lambda: source.missing(column))
     return mask
 
 
-def rows_key(source: DataSource, sample: CompleteCases) -> tuple[Any, ...]:
+def rows_key(source: ColumnSource, sample: CompleteCases) -> tuple[Any, ...]:
     """Names the sample's rows: the data and the chosen columns that miss any value.
 
     Columns without a missing value drop no row, so binding one keeps the
@@ -237,7 +237,7 @@ def rows_key(source: DataSource, sample: CompleteCases) -> tuple[Any, ...]:
     return (source.digest, tuple(sorted(c for c, n in sample.missing_by_column.items() if n)))
 
 
-def _rows(source: DataSource, sample: CompleteCases, column: str) -> pd.Series:
+def _rows(source: ColumnSource, sample: CompleteCases, column: str) -> pd.Series:
     series = source.column(column)
     return series if sample.complete else series[sample.keep]
 
@@ -247,19 +247,19 @@ def _spec_of(column: str, profile: ColumnProfile) -> tuple[str, Any]:
 
 
 def _code(
-    source: DataSource, sample: CompleteCases, column: str, kind: str, ref: Any, what: str
+    source: ColumnSource, sample: CompleteCases, column: str, kind: str, ref: Any, what: str
 ) -> CodedTerm:
     series = _rows(source, sample, column)
     if kind in ("continuous", "count"):
-        return code_term(coerce_column(series, kind), TermSpec(column, kind), what)
+        return code_column(coerce_column(series, kind), TermSpec(column, kind), what)
     if kind == "binary":
         coded = coerce_column(series, "binary", ref)
-        return code_term(coded, TermSpec(column, "binary", 0.0), what)
-    return code_term(series, TermSpec(column, "categorical", ref), what)
+        return code_column(coded, TermSpec(column, "binary", 0.0), what)
+    return code_column(series, TermSpec(column, "categorical", ref), what)
 
 
 def _outcomes(
-    source: DataSource,
+    source: ColumnSource,
     sample: CompleteCases,
     family: str,
     cols: Mapping[str, str | None],
@@ -281,7 +281,7 @@ def _outcomes(
 
 def prepare_design(
     run: Run,
-    source: DataSource,
+    source: ColumnSource,
     project: Project,
     family: str,
     exposure: str,
@@ -332,7 +332,7 @@ def prepare_design(
 
 
 def _spec(
-    source: DataSource,
+    source: ColumnSource,
     sample: CompleteCases,
     family: str,
     exposure: str,
@@ -354,7 +354,7 @@ def _spec(
 
 
 def _identity(
-    source: DataSource,
+    source: ColumnSource,
     sample: CompleteCases,
     design: Design,
     bindings: Bindings,
@@ -376,7 +376,7 @@ def _identity(
 
 def _design(
     run: Run,
-    source: DataSource,
+    source: ColumnSource,
     sample: CompleteCases,
     spec: DesignSpec,
     bindings: Bindings,

@@ -10,7 +10,7 @@ from covariscope.analysis.evidence import EvidenceTable
 from covariscope.analysis.fits import Fit
 from covariscope.analysis.graph import DiagramAnalysis
 from covariscope.analysis.verdicts import Verdict
-from covariscope.data.sample import CompleteCases
+from covariscope.data.sample import AnalyticSample, CompleteCases
 
 __all__ = ["ESTIMATE_KEYS", "Progress", "StudyResult"]
 
@@ -29,7 +29,7 @@ class StudyResult:
     effect_measure: str
     diagram: DiagramAnalysis
     proposed: tuple[str, ...]
-    sample: CompleteCases | None
+    sample: CompleteCases | AnalyticSample | None
     evidence: EvidenceTable | None
     verdicts: dict[str, Verdict]
     recommended: tuple[str, ...]

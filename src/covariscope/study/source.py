@@ -1,6 +1,6 @@
 """The first stage of the pipeline: where the study's data come from.
 
-The pipeline reads its data only through :class:`DataSource`: a digest that
+The pipeline reads a table in memory through :class:`ColumnSource`: a digest that
 names the data (the cache keys start with it), the column names, the row
 count, and one column at a time.  :class:`TableSource` serves a table
 loaded in memory; a source that reads a file where it lies (DuckDB) or a
@@ -16,11 +16,11 @@ import pandas as pd
 
 from covariscope.data.loading import LoadedTable
 
-__all__ = ["DataSource", "TableSource", "source_of"]
+__all__ = ["ColumnSource", "TableSource", "source_of"]
 
 
 @runtime_checkable
-class DataSource(Protocol):
+class ColumnSource(Protocol):
     """What the pipeline reads of a data set."""
 
     @property
@@ -52,7 +52,7 @@ class DataSource(Protocol):
 
 
 class TableSource:
-    """A :class:`DataSource` over a table loaded in memory.
+    """A :class:`ColumnSource` over a table loaded in memory.
 
     Examples
     --------
@@ -89,7 +89,7 @@ class TableSource:
         return np.asarray(self.table.frame[column].isna().to_numpy(), dtype=bool)
 
 
-def source_of(table: LoadedTable | DataSource) -> DataSource:
+def source_of(table: LoadedTable | ColumnSource) -> ColumnSource:
     """The data source of a loaded table (a source is returned as it is)."""
     if isinstance(table, LoadedTable):
         return TableSource(table)

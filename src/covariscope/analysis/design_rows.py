@@ -1,0 +1,144 @@
+"""The design of the comparison models when the rows stay with their source.
+
+:func:`make_row_design` checks what :func:`~covariscope.analysis.design.make_design`
+checks — a two-level exposure that varies, an outcome that suits the family,
+constant covariates, enough rows — from one reduction over the rows (their
+means, co-moments and ranges), and returns a
+:class:`~covariscope.analysis.design.Design` whose ``values`` are empty and
+whose ``rows`` the evidence engine reads for every sum it needs.
+"""
+
+from __future__ import annotations
+
+import hashlib
+from collections.abc import Mapping
+
+import numpy as np
+
+from covariscope.analysis.design import Block, Design, TermCoding, constant_message
+from covariscope.analysis.fits import FAMILIES
+from covariscope.analysis.rows import ColumnStats, RowReducer, column_stats, merge_column_stats
+from covariscope.errors import DataError
+
+__all__ = ["make_row_design"]
+
+
+def _spans(
+    exposure: TermCoding, covariates: Mapping[str, TermCoding]
+) -> tuple[list[str], dict[str, tuple[tuple[str, ...], tuple[int, ...]]]]:
+    if len(exposure.names) > 1:
+        raise DataError(
+            f"The exposure {exposure.column!r} has {len(exposure.names) + 1} levels; Covariscope "
+            "compares one contrast at a time. Recode it to two levels or a numeric dose."
+        )
+    names = [exposure.names[0]]
+    spans: dict[str, tuple[tuple[str, ...], tuple[int, ...]]] = {}
+    for node, coding in covariates.items():
+        start = len(names)
+        names += coding.names
+        spans[node] = (coding.names, tuple(range(start, start + len(coding.names))))
+    return names, spans
+
+
+def _check_outcome(stats: ColumnStats, family: str, column: str) -> None:
+    low, high = float(stats.low[-1]), float(stats.high[-1])
+    if family == "logistic" and stats.outcome_not_binary:
+        raise DataError(
+            f"Logistic regression needs an outcome coded 0/1, but {column!r} holds other values "
+            f"in {stats.outcome_not_binary:,} rows (from {low:g} to {high:g}); recode the outcome "
+            "or choose the linear family."
+        )
+    if family == "risk_ratio" and low < 0:
+        raise DataError(
+            f"The risk/rate-ratio model needs a 0/1 or count outcome, but {column!r} has negative "
+            "values; recode the outcome or choose the linear family."
+        )
+    if family in ("logistic", "risk_ratio") and low == high:
+        raise DataError(
+            f"The outcome {column!r} takes the single value {low:g} in every row of the analytic "
+            "sample, so no effect on it can be estimated."
+        )
+
+
+def make_row_design(
+    rows: RowReducer,
+    *,
+    exposure: TermCoding,
+    covariates: Mapping[str, TermCoding],
+    outcome: str,
+    family: str,
+    exposure_node: str,
+    source_key: str,
+) -> Design:
+    """Check and describe the design of rows that stay with their source.
+
+    Parameters
+    ----------
+    rows : RowReducer
+        The coded rows: exposure, the covariate columns in the order of
+        ``covariates``, the outcome last; the offset beside them.
+    exposure, covariates : TermCoding
+        How each term's columns were coded (see
+        :func:`~covariscope.analysis.design.plan_term`).
+    outcome : str
+        The outcome column (the Cox family needs the rows in memory).
+    family : "linear", "logistic" or "risk_ratio"
+    source_key : str
+        Identifies the rows (the file and the filter); with the specification
+        it makes the design's cache key.
+
+    Raises
+    ------
+    DataError
+        With one message naming the problem and the fix.
+    """
+    if family not in FAMILIES or family == "cox":
+        raise DataError(
+            f"The {family} family cannot be fitted from row sums; its rows must be in memory."
+        )
+    names, spans = _spans(exposure, covariates)
+    stats: ColumnStats = rows.reduce(column_stats, merge_column_stats)
+    n = stats.summary.n
+    flat = stats.low == stats.high
+    if n > 0 and flat[0]:
+        raise DataError(
+            f"The exposure column {names[0]!r} has the same value in every row of the "
+            "analytic sample, so no effect of it can be estimated; bind another column."
+        )
+    constant = tuple(node for node, (_, idx) in spans.items() if n > 0 and flat[list(idx)].any())
+    messages = tuple(
+        f"{constant_message(node, covariates[node].column)} The models that hold it are not fitted."
+        for node in constant
+    )
+    if n > 0:
+        _check_outcome(stats, family, outcome)
+    if n <= 2:
+        raise DataError(
+            f"The analytic sample has {n} rows, too few even for the crude model "
+            "(2 parameters); at least 3 rows are needed. Load more data "
+            "or bind columns with fewer missing values."
+        )
+    values = np.empty((0, len(names) + 1))
+    blocks = {
+        node: Block(node, cn, values[:, idx[0] : idx[-1] + 1], idx)
+        for node, (cn, idx) in spans.items()
+    }
+    spec = repr((family, exposure_node, names, list(covariates), outcome, source_key))
+    return Design(
+        family=family,
+        exposure_node=exposure_node,
+        exposure_name=names[0],
+        values=values,
+        blocks=blocks,
+        y=None,
+        offset=None,
+        time=None,
+        event=None,
+        n=n,
+        key=hashlib.sha256(spec.encode()).hexdigest(),
+        messages=messages,
+        column_names=tuple(names),
+        constant=constant,
+        rows=rows,
+        row_stats=stats,
+    )

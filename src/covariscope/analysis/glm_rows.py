@@ -1,0 +1,247 @@
+"""Logistic and log-link Poisson fits from row sums, for data not held in memory.
+
+The same Newton–Raphson iteration as :func:`~covariscope.analysis.glm.newton_glm`
+(the same start, step halving, convergence test and standard errors), but
+each iteration reads the rows once, through a
+:class:`~covariscope.analysis.rows.RowReducer`, for the information X'WX, the
+score X'(y − μ) and the deviance at the current coefficients.  A proposed
+step is accepted when the deviance at the new point does not rise; the sums
+taken there then serve the next step, so an accepted step costs one pass.
+
+Logistic standard errors are model-based (the inverse information at the
+last Newton point); risk-ratio standard errors are the robust HC0 sandwich
+of Zou (2004), "A modified Poisson regression approach to prospective
+studies with binary data", Am J Epidemiol 159:702, its middle term taken at
+the last Newton point in one more pass.
+
+What needs the rows themselves is not done here: when a fit does not
+converge, or its fitted probabilities reach 0 or 1, the search for the
+separating direction (:func:`~covariscope.analysis.glm.detect_separation`)
+is not run; the fit says so instead.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+from functools import partial
+
+import numpy as np
+import numpy.typing as npt
+
+from covariscope.analysis.fits import Fit
+from covariscope.analysis.fitting_common import (
+    ALIAS_TOL,
+    DIVERGE_SD,
+    EVENTS_PER_PARAMETER,
+    SINGULAR_INFORMATION,
+    aliased_columns,
+    fit_from_params,
+    inverse_from_cholesky,
+    newton_done,
+    rank_message,
+    upper_cholesky,
+)
+from covariscope.analysis.glm import EXTREME_MU
+from covariscope.analysis.rows import (
+    GlmSums,
+    RowReducer,
+    SandwichSums,
+    glm_pass,
+    merge_sandwich_sums,
+    sandwich_sums,
+)
+
+__all__ = ["RowOutcome", "fit_glm_rows"]
+
+Array = npt.NDArray[np.float64]
+
+#: Said when a fit from row sums meets what only the rows could explain.
+NEEDS_ROWS = (
+    " The search for the covariate pattern that separates the outcome needs the rows in "
+    "memory; look for a covariate level with no events (or only events) in the data."
+)
+
+
+@dataclass(frozen=True)
+class RowOutcome:
+    """What the fit needs to know of the outcome: its mean, Σ exp(offset), n."""
+
+    mean: float
+    offset_exp_sum: float
+    n: int
+    binary: bool
+
+
+@dataclass(frozen=True, eq=False)
+class _Path:
+    params: Array
+    cov: Array | None
+    iterations: int
+    converged: bool
+    sums: GlmSums
+    stop: str = ""
+    #: the last Newton point (where ``cov`` and ``sums`` were taken)
+    last: Array | None = None
+
+
+def _start(outcome: RowOutcome, family: str, p: int) -> Array:
+    b = np.zeros(p)
+    if family == "logistic":
+        ybar = min(max(outcome.mean, 1e-6), 1 - 1e-6)
+        b[0] = math.log(ybar / (1 - ybar))
+    else:
+        denom = outcome.offset_exp_sum if outcome.offset_exp_sum > 0 else float(outcome.n)
+        b[0] = math.log(max(outcome.mean * outcome.n, 1e-10) / denom)
+    return b
+
+
+def _newton(
+    reducer: RowReducer,
+    columns: tuple[int, ...],
+    family: str,
+    b: Array,
+    scale: Array,
+    reach: Array,
+    max_iter: int,
+) -> _Path:
+    s = glm_pass(reducer, columns, b, family)
+    cov: Array | None = None
+    for it in range(1, max_iter + 1):
+        H = s.information
+        c = upper_cholesky(H)
+        if it == 1 and (c is None or np.min(np.diag(c) ** 2 / np.diag(H)) < ALIAS_TOL):
+            return _Path(b, None, it, False, s, "aliased")
+        if c is None:
+            return _Path(b, None, it, False, s, "singular")
+        cov = inverse_from_cholesky(c)
+        delta = cov @ s.score
+        if newton_done(delta, cov, reach):
+            return _Path(b + delta, cov, it, True, s, last=b)
+        t = 1.0
+        for _ in range(40):
+            new = glm_pass(reducer, columns, b + t * delta, family)
+            if math.isfinite(new.deviance) and new.deviance <= s.deviance + 1e-12 * abs(s.deviance):
+                break
+            t *= 0.5
+        else:
+            return _Path(b, cov, it, False, s, "no_progress")
+        b, s = b + t * delta, new
+        if np.any(np.abs(b[1:]) * scale[1:] > DIVERGE_SD):
+            return _Path(b, cov, it, False, s, "diverging")
+    return _Path(b, cov, max_iter, False, s)
+
+
+def fit_glm_rows(
+    reducer: RowReducer,
+    columns: tuple[int, ...],
+    family: str,
+    *,
+    outcome: RowOutcome,
+    column_names: list[str],
+    terms: tuple[str, ...],
+    scale: Array,
+    reach: Array,
+    start: Array | None = None,
+    max_iter: int = 50,
+) -> tuple[Fit, Array | None, Array | None]:
+    """Fit exposure + ``columns`` by Newton–Raphson on row sums.
+
+    Parameters
+    ----------
+    reducer : RowReducer
+        The rows of the design (outcome last).
+    columns : tuple of int
+        Design columns of the model (the exposure first); an intercept is added.
+    family : "logistic" or "risk_ratio"
+    outcome : RowOutcome
+        Mean of the outcome and Σ exp(offset), for the start.
+    column_names : names of [intercept, columns...].
+    scale : standard deviation of [intercept, columns...] (0 for the intercept).
+    reach : largest absolute value of [intercept, columns...] (the stopping rule's scale,
+        see :func:`~covariscope.analysis.fitting_common.newton_done`).
+    start : coefficients to start from (length 1 + len(columns)), optional.
+
+    Returns
+    -------
+    (Fit, params, cov) : params and cov are None when the fit failed.
+
+    Examples
+    --------
+    >>> from covariscope.analysis.rows import RowBatch
+    >>> class Whole:
+    ...     def __init__(self, v): self.v = v
+    ...     def reduce(self, fn, merge): return fn(RowBatch(self.v))
+    >>> v = np.column_stack([[0, 0, 1, 1, 0, 1.0], [0, 1, 1, 1, 0, 0.0]])
+    >>> fit, params, cov = fit_glm_rows(Whole(v), (0,), "logistic",
+    ...     outcome=RowOutcome(0.5, 0.0, 6, True), column_names=["const", "x"], terms=(),
+    ...     scale=np.array([0.0, 0.5]), reach=np.ones(2))
+    >>> round(fit.coef, 4)  # log(4): odds 1/2 → 2, as the in-memory fit
+    1.3863
+    """
+    p = len(columns) + 1
+    b = _start(outcome, family, p) if start is None or np.shape(start) != (p,) else start
+    path = _newton(reducer, columns, family, np.array(b, dtype=np.float64), scale, reach, max_iter)
+    n = outcome.n
+    if path.stop == "aliased":
+        clauses = aliased_columns(path.sums.information, column_names) or [
+            "the columns are nearly collinear"
+        ]
+        return Fit.failed(family, terms, n, rank_message(clauses)), None, None
+    if path.cov is None:
+        return Fit.failed(family, terms, n, SINGULAR_INFORMATION), None, None
+    s = path.sums
+    extreme = (
+        s.mu_low < EXTREME_MU if family == "logistic" else s.mu_low < EXTREME_MU * outcome.mean
+    )
+    warns: list[str] = []
+    if not path.converged:
+        message = (
+            f"The fit did not converge after {path.iterations} iterations (the coefficients "
+            "may run off to infinity: separation)." + NEEDS_ROWS
+        )
+        return Fit.failed(family, terms, n, message), None, None
+    if extreme:
+        warns.append(
+            "Some fitted probabilities are numerically 0 or 1: check for sparse categories."
+            + NEEDS_ROWS
+        )
+    cov = path.cov
+    if family == "risk_ratio":
+        # HC0 sandwich, both parts at the last Newton point (as the in-memory fit).
+        assert path.last is not None
+        cov = _sandwich(reducer, columns, path.last, cov)
+        if outcome.binary and s.mu_high > 1.0 + 1e-9:
+            warns.append(
+                f"Some fitted risks exceed 1 (largest {s.mu_high:.3g}); the risk "
+                "ratios remain usable but the fitted risks are not."
+            )
+    total = outcome.mean * n
+    events = total if family == "risk_ratio" else min(total, n - total)
+    events = float(round(events, 6))
+    if p > 1 and events / (p - 1) < EVENTS_PER_PARAMETER:
+        warns.append(
+            f"Only {events:g} {'events' if family == 'risk_ratio' else 'outcomes in the rarer class'} "
+            f"for {p - 1} covariate parameters (fewer than {EVENTS_PER_PARAMETER} per parameter, "
+            "Peduzzi et al. 1996): estimates may be unstable."
+        )
+    fit = fit_from_params(
+        family,
+        terms,
+        column_names,
+        path.params,
+        cov,
+        n,
+        1,
+        {0},
+        converged=True,
+        iterations=path.iterations,
+        warnings=warns,
+    )
+    return fit, path.params, path.cov
+
+
+def _sandwich(reducer: RowReducer, columns: tuple[int, ...], params: Array, cov: Array) -> Array:
+    fn = partial(sandwich_sums, columns=columns, params=params)
+    sums: SandwichSums = reducer.reduce(fn, merge_sandwich_sums)
+    return cov @ sums.meat @ cov

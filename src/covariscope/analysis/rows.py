@@ -1,0 +1,235 @@
+"""Sums over the rows of a design that is not held in memory.
+
+Every number the comparison models need is a sum over rows: the linear
+models need the means and co-moments of the design columns; each Newton step
+of a logistic or Poisson fit needs the weighted cross product X'WX, the score
+X'(y − μ) and the deviance at the current coefficients.  A data source that
+cannot (or should not) hold the rows in memory hands the engine a
+:class:`RowReducer`: it applies a function to each batch of coded rows and
+merges the partial results, in whatever order and place it likes (a loop
+over record batches of an embedded database, a tree reduction on a
+cluster).  The functions and merges here are the statistics; the sources
+only move rows.
+
+Partial sums merge exactly: co-moments by the pairwise update of Chan,
+Golub & LeVeque (1979) (:func:`~covariscope.analysis.linear.merge_summaries`),
+cross products and scores by addition, so any batching gives the same
+numbers as one pass over all rows, to rounding.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+from functools import partial
+from typing import Any, Protocol, TypeVar
+
+import numpy as np
+import numpy.typing as npt
+
+from covariscope.analysis.fitting_common import weighted_crossprod
+from covariscope.analysis.linear import LinearSummary, linear_summary, merge_summaries
+
+__all__ = [
+    "ColumnStats",
+    "GlmSums",
+    "RowBatch",
+    "RowReducer",
+    "SandwichSums",
+    "column_stats",
+    "glm_sums",
+    "merge_column_stats",
+    "merge_glm_sums",
+    "merge_sandwich_sums",
+    "sandwich_sums",
+]
+
+Array = npt.NDArray[np.float64]
+T = TypeVar("T")
+
+
+@dataclass(frozen=True, eq=False)
+class RowBatch:
+    """Some rows of a design, coded as the models read them.
+
+    ``values`` is m × q: the exposure, every covariate column, then the
+    outcome (when the family has one), as in
+    :attr:`~covariscope.analysis.design.Design.values`; ``offset`` the log
+    person-time of each row, or None.
+    """
+
+    values: Array
+    offset: Array | None = None
+
+
+class RowReducer(Protocol):
+    """Applies a function to every batch of rows and merges the results.
+
+    ``merge`` is associative; the batches may be visited in any order and
+    the partial results merged in any tree.  ``fn`` and ``merge`` are plain
+    module-level functions (or partials of them), so that a cluster can send
+    them to its workers.
+    """
+
+    def reduce(self, fn: Any, merge: Any) -> Any:
+        """``merge`` of ``fn(batch)`` over every batch (``fn`` of an empty batch when none)."""
+
+
+# ------------------------------------------------------------------ column statistics
+
+
+@dataclass(frozen=True, eq=False)
+class ColumnStats:
+    """Means, co-moments, ranges and outcome counts of the design columns."""
+
+    summary: LinearSummary
+    low: Array
+    high: Array
+    #: rows whose outcome (last column) is neither 0 nor 1, and is > 0
+    outcome_not_binary: int
+    outcome_positive: int
+    #: Σ exp(offset), for the start of a Poisson fit (0 without an offset)
+    offset_exp_sum: float
+
+
+def column_stats(batch: RowBatch) -> ColumnStats:
+    """The :class:`ColumnStats` of one batch (the last column is the outcome)."""
+    v = batch.values
+    q = v.shape[1]
+    y = v[:, -1] if q else np.zeros(0)
+    return ColumnStats(
+        summary=linear_summary(v),
+        low=v.min(axis=0) if len(v) else np.full(q, np.inf),
+        high=v.max(axis=0) if len(v) else np.full(q, -np.inf),
+        outcome_not_binary=int(np.count_nonzero((y != 0.0) & (y != 1.0))),
+        outcome_positive=int(np.count_nonzero(y > 0.0)),
+        offset_exp_sum=0.0 if batch.offset is None else float(np.sum(np.exp(batch.offset))),
+    )
+
+
+def merge_column_stats(a: ColumnStats, b: ColumnStats) -> ColumnStats:
+    """Column statistics of two disjoint sets of rows."""
+    return ColumnStats(
+        summary=merge_summaries(a.summary, b.summary),
+        low=np.minimum(a.low, b.low),
+        high=np.maximum(a.high, b.high),
+        outcome_not_binary=a.outcome_not_binary + b.outcome_not_binary,
+        outcome_positive=a.outcome_positive + b.outcome_positive,
+        offset_exp_sum=a.offset_exp_sum + b.offset_exp_sum,
+    )
+
+
+# ------------------------------------------------------------------ Newton sums
+
+
+@dataclass(frozen=True, eq=False)
+class GlmSums:
+    """Sums behind one Newton step of a logistic or Poisson model at given coefficients."""
+
+    information: Array
+    score: Array
+    deviance: float
+    weight_sum: float
+    #: smallest min(μ, 1 − μ) (logistic) or smallest μ (Poisson)
+    mu_low: float
+    mu_high: float
+    rows: int
+
+
+def _intercept_design(values: Array, columns: tuple[int, ...]) -> Array:
+    X = np.empty((len(values), len(columns) + 1), order="F")
+    X[:, 0] = 1.0
+    for i, c in enumerate(columns):
+        X[:, i + 1] = values[:, c]
+    return X
+
+
+def glm_sums(
+    batch: RowBatch, *, columns: tuple[int, ...], params: Array, family: str, ylogy: bool
+) -> GlmSums:
+    """X'WX, X'(y − μ), the deviance and the range of μ on one batch.
+
+    X is [1 | the design columns ``columns``]; the outcome is the last column
+    of the batch.  The weights, means and deviance are those of the binomial
+    (logit link) or Poisson (log link) likelihood, as in
+    :func:`~covariscope.analysis.glm.newton_glm`; ``ylogy`` adds the
+    saturated term Σ y log y − y of the Poisson deviance.
+    """
+    X = _intercept_design(batch.values, columns)
+    y = batch.values[:, -1]
+    eta = X @ params
+    if batch.offset is not None:
+        eta = eta + batch.offset
+    if family == "logistic":
+        e = np.exp(-np.abs(eta))
+        r = 1.0 / (1.0 + e)
+        mu = np.where(eta >= 0.0, r, e * r)
+        w = e * r * r
+        dev = 2.0 * (
+            float(np.sum(np.log1p(e))) + float(np.sum(np.maximum(eta, 0.0))) - float(y @ eta)
+        )
+        low = float(np.min(np.minimum(mu, 1.0 - mu))) if len(y) else math.inf
+    else:
+        mu = np.exp(np.minimum(eta, 700.0))
+        w = mu
+        saturated = float(np.sum(y[y > 0] * np.log(y[y > 0]) - y[y > 0])) if ylogy else 0.0
+        dev = 2.0 * (float(np.sum(mu)) - float(y @ eta) + saturated)
+        low = float(np.min(mu)) if len(y) else math.inf
+    return GlmSums(
+        information=weighted_crossprod(X, w),
+        score=X.T @ (y - mu),
+        deviance=dev,
+        weight_sum=float(np.sum(w)),
+        mu_low=low,
+        mu_high=float(np.max(mu)) if len(y) else -math.inf,
+        rows=len(y),
+    )
+
+
+def merge_glm_sums(a: GlmSums, b: GlmSums) -> GlmSums:
+    """Newton sums of two disjoint sets of rows."""
+    return GlmSums(
+        information=a.information + b.information,
+        score=a.score + b.score,
+        deviance=a.deviance + b.deviance,
+        weight_sum=a.weight_sum + b.weight_sum,
+        mu_low=min(a.mu_low, b.mu_low),
+        mu_high=max(a.mu_high, b.mu_high),
+        rows=a.rows + b.rows,
+    )
+
+
+@dataclass(frozen=True, eq=False)
+class SandwichSums:
+    """The middle term X'diag((y − μ)²)X of a Poisson sandwich."""
+
+    meat: Array
+
+
+def sandwich_sums(batch: RowBatch, *, columns: tuple[int, ...], params: Array) -> SandwichSums:
+    """Middle term of the robust (HC0) covariance of a log-link Poisson fit (Zou 2004)."""
+    X = _intercept_design(batch.values, columns)
+    y = batch.values[:, -1]
+    eta = X @ params
+    if batch.offset is not None:
+        eta = eta + batch.offset
+    mu = np.exp(np.minimum(eta, 700.0))
+    return SandwichSums(weighted_crossprod(X, (y - mu) ** 2))
+
+
+def merge_sandwich_sums(a: SandwichSums, b: SandwichSums) -> SandwichSums:
+    """Sandwich sums of two disjoint sets of rows."""
+    return SandwichSums(a.meat + b.meat)
+
+
+def glm_pass(reducer: RowReducer, columns: tuple[int, ...], params: Array, family: str) -> GlmSums:
+    """One reduction of :func:`glm_sums` over every row."""
+    fn = partial(
+        glm_sums,
+        columns=columns,
+        params=np.asarray(params, dtype=np.float64),
+        family=family,
+        ylogy=family == "risk_ratio",
+    )
+    result: GlmSums = reducer.reduce(fn, merge_glm_sums)
+    return result

@@ -1,0 +1,91 @@
+"""The data-source interface: every pass the study makes over the rows.
+
+A study reads its data through one :class:`DataSource`: column profiles
+(types inferred on the rows, or on a random sample of them, with exact
+counts of missing values and levels), the analytic sample (complete cases
+on the columns the models read, with what was lost and why), and the design
+of the comparison models, whose sums over rows the evidence engine asks for
+(the cross-product matrix of the linear models, one weighted cross product
+per Newton step of the others).  Three implementations give the same
+numbers: in memory (:mod:`.memory`), DuckDB over a file where it lies
+(:mod:`.duck`), and Dask over Parquet on a cluster (:mod:`.cluster`).
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable, Mapping
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any, Protocol
+
+from covariscope.analysis.design import Design, TermSpec
+from covariscope.data.profile import ColumnProfile
+from covariscope.data.sample import AnalyticSample
+from covariscope.data.sources.coding import ColumnUse
+
+__all__ = ["ENGINES", "DataSource", "DesignRequest", "ProgressFn"]
+
+#: The engines a study can read its data with: name → plain description.
+ENGINES: dict[str, str] = {
+    "memory": "in memory (pandas)",
+    "duckdb": "DuckDB, reading the file where it lies",
+    "dask": "Dask, summing on a cluster",
+}
+
+ProgressFn = Callable[[float, str], None]
+
+
+@dataclass(frozen=True)
+class DesignRequest:
+    """What the models read: every column's coercion, the terms, the outcome columns."""
+
+    uses: tuple[ColumnUse, ...]
+    exposure: TermSpec
+    covariates: Mapping[str, TermSpec]
+    family: str
+    exposure_node: str
+    outcome: str | None
+    time: str | None = None
+    event: str | None = None
+    offset: str | None = None
+
+
+class DataSource(Protocol):
+    """The rows of one data file, read by one engine."""
+
+    #: a key of :data:`ENGINES`
+    engine: str
+    path: Path
+    columns: tuple[str, ...]
+    #: plain sentences for the user: the engine chosen, a conversion made
+    notes: tuple[str, ...]
+
+    @property
+    def sha256(self) -> str:
+        """Hex digest of the file's bytes."""
+
+    @property
+    def rows(self) -> int:
+        """Rows in the file."""
+
+    @property
+    def value_labels(self) -> Mapping[str, Mapping[Any, str]]:
+        """Column → {code: label} where the file carries them."""
+
+    def status(self) -> str:
+        """The engine in use and the memory it holds, in a few words."""
+
+    def profiles(
+        self,
+        columns: tuple[str, ...],
+        types: Mapping[str, str],
+        references: Mapping[str, object],
+        progress: ProgressFn | None = None,
+    ) -> dict[str, ColumnProfile]:
+        """Profiles of ``columns``, with the user's types and reference levels."""
+
+    def analytic_sample(self, columns: tuple[str, ...]) -> AnalyticSample:
+        """Complete cases on ``columns``; ``frame`` holds them, or a random sample of them."""
+
+    def design(self, request: DesignRequest, messages: list[str]) -> Design:
+        """The design of the comparison models on the complete cases of ``request``'s columns."""
