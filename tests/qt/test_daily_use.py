@@ -9,7 +9,8 @@ import io
 import os
 import stat
 
-from PySide6.QtCore import QPointF, Qt
+import pytest
+from PySide6.QtCore import QEvent, QObject, QPointF, Qt
 from PySide6.QtTest import QTest
 from PySide6.QtWidgets import QApplication
 
@@ -129,3 +130,168 @@ def test_dialogs_start_in_the_project_folder(qtbot, window, demo, fake_prompts):
     assert len(starts) == 3
     for start in starts:
         assert str(start).startswith(str(demo)), start
+
+
+class _Counter(QObject):
+    """Counts paint, resize and layout events on the widgets it watches."""
+
+    def __init__(self) -> None:
+        super().__init__()
+        self.counts: dict[str, int] = {}
+
+    def eventFilter(self, watched, event):
+        kinds = (QEvent.Type.Paint, QEvent.Type.Resize, QEvent.Type.LayoutRequest)
+        if event.type() in kinds:
+            name = event.type().name
+            self.counts[name] = self.counts.get(name, 0) + 1
+        return False
+
+
+@pytest.mark.parametrize("size", [(1100, 700), (1000, 650), (1250, 720), (1366, 768), (1280, 720)])
+def test_no_redraw_while_idle_after_an_edit(qtbot, demo, wait_for_analysis, fake_prompts, size):
+    from covariscope.qt.main_window import MainWindow
+
+    w = MainWindow(prompts=fake_prompts(), debounce_ms=20)
+    qtbot.addWidget(w)
+    w.resize(*size)  # sized before it is shown, as a window opens on a small screen
+    w.show()
+    assert w.io.open(str(demo / "demo_project.json"))
+    wait_for_analysis(qtbot, w)
+    w.review.set_checked("smoke", False)  # an ordinary edit
+    wait_for_analysis(qtbot, w)
+    qtbot.wait(200)  # let the edit's own repaint finish
+    counter = _Counter()
+    for widget in (w.view, w.view.viewport()):
+        widget.installEventFilter(counter)
+    qtbot.wait(2000)  # two idle seconds, counted (not timed)
+    for widget in (w.view, w.view.viewport()):
+        widget.removeEventFilter(counter)
+    w.undo_stack.setClean()
+    w.close()
+    assert counter.counts.get("Resize", 0) <= 2, counter.counts
+    assert counter.counts.get("Paint", 0) <= 5, counter.counts
+
+
+def test_canvas_stays_put_while_drawing(qtbot, window, demo, wait_for_analysis):
+    w = window
+    w.resize(1366, 768)
+    assert w.io.open(str(demo / "demo_project.json"))
+    wait_for_analysis(qtbot, w)
+    QApplication.processEvents()
+    age = w.scene.nodes["age"]
+    before = w.view.mapFromScene(age.scenePos())
+    seen = w.view.mapToScene(w.view.viewport().rect()).boundingRect()
+    for where in (seen.topLeft() - QPointF(150, 150), seen.bottomRight() + QPointF(150, 150)):
+        w.scene.add_node_at(where)
+        QApplication.processEvents()
+        assert w.view.mapFromScene(age.scenePos()) == before
+
+
+class _ResizeGuard(QObject):
+    """Counts the viewport's resize events; past ``limit`` it swallows them,
+    which breaks a resize loop so that the test can report it."""
+
+    def __init__(self, limit: int = 100) -> None:
+        super().__init__()
+        self.count = 0
+        self.limit = limit
+
+    def eventFilter(self, watched, event):
+        if event.type() == QEvent.Type.Resize:
+            self.count += 1
+            return self.count > self.limit
+        return False
+
+
+def test_scroll_bars_and_scene_area_do_not_chase_each_other(qtbot, demo):
+    """A fitted diagram made a little too wide for its view: the scroll bar
+    that appears must not remeasure the area that makes it disappear again."""
+    from PySide6.QtGui import QUndoStack
+
+    from covariscope.model.project import load_project
+    from covariscope.qt.canvas import DiagramScene, DiagramView
+
+    project = load_project(demo / "demo_project.json")
+    scene = DiagramScene(project, QUndoStack())
+    view = DiagramView(scene)
+    qtbot.addWidget(view)
+    view.resize(700, 382)
+    view.show()
+    view.fit_to_window()
+    guard = _ResizeGuard()
+    view.viewport().installEventFilter(guard)
+    view.resize(600, 382)
+    for _ in range(20):
+        QApplication.processEvents()
+    view.viewport().removeEventFilter(guard)
+    assert guard.count <= 3
+
+
+@pytest.mark.parametrize(
+    ("family", "chosen"),
+    [
+        ("logistic", {"outcome": "low_lung"}),
+        ("risk_ratio", {"outcome": "low_lung", "offset": None}),
+        ("cox", {"time": "years_to_dx", "event": "dx"}),
+    ],
+)
+def test_outcome_columns_chosen_in_the_window_and_saved(
+    qtbot, window, demo, wait_for_analysis, family, chosen
+):
+    from covariscope.model.project import load_project
+
+    w = window
+    assert w.io.open(str(demo / "demo_project.json"))
+    wait_for_analysis(qtbot, w)
+    w.set_family(family)
+    # clear what the demo file set, as a new study starts
+    w.apply_outcome_columns(dict.fromkeys(chosen))
+    wait_for_analysis(qtbot, w)
+    if family != "risk_ratio":  # a log-link Poisson fit of a measured outcome still runs
+        assert w.result.sample is None
+    problems = [m for m in w.messages_bar.messages if m.severity == "problem"]
+    assert problems
+    assert problems[0].fix == "outcome_columns"
+    assert w.messages_bar.headline.text() == problems[0].text
+    assert w.messages_bar.fix_button.isVisible()
+    assert "problem" in w.messages_bar.counts.text()
+
+    dialog = w.outcome_columns_dialog()
+    assert set(dialog.combos) == set(chosen)
+    for key, column in chosen.items():
+        dialog.choose(key, column)
+    w.apply_outcome_columns(dialog.values())
+    dialog.deleteLater()
+    wait_for_analysis(qtbot, w)
+    assert w.result.sample is not None
+    assert not [m for m in w.messages_bar.messages if m.severity == "problem"]
+    assert not w.messages_bar.fix_button.isVisible()
+    assert w.io.save()
+    saved = load_project(demo / "demo_project.json")
+    assert saved.analysis.family_columns[family] == {k: v for k, v in chosen.items() if v}
+    outcome = w.open_diagnostics("lungfn")
+    assert outcome.state.column == (chosen.get("outcome") or chosen.get("event"))
+    outcome.close()
+
+
+def test_logistic_on_a_continuous_outcome_says_what_is_missing(
+    qtbot, window, demo, wait_for_analysis
+):
+    w = window
+    assert w.io.open(str(demo / "demo_project.json"))
+    wait_for_analysis(qtbot, w)
+    w.set_family("logistic")
+    w.apply_outcome_columns({"outcome": None})
+    wait_for_analysis(qtbot, w)
+    (problem,) = [m for m in w.messages_bar.messages if m.severity == "problem"]
+    assert "lungfn is continuous" in problem.text
+    assert "binary" in problem.text
+    assert "Diagram only" in w.rows_label.text()
+    # the caution that odds ratios are non-collapsible and the rows lost are visible
+    w.apply_outcome_columns({"outcome": "low_lung"})
+    wait_for_analysis(qtbot, w)
+    cautions = [m.text for m in w.messages_bar.messages if m.severity == "caution"]
+    assert any("rows used" in t or "dropped" in t for t in cautions)
+    w.messages_bar.toggle.click()
+    assert w.messages_bar.list.isVisible()
+    assert w.messages_bar.list.count() == len(w.messages_bar.messages)

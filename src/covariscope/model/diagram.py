@@ -339,6 +339,7 @@ class Diagram:
         key = _proxy_key(a, b)
         if key in self._proxies:
             raise DiagramError(f"{a} and {b} are already linked as proxies.")
+        self._check_proxy_ends(a, b)
         cycle = self._cycle_with(self._arrows, [*self._proxies, key])
         if cycle:
             raise CycleError(
@@ -349,6 +350,45 @@ class Diagram:
         position = len(self._proxies) if index is None else index
         self._proxies.insert(position, key)
         self._emit(DiagramEvent("proxy_added", pair=key))
+
+    def _check_proxy_ends(self, a: str, b: str) -> None:
+        if {self._nodes[a].kind, self._nodes[b].kind} == {"exposure", "outcome"}:
+            raise DiagramError(
+                f"A proxy link between {a} and {b} would say that the exposure and the "
+                "outcome measure the same thing, leaving no effect to estimate. Remove the "
+                "link; draw an arrow if one causes the other."
+            )
+
+    def extend(
+        self, arrows: Iterable[tuple[str, str]] = (), proxies: Iterable[tuple[str, str]] = ()
+    ) -> None:
+        """Add many arrows and proxy links at once, all or none.
+
+        Loading a file this way checks for cycles once, in time linear in
+        the size of the diagram, instead of once per arrow.  Raises the
+        first :class:`DiagramError` found; the diagram is then unchanged.
+        """
+        new_arrows = list(arrows)
+        new_proxies = [_proxy_key(a, b) for a, b in proxies]
+        for a, b in [*new_arrows, *new_proxies]:
+            self.node(a)
+            self.node(b)
+            if a == b:
+                raise DiagramError(f'A link from "{a}" to itself is not allowed.')
+        for pairs, held in ((new_arrows, self._arrows), (new_proxies, self._proxies)):
+            seen = set(held)
+            for pair in pairs:
+                if pair in seen:
+                    raise DiagramError(f"{pair[0]} and {pair[1]} are linked twice.")
+                seen.add(pair)
+        for a, b in new_proxies:
+            self._check_proxy_ends(a, b)
+        cycle = self._cycle_with([*self._arrows, *new_arrows], [*self._proxies, *new_proxies])
+        if cycle:
+            raise CycleError(f"The links close the cycle {format_cycle(cycle)}.", cycle)
+        self._arrows.extend(new_arrows)
+        self._proxies.extend(new_proxies)
+        self._emit(DiagramEvent("reset"))
 
     def remove_proxy(self, a: str, b: str) -> int:
         key = _proxy_key(a, b)

@@ -139,7 +139,7 @@ def _begins_with(path: Path, magic: bytes) -> bool:
         return False
 
 
-def read_project_bytes(path: Path, limit: int = MAX_PROJECT_BYTES) -> bytes:
+def read_project_bytes(path: Path, limit: int | None = None) -> bytes:
     """Read a project file: a regular file of at most ``limit`` bytes.
 
     The file is opened without blocking (a named pipe would otherwise wait
@@ -151,6 +151,7 @@ def read_project_bytes(path: Path, limit: int = MAX_PROJECT_BYTES) -> bytes:
     ProjectFileError
         Missing, not a regular file, unreadable, or larger than ``limit``.
     """
+    limit = MAX_PROJECT_BYTES if limit is None else limit
     flags = os.O_RDONLY | getattr(os, "O_NONBLOCK", 0) | getattr(os, "O_BINARY", 0)
     try:
         fd = os.open(path, flags)
@@ -162,17 +163,18 @@ def read_project_bytes(path: Path, limit: int = MAX_PROJECT_BYTES) -> bytes:
         ) from None
     except OSError as exc:
         raise ProjectFileError(f"{path}: cannot be read ({exc.strerror or exc}).") from None
-    with os.fdopen(fd, "rb") as handle:
-        mode = os.fstat(fd).st_mode
+    mode = os.fstat(fd).st_mode
+    if not stat.S_ISREG(mode):
+        os.close(fd)
         if stat.S_ISDIR(mode):
             raise ProjectFileError(
                 f"{path} is a folder, not a project file; choose the .json file inside it."
             )
-        if not stat.S_ISREG(mode):
-            raise ProjectFileError(
-                f"{path} is not a regular file (a pipe, device or socket); a project is "
-                "read only from a saved .json file."
-            )
+        raise ProjectFileError(
+            f"{path} is not a regular file (a pipe, device or socket); a project is "
+            "read only from a saved .json file."
+        )
+    with os.fdopen(fd, "rb") as handle:
         try:
             raw = handle.read(limit + 1)
         except OSError as exc:

@@ -21,6 +21,7 @@ from __future__ import annotations
 
 import contextlib
 import json
+import math
 import os
 import stat
 import tempfile
@@ -31,6 +32,8 @@ from typing import Any
 
 from covariscope.errors import CovariscopeError, DiagramError, ProjectFileError
 from covariscope.model.diagram import KINDS, Diagram, Node
+from covariscope.model.files import read_project_bytes, remove_stale_temporaries
+from covariscope.model.project_json import finite_number, parse_project_json
 from covariscope.vocabulary import DEFAULT_THRESHOLDS, Family
 
 __all__ = [
@@ -49,6 +52,15 @@ __all__ = [
 
 FORMAT = "covariscope-project"
 FORMAT_VERSION = 1
+MAX_COORDINATE = 1e7
+"""Canvas positions beyond this are a damaged file (a diagram spans a few
+thousand units)."""
+MAX_NODES = 2_000
+"""Common practice, not a published bound: diagrams for one exposure and one
+outcome hold tens of nodes, rarely hundreds."""
+MAX_LINKS = 20_000
+MAX_THRESHOLD = 1e6
+"""No guide threshold (percent, VIF, condition index) means anything past this."""
 FAMILY_NAMES: tuple[str, ...] = tuple(Family)
 COLUMN_ROLES = ("outcome", "time", "event", "offset")
 
@@ -65,7 +77,9 @@ class DataRef:
         p = Path(self.path)
         if p.is_absolute() or project_path is None:
             return p
-        return (project_path.parent / p).resolve()
+        # normalised, not resolved: a symlinked data file keeps the name the
+        # user gave it
+        return Path(os.path.normpath(project_path.parent / p))
 
 
 @dataclass
@@ -227,6 +241,7 @@ def project_from_dict(data: Any, path: Path | None = None) -> Project:
         problems.add("diagram", "missing or not an object")
         raw_diagram = {}
     _read_nodes(raw_diagram.get("nodes", []), diagram, problems)
+    _check_size(raw_diagram)
     _read_links(raw_diagram.get("arrows", []), "arrows", ("from", "to"), diagram, problems)
     _read_links(raw_diagram.get("proxies", []), "proxies", ("a", "b"), diagram, problems)
 
@@ -276,8 +291,14 @@ def _read_nodes(raw: Any, diagram: Diagram, problems: _Problems) -> None:
         if not ok:
             continue
         for key in ("x", "y"):
-            if key in kwargs:
+            wrong = finite_number(kwargs.get(key, 0.0), -MAX_COORDINATE, MAX_COORDINATE)
+            if wrong:
+                problems.add(f"{where}.{key}", f"{wrong} (a position on the canvas)")
+                ok = False
+            elif key in kwargs:
                 kwargs[key] = float(kwargs[key])
+        if not ok:
+            continue
         try:
             diagram.add_node(Node(**kwargs))
         except DiagramError as exc:
@@ -289,6 +310,7 @@ def _read_links(
 ) -> None:
     if not _expect(problems, f"diagram.{name}", raw, (list,), "a list"):
         return
+    pairs: list[tuple[int, str, str]] = []
     for i, item in enumerate(raw):
         where = f"diagram.{name}[{i}]"
         if not _expect(problems, where, item, (dict,), "an object"):
@@ -302,8 +324,25 @@ def _read_links(
                 problems.add(f"{where}.{key}", f'unknown node "{value}"')
                 break
             ends.append(value)
-        if len(ends) != 2:
-            continue
+        if len(ends) == 2:
+            pairs.append((i, ends[0], ends[1]))
+    links = [(a, b) for _, a, b in pairs]
+    try:  # the whole list at once: one check for cycles (linear time)
+        if name == "arrows":
+            diagram.extend(arrows=links)
+        else:
+            diagram.extend(proxies=links)
+    except DiagramError:
+        _add_one_by_one(pairs, name, diagram, problems)
+
+
+def _add_one_by_one(
+    pairs: list[tuple[int, str, str]], name: str, diagram: Diagram, problems: _Problems
+) -> None:
+    """Add links one at a time, so that each refused one is named by its place."""
+    for i, a, b in pairs:
+        where = f"diagram.{name}[{i}]"
+        ends = (a, b)
         try:
             if name == "arrows":
                 diagram.add_arrow(ends[0], ends[1])
@@ -311,6 +350,24 @@ def _read_links(
                 diagram.add_proxy(ends[0], ends[1])
         except DiagramError as exc:
             problems.add(where, str(exc))
+
+
+def _check_size(raw_diagram: dict[str, Any]) -> None:
+    """Refuse a diagram far larger than any study's before reading it."""
+    sizes = {
+        key: len(value) if isinstance(value, list) else 0
+        for key, value in raw_diagram.items()
+        if key in ("nodes", "arrows", "proxies")
+    }
+    limits = {"nodes": MAX_NODES, "arrows": MAX_LINKS, "proxies": MAX_LINKS}
+    for key, size in sizes.items():
+        if size > limits[key]:
+            raise ProjectFileError(
+                f"The diagram has {size:,} {key[:-1] if key != 'proxies' else 'proxy link'}s; "
+                f"Covariscope works with up to {limits[key]:,}. A causal diagram for one "
+                "exposure and one outcome is far smaller: the file is damaged or was not "
+                "made for this program."
+            )
 
 
 def _read_data_ref(raw: Any, problems: _Problems) -> DataRef | None:
@@ -358,8 +415,14 @@ def _read_analysis(raw: Any, diagram: Diagram, problems: _Problems) -> AnalysisS
             if key not in DEFAULT_THRESHOLDS:
                 problems.add(where, f"unknown threshold; known: {', '.join(DEFAULT_THRESHOLDS)}")
             elif _expect(problems, where, value, (int, float), "a number"):
-                if value <= 0:
-                    problems.add(where, "must be positive")
+                high = 1.0 if key == "r2" else MAX_THRESHOLD
+                wrong = finite_number(value, 0.0, high)
+                if wrong:
+                    problems.add(where, wrong)
+                elif value <= 0 or (key == "r2" and value >= 1):
+                    problems.add(
+                        where, "must be positive" + (" and below 1" if key == "r2" else "")
+                    )
                 else:
                     settings.thresholds[key] = float(value)
     for key in ("column_types", "reference_levels", "keep_choices"):
@@ -369,7 +432,14 @@ def _read_analysis(raw: Any, diagram: Diagram, problems: _Problems) -> AnalysisS
                 wanted: tuple[type, ...] = (
                     (str, int, float) if key == "reference_levels" else (str,)
                 )
-                if _expect(problems, f"analysis.{key}.{k}", v, wanted, "text"):
+                if not _expect(problems, f"analysis.{key}.{k}", v, wanted, "text"):
+                    continue
+                wrong = finite_number(v, -math.inf, math.inf)
+                if wrong:
+                    problems.add(f"analysis.{key}.{k}", wrong)
+                elif key == "keep_choices" and not _keep_choice_ok(k, v, diagram, problems):
+                    continue
+                else:
                     getattr(settings, key)[k] = v
     family_columns = raw.get("family_columns", {})
     if _expect(problems, "analysis.family_columns", family_columns, (dict,), "an object"):
@@ -403,26 +473,52 @@ def _read_analysis(raw: Any, diagram: Diagram, problems: _Problems) -> AnalysisS
     return settings
 
 
+def _keep_choice_ok(key: str, member: str, diagram: Diagram, problems: _Problems) -> bool:
+    """A saved keep-choice names covariates of the diagram, and its member is
+    one of its group."""
+    where = f"analysis.keep_choices.{key}"
+    group = key.split("|")
+    unknown = [m for m in group if m not in diagram or diagram.node(m).kind != "covariate"]
+    if unknown:
+        problems.add(where, f'the group names "{unknown[0]}", which is not a covariate here')
+        return False
+    if member not in group:
+        problems.add(
+            where,
+            f'the kept member "{member}" is not in its group ({", ".join(group)}); '
+            "choose one of them or remove the entry",
+        )
+        return False
+    return True
+
+
 def load_project(path: str | os.PathLike[str]) -> Project:
-    """Read and validate a project file."""
+    """Read and validate a project file.
+
+    Only a regular file is read, and only up to
+    :data:`~covariscope.model.files.MAX_PROJECT_BYTES`; duplicate keys,
+    non-finite or out-of-range numbers and over-deep nesting are reported
+    with where they are.  Temporary files an interrupted save left beside
+    the project are removed.
+    """
     path = Path(path)
+    raw = read_project_bytes(path)
+    parsed = parse_project_json(raw, path.name)
     try:
-        text = path.read_text(encoding="utf-8")
-    except FileNotFoundError:
-        raise ProjectFileError(f"{path}: no such file.") from None
-    except (OSError, UnicodeDecodeError) as exc:
-        raise ProjectFileError(f"{path}: cannot be read ({exc}).") from None
-    try:
-        data = json.loads(text)
-    except json.JSONDecodeError as exc:
-        raise ProjectFileError(
-            f"{path.name}: not valid JSON at line {exc.lineno}, column {exc.colno} ({exc.msg}); "
-            "the file may be truncated or edited by hand."
-        ) from None
-    try:
-        return project_from_dict(data, path.resolve())
+        project = project_from_dict(parsed.value, path.resolve())
     except ProjectFileError as exc:
-        raise ProjectFileError(f"{path.name}: {exc}", exc.problems) from None
+        if not parsed.duplicates:
+            raise ProjectFileError(f"{path.name}: {exc}", exc.problems) from None
+        found = [*parsed.duplicates, *exc.problems]
+    else:
+        found = list(parsed.duplicates)
+    if found:  # a repeated key first: it may explain the problems after it
+        raise ProjectFileError(
+            f"{path.name}: The project file has problems:\n" + "\n".join(f"  - {p}" for p in found),
+            found,
+        )
+    remove_stale_temporaries(path.resolve())
+    return project
 
 
 # -- writing -----------------------------------------------------------------------
@@ -499,13 +595,14 @@ def save_project(project: Project, path: str | os.PathLike[str] | None = None) -
         raise ProjectFileError("The project has no file name yet; choose where to save it.")
     target = target.resolve()
     if project.data is not None:
-        old_abs = project.data.resolve(project.path)
+        old_abs = project.data.resolve(project.path)  # symlinks kept as given
         try:
             rel = os.path.relpath(old_abs, target.parent)
         except ValueError:  # another drive on Windows
             rel = str(old_abs)
         project.data = DataRef(Path(rel).as_posix(), project.data.sha256)
     text = json.dumps(project_to_dict(project), indent=2, ensure_ascii=False) + "\n"
+    remove_stale_temporaries(target)
     try:
         write_atomically(target, text)
     except OSError as exc:

@@ -101,6 +101,7 @@ class WindowActions:
             act.triggered.connect(lambda _=False, k=key: w.set_family(k))
             self.family_group.addAction(act)
             self.family[key] = act
+        self.outcome_columns = a("&Outcome columns…", w.edit_outcome_columns)
         self.thresholds = a("&Thresholds…", w.edit_thresholds)
         self.rerun = a("&Run the analysis again", w.runner.run_now, _Std.Refresh)
         # no Esc shortcut: Esc belongs to the canvas (leave a mode, drop a rename);
@@ -197,7 +198,7 @@ class WindowActions:
         analysis = bar.addMenu("&Analysis")
         family = analysis.addMenu("Model &family")
         family.addActions(self.family_group.actions())
-        analysis.addActions([self.thresholds, self.rerun, self.cancel])
+        analysis.addActions([self.outcome_columns, self.thresholds, self.rerun, self.cancel])
 
         self.view_menu = bar.addMenu("&View")
         help_ = bar.addMenu("&Help")

@@ -36,6 +36,8 @@ from covariscope.qt.data_controller import DataController
 from covariscope.qt.data_panel import DataPanel
 from covariscope.qt.diagnostics import CovariateDialog, EndpointDialog, NodeDialog
 from covariscope.qt.estimates_strip import EstimatesStrip
+from covariscope.qt.messages_bar import MessagesBar
+from covariscope.qt.outcome_dialog import OutcomeColumnsDialog
 from covariscope.qt.project_io import ProjectIO, Prompts
 from covariscope.qt.review_table import PathsPanel, ReviewTable
 from covariscope.qt.settings_dialogs import ThresholdsDialog
@@ -46,6 +48,8 @@ from covariscope.views.commands import SetSettings
 from covariscope.views.diagnostics import node_labels
 from covariscope.views.diagram import canvas_annotations
 from covariscope.views.keep_choice import keep_choice, keep_choices_after
+from covariscope.views.messages import window_messages
+from covariscope.views.outcome_settings import family_columns_after
 from covariscope.views.recompute import recompute_summary
 from covariscope.views.review import proposed_after_toggle
 
@@ -84,8 +88,11 @@ class MainWindow(QMainWindow):
         self.data = DataController(self)
 
         self.strip = EstimatesStrip()
+        self.messages_bar = MessagesBar()
+        self.messages_bar.fix_requested.connect(self.apply_fix)
         self.centre = QWidget()
         QVBoxLayout(self.centre).setContentsMargins(0, 0, 0, 0)
+        self.centre.layout().addWidget(self.messages_bar)
         self.centre.layout().addWidget(self.strip)
         self.setCentralWidget(self.centre)
         self.scene: Any = None
@@ -266,6 +273,14 @@ class MainWindow(QMainWindow):
         self.review.refresh(self.project, self.result)
         self.paths.refresh(self.result, node_labels(self.project))
         self.strip.refresh(self.result)
+        self.messages_bar.refresh(
+            window_messages(
+                self.project,
+                self.result,
+                self.data.profiles,
+                data_loaded=self.data.table is not None,
+            )
+        )
 
     def _analysis_done(self, _generation: int, result: Any) -> None:
         self.hide_progress()
@@ -280,8 +295,10 @@ class MainWindow(QMainWindow):
         sample = getattr(result, "sample", None)
         if sample is not None:
             self.rows_label.setText(f"{sample.used:,} of {sample.rows:,} rows used")
+        elif self.data.table is not None:
+            self.rows_label.setText("Diagram only: see the messages above the diagram")
         else:
-            self.rows_label.setText("No data")
+            self.rows_label.setText("No data loaded")
         self._set_state("Analysis up to date")
         recomputed = getattr(result, "recomputed", None)
         if recomputed is not None:
@@ -395,6 +412,38 @@ class MainWindow(QMainWindow):
     def set_family(self, family: str) -> None:
         if family != self.project.analysis.family:
             self.push(SetSettings(self.project, f"Use the {family} model", family=family))
+
+    def outcome_columns_dialog(self) -> OutcomeColumnsDialog:
+        """The outcome-columns dialog for the project's family (not shown)."""
+        columns = list(self.data.table.frame.columns) if self.data.table is not None else []
+        return OutcomeColumnsDialog(self.project, [str(c) for c in columns], self)
+
+    def edit_outcome_columns(self) -> None:
+        dialog = self.outcome_columns_dialog()
+        if dialog.exec():
+            self.apply_outcome_columns(dialog.values())
+
+    def apply_outcome_columns(self, chosen: dict[str, str | None]) -> None:
+        """Save the family's outcome columns (one undo step)."""
+        family = self.project.analysis.family
+        after = family_columns_after(self.project, family, chosen)
+        if after != self.project.analysis.family_columns:
+            self.push(
+                SetSettings(
+                    self.project, f"Choose the {family} outcome columns", family_columns=after
+                )
+            )
+
+    def apply_fix(self, fix: str) -> None:
+        """The fix a problem in the messages bar offers."""
+        if fix == "outcome_columns":
+            self.edit_outcome_columns()
+        elif fix == "load":
+            self.data.choose_and_load()
+        elif fix == "bind":
+            self.docks["data"].show()
+            self.docks["data"].raise_()
+            self.show_message("Drag a column from the data panel onto the node, or pick it there.")
 
     def edit_thresholds(self) -> None:
         dialog = ThresholdsDialog(self.project.analysis.thresholds, self)

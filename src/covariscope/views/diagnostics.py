@@ -15,6 +15,7 @@ from typing import Any
 
 from covariscope.views.estimates import display_scale
 from covariscope.views.format import DASH, is_number, number, percent
+from covariscope.views.outcome_settings import outcome_column_in_use
 from covariscope.views.review import change_value, role_words
 from covariscope.vocabulary import CAUTIONS
 
@@ -301,12 +302,26 @@ def endpoint_diagnostics(
     node = project.diagram.node(node_id)
     family = project.analysis.family
     sample = getattr(result, "sample", None) if result else None
-    prof = (profiles or {}).get(node.column) if node.column else None
+    # the outcome's dialog shows the column the family's model reads, which
+    # may be another than the one bound to the node (a binary outcome, Cox)
+    column = outcome_column_in_use(project, family) if node.kind == "outcome" else node.column
+    prof = (profiles or {}).get(column) if column else None
     missing_pct = getattr(prof, "missing_pct", None)
     missing = f"{missing_pct:.1f}% of the rows" if is_number(missing_pct) else DASH
     lines = []
-    if node.column is None:
-        lines.append(f"{node.label} has no data column yet: bind one in the data panel.")
+    if node.kind == "outcome" and column != node.column:
+        chosen = project.analysis.family_columns.get(family, {})
+        read = ", ".join(f"{k} {v}" for k, v in sorted(chosen.items()))
+        lines.append(f"The {family} model reads the column(s) {read} (Analysis ▸ Outcome columns).")
+    if column is None:
+        lines.append(
+            f"{node.label} has no data column yet: bind one in the data panel"
+            + (
+                ", or choose them under Analysis ▸ Outcome columns."
+                if node.kind == "outcome"
+                else "."
+            )
+        )
     if sample is not None:
         rows, used = getattr(sample, "rows", None), getattr(sample, "used", None)
         if rows is not None and used is not None:
@@ -314,9 +329,9 @@ def endpoint_diagnostics(
                 f"Analytic sample: {used:,} of {rows:,} rows (complete cases on every "
                 "candidate covariate)."
             )
-        lost = (getattr(sample, "lost_by_column", None) or {}).get(node.column or "")
+        lost = (getattr(sample, "lost_by_column", None) or {}).get(column or "")
         if lost:
-            lines.append(f"Rows lost to missing {node.column}: {lost:,}.")
+            lines.append(f"Rows lost to missing {column}: {lost:,}.")
     if result is not None and getattr(result, "effect_measure", None):
         lines.append(f"Effect measure: {result.effect_measure}.")
     return EndpointDiagnostics(
@@ -324,7 +339,7 @@ def endpoint_diagnostics(
         label=node.label,
         kind=node.kind,
         title=f"{node.kind.capitalize()} — {node.label}",
-        column=node.column,
+        column=column,
         family=family,
         effect_measure=getattr(result, "effect_measure", "") or "",
         missing=missing,

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from typing import Any
 
-from PySide6.QtCore import QPoint, QPointF, Qt
+from PySide6.QtCore import QPoint, QPointF, QRectF, QSize, QSizeF, Qt
 from PySide6.QtGui import (
     QCursor,
     QKeyEvent,
@@ -13,7 +13,7 @@ from PySide6.QtGui import (
     QResizeEvent,
     QWheelEvent,
 )
-from PySide6.QtWidgets import QGraphicsView
+from PySide6.QtWidgets import QApplication, QGraphicsView
 
 from covariscope.qt.canvas.items import LabelEditor
 from covariscope.qt.canvas.scene import DiagramScene
@@ -22,6 +22,16 @@ __all__ = ["DiagramView"]
 
 _STEP = 1.2
 _MIN_ZOOM, _MAX_ZOOM = 0.15, 4.0
+
+
+def _close(a: QRectF, b: QRectF, tolerance: float) -> bool:
+    """Two rectangles equal to within ``tolerance`` on every edge."""
+    return (
+        abs(a.left() - b.left()) <= tolerance
+        and abs(a.top() - b.top()) <= tolerance
+        and abs(a.right() - b.right()) <= tolerance
+        and abs(a.bottom() - b.bottom()) <= tolerance
+    )
 
 
 class DiagramView(QGraphicsView):
@@ -35,13 +45,15 @@ class DiagramView(QGraphicsView):
         self.setRenderHints(QPainter.RenderHint.Antialiasing | QPainter.RenderHint.TextAntialiasing)
         self.setDragMode(QGraphicsView.DragMode.RubberBandDrag)
         self.setTransformationAnchor(QGraphicsView.ViewportAnchor.AnchorUnderMouse)
-        self.setResizeAnchor(QGraphicsView.ViewportAnchor.AnchorViewCenter)
+        # a scroll bar coming or going must not shift the drawing under the pointer
+        self.setResizeAnchor(QGraphicsView.ViewportAnchor.NoAnchor)
         self.setViewportUpdateMode(QGraphicsView.ViewportUpdateMode.BoundingRectViewportUpdate)
         self.setAcceptDrops(True)
         self._pan_from: QPoint | None = None
         self._space = False
         #: the user zoomed or panned: the window stops refitting on resize
         self.user_zoomed = False
+        self._measured_size = QSize()
         scene.mode_changed.connect(self._on_mode)
         scene.changed.connect(self._track_items)
 
@@ -80,21 +92,42 @@ class DiagramView(QGraphicsView):
     def _track_items(self, *_regions: Any) -> None:
         """Keep the scrollable area = the diagram plus what is in view, so
         scroll bars appear only when part of the diagram is out of sight and
-        a node added or moved beyond the edge can still be reached."""
+        a node added or moved beyond the edge can still be reached.
+
+        What is "in view" is measured on the whole frame, not the viewport:
+        a scroll bar coming or going then changes nothing here, so the two
+        cannot chase each other (that loop redrew an idle window for ever).
+        The visible part of the diagram stays where it is on the screen when
+        the area grows or shrinks, so nothing moves under the pointer."""
         items = self.diagram_scene.itemsBoundingRect()
         if items.isNull():
             return
-        pad = 2.0 / max(self.zoom(), 1e-6)  # rounding must not bring the bars back
-        seen = self.mapToScene(self.viewport().rect()).boundingRect()
+        zoom = max(self.zoom(), 1e-6)
+        pad = 2.0 / zoom  # rounding must not bring the bars back
+        frame = self.contentsRect()
+        origin = self.mapToScene(QPoint(0, 0))
+        seen = QRectF(origin, QSizeF(frame.width() / zoom, frame.height() / zoom))
         seen = seen.adjusted(pad, pad, -pad, -pad)
         wanted = items.adjusted(-30, -30, 30, 30).united(seen)
-        if wanted != self.sceneRect():
-            self.setSceneRect(wanted)
+        if QApplication.mouseButtons() != Qt.MouseButton.NoButton:
+            wanted = wanted.united(self.sceneRect())  # a drag only ever grows the area
+        if _close(wanted, self.sceneRect(), 0.5 / zoom):
+            return
+        anchor = self.mapToScene(QPoint(0, 0))
+        self.setSceneRect(wanted)
+        moved = self.mapFromScene(anchor)
+        if moved != QPoint(0, 0):
+            bars = self.horizontalScrollBar(), self.verticalScrollBar()
+            bars[0].setValue(bars[0].value() + moved.x())
+            bars[1].setValue(bars[1].value() + moved.y())
 
     def resizeEvent(self, event: QResizeEvent) -> None:
         super().resizeEvent(event)
-        # a scroll bar coming or going resizes the viewport: measure again
-        self._track_items()
+        # only a change of the frame (the window or a dock resized) measures
+        # again; the viewport resized by a scroll bar does not
+        if self.size() != self._measured_size:
+            self._measured_size = self.size()
+            self._track_items()
 
     def wheelEvent(self, event: QWheelEvent) -> None:
         if event.modifiers() & Qt.KeyboardModifier.ControlModifier:
