@@ -22,6 +22,7 @@ from covariscope.vocabulary import (
     ColumnType,
     Family,
     Kind,
+    ModificationForm,
     Role,
     Threshold,
     VerdictCode,
@@ -62,7 +63,10 @@ def test_schema_enums_equal_the_vocabulary():
     measures = {t.effect_measure for t in FAMILY_TERMS.values()}
     measures |= {t.count_measure for t in FAMILY_TERMS.values()}
     assert set(enums["/properties/effect_measure"]) == measures
-    assert len(enums) == 5  # a new enum in the schema must be compared here too
+    assert enums["/properties/modification/additionalProperties/properties/form"] == [
+        f.value for f in ModificationForm
+    ]
+    assert len(enums) == 6  # a new enum in the schema must be compared here too
 
 
 @pytest.mark.parametrize(
@@ -95,6 +99,9 @@ def test_threshold_defaults_are_the_documented_guides():
         "vif": 10.0,
         "r2": 0.9,
         "condition_index": 30.0,
+        # effect modification: p < 0.05 is the usual test level; the ratio 1.5 is common practice
+        "modification_p": 0.05,
+        "modification_ratio": 1.5,
     }
 
 

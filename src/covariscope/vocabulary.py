@@ -41,6 +41,7 @@ __all__ = [
     "Family",
     "FamilyTerm",
     "Kind",
+    "ModificationForm",
     "Role",
     "Term",
     "Threshold",
@@ -433,6 +434,17 @@ class Threshold(StrEnum):
     VIF = "vif"
     R2 = "r2"
     CONDITION_INDEX = "condition_index"
+    MODIFICATION_P = "modification_p"
+    MODIFICATION_RATIO = "modification_ratio"
+
+
+class ModificationForm(StrEnum):
+    """How the exposure's effect across a modifier's levels was estimated."""
+
+    #: linear combinations of one model with exposure × covariate product terms
+    MODEL = "model"
+    #: separate fits on each stratum's rows
+    STRATA = "strata"
 
 
 @dataclass(frozen=True)
@@ -479,6 +491,23 @@ THRESHOLD_TERMS: Mapping[Threshold, ThresholdTerm] = MappingProxyType(
             "condition index",
             "A condition index of the full model above this points at a collinear group.",
             default=30.0,
+        ),
+        Threshold.MODIFICATION_P: ThresholdTerm(
+            "modification_p",
+            "Effect modification: interaction p below",
+            "interaction p",
+            "A covariate whose interaction test with the exposure has p below this, and whose "
+            "stratum estimates differ by the ratio guide, is flagged as a possible modifier "
+            "(not a confounder; no reason to adjust or not).",
+            default=0.05,
+        ),
+        Threshold.MODIFICATION_RATIO: ThresholdTerm(
+            "modification_ratio",
+            "Effect modification: stratum estimates' ratio",
+            "ratio of stratum estimates",
+            "With the interaction p guide, the ratio of the largest to the smallest stratum "
+            "estimate past which a covariate is flagged as a possible modifier.",
+            default=1.5,
         ),
     }
 )

@@ -123,3 +123,55 @@ def test_dialog_keeps_another_member_of_the_group(qtbot, window, demo, wait_for_
     assert not plain.keep_box.isVisibleTo(plain)
     plain.close()
     dialog.close()
+
+
+def test_collinearity_picture_renders(qtbot, window, demo, wait_for_analysis, shots):
+    # Image test: the dialog of a member of a collinear group draws the joint
+    # region (its outline colour is on the canvas) and says what it shows.
+    from PySide6.QtGui import QColor
+
+    w = window
+    w.io.open(str(demo / "demo_project.json"))
+    wait_for_analysis(qtbot, w)
+    dialog = w.open_diagnostics("income")
+    dialog.plots.setCurrentIndex(1)
+    QApplication.processEvents()
+    assert dialog.plots.isTabEnabled(1)
+    assert dialog.state is not None
+    assert dialog.state.pictures
+    assert "carry an effect of" in dialog.joint_note.text()
+    dialog.joint_canvas.draw()
+    image = dialog.joint_canvas.grab().toImage()
+    outline = QColor("#0072B2")
+    hits = sum(
+        image.pixelColor(x, y) == outline
+        for x in range(0, image.width(), 2)
+        for y in range(0, image.height(), 2)
+    )
+    assert hits > 20
+    assert dialog.grab().save(str(shots / "diagnostics_collinearity.png"))
+    dialog.close()
+    # a covariate in no collinear group has the tab switched off
+    plain = w.open_diagnostics("age")
+    assert not plain.plots.isTabEnabled(1)
+    plain.close()
+
+
+def test_effect_modification_tab_draws_the_strata(qtbot, window, demo, wait_for_analysis, shots):
+    # The forest plot has one point per level, and the sentence says that
+    # modification is not confounding.
+    from covariscope.views.modification import NOT_CONFOUNDING
+
+    w = window
+    w.io.open(str(demo / "demo_project.json"))
+    wait_for_analysis(qtbot, w)
+    dialog = w.open_diagnostics("smoke")
+    dialog.plots.setCurrentIndex(2)
+    QApplication.processEvents()
+    assert dialog.plots.isTabEnabled(2)
+    strata = w.result.modification["smoke"].strata
+    points = dialog.modification_figure.axes[0].lines[0].get_xdata()
+    assert len(points) == len(strata) == 3
+    assert NOT_CONFOUNDING in dialog.modification_note.text()
+    assert dialog.grab().save(str(shots / "diagnostics_modification.png"))
+    dialog.close()

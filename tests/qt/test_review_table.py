@@ -6,6 +6,11 @@ from __future__ import annotations
 import pytest
 from PySide6.QtCore import Qt
 
+from covariscope.views.review import REVIEW_COLUMNS
+
+CHECK = len(REVIEW_COLUMNS) - 1
+VERDICT = CHECK - 1
+
 
 def test_tick_is_one_undoable_proposed_set(qtbot, window, demo, wait_for_analysis):
     w = window
@@ -17,19 +22,19 @@ def test_tick_is_one_undoable_proposed_set(qtbot, window, demo, wait_for_analysi
     # the canvas's own toggle lands in the table too
     w.scene.proposed_toggled.emit("family_hist", False)
     row = w.review.row_of("family_hist")
-    assert w.review.table.item(row, 7).checkState() == Qt.CheckState.Unchecked
+    assert w.review.table.item(row, CHECK).checkState() == Qt.CheckState.Unchecked
     w.undo_stack.undo()
     w.undo_stack.undo()
     assert w.project.proposed == before
     wait_for_analysis(qtbot, w)
     # unmeasured covariates cannot be ticked
     row = w.review.row_of("early_life")
-    flags = w.review.table.item(row, 7).flags()
+    flags = w.review.table.item(row, CHECK).flags()
     assert not flags & Qt.ItemFlag.ItemIsUserCheckable
     # the verdict's reason is the tooltip and the detail line
     w.review.select_node("age")
     reason = w.result.verdicts["age"].reason
-    assert w.review.table.item(w.review.row_of("age"), 6).toolTip() == reason
+    assert w.review.table.item(w.review.row_of("age"), VERDICT).toolTip() == reason
     assert reason in w.review.detail.text()
 
 
@@ -147,7 +152,7 @@ def test_keep_another_member_from_the_table(qtbot, window, demo, wait_for_analys
     assert choice.kept not in w.result.recommended
     assert w.result.verdicts[other].suggested == other
     assert w.strip.texts()["recommended"] != strip_before
-    verdict_cell = w.review.table.item(w.review.row_of(other), 6).text()
+    verdict_cell = w.review.table.item(w.review.row_of(other), VERDICT).text()
     assert verdict_cell.endswith("this one kept (your choice)")
     now = w.review.keep_choice_of(other)
     assert now.saved

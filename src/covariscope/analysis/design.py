@@ -35,6 +35,7 @@ __all__ = [
     "code_column",
     "code_term",
     "constant_message",
+    "level_texts",
     "make_design",
     "outcome_values",
     "plan_term",
@@ -67,6 +68,9 @@ class Block:
     values: np.ndarray
     #: column positions in :attr:`Design.values`
     index: tuple[int, ...]
+    #: a binary or categorical term's levels as text, the reference first, then
+    #: one per column; empty for a continuous or count term
+    levels: tuple[str, ...] = ()
 
     @property
     def df(self) -> int:
@@ -105,6 +109,11 @@ class Design:
     @property
     def exposure(self) -> np.ndarray:
         return self.values[:, 0]
+
+    @property
+    def rows_in_memory(self) -> bool:
+        """True when :attr:`values` holds the rows (not a design of rows left at their source)."""
+        return bool(self.values.shape[0] == self.n)
 
     @property
     def n_design_columns(self) -> int:
@@ -170,6 +179,8 @@ class TermCoding:
     names: tuple[str, ...]
     levels: tuple[Any, ...] | None
     what: str
+    #: the reference level of a binary or categorical term
+    reference: Any = None
 
 
 def plan_term(spec: TermSpec, uniques: Any, what: str) -> TermCoding:
@@ -199,8 +210,24 @@ def plan_term(spec: TermSpec, uniques: Any, what: str) -> TermCoding:
         )
     others = tuple(v for v in levels if v != reference)
     if spec.type == "binary" and len(others) == 1:
-        return TermCoding(spec.column, (spec.column,), others, what)
-    return TermCoding(spec.column, tuple(f"{spec.column}[{v}]" for v in others), others, what)
+        return TermCoding(spec.column, (spec.column,), others, what, reference)
+    return TermCoding(
+        spec.column, tuple(f"{spec.column}[{v}]" for v in others), others, what, reference
+    )
+
+
+def _level_text(value: Any) -> str:
+    """A level as text: a whole number read as a float (1.0) shows as 1."""
+    if isinstance(value, float | np.floating) and float(value).is_integer():
+        return str(int(value))
+    return str(value)
+
+
+def level_texts(coding: TermCoding) -> tuple[str, ...]:
+    """A coded term's levels as text, the reference first; empty for a numeric or constant term."""
+    if not coding.levels:
+        return ()
+    return (_level_text(coding.reference), *(_level_text(v) for v in coding.levels))
 
 
 def code_term(frame: pd.DataFrame, coding: TermCoding) -> list[np.ndarray]:
@@ -217,15 +244,17 @@ def code_term(frame: pd.DataFrame, coding: TermCoding) -> list[np.ndarray]:
     return [(series == v).to_numpy(dtype=np.float64) for v in coding.levels]
 
 
-def _coded(frame: pd.DataFrame, spec: TermSpec, what: str) -> tuple[list[str], list[np.ndarray]]:
-    """Design columns of one term: names and vectors."""
+def _coded(
+    frame: pd.DataFrame, spec: TermSpec, what: str
+) -> tuple[list[str], list[np.ndarray], tuple[str, ...]]:
+    """Design columns of one term: names, vectors and level texts (reference first)."""
     if spec.type not in ("continuous", "count") and spec.column not in frame.columns:
         raise DataError(
             f"Column {spec.column!r} ({what}) is not in the analytic sample; bind an existing column."
         )
     uniques = frame[spec.column] if spec.type not in ("continuous", "count") else ()
     coding = plan_term(spec, uniques, what)
-    return list(coding.names), code_term(frame, coding)
+    return list(coding.names), code_term(frame, coding), level_texts(coding)
 
 
 @dataclass(frozen=True, eq=False)
@@ -234,6 +263,8 @@ class CodedTerm:
 
     names: tuple[str, ...]
     values: np.ndarray
+    #: a binary or categorical term's levels as text, the reference first; else empty
+    levels: tuple[str, ...] = ()
 
     @property
     def nbytes(self) -> int:
@@ -302,9 +333,12 @@ def code_column(series: pd.Series, spec: TermSpec, what: str) -> CodedTerm:
     position = {_key(v): i for i, v in enumerate(present)}
     others = [v for v in levels if v != reference]
     positions = [position[_key(v)] for v in others]
+    texts = (_level_text(reference), *(_level_text(v) for v in others))
     if spec.type == "binary" and len(others) == 1:
-        return CodedTerm((spec.column,), _dummies(codes, positions))
-    return CodedTerm(tuple(f"{spec.column}[{v}]" for v in others), _dummies(codes, positions))
+        return CodedTerm((spec.column,), _dummies(codes, positions), texts)
+    return CodedTerm(
+        tuple(f"{spec.column}[{v}]" for v in others), _dummies(codes, positions), texts
+    )
 
 
 def _key(value: Any) -> tuple[str, Any]:
@@ -394,7 +428,7 @@ def make_design(
         raise DataError(f"Unknown model family {family!r}; use one of {', '.join(FAMILIES)}.")
     exposure_node = exposure_node or exposure.column
     n = len(frame)
-    names, vectors = _coded(frame, exposure, "exposure")
+    names, vectors, _ = _coded(frame, exposure, "exposure")
     if len(vectors) > 1:
         raise DataError(
             f"The exposure {exposure.column!r} has {len(vectors) + 1} levels; Covariscope compares "
@@ -404,8 +438,9 @@ def make_design(
     all_names = [exposure_name]
     all_vectors = list(vectors)
     spans: dict[str, tuple[list[str], tuple[int, ...]]] = {}
+    texts: dict[str, tuple[str, ...]] = {}
     for node, spec in covariates.items():
-        cnames, cvecs = _coded(frame, spec, f"covariate {node}")
+        cnames, cvecs, texts[node] = _coded(frame, spec, f"covariate {node}")
         start = len(all_vectors)
         all_names += cnames
         all_vectors += cvecs
@@ -473,7 +508,7 @@ def make_design(
     if y is not None:
         values[:, -1] = y
     blocks = {
-        node: Block(node, tuple(cn), values[:, idx[0] : idx[-1] + 1], idx)
+        node: Block(node, tuple(cn), values[:, idx[0] : idx[-1] + 1], idx, texts[node])
         for node, (cn, idx) in spans.items()
     }
     digest = hashlib.sha256(values.data.cast("B"))
@@ -603,6 +638,7 @@ class DesignBuilder:
         self._names: list[str] = []
         self._spans: dict[str, tuple[tuple[str, ...], tuple[int, ...]]] = {}
         self._columns: dict[str, str] = {}
+        self._levels: dict[str, tuple[str, ...]] = {}
 
     def add_exposure(self, exposure: CodedTerm) -> None:
         """Write the exposure (first, once); refuses a multi-level or constant one."""
@@ -618,6 +654,7 @@ class DesignBuilder:
         self._names += term.names
         self._spans[node] = (term.names, tuple(range(start, start + k)))
         self._columns[node] = column
+        self._levels[node] = term.levels
 
     def build(self, *, family: str, exposure_node: str, outcomes: Outcomes, key: str) -> Design:
         """The design; raises :class:`DataError` when too few rows for the crude model."""
@@ -647,7 +684,7 @@ class DesignBuilder:
             exposure_name=self._names[0],
             values=values,
             blocks={
-                node: Block(node, cn, values[:, idx[0] : idx[-1] + 1], idx)
+                node: Block(node, cn, values[:, idx[0] : idx[-1] + 1], idx, self._levels[node])
                 for node, (cn, idx) in spans.items()
             },
             y=values[:, q] if y is not None else None,

@@ -15,7 +15,13 @@ from collections.abc import Mapping
 
 import numpy as np
 
-from covariscope.analysis.design import Block, Design, TermCoding, constant_message
+from covariscope.analysis.design import (
+    Block,
+    Design,
+    TermCoding,
+    constant_message,
+    level_texts,
+)
 from covariscope.analysis.fits import FAMILIES
 from covariscope.analysis.rows import ColumnStats, RowReducer, column_stats, merge_column_stats
 from covariscope.errors import DataError
@@ -120,7 +126,7 @@ def make_row_design(
         )
     values = np.empty((0, len(names) + 1))
     blocks = {
-        node: Block(node, cn, values[:, idx[0] : idx[-1] + 1], idx)
+        node: Block(node, cn, values[:, idx[0] : idx[-1] + 1], idx, level_texts(covariates[node]))
         for node, (cn, idx) in spans.items()
     }
     spec = repr((family, exposure_node, names, list(covariates), outcome, source_key))

@@ -570,6 +570,8 @@ class EvidenceEngine:
             df_resid=res.df_resid,
             n_params=len(names) + 1,
             term_coefs=term_coefs,
+            cov_columns=tuple(names),
+            cov=res.cov,
         )
 
 

@@ -5,6 +5,8 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass, field
 
+import numpy as np
+
 from covariscope.vocabulary import RATIO_FAMILIES, Family, family_term
 
 __all__ = ["FAMILIES", "Fit", "effect_measure"]
@@ -47,6 +49,33 @@ class Fit:
     n_params: int = 0
     #: coefficient, SE and CI of every covariate term's columns, by design column name
     term_coefs: dict[str, tuple[float, float, float, float]] = field(default_factory=dict)
+    #: design column names of :attr:`cov` (the exposure's column first; no intercept)
+    cov_columns: tuple[str, ...] = ()
+    #: covariance matrix of the coefficients of :attr:`cov_columns` (robust for risk ratios)
+    cov: np.ndarray | None = field(default=None, compare=False, repr=False)
+
+    def covariance(self, columns: tuple[str, ...]) -> np.ndarray | None:
+        """The covariance block of ``columns`` (design column names), or None
+        when the fit did not keep it or lacks one of them.
+
+        >>> fit = Fit("linear", ("z",), 1.0, 0.1, (0.8, 1.2), 50,
+        ...           cov_columns=("x", "z"), cov=np.array([[0.01, 0.002], [0.002, 0.04]]))
+        >>> fit.covariance(("z", "x")).tolist()
+        [[0.04, 0.002], [0.002, 0.01]]
+        """
+        if self.cov is None or any(c not in self.cov_columns for c in columns):
+            return None
+        idx = [self.cov_columns.index(c) for c in columns]
+        block: np.ndarray = self.cov[np.ix_(idx, idx)]
+        return block
+
+    def coefficient(self, column: str) -> float | None:
+        """The coefficient of one design column (the exposure's when it is
+        :attr:`cov_columns`'s first), or None when the fit does not hold it."""
+        if self.cov_columns and column == self.cov_columns[0]:
+            return self.coef
+        hit = self.term_coefs.get(column)
+        return None if hit is None else hit[0]
 
     @property
     def ratio(self) -> float | None:

@@ -268,6 +268,9 @@ def fit_from_params(
         else:
             bj, sj = float(params[j]), float(se[j])
             term_coefs[name] = (bj, sj, bj - Z95 * sj, bj + Z95 * sj)
+    kept = [j for j in range(len(names)) if j not in skip]
+    kept.remove(exposure_index)
+    kept.insert(0, exposure_index)
     return Fit(
         family,
         terms,
@@ -275,6 +278,8 @@ def fit_from_params(
         s,
         (b - Z95 * s, b + Z95 * s),
         n,
+        cov_columns=tuple(names[j] for j in kept),
+        cov=np.asarray(cov)[np.ix_(kept, kept)],
         ok=True,
         converged=converged,
         message=message,

@@ -147,6 +147,8 @@ class OLSResult:
     #: diagonal of the inverse correlation matrix of the regressors = VIF of each column
     vif: np.ndarray
     n: int
+    #: covariance matrix of the slopes (the intercept left out)
+    cov: np.ndarray | None = None
 
     @property
     def sigma(self) -> float:
@@ -243,4 +245,7 @@ def solve_ols(summary: LinearSummary, columns: Sequence[int], outcome: int) -> O
     intercept = float(summary.mean[outcome] - mean_x @ coef)
     u = inv_l @ (mean_x / s_x)
     intercept_se = float(np.sqrt(sigma2 * (1.0 / n + u @ u)))
-    return OLSResult(tuple(cols), coef, se, intercept, intercept_se, rss, tss, df, rinv_diag, n)
+    cov = sigma2 * (inv_l.T @ inv_l) / np.outer(s_x, s_x)
+    return OLSResult(
+        tuple(cols), coef, se, intercept, intercept_se, rss, tss, df, rinv_diag, n, cov
+    )

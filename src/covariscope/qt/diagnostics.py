@@ -26,13 +26,17 @@ from PySide6.QtWidgets import (
     QLabel,
     QPlainTextEdit,
     QPushButton,
+    QSizePolicy,
     QSplitter,
     QTableWidget,
     QTableWidgetItem,
+    QTabWidget,
     QVBoxLayout,
     QWidget,
 )
 
+from covariscope.qt.joint_plot import draw_picture
+from covariscope.qt.modification_plot import draw_modification
 from covariscope.qt.tables import filling
 from covariscope.views.diagnostics import (
     DIAGNOSTIC_CAUTION,
@@ -106,6 +110,19 @@ def _fill(table: QTableWidget, rows: list[tuple[str, ...]], fit: bool = True) ->
         table.horizontalHeader().height() + sum(table.rowHeight(i) for i in range(len(rows))) + 6
     )
     table.setFixedHeight(max(height, 40))
+
+
+def _beside(canvas: QWidget, note: QLabel) -> QWidget:
+    """A plot with its sentence to the right: the dialog has width to spare, not height."""
+    page = QWidget()
+    lay = QHBoxLayout(page)
+    lay.setContentsMargins(0, 0, 0, 0)
+    lay.addWidget(canvas, 1)
+    note.setFixedWidth(250)
+    note.setSizePolicy(QSizePolicy.Policy.Fixed, QSizePolicy.Policy.Ignored)
+    note.setAlignment(Qt.AlignmentFlag.AlignTop | Qt.AlignmentFlag.AlignLeft)
+    lay.addWidget(note)
+    return page
 
 
 class NodeDialog(QDialog):
@@ -217,8 +234,24 @@ class CovariateDialog(NodeDialog):
         self.estimate_canvas = FigureCanvasQTAgg(self.estimate_figure)
         self.data_figure = Figure(figsize=(4.4, 3.0), layout="constrained")
         self.data_canvas = FigureCanvasQTAgg(self.data_figure)
-        for c in (self.estimate_canvas, self.data_canvas):
-            c.setMinimumSize(300, 200)
+        self.joint_figure = Figure(figsize=(7.0, 1.7), layout="constrained")
+        self.joint_canvas = FigureCanvasQTAgg(self.joint_figure)
+        self.joint_note = QLabel()
+        self.joint_note.setObjectName("jointNote")
+        self.joint_note.setWordWrap(True)
+        self.modification_figure = Figure(figsize=(7.0, 1.7), layout="constrained")
+        self.modification_canvas = FigureCanvasQTAgg(self.modification_figure)
+        self.modification_note = QLabel()
+        self.modification_note.setObjectName("modificationNote")
+        self.modification_note.setWordWrap(True)
+        for c in (
+            self.estimate_canvas,
+            self.data_canvas,
+            self.joint_canvas,
+            self.modification_canvas,
+        ):
+            # the tab bar takes 30 px of the plots' height; the dialog must still fit 768 px
+            c.setMinimumSize(300, 170)
 
         checklist_box = QGroupBox("What the diagram says")
         QVBoxLayout(checklist_box).addWidget(self.checks)
@@ -229,9 +262,17 @@ class CovariateDialog(NodeDialog):
         nl.addWidget(self.models)
         nl.addWidget(self.figures, 1)
         nl.addWidget(self.messages)
-        plots = QSplitter(Qt.Orientation.Horizontal)
-        plots.addWidget(self.estimate_canvas)
-        plots.addWidget(self.data_canvas)
+        pair = QSplitter(Qt.Orientation.Horizontal)
+        pair.addWidget(self.estimate_canvas)
+        pair.addWidget(self.data_canvas)
+        joint = _beside(self.joint_canvas, self.joint_note)
+        self.plots = plots = QTabWidget()
+        plots.setDocumentMode(True)
+        plots.addTab(pair, "Estimates and data")
+        self._joint_tab = plots.addTab(joint, "What collinearity does")
+        self._modification_tab = plots.addTab(
+            _beside(self.modification_canvas, self.modification_note), "Effect modification"
+        )
 
         top = QHBoxLayout()
         left = QVBoxLayout()
@@ -277,6 +318,28 @@ class CovariateDialog(NodeDialog):
         self._show_keep(keep_choice(project, result, self.node_id))
         self._plot_estimates(s, getattr(result, "family", project.analysis.family))
         self._plot_data(s, project, profiles, _analysed_rows(sample, frame, s))
+        self._plot_joint(s)
+        self._plot_modification(s)
+
+    def _plot_modification(self, s: NodeDiagnostics) -> None:
+        view = s.modification
+        draw_modification(self.modification_figure, view)
+        self.modification_note.setText(view.summary if view is not None else "")
+        self.plots.setTabEnabled(self._modification_tab, view is not None)
+        self.modification_canvas.draw_idle()
+
+    def _plot_joint(self, s: NodeDiagnostics) -> None:
+        view = s.pictures[0] if s.pictures else None
+        draw_picture(self.joint_figure, view)
+        self.joint_note.setText(view.sentence if view is not None else "")
+        self.plots.setTabEnabled(self._joint_tab, view is not None)
+        self.plots.setTabToolTip(
+            self._joint_tab,
+            "The joint confidence region of the group's coefficients and the interval of their sum"
+            if view is not None
+            else "Shown for a member of a collinear group",
+        )
+        self.joint_canvas.draw_idle()
 
     def _show_keep(self, choice: KeepChoice | None) -> None:
         self.keep = choice

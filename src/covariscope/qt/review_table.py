@@ -21,7 +21,13 @@ from PySide6.QtWidgets import (
 from covariscope.qt.keep_menu import add_keep_actions
 from covariscope.qt.tables import filling
 from covariscope.views.keep_choice import KeepChoice, keep_choice, kept_words
-from covariscope.views.review import REVIEW_COLUMNS, ReviewRow, review_rows, rows_to_csv
+from covariscope.views.review import (
+    MODIFICATION_CAUTION,
+    REVIEW_COLUMNS,
+    ReviewRow,
+    review_rows,
+    rows_to_csv,
+)
 
 __all__ = ["PathsPanel", "ReviewTable", "open_paths"]
 
@@ -54,6 +60,7 @@ class ReviewTable(QWidget):
         for i in range(len(REVIEW_COLUMNS)):
             header.setSectionResizeMode(i, QHeaderView.ResizeMode.ResizeToContents)
         header.setSectionResizeMode(_VERDICT, QHeaderView.ResizeMode.Stretch)
+        self.table.horizontalHeaderItem(_VERDICT - 1).setToolTip(MODIFICATION_CAUTION)
         self.detail = QLabel("Select a covariate to read its verdict in full.")
         self.detail.setObjectName("reviewDetail")
         self.detail.setWordWrap(True)
@@ -100,6 +107,8 @@ class ReviewTable(QWidget):
                         item.setData(Qt.ItemDataRole.UserRole, row.node)
                         if c == _VERDICT:
                             item.setToolTip(row.reason or row.verdict)
+                        elif c == _VERDICT - 1:
+                            item.setToolTip(MODIFICATION_CAUTION)
                         elif c == 0:
                             item.setToolTip(row.detail)
                         if 2 <= c <= 5:

@@ -22,6 +22,8 @@ THRESHOLD_LABELS: dict[str, tuple[str, float, float, int]] = {
     "vif": ("Variance inflation factor", 1.01, 1000.0, 2),
     "r2": ("Auxiliary R²", 0.01, 0.999, 3),
     "condition_index": ("Condition index", 1.0, 1000.0, 1),
+    "modification_p": ("Effect modification: interaction p below", 0.001, 0.5, 3),
+    "modification_ratio": ("Effect modification: stratum estimates' ratio", 1.01, 100.0, 2),
 }
 
 

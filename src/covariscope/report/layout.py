@@ -481,6 +481,7 @@ def _compose(
     for heading, lines, what in (
         ("Collinearity (groups and the member kept)", content.collinearity, "groups"),
         ("Where the diagram and the data disagree", content.disagreements, "findings"),
+        ("Effect modification (not confounding)", content.modification, "modifiers"),
         ("Notes from the analysis", content.messages, "notes"),
     ):
         if not lines:

@@ -9,7 +9,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Callable, Mapping
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import networkx as nx
 
@@ -17,6 +17,8 @@ from covariscope.analysis.evalue import EValue, evalue_for_fit
 from covariscope.analysis.evidence import Comparison, EvidenceEngine, EvidenceTable
 from covariscope.analysis.fits import Fit
 from covariscope.analysis.graph import DiagramAnalysis, is_sufficient
+from covariscope.analysis.joint_region import CollinearityPicture, collinearity_pictures
+from covariscope.analysis.modification import Modification, modification_table
 from covariscope.analysis.recommend import Recommendation, pair_r2, recommend_set
 from covariscope.analysis.verdicts import (
     Facts,
@@ -74,6 +76,8 @@ class Decisions:
     evalue: EValue | None
     disagreements: tuple[str, ...]
     messages: tuple[str, ...]
+    pictures: tuple[CollinearityPicture, ...] = ()
+    modification: dict[str, Modification] = field(default_factory=dict)
 
 
 def _finite(value: float | None) -> float | None:
@@ -321,6 +325,41 @@ def _verdict(ctx: _Context, graph: nx.DiGraph, c: str) -> Verdict:
     return verdict
 
 
+def _rows_read(
+    q: Question,
+    evidence: EvidenceTable,
+    engine: EvidenceEngine,
+    groups: tuple[tuple[str, ...], ...],
+    estimates: Mapping[str, Fit | None],
+    messages: list[str],
+) -> tuple[tuple[CollinearityPicture, ...], dict[str, Modification]]:
+    """The collinearity pictures and effect modification: they read the rows themselves."""
+    thresholds = q.threshold
+    if not engine.design.rows_in_memory:
+        messages.append(
+            "Effect modification and the collinearity picture read the rows themselves, "
+            "so they are shown only when the data are analysed in memory."
+        )
+        return (), {}
+    aliases = [
+        c
+        for c, e in evidence.covariates.items()
+        if c in evidence.candidates and e.vif_exposure_added >= thresholds["vif"]
+    ]
+    pictures = collinearity_pictures(evidence.full, engine.design, groups, aliases)
+    rec_fit = estimates["recommended"]
+    modification: dict[str, Modification] = {}
+    if rec_fit is not None and rec_fit.ok:
+        modification = modification_table(
+            engine.design,
+            rec_fit.terms,
+            evidence.candidates,
+            p_guide=thresholds["modification_p"],
+            ratio_guide=thresholds["modification_ratio"],
+        )
+    return pictures, modification
+
+
 def decide(
     q: Question,
     graph: nx.DiGraph,
@@ -354,6 +393,8 @@ def decide(
     verdicts = {c: _verdict(ctx, graph, c) for c in da.roles}
     estimates: dict[str, Fit | None] = dict.fromkeys(ESTIMATE_KEYS)
     ev_value: EValue | None = None
+    pictures: tuple[CollinearityPicture, ...] = ()
+    modification: dict[str, Modification] = {}
     if evidence is not None and engine is not None:
         estimates["crude"] = evidence.crude
         estimates["full"] = evidence.full
@@ -367,6 +408,7 @@ def decide(
         )
         if problem:
             messages.append(problem)
+        pictures, modification = _rows_read(q, evidence, engine, groups, estimates, messages)
     label = dict(q.names)
     disagreements = tuple(
         f"{label.get(v.node, v.node)}: {v.reason}"
@@ -383,4 +425,6 @@ def decide(
         evalue=ev_value,
         disagreements=disagreements,
         messages=tuple(messages),
+        pictures=pictures,
+        modification=modification,
     )

@@ -464,4 +464,6 @@ def _result(
         recommended_reason=decisions.recommended_reason,
         names=dict(q.names),
         recomputed=tuple(dict.fromkeys(run.trace)),
+        pictures=decisions.pictures,
+        modification=decisions.modification,
     )

@@ -415,7 +415,9 @@ def _design(
         # The cached terms become views of the design: one copy of the numbers.
         for term_key, node in written:
             block = design.blocks[node]
-            run.cache.replace("term", term_key, CodedTerm(block.columns, block.values))
+            run.cache.replace(
+                "term", term_key, CodedTerm(block.columns, block.values, block.levels)
+            )
         return design
 
     design: Design = run.get("design", key, build)

@@ -9,6 +9,8 @@ from covariscope.analysis.evalue import EValue
 from covariscope.analysis.evidence import EvidenceTable
 from covariscope.analysis.fits import Fit
 from covariscope.analysis.graph import DiagramAnalysis
+from covariscope.analysis.joint_region import CollinearityPicture
+from covariscope.analysis.modification import Modification
 from covariscope.analysis.verdicts import Verdict
 from covariscope.data.sample import AnalyticSample, CompleteCases
 
@@ -44,6 +46,11 @@ class StudyResult:
     recommended_reason: str = ""
     #: Node id → label, for prose (ids stay the keys of the JSON).
     names: dict[str, str] = field(default_factory=dict)
+    #: joint confidence regions of collinear groups (and of near-aliases of the exposure)
+    pictures: tuple[CollinearityPicture, ...] = ()
+    #: effect modification of the exposure's effect by each candidate, in the
+    #: recommended model (not confounding; changes no verdict)
+    modification: dict[str, Modification] = field(default_factory=dict)
     #: The stages this run computed (the rest came from the cache), in order.
     recomputed: tuple[str, ...] = ()
     #: Models this run fitted (the rest came from the cache).
@@ -71,6 +78,10 @@ class StudyResult:
                 {tuple(sorted(v.group)) for v in self.verdicts.values() if v.code == "keep_one_of"}
             )
         )
+
+    def pictures_of(self, node: str) -> tuple[CollinearityPicture, ...]:
+        """The collinearity pictures that hold ``node``."""
+        return tuple(p for p in self.pictures if node in p.members)
 
     @property
     def has_data(self) -> bool:

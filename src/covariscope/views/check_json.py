@@ -12,6 +12,7 @@ import numpy as np
 
 from covariscope.analysis.evidence import Comparison
 from covariscope.analysis.fits import Fit
+from covariscope.analysis.modification import Modification
 from covariscope.study.result import ESTIMATE_KEYS, StudyResult
 
 __all__ = ["study_to_json"]
@@ -59,6 +60,31 @@ def _cmp_json(
     if added:
         out["vif_exposure"] = with_vif
     return out
+
+
+def _modification_json(m: Modification) -> dict[str, Any]:
+    """One covariate as a modifier of the exposure's effect (not confounding)."""
+    return {
+        "form": m.form,
+        "strata": [
+            {
+                "level": s.level,
+                "coef": s.coef,
+                "se": s.se,
+                "ci": list(s.ci),
+                "ratio": s.ratio,
+                "ratio_ci": list(s.ratio_ci) if s.ratio_ci is not None else None,
+                "n": s.n,
+            }
+            for s in m.strata
+        ],
+        "interaction_stat": m.interaction_stat,
+        "interaction_df": m.interaction_df,
+        "interaction_p": m.interaction_p,
+        "reri": m.reri,
+        "reri_ci": list(m.reri_ci) if m.reri_ci is not None else None,
+        "flagged": m.flagged,
+    }
 
 
 def study_to_json(result: StudyResult) -> dict[str, Any]:
@@ -125,6 +151,7 @@ def study_to_json(result: StudyResult) -> dict[str, Any]:
         else None
     )
     out["thresholds"] = dict(result.thresholds)
+    out["modification"] = {c: _modification_json(m) for c, m in result.modification.items()}
     out["disagreements"] = list(result.disagreements)
     out["messages"] = list(result.messages)
     cleaned: dict[str, Any] = _clean(out)

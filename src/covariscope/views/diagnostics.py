@@ -15,6 +15,8 @@ from typing import Any
 
 from covariscope.views.estimates import display_scale
 from covariscope.views.format import DASH, is_number, number, percent
+from covariscope.views.joint_picture import PictureView, picture_views
+from covariscope.views.modification import ModificationView, modification_view
 from covariscope.views.outcome_settings import outcome_column_in_use
 from covariscope.views.review import change_value, role_words
 from covariscope.vocabulary import CAUTIONS
@@ -66,6 +68,10 @@ class NodeDiagnostics:
     exposure_label: str = ""
     categorical: bool = False
     numbers: dict[str, Any] = field(default_factory=dict)
+    #: the collinearity pictures of the groups that hold the node
+    pictures: tuple[PictureView, ...] = ()
+    #: the exposure's effect across the covariate's levels (effect modification)
+    modification: ModificationView | None = None
 
 
 @dataclass(frozen=True)
@@ -264,6 +270,13 @@ def node_diagnostics(
         exposure_label=exposure.label if exposure else "",
         categorical=ctype in ("binary", "categorical"),
         numbers=numbers,
+        pictures=picture_views(getattr(result, "pictures", ()) or (), node_id, labels),
+        modification=modification_view(
+            (getattr(result, "modification", None) or {}).get(node_id),
+            node.label or node_id,
+            getattr(result, "effect_measure", "") or "",
+            getattr(result, "thresholds", None),
+        ),
     )
 
 

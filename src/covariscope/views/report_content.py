@@ -22,6 +22,7 @@ from itertools import pairwise
 from typing import Any
 
 from covariscope import __version__
+from covariscope.views.modification import flagged_lines
 from covariscope.views.review import change_value, role_words
 from covariscope.vocabulary import CAUTIONS, family_term
 
@@ -184,6 +185,8 @@ class RationaleContent:
     exposure: str
     outcome: str
     project_name: str
+    #: one line per flagged modifier of the exposure's effect (not confounding)
+    modification: tuple[str, ...] = ()
 
 
 def _get(obj: Any, name: str, default: Any = None) -> Any:
@@ -535,6 +538,8 @@ def build_content(result: Any, project: Any, *, today: _dt.date | None = None) -
         ("vif", "VIF", ""),
         ("r2", "R²", ""),
         ("condition_index", "condition index", ""),
+        ("modification_p", "interaction p", ""),
+        ("modification_ratio", "ratio of stratum estimates", ""),
     ):
         if key in thresholds:
             parts.append(f"{words} {thresholds[key]:g}{suffix}")
@@ -592,4 +597,5 @@ def build_content(result: Any, project: Any, *, today: _dt.date | None = None) -
         exposure=x_label,
         outcome=y_label,
         project_name=project_name,
+        modification=tuple(flagged_lines(_get(result, "modification", {}) or {}, label_of)),
     )

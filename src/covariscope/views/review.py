@@ -14,9 +14,11 @@ from covariscope.views.format import DASH, is_number, number, percent, ratio_fam
 from covariscope.vocabulary import change_read, role_label
 
 __all__ = [
+    "MODIFICATION_CAUTION",
     "REVIEW_COLUMNS",
     "ReviewRow",
     "change_value",
+    "modifier_text",
     "proposed_after_toggle",
     "review_rows",
     "rows_to_csv",
@@ -30,8 +32,16 @@ REVIEW_COLUMNS: tuple[str, ...] = (
     "Dropped: change %",
     "SE inflation %",
     "VIF",
+    "Modifies effect",
     "Verdict",
     "In proposed set",
+)
+
+#: Said beside the effect-modification column and in its tooltips.
+MODIFICATION_CAUTION = (
+    "Effect modification: the exposure's effect differs across levels of this covariate "
+    "(interaction test and stratum estimates against the editable guides). It is not "
+    "confounding, and it is no reason to adjust for the covariate or not."
 )
 
 
@@ -58,6 +68,8 @@ class ReviewRow:
     detail: str
     proposed: bool
     measured: bool
+    #: "yes, p = …" past the modification guides, "no" below them, a dash when not examined
+    modifier: str = DASH
 
     def cells(self) -> tuple[str, ...]:
         """The text cells, in :data:`REVIEW_COLUMNS` order (checkbox as yes/no)."""
@@ -68,6 +80,7 @@ class ReviewRow:
             self.dropped_change,
             self.se_inflation,
             self.vif,
+            self.modifier,
             self.verdict,
             "yes" if self.proposed else "no",
         )
@@ -81,6 +94,15 @@ def change_value(comparison: Comparison | None, family: str) -> float | None:
     return change_read(
         comparison.change_pct, comparison.change_pct_ratio, ratio=ratio_family(family)
     )
+
+
+def modifier_text(modification: Any) -> str:
+    """The effect-modification cell: flagged or not, with the interaction p."""
+    if modification is None or not modification.strata:
+        return DASH
+    p = modification.interaction_p
+    p_text = "p < 0.001" if is_number(p) and p < 0.001 else f"p = {number(p, 3)}"
+    return f"yes, {p_text}" if modification.flagged else "no"
 
 
 def _evidence_for(result: Any, node_id: str) -> Any:
@@ -99,6 +121,7 @@ def review_rows(project: Any, result: Any = None) -> list[ReviewRow]:
     family = getattr(result, "family", None) or project.analysis.family
     roles = getattr(getattr(result, "diagram", None), "roles", None) or {}
     verdicts = getattr(result, "verdicts", None) or {}
+    modifications = getattr(result, "modification", None) or {}
     rows = []
     for node in project.diagram.covariates:
         facts = roles.get(node.id)
@@ -134,6 +157,7 @@ def review_rows(project: Any, result: Any = None) -> list[ReviewRow]:
                 detail=" — ".join(detail_bits),
                 proposed=node.id in proposed,
                 measured=node.measured,
+                modifier=modifier_text(modifications.get(node.id)),
             )
         )
     return rows

@@ -1,0 +1,315 @@
+"""Effect modification: the exposure effect within levels of a covariate.
+
+Modification is not confounding: it says that the exposure's effect differs
+across levels of a covariate, not that the covariate biases the estimate, and
+it is no reason to adjust for the covariate or not.  It is looked for in the
+recommended model, extended by the covariate's main effect (when the model
+lacks it) and the exposure × covariate product terms (the *model* form):
+
+- the exposure effect at each level of a binary or categorical covariate, or
+  at the quartiles of a continuous one, is the linear combination
+  ``b_X + b_{X×level}`` (``b_X + b_{X×M}·m``) with its Wald interval from
+  the model's covariance matrix;
+- the interaction test is the Wald test of every product coefficient at once
+  (χ² for ratio measures; F = χ²/df on (df, residual df) for a linear model);
+- for odds, risk and hazard ratios with a binary exposure and a binary
+  covariate, the interaction on the additive scale, the relative excess risk
+  due to interaction, ``RERI = e^{b1+b2+b3} − e^{b1} − e^{b2} + 1``, with the
+  delta-method interval of Hosmer & Lemeshow (1992).
+
+References
+----------
+Hosmer, D. W. & Lemeshow, S. (1992). Confidence interval estimation of
+interaction. *Epidemiology* 3, 452–456.
+
+VanderWeele, T. J. & Knol, M. J. (2014). A tutorial on interaction.
+*Epidemiologic Methods* 3, 33–72.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Sequence
+from dataclasses import dataclass
+
+import numpy as np
+import scipy.stats
+
+from covariscope.analysis.design import Design
+from covariscope.vocabulary import RATIO_FAMILIES, ModificationForm
+
+__all__ = ["Modification", "Stratum", "effect_modification", "modification_table", "reri"]
+
+
+@dataclass(frozen=True)
+class Stratum:
+    """The exposure effect in one level (or at one value) of the covariate."""
+
+    level: str
+    coef: float
+    se: float
+    ci: tuple[float, float]
+    n: int
+    #: exp(coef) and its interval for ratio measures, else None
+    ratio: float | None = None
+    ratio_ci: tuple[float, float] | None = None
+
+
+@dataclass(frozen=True)
+class Modification:
+    """What the data say about one covariate as a modifier of the exposure's effect.
+
+    ``spread`` is the ratio of the largest to the smallest stratum estimate:
+    on the ratio scale for ratio measures, of the absolute estimates for a
+    mean difference (infinite when their signs differ).  ``flagged`` is
+    ``interaction_p < p_guide and spread ≥ ratio_guide``.
+    """
+
+    node: str
+    form: str
+    kind: str
+    strata: tuple[Stratum, ...]
+    interaction_stat: float
+    interaction_df: int
+    interaction_p: float
+    spread: float
+    flagged: bool
+    reri: float | None = None
+    reri_ci: tuple[float, float] | None = None
+    message: str = ""
+    #: "F" for a linear model's test, "chi2" for the Wald χ² of the others
+    interaction_stat_kind: str = "chi2"
+
+
+def reri(
+    b: Sequence[float], cov: np.ndarray, *, level: float = 0.95
+) -> tuple[float, float, tuple[float, float]]:
+    """RERI and its delta-method interval (Hosmer & Lemeshow 1992).
+
+    Parameters
+    ----------
+    b : (b1, b2, b3)
+        Log-ratio coefficients of the exposure, the modifier and their product.
+    cov : 3 × 3 covariance matrix of ``b``.
+
+    Returns
+    -------
+    (reri, se, (low, high))
+
+    Examples
+    --------
+    >>> r, se, ci = reri([0.0, 0.0, 0.0], np.eye(3) * 0.01)
+    >>> r, round(se, 4)
+    (0.0, 0.1)
+    """
+    b1, b2, b3 = (float(v) for v in b)
+    joint = math.exp(b1 + b2 + b3)
+    value = joint - math.exp(b1) - math.exp(b2) + 1.0
+    grad = np.array([joint - math.exp(b1), joint - math.exp(b2), joint])
+    se = math.sqrt(max(float(grad @ cov @ grad), 0.0))
+    z = float(scipy.stats.norm.ppf(0.5 + level / 2.0))
+    return value, se, (value - z * se, value + z * se)
+
+
+@dataclass(frozen=True)
+class _Fitted:
+    coef: np.ndarray
+    cov: np.ndarray
+    df_resid: int | None
+
+
+def _fit(design: Design, X: np.ndarray, names: list[str]) -> _Fitted | str:
+    """Fit exposure-first columns ``X`` (no intercept) in the design's family."""
+    family = design.family
+    if family == "linear":
+        from covariscope.analysis.linear import linear_summary, solve_ols
+
+        assert design.y is not None
+        values = np.column_stack([X, design.y])
+        res = solve_ols(linear_summary(values), list(range(X.shape[1])), X.shape[1])
+        if res is None or res.cov is None:
+            return "the columns of the interaction model are exactly collinear"
+        return _Fitted(res.coef, res.cov, res.df_resid)
+    if family == "cox":
+        from covariscope.analysis.survival import fit_cox
+
+        assert design.time is not None
+        assert design.event is not None
+        fit, _ = fit_cox(X, design.time, design.event, column_names=names, terms=())
+    else:
+        from covariscope.analysis.glm import fit_glm
+
+        assert design.y is not None
+        Xi = np.column_stack([np.ones(len(X)), X])
+        fit, _ = fit_glm(
+            Xi,
+            design.y,
+            family,
+            column_names=["(intercept)", *names],
+            terms=(),
+            offset=design.offset,
+        )
+    if not fit.ok or fit.cov is None:
+        return fit.message or "the interaction model could not be fitted"
+    coef = np.array([fit.coefficient(n) for n in names], dtype=float)
+    return _Fitted(coef, fit.cov, None)
+
+
+def _wald(b: np.ndarray, V: np.ndarray, df_resid: int | None) -> tuple[float, float]:
+    chi2 = float(b @ np.linalg.solve(V, b))
+    k = len(b)
+    if df_resid is not None:
+        f = chi2 / k
+        return f, float(scipy.stats.f.sf(f, k, df_resid))
+    return chi2, float(scipy.stats.chi2.sf(chi2, k))
+
+
+def _strata_values(
+    design: Design, node: str
+) -> tuple[str, list[tuple[str, np.ndarray, np.ndarray]]]:
+    """(kind, [(label, weights on the product columns, row mask)]) for the covariate."""
+    block = design.blocks[node]
+    m = block.values
+    if block.levels:
+        rest = m.sum(axis=1) == 0
+        out = [(f"{block.levels[0]} (reference)", np.zeros(block.df), rest)]
+        for j, text in enumerate(block.levels[1:]):
+            out.append((text, np.eye(block.df)[j], m[:, j] == 1))
+        return "levels", out
+    col = m[:, 0]
+    q = np.quantile(col, [0.25, 0.5, 0.75])
+    nearest = np.argmin(np.abs(col[:, None] - q[None, :]), axis=1)
+    labels = ("25th percentile", "median", "75th percentile")
+    return "quartiles", [
+        (f"{name} ({v:.3g})", np.array([v]), nearest == k)
+        for k, (name, v) in enumerate(zip(labels, q, strict=True))
+    ]
+
+
+def _spread(coefs: np.ndarray, ratio: bool) -> float:
+    if ratio:
+        return float(math.exp(coefs.max() - coefs.min()))
+    if coefs.min() < 0 < coefs.max() or np.any(coefs == 0):
+        return math.inf
+    a = np.abs(coefs)
+    return float(a.max() / a.min())
+
+
+def effect_modification(
+    design: Design,
+    terms: Sequence[str],
+    node: str,
+    *,
+    p_guide: float = 0.05,
+    ratio_guide: float = 1.5,
+    level: float = 0.95,
+) -> Modification:
+    """The exposure effect across levels of ``node`` in the model exposure + ``terms``.
+
+    Parameters
+    ----------
+    design : Design
+    terms : node ids of the model's covariates (the recommended set)
+    node : the covariate examined as a modifier (added as a main effect when
+        not in ``terms``)
+    p_guide, ratio_guide : the guides of :attr:`Modification.flagged`
+
+    Examples
+    --------
+    >>> import pandas as pd
+    >>> from covariscope.analysis.design import TermSpec, make_design
+    >>> rng = np.random.default_rng(2)
+    >>> m = rng.integers(0, 2, 2000); x = rng.normal(size=2000)
+    >>> y = x * (1 + 2 * m) + rng.normal(size=2000)
+    >>> d = make_design(pd.DataFrame({"x": x, "m": m, "y": y}), exposure=TermSpec("x", "continuous"),
+    ...                 covariates={"m": TermSpec("m", "binary")}, outcome="y", family="linear")
+    >>> mod = effect_modification(d, [], "m")
+    >>> [round(s.coef) for s in mod.strata], mod.flagged
+    ([1, 3], True)
+    """
+    model_terms = [t for t in design.blocks if t in set(terms) | {node}]
+    cols = [0] + [j for t in model_terms for j in design.blocks[t].index]
+    names = [design.column_names[j] for j in cols]
+    x = design.values[:, 0]
+    block = design.blocks[node]
+    products = block.values * x[:, None]
+    X = np.column_stack([design.values[:, cols], products])
+    pnames = [f"{design.exposure_name}×{c}" for c in block.columns]
+    fitted = _fit(design, np.ascontiguousarray(X), [*names, *pnames])
+    kind, strata_spec = _strata_values(design, node)
+    nan = float("nan")
+    if isinstance(fitted, str):
+        return Modification(
+            node, ModificationForm.MODEL, kind, (), nan, block.df, nan, nan, False, message=fitted
+        )
+    ratio = design.family in RATIO_FAMILIES
+    p_idx = list(range(len(names), len(names) + block.df))
+    z = (
+        float(scipy.stats.t.ppf(0.5 + level / 2.0, fitted.df_resid))
+        if fitted.df_resid is not None
+        else float(scipy.stats.norm.ppf(0.5 + level / 2.0))
+    )
+    strata = []
+    for label, weights, rows in strata_spec:
+        a = np.zeros(len(fitted.coef))
+        a[0] = 1.0
+        a[p_idx] = weights
+        b = float(a @ fitted.coef)
+        se = math.sqrt(max(float(a @ fitted.cov @ a), 0.0))
+        ci = (b - z * se, b + z * se)
+        strata.append(
+            Stratum(
+                label,
+                b,
+                se,
+                ci,
+                int(rows.sum()),
+                math.exp(b) if ratio else None,
+                (math.exp(ci[0]), math.exp(ci[1])) if ratio else None,
+            )
+        )
+    stat, p = _wald(fitted.coef[p_idx], fitted.cov[np.ix_(p_idx, p_idx)], fitted.df_resid)
+    spread = _spread(np.array([s.coef for s in strata]), ratio)
+    r = r_ci = None
+    binary_x = bool(np.isin(x, (0.0, 1.0)).all())
+    if ratio and binary_x and block.df == 1 and block.levels:
+        m_idx = names.index(block.columns[0])
+        idx = [0, m_idx, p_idx[0]]
+        r, _, r_ci = reri(
+            [float(v) for v in fitted.coef[idx]], fitted.cov[np.ix_(idx, idx)], level=level
+        )
+    return Modification(
+        node=node,
+        form=ModificationForm.MODEL,
+        kind=kind,
+        strata=tuple(strata),
+        interaction_stat=stat,
+        interaction_df=block.df,
+        interaction_p=p,
+        spread=spread,
+        flagged=bool(p < p_guide and spread >= ratio_guide),
+        reri=r,
+        reri_ci=r_ci,
+        interaction_stat_kind="F" if fitted.df_resid is not None else "chi2",
+    )
+
+
+def modification_table(
+    design: Design,
+    terms: Sequence[str],
+    candidates: Sequence[str],
+    *,
+    p_guide: float = 0.05,
+    ratio_guide: float = 1.5,
+) -> dict[str, Modification]:
+    """:func:`effect_modification` of every candidate with data, in the model exposure + ``terms``.
+
+    A covariate whose column never varies, or that is not in the design, is left out.
+    """
+    if any(t not in design.blocks for t in terms):
+        return {}
+    return {
+        c: effect_modification(design, terms, c, p_guide=p_guide, ratio_guide=ratio_guide)
+        for c in candidates
+        if c in design.blocks and c not in design.constant
+    }
