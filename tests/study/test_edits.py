@@ -242,3 +242,31 @@ def test_binding_a_column_refits_only_the_models_that_hold_it(rerun):
     # The models without p1 come over from the engine of the design without it;
     # two more allow for the keep-one ranking's own models.
     assert cache.count("fit").misses <= len(holding) + 2 < len(models)
+
+
+def test_reference_level_change_recodes_that_column_only(warm, rerun):
+    project, source, cache = warm
+    node, level = ("smoke", "former") if "smoke" in project.diagram else ("grp", "b")
+    column = project.diagram.node(node).column
+    project.analysis.reference_levels[column] = level
+    rerun(project, source, cache)
+    assert set(source.read) == {column}
+    assert cache.count("profile").misses == 1
+    assert cache.count("term").misses == 1
+    assert cache.count("missing").misses == 0
+
+
+def test_the_data_panel_profiles_come_from_the_same_cache(warm):
+    from covariscope.study.prepare import table_profiles
+
+    project, source, cache = warm
+    a = project.analysis
+    first = table_profiles(cache, source, a.column_types, a.reference_levels)
+    cache.reset_counts()
+    source.read.clear()
+    column = project.diagram.node("c1" if "c1" in project.diagram else "age").column
+    types = {**a.column_types, column: "continuous"}
+    again = table_profiles(cache, source, types, a.reference_levels)
+    assert again.keys() == first.keys()
+    assert cache.count("profile").misses <= 1  # only the column whose type was set
+    assert set(source.read) <= {column}

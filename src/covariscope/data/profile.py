@@ -37,7 +37,7 @@ from __future__ import annotations
 
 import functools
 import re
-from collections.abc import Callable, Mapping
+from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -59,6 +59,7 @@ __all__ = [
     "LEVEL_TYPES",
     "NUMERIC_TYPES",
     "ColumnProfile",
+    "check_settings_columns",
     "column_levels",
     "match_level",
     "profile_column",
@@ -185,12 +186,7 @@ def profile_table(
     overrides = dict(overrides or {})
     references = dict(references or {})
     labels = dict(value_labels or {})
-    unknown = sorted((set(overrides) | set(references)) - {str(c) for c in frame.columns})
-    if unknown:
-        raise DataError(
-            "The saved column settings name columns that are not in the data: "
-            f"{', '.join(map(repr, unknown))}. Rename the columns back, or clear those settings."
-        )
+    check_settings_columns([str(c) for c in frame.columns], overrides, references)
     return {
         str(name): profile_column(
             frame[name],
@@ -200,6 +196,18 @@ def profile_table(
         )
         for name in frame.columns
     }
+
+
+def check_settings_columns(
+    columns: Sequence[str], overrides: Mapping[str, str], references: Mapping[str, object]
+) -> None:
+    """Refuse column settings (types, reference levels) that name columns not in the data."""
+    unknown = sorted((set(overrides) | set(references)) - set(columns))
+    if unknown:
+        raise DataError(
+            "The saved column settings name columns that are not in the data: "
+            f"{', '.join(map(repr, unknown))}. Rename the columns back, or clear those settings."
+        )
 
 
 def profile_column(

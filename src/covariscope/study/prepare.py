@@ -31,19 +31,21 @@ from covariscope.analysis.design import (
 from covariscope.analysis.evidence import EvidenceCancelledError
 from covariscope.analysis.linear import LinearSummary, linear_summary
 from covariscope.data.coerce import coerce_column
-from covariscope.data.profile import ColumnProfile, profile_column
+from covariscope.data.profile import ColumnProfile, check_settings_columns, profile_column
 from covariscope.data.sample import CompleteCases, complete_cases
 from covariscope.model.project import Project
 from covariscope.study.cache import StudyCache
-from covariscope.study.source import ColumnSource
+from covariscope.study.source import ColumnSource, TableSource
 
 __all__ = [
     "Bindings",
     "Prepared",
     "Run",
+    "column_profile",
     "prepare_design",
     "read_bindings",
     "sufficient_statistics",
+    "table_profiles",
 ]
 
 _TERM_TYPES = ("continuous", "binary", "count", "categorical")
@@ -196,15 +198,68 @@ class Prepared:
 
 
 def _profile(run: Run, source: ColumnSource, column: str, project: Project) -> ColumnProfile:
-    kind = project.analysis.column_types.get(column)
-    ref = project.analysis.reference_levels.get(column)
-    key = (source.digest, column, kind, _hashable(ref))
-    profile: ColumnProfile = run.get(
+    a = project.analysis
+    return column_profile(
+        run.cache,
+        source,
+        column,
+        a.column_types.get(column),
+        a.reference_levels.get(column),
+        run.trace,
+        run.check,
+    )
+
+
+def column_profile(
+    cache: StudyCache,
+    source: ColumnSource,
+    column: str,
+    kind: str | None,
+    reference: Any,
+    trace: list[str] | None = None,
+    check: Callable[[], None] | None = None,
+) -> ColumnProfile:
+    """One column's profile through the cache (the pipeline and the data panel share it)."""
+    if check is not None:
+        check()
+    profile: ColumnProfile = cache.get(
         "profile",
-        key,
-        lambda: profile_column(source.column(column), override_type=kind, reference=ref),
+        (source.digest, column, kind, _hashable(reference)),
+        lambda: profile_column(
+            source.column(column),
+            override_type=kind,
+            reference=reference,
+            value_labels=source.value_labels(column),
+        ),
+        trace=trace,
     )
     return profile
+
+
+def table_profiles(
+    cache: StudyCache,
+    source: TableSource,
+    types: Mapping[str, str],
+    references: Mapping[str, Any],
+    cancel: Callable[[], bool] | None = None,
+) -> dict[str, ColumnProfile]:
+    """Every column's profile, each from the cache when its settings did not change.
+
+    Raises
+    ------
+    DataError
+        A setting names a column the data lack, or a type or reference
+        level does not fit its column.
+    EvidenceCancelledError
+        ``cancel`` said stop (a newer request came in).
+    """
+    names = source.column_names
+    check_settings_columns(names, types, references)
+    run = Run(cache, [], cancel)
+    return {
+        c: column_profile(cache, source, c, types.get(c), references.get(c), None, run.check)
+        for c in names
+    }
 
 
 def _hashable(value: Any) -> Any:

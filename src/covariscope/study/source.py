@@ -9,7 +9,8 @@ cluster plugs in here by offering the same few members.
 
 from __future__ import annotations
 
-from typing import Protocol, runtime_checkable
+from collections.abc import Mapping
+from typing import Any, Protocol, runtime_checkable
 
 import numpy as np
 import pandas as pd
@@ -50,6 +51,10 @@ class ColumnSource(Protocol):
         """Boolean mask of the rows where ``column`` is missing (one pass)."""
         ...
 
+    def value_labels(self, column: str) -> Mapping[Any, str] | None:
+        """Code → label for a column whose file carries them."""
+        ...
+
 
 class TableSource:
     """A :class:`ColumnSource` over a table loaded in memory.
@@ -87,6 +92,14 @@ class TableSource:
 
     def missing(self, column: str) -> np.ndarray:
         return np.asarray(self.table.frame[column].isna().to_numpy(), dtype=bool)
+
+    def value_labels(self, column: str) -> Mapping[Any, str] | None:
+        return self.table.value_labels.get(column)
+
+    @property
+    def column_names(self) -> tuple[str, ...]:
+        """Every column, in file order."""
+        return tuple(str(c) for c in self.table.frame.columns)
 
 
 def source_of(table: LoadedTable | ColumnSource) -> ColumnSource:
