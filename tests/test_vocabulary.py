@@ -12,18 +12,24 @@ import pytest
 
 from covariscope.vocabulary import (
     CAUTIONS,
+    CLAIM_TEST_TERMS,
     COLUMN_TYPE_TERMS,
+    CORRECTION_TERMS,
     DEFAULT_THRESHOLDS,
     FAMILY_TERMS,
     KIND_TERMS,
     ROLE_TERMS,
+    STRENGTH_TERMS,
     THRESHOLD_TERMS,
     VERDICT_TERMS,
+    ClaimTest,
     ColumnType,
+    Correction,
     Family,
     Kind,
     ModificationForm,
     Role,
+    StrengthKind,
     Threshold,
     VerdictCode,
     change_read,
@@ -63,10 +69,15 @@ def test_schema_enums_equal_the_vocabulary():
     measures = {t.effect_measure for t in FAMILY_TERMS.values()}
     measures |= {t.count_measure for t in FAMILY_TERMS.values()}
     assert set(enums["/properties/effect_measure"]) == measures
+    checks = "/properties/diagram_checks/properties"
+    assert enums[f"{checks}/method"] == [c.value for c in Correction]
+    claim = f"{checks}/claims/items/properties"
+    assert enums[f"{claim}/test"] == [t.value for t in ClaimTest]
+    assert enums[f"{claim}/strength_kind"] == [k.value for k in StrengthKind]
     assert enums["/properties/modification/additionalProperties/properties/form"] == [
         f.value for f in ModificationForm
     ]
-    assert len(enums) == 6  # a new enum in the schema must be compared here too
+    assert len(enums) == 9  # a new enum in the schema must be compared here too
 
 
 @pytest.mark.parametrize(
@@ -78,6 +89,9 @@ def test_schema_enums_equal_the_vocabulary():
         (Family, FAMILY_TERMS),
         (ColumnType, COLUMN_TYPE_TERMS),
         (Threshold, THRESHOLD_TERMS),
+        (Correction, CORRECTION_TERMS),
+        (StrengthKind, STRENGTH_TERMS),
+        (ClaimTest, CLAIM_TEST_TERMS),
     ],
 )
 def test_every_code_has_its_words(enum, table):

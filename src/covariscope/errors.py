@@ -11,6 +11,7 @@ __all__ = [
     "CovariscopeWarning",
     "CycleError",
     "DataError",
+    "DesignError",
     "DiagramError",
     "ProjectFileError",
 ]
@@ -50,3 +51,11 @@ class ProjectFileError(CovariscopeError):
 
 class DataError(CovariscopeError):
     """A data file or column that cannot be used as asked."""
+
+
+class DesignError(DataError):
+    """The bound columns cannot answer the question at all: the exposure and
+    the outcome in one column, an outcome the exposure determines exactly,
+    values beyond what double precision can square.  Unlike other data
+    problems, the study stops here rather than falling back to the diagram,
+    since any number shown would be meaningless."""

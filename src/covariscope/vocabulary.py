@@ -28,24 +28,34 @@ from types import MappingProxyType
 
 __all__ = [
     "CAUTIONS",
+    "CLAIM_CAUTION",
+    "CLAIM_CAUTION_SHORT",
+    "CLAIM_TEST_TERMS",
     "COLUMN_TYPE_TERMS",
+    "CORRECTION_TERMS",
+    "DEFAULT_CLAIM_LIMIT",
     "DEFAULT_THRESHOLDS",
     "FAMILY_TERMS",
     "KIND_TERMS",
     "NONCOLLAPSIBLE_FAMILIES",
     "RATIO_FAMILIES",
     "ROLE_TERMS",
+    "STRENGTH_TERMS",
     "THRESHOLD_TERMS",
     "VERDICT_TERMS",
+    "ClaimTest",
     "ColumnType",
+    "Correction",
     "Family",
     "FamilyTerm",
     "Kind",
     "ModificationForm",
     "Role",
+    "StrengthKind",
     "Term",
     "Threshold",
     "ThresholdTerm",
+    "Untestable",
     "VerdictCode",
     "change_read",
     "family_term",
@@ -516,6 +526,142 @@ THRESHOLD_TERMS: Mapping[Threshold, ThresholdTerm] = MappingProxyType(
 DEFAULT_THRESHOLDS: Mapping[str, float] = MappingProxyType(
     {t.value: term.default for t, term in THRESHOLD_TERMS.items()}
 )
+
+
+# -- diagram checks (DESIGN §6: the diagram's independence claims) -----------------------
+
+
+class Correction(StrEnum):
+    """Multiplicity corrections of the diagram's independence claims."""
+
+    HOLM = "holm"
+    BH = "bh"
+
+
+CORRECTION_TERMS: Mapping[Correction, Term] = MappingProxyType(
+    {
+        Correction.HOLM: Term(
+            "holm",
+            "Holm's step-down correction",
+            "Holm correction",
+            "Keeps the chance of any false alarm among all claims at 5% (Holm 1979).",
+        ),
+        Correction.BH: Term(
+            "bh",
+            "the Benjamini–Hochberg false-discovery-rate correction",
+            "Benjamini–Hochberg correction",
+            "Keeps the expected share of false alarms among the failed claims at 5% "
+            "(Benjamini & Hochberg 1995); flags more claims than Holm.",
+        ),
+    }
+)
+
+
+class StrengthKind(StrEnum):
+    """The readable strength a tested claim carries."""
+
+    PARTIAL_CORRELATION = "partial_correlation"
+    STANDARDISED_COEFFICIENT = "standardised_coefficient"
+    STANDARDISED_DIFFERENCE = "standardised_difference"
+    ODDS_RATIO = "odds_ratio"
+    ODDS_RATIO_PER_SD = "odds_ratio_per_sd"
+
+
+STRENGTH_TERMS: Mapping[StrengthKind, Term] = MappingProxyType(
+    {
+        StrengthKind.PARTIAL_CORRELATION: Term(
+            "partial_correlation",
+            "partial correlation",
+            "partial r",
+            "The correlation of the two once the separating set is held fixed.",
+        ),
+        StrengthKind.STANDARDISED_COEFFICIENT: Term(
+            "standardised_coefficient",
+            "standardised coefficient",
+            "std. coef.",
+            "SDs of one variable per SD of the other, the separating set held fixed.",
+        ),
+        StrengthKind.STANDARDISED_DIFFERENCE: Term(
+            "standardised_difference",
+            "standardised difference",
+            "std. diff.",
+            "How far a level lies from the reference level, in SDs of the numeric variable.",
+        ),
+        StrengthKind.ODDS_RATIO: Term(
+            "odds_ratio",
+            "odds ratio",
+            "OR",
+            "The odds ratio of the binary (or categorical) variable, the set held fixed.",
+        ),
+        StrengthKind.ODDS_RATIO_PER_SD: Term(
+            "odds_ratio_per_sd",
+            "odds ratio per SD",
+            "OR per SD",
+            "The odds ratio of the binary variable per SD of the numeric one.",
+        ),
+    }
+)
+
+
+class ClaimTest(StrEnum):
+    """The test a claim's result reports (the more conservative direction)."""
+
+    LINEAR_T = "linear t"
+    LINEAR_F = "linear F"
+    LOGISTIC_LR = "logistic LR"
+    POISSON_LR = "Poisson LR"
+    MULTINOMIAL_LR = "multinomial LR"
+
+
+CLAIM_TEST_TERMS: Mapping[ClaimTest, Term] = MappingProxyType(
+    {
+        ClaimTest.LINEAR_T: Term(
+            "linear t", "t test, linear regression", "t", "Least squares, one column."
+        ),
+        ClaimTest.LINEAR_F: Term(
+            "linear F", "F test, linear regression", "F", "Least squares, several columns."
+        ),
+        ClaimTest.LOGISTIC_LR: Term(
+            "logistic LR",
+            "likelihood-ratio test, logistic regression",
+            "LR (logistic)",
+            "A binary variable modelled on the other and the set.",
+        ),
+        ClaimTest.POISSON_LR: Term(
+            "Poisson LR",
+            "likelihood-ratio test, Poisson regression",
+            "LR (Poisson)",
+            "A count modelled on the other and the set; over-dispersion scaled out.",
+        ),
+        ClaimTest.MULTINOMIAL_LR: Term(
+            "multinomial LR",
+            "likelihood-ratio test, multinomial regression",
+            "LR (multinomial)",
+            "A categorical variable modelled on the other and the set.",
+        ),
+    }
+)
+
+
+class Untestable(StrEnum):
+    """Why a pair with no arrow between them has no tested claim."""
+
+    UNMEASURED = "unmeasured"
+    MEASURES_ENDPOINT = "measures_endpoint"
+    NO_FIT = "no_fit"
+
+
+#: Claims tested by default; the analyst may raise it (common practice: a diagram
+#: of 22 measured variables implies at most 231 claims, most far fewer).
+DEFAULT_CLAIM_LIMIT = 200
+
+#: The cautions that go with the diagram checks, in full and in a few words.
+CLAIM_CAUTION = (
+    "A claim that passes is no proof that the diagram is right (the data may lack the power "
+    "to see a departure), and a large sample flags departures too small to matter: read the "
+    "strength, not only the p-value."
+)
+CLAIM_CAUTION_SHORT = "Passing is no proof; read the strength, not only p."
 
 
 # -- cautions (DESIGN §7) ---------------------------------------------------------------

@@ -123,3 +123,19 @@ def test_unmeasured_common_cause_is_named() -> None:
     by_pair = {(u.a, u.b): u for u in result.untestable}
     assert by_pair[("a", "b")].needs == ("u",)
     assert by_pair[("a", "b")].reason == "unmeasured"
+
+
+@pytest.mark.parametrize("seed", range(0, 300, 7))
+def test_suggested_arrows_keep_the_diagram_acyclic(seed: int) -> None:
+    G, x, y, testable = random_case(seed)
+    for c in implied_claims(G, x, y, testable).claims:
+        assert c.arrows
+        for u, v in c.arrows:
+            H = G.copy()
+            H.add_edge(u, v)
+            Q, _ = quotient(H)
+            assert nx.is_directed_acyclic_graph(Q)
+        for u, v in {(c.a, c.b), (c.b, c.a)} - set(c.arrows):
+            H = G.copy()
+            H.add_edge(u, v)
+            assert not nx.is_directed_acyclic_graph(quotient(H)[0])

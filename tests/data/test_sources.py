@@ -33,8 +33,9 @@ FAMILIES = ("linear", "logistic", "risk_ratio", "cox")
 #: Relative agreement: exact sums for linear models, the Newton tolerance otherwise.
 TOLERANCE = {"linear": 1e-10, "logistic": 1e-7, "risk_ratio": 1e-7, "cox": 1e-10}
 #: Parts of the result that name the engine or the file, not the analysis, and the
-#: checks that read the rows themselves (effect modification), made in memory only.
-ENGINE_WORDS = ("messages", "data", "modification")
+#: checks that read the rows themselves (effect modification), made in memory only;
+#: the diagram checks are compared claim by claim (see _same_numeric_claims).
+ENGINE_WORDS = ("messages", "data", "modification", "diagram_checks")
 
 
 def _leaves(value: Any, path: str = "") -> dict[str, Any]:
@@ -51,11 +52,26 @@ def _leaves(value: Any, path: str = "") -> dict[str, Any]:
     return {path: value}
 
 
+def _same_numeric_claims(a: dict[str, Any] | None, b: dict[str, Any] | None, rtol: float) -> None:
+    """Rows left in their source test only the claims between numeric variables (from
+    the cross-product matrix); those agree with the in-memory study's to rounding."""
+    if a is None or b is None:
+        assert a is b
+        return
+    left = {(c["a"], c["b"]): c for c in a["claims"]}
+    for claim in b["claims"]:
+        mine = left[(claim["a"], claim["b"])]
+        if (claim["test"], claim["strength_kind"]) == (mine["test"], mine["strength_kind"]):
+            for key in ("statistic", "p", "strength"):
+                assert math.isclose(claim[key], mine[key], rel_tol=max(rtol, 1e-8), abs_tol=1e-12)
+
+
 def assert_same_study(a: dict[str, Any], b: dict[str, Any], rtol: float) -> None:
     """Every leaf of two ``check --json`` results agrees (numbers to ``rtol``)."""
     left = _leaves({k: v for k, v in a.items() if k not in ENGINE_WORDS})
     right = _leaves({k: v for k, v in b.items() if k not in ENGINE_WORDS})
     assert left.keys() == right.keys()
+    _same_numeric_claims(a["diagram_checks"], b["diagram_checks"], rtol)
     for key, x in left.items():
         y = right[key]
         if isinstance(x, float) and isinstance(y, float):

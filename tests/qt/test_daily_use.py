@@ -295,3 +295,86 @@ def test_logistic_on_a_continuous_outcome_says_what_is_missing(
     w.messages_bar.toggle.click()
     assert w.messages_bar.list.isVisible()
     assert w.messages_bar.list.count() == len(w.messages_bar.messages)
+
+
+def test_window_fits_a_laptop_screen():
+    from PySide6.QtCore import QSize
+
+    from covariscope.qt.geometry import window_size
+
+    for screen in (QSize(1366, 768 - 32), QSize(1280, 800 - 32), QSize(1920, 1080 - 32)):
+        size = window_size(screen)
+        assert size.width() <= screen.width()
+        assert size.height() <= screen.height()
+    assert window_size(QSize(1920, 1048)) == QSize(1400, 900)
+
+
+def test_window_opens_within_the_screen_and_remembers_its_layout(qtbot, fake_prompts):
+    from covariscope.qt.main_window import MainWindow
+
+    w = MainWindow(prompts=fake_prompts(), debounce_ms=20)
+    qtbot.addWidget(w)
+    available = w.screen().availableGeometry()
+    assert w.width() <= available.width()
+    assert w.height() <= available.height()
+    w.show()
+    w.resize(w.width() - 40, w.height() - 30)
+    wanted = w.size()
+    w.docks["paths"].hide()
+    w.close()
+    again = MainWindow(prompts=fake_prompts(), debounce_ms=20)
+    qtbot.addWidget(again)
+    again.show()
+    assert again.size() == wanted
+    assert not again.docks["paths"].isVisible()
+    again.close()
+
+
+def test_zoom_from_the_menu_and_the_keyboard(qtbot, window, demo, wait_for_analysis):
+    from covariscope.qt.canvas.drawing import TAG_PX
+    from covariscope.qt.canvas.view import READABLE_ZOOM
+
+    w = window
+    w.resize(1366, 768)
+    assert w.io.open(str(demo / "demo_project.json"))
+    wait_for_analysis(qtbot, w)
+    QApplication.processEvents()
+    # the default zoom keeps the small words readable (about 8 px or more)
+    assert w.view.zoom() >= READABLE_ZOOM - 1e-9
+    assert TAG_PX * w.view.zoom() >= 8
+    menu = [a.text() for a in w.actions_.view_menu.actions()]
+    assert {"Zoom &in", "Zoom &out", "&Actual size"} <= set(menu)
+    start = w.view.zoom()
+    w.actions_.zoom_in.trigger()
+    assert w.view.zoom() > start
+    w.activateWindow()
+    qtbot.waitUntil(lambda: QApplication.activeWindow() is w)
+    w.view.setFocus()
+    QTest.keyClick(w.view.viewport(), Qt.Key.Key_Minus, Qt.KeyboardModifier.ControlModifier)
+    assert abs(w.view.zoom() - start) < 1e-9
+    QTest.keyClick(w.view.viewport(), Qt.Key.Key_1, Qt.KeyboardModifier.ControlModifier)
+    assert abs(w.view.zoom() - 1.0) < 1e-9
+
+
+def test_review_table_shows_most_rows_at_1366x768(
+    qtbot, demo, wait_for_analysis, fake_prompts, shots
+):
+    from covariscope.qt.main_window import MainWindow
+
+    w = MainWindow(prompts=fake_prompts(), debounce_ms=20)
+    qtbot.addWidget(w)
+    w.resize(1366, 768)
+    w.show()
+    assert w.io.open(str(demo / "demo_project.json"))
+    wait_for_analysis(qtbot, w)
+    QApplication.processEvents()
+    table = w.review.table
+    shown = sum(
+        1
+        for r in range(table.rowCount())
+        if table.visualRect(table.model().index(r, 0)).bottom() <= table.viewport().height()
+    )
+    w.grab().save(str(shots / "window_1366x768.png"))
+    w.undo_stack.setClean()
+    w.close()
+    assert shown >= 9, shown

@@ -28,7 +28,7 @@ for testing composite hypotheses. *Ann. Math. Statist.* 9(1), 60–62.
 from __future__ import annotations
 
 import warnings
-from collections.abc import Sequence
+from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 
 import numpy as np
@@ -48,6 +48,7 @@ __all__ = [
     "DirectionTest",
     "GlmFit",
     "fit_glm_direction",
+    "fit_null",
     "linear_direction",
     "lr_test",
 ]
@@ -138,7 +139,12 @@ def _f_test(fit0: OLSResult, fit1: OLSResult, k: int, coefs: Coefficients) -> Di
 
 
 def fit_glm_direction(
-    kind: str, y: np.ndarray, predictor: np.ndarray, given: np.ndarray
+    kind: str,
+    y: np.ndarray,
+    predictor: np.ndarray,
+    given: np.ndarray,
+    *,
+    null: Callable[[], GlmFit | None] | None = None,
 ) -> DirectionTest | None:
     """Likelihood-ratio test of ``predictor`` in a model of ``y`` given ``given``.
 
@@ -150,6 +156,9 @@ def fit_glm_direction(
         0/1, counts, or level codes 0..L−1 (0 the reference).
     predictor, given : ndarray
         n × k and n × m design columns (an intercept is added).
+    null : callable, optional
+        Gives the fit of ``y`` on ``given`` alone (claims that share a
+        response and a separating set share it); fitted here when omitted.
 
     Returns
     -------
@@ -166,17 +175,20 @@ def fit_glm_direction(
     >>> t.test, t.df, bool(t.p > 0.01)
     ('logistic LR', 1, True)
     """
-    ones = np.ones((len(y), 1))
-    x0 = np.hstack([ones, given])
-    x1 = np.hstack([x0, predictor])
-    null = _fit(kind, y, x0, None)
-    if null is None:
+    x0 = np.hstack([np.ones((len(y), 1)), given])
+    fit0 = null() if null is not None else fit_null(kind, y, given)
+    if fit0 is None:
         return None
-    start = None if kind == "categorical" else np.r_[null.params, np.zeros(predictor.shape[1])]
-    alt = _fit(kind, y, x1, start)
+    start = None if kind == "categorical" else np.r_[fit0.params, np.zeros(predictor.shape[1])]
+    alt = _fit(kind, y, np.hstack([x0, predictor]), start)
     if alt is None:
         return None
-    return lr_test(kind, null, alt, x0.shape[1], predictor.shape[1])
+    return lr_test(kind, fit0, alt, x0.shape[1], predictor.shape[1])
+
+
+def fit_null(kind: str, y: np.ndarray, given: np.ndarray) -> GlmFit | None:
+    """The model of ``y`` on an intercept and ``given`` (the LR test's null model)."""
+    return _fit(kind, y, np.hstack([np.ones((len(y), 1)), given]), None)
 
 
 def lr_test(kind: str, null: GlmFit, alt: GlmFit, m: int, k: int) -> DirectionTest:
@@ -193,7 +205,7 @@ def lr_test(kind: str, null: GlmFit, alt: GlmFit, m: int, k: int) -> DirectionTe
 
 
 def _fit(kind: str, y: np.ndarray, X: np.ndarray, start: np.ndarray | None) -> GlmFit | None:
-    model = _GLM_KINDS[kind](y, X)
+    model = _GLM_KINDS[kind](y, X, hasconst=True)
     try:
         with warnings.catch_warnings():
             warnings.simplefilter("error", _TROUBLE)

@@ -48,12 +48,19 @@ import numpy as np
 import scipy.stats
 from statsmodels.stats.multitest import multipletests
 
-from covariscope.analysis.claim_fits import DirectionTest, fit_glm_direction, linear_direction
-from covariscope.analysis.claims import Claim, ClaimSet, Untestable
+from covariscope.analysis.claim_fits import (
+    DirectionTest,
+    GlmFit,
+    fit_glm_direction,
+    fit_null,
+    linear_direction,
+)
+from covariscope.analysis.claims import CORRECTIONS, Claim, ClaimSet, Untestable
+from covariscope.analysis.design import Design
 from covariscope.analysis.linear import LinearSummary, linear_summary
+from covariscope.vocabulary import StrengthKind
 
 __all__ = [
-    "CLAIM_METHODS",
     "STRENGTH_KINDS",
     "ClaimData",
     "ClaimResult",
@@ -62,19 +69,11 @@ __all__ = [
     "adjust_p",
     "check_claims",
     "claim_data",
+    "design_claim_data",
 ]
 
-#: Multiplicity corrections, by their code in project files and JSON.
-CLAIM_METHODS: Mapping[str, str] = {"holm": "holm", "bh": "fdr_bh"}
-
 #: Kinds of strength a claim's result may carry.
-STRENGTH_KINDS: tuple[str, ...] = (
-    "partial_correlation",
-    "standardised_coefficient",
-    "standardised_difference",
-    "odds_ratio",
-    "odds_ratio_per_sd",
-)
+STRENGTH_KINDS: tuple[str, ...] = tuple(k.value for k in StrengthKind)
 
 _TYPES = frozenset({"continuous", "binary", "count", "categorical"})
 _NUMERIC = frozenset({"continuous", "count"})
@@ -108,7 +107,12 @@ class ClaimData:
 
     @property
     def n(self) -> int:
-        return int(self.values.shape[0])
+        return int(self.summary.n)
+
+    @property
+    def rows_in_memory(self) -> bool:
+        """False when the rows stay in their source (only the summary is here)."""
+        return bool(self.values.shape[0] == self.summary.n)
 
 
 def claim_data(
@@ -137,6 +141,59 @@ def claim_data(
         summary=summary if summary is not None else linear_summary(values),
         names=tuple(names),
     )
+
+
+def _outcome_type(design: Design, y: np.ndarray) -> str:
+    if np.isin(y, (0.0, 1.0)).all():
+        return "binary"
+    whole = bool(np.all(y >= 0) and np.all(np.floor(y) == y))
+    return "count" if whole and design.family == "risk_ratio" else "continuous"
+
+
+def design_claim_data(
+    design: Design, summary: LinearSummary, outcome: str | None = None
+) -> ClaimData:
+    """The claim tests' view of a study's design, reusing its cross-product summary.
+
+    The exposure and every covariate with a varying column take part; the
+    outcome too when the design holds it (``outcome`` its node id).  A
+    categorical column with one contrast is tested as binary.
+
+    Examples
+    --------
+    >>> import pandas as pd
+    >>> from covariscope.analysis.design import TermSpec, make_design
+    >>> frame = pd.DataFrame({"x": [0, 1, 0, 1, 1, 0], "c": [1.0, 2.0, 0.5, 3.0, 2.5, 1.5],
+    ...                       "y": [1.0, 2.5, 0.5, 2.0, 3.0, 1.1]})
+    >>> d = make_design(frame, exposure=TermSpec("x", "binary"),
+    ...                 covariates={"c": TermSpec("c", "continuous")}, outcome="y", family="linear")
+    >>> data = design_claim_data(d, linear_summary(d.values), "y")
+    >>> sorted(data.types.items())
+    [('c', 'continuous'), ('x', 'binary'), ('y', 'continuous')]
+    """
+    columns: dict[str, tuple[int, ...]] = {design.exposure_node: (0,)}
+    for node, block in design.blocks.items():
+        if node not in design.constant:
+            columns[node] = block.index
+    types = {node: design.types.get(node, "continuous") for node in columns}
+    for node, cols in columns.items():
+        if types[node] == "categorical" and len(cols) == 1:
+            types[node] = "binary"
+    names = list(design.column_names)
+    if design.y is not None and outcome is not None:
+        columns[outcome] = (design.values.shape[1] - 1,)
+        types[outcome] = _outcome_type(design, design.y)
+        names.append(outcome)
+    elif design.row_stats is not None and outcome is not None:
+        # Rows in their source: the outcome is the summary's last column.
+        columns[outcome] = (design.values.shape[1] - 1,)
+        stats = design.row_stats
+        binary = stats.outcome_not_binary == 0
+        types[outcome] = (
+            "binary" if binary else "count" if design.family == "risk_ratio" else "continuous"
+        )
+        names.append(outcome)
+    return ClaimData(design.values, columns, types, summary, tuple(names))
 
 
 @dataclass(frozen=True)
@@ -228,8 +285,8 @@ def adjust_p(p: Sequence[float], method: str = "holm") -> np.ndarray:
     >>> [round(float(v), 3) for v in adjust_p([0.01, 0.04, 0.03], "holm")]
     [0.03, 0.06, 0.06]
     """
-    if method not in CLAIM_METHODS:
-        raise ValueError(f"unknown correction {method!r}; use one of {', '.join(CLAIM_METHODS)}")
+    if method not in CORRECTIONS:
+        raise ValueError(f"unknown correction {method!r}; use one of {', '.join(CORRECTIONS)}")
     pv = np.asarray(p, dtype=float)
     if pv.size == 0:
         return np.zeros(0)
@@ -251,6 +308,7 @@ class _Fits:
     def __init__(self, data: ClaimData) -> None:
         self.data = data
         self._done: dict[tuple[str, str, tuple[str, ...], bool], DirectionTest | None] = {}
+        self._null: dict[tuple[str, tuple[str, ...]], GlmFit | None] = {}
 
     def direction(
         self, response: str, predictor: str, given: tuple[str, ...], *, linear: bool = False
@@ -270,12 +328,19 @@ class _Fits:
         p_cols = list(d.columns[predictor])
         if linear:
             return linear_direction(d.summary, d.columns[response][0], p_cols, s_cols)
-        return fit_glm_direction(
+        kind, y, given_values = (
             d.types[response],
             _response_values(d, response),
-            d.values[:, p_cols],
             d.values[:, s_cols],
         )
+
+        def null() -> GlmFit | None:
+            key = (response, given)
+            if key not in self._null:
+                self._null[key] = fit_null(kind, y, given_values)
+            return self._null[key]
+
+        return fit_glm_direction(kind, y, d.values[:, p_cols], given_values, null=null)
 
 
 def _response_values(d: ClaimData, node: str) -> np.ndarray:
@@ -337,13 +402,23 @@ def _partial_r(t: DirectionTest, n: int, k: int) -> Strength:
     return Strength(r, "partial_correlation", math.tanh(z - half), math.tanh(z + half))
 
 
+_ROWS_ELSEWHERE = (
+    "the rows stay in the data source, where only claims between numeric variables are "
+    "tested (from the cross-product matrix)"
+)
+
+
 def _test_claim(fits: _Fits, claim: Claim) -> tuple[DirectionTest, Strength] | str:
     """The reported direction and the strength, or why no model could be fitted."""
     d = fits.data
     a, b, given = claim.a, claim.b, claim.given
+    if not d.rows_in_memory and not {d.types[a], d.types[b]} <= _NUMERIC:
+        return _ROWS_ELSEWHERE
     symmetric = d.types[a] == "continuous" and d.types[b] == "continuous"
     pairs = [(a, b)] if symmetric else [(a, b), (b, a)]
-    tried = [(r, p, fits.direction(r, p, given)) for r, p in pairs]
+    # Rows left in their source: least squares from the cross-product matrix only.
+    summary_only = not d.rows_in_memory
+    tried = [(r, p, fits.direction(r, p, given, linear=summary_only)) for r, p in pairs]
     done = [(r, p, t) for r, p, t in tried if t is not None]
     if not done:
         return (

@@ -38,8 +38,11 @@ from dataclasses import dataclass
 import networkx as nx
 
 from covariscope.analysis.constructs import merge_diagram, merge_every_link
+from covariscope.vocabulary import DEFAULT_CLAIM_LIMIT, Correction
+from covariscope.vocabulary import Untestable as UntestableReason
 
 __all__ = [
+    "CORRECTIONS",
     "DEFAULT_CLAIM_LIMIT",
     "UNTESTABLE_REASONS",
     "Claim",
@@ -48,12 +51,13 @@ __all__ = [
     "implied_claims",
 ]
 
-#: Claims tested by default; the analyst may raise it.  Common practice: a
-#: diagram of 22 measured variables implies at most 231, most far fewer.
-DEFAULT_CLAIM_LIMIT = 200
+#: Multiplicity corrections, by their code in project files and JSON: Holm's
+#: step-down family-wise method (the default) and Benjamini–Hochberg's
+#: false-discovery rate.
+CORRECTIONS: tuple[str, ...] = tuple(c.value for c in Correction)
 
 #: Why a pair that the diagram calls separable cannot be tested.
-UNTESTABLE_REASONS: tuple[str, ...] = ("unmeasured", "measures_endpoint", "no_fit")
+UNTESTABLE_REASONS: tuple[str, ...] = tuple(u.value for u in UntestableReason)
 
 
 @dataclass(frozen=True)
@@ -61,12 +65,15 @@ class Claim:
     """The diagram says ``a`` and ``b`` are independent given ``given``.
 
     ``a < b``; ``given`` is sorted and holds every node with data of each
-    construct in the separating set.
+    construct in the separating set.  ``arrows`` are the arrows between the
+    two that the diagram could take without a cycle (``(a, b)`` for
+    a → b), the suggestions should the data disagree.
     """
 
     a: str
     b: str
     given: tuple[str, ...]
+    arrows: tuple[tuple[str, str], ...] = ()
 
 
 @dataclass(frozen=True)
@@ -154,6 +161,8 @@ def implied_claims(
     >>> s = implied_claims(G, "x", "y", ["c", "x", "m", "y"])
     >>> [(c.a, c.b, c.given) for c in s.claims]
     [('c', 'm', ('x',)), ('x', 'y', ('c', 'm'))]
+    >>> s.claims[0].arrows  # m → c would close the cycle c → x → m → c
+    (('c', 'm'),)
     """
     merge_diagram(G, exposure, outcome)  # refuses unknown ends and cycles in plain words
     M, construct_of, unmerged = _claim_graph(G, exposure, outcome)
@@ -177,7 +186,12 @@ def implied_claims(
             untestable.append(Untestable(a, b, "unmeasured", needs))
             continue
         given = tuple(sorted(m for c in found for m in with_data[c]))
-        claims.append(Claim(a, b, given))
+        arrows = tuple(
+            (u, v)
+            for u, v, cu, cv in ((a, b, ca, cb), (b, a, cb, ca))
+            if not nx.has_path(M, cv, cu)
+        )
+        claims.append(Claim(a, b, given, arrows))
     ends = frozenset((exposure, outcome))
     kept = sorted(claims, key=lambda c: _priority(c, ends))[: max(limit, 0)]
     return ClaimSet(

@@ -101,6 +101,9 @@ class Design:
     column_names: tuple[str, ...] = field(default=())
     #: covariate nodes whose column(s) take one value in every row
     constant: tuple[str, ...] = ()
+    #: node id → column type (:data:`TERM_TYPES`) of the exposure and every covariate;
+    #: an exposure coded as one contrast is ``binary``
+    types: Mapping[str, str] = field(default_factory=dict)
     #: for a design whose rows stay with their source: the rows (``values`` is then
     #: 0 × q and ``y`` None) and their column statistics
     rows: RowReducer | None = None
@@ -531,6 +534,10 @@ def make_design(
         messages=messages,
         column_names=tuple(all_names),
         constant=constant,
+        types={
+            exposure_node: "binary" if exposure.type == "categorical" else exposure.type,
+            **{node: spec.type for node, spec in covariates.items()},
+        },
     )
 
 

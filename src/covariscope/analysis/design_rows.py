@@ -147,4 +147,13 @@ def make_row_design(
         constant=constant,
         rows=rows,
         row_stats=stats,
+        types={exposure_node: _coded_type(exposure)}
+        | {node: _coded_type(c) for node, c in covariates.items()},
     )
+
+
+def _coded_type(coding: TermCoding) -> str:
+    """The column type a coding implies (a numeric column is read as continuous)."""
+    if coding.levels is None:
+        return "continuous"
+    return "binary" if len(coding.levels) <= 1 else "categorical"

@@ -693,6 +693,8 @@ def _se_parts(
     w, wo = engine.ols(with_terms), engine.ols(without_terms)
     if w is None or wo is None:
         return None
+    if min(wo.rss, w.rss, wo.vif[0], w.vif[0], w.df_resid, wo.df_resid) <= 0:
+        return None  # a perfect fit or no residual degrees of freedom: no split
     return (
         math.sqrt(w.vif[0] / wo.vif[0]),
         math.sqrt(w.rss / wo.rss),

@@ -257,6 +257,15 @@ def role_verdict(f: Facts, n: Numbers, t: Mapping[str, float], family: str) -> V
             "Exclude: it is a collider (or descends from one) on a backdoor path that is blocked "
             f"until it is adjusted for{opened}.",
         )
+    if f.aliased_with and f.has_data:
+        return _verdict(
+            f,
+            "review",
+            "Review: the diagram treats it as a variable of its own, but in the data it is an "
+            f"exact linear combination of (aliased with) {', '.join(f.aliased_with)}, so no model "
+            "can hold them together. Decide which one measures the construct and keep only "
+            "that one, or link them as proxies in the diagram.",
+        )
     if f.role == "confounder":
         return _confounder(f, n, t, family)
     if f.role in ("precision", "instrument", "unrelated") and f.has_data:

@@ -134,6 +134,10 @@ class Facts:
         For an unmeasured node: whether the set in use suffices without it.
     set_name, set_members : str, tuple
         The adjustment set the last two facts refer to ("recommended", ...).
+    aliased_with : tuple of str
+        Other variables of which, in the data, it is an exact linear
+        combination (or which are one of it): the diagram treats them as
+        separate variables, the data cannot tell them apart.
     """
 
     node: str
@@ -157,3 +161,4 @@ class Facts:
     sufficient_without: bool | None = None
     set_name: str = "recommended"
     set_members: tuple[str, ...] = field(default=())
+    aliased_with: tuple[str, ...] = ()

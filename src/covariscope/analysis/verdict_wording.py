@@ -75,6 +75,7 @@ def labelled(f: Facts, names: Mapping[str, str]) -> Facts:
         stands_for_adjusted=many(f.stands_for_adjusted),
         would_close=paths(f.would_close),
         set_members=many(f.set_members),
+        aliased_with=many(f.aliased_with),
     )
 
 

@@ -14,6 +14,7 @@ from __future__ import annotations
 
 import codecs
 import os
+import stat
 from collections import defaultdict
 from collections.abc import Callable, Mapping
 from dataclasses import dataclass, field
@@ -30,7 +31,7 @@ from covariscope.data.readers import (
     read_parquet,
     read_statistical,
 )
-from covariscope.data.scan import scan_file
+from covariscope.data.scan import FileScan, scan_file
 from covariscope.data.text import DELIMITER_NAMES, detect_layout, read_delimited
 from covariscope.errors import DataError
 
@@ -114,6 +115,9 @@ class LoadedTable:
     encoding: str | None = None
     notes: tuple[str, ...] = ()
     value_labels: Mapping[str, Mapping[Any, str]] = field(default_factory=dict)
+    #: sentences naming the file's columns that were left out (nested
+    #: Parquet values, ...): the study repeats them to the user
+    left_out: tuple[str, ...] = ()
 
     @property
     def rows(self) -> int:
@@ -189,6 +193,7 @@ def load_table(
     if kind == "text":
         steps.begin(0.0, 0.3)
         scan = scan_file(target, steps, text=True)
+        _refuse_zero_bytes(target, scan)
         encoding = scan.encoding
         assert encoding is not None
         layout = detect_layout(scan.head, encoding, target.suffix.lower())
@@ -208,6 +213,7 @@ def load_table(
         result = _read_binary(target, kind, sheet, steps)
         encoding = result.encoding
     notes.extend(result.notes)
+    notes.extend(result.left_out)
     frame = _checked_frame(target, result, notes)
     steps.finish()
     return LoadedTable(
@@ -219,6 +225,7 @@ def load_table(
         encoding=encoding,
         notes=tuple(notes),
         value_labels=result.value_labels,
+        left_out=(*result.left_out,),
     )
 
 
@@ -241,7 +248,11 @@ def detect_format(path: Path, head: bytes) -> tuple[str, list[str]]:
         return by_content, notes
     if by_name is not None and by_name != "text":
         return by_name, notes
-    if b"\x00" not in head or head.startswith((codecs.BOM_UTF16_LE, codecs.BOM_UTF16_BE)):
+    if (
+        b"\x00" not in head
+        or by_name == "text"  # a damaged text file: the zero bytes are named later
+        or head.startswith((codecs.BOM_UTF16_LE, codecs.BOM_UTF16_BE))
+    ):
         if by_name is None:
             notes.append(f"Unknown extension {suffix or '(none)'}; read as delimited text.")
         return "text", notes
@@ -280,12 +291,38 @@ def _existing_file(path: Path) -> Path:
         )
     if path.is_dir():
         raise DataError(f"{str(path)!r} is a folder, not a data file. Choose a file inside it.")
+    if not stat.S_ISREG(path.stat().st_mode):
+        # a pipe would block forever and a device never ends
+        raise DataError(
+            f"{str(path)!r} is not a regular file (it is a pipe, device or socket). Save the "
+            "data to a file and choose that file."
+        )
     if not os.access(path, os.R_OK):
         raise DataError(
             f"The data file {str(path)!r} cannot be read (permission denied). Ask for read "
             "access or copy the file somewhere you can read it."
         )
     return path.resolve()
+
+
+def _refuse_zero_bytes(path: Path, scan: FileScan) -> None:
+    """A text data file never holds a zero byte: one inside a value would
+    silently cut the value short; a run of them at the end is what a crash
+    during writing leaves."""
+    if scan.nul_at is not None:
+        offset, line = scan.nul_at
+        raise DataError(
+            f"{path.name} holds a zero byte (NUL) at line {line} (byte {offset:,}), inside "
+            "the data; a text data file never holds one, and the value there would be read "
+            "cut short. Remove it, or export the data again from its source."
+        )
+    if scan.nul_tail_from is not None:
+        count = scan.size - scan.nul_tail_from
+        raise DataError(
+            f"{path.name} ends in {count:,} zero bytes (from byte {scan.nul_tail_from:,} on), "
+            "what an interrupted write leaves behind. Export the data again, or cut the "
+            f"file at byte {scan.nul_tail_from:,}."
+        )
 
 
 def _read_head(path: Path) -> bytes:

@@ -126,6 +126,10 @@ class ColumnProfile:
     warnings: tuple[str, ...]
     # A dict is not hashable; the profile's hash leaves it out.
     level_labels: Mapping[Any, str] = field(default_factory=dict, hash=False)
+    #: a mostly numeric column's few text values, and the first data rows
+    #: (1-based) that hold them; empty when there are none
+    stray_values: tuple[str, ...] = ()
+    stray_rows: tuple[int, ...] = ()
     # Counting every distinct value of a float column costs more than all the
     # type rules: they need only "one, two or more", so the exact count waits
     # until something asks for it.
@@ -264,6 +268,12 @@ def profile_column(
     if kind in LEVEL_TYPES:
         levels = column_levels(series)
         chosen_reference = match_level(name, levels, reference)
+        if reference is None and kind == "binary" and _only_ones(levels):
+            # a 0/1 column where every row is 1 (everyone had the event):
+            # 0 stays the reference, so the 1s keep meaning 1
+            chosen_reference = 0
+    no_strays: tuple[tuple[str, ...], tuple[int, ...]] = ((), ())
+    strays, stray_rows = _strays(series, present) if override_type is None else no_strays
     minimum, maximum = _range(series, present, kind)
     if kind in LEVEL_TYPES:
         distinct = len(levels)  # the warnings count levels exactly
@@ -281,6 +291,8 @@ def profile_column(
         reference=chosen_reference,
         warnings=tuple(warnings),
         level_labels=_labels_of(levels, value_labels),
+        stray_values=strays,
+        stray_rows=stray_rows,
     )
 
 
@@ -300,6 +312,25 @@ def _distinct_for_rules(series: pd.Series, present: pd.Series) -> int:
         return 1
     second = values[int(np.argmax(other))]
     return 2 if bool(np.all(~other | (values == second))) else 3
+
+
+def _only_ones(levels: tuple[Any, ...]) -> bool:
+    return len(levels) == 1 and not isinstance(levels[0], str) and bool(levels[0] == 1)
+
+
+def _strays(series: pd.Series, present: pd.Series) -> tuple[tuple[str, ...], tuple[int, ...]]:
+    """The few text values of a column that is otherwise numbers, and the
+    first rows holding them (1-based data rows)."""
+    if len(present) == 0 or not is_textual(series):
+        return (), ()
+    counts = present.value_counts(sort=False)
+    _, bad = parse_numbers(pd.Series(counts.index.astype("str"), dtype="str"))
+    bad_rows = int(counts.to_numpy()[bad.to_numpy()].sum())
+    if not bad_rows or bad_rows > 0.2 * len(present):
+        return (), ()
+    wrong = counts.index[bad.to_numpy()]
+    rows = np.flatnonzero(series.isin(wrong).to_numpy())[:5] + 1
+    return tuple(str(v) for v in wrong[:5]), tuple(int(r) for r in rows)
 
 
 def _labels_of(levels: tuple[Any, ...], value_labels: Mapping[Any, str] | None) -> dict[Any, str]:

@@ -35,6 +35,8 @@ class ReadResult:
     notes: list[str] = field(default_factory=list)
     value_labels: dict[str, dict[Any, str]] = field(default_factory=dict)
     encoding: str | None = None
+    #: sentences naming the columns left out because no model can use them
+    left_out: list[str] = field(default_factory=list)
 
 
 def read_excel(path: Path, sheet: str | int | None, steps: Steps) -> ReadResult:
@@ -212,12 +214,36 @@ def read_parquet(path: Path, steps: Steps) -> ReadResult:
             tables.append(parquet.read_row_group(index))
             steps.report((index + 1) / groups)
         table = pa.concat_tables(tables) if tables else parquet.schema_arrow.empty_table()
+    table, notes = _without_nested(table, path)
     names = [str(n) for n in table.column_names]
     # Rename before converting: pandas cannot build a frame from duplicate names
     # reliably, and the shared checks report duplicates from ``names``.
     frame = table.rename_columns([f"c{i}" for i in range(len(names))]).to_pandas()
     frame.columns = range(len(names))
-    return ReadResult(frame.reset_index(drop=True), names)
+    return ReadResult(frame.reset_index(drop=True), names, left_out=notes)
+
+
+def _without_nested(table: Any, path: Path) -> tuple[Any, list[str]]:
+    """Leave out columns of nested types (lists, structs, maps): a variable
+    holds one value per row.  Each one left out is named, with its type."""
+    import pyarrow.types as pat
+
+    nested = [(i, field) for i, field in enumerate(table.schema) if pat.is_nested(field.type)]
+    if not nested:
+        return table, []
+    notes = [
+        f"Column {field.name!r} holds {field.type} values (several values per row), which "
+        "cannot be a variable in a model; it was left out. The other columns were read. "
+        "To use it, store one value per row in the file."
+        for _, field in nested
+    ]
+    if len(nested) == table.num_columns:
+        raise DataError(
+            f"{path.name}: every column holds nested values (lists or structures), none of "
+            "which can be a variable. Store one value per row and column, then load it again."
+        )
+    keep = [i for i in range(table.num_columns) if i not in {i for i, _ in nested}]
+    return table.select(keep), notes
 
 
 _STAT_KINDS = {

@@ -14,6 +14,7 @@ from dataclasses import dataclass
 from pathlib import Path
 
 from covariscope.data.progress import Steps
+from covariscope.errors import DataError
 
 __all__ = ["BLOCK_SIZE", "FileScan", "scan_file"]
 
@@ -35,6 +36,35 @@ class FileScan:
     size: int
     head: bytes
     encoding: str | None
+    #: text scans: the first zero byte (offset, 1-based line) outside a
+    #: trailing run of zero bytes, and where that trailing run starts
+    nul_at: tuple[int, int] | None = None
+    nul_tail_from: int | None = None
+
+
+class _Zeros:
+    """Where zero bytes are in a stream of blocks: the first one inside the
+    data, and the start of a run of them that ends the file."""
+
+    def __init__(self) -> None:
+        self.first: tuple[int, int] | None = None
+        self.tail_from: int | None = None
+        self.lines = 1
+
+    def feed(self, block: bytes, offset: int) -> None:
+        body = block.rstrip(b"\0")
+        if body and self.tail_from is not None and self.first is None:
+            # an earlier run of zeros turned out not to end the file
+            self.first = (self.tail_from, self.lines)
+        if self.first is None and b"\0" in body:
+            at = body.index(b"\0")
+            self.first = (offset + at, self.lines + body.count(b"\n", 0, at))
+        self.lines += body.count(b"\n")
+        if len(body) < len(block):
+            if body or self.tail_from is None:
+                self.tail_from = offset + len(body)
+        elif body:
+            self.tail_from = None
 
 
 def scan_file(path: Path, steps: Steps | None = None, *, text: bool = False) -> FileScan:
@@ -66,11 +96,16 @@ def scan_file(path: Path, steps: Steps | None = None, *, text: bool = False) -> 
     cp1252_ok = True
     head = b""
     done = 0
+    zeros = _Zeros() if text else None
     with open(path, "rb") as handle:
-        while block := handle.read(BLOCK_SIZE):
+        # read exactly the size found at the start: a file still being
+        # written (or one that never ends) is reported, not followed
+        while done < size and (block := handle.read(min(BLOCK_SIZE, size - done))):
             if not head:
                 head = block[:65536]
             digest.update(block)
+            if zeros is not None:
+                zeros.feed(block, done)
             if text:
                 if utf8_ok:
                     try:
@@ -82,6 +117,12 @@ def scan_file(path: Path, steps: Steps | None = None, *, text: bool = False) -> 
             done += len(block)
             if steps is not None:
                 steps.report(done / size if size else 1.0)
+        if handle.read(1) or os.fstat(handle.fileno()).st_size != size or done != size:
+            raise DataError(
+                f"{path.name} changed while it was read (it was {size:,} bytes at the start); "
+                "it may still be being written. Wait until it is complete, or copy it, and "
+                "load it again."
+            )
     if text and utf8_ok:
         try:
             decoder.decode(b"", final=True)
@@ -90,7 +131,9 @@ def scan_file(path: Path, steps: Steps | None = None, *, text: bool = False) -> 
     encoding = None
     if text:
         encoding = _choose_encoding(head, utf8_ok, cp1252_ok)
-    return FileScan(digest.hexdigest(), size, head, encoding)
+    if zeros is None or head.startswith((codecs.BOM_UTF16_LE, codecs.BOM_UTF16_BE)):
+        return FileScan(digest.hexdigest(), size, head, encoding)
+    return FileScan(digest.hexdigest(), size, head, encoding, zeros.first, zeros.tail_from)
 
 
 def _choose_encoding(head: bytes, utf8_ok: bool, cp1252_ok: bool) -> str:

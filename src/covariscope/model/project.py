@@ -11,6 +11,7 @@ Schema (``"format": "covariscope-project"``, ``"version": 1``)::
                   "column_types": {column: type}, "reference_levels": {column: level},
                   "family_columns": {family: {"outcome"|"time"|"event"|"offset": column}},
                   "keep_choices": {"a|b": member},
+                  "diagram_checks": {"correction": "holm"|"bh", "limit": int},
                   "engine": "auto"|"memory"|"duckdb"|"dask", "scheduler": "tcp://host:8786"}}
 
 ``data`` and ``analysis`` are optional.  Loading validates everything and
@@ -34,7 +35,7 @@ from covariscope.errors import CovariscopeError, DiagramError, ProjectFileError
 from covariscope.model.diagram import KINDS, Diagram, Node
 from covariscope.model.files import read_project_bytes, remove_stale_temporaries
 from covariscope.model.project_json import finite_number, parse_project_json
-from covariscope.vocabulary import DEFAULT_THRESHOLDS, Family
+from covariscope.vocabulary import DEFAULT_CLAIM_LIMIT, DEFAULT_THRESHOLDS, Correction, Family
 
 __all__ = [
     "ENGINE_CHOICES",
@@ -91,6 +92,10 @@ class AnalysisSettings:
     reference_levels: dict[str, Any] = field(default_factory=dict)
     family_columns: dict[str, dict[str, str]] = field(default_factory=dict)
     keep_choices: dict[str, str] = field(default_factory=dict)
+    #: multiplicity correction of the diagram's independence claims
+    claim_correction: str = "holm"
+    #: most independence claims tested (the analyst may raise it)
+    claim_limit: int = DEFAULT_CLAIM_LIMIT
     #: how the data are read: "auto" (in memory unless the file is too large), "memory",
     #: "duckdb" or "dask"; ``scheduler`` is the Dask cluster's address ("" = a local one)
     engine: str = "auto"
@@ -470,7 +475,28 @@ def _read_analysis(raw: Any, diagram: Diagram, problems: _Problems) -> AnalysisS
         problems, "analysis.scheduler", scheduler, (str,), "an address such as tcp://host:8786"
     ):
         settings.scheduler = scheduler
+    _read_claim_settings(raw.get("diagram_checks", {}), settings, problems)
     return settings
+
+
+def _read_claim_settings(raw: Any, settings: AnalysisSettings, problems: _Problems) -> None:
+    if not _expect(problems, "analysis.diagram_checks", raw, (dict,), "an object"):
+        return
+    correction = raw.get("correction", "holm")
+    where = "analysis.diagram_checks.correction"
+    if _expect(problems, where, correction, (str,), "text"):
+        codes = [c.value for c in Correction]
+        if correction in codes:
+            settings.claim_correction = correction
+        else:
+            problems.add(where, f'"{correction}" is not one of {", ".join(codes)}')
+    limit = raw.get("limit", DEFAULT_CLAIM_LIMIT)
+    where = "analysis.diagram_checks.limit"
+    if _expect(problems, where, limit, (int,), "a whole number"):
+        if isinstance(limit, bool) or limit < 1:
+            problems.add(where, "must be a whole number of at least 1")
+        else:
+            settings.claim_limit = int(limit)
 
 
 def _keep_choice_ok(key: str, member: str, diagram: Diagram, problems: _Problems) -> bool:
@@ -541,6 +567,7 @@ def project_to_dict(project: Project) -> dict[str, Any]:
         "reference_levels": dict(a.reference_levels),
         "family_columns": {k: dict(v) for k, v in a.family_columns.items()},
         "keep_choices": dict(a.keep_choices),
+        "diagram_checks": {"correction": a.claim_correction, "limit": a.claim_limit},
     }
     if a.engine != "auto":
         out["analysis"]["engine"] = a.engine

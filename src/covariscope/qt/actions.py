@@ -93,6 +93,11 @@ class WindowActions:
         )
         self.layout = a("Automatic &layout", lambda: w.scene.auto_layout(), "Ctrl+Shift+L")
         self.fit = a("&Fit to window", lambda: w.view.fit_to_window(), "Ctrl+0")
+        self.zoom_in = a("Zoom &in", lambda: w.view.zoom_in(), _Std.ZoomIn)
+        self.zoom_in.setShortcuts([QKeySequence("Ctrl++"), QKeySequence("Ctrl+=")])
+        self.zoom_out = a("Zoom &out", lambda: w.view.zoom_out(), _Std.ZoomOut)
+        self.zoom_out.setShortcuts([QKeySequence("Ctrl+-")])
+        self.actual_size = a("&Actual size", lambda: w.view.actual_size(), "Ctrl+1")
 
         self.family_group = QActionGroup(w)
         self.family: dict[str, QAction] = {}
@@ -201,15 +206,23 @@ class WindowActions:
         analysis.addActions([self.outcome_columns, self.thresholds, self.rerun, self.cancel])
 
         self.view_menu = bar.addMenu("&View")
+        self.view_menu.addActions([self.zoom_in, self.zoom_out, self.actual_size, self.fit])
+        self.view_menu.addSeparator()
         help_ = bar.addMenu("&Help")
         help_.addActions([self.cautions, self.about])
 
-    def build_toolbar(self) -> QToolBar:
+    def build_toolbar(self, compact: bool = False) -> QToolBar:
+        """The toolbar; ``compact`` (a low screen) puts the words beside
+        smaller icons, which saves height for the review table."""
         self._dress()
         tb = QToolBar("Main tools")
         tb.setObjectName("mainToolbar")
-        tb.setIconSize(QSize(24, 24))
-        tb.setToolButtonStyle(Qt.ToolButtonStyle.ToolButtonTextUnderIcon)
+        tb.setIconSize(QSize(20, 20) if compact else QSize(24, 24))
+        tb.setToolButtonStyle(
+            Qt.ToolButtonStyle.ToolButtonTextBesideIcon
+            if compact
+            else Qt.ToolButtonStyle.ToolButtonTextUnderIcon
+        )
         tb.addActions([self.new, self.open, self.save])
         tb.addSeparator()
         tb.addActions([self.undo, self.redo])

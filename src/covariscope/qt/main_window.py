@@ -31,11 +31,13 @@ from covariscope.model.project import Project
 from covariscope.qt import output
 from covariscope.qt.actions import WindowActions
 from covariscope.qt.canvas import DiagramScene, DiagramView
+from covariscope.qt.claims_panel import ClaimsPanel
 from covariscope.qt.clipboard import selection_from_mime, selection_mime
 from covariscope.qt.data_controller import DataController
 from covariscope.qt.data_panel import DataPanel
 from covariscope.qt.diagnostics import CovariateDialog, EndpointDialog, NodeDialog
 from covariscope.qt.estimates_strip import EstimatesStrip
+from covariscope.qt.geometry import restore_layout, save_layout, window_size
 from covariscope.qt.messages_bar import MessagesBar
 from covariscope.qt.outcome_dialog import OutcomeColumnsDialog
 from covariscope.qt.project_io import ProjectIO, Prompts
@@ -70,7 +72,7 @@ class MainWindow(QMainWindow):
     ) -> None:
         super().__init__()
         self.setObjectName("mainWindow")
-        self.resize(1400, 900)
+        self.resize(window_size(self.screen().availableGeometry().size()))
         self.project = Project()
         self.undo_stack = QUndoStack(self)
         self.prompts = prompts or Prompts(self)
@@ -110,6 +112,8 @@ class MainWindow(QMainWindow):
         self.review.keep_chosen.connect(self.keep_member)
         self.paths = PathsPanel()
         self.paths.path_chosen.connect(lambda p: self.scene.highlight_path(list(p) if p else None))
+        self.claims = ClaimsPanel()
+        self.claims.suggestion_chosen.connect(lambda c: self.scene.show_suggestion(c))
         self.docks = {
             "data": self._dock("Data", self.data_panel, Qt.DockWidgetArea.LeftDockWidgetArea),
             "review": self._dock(
@@ -118,16 +122,24 @@ class MainWindow(QMainWindow):
             "paths": self._dock(
                 "Open backdoor paths", self.paths, Qt.DockWidgetArea.LeftDockWidgetArea
             ),
+            "claims": self._dock(
+                "Independence claims", self.claims, Qt.DockWidgetArea.BottomDockWidgetArea
+            ),
         }
+        # the claims share the bottom with the review, one tab each
+        self.tabifyDockWidget(self.docks["review"], self.docks["claims"])
+        self.docks["review"].raise_()
         # the paths list is short: it shares the left column with the data
         # panel, so the canvas keeps the whole width between them and the edge
         self.splitDockWidget(self.docks["data"], self.docks["paths"], Qt.Orientation.Vertical)
-        self.resizeDocks([self.docks["data"]], [430], Qt.Orientation.Horizontal)
+        self.resizeDocks([self.docks["data"]], [450], Qt.Orientation.Horizontal)
         self.resizeDocks(
             [self.docks["data"], self.docks["paths"]], [420, 150], Qt.Orientation.Vertical
         )
-        self.resizeDocks([self.docks["review"]], [260], Qt.Orientation.Vertical)
+        self._size_review()
         self._fitted = False
+        self._layout_settled = False
+        self._restored = False
 
         self.state_label = QLabel("No analysis yet")
         self.rows_label = QLabel("")
@@ -150,11 +162,22 @@ class MainWindow(QMainWindow):
 
         self.actions_ = WindowActions(self)
         self.actions_.build_menus()
-        self.addToolBar(self.actions_.build_toolbar())
+        self.addToolBar(
+            self.actions_.build_toolbar(compact=self.screen().availableGeometry().height() < 900)
+        )
         for dock in self.docks.values():
             self.actions_.view_menu.addAction(dock.toggleViewAction())
         self.set_project(project or Project())
         self.io.mark_clean()
+        self._restored = restore_layout(self)
+
+    def _size_review(self) -> None:
+        """The review table is the main output: give it a good share of the height."""
+        if not shiboken6.isValid(self):
+            return
+        review_height = max(260, int(self.height() * 0.4))
+        self.resizeDocks([self.docks["review"]], [review_height], Qt.Orientation.Vertical)
+        self.resizeDocks([self.docks["data"]], [450], Qt.Orientation.Horizontal)
 
     def _dock(self, title: str, widget: QWidget, area: Qt.DockWidgetArea) -> QDockWidget:
         dock = QDockWidget(title, self)
@@ -221,7 +244,7 @@ class MainWindow(QMainWindow):
             self.data.start_load()
         self.request_analysis()
         if len(project.diagram):
-            view.fit_to_window()
+            view.fit_to_window(readable=True)
             self._fit_soon()
 
     def open_demo(self) -> bool:
@@ -272,6 +295,7 @@ class MainWindow(QMainWindow):
         self.data_panel.refresh(self.project, self.data.table, self.data.profiles)
         self.review.refresh(self.project, self.result)
         self.paths.refresh(self.result, node_labels(self.project))
+        self.claims.refresh(self.result)
         self.strip.refresh(self.result)
         self.messages_bar.refresh(
             window_messages(
@@ -542,10 +566,26 @@ class MainWindow(QMainWindow):
 
     def resizeEvent(self, event: Any) -> None:
         super().resizeEvent(event)
+        # a window opened small and then widened gives the data panel its
+        # columns back (the canvas takes the rest)
+        data = self.docks["data"]
+        if (
+            self.width() >= 1200
+            and data.isVisible()
+            and not data.isFloating()
+            and data.width() < 450
+        ):
+            self.resizeDocks([data], [450], Qt.Orientation.Horizontal)
         self._fit_soon()
 
     def showEvent(self, event: Any) -> None:
         super().showEvent(event)
+        if not self._layout_settled:
+            # the docks take their share once the window has its real size,
+            # unless a remembered layout put them where the user left them
+            self._layout_settled = True
+            if not self._restored:
+                QTimer.singleShot(0, self._size_review)
         self._fit_soon()
 
     def _fit_soon(self) -> None:
@@ -564,7 +604,7 @@ class MainWindow(QMainWindow):
             and shiboken6.isValid(self.view)
             and not getattr(self.view, "user_zoomed", False)
         ):
-            self.view.fit_to_window()
+            self.view.fit_to_window(readable=True)
 
     # -- closing --------------------------------------------------------------------------
     def closeEvent(self, event: Any) -> None:
@@ -576,6 +616,7 @@ class MainWindow(QMainWindow):
             return
         for dialog in list(self.dialogs.values()):
             dialog.close()
+        save_layout(self)
         self.runner.shutdown(30_000)
         self.data.loader.shutdown(30_000)
         self.io.shutdown()

@@ -41,6 +41,7 @@ INK: dict[str, str] = {
     "selection": OKABE_ITO["blue"],
     "path": OKABE_ITO["vermillion"],  # a highlighted backdoor path
     "proxy": OKABE_ITO["bluish_green"],
+    "suggestion": "#A2457E",  # Okabe–Ito reddish purple, darkened: a link the data suggest
     "badge_fill": "#FFFFFF",
     "badge_edge": "#7A7A7A",
     "background": "#FBFBF8",

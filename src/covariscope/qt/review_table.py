@@ -51,7 +51,7 @@ class ReviewTable(QWidget):
         self.table = QTableWidget(0, len(REVIEW_COLUMNS))
         self.table.setHorizontalHeaderLabels(list(REVIEW_COLUMNS))
         self.table.verticalHeader().hide()
-        self.table.verticalHeader().setDefaultSectionSize(24)
+        self.table.verticalHeader().setDefaultSectionSize(22)
         self.table.setSelectionBehavior(QAbstractItemView.SelectionBehavior.SelectRows)
         self.table.setSelectionMode(QAbstractItemView.SelectionMode.SingleSelection)
         self.table.setEditTriggers(QAbstractItemView.EditTrigger.NoEditTriggers)

@@ -490,6 +490,9 @@ def _compose(
         for text in _cap(lines, finding_cap, what):
             c.paragraph("• " + text, body, max_lines=3, indent=indent)
         c.y += small_gap
+    if content.diagram_checks:
+        c.paragraph(content.diagram_checks, body, max_lines=3)
+        c.y += small_gap
     c.paragraph(content.thresholds, body, max_lines=2)
     c.y += small_gap
     c.y += c.line("Cautions", page.left(), body, bold=True, kind="heading")

@@ -29,6 +29,7 @@ from covariscope.analysis.verdicts import (
     decide_verdict,
     format_set,
 )
+from covariscope.study.degenerate import aliased_pairs
 from covariscope.study.facts import (
     group_why,
     needed_together,
@@ -235,6 +236,7 @@ class _Context:
     set_name: str
     evidence: EvidenceTable | None
     engine: EvidenceEngine | None
+    aliases: dict[str, tuple[str, ...]]
 
 
 def _group_facts(
@@ -304,6 +306,7 @@ def _verdict(ctx: _Context, graph: nx.DiGraph, c: str) -> Verdict:
         sufficient_without=ctx.sufficient,
         set_name=ctx.set_name,
         set_members=ctx.base,
+        aliased_with=ctx.aliases.get(c, ()),
     )
     verdict = decide_verdict(
         f, _numbers(evidence, c), family=q.family, thresholds=q.threshold, names=dict(q.names)
@@ -389,6 +392,9 @@ def decide(
         set_name="recommended" if rec.members is not None else "proposed",
         evidence=evidence,
         engine=engine,
+        aliases=aliased_pairs(
+            evidence.aliased if evidence is not None else (), set(da.roles), da.groups
+        ),
     )
     verdicts = {c: _verdict(ctx, graph, c) for c in da.roles}
     estimates: dict[str, Fit | None] = dict.fromkeys(ESTIMATE_KEYS)

@@ -21,6 +21,7 @@ from collections.abc import Callable, Sequence
 from dataclasses import dataclass, replace
 from typing import Any
 
+from covariscope.analysis.claim_tests import DiagramChecks
 from covariscope.analysis.evidence import (
     EvidenceEngine,
     EvidenceTable,
@@ -35,11 +36,13 @@ from covariscope.data.sample import AnalyticSample, CompleteCases
 from covariscope.data.sources.base import DataSource
 from covariscope.data.sources.choose import open_source
 from covariscope.data.sources.memory import MemorySource
-from covariscope.errors import DataError
+from covariscope.errors import DataError, DesignError
 from covariscope.model.project import Project
 from covariscope.study.cache import StudyCache
+from covariscope.study.checks import check_diagram, checks_key, with_failed_claims
 from covariscope.study.criteria import GraphCriteria, graph_criteria, proposal_review, structure_key
 from covariscope.study.decide import Decisions, Question, decide, set_names
+from covariscope.study.degenerate import check_crude_fit
 from covariscope.study.prepare import (
     DesignSpec,
     Prepared,
@@ -154,6 +157,8 @@ def _data_stage(
         return DataStage(None, None, None, None, tuple(messages))
     try:
         prepared = prepare_design(run, source, project, q.family, q.exposure, bindings)
+    except DesignError:
+        raise  # no number could mean anything: the study stops, saying why
     except DataError as exc:
         messages.append(f"{exc} Only the diagram is analysed.")
         return DataStage(None, None, None, None, tuple(messages))
@@ -162,6 +167,7 @@ def _data_stage(
     design = prepared.design
     summary = sufficient_statistics(run, design, prepared.identity)
     engine = _engine(run, prepared, summary)
+    _check_crude(engine, q)
     report(0.15, "Fitting the comparison models")
     plan = _plan(q, da, prepared.bound, messages)
     evidence = _evidence(run, engine, plan, q, report)
@@ -331,13 +337,56 @@ def run_study(
         (criteria.key, q, data.key),
         lambda: decide(q, criteria.graph, da, data.evidence, data.engine),
     )
+    checks = _checks(run, project, q, criteria, data.engine, report)
+    if checks is not None:
+        # After the disagreements: their short form stays the verdict's own sentence.
+        verdicts = with_failed_claims(decisions.verdicts, checks, dict(q.names))
+        decisions = replace(decisions, verdicts=verdicts)
     report(1.0, "Done")
     result = _result(q, da, data, decisions, origin, project, run)
+    if checks is not None:
+        notes = _checks_message(checks)
+        result = replace(
+            result,
+            diagram_checks=checks,
+            messages=tuple(dict.fromkeys([*result.messages[:-1], *notes, result.messages[-1]])),
+        )
     return replace(
         result,
         models_fitted=run.cache.count("fit").misses - fits_before,
         seconds=time.perf_counter() - started,
     )
+
+
+def _checks(
+    run: Run,
+    project: Project,
+    q: Question,
+    criteria: GraphCriteria,
+    engine: EvidenceEngine | None,
+    report: Progress,
+) -> DiagramChecks | None:
+    """The diagram's independence claims tested on the data: a stage keyed by
+    the design, the arrows, the proxy links and the claim settings."""
+    if engine is None:
+        return None
+    report(0.96, "Checking the diagram against the data")
+    G = criteria.graph
+    checks: DiagramChecks = run.get(
+        "claims",
+        checks_key(project, G, engine),
+        lambda: check_diagram(project, G, q.exposure, q.outcome, engine, cancel=run.cancel),
+    )
+    return checks
+
+
+def _checks_message(checks: DiagramChecks) -> list[str]:
+    if not checks.omitted:
+        return []
+    return [
+        f"The diagram implies {checks.tested + checks.omitted} independence claims; "
+        f"only {checks.limit} were tested (raise the limit in the analysis settings)."
+    ]
 
 
 def _data_or_none(
@@ -393,6 +442,8 @@ def _whole_stage(
             sample, engine, bound = prepare_evidence(
                 project, source, q.family, q.exposure, q.outcome, da, messages
             )
+        except DesignError:
+            raise  # no number could mean anything: the study stops, saying why
         except DataError as exc:
             messages.append(f"{exc} Only the diagram is analysed.")
             return None, None, [], tuple(messages)
@@ -403,6 +454,7 @@ def _whole_stage(
     if engine is None:
         return DataStage(None, None, None, None, tuple(messages))
     _family_columns_message(project, q, messages)
+    _check_crude(engine, q)
     report(0.15, "Fitting the comparison models")
     plan = _plan(q, da, bound, messages)
     evidence = _evidence(run, engine, plan, q, report)
@@ -412,8 +464,18 @@ def _whole_stage(
     return DataStage(sample, engine, evidence, (engine.design.key, plan), tuple(messages))
 
 
+def _check_crude(engine: EvidenceEngine, q: Question) -> None:
+    if q.family == "linear":
+        names = dict(q.names)
+        check_crude_fit(engine.ols(()), names[q.exposure], names[q.outcome])
+
+
 def _family_columns_message(project: Project, q: Question, messages: list[str]) -> None:
-    columns = project.analysis.family_columns.get(q.family, {})
+    columns = {
+        k: v
+        for k, v in project.analysis.family_columns.get(q.family, {}).items()
+        if k != "offset" or q.family == "risk_ratio"  # others take no offset (said above)
+    }
     if columns:
         # The outcome node may be bound to another column than this family reads.
         shown = ", ".join(f"{k} {v!r}" for k, v in sorted(columns.items()))

@@ -35,6 +35,7 @@ from covariscope.data.profile import ColumnProfile, check_settings_columns, prof
 from covariscope.data.sample import CompleteCases, complete_cases
 from covariscope.model.project import Project
 from covariscope.study.cache import StudyCache
+from covariscope.study.degenerate import check_question_columns, usable_covariates
 from covariscope.study.source import ColumnSource, TableSource
 
 __all__ = [
@@ -124,6 +125,13 @@ def read_bindings(
         )
         return _not_ready(messages)
     cols = _outcome_columns(project, family, y_col)
+    if cols["offset"] is not None and family != "risk_ratio":
+        messages.append(
+            f'Only the risk/rate-ratio family takes an offset; the offset column "{cols["offset"]}" '
+            f"set for the {family} family is not used. Remove it from the family's columns, or "
+            "choose the risk/rate-ratio family for counts over time."
+        )
+        cols["offset"] = None
     if family == "cox" and (cols["time"] is None or cols["event"] is None):
         messages.append(
             "The Cox family needs a time and an event column; set them for the project "
@@ -359,9 +367,18 @@ def prepare_design(
         )
     )
     profiles = {c: _profile(run, source, c, project) for c in needed}
+    diagram = project.diagram
+    x_col = bindings.exposure_column
+    check_question_columns(diagram, exposure, x_col, cols, profiles, family)
+    taken = {x_col: "exposure"} | {c: k for k, c in cols.items() if c}
+    kept = set(
+        usable_covariates(diagram, [n for n, _ in bindings.covariates], taken, profiles, messages)
+    )
     usable: list[tuple[str, str]] = []
-    labels = {n.id: n.label for n in project.diagram.nodes}
+    labels = {n.id: n.label for n in diagram.nodes}
     for node, column in bindings.covariates:
+        if node not in kept:
+            continue
         kind = profiles[column].type
         if kind not in _TERM_TYPES:
             messages.append(

@@ -5,6 +5,7 @@ from __future__ import annotations
 from collections.abc import Callable
 from dataclasses import dataclass, field
 
+from covariscope.analysis.claim_tests import DiagramChecks
 from covariscope.analysis.evalue import EValue
 from covariscope.analysis.evidence import EvidenceTable
 from covariscope.analysis.fits import Fit
@@ -46,6 +47,8 @@ class StudyResult:
     recommended_reason: str = ""
     #: Node id → label, for prose (ids stay the keys of the JSON).
     names: dict[str, str] = field(default_factory=dict)
+    #: The diagram's independence claims tested on the analytic sample (None without data).
+    diagram_checks: DiagramChecks | None = None
     #: joint confidence regions of collinear groups (and of near-aliases of the exposure)
     pictures: tuple[CollinearityPicture, ...] = ()
     #: effect modification of the exposure's effect by each candidate, in the

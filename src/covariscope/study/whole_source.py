@@ -18,6 +18,7 @@ from covariscope.data.sample import AnalyticSample
 from covariscope.data.sources.base import DataSource, DesignRequest
 from covariscope.data.sources.coding import ColumnUse, term_spec
 from covariscope.model.project import Project
+from covariscope.study.degenerate import check_question_columns, usable_covariates
 
 __all__ = ["prepare_evidence"]
 
@@ -58,6 +59,13 @@ def prepare_evidence(
         )
         return None, None, []
     cols = _outcome_columns(project, family, y_col)
+    if cols["offset"] is not None and family != "risk_ratio":
+        messages.append(
+            f'Only the risk/rate-ratio family takes an offset; the offset column "{cols["offset"]}" '
+            f"set for the {family} family is not used. Remove it from the family's columns, or "
+            "choose the risk/rate-ratio family for counts over time."
+        )
+        cols["offset"] = None
     if family == "cox" and (cols["time"] is None or cols["event"] is None):
         messages.append(
             "The Cox family needs a time and an event column; set them for the project "
@@ -93,6 +101,9 @@ def prepare_evidence(
     profiles = source.profiles(
         tuple(needed), project.analysis.column_types, project.analysis.reference_levels
     )
+    check_question_columns(diagram, exposure, x_col, cols, profiles, family)
+    taken = {x_col: "exposure"} | {c: k for k, c in cols.items() if c}
+    bound = usable_covariates(diagram, bound, taken, profiles, messages)
     usable: list[str] = []
     for b in bound:
         column = diagram.node(b).column

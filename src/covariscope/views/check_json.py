@@ -10,6 +10,7 @@ from typing import Any
 
 import numpy as np
 
+from covariscope.analysis.claim_wording import untestable_words
 from covariscope.analysis.evidence import Comparison
 from covariscope.analysis.fits import Fit
 from covariscope.analysis.modification import Modification
@@ -60,6 +61,40 @@ def _cmp_json(
     if added:
         out["vif_exposure"] = with_vif
     return out
+
+
+def _checks_json(result: StudyResult) -> dict[str, Any] | None:
+    """The diagram's independence claims: ids sorted within each pair, pairs sorted."""
+    checks = result.diagram_checks
+    if checks is None:
+        return None
+    claims = [
+        {
+            "a": r.claim.a,
+            "b": r.claim.b,
+            "given": list(r.claim.given),
+            "test": r.test,
+            "statistic": r.statistic,
+            "df": r.df,
+            "p": r.p,
+            "p_adjusted": r.p_adjusted,
+            "strength": r.strength.value,
+            "strength_kind": r.strength.kind,
+            "failed": r.failed,
+        }
+        for r in sorted(checks.results, key=lambda r: (r.claim.a, r.claim.b))
+    ]
+    untestable = [
+        [u.a, u.b, untestable_words(u, result.names)]
+        for u in sorted(checks.untestable, key=lambda u: (u.a, u.b))
+    ]
+    return {
+        "method": checks.method,
+        "tested": checks.tested,
+        "failed": checks.failed,
+        "untestable": untestable,
+        "claims": claims,
+    }
 
 
 def _modification_json(m: Modification) -> dict[str, Any]:
@@ -154,5 +189,6 @@ def study_to_json(result: StudyResult) -> dict[str, Any]:
     out["modification"] = {c: _modification_json(m) for c, m in result.modification.items()}
     out["disagreements"] = list(result.disagreements)
     out["messages"] = list(result.messages)
+    out["diagram_checks"] = _checks_json(result)
     cleaned: dict[str, Any] = _clean(out)
     return cleaned

@@ -5,6 +5,13 @@ from __future__ import annotations
 import math
 from collections.abc import Iterable
 
+from covariscope.analysis.claim_wording import (
+    CAUTION,
+    disagree_sentence,
+    suggestion_words,
+    summary_line,
+    untestable_words,
+)
 from covariscope.analysis.fits import Fit
 from covariscope.analysis.verdicts import format_set
 from covariscope.study.result import ESTIMATE_KEYS, StudyResult
@@ -45,6 +52,24 @@ def _estimate_line(name: str, fit: Fit | None, measure: str) -> str:
         f"  {name:<12} {measure} {fit.coef:.3f} (95% CI {lo:.3f} to {hi:.3f}), "
         f"SE {fit.se:.3f}, n = {fit.n}"
     )
+
+
+def _checks_lines(result: StudyResult) -> list[str]:
+    """The diagram checks: the summary, every failed claim with its suggestion, the caution."""
+    checks = result.diagram_checks
+    if checks is None:
+        return []
+    names = result.names
+    lines = [summary_line(checks, names)]
+    for r in checks.ranked():
+        if not r.failed:
+            break
+        lines.append(f"  - {disagree_sentence(r, names)} {suggestion_words(r, names)}")
+    for u in checks.untestable:
+        lines.append(f"  · {result.name(u.a)} – {result.name(u.b)}: {untestable_words(u, names)}")
+    lines.append(f"  {CAUTION}")
+    lines.append("")
+    return lines
 
 
 def format_study_text(result: StudyResult) -> str:
@@ -152,6 +177,7 @@ def format_study_text(result: StudyResult) -> str:
                 f"{result.evalue.ci:.2f} for the CI limit nearer the null ({result.evalue.conversion})"
             )
         lines.append("")
+    lines += _checks_lines(result)
     if result.disagreements:
         lines.append("Where diagram and data disagree:")
         lines += [f"  - {d}" for d in result.disagreements]

@@ -22,6 +22,7 @@ from itertools import pairwise
 from typing import Any
 
 from covariscope import __version__
+from covariscope.analysis.claim_wording import SHORT_CAUTION, summary_line
 from covariscope.views.modification import flagged_lines
 from covariscope.views.review import change_value, role_words
 from covariscope.vocabulary import CAUTIONS, family_term
@@ -185,6 +186,8 @@ class RationaleContent:
     exposure: str
     outcome: str
     project_name: str
+    #: one line on the diagram's independence claims ("" without data)
+    diagram_checks: str = ""
     #: one line per flagged modifier of the exposure's effect (not confounding)
     modification: tuple[str, ...] = ()
 
@@ -317,6 +320,13 @@ def _page_messages(
             continue  # the Cautions section
         out.append(name_nodes(text, label_of))
     return tuple(dict.fromkeys(out))
+
+
+def _checks_line(result: Any, label_of: Mapping[str, str]) -> str:
+    checks = _get(result, "diagram_checks")
+    if checks is None:
+        return ""
+    return f"{summary_line(checks, label_of, top=2, short=True)} {SHORT_CAUTION}"
 
 
 def build_content(result: Any, project: Any, *, today: _dt.date | None = None) -> RationaleContent:
@@ -597,5 +607,6 @@ def build_content(result: Any, project: Any, *, today: _dt.date | None = None) -
         exposure=x_label,
         outcome=y_label,
         project_name=project_name,
+        diagram_checks=_checks_line(result, label_of),
         modification=tuple(flagged_lines(_get(result, "modification", {}) or {}, label_of)),
     )

@@ -34,7 +34,7 @@ class MemorySource:
         self.path: Path = table.path
         self.columns: tuple[str, ...] = tuple(str(c) for c in table.frame.columns)
         self._sample: AnalyticSample | None = None
-        self.notes: tuple[str, ...] = ()
+        self.notes: tuple[str, ...] = table.left_out
 
     @property
     def sha256(self) -> str:

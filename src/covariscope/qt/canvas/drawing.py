@@ -55,9 +55,9 @@ __all__ = [
     "verdict_text",
 ]
 
-LABEL_PX = 13  # label font size in scene units
-TAG_PX = 10
-BADGE_PX = 10
+LABEL_PX = 14  # label font size in scene units
+TAG_PX = 12  # at the window's smallest default zoom, about 8 px on screen
+BADGE_PX = 12
 _PAD_X = 12.0
 _FRAME_GAP = 6.0
 
@@ -532,6 +532,71 @@ def paint_proxy(
     painter.setPen(ink)
     painter.drawText(
         QRectF(mid.x() - r, mid.y() - r - 1, 2 * r, 2 * r), Qt.AlignmentFlag.AlignCenter, "≈"
+    )
+    painter.restore()
+
+
+def _open_chevron(painter: QPainter, tip: QPointF, ux: float, uy: float, size: float) -> None:
+    """Two strokes of an open head at ``tip`` pointing along (ux, uy)."""
+    back = QPointF(tip.x() - ux * size, tip.y() - uy * size)
+    nx_, ny_ = -uy * size * 0.5, ux * size * 0.5
+    painter.drawLine(QPointF(back.x() + nx_, back.y() + ny_), tip)
+    painter.drawLine(QPointF(back.x() - nx_, back.y() - ny_), tip)
+
+
+def paint_suggestion(
+    painter: QPainter,
+    p1: QPointF,
+    p2: QPointF,
+    heads: tuple[bool, bool] = (True, True),
+    weight: float = 1.0,
+) -> None:
+    """A link the data suggest the diagram may lack: a dotted bow between the
+    two nodes, an open chevron at each end the missing arrow could point to,
+    and a "?" in a diamond at its middle.  Never solid, never filled, so it
+    reads neither as a drawn arrow nor as a proxy link."""
+    line = QLineF(p1, p2)
+    if line.length() < 1e-6:
+        return
+    ink = colour("suggestion")
+    ux, uy = line.dx() / line.length(), line.dy() / line.length()
+    bow = min(0.18 * line.length(), 40.0)
+    control = line.center() + QPointF(-uy * bow, ux * bow)
+    path = QPainterPath(p1)
+    path.quadTo(control, p2)
+    painter.save()
+    painter.setRenderHint(QPainter.RenderHint.Antialiasing, True)
+    pen = QPen(ink, 3.0 * weight)
+    pen.setStyle(Qt.PenStyle.CustomDashLine)
+    pen.setDashPattern([0.05, 1.9])
+    pen.setCapStyle(Qt.PenCapStyle.RoundCap)
+    painter.setPen(pen)
+    painter.setBrush(Qt.BrushStyle.NoBrush)
+    painter.drawPath(path)
+    solid = QPen(ink, 1.6 * weight)
+    solid.setCapStyle(Qt.PenCapStyle.RoundCap)
+    painter.setPen(solid)
+    size = 10.0 * max(weight, 0.6)
+    for end, tip, towards in ((heads[1], p2, control), (heads[0], p1, control)):
+        if end:
+            d = QLineF(towards, tip)
+            if d.length() > 1e-6:
+                _open_chevron(painter, tip, d.dx() / d.length(), d.dy() / d.length(), size)
+    mid = path.pointAtPercent(0.5)
+    r = 8.0 * max(weight, 0.6)
+    diamond = QPolygonF(
+        [
+            QPointF(mid.x(), mid.y() - r),
+            QPointF(mid.x() + r, mid.y()),
+            QPointF(mid.x(), mid.y() + r),
+            QPointF(mid.x() - r, mid.y()),
+        ]
+    )
+    painter.setBrush(QColor("#FFFFFF"))
+    painter.drawPolygon(diamond)
+    painter.setFont(_font(11 * max(weight, 0.6), QFont.Weight.Bold))
+    painter.drawText(
+        QRectF(mid.x() - r, mid.y() - r, 2 * r, 2 * r), Qt.AlignmentFlag.AlignCenter, "?"
     )
     painter.restore()
 

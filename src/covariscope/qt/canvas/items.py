@@ -24,17 +24,19 @@ from covariscope.model.diagram import Node
 from covariscope.qt.canvas.drawing import (
     NodeLook,
     arrow_shape,
+    distance,
     label_font,
     link_ends,
     node_geometry,
     paint_arrow,
     paint_node,
     paint_proxy,
+    paint_suggestion,
     verdict_text,
 )
 from covariscope.qt.palette import colour
 
-__all__ = ["ArrowItem", "LabelEditor", "NodeItem", "ProxyItem", "RubberLink"]
+__all__ = ["ArrowItem", "LabelEditor", "NodeItem", "ProxyItem", "RubberLink", "SuggestionItem"]
 
 
 class NodeItem(QGraphicsObject):
@@ -192,6 +194,28 @@ class ProxyItem(_LinkItem):
         self, painter: QPainter, option: QStyleOptionGraphicsItem, widget: QWidget | None = None
     ) -> None:
         paint_proxy(painter, self.p1, self.p2, self.highlighted, self.isSelected())
+
+
+class SuggestionItem(_LinkItem):
+    """A link the data suggest the diagram may lack (a failed independence
+    claim): drawn over the diagram, not part of it, never selectable."""
+
+    def __init__(
+        self, pair: tuple[str, str], a: NodeItem, b: NodeItem, heads: tuple[bool, bool]
+    ) -> None:
+        self.heads = heads
+        super().__init__(pair, a, b)
+        self.setFlags(QGraphicsItem.GraphicsItemFlag(0))
+        self.setZValue(1.5)  # over the links, under the nodes (their labels stay readable)
+
+    def boundingRect(self) -> QRectF:
+        pad = min(0.18 * distance(self.p1, self.p2), 40.0) + 14.0
+        return QRectF(self.p1, self.p2).normalized().adjusted(-pad, -pad, pad, pad)
+
+    def paint(
+        self, painter: QPainter, option: QStyleOptionGraphicsItem, widget: QWidget | None = None
+    ) -> None:
+        paint_suggestion(painter, self.p1, self.p2, self.heads)
 
 
 class RubberLink(QGraphicsLineItem):

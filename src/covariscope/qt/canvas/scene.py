@@ -42,7 +42,13 @@ from covariscope.model.diagram import DiagramEvent, Node
 from covariscope.model.layout import layered_layout
 from covariscope.model.project import Project, ProjectEvent
 from covariscope.qt.canvas import menus
-from covariscope.qt.canvas.items import ArrowItem, LabelEditor, NodeItem, ProxyItem
+from covariscope.qt.canvas.items import (
+    ArrowItem,
+    LabelEditor,
+    NodeItem,
+    ProxyItem,
+    SuggestionItem,
+)
 from covariscope.qt.canvas.modes import ConnectMode, Mode, Pointer, SelectMode
 from covariscope.qt.palette import colour
 from covariscope.qt.undo import push
@@ -89,6 +95,8 @@ class DiagramScene(QGraphicsScene):
         self.roles: dict[str, str] = {}
         self.verdicts: dict[str, tuple[str, str]] = {}
         self.path: list[str] | None = None
+        #: the link a failed independence claim suggests, drawn over the diagram
+        self.suggestion: SuggestionItem | None = None
         self.label_editor: LabelEditor | None = None
         self._proposed = set(project.proposed)
         self.keep_choice_of: Callable[[str], KeepChoice | None] = lambda _node: None
@@ -304,6 +312,24 @@ class DiagramScene(QGraphicsScene):
         for (a, b), proxy in self.proxies.items():
             proxy.set_highlighted(any(a in g and b in g for g in steps))
 
+    def show_suggestion(self, claim: tuple[str, str, Any] | None) -> None:
+        """Draw the link a failed claim ``(a, b, arrows)`` suggests; None clears.
+
+        The chevrons mark the ends a missing arrow could point to (``arrows``,
+        the directions that close no cycle)."""
+        if self.suggestion is not None:
+            if shiboken6.isValid(self.suggestion):
+                self.removeItem(self.suggestion)
+            self.suggestion = None
+        if claim is None:
+            return
+        a, b, arrows = claim
+        if a not in self.nodes or b not in self.nodes:
+            return
+        heads = ((b, a) in set(arrows), (a, b) in set(arrows))
+        self.suggestion = SuggestionItem((a, b), self.nodes[a], self.nodes[b], heads)
+        self.addItem(self.suggestion)
+
     # -- reading ------------------------------------------------------------------------
     def selected_node_ids(self) -> list[str]:
         return [
@@ -350,6 +376,8 @@ class DiagramScene(QGraphicsScene):
         if event.kind == "node_added" and event.node:
             self._add_node_item(d.node(event.node))
         elif event.kind == "node_removed" and event.node:
+            if self.suggestion is not None and event.node in self.suggestion.pair:
+                self.show_suggestion(None)
             item = self.nodes.pop(event.node, None)
             if item is not None:
                 self.removeItem(item)
@@ -382,6 +410,7 @@ class DiagramScene(QGraphicsScene):
             self.proposed_toggled.emit(node_id, node_id in now)
 
     def _rebuild(self) -> None:
+        self.show_suggestion(None)
         for store in (self.arrows, self.proxies, self.nodes):
             for item in list(store.values()):
                 self.removeItem(item)
@@ -430,6 +459,10 @@ class DiagramScene(QGraphicsScene):
             for pair, item in store.items():
                 if node_id is None or node_id in pair:
                     item.update_geometry()
+        hint = self.suggestion
+        moved = hint is not None and (node_id is None or node_id in hint.pair)
+        if hint is not None and moved and shiboken6.isValid(hint):
+            hint.update_geometry()
 
     def _emit_selection(self) -> None:
         if self._alive():

@@ -22,6 +22,10 @@ __all__ = ["DiagramView"]
 
 _STEP = 1.2
 _MIN_ZOOM, _MAX_ZOOM = 0.15, 4.0
+#: the smallest zoom the window's own fit uses, so that the small words on
+#: the diagram (role tags, verdict chips) stay readable: about 8 px and more
+#: (common practice for screen text); Fit (Ctrl+0) shows the whole diagram
+READABLE_ZOOM = 0.7
 
 
 def _close(a: QRectF, b: QRectF, tolerance: float) -> bool:
@@ -73,7 +77,13 @@ class DiagramView(QGraphicsView):
         self.user_zoomed = True
         self.set_zoom(self.zoom() / _STEP)
 
-    def fit_to_window(self) -> None:
+    def actual_size(self) -> None:
+        self.user_zoomed = True
+        self.set_zoom(1.0)
+
+    def fit_to_window(self, readable: bool = False) -> None:
+        """Show the whole diagram; ``readable`` stops at :data:`READABLE_ZOOM`
+        (the diagram then scrolls) so that its words stay legible."""
         self.user_zoomed = False
         scene = self.diagram_scene
         if not scene.nodes:
@@ -86,6 +96,9 @@ class DiagramView(QGraphicsView):
         self.fitInView(rect, Qt.AspectRatioMode.KeepAspectRatio)
         if self.zoom() > 1.5:  # a small diagram stays at a readable size
             self.set_zoom(1.5)
+            self.centerOn(rect.center())
+        elif readable and self.zoom() < READABLE_ZOOM:
+            self.set_zoom(READABLE_ZOOM)
             self.centerOn(rect.center())
         self._track_items()
 
