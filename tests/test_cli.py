@@ -100,7 +100,7 @@ def test_demo_without_a_display_writes_the_review_and_the_rationale(tmp_path):
 
 
 def test_demo_keeps_an_existing_project(tmp_path):
-    from covariscope.cli import write_demo
+    from covariscope.model.demo import write_demo
 
     first = write_demo(tmp_path)
     edited = first.read_text() + "\n"  # the user's own edit
@@ -115,3 +115,26 @@ def test_gui_without_a_display_says_so(capsys, monkeypatch):
     code, _, err = run(capsys, "gui")
     assert code == 2
     assert "No display was found" in err
+
+
+def test_progress_goes_to_a_terminal_only_and_only_for_long_runs() -> None:
+    import io
+
+    from covariscope.cli import TerminalProgress
+
+    class Terminal(io.StringIO):
+        def isatty(self) -> bool:
+            return True
+
+    shown = Terminal()
+    progress = TerminalProgress(shown, delay=0.0, every=0.0)
+    progress(0.5, "Fitting model 3 of 42, pass 2 over the rows")
+    assert shown.getvalue() == "\r 50%  Fitting model 3 of 42, pass 2 over the rows"
+    progress.close()
+    assert shown.getvalue().endswith("\r")  # the line is cleared for the output after it
+    short = Terminal()
+    TerminalProgress(short, delay=3600.0)(0.5, "quick run")
+    assert short.getvalue() == ""
+    piped = io.StringIO()
+    TerminalProgress(piped, delay=0.0, every=0.0)(0.5, "not a terminal")
+    assert piped.getvalue() == ""

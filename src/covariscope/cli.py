@@ -11,25 +11,24 @@ import argparse
 import contextlib
 import errno
 import json
+import math
 import os
-import shutil
 import sys
+import time
 import traceback
 from collections.abc import Sequence
-from importlib import resources
 from pathlib import Path
 from typing import Any
 
 from covariscope import __version__
 from covariscope.errors import CovariscopeError
+from covariscope.model.demo import demo_folder, write_demo
 from covariscope.vocabulary import Family
 
-__all__ = ["demo_folder", "error_log_path", "has_display", "main", "one_line", "write_demo"]
+__all__ = ["TerminalProgress", "error_log_path", "has_display", "main", "one_line"]
 
 COMMANDS = ("gui", "check", "report", "export", "demo")
 FAMILY_CHOICES = [f.value for f in Family]
-DEMO_PROJECT = "demo_project.json"
-DEMO_DATA = "demo_cohort.csv"
 
 
 def _parser() -> argparse.ArgumentParser:
@@ -111,29 +110,39 @@ def has_display() -> bool:
     return True
 
 
-def demo_folder() -> Path:
-    """The default folder for the demo: the user's documents, else home."""
-    home = Path.home()
-    documents = os.environ.get("XDG_DOCUMENTS_DIR")
-    base = Path(documents) if documents else home / "Documents"
-    if not base.is_dir():
-        base = home
-    return base / "Covariscope demo"
+class TerminalProgress:
+    """Progress of a long run on standard error: only on a terminal, and only
+    once the run has taken more than a second (short runs print nothing).
 
+    >>> import io
+    >>> show = TerminalProgress(io.StringIO())  # not a terminal: silent
+    >>> show(0.5, "Fitting model 3 of 42, pass 2 over the rows"); show.close()
+    """
 
-def write_demo(folder: Path) -> Path:
-    """Copy the demo project and data into ``folder``; an existing demo
-    project there is kept, so the user's edits to it are never overwritten."""
-    folder.mkdir(parents=True, exist_ok=True)
-    package = resources.files("covariscope") / "demo"
-    target = folder / DEMO_PROJECT
-    for name in (DEMO_DATA, DEMO_PROJECT):
-        destination = folder / name
-        if destination.exists():
-            continue
-        with resources.as_file(package / name) as source:
-            shutil.copyfile(source, destination)
-    return target
+    def __init__(self, stream: Any, *, delay: float = 1.0, every: float = 0.1) -> None:
+        self.stream = stream
+        self.active = bool(getattr(stream, "isatty", lambda: False)())
+        self.delay, self.every = delay, every
+        self.start = time.monotonic()
+        self.last = -math.inf
+        self.width = 0
+
+    def __call__(self, fraction: float, text: str = "") -> None:
+        now = time.monotonic()
+        if not self.active or now - self.start < self.delay or now - self.last < self.every:
+            return
+        self.last = now
+        line = f"{100 * fraction:3.0f}%  {text}"[:78]
+        self.stream.write("\r" + line.ljust(self.width))
+        self.stream.flush()
+        self.width = len(line)
+
+    def close(self) -> None:
+        """Clear the progress line (if one was shown)."""
+        if self.width:
+            self.stream.write("\r" + " " * self.width + "\r")
+            self.stream.flush()
+            self.width = 0
 
 
 def _run(args: argparse.Namespace) -> tuple[Any, Any]:
@@ -150,9 +159,11 @@ def _run(args: argparse.Namespace) -> tuple[Any, Any]:
         source = open_source(args.data, engine, scheduler=scheduler)
     elif project.data is not None:
         source = open_source(project.data.resolve(project.path), engine, scheduler=scheduler)
+    progress = TerminalProgress(sys.stderr)
     try:
-        result = run_study(project, source=source, family=args.family)
+        result = run_study(project, source=source, family=args.family, progress=progress)
     finally:
+        progress.close()
         close = getattr(source, "close", None)
         if close is not None:
             close()

@@ -55,6 +55,7 @@ __all__ = [
     "EvidenceCancelledError",
     "EvidenceEngine",
     "EvidenceTable",
+    "PassCallback",
     "compare",
     "compute_evidence",
 ]
@@ -66,6 +67,8 @@ __all__ = [
 NEAR_ZERO_SE_FRACTION = 0.1
 
 ProgressCallback = Callable[[int, int], None]
+#: (model number, models in the table, passes over the rows made for it so far)
+PassCallback = Callable[[int, int, int], None]
 CancelCallback = Callable[[], bool]
 #: Told (stage name, hit?) of every fit asked for: how a cache counts fits it does not hold.
 FitRecorder = Callable[[str, bool], None]
@@ -715,6 +718,25 @@ def _own(fit: Fit, columns: tuple[str, ...]) -> tuple[Any, Any, Any]:
     )
 
 
+def _pass_hook(
+    model: int, total: int, cancel: CancelCallback | None, report: PassCallback | None
+) -> Callable[[], None] | None:
+    """What runs after every pass over the rows of one model's fit."""
+    if cancel is None and report is None:
+        return None
+    passes = 0
+
+    def hook() -> None:
+        nonlocal passes
+        passes += 1
+        if cancel is not None and cancel():
+            raise EvidenceCancelledError("The evidence computation was cancelled.")
+        if report is not None:
+            report(model, total, passes)
+
+    return hook
+
+
 def compute_evidence(
     engine: EvidenceEngine,
     *,
@@ -723,6 +745,7 @@ def compute_evidence(
     sets: Mapping[str, Sequence[str]] | None = None,
     progress: ProgressCallback | None = None,
     cancel: CancelCallback | None = None,
+    pass_progress: PassCallback | None = None,
     near_zero: float = NEAR_ZERO_SE_FRACTION,
     index_threshold: float = 30.0,
     proportion_threshold: float = 0.5,
@@ -740,8 +763,13 @@ def compute_evidence(
     sets : mapping of name → node ids
         Further models ("proposed", "minimal:1", ...).
     progress : callable(done, total), optional
+        Called after each model.
     cancel : callable() → bool, optional
-        Checked before each model; True raises :class:`EvidenceCancelledError`.
+        Checked before each model and after every pass over the rows; True
+        raises :class:`EvidenceCancelledError` (the model being fitted is not
+        cached).
+    pass_progress : callable(model, total, passes), optional
+        Called after every pass over the rows of an iterative fit.
     near_zero, index_threshold, proportion_threshold : float
         See :data:`NEAR_ZERO_SE_FRACTION` and
         :func:`~covariscope.analysis.collinearity.collinearity_report`.
@@ -774,7 +802,7 @@ def compute_evidence(
     for done, terms in enumerate(plan):
         if cancel is not None and cancel():
             raise EvidenceCancelledError("The evidence computation was cancelled.")
-        engine.fit(terms)
+        engine.fit(terms, on_pass=_pass_hook(done + 1, total, cancel, pass_progress))
         if progress is not None:
             progress(done + 1, total)
 

@@ -21,6 +21,7 @@ from scipy import special
 from covariscope.analysis.fitting_common import (
     ALIAS_TOL,
     DIVERGE_SD,
+    ETA_TOL,
     inverse_from_cholesky,
     newton_done,
     upper_cholesky,
@@ -31,6 +32,13 @@ __all__ = ["GlmPath", "information_and_score", "newton_glm"]
 
 Array = npt.NDArray[np.float64]
 Index = npt.NDArray[np.intp]
+
+#: Largest change of any row's linear predictor by a Newton step for which
+#: chord steps (score-only passes with the information in hand) may follow.
+CHORD_ZONE = 1e-2
+
+#: Most chord steps before the next fresh pass.
+CHORD_STEPS = 3
 
 #: Largest change of any row's linear predictor by a step after which the
 #: next pass is expected to be the last: that pass then also forms the
@@ -147,6 +155,7 @@ def newton_glm(
 
     P = run(b, True, False)
     cov: Array | None = None
+    last_moved: float | None = None
     for it in range(1, max_iter + 1):
         H = P.info
         assert H is not None
@@ -175,7 +184,15 @@ def newton_glm(
                 meat=P.meat,
                 passes=passes,
             )
-        near = meat and float(reach @ np.abs(delta)) <= NEAR_END
+        moved = float(reach @ np.abs(delta))
+        if _chord_pays(moved, last_moved):
+            chord = _chord(run, b + delta, cov, reach, P.deviance)
+            if chord is not None:
+                b, P = chord, run(chord, True, meat)
+                last_moved = None
+                continue
+        last_moved = moved
+        near = meat and moved <= NEAR_END
         t = 1.0
         for _ in range(40):
             b_new = b + t * delta
@@ -196,6 +213,42 @@ def newton_glm(
                 b, cov, it, False, P.deviance, P.mu_low, P.mu_high, "diverging", passes=passes
             )
     return GlmPath(b, cov, max_iter, False, P.deviance, P.mu_low, P.mu_high, passes=passes)
+
+
+def _chord_pays(moved: float, last_moved: float | None) -> bool:
+    """Whether the next fresh pass would still leave a step above `ETA_TOL`.
+
+    Newton's steps shrink quadratically, s₊ ≈ C s², C estimated from the last
+    two steps; when the step after this one is predicted to fail the rule,
+    a cheap score-only pass or two with the information in hand (the chord
+    method, whose error shrinks by about the step's own size each time) brings
+    the point close enough that the next fresh pass is the last.
+    """
+    if last_moved is None or last_moved <= 0.0 or moved > CHORD_ZONE:
+        return False
+    predicted = moved**3 / last_moved**2
+    return predicted > ETA_TOL
+
+
+def _chord(
+    run: Callable[[Array, bool, bool], GlmPass],
+    b: Array,
+    cov: Array,
+    reach: Array,
+    deviance: float,
+) -> Array | None:
+    """Chord steps b ← b + V g(b) (V the inverse information in hand) by
+    score-only passes; None when the deviance rises (fall back to Newton)."""
+    for _ in range(CHORD_STEPS):
+        P = run(b, False, False)
+        if not math.isfinite(P.deviance) or P.deviance > deviance + 1e-12 * abs(deviance):
+            return None
+        step = cov @ P.score
+        b = b + step
+        deviance = P.deviance
+        if float(reach @ np.abs(step)) <= 1e-3 * ETA_TOL:
+            break
+    return b
 
 
 def information_and_score(

@@ -5,7 +5,8 @@ A Newton (IRLS) step of a logistic or log-link Poisson model at coefficients
 robust (sandwich) standard errors of the Poisson model need X' diag((y − μ)²) X
 as well.  `glm_pass` computes all of them in one read of the rows, block by
 block, so that each block of X is fetched from memory once and used while it
-is in the processor cache.  A model that uses only some columns of a wider
+is in the processor cache; large passes are split over the processor's cores
+(`covariscope.analysis.fitting_common.row_ranges`), each thread summing its own rows.  A model that uses only some columns of a wider
 matrix names them (``cols``) and is never copied as a whole.
 
 This function is the seam for other data sources: a source that cannot hold
@@ -17,12 +18,13 @@ unchanged on top of it.
 from __future__ import annotations
 
 import math
+from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass
 
 import numpy as np
 import numpy.typing as npt
 
-from covariscope.analysis.fitting_common import CHUNK_ROWS
+from covariscope.analysis.fitting_common import CHUNK_ROWS, row_ranges
 
 __all__ = ["GlmPass", "glm_pass"]
 
@@ -121,15 +123,51 @@ def glm_pass(
             res.mu_low,
             res.mu_high,
         )
-    p = q if cols is None else len(cols)
+    ranges = row_ranges(n)
+    if len(ranges) == 1:
+        parts = [_pass_rows(X, y, family, beta, cols, offset, info, meat, 0, n)]
+    else:
+        with ThreadPoolExecutor(len(ranges)) as pool:
+            futures = [
+                pool.submit(_pass_rows, X, y, family, beta, cols, offset, info, meat, s, e)
+                for s, e in ranges
+            ]
+            parts = [f.result() for f in futures]
+    dev = sum(part.deviance for part in parts)
+    score = np.sum([part.score for part in parts], axis=0)
+    H = _total([part.info for part in parts])
+    M = _total([part.meat for part in parts])
+    low = min(part.mu_low for part in parts)
+    high = max(part.mu_high for part in parts)
+    return GlmPass(dev + 2.0 * ylogy if family != "logistic" else dev, score, H, M, low, high)
+
+
+def _total(parts: list[Array | None]) -> Array | None:
+    present = [part for part in parts if part is not None]
+    return None if not present else np.sum(present, axis=0)
+
+
+def _pass_rows(
+    X: Array,
+    y: Array,
+    family: str,
+    beta: Array,
+    cols: Index | None,
+    offset: Array | None,
+    info: bool,
+    meat: bool,
+    start: int,
+    stop: int,
+) -> GlmPass:
+    """The sums of `glm_pass` over rows start .. stop − 1, block by block."""
+    p = X.shape[1] if cols is None else len(cols)
     dev = 0.0
     score = np.zeros(p)
     H = np.zeros((p, p)) if info else None
     M = np.zeros((p, p)) if meat else None
     low, high = math.inf, -math.inf
-    rows = max(1, min(n, CHUNK_ROWS))
-    for s in range(0, n, rows):
-        e = min(s + rows, n)
+    for s in range(start, stop, CHUNK_ROWS):
+        e = min(s + CHUNK_ROWS, stop)
         Xc = X[s:e] if cols is None else np.take(X[s:e], cols, axis=1)
         eta = Xc @ beta
         if offset is not None:
@@ -144,4 +182,4 @@ def glm_pass(
         if M is not None:
             R = Xc * resid[:, None]
             M += R.T @ R
-    return GlmPass(dev + 2.0 * ylogy if family != "logistic" else dev, score, H, M, low, high)
+    return GlmPass(dev, score, H, M, low, high)

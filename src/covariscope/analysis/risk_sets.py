@@ -122,8 +122,8 @@ class CoxSample:
     ) -> tuple[Array, Array]:
         """Score and information at a point, sharing its weights.
 
-        One cumulative sum down [w | wX] (column-major, all columns at once)
-        gives every risk set's S0 and S1.  Event j of tied set g has mean
+        Cumulative sums down the weighted columns (`_risk_set_sums`) give
+        every risk set's S1.  Event j of tied set g has mean
         mⱼ = (S1_g − φⱼ D1_g)/denⱼ (D1_g the weighted sum over the tied set),
         so the score Σⱼ (xⱼ − mⱼ) and Σⱼ mⱼmⱼ' reduce to sums over the tied
         sets with per-set weights Σ 1/den, Σ φ/den, Σ 1/den², Σ φ/den²,
@@ -132,15 +132,9 @@ class CoxSample:
         Efron's share for its own tied set).  ``ev_sum`` is the model's
         column sums over the event rows (computed when not given).
         """
-        n, p = X.shape
         g, phi, w, den = self.group, self.phi, pt.w, pt.den
         k = len(self.d)
-        A = np.empty((n, p + 1), order="F")
-        A[:, 0] = w
-        np.multiply(X, w[:, None], out=A[:, 1:])
-        d1 = np.add.reduceat(A[self.ev_rows, 1:], self.first, axis=0)
-        np.cumsum(A, axis=0, out=A)
-        s1 = A[self.end - 1, 1:]
+        s1, d1 = self._risk_set_sums(X, w)
 
         def per_set(weights: Array) -> Array:
             return np.bincount(g, weights=weights, minlength=k).astype(np.float64)
@@ -158,6 +152,25 @@ class CoxSample:
         c[self.ev_rows] -= w[self.ev_rows] * b[g]
         H = weighted_crossprod(X, np.clip(c, 0.0, None)) - MtM
         return score, H
+
+    def _risk_set_sums(self, X: Array, w: Array) -> tuple[Array, Array]:
+        """S1 (Σ wx over each risk set) and D1 (over each tied set), per column.
+
+        Column by column through one buffer of n values: the weighted column,
+        its tied-set sums and its cumulative sum stay in the processor cache,
+        so the rows are read once (an n × p array of weighted columns would
+        be written and read again twice, and the pass is bound by memory).
+        """
+        n, p = X.shape
+        k = len(self.first)
+        s1, d1 = np.empty((k, p)), np.empty((k, p))
+        tmp = np.empty(n)
+        for j in range(p):
+            np.multiply(X[:, j], w, out=tmp)
+            d1[:, j] = np.add.reduceat(tmp[self.ev_rows], self.first)
+            np.cumsum(tmp, out=tmp)
+            s1[:, j] = tmp[self.end - 1]
+        return s1, d1
 
     def loglik(self, beta: Array, cols: Index | None = None) -> float:
         """Log partial likelihood of the model on ``cols`` at β."""

@@ -35,10 +35,14 @@ def snapshot(project: Project) -> Project:
     )
 
 
-def study_run(cache: StudyCache) -> Callable[[Project, Any, Callable, Callable], Any]:
+def study_run(
+    cache: StudyCache,
+) -> Callable[[Project, Any, Callable[..., Any], Callable[..., Any]], Any]:
     """The default analysis: the study pipeline through ``cache``."""
 
-    def run(project: Project, table: Any, progress: Callable, cancel: Callable) -> Any:
+    def run(
+        project: Project, table: Any, progress: Callable[..., Any], cancel: Callable[..., Any]
+    ) -> Any:
         from covariscope.study import run_study
 
         return run_study(project, table=table, progress=progress, cancel=cancel, cache=cache)
@@ -125,7 +129,7 @@ class _Runner(QObject):
         self.generation += 1
         self._running = False
 
-    def _start(self, fn: Callable[[Callable, Callable], Any]) -> int:
+    def _start(self, fn: Callable[[Callable[..., Any], Callable[..., Any]], Any]) -> int:
         if self._token is not None:
             self._token.cancel()
         self.generation += 1
@@ -174,7 +178,7 @@ class AnalysisRunner(_Runner):
         self,
         project_source: Callable[[], Project],
         *,
-        run: Callable[[Project, Any, Callable, Callable], Any] | None = None,
+        run: Callable[[Project, Any, Callable[..., Any], Callable[..., Any]], Any] | None = None,
         debounce_ms: int = 250,
         parent: QObject | None = None,
         cache: StudyCache | None = None,
@@ -238,7 +242,7 @@ class AnalysisRunner(_Runner):
         self.failed.emit(generation, message)
 
 
-def _default_load(path: str, progress: Callable, cancel: Callable) -> Any:
+def _default_load(path: str, progress: Callable[..., Any], cancel: Callable[..., Any]) -> Any:
     from covariscope.data.loading import load_table
 
     return load_table(path, progress=lambda f: progress(f, ""), cancel=cancel)
@@ -251,7 +255,9 @@ class LoadRunner(_Runner):
     loaded = Signal(object)
     failed = Signal(str)
 
-    def __init__(self, *, load: Callable | None = None, parent: QObject | None = None) -> None:
+    def __init__(
+        self, *, load: Callable[..., Any] | None = None, parent: QObject | None = None
+    ) -> None:
         super().__init__(parent)
         self.load_fn = load or _default_load
 

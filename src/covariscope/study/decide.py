@@ -344,12 +344,12 @@ def _rows_read(
             "so they are shown only when the data are analysed in memory."
         )
         return (), {}
-    aliases = [
+    high_vif = [
         c
         for c, e in evidence.covariates.items()
         if c in evidence.candidates and e.vif_exposure_added >= thresholds["vif"]
     ]
-    pictures = collinearity_pictures(evidence.full, engine.design, groups, aliases)
+    pictures = collinearity_pictures(evidence.full, engine.design, groups, high_vif)
     rec_fit = estimates["recommended"]
     modification: dict[str, Modification] = {}
     if rec_fit is not None and rec_fit.ok:

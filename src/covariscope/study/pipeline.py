@@ -243,6 +243,12 @@ def _evidence(
     def step(done: int, total: int) -> None:
         report(0.15 + 0.8 * done / max(total, 1), f"Fitting model {done} of {total}")
 
+    def each_pass(model: int, total: int, passes: int) -> None:
+        report(
+            0.15 + 0.8 * (model - 1) / max(total, 1),
+            f"Fitting model {model} of {total}, pass {passes} over the rows",
+        )
+
     index = q.threshold["condition_index"]
     evidence: EvidenceTable = run.get(
         "evidence",
@@ -253,6 +259,7 @@ def _evidence(
             added=plan.added,
             sets=dict(plan.sets),
             progress=step,
+            pass_progress=each_pass,
             cancel=run.cancel,
             index_threshold=index,
         ),
@@ -284,7 +291,8 @@ def run_study(
         Model family; default: the project's.
     progress : callable(fraction, text), optional
     cancel : callable() → bool, optional
-        Checked between stages, between columns and between models (raises
+        Checked between stages, between columns, between models and between
+        passes over the rows (raises
         :class:`~covariscope.analysis.evidence.EvidenceCancelledError`).
     cache : StudyCache, optional
         The stage results of earlier runs (the window's, or one command-line

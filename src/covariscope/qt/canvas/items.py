@@ -9,7 +9,7 @@ from __future__ import annotations
 from collections.abc import Callable
 
 from PySide6.QtCore import QPointF, QRectF, Qt
-from PySide6.QtGui import QKeyEvent, QPainter, QPainterPath, QPen
+from PySide6.QtGui import QFocusEvent, QKeyEvent, QPainter, QPainterPath, QPen
 from PySide6.QtWidgets import (
     QGraphicsItem,
     QGraphicsLineItem,
@@ -261,7 +261,7 @@ class LabelEditor(QGraphicsTextItem):
         painter.setPen(QPen(colour("selection"), 1.2))
         painter.setBrush(colour("badge_fill"))
         painter.drawRect(self.boundingRect())
-        super().paint(painter, option, widget)
+        super().paint(painter, option, widget)  # type: ignore[arg-type]  # Qt accepts no widget
 
     def finish(self, commit: bool) -> None:
         if self._finished:
@@ -280,8 +280,8 @@ class LabelEditor(QGraphicsTextItem):
         else:
             super().keyPressEvent(event)
 
-    def focusOutEvent(self, event: object) -> None:  # type: ignore[override]
-        super().focusOutEvent(event)  # type: ignore[arg-type]
+    def focusOutEvent(self, event: QFocusEvent) -> None:
+        super().focusOutEvent(event)
         self.finish(True)
 
     def mouseDoubleClickEvent(self, event: QGraphicsSceneMouseEvent) -> None:
