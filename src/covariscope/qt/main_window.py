@@ -115,6 +115,7 @@ class MainWindow(QMainWindow):
         self.paths.path_chosen.connect(self._highlight_path)
         self.claims = ClaimsPanel()
         self.claims.suggestion_chosen.connect(self._show_suggestion)
+        self.claims.settings_changed.connect(lambda ch: self.project.update_settings(**ch))
         self.docks = {
             "data": self._dock("Data", self.data_panel, Qt.DockWidgetArea.LeftDockWidgetArea),
             "review": self._dock(
@@ -296,6 +297,9 @@ class MainWindow(QMainWindow):
         self.data_panel.refresh(self.project, self.data.table, self.data.profiles)
         self.review.refresh(self.project, self.result)
         self.paths.refresh(self.result, node_labels(self.project))
+        self.claims.sync_settings(
+            self.project.analysis.claim_correction, self.project.analysis.claim_limit
+        )
         self.claims.refresh(self.result)
         self.strip.refresh(self.result)
         self.messages_bar.refresh(
