@@ -331,7 +331,10 @@ class MainWindow(QMainWindow):
         self._set_state("Analysis up to date")
         recomputed = getattr(result, "recomputed", None)
         if recomputed is not None:
-            self.show_message(recompute_summary(recomputed, result.models_fitted, result.seconds))
+            # a tooltip, not a status message: a long message would widen the window
+            self.state_label.setToolTip(
+                recompute_summary(recomputed, result.models_fitted, result.seconds)
+            )
         msgs = getattr(result, "messages", ())
         self.error_label.setToolTip("\n".join(msgs))
 
