@@ -226,7 +226,7 @@ def test_a_csv_file_is_read_where_it_lies(demo_copy: Path) -> None:
 def test_categorical_terms_and_reference_levels_are_coded_alike(
     generated_file: Path, dask_source: Any
 ) -> None:
-    from covariscope.study.prepare import prepare_evidence
+    from covariscope.study.whole_source import prepare_evidence
 
     project = generated_project(generated_file, "logistic")
     names = []

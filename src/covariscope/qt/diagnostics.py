@@ -88,11 +88,10 @@ def _analysed_rows(sample: Any, frame: Any, s: NodeDiagnostics) -> Any:
     """The rows the models used (the analytic sample) when it holds both
     columns of the plot, so the picture shows what the numbers came from;
     else the loaded file."""
-    rows = getattr(sample, "frame", None)
     wanted = {s.exposure_column, s.column}
-    if rows is not None and None not in wanted and wanted <= set(rows.columns):
-        return rows
-    return frame
+    if sample is None or frame is None or None in wanted or not wanted <= set(sample.columns):
+        return frame
+    return sample.rows_of(frame)
 
 
 def _fill(table: QTableWidget, rows: list[tuple[str, ...]], fit: bool = True) -> None:

@@ -52,10 +52,14 @@ from covariscope.views.diagram import canvas_annotations
 from covariscope.views.keep_choice import keep_choice, keep_choices_after
 from covariscope.views.messages import window_messages
 from covariscope.views.outcome_settings import family_columns_after
+from covariscope.views.recompute import recompute_summary
 from covariscope.views.residual import spline_knots_after
 from covariscope.views.review import proposed_after_toggle
 
 __all__ = ["MainWindow"]
+
+#: Node fields no analysis reads: editing them asks for none.
+LAYOUT_FIELDS = frozenset({"x", "y", "note"})
 
 
 class MainWindow(QMainWindow):
@@ -265,6 +269,8 @@ class MainWindow(QMainWindow):
     # -- reacting to the model -----------------------------------------------------------
     def _model_changed(self, event: Any) -> None:
         self.refresh_panels()
+        if event.kind == "node_changed" and set(event.changes) <= LAYOUT_FIELDS:
+            return  # where a node sits and what its note says change no number
         self.request_analysis()
 
     def _project_changed(self, event: Any) -> None:
@@ -327,6 +333,12 @@ class MainWindow(QMainWindow):
         else:
             self.rows_label.setText("No data loaded")
         self._set_state("Analysis up to date")
+        recomputed = getattr(result, "recomputed", None)
+        if recomputed is not None:
+            # a tooltip, not a status message: a long message would widen the window
+            self.state_label.setToolTip(
+                recompute_summary(recomputed, result.models_fitted, result.seconds)
+            )
         msgs = getattr(result, "messages", ())
         self.error_label.setToolTip("\n".join(msgs))
 

@@ -10,6 +10,7 @@ same rules as the in-memory path, so the numbers agree.
 from __future__ import annotations
 
 import dataclasses
+import functools
 import hashlib
 from abc import ABC, abstractmethod
 from collections.abc import Mapping
@@ -234,7 +235,7 @@ class BatchSource(ABC):
         if profile.type in LEVEL_TYPES and found is not None:
             levels = sort_levels(found)
             changes["levels"] = levels
-            changes["distinct"] = len(levels)
+            changes["count_distinct"] = functools.partial(len, levels)
             if profile.type == "binary" and len(levels) > 2:
                 changes["type"] = changes["inferred_type"] = "categorical"
         levels = changes.get("levels", profile.levels)
