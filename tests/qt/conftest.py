@@ -79,6 +79,21 @@ def _fresh_settings(qapp):
 
 
 @pytest.fixture(autouse=True)
+def _collect_closed_windows(qapp):
+    """Destroy what a test closed before the next test runs its event loop:
+    pending deferred deletes are delivered and Python's cycle collector runs
+    here, at a known point, rather than in the middle of a later test's events."""
+    yield
+    import gc
+
+    from PySide6.QtCore import QCoreApplication, QEvent
+
+    QCoreApplication.processEvents()
+    QCoreApplication.sendPostedEvents(None, QEvent.Type.DeferredDelete)
+    gc.collect()
+
+
+@pytest.fixture(autouse=True)
 def _no_leaked_windows(qapp):
     from PySide6.QtWidgets import QApplication
 
