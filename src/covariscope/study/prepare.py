@@ -20,6 +20,7 @@ import numpy as np
 import pandas as pd
 
 from covariscope.analysis.design import (
+    TERM_TYPES,
     CodedTerm,
     Design,
     DesignBuilder,
@@ -50,7 +51,6 @@ __all__ = [
     "table_profiles",
 ]
 
-_TERM_TYPES = ("continuous", "binary", "count", "categorical")
 _OUTCOME_KEYS = ("outcome", "time", "event", "offset")
 
 
@@ -93,9 +93,10 @@ class Bindings:
         return dict(self.outcome_columns)
 
 
-def _outcome_columns(
+def outcome_columns(
     project: Project, family: str, outcome_column: str | None
 ) -> dict[str, str | None]:
+    """The outcome, time, event and offset columns the family reads (a Cox model has no outcome column)."""
     chosen = dict(project.analysis.family_columns.get(family, {}))
     cols: dict[str, str | None] = {
         "outcome": chosen.get("outcome", outcome_column),
@@ -125,7 +126,7 @@ def read_bindings(
             f'The exposure "{diagram.node(exposure).label}" is not bound to a data column, so only the diagram is analysed; bind it to a column.'
         )
         return _not_ready(messages)
-    cols = _outcome_columns(project, family, y_col)
+    cols = outcome_columns(project, family, y_col)
     if cols["offset"] is not None and family != "risk_ratio":
         messages.append(
             f'Only the risk/rate-ratio family takes an offset; the offset column "{cols["offset"]}" '
@@ -389,7 +390,7 @@ def prepare_design(
         if node not in kept:
             continue
         kind = profiles[column].type
-        if kind not in _TERM_TYPES:
+        if kind not in TERM_TYPES:
             messages.append(
                 f'"{labels[node]}" is bound to "{column}", a {kind} column, which a model cannot use; '
                 "it is left out (set its type if this is wrong)."

@@ -10,7 +10,7 @@ from __future__ import annotations
 from collections.abc import Mapping
 from typing import Any
 
-from covariscope.analysis.design import TermSpec
+from covariscope.analysis.design import TERM_TYPES, TermSpec
 from covariscope.analysis.evidence import EvidenceEngine
 from covariscope.analysis.graph import DiagramAnalysis
 from covariscope.data.profile import ColumnProfile
@@ -19,25 +19,9 @@ from covariscope.data.sources.base import DataSource, DesignRequest
 from covariscope.data.sources.coding import ColumnUse, term_spec
 from covariscope.model.project import Project
 from covariscope.study.degenerate import check_question_columns, usable_covariates
+from covariscope.study.prepare import outcome_columns
 
 __all__ = ["prepare_evidence"]
-
-_TERM_TYPES = ("continuous", "binary", "count", "categorical")
-
-
-def _outcome_columns(
-    project: Project, family: str, outcome_column: str | None
-) -> dict[str, str | None]:
-    chosen = dict(project.analysis.family_columns.get(family, {}))
-    cols: dict[str, str | None] = {
-        "outcome": chosen.get("outcome", outcome_column),
-        "time": chosen.get("time"),
-        "event": chosen.get("event"),
-        "offset": chosen.get("offset"),
-    }
-    if family == "cox":
-        cols["outcome"] = None
-    return cols
 
 
 def prepare_evidence(
@@ -58,7 +42,7 @@ def prepare_evidence(
             f'The exposure "{diagram.node(exposure).label}" is not bound to a data column, so only the diagram is analysed; bind it to a column.'
         )
         return None, None, []
-    cols = _outcome_columns(project, family, y_col)
+    cols = outcome_columns(project, family, y_col)
     if cols["offset"] is not None and family != "risk_ratio":
         messages.append(
             f'Only the risk/rate-ratio family takes an offset; the offset column "{cols["offset"]}" '
@@ -109,7 +93,7 @@ def prepare_evidence(
         column = diagram.node(b).column
         assert column is not None
         kind = profiles[column].type
-        if kind not in _TERM_TYPES:
+        if kind not in TERM_TYPES:
             messages.append(
                 f'"{diagram.node(b).label}" is bound to "{column}", a {kind} column, which a model cannot use; '
                 "it is left out (set its type if this is wrong)."
