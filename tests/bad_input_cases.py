@@ -164,8 +164,8 @@ CONTRADICTIONS = [
     ("keep-group-names-exposure", _keep("c|x", "c"), "not a covariate"),
 ]
 SIZES = [
-    ("too-many-nodes", _many("nodes", 2_500), "2,504 nodes"),
-    ("too-many-arrows", _many("arrows", 20_001), "20,004 arrows"),
+    ("too-many-nodes", _many("nodes", 100_000), "100,004 nodes"),
+    ("too-many-arrows", _many("arrows", 100_001), "100,004 arrows"),
 ]
 
 PROJECT_CASES = NUMBERS + NESTING + SOURCES + CONTRADICTIONS + SIZES

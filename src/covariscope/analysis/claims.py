@@ -38,6 +38,7 @@ from dataclasses import dataclass
 import networkx as nx
 
 from covariscope.analysis.constructs import merge_diagram, merge_every_link
+from covariscope.analysis.separation import minimal_d_separator
 from covariscope.vocabulary import DEFAULT_CLAIM_LIMIT, Correction
 from covariscope.vocabulary import Untestable as UntestableReason
 
@@ -180,7 +181,7 @@ def implied_claims(
             untestable.append(Untestable(a, b, "measures_endpoint"))
             continue
         allowed = set(with_data) - {ca, cb}
-        found = nx.find_minimal_d_separator(M, ca, cb, restricted=allowed)
+        found = minimal_d_separator(M, ca, cb, restricted=allowed)
         if found is None:
             needs = _needs(M, ca, cb, with_data, construct_of)
             untestable.append(Untestable(a, b, "unmeasured", needs))
@@ -210,7 +211,7 @@ def _needs(
     construct_of: Mapping[str, str],
 ) -> tuple[str, ...]:
     """Variables without data in one minimal separating set (any set is allowed)."""
-    found = nx.find_minimal_d_separator(M, ca, cb)
+    found = minimal_d_separator(M, ca, cb)
     if found is None:  # cannot happen for non-adjacent nodes of a DAG
         return ()
     lacking = set(found) - set(with_data)

@@ -123,12 +123,24 @@ def skeleton(M: nx.DiGraph) -> _Adjacency:
 
 
 def ancestors_of(M: nx.DiGraph, nodes: Iterable[str]) -> set[str]:
-    """The nodes and all their ancestors."""
-    out: set[str] = set()
-    for node in nodes:
-        if node not in out:
-            out.add(node)
-            out |= nx.ancestors(M, node)
+    """The nodes and all their ancestors (one search from all of them at
+    once, so linear in the size of the graph however many nodes are given)."""
+    return _closure(M.predecessors, nodes)
+
+
+def descendants_of(M: nx.DiGraph, nodes: Iterable[str]) -> set[str]:
+    """The nodes and all their descendants (one search, linear)."""
+    return _closure(M.successors, nodes)
+
+
+def _closure(step: Callable[[str], Iterable[str]], nodes: Iterable[str]) -> set[str]:
+    out = set(nodes)
+    stack = list(out)
+    while stack:
+        for w in step(stack.pop()):
+            if w not in out:
+                out.add(w)
+                stack.append(w)
     return out
 
 
@@ -141,7 +153,13 @@ def path_colliders(M: nx.DiGraph, nodes: tuple[str, ...]) -> tuple[str, ...]:
     )
 
 
-def _reaches(adj: _Adjacency, start: str, target: str, blocked: Collection[str]) -> bool:
+def _reaches(
+    adj: _Adjacency,
+    start: str,
+    target: str,
+    blocked: Collection[str],
+    nodes_ok: Collection[str] | None = None,
+) -> bool:
     if start == target:
         return True
     seen = {start}
@@ -151,7 +169,7 @@ def _reaches(adj: _Adjacency, start: str, target: str, blocked: Collection[str])
         for w in adj[v]:
             if w == target:
                 return True
-            if w not in seen and w not in blocked:
+            if w not in seen and w not in blocked and (nodes_ok is None or w in nodes_ok):
                 seen.add(w)
                 stack.append(w)
     return False
@@ -189,12 +207,16 @@ def _walk(
     """
     path = [X]
     on_path = {X}
-    sorted_adj = {v: sorted(ws) for v, ws in adj.items()}
+    # Neighbours are sorted only where the walk goes (sorting them all would
+    # cost the whole graph on every call).
+    sorted_adj: dict[str, list[str]] = {}
 
     def ok(w: str) -> bool:
         return nodes_ok is None or w in nodes_ok
 
     def extend(v: str) -> Iterator[tuple[str, ...]]:
+        if v not in sorted_adj:
+            sorted_adj[v] = sorted(adj[v])
         for w in sorted_adj[v]:
             if w in on_path or not ok(w):
                 continue
@@ -203,8 +225,7 @@ def _walk(
             if w == Y:
                 yield (*path, Y)
                 continue
-            blocked = on_path if nodes_ok is None else on_path | (set(adj) - set(nodes_ok))
-            if not _reaches(adj, w, Y, blocked):
+            if not _reaches(adj, w, Y, on_path, nodes_ok):
                 continue
             path.append(w)
             on_path.add(w)
@@ -218,7 +239,7 @@ def _walk(
         if p == Y:
             yield (X, Y)
             continue
-        if not _reaches(adj, p, Y, on_path):
+        if not _reaches(adj, p, Y, on_path, nodes_ok):
             continue
         path.append(p)
         on_path.add(p)
@@ -446,10 +467,18 @@ def listing(
 
 
 def open_path_with_collider(
-    M: nx.DiGraph, X: str, Y: str, Z: frozenset[str], wanted: Collection[str]
+    M: nx.DiGraph,
+    X: str,
+    Y: str,
+    Z: frozenset[str],
+    wanted: Collection[str],
+    adj: _Adjacency | None = None,
 ) -> tuple[str, ...] | None:
-    """A backdoor path open given Z with a collider in ``wanted``, or None."""
-    adj = skeleton(M)
+    """A backdoor path open given Z with a collider in ``wanted``, or None.
+
+    ``adj`` is ``skeleton(M)`` when the caller asks many times of one graph.
+    """
+    adj = skeleton(M) if adj is None else adj
     anZ = ancestors_of(M, Z)
     nodes_ok = ancestors_of(M, {X, Y} | Z)
 

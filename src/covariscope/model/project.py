@@ -57,10 +57,10 @@ FORMAT_VERSION = 1
 MAX_COORDINATE = 1e7
 """Canvas positions beyond this are a damaged file (a diagram spans a few
 thousand units)."""
-MAX_NODES = 2_000
+MAX_NODES = 20_000
 """Common practice, not a published bound: diagrams for one exposure and one
 outcome hold tens of nodes, rarely hundreds."""
-MAX_LINKS = 20_000
+MAX_LINKS = 100_000
 MAX_THRESHOLD = 1e6
 """No guide threshold (percent, VIF, condition index) means anything past this."""
 FAMILY_NAMES: tuple[str, ...] = tuple(Family)
@@ -247,8 +247,8 @@ def project_from_dict(data: Any, path: Path | None = None) -> Project:
     if not isinstance(raw_diagram, dict):
         problems.add("diagram", "missing or not an object")
         raw_diagram = {}
-    _read_nodes(raw_diagram.get("nodes", []), diagram, problems)
     _check_size(raw_diagram)
+    _read_nodes(raw_diagram.get("nodes", []), diagram, problems)
     _read_links(raw_diagram.get("arrows", []), "arrows", ("from", "to"), diagram, problems)
     _read_links(raw_diagram.get("proxies", []), "proxies", ("a", "b"), diagram, problems)
 
