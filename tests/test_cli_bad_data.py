@@ -1,9 +1,13 @@
 """Every class of bad data or degenerate design: a plain message, never an
 internal error, never a wrong figure.
 
-Refusals (the question cannot be answered) end in one line and exit status
-2; problems confined to one covariate or setting leave the rest of the
-study running and say what was left out.
+The exit status follows the classes documented in ``covariscope.cli``:
+REFUSED (the bound data cannot estimate the effect: same column, an outcome
+the exposure determines, out-of-range or stray values in the exposure or
+outcome, an outcome with one value or not coded for its family) ends in one
+line and exit status 2; SAID (a problem confined to one covariate or one
+setting) leaves the rest of the study running, exit status 0, and names
+what was left out in the messages.
 """
 
 from __future__ import annotations
@@ -82,6 +86,42 @@ REFUSED = [
     ("tiny-spread-exposure", _with(x=lambda f: f.x * 1e-200), {}, "not constant"),
     ("constant-linear-outcome", _with(y=lambda f: 5.0), {}, "single value 5"),
     ("stray-text-in-exposure", _with(x=_stray), {}, "'n.a.' in data row(s) 18"),
+    (
+        "all-ones-logistic-outcome",
+        _with(b=lambda f: 1),
+        {"family": "logistic", "columns": {"logistic": {"outcome": "b"}}},
+        "single value 1",
+    ),
+    (
+        "all-zeros-risk-ratio-outcome",
+        _with(b=lambda f: 0),
+        {"family": "risk_ratio", "columns": {"risk_ratio": {"outcome": "b"}}},
+        "single value 0",
+    ),
+    (
+        "logistic-outcome-not-binary",
+        _with(b=lambda f: (f.y > 0).astype(int) + (f.y > 1).astype(int)),
+        {"family": "logistic", "columns": {"logistic": {"outcome": "b"}}},
+        "coded 0/1",
+    ),
+    (
+        "huge-cox-time",
+        _with(t=lambda f: (f.y - f.y.min() + 1) * 1e300, e=lambda f: 1),
+        {"family": "cox", "columns": {"cox": {"time": "t", "event": "e"}}},
+        "as large as",
+    ),
+    (
+        "huge-logistic-exposure",
+        _with(x=lambda f: f.x * 1e300, b=lambda f: (f.y > 0).astype(int)),
+        {"family": "logistic", "columns": {"logistic": {"outcome": "b"}}},
+        "as large as",
+    ),
+    (
+        "tiny-risk-ratio-exposure",
+        _with(x=lambda f: f.x * 1e-200, b=lambda f: (f.y > 0).astype(int)),
+        {"family": "risk_ratio", "columns": {"risk_ratio": {"outcome": "b"}}},
+        "not constant",
+    ),
 ]
 
 
@@ -117,12 +157,6 @@ SAID = [
         _with(o=lambda f: 1.0, b=lambda f: (f.y > 0).astype(int)),
         {"family": "logistic", "columns": {"logistic": {"outcome": "b", "offset": "o"}}},
         "offset",
-    ),
-    (
-        "all-ones-logistic-outcome",
-        _with(b=lambda f: 1),
-        {"family": "logistic", "columns": {"logistic": {"outcome": "b"}}},
-        "single value 1",
     ),
 ]
 

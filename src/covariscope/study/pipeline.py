@@ -101,6 +101,9 @@ class DataStage:
     evidence: EvidenceTable | None
     key: Any
     messages: tuple[str, ...]
+    #: why the bound data could give no estimate ("" when they did, or when
+    #: nothing was asked of them): the study falls back to the diagram
+    problem: str = ""
 
 
 @dataclass(frozen=True, eq=False)
@@ -161,7 +164,7 @@ def _data_stage(
         raise  # no number could mean anything: the study stops, saying why
     except DataError as exc:
         messages.append(f"{exc} Only the diagram is analysed.")
-        return DataStage(None, None, None, None, tuple(messages))
+        return DataStage(None, None, None, None, tuple(messages), str(exc))
     messages.extend(prepared.messages)
     _family_columns_message(project, q, messages)
     design = prepared.design
@@ -444,7 +447,7 @@ def _whole_stage(
         tuple(sorted((k, repr(v)) for k, v in a.reference_levels.items())),
     )
 
-    def prepare() -> tuple[Any, EvidenceEngine | None, list[str], tuple[str, ...]]:
+    def prepare() -> tuple[Any, EvidenceEngine | None, list[str], tuple[str, ...], str]:
         messages: list[str] = []
         try:
             sample, engine, bound = prepare_evidence(
@@ -454,13 +457,13 @@ def _whole_stage(
             raise  # no number could mean anything: the study stops, saying why
         except DataError as exc:
             messages.append(f"{exc} Only the diagram is analysed.")
-            return None, None, [], tuple(messages)
-        return sample, engine, bound, tuple(messages)
+            return None, None, [], tuple(messages), str(exc)
+        return sample, engine, bound, tuple(messages), ""
 
-    sample, engine, bound, prepared_messages = run.get("source", key, prepare)
+    sample, engine, bound, prepared_messages, problem = run.get("source", key, prepare)
     messages = list(prepared_messages)
     if engine is None:
-        return DataStage(None, None, None, None, tuple(messages))
+        return DataStage(None, None, None, None, tuple(messages), problem)
     _family_columns_message(project, q, messages)
     _check_crude(engine, q)
     report(0.15, "Fitting the comparison models")
@@ -537,4 +540,5 @@ def _result(
         pictures=decisions.pictures,
         modification=decisions.modification,
         residual_confounding=decisions.residual_confounding,
+        data_problem=data.problem,
     )

@@ -57,6 +57,10 @@ class StudyResult:
     modification: dict[str, Modification] = field(default_factory=dict)
     #: continuous confounders of the recommended model, linear against a spline
     residual_confounding: dict[str, ResidualCheck] = field(default_factory=dict)
+    #: Why the bound data gave no estimate ("" when they did or none were
+    #: asked for): the verdicts then come from the diagram alone.  ``check``
+    #: and ``report`` treat it as a question that cannot be answered (exit 2).
+    data_problem: str = ""
     #: The stages this run computed (the rest came from the cache), in order.
     recomputed: tuple[str, ...] = ()
     #: Models this run fitted (the rest came from the cache).
