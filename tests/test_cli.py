@@ -100,7 +100,7 @@ def test_demo_without_a_display_writes_the_review_and_the_rationale(tmp_path):
 
 
 def test_demo_keeps_an_existing_project(tmp_path):
-    from covariscope.cli import write_demo
+    from covariscope.model.demo import write_demo
 
     first = write_demo(tmp_path)
     edited = first.read_text() + "\n"  # the user's own edit

@@ -14,7 +14,8 @@ from pathlib import Path
 
 import pytest
 
-from covariscope.cli import error_log_path, main, write_demo
+from covariscope.cli import error_log_path, main
+from covariscope.model.demo import write_demo
 
 
 @pytest.fixture

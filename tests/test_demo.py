@@ -154,7 +154,7 @@ def test_other_families_run_on_the_demo(family, measure, conversion):
 
 
 def test_written_demo_runs_from_its_new_folder(tmp_path):
-    from covariscope.cli import write_demo
+    from covariscope.model.demo import write_demo
 
     project_path = write_demo(tmp_path / "demo")
     r = run_study(load_project(project_path))

@@ -13,33 +13,22 @@ import errno
 import json
 import math
 import os
-import shutil
 import sys
 import time
 import traceback
 from collections.abc import Sequence
-from importlib import resources
 from pathlib import Path
 from typing import Any
 
 from covariscope import __version__
 from covariscope.errors import CovariscopeError
+from covariscope.model.demo import demo_folder, write_demo
 from covariscope.vocabulary import Family
 
-__all__ = [
-    "TerminalProgress",
-    "demo_folder",
-    "error_log_path",
-    "has_display",
-    "main",
-    "one_line",
-    "write_demo",
-]
+__all__ = ["TerminalProgress", "error_log_path", "has_display", "main", "one_line"]
 
 COMMANDS = ("gui", "check", "report", "export", "demo")
 FAMILY_CHOICES = [f.value for f in Family]
-DEMO_PROJECT = "demo_project.json"
-DEMO_DATA = "demo_cohort.csv"
 
 
 def _parser() -> argparse.ArgumentParser:
@@ -119,31 +108,6 @@ def has_display() -> bool:
     if sys.platform.startswith("linux"):
         return bool(os.environ.get("DISPLAY") or os.environ.get("WAYLAND_DISPLAY"))
     return True
-
-
-def demo_folder() -> Path:
-    """The default folder for the demo: the user's documents, else home."""
-    home = Path.home()
-    documents = os.environ.get("XDG_DOCUMENTS_DIR")
-    base = Path(documents) if documents else home / "Documents"
-    if not base.is_dir():
-        base = home
-    return base / "Covariscope demo"
-
-
-def write_demo(folder: Path) -> Path:
-    """Copy the demo project and data into ``folder``; an existing demo
-    project there is kept, so the user's edits to it are never overwritten."""
-    folder.mkdir(parents=True, exist_ok=True)
-    package = resources.files("covariscope") / "demo"
-    target = folder / DEMO_PROJECT
-    for name in (DEMO_DATA, DEMO_PROJECT):
-        destination = folder / name
-        if destination.exists():
-            continue
-        with resources.as_file(package / name) as source:
-            shutil.copyfile(source, destination)
-    return target
 
 
 class TerminalProgress:

@@ -668,14 +668,11 @@ CLAIM_CAUTION_SHORT = "Passing is no proof; read the strength, not only p."
 
 #: What every output says beside its findings, in plain words.
 CAUTIONS: tuple[str, ...] = (
-    "The diagram encodes assumptions that the data cannot fully test; a verdict is only "
-    "as sound as the diagram behind it.",
-    "The thresholds (change in estimate, SE inflation, VIF, condition index) are rules of "
-    "thumb from common practice, shown as guides, not rules.",
-    "Unmeasured confounding is possible; the E-value says how strong it would have to be "
-    "to explain the estimate away.",
-    "Covariscope supports the analyst's judgment and the study's pre-specified analysis "
-    "plan; it does not replace them.",
+    "The diagram encodes assumptions that the data cannot fully test.",
+    "The thresholds are rules of thumb, shown as guides, not rules.",
+    "Unmeasured confounding is possible; the E-value says how strong it would have to be.",
+    "Covariscope supports the analyst's judgment and the pre-specified analysis plan; "
+    "it does not replace them.",
 )
 
 

@@ -142,3 +142,15 @@ def test_an_arrow_that_closes_a_cycle_is_always_refused(pairs):
         else:
             assert not would_cycle
         assert nx.is_directed_acyclic_graph(d.to_networkx())
+
+
+def test_a_kind_change_cannot_proxy_link_the_exposure_to_the_outcome():
+    d = Diagram()
+    d.add_node(Node("x", kind="exposure"))
+    d.add_node(Node("y", kind="outcome"))
+    d.add_node(Node("w"))
+    d.add_proxy("y", "w")
+    d.update_node("x", kind="covariate")
+    with pytest.raises(DiagramError, match="Remove the link first"):
+        d.update_node("w", kind="exposure")
+    assert d.node("w").kind == "covariate"

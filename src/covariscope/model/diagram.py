@@ -278,6 +278,13 @@ class Diagram:
                     raise DiagramError(
                         f'"{current[0].id}" is already the {kind}; make it a covariate first.'
                     )
+                other = "outcome" if kind == "exposure" else "exposure"
+                for a, b in self._proxies:
+                    if node_id in (a, b) and self._nodes[b if a == node_id else a].kind == other:
+                        raise DiagramError(
+                            f'Making "{node_id}" the {kind} would leave a proxy link saying the '
+                            "exposure and the outcome measure the same thing. Remove the link first."
+                        )
         if "label" in changes and not str(changes["label"]).strip():
             changes["label"] = node_id
         new = replace(old, **changes)

@@ -119,7 +119,10 @@ class WindowActions:
         self.about = a("&About Covariscope", w.show_about)
 
     def _action(
-        self, text: str, slot: Callable, shortcut: QKeySequence.StandardKey | str | None = None
+        self,
+        text: str,
+        slot: Callable[[], object],
+        shortcut: QKeySequence.StandardKey | str | None = None,
     ) -> QAction:
         act = QAction(text, self.w)
         if shortcut is not None:

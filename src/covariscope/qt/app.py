@@ -5,11 +5,15 @@ from __future__ import annotations
 
 import sys
 from importlib import resources
+from typing import TYPE_CHECKING
 
 from PySide6.QtCore import QSettings
 from PySide6.QtWidgets import QApplication
 
 from covariscope.errors import CovariscopeError
+
+if TYPE_CHECKING:
+    from covariscope.qt.main_window import MainWindow
 
 __all__ = ["application", "run_gui", "style_sheet"]
 
@@ -29,18 +33,17 @@ def style_sheet() -> str:
 
 def application() -> QApplication:
     """The one QApplication, created and styled on first use."""
-    app = QApplication.instance()
-    if app is None:
-        app = QApplication(sys.argv[:1])
+    existing = QApplication.instance()
+    app = existing if isinstance(existing, QApplication) else QApplication(sys.argv[:1])
     app.setOrganizationName(ORGANISATION)
     app.setApplicationName(APPLICATION)
     app.setApplicationDisplayName(APPLICATION)
     if not app.styleSheet():
         app.setStyleSheet(style_sheet())
-    return app  # type: ignore[return-value]
+    return app
 
 
-def start_window(project_path: str | None = None, *, demo: bool = False):
+def start_window(project_path: str | None = None, *, demo: bool = False) -> MainWindow:
     """Build and show the main window, with the start-up offers; returns it."""
     from covariscope.qt.main_window import MainWindow
 

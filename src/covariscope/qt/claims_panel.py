@@ -14,9 +14,12 @@ from PySide6.QtCore import Qt, Signal
 from PySide6.QtGui import QBrush, QColor, QFont
 from PySide6.QtWidgets import (
     QAbstractItemView,
+    QComboBox,
     QFrame,
+    QHBoxLayout,
     QHeaderView,
     QLabel,
+    QSpinBox,
     QSplitter,
     QTableWidget,
     QTableWidgetItem,
@@ -27,6 +30,7 @@ from PySide6.QtWidgets import (
 
 from covariscope.qt.tables import filling
 from covariscope.views.claims import ClaimRow, claims_view
+from covariscope.vocabulary import CORRECTION_TERMS
 
 __all__ = ["ClaimsPanel"]
 
@@ -40,6 +44,8 @@ class ClaimsPanel(QWidget):
 
     #: (a, b, arrows) of a chosen failed claim, or None
     suggestion_chosen = Signal(object)
+    #: analysis settings the analyst changed here, e.g. {"claim_limit": 400}
+    settings_changed = Signal(object)
 
     def __init__(self, parent: QWidget | None = None) -> None:
         super().__init__(parent)
@@ -79,13 +85,33 @@ class ClaimsPanel(QWidget):
         split.setStretchFactor(0, 3)
         split.setStretchFactor(1, 1)
         split.setChildrenCollapsible(False)
+        self.correction = QComboBox()
+        self.correction.setObjectName("claimCorrection")
+        for term in CORRECTION_TERMS.values():
+            self.correction.addItem(term.short, term.code)
+            self.correction.setItemData(
+                self.correction.count() - 1, term.explanation, Qt.ItemDataRole.ToolTipRole
+            )
+        self.correction.activated.connect(self._correction_chosen)
+        self.limit = QSpinBox()
+        self.limit.setObjectName("claimLimit")
+        self.limit.setRange(1, 100_000)
+        self.limit.setToolTip("Most claims tested; raise it when the diagram implies more.")
+        self.limit.editingFinished.connect(self._limit_chosen)
+        top = QHBoxLayout()
+        top.addWidget(self.summary, 1)
+        top.addWidget(QLabel("Correction:"))
+        top.addWidget(self.correction)
+        top.addWidget(QLabel("Most claims:"))
+        top.addWidget(self.limit)
         layout = QVBoxLayout(self)
         layout.setContentsMargins(4, 4, 4, 4)
-        layout.addWidget(self.summary)
+        layout.addLayout(top)
         layout.addWidget(split, 1)
         layout.addWidget(self.caution)
         self._rows: tuple[ClaimRow, ...] = ()
         self._shown: Any = self  # the result on show (``self``: none yet)
+        self._limit_shown = 0
 
     @property
     def rows(self) -> tuple[ClaimRow, ...]:
@@ -123,6 +149,25 @@ class ClaimsPanel(QWidget):
         self.table.blockSignals(False)
         self.detail.setPlainText(_HINT if view.rows else "")
         self.suggestion_chosen.emit(None)
+
+    def sync_settings(self, correction: str, limit: int) -> None:
+        """Show the project's correction and claim limit (without echoing a change)."""
+        self.correction.blockSignals(True)
+        self.limit.blockSignals(True)
+        index = self.correction.findData(correction)
+        self.correction.setCurrentIndex(max(index, 0))
+        self.limit.setValue(limit)
+        self.correction.blockSignals(False)
+        self.limit.blockSignals(False)
+        self._limit_shown = limit
+
+    def _correction_chosen(self, index: int) -> None:
+        self.settings_changed.emit({"claim_correction": self.correction.itemData(index)})
+
+    def _limit_chosen(self) -> None:
+        if self.limit.value() != self._limit_shown:
+            self._limit_shown = self.limit.value()
+            self.settings_changed.emit({"claim_limit": self.limit.value()})
 
     def choose(self, index: int) -> None:
         """Select a row (as a click would)."""

@@ -60,7 +60,7 @@ class DataController(QObject):
 
     def choose_and_load(self) -> bool:
         path = self.w.prompts.open_path("Load the study data", DATA_FILTER, self._data_folder())
-        return bool(path) and self.load_file(path)
+        return path is not None and bool(path) and self.load_file(path)
 
     def load_file(self, path: str) -> bool:
         """Point the project at ``path`` (undoable) and load it."""

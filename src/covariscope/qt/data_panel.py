@@ -52,7 +52,8 @@ class ColumnTable(QTableWidget):
 
     def mimeData(self, items: Any) -> QMimeData:
         rows = sorted({i.row() for i in items})
-        name = self.item(rows[0], 0).text() if rows else ""
+        first = self.item(rows[0], 0) if rows else None
+        name = first.text() if first is not None else ""
         return column_mime(name)
 
 
@@ -81,7 +82,8 @@ class DataPanel(QWidget):
         self.table = ColumnTable(0, len(DATA_COLUMNS))
         self.table.setHorizontalHeaderLabels(list(DATA_COLUMNS))
         for c, tip in enumerate(DATA_COLUMN_TIPS):
-            self.table.horizontalHeaderItem(c).setToolTip(tip)
+            if (item := self.table.horizontalHeaderItem(c)) is not None:
+                item.setToolTip(tip)
         self.table.setTextElideMode(Qt.TextElideMode.ElideMiddle)
         self.table.setWordWrap(False)
         self.table.verticalHeader().hide()

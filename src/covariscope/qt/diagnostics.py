@@ -226,7 +226,8 @@ class CovariateDialog(NodeDialog):
         self.models.horizontalHeader().setSectionResizeMode(0, QHeaderView.ResizeMode.Stretch)
         self.models.horizontalHeader().setStretchLastSection(False)
         for column, tip in _MODEL_TIPS.items():
-            self.models.horizontalHeaderItem(column).setToolTip(tip)
+            if (header := self.models.horizontalHeaderItem(column)) is not None:
+                header.setToolTip(tip)
         self.figures = _table(("Collinearity", "Value"))
         self.figures.setMinimumHeight(120)
         self.messages = QLabel()

@@ -89,9 +89,10 @@ class MainWindow(QMainWindow):
         self.messages_bar = MessagesBar()
         self.messages_bar.fix_requested.connect(self.apply_fix)
         self.centre = QWidget()
-        QVBoxLayout(self.centre).setContentsMargins(0, 0, 0, 0)
-        self.centre.layout().addWidget(self.messages_bar)
-        self.centre.layout().addWidget(self.strip)
+        self.centre_layout = QVBoxLayout(self.centre)
+        self.centre_layout.setContentsMargins(0, 0, 0, 0)
+        self.centre_layout.addWidget(self.messages_bar)
+        self.centre_layout.addWidget(self.strip)
         self.setCentralWidget(self.centre)
         self.scene: Any = None
         self.view: Any = None
@@ -107,9 +108,10 @@ class MainWindow(QMainWindow):
         self.review.node_activated.connect(self.open_diagnostics)
         self.review.keep_chosen.connect(self.keep_member)
         self.paths = PathsPanel()
-        self.paths.path_chosen.connect(lambda p: self.scene.highlight_path(list(p) if p else None))
+        self.paths.path_chosen.connect(self._highlight_path)
         self.claims = ClaimsPanel()
-        self.claims.suggestion_chosen.connect(lambda c: self.scene.show_suggestion(c))
+        self.claims.suggestion_chosen.connect(self._show_suggestion)
+        self.claims.settings_changed.connect(lambda ch: self.project.update_settings(**ch))
         self.docks = {
             "data": self._dock("Data", self.data_panel, Qt.DockWidgetArea.LeftDockWidgetArea),
             "review": self._dock(
@@ -221,11 +223,11 @@ class MainWindow(QMainWindow):
             scene.mode_changed.connect(self.actions_.sync_mode)
             view.addActions(self.actions_.canvas_only)
         if self.view is not None:
-            self.centre.layout().removeWidget(self.view)
+            self.centre_layout.removeWidget(self.view)
             self.view.deleteLater()
         old_scene = self.scene
         self.scene, self.view = scene, view
-        self.centre.layout().addWidget(view, 1)
+        self.centre_layout.addWidget(view, 1)
         if old_scene is not None:
             old_scene.deleteLater()
         project.diagram.subscribe(self._model_changed)
@@ -244,7 +246,7 @@ class MainWindow(QMainWindow):
             self._fit_soon()
 
     def open_demo(self) -> bool:
-        from covariscope.cli import demo_folder, write_demo
+        from covariscope.model.demo import demo_folder, write_demo
 
         return self.io.open(str(write_demo(demo_folder())))
 
@@ -289,6 +291,9 @@ class MainWindow(QMainWindow):
         self.data_panel.refresh(self.project, self.data.table, self.data.profiles)
         self.review.refresh(self.project, self.result)
         self.paths.refresh(self.result, node_labels(self.project))
+        self.claims.sync_settings(
+            self.project.analysis.claim_correction, self.project.analysis.claim_limit
+        )
         self.claims.refresh(self.result)
         self.strip.refresh(self.result)
         self.messages_bar.refresh(
@@ -344,7 +349,17 @@ class MainWindow(QMainWindow):
             text = f"Keep {node_labels(self.project).get(member, member)} of its group"
         self.push(SetSettings(self.project, text, keep_choices=choices))
 
-    def _selection_changed(self, ids: list) -> None:
+    def _show_suggestion(self, claim: object) -> None:
+        if self.scene is not None:
+            self.scene.show_suggestion(claim)
+
+    def _highlight_path(self, path: object) -> None:
+        if self.scene is not None:
+            self.scene.highlight_path(
+                list(path) if isinstance(path, list | tuple) and path else None
+            )
+
+    def _selection_changed(self, ids: list[object]) -> None:
         self.selected_ids = [str(i) for i in ids]
         covariates = [i for i in self.selected_ids if i in self.project.diagram]
         if len(covariates) == 1:
@@ -418,7 +433,8 @@ class MainWindow(QMainWindow):
         if clip is None:
             self.show_message("The clipboard holds no diagram nodes to paste.")
             return []
-        return self.scene.paste(clip)
+        pasted: list[str] = self.scene.paste(clip)
+        return pasted
 
     def add_node_at_centre(self) -> None:
         centre = self.view.mapToScene(self.view.viewport().rect().center())

@@ -36,6 +36,7 @@ class MessagesBar(QWidget):
         self.headline.setObjectName("messageHeadline")
         self.headline.setWordWrap(True)
         self.headline.setTextInteractionFlags(Qt.TextInteractionFlag.TextSelectableByMouse)
+        self._fix = ""
         self.fix_button = QPushButton("")
         self.fix_button.hide()
         self.fix_button.clicked.connect(lambda: self.fix_requested.emit(self._fix))
@@ -56,7 +57,6 @@ class MessagesBar(QWidget):
         layout.setContentsMargins(6, 3, 6, 3)
         layout.addLayout(top)
         layout.addWidget(self.list)
-        self._fix = ""
         self.messages: list[Message] = []
 
     def refresh(self, messages: list[Message]) -> None:

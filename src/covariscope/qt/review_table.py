@@ -60,7 +60,8 @@ class ReviewTable(QWidget):
         for i in range(len(REVIEW_COLUMNS)):
             header.setSectionResizeMode(i, QHeaderView.ResizeMode.ResizeToContents)
         header.setSectionResizeMode(_VERDICT, QHeaderView.ResizeMode.Stretch)
-        self.table.horizontalHeaderItem(_VERDICT - 1).setToolTip(MODIFICATION_CAUTION)
+        if (modifies := self.table.horizontalHeaderItem(_VERDICT - 1)) is not None:
+            modifies.setToolTip(MODIFICATION_CAUTION)
         self.detail = QLabel("Select a covariate to read its verdict in full.")
         self.detail.setObjectName("reviewDetail")
         self.detail.setWordWrap(True)
@@ -155,9 +156,10 @@ class ReviewTable(QWidget):
         r = self.row_of(node_id)
         if r < 0:
             raise KeyError(node_id)
-        self.table.item(r, _CHECK).setCheckState(
-            Qt.CheckState.Checked if checked else Qt.CheckState.Unchecked
-        )
+        item = self.table.item(r, _CHECK)
+        if item is None:
+            raise KeyError(node_id)
+        item.setCheckState(Qt.CheckState.Checked if checked else Qt.CheckState.Unchecked)
 
     def keep_choice_of(self, node_id: str) -> KeepChoice | None:
         """The collinear group the row's verdict asks to keep one of."""

@@ -61,7 +61,7 @@ def selected_text(table: QTableWidget) -> str:
     if not rows:
         return ""
     header = [
-        (table.horizontalHeaderItem(c).text() if table.horizontalHeaderItem(c) else str(c + 1))
+        (item.text() if (item := table.horizontalHeaderItem(c)) is not None else str(c + 1))
         for c in columns
     ]
     lines = ["\t".join(header)]

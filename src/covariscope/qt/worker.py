@@ -31,7 +31,9 @@ def snapshot(project: Project) -> Project:
     )
 
 
-def _default_run(project: Project, table: Any, progress: Callable, cancel: Callable) -> Any:
+def _default_run(
+    project: Project, table: Any, progress: Callable[..., Any], cancel: Callable[..., Any]
+) -> Any:
     from covariscope.study import run_study
 
     return run_study(project, table=table, progress=progress, cancel=cancel)
@@ -116,7 +118,7 @@ class _Runner(QObject):
         self.generation += 1
         self._running = False
 
-    def _start(self, fn: Callable[[Callable, Callable], Any]) -> int:
+    def _start(self, fn: Callable[[Callable[..., Any], Callable[..., Any]], Any]) -> int:
         if self._token is not None:
             self._token.cancel()
         self.generation += 1
@@ -165,7 +167,7 @@ class AnalysisRunner(_Runner):
         self,
         project_source: Callable[[], Project],
         *,
-        run: Callable[[Project, Any, Callable, Callable], Any] | None = None,
+        run: Callable[[Project, Any, Callable[..., Any], Callable[..., Any]], Any] | None = None,
         debounce_ms: int = 250,
         parent: QObject | None = None,
     ) -> None:
@@ -225,7 +227,7 @@ class AnalysisRunner(_Runner):
         self.failed.emit(generation, message)
 
 
-def _default_load(path: str, progress: Callable, cancel: Callable) -> Any:
+def _default_load(path: str, progress: Callable[..., Any], cancel: Callable[..., Any]) -> Any:
     from covariscope.data.loading import load_table
 
     return load_table(path, progress=lambda f: progress(f, ""), cancel=cancel)
@@ -238,7 +240,9 @@ class LoadRunner(_Runner):
     loaded = Signal(object)
     failed = Signal(str)
 
-    def __init__(self, *, load: Callable | None = None, parent: QObject | None = None) -> None:
+    def __init__(
+        self, *, load: Callable[..., Any] | None = None, parent: QObject | None = None
+    ) -> None:
         super().__init__(parent)
         self.load_fn = load or _default_load
 

@@ -418,12 +418,12 @@ def _compose(
     head_top = c.y
     head_h = 0.0
     for i, header in enumerate(content.covariate_headers):
-        lines = wrap_text(header, fb, widths[i] - 2 * pad + 0.5, 2)
-        for k, line in enumerate(lines):
+        wrapped = wrap_text(header, fb, widths[i] - 2 * pad + 0.5, 2)
+        for k, line in enumerate(wrapped):
             c.line(
                 line, xs[i] + pad, body, bold=True, y=head_top + small_gap + k * fm.lineSpacing()
             )
-        head_h = max(head_h, len(lines) * fm.lineSpacing())
+        head_h = max(head_h, len(wrapped) * fm.lineSpacing())
     head_h += 2 * small_gap
     plan.shades.append(Shade(QRectF(page.left(), head_top, page.width(), head_h), 0))
     c.y = head_top + head_h
@@ -450,8 +450,8 @@ def _compose(
         for i, (text, max_lines, bold, italic) in enumerate(cells):
             f = fonts.metrics(body, bold, italic)
             # half a device pixel of slack: widths were measured with the same metrics
-            lines = wrap_text(text, f, widths[i] - 2 * pad + 0.5, max_lines)
-            for k, line in enumerate(lines):
+            wrapped = wrap_text(text, f, widths[i] - 2 * pad + 0.5, max_lines)
+            for k, line in enumerate(wrapped):
                 c.line(
                     line,
                     xs[i] + pad,
@@ -460,7 +460,7 @@ def _compose(
                     italic=italic,
                     y=top + row_pad + k * fm.lineSpacing(),
                 )
-            height = max(height, len(lines) * fm.lineSpacing())
+            height = max(height, len(wrapped) * fm.lineSpacing())
         height += 2 * row_pad
         if index % 2:
             plan.shades.append(Shade(QRectF(page.left(), top, page.width(), height), 1))

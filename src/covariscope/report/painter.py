@@ -134,7 +134,7 @@ def _paint_on(
     device: QPagedPaintDevice, content: RationaleContent, diagram_drawer: DiagramDrawer | None
 ) -> PaintRecord:
     layout = device.pageLayout()
-    paint = layout.paintRectPixels(device.resolution())
+    paint = layout.paintRectPixels(device.logicalDpiX())  # the device's resolution
     painter = QPainter()
     if not painter.begin(device):
         raise CovariscopeError("The page could not be opened for drawing (is the file writable?).")

@@ -470,7 +470,7 @@ def run_study(
     pictures: tuple[CollinearityPicture, ...] = ()
     modification: dict[str, Modification] = {}
     if evidence is not None and engine is not None:
-        aliases = [
+        high_vif = [
             c
             for c, e in evidence.covariates.items()
             if c in evidence.candidates and e.vif_exposure_added >= thresholds["vif"]
@@ -483,7 +483,7 @@ def run_study(
                 "so they are shown only when the data are analysed in memory."
             )
         if in_memory:
-            pictures = collinearity_pictures(evidence.full, engine.design, groups, aliases)
+            pictures = collinearity_pictures(evidence.full, engine.design, groups, high_vif)
         estimates["crude"] = evidence.crude
         estimates["full"] = evidence.full
         estimates["proposed"] = evidence.sets.get("proposed")

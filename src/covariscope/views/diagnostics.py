@@ -219,9 +219,6 @@ def node_diagnostics(
     if ev is not None:
         vif = getattr(ev, "vif", None)
         vif_x = getattr(ev, "vif_exposure_added", None)
-        if not is_number(vif_x):
-            r2x = getattr(ev, "r2_exposure", None)
-            vif_x = 1.0 / (1.0 - r2x) if is_number(r2x) and r2x < 1 else None
         numbers = {
             "vif": vif,
             "tolerance": getattr(ev, "tolerance", None),

@@ -78,7 +78,8 @@ def outcome_column_in_use(project: Any, family: str | None = None) -> str | None
     family = family or project.analysis.family
     chosen = project.analysis.family_columns.get(family, {})
     if family == Family.COX:
-        return chosen.get("event")
+        event: str | None = chosen.get("event")
+        return event
     outcome = project.diagram.outcome
     node_column = outcome.column if outcome is not None else None
     return chosen.get("outcome") or node_column

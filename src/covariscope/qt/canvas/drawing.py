@@ -544,12 +544,21 @@ def _open_chevron(painter: QPainter, tip: QPointF, ux: float, uy: float, size: f
     painter.drawLine(QPointF(back.x() - nx_, back.y() - ny_), tip)
 
 
+def bow_control(p1: QPointF, p2: QPointF, side: float = 1.0) -> QPointF:
+    """The control point of a suggested link's bow; ``side`` (±1) picks the side."""
+    line = QLineF(p1, p2)
+    length = line.length() or 1.0
+    bow = min(0.18 * length, 40.0) * side
+    return line.center() + QPointF(-line.dy() / length * bow, line.dx() / length * bow)
+
+
 def paint_suggestion(
     painter: QPainter,
     p1: QPointF,
     p2: QPointF,
     heads: tuple[bool, bool] = (True, True),
     weight: float = 1.0,
+    side: float = 1.0,
 ) -> None:
     """A link the data suggest the diagram may lack: a dotted bow between the
     two nodes, an open chevron at each end the missing arrow could point to,
@@ -559,9 +568,7 @@ def paint_suggestion(
     if line.length() < 1e-6:
         return
     ink = colour("suggestion")
-    ux, uy = line.dx() / line.length(), line.dy() / line.length()
-    bow = min(0.18 * line.length(), 40.0)
-    control = line.center() + QPointF(-uy * bow, ux * bow)
+    control = bow_control(p1, p2, side)
     path = QPainterPath(p1)
     path.quadTo(control, p2)
     painter.save()

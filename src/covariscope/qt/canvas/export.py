@@ -11,8 +11,8 @@ from itertools import pairwise
 from pathlib import Path
 from typing import Any
 
-from PySide6.QtCore import QPointF, QRectF, QSize
-from PySide6.QtGui import QColor, QImage, QPainter
+from PySide6.QtCore import QByteArray, QPointF, QRectF, QSize
+from PySide6.QtGui import QColor, QImage, QImageWriter, QPainter
 
 from covariscope.errors import CovariscopeError
 from covariscope.model.diagram import Diagram
@@ -71,8 +71,8 @@ class _CleanScene:
     def __exit__(self, *exc: object) -> None:
         for item in self.hidden:
             item.show()
-        for item in self.selected:
-            item.setSelected(True)
+        for chosen in self.selected:
+            chosen.setSelected(True)
 
 
 def _check_writable(path: Path) -> None:
@@ -96,7 +96,7 @@ def export_png(scene: DiagramScene, path: str | os.PathLike[str], scale: float =
         )
         scene.render(painter, QRectF(image.rect()), rect)
         painter.end()
-    if not image.save(str(path), "PNG"):
+    if not QImageWriter(str(path), QByteArray(b"PNG")).write(image):
         raise CovariscopeError(
             f"Could not write the image {path}; check that the folder is writable."
         )

@@ -9,7 +9,7 @@ from __future__ import annotations
 from collections.abc import Callable
 
 from PySide6.QtCore import QPointF, QRectF, Qt
-from PySide6.QtGui import QKeyEvent, QPainter, QPainterPath, QPen
+from PySide6.QtGui import QFocusEvent, QKeyEvent, QPainter, QPainterPath, QPen
 from PySide6.QtWidgets import (
     QGraphicsItem,
     QGraphicsLineItem,
@@ -24,6 +24,7 @@ from covariscope.model.diagram import Node
 from covariscope.qt.canvas.drawing import (
     NodeLook,
     arrow_shape,
+    bow_control,
     distance,
     label_font,
     link_ends,
@@ -201,12 +202,30 @@ class SuggestionItem(_LinkItem):
     claim): drawn over the diagram, not part of it, never selectable."""
 
     def __init__(
-        self, pair: tuple[str, str], a: NodeItem, b: NodeItem, heads: tuple[bool, bool]
+        self,
+        pair: tuple[str, str],
+        a: NodeItem,
+        b: NodeItem,
+        heads: tuple[bool, bool],
+        others: tuple[NodeItem, ...] = (),
     ) -> None:
         self.heads = heads
+        #: the other nodes, so the bow (and its "?") bends away from them
+        self.others = others
+        self.side = 1.0
         super().__init__(pair, a, b)
         self.setFlags(QGraphicsItem.GraphicsItemFlag(0))
         self.setZValue(1.5)  # over the links, under the nodes (their labels stay readable)
+
+    def update_geometry(self) -> None:
+        super().update_geometry()
+        self.side = max((1.0, -1.0), key=self._clearance)
+
+    def _clearance(self, side: float) -> float:
+        """How far the bow's middle lies from the nearest other node."""
+        c = bow_control(self.p1, self.p2, side)
+        mid = (self.p1 + self.p2) * 0.25 + c * 0.5  # the quadratic curve at t = ½
+        return min((distance(mid, n.pos()) for n in self.others), default=0.0)
 
     def boundingRect(self) -> QRectF:
         pad = min(0.18 * distance(self.p1, self.p2), 40.0) + 14.0
@@ -215,7 +234,7 @@ class SuggestionItem(_LinkItem):
     def paint(
         self, painter: QPainter, option: QStyleOptionGraphicsItem, widget: QWidget | None = None
     ) -> None:
-        paint_suggestion(painter, self.p1, self.p2, self.heads)
+        paint_suggestion(painter, self.p1, self.p2, self.heads, side=self.side)
 
 
 class RubberLink(QGraphicsLineItem):
@@ -261,7 +280,7 @@ class LabelEditor(QGraphicsTextItem):
         painter.setPen(QPen(colour("selection"), 1.2))
         painter.setBrush(colour("badge_fill"))
         painter.drawRect(self.boundingRect())
-        super().paint(painter, option, widget)
+        super().paint(painter, option, widget)  # type: ignore[arg-type]  # Qt accepts no widget
 
     def finish(self, commit: bool) -> None:
         if self._finished:
@@ -280,8 +299,8 @@ class LabelEditor(QGraphicsTextItem):
         else:
             super().keyPressEvent(event)
 
-    def focusOutEvent(self, event: object) -> None:  # type: ignore[override]
-        super().focusOutEvent(event)  # type: ignore[arg-type]
+    def focusOutEvent(self, event: QFocusEvent) -> None:
+        super().focusOutEvent(event)
         self.finish(True)
 
     def mouseDoubleClickEvent(self, event: QGraphicsSceneMouseEvent) -> None:

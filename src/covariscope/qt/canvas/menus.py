@@ -9,6 +9,7 @@ from collections.abc import Callable
 from typing import TYPE_CHECKING
 
 from PySide6.QtCore import QPointF
+from PySide6.QtGui import QAction
 from PySide6.QtWidgets import QMenu
 
 from covariscope.model.commands import (
@@ -37,11 +38,21 @@ def _add(
     action.triggered.connect(lambda *_: slot())
 
 
-def action_by_key(menu: QMenu, key: str):
+def action_by_key(menu: QMenu, key: str) -> QAction:
     for action in menu.actions():
         if action.data() == key:
             return action
     raise KeyError(key)
+
+
+def _set_kind(scene: DiagramScene, node_id: str, kind: str) -> Callable[[], object]:
+    def run() -> object:
+        project = scene.project
+        if project.diagram.node(node_id).kind == kind:
+            return None
+        return scene.push(SetKind(project, node_id, kind))
+
+    return run
 
 
 def node_menu(scene: DiagramScene, node_id: str) -> QMenu:
@@ -53,17 +64,7 @@ def node_menu(scene: DiagramScene, node_id: str) -> QMenu:
         ("outcome", "The outcome"),
         ("covariate", "A covariate"),
     ):
-        _add(
-            menu,
-            text,
-            f"kind:{kind}",
-            lambda kind=kind: (
-                scene.push(SetKind(project, node_id, kind))
-                if project.diagram.node(node_id).kind != kind
-                else None
-            ),
-            checked=node.kind == kind,
-        )
+        _add(menu, text, f"kind:{kind}", _set_kind(scene, node_id, kind), checked=node.kind == kind)
     menu.addSeparator()
     _add(
         menu,

@@ -327,7 +327,8 @@ class DiagramScene(QGraphicsScene):
         if a not in self.nodes or b not in self.nodes:
             return
         heads = ((b, a) in set(arrows), (a, b) in set(arrows))
-        self.suggestion = SuggestionItem((a, b), self.nodes[a], self.nodes[b], heads)
+        others = tuple(item for n, item in self.nodes.items() if n not in (a, b))
+        self.suggestion = SuggestionItem((a, b), self.nodes[a], self.nodes[b], heads, others)
         self.addItem(self.suggestion)
 
     # -- reading ------------------------------------------------------------------------
@@ -376,7 +377,7 @@ class DiagramScene(QGraphicsScene):
         if event.kind == "node_added" and event.node:
             self._add_node_item(d.node(event.node))
         elif event.kind == "node_removed" and event.node:
-            if self.suggestion is not None and event.node in self.suggestion.pair:
+            if self.suggestion is not None:  # it bends away from the nodes it knew
                 self.show_suggestion(None)
             item = self.nodes.pop(event.node, None)
             if item is not None:
