@@ -22,3 +22,29 @@ MODULES = sorted(
 def test_docstring_examples(name):
     result = doctest.testmod(importlib.import_module(name), optionflags=doctest.ELLIPSIS)
     assert result.failed == 0
+
+
+def _public_without_docstring(package: str) -> list[str]:
+    import ast
+    from pathlib import Path
+
+    root = Path(importlib.import_module(package).__file__).parent
+    missing = []
+    for path in sorted(root.rglob("*.py")):
+        tree = ast.parse(path.read_text(encoding="utf-8"))
+        for node in tree.body:
+            if (
+                isinstance(node, ast.FunctionDef | ast.ClassDef)
+                and not node.name.startswith("_")
+                and not ast.get_docstring(node)
+            ):
+                missing.append(f"{path.name}:{node.lineno} {node.name}")
+    return missing
+
+
+@pytest.mark.parametrize(
+    "package",
+    ["covariscope.model", "covariscope.analysis", "covariscope.data", "covariscope.study"],
+)
+def test_every_public_function_and_class_says_what_it_is(package):
+    assert _public_without_docstring(package) == []

@@ -8,7 +8,6 @@ from __future__ import annotations
 
 __all__ = [
     "CovariscopeError",
-    "CovariscopeWarning",
     "CycleError",
     "DataError",
     "DesignError",
@@ -19,10 +18,6 @@ __all__ = [
 
 class CovariscopeError(Exception):
     """Base of every error the program reports to the user in plain words."""
-
-
-class CovariscopeWarning(UserWarning):
-    """A caution raised by Covariscope itself (an error in the test run)."""
 
 
 class DiagramError(CovariscopeError):

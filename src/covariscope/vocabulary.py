@@ -28,6 +28,7 @@ from types import MappingProxyType
 
 __all__ = [
     "CAUTIONS",
+    "CAUTION_BRIEF",
     "CLAIM_CAUTION",
     "CLAIM_CAUTION_SHORT",
     "CLAIM_TEST_TERMS",
@@ -673,6 +674,12 @@ CAUTIONS: tuple[str, ...] = (
     "Unmeasured confounding is possible; the E-value says how strong it would have to be.",
     "Covariscope supports the analyst's judgment and the pre-specified analysis plan; "
     "it does not replace them.",
+)
+
+#: The cautions in one sentence, where a list has no room (the analysis's messages).
+CAUTION_BRIEF = (
+    "The diagram holds assumptions the data cannot fully test; the thresholds are guides, "
+    "not rules, and unmeasured confounding is possible."
 )
 
 

@@ -56,6 +56,13 @@ def test_failed_claim_draws_a_suggested_link(qtbot, window, small_study, wait_fo
     w.io.open(str(small_study))
     wait_for_analysis(qtbot, w)
     panel = w.claims
+    dock = w.docks["claims"]
+    # closed at first; the View menu opens it as a tab beside the covariate review
+    assert not dock.isVisible()
+    assert dock.toggleViewAction() in w.actions_.view_menu.actions()
+    dock.toggleViewAction().trigger()
+    assert dock.isVisible()
+    assert dock in w.tabifiedDockWidgets(w.docks["review"])
     checks = w.result.diagram_checks
     assert panel.table.rowCount() == checks.tested + len(checks.untestable)
     first = panel.rows[0]

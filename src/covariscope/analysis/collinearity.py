@@ -171,11 +171,14 @@ class FlaggedDimension:
     columns: tuple[str, ...]
     nodes: tuple[str, ...]
     proportions: tuple[float, ...]
+    #: its position in :attr:`CollinearityReport.condition_indices`
+    dimension: int = -1
 
 
 @dataclass(frozen=True, eq=False)
 class CollinearityReport:
-    """Condition indices (ascending) and variance-decomposition proportions.
+    """Condition indices (ascending: 1 first, the largest last) and
+    variance-decomposition proportions; ``flagged`` in the same order.
 
     ``proportions[k, j]`` is the share of column j's coefficient variance tied
     to dimension k (rows sum over k to 1 for each column).
@@ -188,10 +191,6 @@ class CollinearityReport:
     flagged: tuple[FlaggedDimension, ...]
     index_threshold: float
     proportion_threshold: float
-
-    @property
-    def max_index(self) -> float:
-        return float(self.condition_indices.max()) if self.condition_indices.size else 1.0
 
 
 def collinearity_report(
@@ -263,15 +262,17 @@ def collinearity_report(
                     tuple(all_names[j] for j in high),
                     tuple(member_nodes),
                     tuple(float(props[k_dim, j]) for j in high),
+                    k_dim,
                 )
             )
-    rev = slice(None, None, -1)  # ascending indices, as BKW tabulate them
+    # singular values descend, so the indices sv[0]/sv already ascend, as
+    # Belsley, Kuh & Welsch tabulate them (the largest, most telling, last)
     return CollinearityReport(
         columns=all_names,
         nodes=all_nodes,
-        condition_indices=indices[rev].copy(),
-        proportions=props[rev].copy(),
-        flagged=tuple(flagged[::-1]),
+        condition_indices=indices.copy(),
+        proportions=props.copy(),
+        flagged=tuple(flagged),
         index_threshold=index_threshold,
         proportion_threshold=proportion_threshold,
     )

@@ -167,10 +167,6 @@ class EvidenceEngine:
         terms = list(self.design.blocks) if terms is None else terms
         return find_aliases(self.summary, self.groups(terms))
 
-    def exposure_vif(self, terms: Sequence[str]) -> float:
-        """VIF of the exposure in the model with ``terms`` (1 for the crude model)."""
-        return float(vif(self.summary, self.columns(terms))[0])
-
     # -- fitting -------------------------------------------------------------------
     def fit(self, terms: Sequence[str], on_pass: Callable[[], None] | None = None) -> Fit:
         """The model exposure + ``terms``; a failed :class:`Fit` (never an exception) when it cannot be fitted.
@@ -806,7 +802,8 @@ def compute_evidence(
                 others = [j for j in vif_cols if j not in block.index]
                 g = gvif(summary, list(block.index), others)
                 v = g ** (1.0 / block.df)
-            if g is not None and v is not None:
+            if g is not None and v is not None and math.isfinite(v) and v > 0:
+                # (a VIF of 0 or NaN comes from a degenerate block: not available)
                 g_root = g ** (1.0 / (2 * block.df))
                 tol = 1.0 / v
                 aux = 1.0 - tol

@@ -81,13 +81,13 @@ class Fit:
     def ratio(self) -> float | None:
         """exp(coef) for ratio families, else None."""
         if self.family in RATIO_FAMILIES and self.ok:
-            return math.exp(self.coef)
+            return _exp(self.coef)
         return None
 
     @property
     def ratio_ci(self) -> tuple[float, float] | None:
         if self.family in RATIO_FAMILIES and self.ok:
-            return (math.exp(self.ci[0]), math.exp(self.ci[1]))
+            return (_exp(self.ci[0]), _exp(self.ci[1]))
         return None
 
     @classmethod
@@ -96,3 +96,13 @@ class Fit:
         return cls(
             family, terms, nan, nan, (nan, nan), n, ok=False, converged=False, message=message
         )
+
+
+def _exp(value: float) -> float:
+    """exp() that gives infinity past the largest double instead of raising
+    (a ratio limit of an all-but-separated model); renderings show it as
+    not available."""
+    try:
+        return math.exp(value)
+    except OverflowError:
+        return math.inf

@@ -31,7 +31,6 @@ __all__ = [
     "WORKERS",
     "Z95",
     "aliased_columns",
-    "cholesky_solve",
     "design_problem",
     "fit_from_params",
     "inverse_from_cholesky",
@@ -155,12 +154,6 @@ def inverse_from_cholesky(c: Array) -> Array:
     return (inv + inv.T) / 2.0
 
 
-def cholesky_solve(c: Array, g: Array) -> Array:
-    """Solve H x = g given the upper Cholesky factor c of H."""
-    x: Array = np.linalg.solve(c, np.linalg.solve(c.T, g))
-    return x
-
-
 def newton_done(delta: Array, cov: Array, reach: Array) -> bool:
     """Whether the Newton step ``delta`` meets the stopping rule (`STEP_TOL`, `ETA_TOL`).
 
@@ -207,6 +200,7 @@ def aliased_columns(G: Array, names: list[str]) -> list[str]:
 
 
 def rank_message(clauses: list[str]) -> str:
+    """The message for a rank-deficient design, from the clauses naming the aliased columns."""
     return (
         "The design is rank-deficient: "
         + "; ".join(clauses)
@@ -238,6 +232,7 @@ def design_problem(X: Array, names: list[str], *, skip: int) -> str:
 
 
 def too_few_rows(n: int, p: int) -> str:
+    """The message for a model with no more rows than parameters."""
     return (
         f"Only {n} rows for {p} parameters: a model needs more rows than parameters. "
         "Drop covariates or use more data."

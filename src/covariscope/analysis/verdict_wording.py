@@ -27,12 +27,14 @@ __all__ = [
 
 
 def pct(value: float | None) -> str:
+    """A signed percentage for a sentence (``+12.0%``); ``not defined`` for None."""
     if value is None:
         return "not defined"
     return f"{value if round(value, 1) else 0.0:+.1f}%"  # never "-0.0%"
 
 
 def num(value: float | None, digits: int = 3) -> str:
+    """A number to ``digits`` significant digits; ``not available`` when missing or not finite."""
     return "not available" if value is None or not math.isfinite(value) else f"{value:.{digits}g}"
 
 
@@ -43,6 +45,7 @@ def format_set(members: Iterable[str]) -> str:
 
 
 def path_words(nodes: Sequence[str]) -> str:
+    """A path as its node names joined by dashes."""
     return " – ".join(nodes)
 
 
@@ -80,6 +83,7 @@ def labelled(f: Facts, names: Mapping[str, str]) -> Facts:
 
 
 def guide(t: Mapping[str, float], key: str) -> str:
+    """A threshold as the sentence quotes it (percent thresholds with ``%``)."""
     value = t[key]
     if key in ("change_pct", "se_inflation_pct"):
         return f"{value:g}%"
@@ -87,6 +91,7 @@ def guide(t: Mapping[str, float], key: str) -> str:
 
 
 def scale_words(ratio_family: bool) -> str:
+    """`` on the ratio scale`` for ratio measures, else nothing."""
     return " on the ratio scale" if ratio_family else ""
 
 

@@ -56,7 +56,6 @@ from covariscope.vocabulary import ColumnType
 __all__ = [
     "COLUMN_TYPES",
     "LEVEL_TYPES",
-    "NUMERIC_TYPES",
     "ColumnProfile",
     "column_levels",
     "match_level",
@@ -68,7 +67,6 @@ __all__ = [
 
 COLUMN_TYPES: tuple[str, ...] = tuple(ColumnType)
 LEVEL_TYPES = ("binary", "categorical")
-NUMERIC_TYPES = ("continuous", "count", "binary")
 
 MAX_CODE_LEVELS = 10
 MAX_TEXT_LEVELS = 20

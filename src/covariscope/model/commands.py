@@ -33,6 +33,10 @@ __all__ = [
 
 
 class Command:
+    """One reversible edit of a project: ``redo`` applies it, ``undo`` takes it back exactly;
+    ``text`` names it in the Edit menu.
+    """
+
     text = "Edit"
 
     def redo(self) -> None:
@@ -43,6 +47,8 @@ class Command:
 
 
 class AddNode(Command):
+    """Add a node to the diagram (undo removes it)."""
+
     def __init__(self, project: Project, node: Node) -> None:
         self.project, self.node = project, node
         self.text = f"Add {node.label}"
@@ -130,6 +136,10 @@ class MoveNodes(Command):
 
 
 class AddArrow(Command):
+    """Add the arrow cause → effect (refused with the diagram's message when it would close a
+    cycle).
+    """
+
     def __init__(self, project: Project, cause: str, effect: str) -> None:
         self.project, self.cause, self.effect = project, cause, effect
         self.text = f"Add arrow {cause} → {effect}"
@@ -142,6 +152,8 @@ class AddArrow(Command):
 
 
 class RemoveArrow(Command):
+    """Remove the arrow cause → effect; undo puts it back at its place."""
+
     def __init__(self, project: Project, cause: str, effect: str) -> None:
         self.project, self.cause, self.effect = project, cause, effect
         self.text = f"Delete arrow {cause} → {effect}"
@@ -155,6 +167,8 @@ class RemoveArrow(Command):
 
 
 class ReverseArrow(Command):
+    """Turn the arrow cause → effect around (refused when the reversed arrow would close a cycle)."""
+
     def __init__(self, project: Project, cause: str, effect: str) -> None:
         self.project, self.cause, self.effect = project, cause, effect
         self.text = f"Reverse arrow {cause} → {effect}"
@@ -176,6 +190,8 @@ class ReverseArrow(Command):
 
 
 class AddProxy(Command):
+    """Link two nodes as alternate measures of the same thing (an undirected proxy link)."""
+
     def __init__(self, project: Project, a: str, b: str) -> None:
         self.project, self.a, self.b = project, a, b
         self.text = f"Link {a} and {b} as proxies"
@@ -188,6 +204,8 @@ class AddProxy(Command):
 
 
 class RemoveProxy(Command):
+    """Remove the proxy link between two nodes; undo puts it back at its place."""
+
     def __init__(self, project: Project, a: str, b: str) -> None:
         self.project, self.a, self.b = project, a, b
         self.text = f"Unlink proxies {a} and {b}"
@@ -201,6 +219,8 @@ class RemoveProxy(Command):
 
 
 class SetProposed(Command):
+    """Replace the set of covariates the analyst proposes to adjust for."""
+
     def __init__(self, project: Project, ids: list[str]) -> None:
         self.project, self.ids = project, list(ids)
         self._old: list[str] = []

@@ -85,6 +85,10 @@ class DataRef:
 
 @dataclass
 class AnalysisSettings:
+    """What the analysis is asked to do: model family, proposed set, thresholds, column types and
+    reference levels, and the user's other choices saved with the project.
+    """
+
     family: str = "linear"
     proposed: list[str] = field(default_factory=list)
     thresholds: dict[str, float] = field(default_factory=lambda: dict(DEFAULT_THRESHOLDS))
@@ -175,11 +179,6 @@ class Project:
 
     def data_path(self) -> Path | None:
         return self.data.resolve(self.path) if self.data else None
-
-    def columns_for(self, family: str | None = None) -> dict[str, str]:
-        """The columns a family reads beyond the nodes' own: outcome override,
-        time, event, offset."""
-        return dict(self.analysis.family_columns.get(family or self.analysis.family, {}))
 
 
 # -- reading -----------------------------------------------------------------------
@@ -551,6 +550,7 @@ def load_project(path: str | os.PathLike[str]) -> Project:
 
 
 def project_to_dict(project: Project) -> dict[str, Any]:
+    """The project in its saved form (our versioned JSON schema), as plain data."""
     out: dict[str, Any] = {
         "format": FORMAT,
         "version": FORMAT_VERSION,

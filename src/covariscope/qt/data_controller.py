@@ -4,6 +4,7 @@ levels, and columns dropped onto the canvas."""
 
 from __future__ import annotations
 
+import os
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
@@ -64,7 +65,7 @@ class DataController(QObject):
 
     def load_file(self, path: str) -> bool:
         """Point the project at ``path`` (undoable) and load it."""
-        ref = DataRef(str(Path(path).resolve()), None)
+        ref = DataRef(os.path.abspath(path), None)  # a symlink keeps its name
         if not self.w.push(SetData(self.w.project, ref, f"Use data {Path(path).name}")):
             return False
         return self.start_load()
@@ -92,7 +93,7 @@ class DataController(QObject):
             found = self.w.prompts.open_path("Locate the data file", DATA_FILTER, str(path.parent))
             if not found:
                 return False
-            ref = DataRef(str(Path(found).resolve()), project.data.sha256 if project.data else None)
+            ref = DataRef(os.path.abspath(found), project.data.sha256 if project.data else None)
             self.w.push(SetData(project, ref, "Relocate the data file"))
             path = Path(found)
         self.table = None

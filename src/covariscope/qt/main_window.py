@@ -126,6 +126,9 @@ class MainWindow(QMainWindow):
         }
         # the claims share the bottom with the review, one tab each
         self.tabifyDockWidget(self.docks["review"], self.docks["claims"])
+        # closed at first (View ▸ Independence claims): its tab would take a row of the review
+        # table's height on a laptop screen
+        self.docks["claims"].hide()
         self.docks["review"].raise_()
         # the paths list is short: it shares the left column with the data
         # panel, so the canvas keeps the whole width between them and the edge

@@ -36,6 +36,9 @@ def opened_paths(
 
 
 def would_close(da: DiagramAnalysis, node: str) -> tuple[tuple[str, ...], ...]:
+    """Open backdoor paths on which ``node`` lies as a non-collider (what adjusting for it would
+    close).
+    """
     facts = da.roles[node]
     paths = da.paths.paths
     out = [
@@ -120,6 +123,7 @@ def needed_together(
 
 
 def stands_for(G: nx.DiGraph, da: DiagramAnalysis, node: str) -> tuple[str, ...]:
+    """The confounders among ``node``'s ancestors (what a confounder proxy stands for)."""
     return tuple(
         sorted(
             a for a in nx.ancestors(G, node) if a in da.roles and da.roles[a].role == "confounder"

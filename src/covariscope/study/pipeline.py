@@ -63,7 +63,7 @@ from covariscope.study.facts import (
 )
 from covariscope.study.prepare import prepare_evidence
 from covariscope.study.result import ESTIMATE_KEYS, Progress, StudyResult
-from covariscope.vocabulary import DEFAULT_THRESHOLDS, group_key
+from covariscope.vocabulary import CAUTION_BRIEF, DEFAULT_THRESHOLDS, group_key
 
 __all__ = [
     "ESTIMATE_KEYS",
@@ -514,10 +514,7 @@ def run_study(
     if checks is not None:
         # After the disagreements: their short form stays the verdict's own sentence.
         verdicts = with_failed_claims(verdicts, checks, names)
-    messages.append(
-        "The diagram holds assumptions the data cannot fully test; the thresholds are guides, "
-        "not rules, and unmeasured confounding is possible."
-    )
+    messages.append(CAUTION_BRIEF)
     report(1.0, "Done")
     return StudyResult(
         exposure=exposure,

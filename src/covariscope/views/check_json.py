@@ -11,6 +11,7 @@ from typing import Any
 import numpy as np
 
 from covariscope.analysis.claim_wording import untestable_words
+from covariscope.analysis.collinearity import CollinearityReport
 from covariscope.analysis.evidence import Comparison
 from covariscope.analysis.fits import Fit
 from covariscope.analysis.modification import Modification
@@ -122,6 +123,33 @@ def _modification_json(m: Modification) -> dict[str, Any]:
     }
 
 
+def collinearity_json(report: CollinearityReport) -> dict[str, Any] | None:
+    """The full model's condition indices (ascending) and, per dimension, the
+    variance-decomposition proportions by term, flagged as the analysis
+    flagged them (Belsley, Kuh & Welsch 1980)."""
+    if report.condition_indices.size == 0:
+        return None
+    flagged = {f.dimension: f for f in report.flagged}
+    dimensions = []
+    for k, index in enumerate(report.condition_indices.tolist()):
+        props = report.proportions[k].tolist()
+        dimensions.append(
+            {
+                "index": index,
+                "proportions": dict(zip(report.columns, props, strict=True)),
+                "flagged": k in flagged,
+                "nodes": list(flagged[k].nodes) if k in flagged else [],
+            }
+        )
+    return {
+        "terms": list(report.columns),
+        "condition_indices": report.condition_indices.tolist(),
+        "index_threshold": report.index_threshold,
+        "proportion_threshold": report.proportion_threshold,
+        "dimensions": dimensions,
+    }
+
+
 def study_to_json(result: StudyResult) -> dict[str, Any]:
     """The ``covariscope check --json`` object (schema: schemas/check.schema.json).
 
@@ -186,6 +214,7 @@ def study_to_json(result: StudyResult) -> dict[str, Any]:
         else None
     )
     out["thresholds"] = dict(result.thresholds)
+    out["collinearity"] = collinearity_json(ev.collinearity) if ev is not None else None
     out["modification"] = {c: _modification_json(m) for c, m in result.modification.items()}
     out["disagreements"] = list(result.disagreements)
     out["messages"] = list(result.messages)

@@ -12,6 +12,7 @@ from covariscope.analysis.claim_wording import (
     summary_line,
     untestable_words,
 )
+from covariscope.analysis.collinearity import CollinearityReport
 from covariscope.analysis.fits import Fit
 from covariscope.analysis.verdicts import format_set
 from covariscope.study.result import ESTIMATE_KEYS, StudyResult
@@ -166,6 +167,8 @@ def format_study_text(result: StudyResult) -> str:
                 note += f"; the diagram needs {', '.join(nm(m) for m in needed)}"
             described.append(f"{named(g)} ({note})")
         lines.append("Collinear groups: " + "; ".join(described))
+    if ev is not None and ev.collinearity.condition_indices.size:
+        lines.append(condition_index_line(ev.collinearity))
     lines.append("")
     if ev is not None:
         lines.append("Estimates:")
@@ -185,3 +188,25 @@ def format_study_text(result: StudyResult) -> str:
     lines.append("Cautions:")
     lines += [f"  - {m}" for m in (*result.messages, *CAUTIONS)]
     return "\n".join(lines) + "\n"
+
+
+def condition_index_line(report: CollinearityReport) -> str:
+    """The full model's condition indices, ascending, and the flagged
+    dimensions with the variables that share them (Belsley, Kuh & Welsch)."""
+    indices = ", ".join(f"{i:.1f}" for i in report.condition_indices.tolist())
+    line = f"Condition indices (full model, ascending): {indices}"
+    if not report.flagged:
+        return line + f"; none flagged (guide {report.index_threshold:g})."
+    parts = []
+    for f in report.flagged:
+        shares = ", ".join(
+            f"{term} {p:.2f}" for term, p in zip(f.columns, f.proportions, strict=True)
+        )
+        parts.append(f"{f.index:.1f} shared by {shares}")
+    return (
+        line
+        + f"; flagged at the guide {report.index_threshold:g} "
+        + "(variance proportions): "
+        + "; ".join(parts)
+        + "."
+    )

@@ -27,6 +27,7 @@ __all__ = [
     "ModelRow",
     "NodeDiagnostics",
     "checklist",
+    "condition_rows",
     "endpoint_diagnostics",
     "node_diagnostics",
     "node_labels",
@@ -239,6 +240,9 @@ def node_diagnostics(
                 ("Generalized VIF (Fox & Monette 1992)", number(numbers["gvif"])),
                 ("GVIF^(1/(2·df))", number(numbers["gvif_root"], 3)),
             ]
+        collinearity = getattr(getattr(result, "evidence", None), "collinearity", None)
+        if collinearity is not None:
+            figures += condition_rows(collinearity, node_id, name)
         figures.append((f"VIF of the exposure in crude + {name}", number(vif_x)))
         figures += _own(name, getattr(ev, "own_coef", None), getattr(ev, "own_ci", None))
         for name, comparison in (("adding", added), ("dropping", dropped)):
@@ -275,6 +279,25 @@ def node_diagnostics(
             getattr(result, "thresholds", None),
         ),
     )
+
+
+def condition_rows(report: Any, node_id: str, name: str) -> list[tuple[str, str]]:
+    """The full model's largest condition index, and each flagged dimension
+    that holds the node with the terms that share it (Belsley, Kuh & Welsch
+    1980: an index of 30 or more shared by two or more terms)."""
+    if report.condition_indices.size == 0:
+        return []
+    guide = f"guide {report.index_threshold:g}"
+    rows = [("Largest condition index, full model", f"{number(report.max_index)} ({guide})")]
+    holding = [f for f in report.flagged if node_id in f.nodes]
+    for f in holding:
+        shares = ", ".join(
+            f"{term} {p:.2f}" for term, p in zip(f.columns, f.proportions, strict=True)
+        )
+        rows.append((f"Flagged dimension, index {f.index:.1f}", f"variance shared by {shares}"))
+    if not holding:
+        rows.append((f"Flagged dimensions holding {name}", f"none ({guide})"))
+    return rows
 
 
 def _own(node_id: str, coef: Any, ci: Any) -> list[tuple[str, str]]:

@@ -25,7 +25,7 @@ from covariscope import __version__
 from covariscope.analysis.claim_wording import SHORT_CAUTION, summary_line
 from covariscope.views.modification import flagged_lines
 from covariscope.views.review import change_value, role_words
-from covariscope.vocabulary import CAUTIONS, family_term
+from covariscope.vocabulary import CAUTION_BRIEF, CAUTIONS, family_term
 
 __all__ = [
     "CovariateRow",
@@ -316,8 +316,8 @@ def _page_messages(
             continue  # the Data section gives rows used and lost
         if shown_insufficient and text.startswith("The proposed set") and "not sufficient" in text:
             continue  # the Adjustment set section says so, with the open paths
-        if "cannot fully test" in text and "unmeasured confounding" in text:
-            continue  # the Cautions section
+        if raw == CAUTION_BRIEF:
+            continue  # the Cautions section says it in full
         out.append(name_nodes(text, label_of))
     return tuple(dict.fromkeys(out))
 

@@ -342,9 +342,6 @@ class DiagramScene(QGraphicsScene):
     def selected_arrows(self) -> list[tuple[str, str]]:
         return self._selected(self.arrows)
 
-    def selected_proxies(self) -> list[tuple[str, str]]:
-        return self._selected(self.proxies)
-
     def _selected(self, items: dict[tuple[str, str], Any]) -> list[tuple[str, str]]:
         return [pair for pair, item in items.items() if item.isSelected()]
 
