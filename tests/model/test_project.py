@@ -215,3 +215,16 @@ def test_property_save_then_load_is_identical(tmp_path_factory, project):
     path = save_project(project, folder / "x.json")
     assert project_to_dict(load_project(path)) == project_to_dict(project)
     assert project_to_dict(project_from_dict(project_to_dict(project))) == project_to_dict(project)
+
+
+def test_spline_choices_are_saved_and_checked(tmp_path):
+    obj = _with(["analysis", "spline_knots"], {"age": 4})
+    project = load_project(write(tmp_path, obj))
+    assert project.analysis.spline_knots == {"age": 4}
+    again = load_project(save_project(project, tmp_path / "again.json"))
+    assert again.analysis.spline_knots == {"age": 4}
+    # a linear project writes no spline entry at all
+    assert "spline_knots" not in project_to_dict(load_project(write(tmp_path, EXAMPLE)))["analysis"]
+    with pytest.raises(ProjectFileError) as info:
+        load_project(write(tmp_path, _with(["analysis", "spline_knots"], {"age": 12})))
+    assert any("analysis.spline_knots.age" in p and "3 to 7" in p for p in info.value.problems)

@@ -67,6 +67,33 @@ def _qt_test_mode(qapp):
 
 
 @pytest.fixture(autouse=True)
+def _fresh_settings(qapp):
+    """Every test starts with no remembered window layout or recent files:
+    Qt keeps one settings file per process, so a window closed by an earlier
+    test would otherwise hand its geometry and docks to the next one."""
+    from PySide6.QtCore import QSettings
+
+    QSettings().clear()
+    yield
+    QSettings().clear()
+
+
+@pytest.fixture(autouse=True)
+def _collect_closed_windows(qapp):
+    """Destroy what a test closed before the next test runs its event loop:
+    pending deferred deletes are delivered and Python's cycle collector runs
+    here, at a known point, rather than in the middle of a later test's events."""
+    yield
+    import gc
+
+    from PySide6.QtCore import QCoreApplication, QEvent
+
+    QCoreApplication.processEvents()
+    QCoreApplication.sendPostedEvents(None, QEvent.Type.DeferredDelete)
+    gc.collect()
+
+
+@pytest.fixture(autouse=True)
 def _no_leaked_windows(qapp):
     from PySide6.QtWidgets import QApplication
 

@@ -325,9 +325,15 @@ def test_window_opens_within_the_screen_and_remembers_its_layout(qtbot, fake_pro
     again = MainWindow(prompts=fake_prompts(), debounce_ms=20)
     qtbot.addWidget(again)
     again.show()
-    assert again.size() == wanted
-    assert not again.docks["paths"].isVisible()
-    again.close()
+    try:
+        assert again.size() == wanted
+        assert not again.docks["paths"].isVisible()
+    finally:
+        again.close()
+        # Qt keeps one settings file per process: later tests start afresh
+        from PySide6.QtCore import QSettings
+
+        QSettings().remove("window")
 
 
 def test_zoom_from_the_menu_and_the_keyboard(qtbot, window, demo, wait_for_analysis):

@@ -175,3 +175,48 @@ def test_effect_modification_tab_draws_the_strata(qtbot, window, demo, wait_for_
     assert NOT_CONFOUNDING in dialog.modification_note.text()
     assert dialog.grab().save(str(shots / "diagnostics_modification.png"))
     dialog.close()
+
+
+def test_form_chooser_enters_a_covariate_as_a_spline(qtbot, window, demo, wait_for_analysis):
+    # One undo step; the analysis then treats the basis as one term, and the
+    # figures table shows the residual-confounding check.
+    w = window
+    w.io.open(str(demo / "demo_project.json"))
+    wait_for_analysis(qtbot, w)
+    dialog = w.open_diagnostics("age")
+    assert dialog.form_box.isVisibleTo(dialog)
+    labels = [dialog.figures.item(r, 0).text() for r in range(dialog.figures.rowCount())]
+    assert any(t.startswith("… with Age as a spline (4 knots)") for t in labels)
+    dialog.choose_form(5)
+    assert w.project.analysis.spline_knots == {"age": 5}
+    wait_for_analysis(qtbot, w)
+    assert w.result.evidence.covariates["age"].df == 4
+    assert w.result.residual_confounding["age"].knots == 5
+    w.undo_stack.undo()
+    assert w.project.analysis.spline_knots == {}
+    wait_for_analysis(qtbot, w)
+    # a binary covariate has no form to choose
+    plain = w.open_diagnostics("family_hist")
+    assert not plain.form_box.isVisibleTo(plain)
+    plain.close()
+    dialog.close()
+
+
+def test_dialog_plots_are_saved_with_the_collinearity_picture(
+    qtbot, window, demo, tmp_path, wait_for_analysis
+):
+    w = window
+    w.io.open(str(demo / "demo_project.json"))
+    wait_for_analysis(qtbot, w)
+    dialog = w.open_diagnostics("income")
+    w.prompts.answers["save_path"] = str(tmp_path / "income.png")
+    dialog.save_plots_button.click()
+    names = sorted(p.name for p in tmp_path.glob("income-*.png"))
+    assert names == [
+        "income-collinearity.png",
+        "income-data.png",
+        "income-estimates.png",
+        "income-modification.png",
+    ]
+    assert all((tmp_path / n).stat().st_size > 1000 for n in names)
+    dialog.close()

@@ -30,6 +30,28 @@ def _text(pdf: Path) -> tuple[int, str, tuple[float, float]]:
     return len(reader.pages), text, (float(box.width), float(box.height))
 
 
+def _first_page_text(pdf: Path) -> str:
+    return " ".join((PdfReader(str(pdf)).pages[0].extract_text() or "").split())
+
+
+def _appendix_text(pdf: Path) -> str:
+    pages = PdfReader(str(pdf)).pages[1:]
+    return " ".join(" ".join(p.extract_text() or "" for p in pages).split())
+
+
+def test_notes_are_printed_whole(qapp, tmp_path, make):
+    # notes of a few sentences fit page one whole, wrapped in their cell
+    project = make.project(8, 200)
+    assert all(len(n.note) == 200 for n in project.diagram.covariates)
+    record: list = []
+    pdf = write_pdf(make.result(project), project, tmp_path / "notes.pdf", record=record)
+    pages, text, _ = _text(pdf)
+    assert pages == 1
+    assert not record[0].plan.cut_notes
+    for node in project.diagram.covariates:
+        assert " ".join(node.note.split()) in text
+
+
 def _pdf_runs(pdf: Path) -> tuple[list[tuple[float, float, float, str]], tuple[float, float]]:
     """Every text run pypdf finds: (x, y, size in pt, text), in PDF points."""
     page = PdfReader(str(pdf)).pages[0]
@@ -147,7 +169,9 @@ def test_forty_nodes_with_long_notes_fit_one_legible_page(qapp, tmp_path, big_st
     record: list = []
     pdf = write_pdf(result, project, tmp_path / "big.pdf", page=page, record=record)
     pages, text, _ = _text(pdf)
-    assert pages == 1
+    # page one is the rationale; the notes too long for it continue whole in an appendix
+    assert pages >= 2
+    text = _first_page_text(pdf)
     content = build_content(result, project)
     assert content.exposure in text
     assert content.outcome in text
@@ -159,7 +183,11 @@ def test_forty_nodes_with_long_notes_fit_one_legible_page(qapp, tmp_path, big_st
     plan = record[0].plan
     assert plan.body_pt >= MIN_BODY_PT
     assert plan.note_lines <= 1  # notes were shortened ...
-    assert "…" in text  # ... with an ellipsis
+    assert "…" in text  # ... with an ellipsis ...
+    assert "printed whole in the appendix (page 2)" in text  # ... and page one says so
+    appendix = _appendix_text(pdf)
+    for node in project.diagram.covariates:
+        assert " ".join(node.note.split()) in appendix
     assert plan.capped_findings is None  # every finding is still listed
     for line in content.disagreements:
         assert line in text
@@ -171,8 +199,11 @@ def test_forty_nodes_with_long_notes_fit_one_legible_page(qapp, tmp_path, big_st
     _check_pdf_text(pdf, record[0])
 
 
-def test_short_content_keeps_the_largest_text(qapp, small_study):
-    result, project = small_study
+def test_short_content_keeps_the_largest_text(qapp, make):
+    # no notes: nothing asks for smaller text (notes are printed whole, and
+    # long ones take the room of a smaller body size first)
+    project = make.project(8, 0)
+    result = make.result(project)
     _, record = render_image(build_content(result, project))
     assert record.plan.body_pt == 9.0
     _check_record(record, covariates=8)

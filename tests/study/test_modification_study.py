@@ -15,6 +15,7 @@ from covariscope.data.loading import LoadedTable
 from covariscope.model.project import project_from_dict
 from covariscope.study import run_study
 from covariscope.views.check_json import study_to_json
+from covariscope.views.check_text import format_study_text
 from covariscope.views.modification import NOT_CONFOUNDING, modification_view
 from covariscope.views.report_content import build_content
 from covariscope.views.review import review_rows
@@ -82,6 +83,9 @@ def test_planted_modifier_is_flagged_and_the_confounder_is_not():
     rows = {r.node: r for r in review_rows(project, result)}
     assert rows["m"].modifier.startswith("yes")
     assert rows["c"].modifier == "no"
+
+    text = format_study_text(result)
+    assert "Effect modification (not confounding):\n  - m modifies" in text
 
     page = build_content(result, project)
     assert len(page.modification) == 1

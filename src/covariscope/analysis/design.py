@@ -20,19 +20,27 @@ import pandas as pd
 
 from covariscope.analysis.fits import FAMILIES
 from covariscope.analysis.rows import ColumnStats, RowReducer
+from covariscope.analysis.spline_basis import spline_basis
 from covariscope.errors import DataError
 
 __all__ = [
     "TERM_TYPES",
     "Block",
+    "CodedTerm",
     "Design",
+    "DesignBuilder",
+    "Outcomes",
     "TermCoding",
     "TermSpec",
+    "check_exposure",
+    "code_column",
     "code_term",
     "constant_message",
     "level_texts",
     "make_design",
+    "outcome_values",
     "plan_term",
+    "spline_columns",
 ]
 
 #: Column types a term may have.
@@ -51,6 +59,9 @@ class TermSpec:
     column: str
     type: str
     reference: Any = None
+    #: a continuous term's natural cubic spline knots (3 to 7; rows in memory
+    #: only); 0 enters it linearly
+    knots: int = 0
 
 
 @dataclass(frozen=True, eq=False)
@@ -65,6 +76,8 @@ class Block:
     #: a binary or categorical term's levels as text, the reference first, then
     #: one per column; empty for a continuous or count term
     levels: tuple[str, ...] = ()
+    #: a spline term's raw values (its columns are the basis); None otherwise
+    raw: np.ndarray | None = None
 
     @property
     def df(self) -> int:
@@ -241,6 +254,22 @@ def code_term(frame: pd.DataFrame, coding: TermCoding) -> list[np.ndarray]:
     return [(series == v).to_numpy(dtype=np.float64) for v in coding.levels]
 
 
+def spline_columns(
+    values: np.ndarray, spec: TermSpec, what: str
+) -> tuple[list[str], list[np.ndarray]]:
+    """A continuous term's natural cubic spline basis columns (see
+    :mod:`covariscope.analysis.spline_basis`)."""
+    try:
+        basis = spline_basis(values, spec.knots)
+    except ValueError as exc:
+        raise DataError(
+            f"Column {spec.column!r} ({what}) cannot enter as a spline with {spec.knots} knots: "
+            f"{exc}; enter it linearly or choose fewer knots."
+        ) from exc
+    names = [f"{spec.column}[spline {j + 1}]" for j in range(basis.shape[1])]
+    return names, [basis[:, j] for j in range(basis.shape[1])]
+
+
 def _coded(
     frame: pd.DataFrame, spec: TermSpec, what: str
 ) -> tuple[list[str], list[np.ndarray], tuple[str, ...]]:
@@ -252,6 +281,110 @@ def _coded(
     uniques = frame[spec.column] if spec.type not in ("continuous", "count") else ()
     coding = plan_term(spec, uniques, what)
     return list(coding.names), code_term(frame, coding), level_texts(coding)
+
+
+@dataclass(frozen=True, eq=False)
+class CodedTerm:
+    """The design columns of one term: their names and an n × k array."""
+
+    names: tuple[str, ...]
+    values: np.ndarray
+    #: a binary or categorical term's levels as text, the reference first; else empty
+    levels: tuple[str, ...] = ()
+    #: a spline term's raw values (its columns are the basis); None otherwise
+    raw: np.ndarray | None = None
+
+    @property
+    def nbytes(self) -> int:
+        return int(self.values.nbytes)
+
+
+def _sample_levels(uniques: list[Any], name: object, reference: Any) -> tuple[list[Any], Any]:
+    levels = sorted(uniques, key=lambda v: (str(type(v)), v))
+    if reference is None:
+        reference = levels[0]
+    elif reference not in levels:
+        # A reference given as text for a numeric column (or the reverse) still matches.
+        matches = [v for v in levels if str(v) == str(reference)]
+        if not matches:
+            raise DataError(
+                f"Reference level {reference!r} of column {name!r} does not occur in the "
+                f"analytic sample (levels: {', '.join(map(str, levels))}); choose one of these."
+            )
+        reference = matches[0]
+    return levels, reference
+
+
+def _dummies(codes: np.ndarray, positions: list[int]) -> np.ndarray:
+    out = np.empty((len(codes), len(positions)), dtype=np.float64, order="F")
+    for j, p in enumerate(positions):
+        np.equal(codes, p, out=out[:, j], casting="unsafe")
+    return out
+
+
+def code_column(series: pd.Series, spec: TermSpec, what: str) -> CodedTerm:
+    """The design columns of one term, from the analytic sample's rows of its column.
+
+    Levels are found by factorizing the column (one pass, no Python call
+    per row); the dummies compare the integer codes.
+
+    Raises
+    ------
+    DataError
+        An unknown type, a non-numeric value in a numeric term, a binary
+        term with more than two levels, a reference that does not occur,
+        or a constant exposure.
+    """
+    if spec.type not in TERM_TYPES:
+        raise DataError(
+            f"Unknown column type {spec.type!r} for {spec.column!r}; use one of {', '.join(TERM_TYPES)}."
+        )
+    n = len(series)
+    if spec.type in ("continuous", "count"):
+        return CodedTerm((spec.column,), _numeric_series(series, spec.column, what).reshape(n, 1))
+    codes, uniques = pd.factorize(series, sort=False, use_na_sentinel=True)
+    present = list(pd.Index(uniques).tolist())
+    levels, reference = _sample_levels(present, series.name, spec.reference)
+    if len(levels) < 2 and what != "exposure":
+        # One level: kept as a constant column, which the engine reports per model.
+        return CodedTerm((spec.column,), np.ones((n, 1)))
+    if len(levels) < 2:
+        raise DataError(
+            f"Column {spec.column!r} ({what}) has the same value in every row of the analytic "
+            "sample, so it carries no information; unbind it or choose another column."
+        )
+    if spec.type == "binary" and len(levels) > 2:
+        raise DataError(
+            f"Column {spec.column!r} ({what}) is declared binary but has {len(levels)} levels; "
+            "declare it categorical."
+        )
+    position = {_key(v): i for i, v in enumerate(present)}
+    others = [v for v in levels if v != reference]
+    positions = [position[_key(v)] for v in others]
+    texts = (_level_text(reference), *(_level_text(v) for v in others))
+    if spec.type == "binary" and len(others) == 1:
+        return CodedTerm((spec.column,), _dummies(codes, positions), texts)
+    return CodedTerm(
+        tuple(f"{spec.column}[{v}]" for v in others), _dummies(codes, positions), texts
+    )
+
+
+def _key(value: Any) -> tuple[str, Any]:
+    # 1 and True, or 1 and 1.0, are one dictionary key but distinct levels here.
+    return (str(type(value)), value)
+
+
+def _column(frame: pd.DataFrame | Mapping[str, pd.Series], column: str, what: str) -> pd.Series:
+    if column not in frame:
+        raise DataError(
+            f"Column {column!r} ({what}) is not in the analytic sample; bind an existing column."
+        )
+    return frame[column]
+
+
+def _numeric_series(series: pd.Series, column: str, what: str) -> np.ndarray:
+    """``_numeric`` on a column already taken out of its frame."""
+    return _numeric(pd.DataFrame({column: series}, copy=False), column, what)
 
 
 def _check_outcome(y: np.ndarray, family: str, column: str) -> None:
@@ -334,8 +467,12 @@ def make_design(
     all_vectors = list(vectors)
     spans: dict[str, tuple[list[str], tuple[int, ...]]] = {}
     texts: dict[str, tuple[str, ...]] = {}
+    raws: dict[str, np.ndarray] = {}
     for node, spec in covariates.items():
         cnames, cvecs, texts[node] = _coded(frame, spec, f"covariate {node}")
+        if spec.knots and spec.type in ("continuous", "count"):
+            raws[node] = cvecs[0]
+            cnames, cvecs = spline_columns(cvecs[0], spec, f"covariate {node}")
         start = len(all_vectors)
         all_names += cnames
         all_vectors += cvecs
@@ -403,7 +540,9 @@ def make_design(
     if y is not None:
         values[:, -1] = y
     blocks = {
-        node: Block(node, tuple(cn), values[:, idx[0] : idx[-1] + 1], idx, texts[node])
+        node: Block(
+            node, tuple(cn), values[:, idx[0] : idx[-1] + 1], idx, texts[node], raws.get(node)
+        )
         for node, (cn, idx) in spans.items()
     }
     digest = hashlib.sha256(values.data.cast("B"))
@@ -431,3 +570,180 @@ def make_design(
             **{node: spec.type for node, spec in covariates.items()},
         },
     )
+
+
+@dataclass(frozen=True, eq=False)
+class Outcomes:
+    """The outcome side of a design: outcome, or time and event; an optional offset."""
+
+    y: np.ndarray | None = None
+    time: np.ndarray | None = None
+    event: np.ndarray | None = None
+    offset: np.ndarray | None = None
+
+    @property
+    def nbytes(self) -> int:
+        return sum(
+            int(v.nbytes) for v in (self.y, self.time, self.event, self.offset) if v is not None
+        )
+
+
+def outcome_values(
+    frame: pd.DataFrame | Mapping[str, pd.Series], family: str, columns: Mapping[str, str | None]
+) -> Outcomes:
+    """Read and check the outcome columns a family needs (``columns``: outcome, time, event, offset).
+
+    Raises
+    ------
+    DataError
+        An unknown family, a missing or non-numeric column, or values the
+        family cannot model (naming the fix).
+    """
+    if family not in FAMILIES:
+        raise DataError(f"Unknown model family {family!r}; use one of {', '.join(FAMILIES)}.")
+    outcome, time, event, offset = (columns.get(k) for k in ("outcome", "time", "event", "offset"))
+    y = time_v = event_v = offset_v = None
+    if family != "cox":
+        if outcome is None:
+            raise DataError(f"The {family} family needs an outcome column; bind the outcome node.")
+        y = _numeric_series(_column(frame, outcome, "outcome"), outcome, "outcome")
+        if len(y) > 0:
+            _check_outcome(y, family, outcome)
+    if family == "cox":
+        if time is None or event is None:
+            raise DataError("The Cox family needs a time column and an event column; choose both.")
+        time_v = _numeric_series(_column(frame, time, "survival time"), time, "survival time")
+        if (time_v <= 0).any():
+            raise DataError(
+                f"Survival times must be positive, but {time!r} has "
+                f"{int((time_v <= 0).sum())} zero or negative values; correct them or drop those rows."
+            )
+        event_v = _numeric_series(
+            _column(frame, event, "event indicator"), event, "event indicator"
+        )
+        if not np.isin(event_v, (0.0, 1.0)).all():
+            raise DataError(
+                f"The event indicator {event!r} must be coded 0/1 (1 = event); recode it."
+            )
+        if not event_v.any():
+            raise DataError(
+                f"The event indicator {event!r} records no events; a hazard ratio cannot be estimated."
+            )
+    if offset is not None:
+        offset_v = _numeric_series(_column(frame, offset, "offset"), offset, "offset")
+    return Outcomes(y, time_v, event_v, offset_v)
+
+
+def _is_constant(values: np.ndarray) -> bool:
+    return bool(len(values)) and bool(np.all(values == values[0]))
+
+
+def check_exposure(exposure: CodedTerm) -> None:
+    """Refuse a multi-level or constant exposure, naming the fix."""
+    if exposure.values.shape[1] > 1:
+        raise DataError(
+            f"The exposure {exposure.names[0].split('[')[0]!r} has {exposure.values.shape[1] + 1} "
+            "levels; Covariscope compares one contrast at a time. Recode it to two levels or a "
+            "numeric dose."
+        )
+    if _is_constant(exposure.values[:, 0]):
+        raise DataError(
+            f"The exposure column {exposure.names[0]!r} has the same value in every row of the "
+            "analytic sample, so no effect of it can be estimated; bind another column."
+        )
+
+
+class DesignBuilder:
+    """Fills a column-major design one coded term at a time, never holding two copies.
+
+    ``width`` bounds the number of exposure and covariate columns (a
+    categorical term may turn out narrower on the analytic sample than its
+    levels in the file); the outcome column follows them.
+
+    Examples
+    --------
+    >>> b = DesignBuilder(3, width=2, outcome=True)
+    >>> b.add_exposure(CodedTerm(("x",), np.array([[0.0], [1.0], [1.0]])))
+    >>> b.add("z", "z", CodedTerm(("z",), np.array([[1.0], [2.0], [4.0]])))
+    >>> d = b.build(family="linear", exposure_node="x", outcomes=Outcomes(y=np.array([1.0, 2.0, 3.0])), key="k")
+    >>> d.column_names, d.values.flags.f_contiguous
+    (('x', 'z'), True)
+    """
+
+    def __init__(self, n: int, *, width: int, outcome: bool) -> None:
+        self.n = n
+        self._values = np.empty((n, width + int(outcome)), dtype=np.float64, order="F")
+        self._names: list[str] = []
+        self._spans: dict[str, tuple[tuple[str, ...], tuple[int, ...]]] = {}
+        self._columns: dict[str, str] = {}
+        self._levels: dict[str, tuple[str, ...]] = {}
+        self._raws: dict[str, np.ndarray | None] = {}
+
+    def add_exposure(self, exposure: CodedTerm) -> None:
+        """Write the exposure (first, once); refuses a multi-level or constant one."""
+        check_exposure(exposure)
+        self._values[:, 0] = exposure.values[:, 0]
+        self._names.append(exposure.names[0])
+
+    def add(self, node: str, column: str, term: CodedTerm) -> None:
+        """Write one covariate term after those already written."""
+        start = len(self._names)
+        k = len(term.names)
+        self._values[:, start : start + k] = term.values
+        self._names += term.names
+        self._spans[node] = (term.names, tuple(range(start, start + k)))
+        self._columns[node] = column
+        self._levels[node] = term.levels
+        self._raws[node] = term.raw
+
+    def build(self, *, family: str, exposure_node: str, outcomes: Outcomes, key: str) -> Design:
+        """The design; raises :class:`DataError` when too few rows for the crude model."""
+        n = self.n
+        # Only the crude model must fit; larger models with too few rows are
+        # reported one by one by the engine, and the rest still run.
+        n_params = 1 + (0 if family == "cox" else 1)
+        if n <= n_params:
+            raise DataError(
+                f"The analytic sample has {n} rows, too few even for the crude model "
+                f"({n_params} parameters); at least {n_params + 1} rows are needed. Load more data "
+                "or bind columns with fewer missing values."
+            )
+        q = len(self._names)
+        y = outcomes.y
+        # A prefix of a column-major array's columns is itself contiguous: no copy.
+        values = self._values[:, : q + (1 if y is not None else 0)]
+        if y is not None:
+            values[:, q] = y
+        spans = self._spans
+        constant = tuple(
+            node for node, (_, idx) in spans.items() if any(_is_constant(values[:, j]) for j in idx)
+        )
+        return Design(
+            family=family,
+            exposure_node=exposure_node,
+            exposure_name=self._names[0],
+            values=values,
+            blocks={
+                node: Block(
+                    node,
+                    cn,
+                    values[:, idx[0] : idx[-1] + 1],
+                    idx,
+                    self._levels[node],
+                    self._raws.get(node),
+                )
+                for node, (cn, idx) in spans.items()
+            },
+            y=values[:, q] if y is not None else None,
+            offset=outcomes.offset,
+            time=outcomes.time,
+            event=outcomes.event,
+            n=n,
+            key=key,
+            messages=tuple(
+                f"{constant_message(node, self._columns[node])} The models that hold it are not fitted."
+                for node in constant
+            ),
+            column_names=tuple(self._names),
+            constant=constant,
+        )

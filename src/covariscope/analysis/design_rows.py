@@ -105,6 +105,15 @@ def make_row_design(
     names, spans = _spans(exposure, covariates)
     stats: ColumnStats = rows.reduce(column_stats, merge_column_stats)
     n = stats.summary.n
+    infinite = [
+        names[j] for j in range(len(names)) if not np.isfinite([stats.low[j], stats.high[j]]).all()
+    ]
+    if n > 0 and (infinite or not np.isfinite([stats.low[-1], stats.high[-1]]).all()):
+        shown = infinite[0] if infinite else outcome
+        raise DataError(
+            f"Column {shown!r} holds infinite values; recode them (or mark them missing) and "
+            "load the data again."
+        )
     flat = stats.low == stats.high
     if n > 0 and flat[0]:
         raise DataError(

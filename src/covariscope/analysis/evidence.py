@@ -6,8 +6,9 @@ solved from the one-pass :class:`~covariscope.analysis.linear.LinearSummary`
 and never touch the rows again; logistic, risk-ratio and Cox models call the
 fitting functions of :mod:`covariscope.analysis.glm` and
 :mod:`covariscope.analysis.survival`, warm-started from the nearest model
-already fitted.  Fits are cached by (data digest, family, set of terms), so a
-diagram edit refits only the models it changes.
+already fitted.  An engine keeps every fit it made, by set of terms, behind a
+lock (the study keeps one engine per design in its cache, so a diagram edit
+refits only the models it changes); nothing is cached at module level.
 
 :func:`compute_evidence` runs the comparisons — crude; crude + C for every
 bound covariate; full; full − C for every candidate; each named set — and
@@ -18,6 +19,7 @@ from __future__ import annotations
 
 import functools
 import math
+import threading
 from collections import OrderedDict
 from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass, field
@@ -64,16 +66,12 @@ __all__ = [
 #: would already read as a 10 % change.  Common practice, no published source.
 NEAR_ZERO_SE_FRACTION = 0.1
 
-_CACHE_SIZE = 20_000
-_FIT_CACHE: OrderedDict[tuple[str, str, frozenset[str]], tuple[Fit, np.ndarray | None]] = (
-    OrderedDict()
-)
-_SUMMARY_CACHE: OrderedDict[str, LinearSummary] = OrderedDict()
-
 ProgressCallback = Callable[[int, int], None]
 #: (model number, models in the table, passes over the rows made for it so far)
 PassCallback = Callable[[int, int, int], None]
 CancelCallback = Callable[[], bool]
+#: Told (stage name, hit?) of every fit asked for: how a cache counts fits it does not hold.
+FitRecorder = Callable[[str, bool], None]
 
 
 @functools.lru_cache(maxsize=256)
@@ -101,6 +99,11 @@ class EvidenceEngine:
         The analytic sample's numbers (see :func:`~covariscope.analysis.design.make_design`).
     family : str
         Must be the family the design was checked for.
+    summary : LinearSummary, optional
+        The design's one-pass summary when the caller already has it
+        (default: computed on first use).
+    record : callable(stage, hit), optional
+        Told of every fit asked for, ``("fit", True)`` when it was kept.
 
     Examples
     --------
@@ -115,12 +118,24 @@ class EvidenceEngine:
     (2.1, 1.1)
     """
 
-    def __init__(self, design: Design, family: str | None = None) -> None:
+    def __init__(
+        self,
+        design: Design,
+        family: str | None = None,
+        *,
+        summary: LinearSummary | None = None,
+        record: FitRecorder | None = None,
+    ) -> None:
         family = family or design.family
         if family != design.family:
             raise ValueError(f"design was built for {design.family!r}, not {family!r}")
         self.design = design
         self.family = family
+        self._summary = summary
+        self._record = record
+        # One lock per engine: two threads sharing it fit one model at a time.
+        self._lock = threading.RLock()
+        self._fits: dict[frozenset[str], tuple[Fit, np.ndarray | None]] = {}
         self._order = {node: i for i, node in enumerate(design.blocks)}
         self._ols: dict[frozenset[str], OLSResult | None] = {}
         # Inverse information of each GLM fit, by its set of terms: lets a nested
@@ -139,11 +154,16 @@ class EvidenceEngine:
         """Means and co-moments of [exposure | covariate columns | outcome], one pass."""
         if self.design.row_stats is not None:
             return self.design.row_stats.summary
-        cached = _SUMMARY_CACHE.get(self.design.key)
-        if cached is None:
-            cached = linear_summary(self.design.values)
-            _remember(_SUMMARY_CACHE, self.design.key, cached, 4)
-        return cached
+        with self._lock:
+            if self._summary is None:
+                self._summary = linear_summary(self.design.values)
+            return self._summary
+
+    @property
+    def nbytes(self) -> int:
+        """Memory held: the design and the GLM working matrix."""
+        extra = 0 if self._glm_matrix is None else int(self._glm_matrix.nbytes)
+        return int(self.design.values.nbytes) + extra
 
     def columns(self, terms: Sequence[str]) -> list[int]:
         """Design-column positions of the exposure and ``terms`` (design order)."""
@@ -161,6 +181,24 @@ class EvidenceEngine:
         for node in self.ordered(terms):
             groups[node] = list(self.design.blocks[node].index)
         return groups
+
+    def adopt(self, other: EvidenceEngine, terms: frozenset[str]) -> int:
+        """Take over ``other``'s fits of models made of ``terms`` only; returns how many.
+
+        The caller vouches that ``other`` was built from the same rows, with
+        the same exposure, outcome and family, and that every one of
+        ``terms`` has the same columns in both designs (so binding one more
+        covariate, or recoding one, refits only the models that hold it).
+        """
+        with other._lock:
+            fits = {k: v for k, v in other._fits.items() if k <= terms}
+            ols = {k: v for k, v in other._ols.items() if k <= terms}
+            cov = {k: v for k, v in other._glm_cov.items() if k <= terms}
+        with self._lock:
+            self._fits.update(fits)
+            self._ols.update(ols)
+            self._glm_cov.update(cov)
+        return len(fits)
 
     def aliased(self, terms: Sequence[str] | None = None) -> tuple[AliasFinding, ...]:
         """Exact linear combinations among the exposure and ``terms`` (default: every term)."""
@@ -182,20 +220,24 @@ class EvidenceEngine:
                 self.design.n,
                 f"{', '.join(unknown)} is not bound to a data column, so this model cannot be fitted.",
             )
-        key = (self.design.key, self.family, frozenset(terms))
-        hit = _FIT_CACHE.get(key)
-        if hit is None:
-            hit = self._fit_uncached(self.ordered(terms), on_pass)
-            _remember(_FIT_CACHE, key, hit, _CACHE_SIZE)
-        return hit[0]
+        key = frozenset(terms)
+        with self._lock:
+            hit = self._fits.get(key)
+            if self._record is not None:
+                self._record("fit", hit is not None)
+            if hit is None:
+                hit = self._fit_uncached(self.ordered(terms), on_pass)
+                self._fits[key] = hit
+            return hit[0]
 
     def ols(self, terms: Sequence[str]) -> OLSResult | None:
         """The least-squares solution behind a linear :meth:`fit` (None if rank deficient)."""
         k = frozenset(terms)
-        if k not in self._ols:
-            outcome = self.design.values.shape[1] - 1
-            self._ols[k] = solve_ols(self.summary, self.columns(list(terms)), outcome)
-        return self._ols[k]
+        with self._lock:
+            if k not in self._ols:
+                outcome = self.design.values.shape[1] - 1
+                self._ols[k] = solve_ols(self.summary, self.columns(list(terms)), outcome)
+            return self._ols[k]
 
     def _precheck(self, terms: tuple[str, ...], n_params: int) -> str | None:
         n = self.design.n
@@ -383,8 +425,8 @@ class EvidenceEngine:
         terms are all wanted (a one-step add update; preferably from a model
         whose pass over every column is already made)."""
         best: tuple[tuple[int, int], frozenset[str], np.ndarray] | None = None
-        for (dkey, fam, tset), (_, params) in _FIT_CACHE.items():
-            if dkey != self.design.key or fam != self.family or params is None:
+        for tset, (_, params) in self._fits.items():
+            if params is None:
                 continue
             distance = len(tset ^ wanted)
             if tset >= wanted and tset in self._glm_cov:

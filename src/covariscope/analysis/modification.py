@@ -35,6 +35,7 @@ from dataclasses import dataclass
 import numpy as np
 import scipy.stats
 
+from covariscope.analysis.column_fit import fit_columns
 from covariscope.analysis.design import Design
 from covariscope.vocabulary import RATIO_FAMILIES, ModificationForm
 
@@ -111,50 +112,6 @@ def reri(
     return value, se, (value - z * se, value + z * se)
 
 
-@dataclass(frozen=True)
-class _Fitted:
-    coef: np.ndarray
-    cov: np.ndarray
-    df_resid: int | None
-
-
-def _fit(design: Design, X: np.ndarray, names: list[str]) -> _Fitted | str:
-    """Fit exposure-first columns ``X`` (no intercept) in the design's family."""
-    family = design.family
-    if family == "linear":
-        from covariscope.analysis.linear import linear_summary, solve_ols
-
-        assert design.y is not None
-        values = np.column_stack([X, design.y])
-        res = solve_ols(linear_summary(values), list(range(X.shape[1])), X.shape[1])
-        if res is None or res.cov is None:
-            return "the columns of the interaction model are exactly collinear"
-        return _Fitted(res.coef, res.cov, res.df_resid)
-    if family == "cox":
-        from covariscope.analysis.survival import fit_cox
-
-        assert design.time is not None
-        assert design.event is not None
-        fit, _ = fit_cox(X, design.time, design.event, column_names=names, terms=())
-    else:
-        from covariscope.analysis.glm import fit_glm
-
-        assert design.y is not None
-        Xi = np.column_stack([np.ones(len(X)), X])
-        fit, _ = fit_glm(
-            Xi,
-            design.y,
-            family,
-            column_names=["(intercept)", *names],
-            terms=(),
-            offset=design.offset,
-        )
-    if not fit.ok or fit.cov is None:
-        return fit.message or "the interaction model could not be fitted"
-    coef = np.array([fit.coefficient(n) for n in names], dtype=float)
-    return _Fitted(coef, fit.cov, None)
-
-
 def _wald(b: np.ndarray, V: np.ndarray, df_resid: int | None) -> tuple[float, float]:
     chi2 = float(b @ np.linalg.solve(V, b))
     k = len(b)
@@ -176,7 +133,7 @@ def _strata_values(
         for j, text in enumerate(block.levels[1:]):
             out.append((text, np.eye(block.df)[j], m[:, j] == 1))
         return "levels", out
-    col = m[:, 0]
+    col = m[:, 0] if block.raw is None else block.raw
     q = np.quantile(col, [0.25, 0.5, 0.75])
     nearest = np.argmin(np.abs(col[:, None] - q[None, :]), axis=1)
     labels = ("25th percentile", "median", "75th percentile")
@@ -232,18 +189,21 @@ def effect_modification(
     names = [design.column_names[j] for j in cols]
     x = design.values[:, 0]
     block = design.blocks[node]
-    products = block.values * x[:, None]
+    # a spline-entered modifier: its main effect is the spline, the product is linear in it
+    moderated = block.values if block.raw is None else block.raw[:, None]
+    products = moderated * x[:, None]
     X = np.column_stack([design.values[:, cols], products])
-    pnames = [f"{design.exposure_name}×{c}" for c in block.columns]
-    fitted = _fit(design, np.ascontiguousarray(X), [*names, *pnames])
+    k = products.shape[1]
+    pnames = [f"{design.exposure_name}×{node}[{j}]" for j in range(k)]
+    fitted = fit_columns(design, np.ascontiguousarray(X), [*names, *pnames])
     kind, strata_spec = _strata_values(design, node)
     nan = float("nan")
     if isinstance(fitted, str):
         return Modification(
-            node, ModificationForm.MODEL, kind, (), nan, block.df, nan, nan, False, message=fitted
+            node, ModificationForm.MODEL, kind, (), nan, k, nan, nan, False, message=fitted
         )
     ratio = design.family in RATIO_FAMILIES
-    p_idx = list(range(len(names), len(names) + block.df))
+    p_idx = list(range(len(names), len(names) + k))
     z = (
         float(scipy.stats.t.ppf(0.5 + level / 2.0, fitted.df_resid))
         if fitted.df_resid is not None
@@ -284,7 +244,7 @@ def effect_modification(
         kind=kind,
         strata=tuple(strata),
         interaction_stat=stat,
-        interaction_df=block.df,
+        interaction_df=k,
         interaction_p=p,
         spread=spread,
         flagged=bool(p < p_guide and spread >= ratio_guide),

@@ -103,12 +103,13 @@ def coerce_column(series: pd.Series, type: str, reference: object = None) -> pd.
         return numbers.rename(series.name)
     if type == "binary":
         zero, one = binary_coding(series, reference)
-        keys = series.map(level_key, na_action="ignore")
-        coded = pd.Series(np.nan, index=series.index, name=series.name, dtype="float64")
-        coded[(keys == zero).fillna(False).to_numpy(dtype=bool)] = 0.0
-        if one is not None:
-            coded[(keys == one).fillna(False).to_numpy(dtype=bool)] = 1.0
-        return coded
+        codes, keys = _factorized(series)
+        # One number per distinct value, then one lookup per row: no Python call per row.
+        per_level = np.array(
+            [0.0 if k == zero else (1.0 if one is not None and k == one else np.nan) for k in keys]
+            + [np.nan]
+        )
+        return pd.Series(per_level[codes], index=series.index, name=series.name, dtype="float64")
     if type == "categorical":
         levels = column_levels(series)
         if reference is not None and levels and not _names_a_level(levels, reference):
@@ -117,9 +118,13 @@ def coerce_column(series: pd.Series, type: str, reference: object = None) -> pd.
             levels = (level_key(reference), *levels)
         ref = match_level(name, levels, reference)
         order = [ref, *(v for v in levels if v != ref)] if levels else []
-        keys = series.map(level_key, na_action="ignore").astype("object")
+        codes, keys = _factorized(series)
+        position = {k: i for i, k in enumerate(order)}
+        per_level = np.array([position.get(k, -1) for k in keys] + [-1], dtype=np.int64)
         return pd.Series(
-            pd.Categorical(keys, categories=order), index=series.index, name=series.name
+            pd.Categorical.from_codes(per_level[codes], categories=order),
+            index=series.index,
+            name=series.name,
         )
     if type == "date":
         validate_type(series, "date")
@@ -127,6 +132,14 @@ def coerce_column(series: pd.Series, type: str, reference: object = None) -> pd.
             return series
         return pd.to_datetime(series, errors="coerce", format="mixed").rename(series.name)
     return series.astype("str").where(series.notna(), np.nan)
+
+
+def _factorized(series: pd.Series) -> tuple[np.ndarray, list[Any]]:
+    """Integer codes per row (missing: the last code) and each distinct value's level key."""
+    codes, uniques = pd.factorize(series, use_na_sentinel=True)
+    keys = [level_key(u) for u in pd.Index(uniques).tolist()]
+    codes = np.where(codes < 0, len(keys), codes)
+    return codes, keys
 
 
 def _names_a_level(levels: tuple[Any, ...], reference: object) -> bool:

@@ -35,8 +35,9 @@ software. The user can choose another level.
 
 from __future__ import annotations
 
+import functools
 import re
-from collections.abc import Mapping
+from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -57,6 +58,7 @@ __all__ = [
     "COLUMN_TYPES",
     "LEVEL_TYPES",
     "ColumnProfile",
+    "check_settings_columns",
     "column_levels",
     "match_level",
     "profile_column",
@@ -115,7 +117,6 @@ class ColumnProfile:
     inferred_type: str
     missing: int
     missing_pct: float
-    distinct: int
     minimum: Any
     maximum: Any
     levels: tuple[Any, ...]
@@ -127,6 +128,17 @@ class ColumnProfile:
     #: (1-based) that hold them; empty when there are none
     stray_values: tuple[str, ...] = ()
     stray_rows: tuple[int, ...] = ()
+    # Counting every distinct value of a float column costs more than all the
+    # type rules: they need only "one, two or more", so the exact count waits
+    # until something asks for it.
+    count_distinct: Callable[[], int] = field(
+        default=lambda: 0, hash=False, compare=False, repr=False
+    )
+
+    @functools.cached_property
+    def distinct(self) -> int:
+        """Distinct present values (counted on first use)."""
+        return self.count_distinct()
 
     def level_text(self, level: Any) -> str:
         """A level as the user reads it: ``"female (2)"`` when the code has a
@@ -176,12 +188,7 @@ def profile_table(
     overrides = dict(overrides or {})
     references = dict(references or {})
     labels = dict(value_labels or {})
-    unknown = sorted((set(overrides) | set(references)) - {str(c) for c in frame.columns})
-    if unknown:
-        raise DataError(
-            "The saved column settings name columns that are not in the data: "
-            f"{', '.join(map(repr, unknown))}. Rename the columns back, or clear those settings."
-        )
+    check_settings_columns([str(c) for c in frame.columns], overrides, references)
     return {
         str(name): profile_column(
             frame[name],
@@ -191,6 +198,18 @@ def profile_table(
         )
         for name in frame.columns
     }
+
+
+def check_settings_columns(
+    columns: Sequence[str], overrides: Mapping[str, str], references: Mapping[str, object]
+) -> None:
+    """Refuse column settings (types, reference levels) that name columns not in the data."""
+    unknown = sorted((set(overrides) | set(references)) - set(columns))
+    if unknown:
+        raise DataError(
+            "The saved column settings name columns that are not in the data: "
+            f"{', '.join(map(repr, unknown))}. Rename the columns back, or clear those settings."
+        )
 
 
 def profile_column(
@@ -235,7 +254,7 @@ def profile_column(
     present = series.dropna()
     missing = int(len(series) - len(present))
     missing_pct = 100.0 * missing / len(series) if len(series) else 0.0
-    distinct = int(present.nunique())
+    distinct = _distinct_for_rules(series, present)
     warnings: list[str] = []
     inferred = _infer(series, present, distinct, warnings)
     kind = inferred
@@ -254,6 +273,8 @@ def profile_column(
     no_strays: tuple[tuple[str, ...], tuple[int, ...]] = ((), ())
     strays, stray_rows = _strays(series, present) if override_type is None else no_strays
     minimum, maximum = _range(series, present, kind)
+    if kind in LEVEL_TYPES:
+        distinct = len(levels)  # the warnings count levels exactly
     _general_warnings(series, present, kind, distinct, missing_pct, warnings)
     return ColumnProfile(
         name=name,
@@ -261,7 +282,7 @@ def profile_column(
         inferred_type=inferred,
         missing=missing,
         missing_pct=missing_pct,
-        distinct=distinct,
+        count_distinct=lambda: int(series.nunique()),
         minimum=minimum,
         maximum=maximum,
         levels=levels,
@@ -271,6 +292,24 @@ def profile_column(
         stray_values=strays,
         stray_rows=stray_rows,
     )
+
+
+def _distinct_for_rules(series: pd.Series, present: pd.Series) -> int:
+    """Distinct present values, exact except that a column of numbers that are not
+    all whole reports 3 for "three or more" (the type rules ask no more of it)."""
+    numeric = pd.api.types.is_numeric_dtype(series.dtype) and not (
+        pd.api.types.is_bool_dtype(series.dtype) or isinstance(series.dtype, pd.CategoricalDtype)
+    )
+    if not numeric or len(present) == 0:
+        return int(present.nunique())
+    values = present.to_numpy(dtype=np.float64)
+    if bool(np.all(values == np.round(values))):
+        return int(present.nunique())
+    other = values != values[0]
+    if not other.any():
+        return 1
+    second = values[int(np.argmax(other))]
+    return 2 if bool(np.all(~other | (values == second))) else 3
 
 
 def _only_ones(levels: tuple[Any, ...]) -> bool:

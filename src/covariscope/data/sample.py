@@ -9,7 +9,7 @@ outcome, exposure and every bound measured covariate at once.
 from __future__ import annotations
 
 import difflib
-from collections.abc import Sequence
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -17,7 +17,96 @@ import pandas as pd
 
 from covariscope.errors import DataError
 
-__all__ = ["AnalyticSample", "analytic_sample", "check_known", "no_rows_error", "summary_text"]
+__all__ = [
+    "AnalyticSample",
+    "CompleteCases",
+    "analytic_sample",
+    "check_known",
+    "complete_cases",
+    "no_rows_error",
+    "summary_text",
+]
+
+
+@dataclass(frozen=True, eq=False)
+class CompleteCases:
+    """Which rows are complete on the chosen columns, and what was lost, without a copy.
+
+    The same counts as :class:`AnalyticSample`, with the rows as a boolean
+    mask (``keep``) over the file's rows instead of a copy of the frame.
+    """
+
+    keep: np.ndarray
+    rows: int
+    used: int
+    columns: tuple[str, ...]
+    missing_by_column: dict[str, int] = field(default_factory=dict)
+    lost_by_column: dict[str, int] = field(default_factory=dict)
+    lost_to_several: int = 0
+    message: str = ""
+
+    @property
+    def dropped(self) -> int:
+        """Rows left out."""
+        return self.rows - self.used
+
+    @property
+    def complete(self) -> bool:
+        """Every row is kept."""
+        return self.used == self.rows
+
+    @property
+    def nbytes(self) -> int:
+        return int(self.keep.nbytes)
+
+    def rows_of(self, frame: pd.DataFrame) -> pd.DataFrame:
+        """The kept rows of ``frame``'s chosen columns (a copy; for plots)."""
+        return frame.loc[self.keep, list(self.columns)]
+
+
+def complete_cases(missing: Mapping[str, np.ndarray], rows: int) -> CompleteCases:
+    """Complete cases from one missing-value mask per chosen column.
+
+    Each mask is read once; no column's values are.  The caller keeps the
+    masks, so a column added to the choice costs one pass over that column.
+
+    Raises
+    ------
+    DataError
+        No row is complete (naming the columns responsible).
+
+    Examples
+    --------
+    >>> cc = complete_cases({"y": np.array([False, False, True]), "x": np.array([False, True, True])}, 3)
+    >>> cc.keep.tolist(), cc.used, cc.lost_by_column, cc.lost_to_several
+    ([True, False, False], 1, {'y': 0, 'x': 1}, 1)
+    """
+    chosen = tuple(missing)
+    if not chosen:
+        return CompleteCases(
+            np.ones(rows, dtype=bool), rows, rows, chosen, message=summary_text(rows, rows)
+        )
+    per_row = np.zeros(rows, dtype=np.int32)
+    for mask in missing.values():
+        per_row += mask
+    keep = per_row == 0
+    missing_by_column = {c: int(np.count_nonzero(m)) for c, m in missing.items()}
+    alone = per_row == 1
+    lost_by_column = {c: int(np.count_nonzero(m & alone)) for c, m in missing.items()}
+    lost_to_several = int(np.count_nonzero(per_row > 1))
+    used = int(np.count_nonzero(keep))
+    if used == 0:
+        raise no_rows_error(rows, missing_by_column)
+    return CompleteCases(
+        keep=keep,
+        rows=rows,
+        used=used,
+        columns=chosen,
+        missing_by_column=missing_by_column,
+        lost_by_column=lost_by_column,
+        lost_to_several=lost_to_several,
+        message=summary_text(rows, used, lost_by_column, lost_to_several, len(chosen)),
+    )
 
 
 @dataclass(frozen=True, eq=False)
@@ -66,6 +155,10 @@ class AnalyticSample:
     def dropped(self) -> int:
         """Rows left out."""
         return self.rows - self.used
+
+    def rows_of(self, frame: pd.DataFrame) -> pd.DataFrame:
+        """The sample's rows (``frame`` is not needed: they are held here)."""
+        return self.frame
 
 
 def analytic_sample(frame: pd.DataFrame, columns: Sequence[str]) -> AnalyticSample:

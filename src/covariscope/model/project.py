@@ -12,7 +12,8 @@ Schema (``"format": "covariscope-project"``, ``"version": 1``)::
                   "family_columns": {family: {"outcome"|"time"|"event"|"offset": column}},
                   "keep_choices": {"a|b": member},
                   "diagram_checks": {"correction": "holm"|"bh", "limit": int},
-                  "engine": "auto"|"memory"|"duckdb"|"dask", "scheduler": "tcp://host:8786"}}
+                  "engine": "auto"|"memory"|"duckdb"|"dask", "scheduler": "tcp://host:8786",
+                  "spline_knots": {column: 3..7 (natural cubic spline knots at quantiles)}}}
 
 ``data`` and ``analysis`` are optional.  Loading validates everything and
 reports every problem with where it is; saving is atomic.
@@ -96,6 +97,8 @@ class AnalysisSettings:
     reference_levels: dict[str, Any] = field(default_factory=dict)
     family_columns: dict[str, dict[str, str]] = field(default_factory=dict)
     keep_choices: dict[str, str] = field(default_factory=dict)
+    #: continuous columns entered as a natural cubic spline: column → number of knots
+    spline_knots: dict[str, int] = field(default_factory=dict)
     #: multiplicity correction of the diagram's independence claims
     claim_correction: str = "holm"
     #: most independence claims tested (the analyst may raise it)
@@ -445,6 +448,14 @@ def _read_analysis(raw: Any, diagram: Diagram, problems: _Problems) -> AnalysisS
                     continue
                 else:
                     getattr(settings, key)[k] = v
+    knots = raw.get("spline_knots", {})
+    if _expect(problems, "analysis.spline_knots", knots, (dict,), "an object"):
+        for column, k in knots.items():
+            where = f"analysis.spline_knots.{column}"
+            if isinstance(k, bool) or not isinstance(k, int) or not 3 <= k <= 7:
+                problems.add(where, "must be a whole number of knots from 3 to 7")
+            else:
+                settings.spline_knots[column] = k
     family_columns = raw.get("family_columns", {})
     if _expect(problems, "analysis.family_columns", family_columns, (dict,), "an object"):
         for fam, cols in family_columns.items():
@@ -573,6 +584,8 @@ def project_to_dict(project: Project) -> dict[str, Any]:
         out["analysis"]["engine"] = a.engine
     if a.scheduler:
         out["analysis"]["scheduler"] = a.scheduler
+    if a.spline_knots:
+        out["analysis"]["spline_knots"] = dict(a.spline_knots)
     return out
 
 

@@ -4,6 +4,7 @@ levels, and columns dropped onto the canvas."""
 
 from __future__ import annotations
 
+import contextlib
 import os
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
@@ -21,20 +22,7 @@ from covariscope.views.data_panel import matching_bindings
 if TYPE_CHECKING:
     from covariscope.qt.main_window import MainWindow
 
-__all__ = ["DataController", "profile_columns"]
-
-
-def profile_columns(
-    frame: Any,
-    overrides: dict[str, str],
-    references: dict[str, Any],
-    value_labels: dict[str, Any] | None = None,
-) -> dict[str, Any]:
-    """Column profiles from the data layer; a type the column cannot take is
-    reported by the caller and the inferred type kept."""
-    from covariscope.data.profile import profile_table
-
-    return profile_table(frame, overrides, references, value_labels=value_labels)
+__all__ = ["DataController"]
 
 
 class DataController(QObject):
@@ -43,7 +31,9 @@ class DataController(QObject):
         self.w = window
         self.table: Any = None
         self.profiles: dict[str, Any] = {}
-        self.loader = LoadRunner(parent=self)
+        self.loader = LoadRunner(load=self._load_and_profile, parent=self)
+        # The column settings a background load profiles with (read on the GUI thread).
+        self._settings: tuple[dict[str, str], dict[str, Any]] = ({}, {})
         self.loader.progress.connect(lambda f: window.show_progress("Loading data", f))
         self.loader.loaded.connect(self._loaded)
         self.loader.failed.connect(self._failed)
@@ -97,9 +87,26 @@ class DataController(QObject):
             self.w.push(SetData(project, ref, "Relocate the data file"))
             path = Path(found)
         self.table = None
+        a = project.analysis
+        self._settings = (dict(a.column_types), dict(a.reference_levels))
         self.w.show_progress("Loading data", 0.0)
         self.loader.load(str(path))
         return True
+
+    def _load_and_profile(self, path: str, progress: Any, cancel: Any) -> Any:
+        """Load the file and profile its columns, in the background: the GUI
+        thread then finds every profile in the study cache."""
+        from covariscope.data.loading import load_table
+        from covariscope.study.prepare import table_profiles
+        from covariscope.study.source import TableSource
+
+        table = load_table(path, progress=lambda f: progress(0.9 * f, ""), cancel=cancel)
+        progress(0.9, "Profiling the columns")
+        types, references = self._settings
+        # A setting that does not fit is reported when the window profiles with the settings in force.
+        with contextlib.suppress(CovariscopeError):
+            table_profiles(self.w.runner.cache, TableSource(table), types, references, cancel)
+        return table
 
     def _failed(self, message: str) -> None:
         self.w.hide_progress()
@@ -134,13 +141,18 @@ class DataController(QObject):
         self.w.request_analysis()
 
     def reprofile(self) -> None:
+        """Profiles for the data panel, from the study cache: only a column whose
+        type or reference level changed is profiled again."""
         if self.table is None:
             self.profiles = {}
             return
+        from covariscope.study.prepare import table_profiles
+        from covariscope.study.source import TableSource
+
         a = self.w.project.analysis
         try:
-            self.profiles = profile_columns(
-                self.table.frame, a.column_types, a.reference_levels, self.table.value_labels
+            self.profiles = table_profiles(
+                self.w.runner.cache, TableSource(self.table), a.column_types, a.reference_levels
             )
         except CovariscopeError as exc:
             self.w.set_last_error(str(exc))

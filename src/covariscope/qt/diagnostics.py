@@ -8,6 +8,7 @@ the exposure's or outcome's shows its distribution, the model family
 
 from __future__ import annotations
 
+from pathlib import Path
 from typing import Any
 
 import numpy as np
@@ -47,6 +48,7 @@ from covariscope.views.diagnostics import (
 )
 from covariscope.views.format import ratio_family
 from covariscope.views.keep_choice import KeepChoice, keep_choice
+from covariscope.views.residual import FORM_CHOICES
 from covariscope.vocabulary import FAMILY_TERMS
 
 __all__ = ["FAMILY_LABELS", "CovariateDialog", "EndpointDialog", "NodeDialog"]
@@ -86,11 +88,10 @@ def _analysed_rows(sample: Any, frame: Any, s: NodeDiagnostics) -> Any:
     """The rows the models used (the analytic sample) when it holds both
     columns of the plot, so the picture shows what the numbers came from;
     else the loaded file."""
-    rows = getattr(sample, "frame", None)
     wanted = {s.exposure_column, s.column}
-    if rows is not None and None not in wanted and wanted <= set(rows.columns):
-        return rows
-    return frame
+    if sample is None or frame is None or None in wanted or not wanted <= set(sample.columns):
+        return frame
+    return sample.rows_of(frame)
 
 
 def _fill(table: QTableWidget, rows: list[tuple[str, ...]], fit: bool = True) -> None:
@@ -141,7 +142,7 @@ class NodeDialog(QDialog):
             "Your reasoning for this variable, in a sentence or two. It is saved in the "
             "project and printed in the rationale."
         )
-        self.note.setFixedHeight(56)
+        self.note.setFixedHeight(44)
         self.note.textChanged.connect(self._note_edited)
         self.save_note_button = QPushButton("Save note")
         self.save_note_button.setEnabled(False)
@@ -193,6 +194,10 @@ class CovariateDialog(NodeDialog):
 
     #: keep a member of the covariate's collinear group: (group key, member id)
     keep_chosen = Signal(str, object)
+    #: enter the covariate's column linearly (0) or as a spline with this many knots
+    form_chosen = Signal(str, int)
+    #: the user asked to save the dialog's plots (node id)
+    plots_requested = Signal(str)
 
     def __init__(self, node_id: str, parent: QWidget | None = None) -> None:
         super().__init__(node_id, parent)
@@ -212,6 +217,29 @@ class CovariateDialog(NodeDialog):
         keep_lay.addWidget(self.keep_member)
         keep_lay.addWidget(self.keep_note, 1)
         self.keep_box.hide()
+        # a compact row beside the heading: the dialog has width to spare, not height
+        self.form_box = QWidget()
+        self.form = QComboBox()
+        for knots, label in FORM_CHOICES:
+            self.form.addItem(label, knots)
+        self.form.setToolTip(
+            "A continuous covariate enters linearly, or as a natural cubic spline with knots "
+            "at quantiles when its effect may be curved (saved with the project; one undo step)."
+        )
+        self.form.activated.connect(self._form_activated)
+        form_row = QHBoxLayout(self.form_box)
+        form_row.setContentsMargins(0, 0, 0, 0)
+        form_row.addWidget(QLabel("Form in the models:"))
+        form_row.addWidget(self.form)
+        self.form_box.hide()
+        self.save_plots_button = self.buttons.addButton(
+            "Save plots…", QDialogButtonBox.ButtonRole.ActionRole
+        )
+        self.save_plots_button.setToolTip(
+            "Save every plot of this dialog (estimates, data, the collinearity picture and "
+            "effect modification when shown) as images"
+        )
+        self.save_plots_button.clicked.connect(lambda: self.plots_requested.emit(self.node_id))
         self.heading = QLabel()
         self.heading.setObjectName("dialogHeading")
         self.verdict = QLabel()
@@ -236,12 +264,12 @@ class CovariateDialog(NodeDialog):
         self.estimate_canvas = FigureCanvasQTAgg(self.estimate_figure)
         self.data_figure = Figure(figsize=(4.4, 3.0), layout="constrained")
         self.data_canvas = FigureCanvasQTAgg(self.data_figure)
-        self.joint_figure = Figure(figsize=(7.0, 1.7), layout="constrained")
+        self.joint_figure = Figure(figsize=(7.0, 1.5), layout="constrained")
         self.joint_canvas = FigureCanvasQTAgg(self.joint_figure)
         self.joint_note = QLabel()
         self.joint_note.setObjectName("jointNote")
         self.joint_note.setWordWrap(True)
-        self.modification_figure = Figure(figsize=(7.0, 1.7), layout="constrained")
+        self.modification_figure = Figure(figsize=(7.0, 1.5), layout="constrained")
         self.modification_canvas = FigureCanvasQTAgg(self.modification_figure)
         self.modification_note = QLabel()
         self.modification_note.setObjectName("modificationNote")
@@ -253,7 +281,7 @@ class CovariateDialog(NodeDialog):
             self.modification_canvas,
         ):
             # the tab bar takes 30 px of the plots' height; the dialog must still fit 768 px
-            c.setMinimumSize(300, 170)
+            c.setMinimumSize(300, 150)
 
         checklist_box = QGroupBox("What the diagram says")
         QVBoxLayout(checklist_box).addWidget(self.checks)
@@ -285,7 +313,10 @@ class CovariateDialog(NodeDialog):
         top.addLayout(left, 2)
         top.addWidget(numbers, 3)
         layout = QVBoxLayout(self)
-        layout.addWidget(self.heading)
+        head = QHBoxLayout()
+        head.addWidget(self.heading, 1)
+        head.addWidget(self.form_box)
+        layout.addLayout(head)
         # the verdict's reason is the longest text: it gets the full width
         layout.addWidget(self.verdict)
         layout.addLayout(top, 3)
@@ -318,8 +349,19 @@ class CovariateDialog(NodeDialog):
         self.messages.setText(measure)
         self.set_note(s.note)
         self._show_keep(keep_choice(project, result, self.node_id))
+        self.form_box.setVisible(s.knots is not None)
+        if s.knots is not None:
+            self.form.setCurrentIndex(max(self.form.findData(s.knots), 0))
         self._plot_estimates(s, getattr(result, "family", project.analysis.family))
-        self._plot_data(s, project, profiles, _analysed_rows(sample, frame, s))
+        rows = _analysed_rows(sample, frame, s)
+        of_rows = (
+            sample.used
+            if sample is not None
+            and getattr(sample, "frame_is_sample", False)
+            and rows is sample.frame
+            else None
+        )
+        self._plot_data(s, project, profiles, rows, of_rows)
         self._plot_joint(s)
         self._plot_modification(s)
 
@@ -369,6 +411,39 @@ class CovariateDialog(NodeDialog):
         self.keep_member.setCurrentIndex(index)
         self._keep_activated(index)
 
+    def save_plots(self, target: Path) -> list[Path]:
+        """Write each shown plot beside ``target``: ``<stem>-<plot><suffix>`` (PNG by default)."""
+        suffix = target.suffix or ".png"
+        plots = [("estimates", self.estimate_figure, True), ("data", self.data_figure, True)]
+        plots.append(("collinearity", self.joint_figure, self.plots.isTabEnabled(self._joint_tab)))
+        plots.append(
+            (
+                "modification",
+                self.modification_figure,
+                self.plots.isTabEnabled(self._modification_tab),
+            )
+        )
+        written = []
+        for name, figure, shown in plots:
+            if shown:
+                path = target.with_name(f"{target.stem}-{name}{suffix}")
+                figure.savefig(path, dpi=150)
+                written.append(path)
+        return written
+
+    def choose_form(self, knots: int) -> None:
+        """Enter the covariate linearly (0) or as a spline, as choosing it in the list does."""
+        index = self.form.findData(knots)
+        if index < 0:
+            raise KeyError(knots)
+        self.form.setCurrentIndex(index)
+        self._form_activated(index)
+
+    def _form_activated(self, index: int) -> None:
+        column = self.state.column if self.state is not None else None
+        if column and index >= 0:
+            self.form_chosen.emit(column, int(self.form.itemData(index)))
+
     def _keep_activated(self, index: int) -> None:
         if self.keep is not None and index >= 0:
             self.keep_chosen.emit(self.keep.key, self.keep_member.itemData(index))
@@ -397,7 +472,15 @@ class CovariateDialog(NodeDialog):
             ax.set_title("Exposure estimate across the models", fontsize=10)
         self.estimate_canvas.draw_idle()
 
-    def _plot_data(self, s: NodeDiagnostics, project: Any, profiles: Any, frame: Any) -> None:
+    def _plot_data(
+        self,
+        s: NodeDiagnostics,
+        project: Any,
+        profiles: Any,
+        frame: Any,
+        of_rows: int | None = None,
+    ) -> None:
+        """``of_rows``: the analytic sample's size when ``frame`` holds only a random sample of it."""
         fig = self.data_figure
         fig.clear()
         ax = fig.add_subplot()
@@ -472,7 +555,11 @@ class CovariateDialog(NodeDialog):
             ax.scatter(data[ccol], data[xcol], s=6, alpha=0.35, color="#0072B2", edgecolors="none")
             ax.set_xlabel(s.label)
             ax.set_ylabel(x_name)
-        ax.set_title(f"{s.label} against the exposure", fontsize=10)
+        title = f"{s.label} against the exposure"
+        every = of_rows or len(frame[[xcol, ccol]].dropna())
+        if len(data) < every:
+            title += f"\nrandom sample of {len(data):,} of {every:,} rows"
+        ax.set_title(title, fontsize=10)
         self.data_canvas.draw_idle()
 
 

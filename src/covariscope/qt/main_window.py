@@ -52,9 +52,14 @@ from covariscope.views.diagram import canvas_annotations
 from covariscope.views.keep_choice import keep_choice, keep_choices_after
 from covariscope.views.messages import window_messages
 from covariscope.views.outcome_settings import family_columns_after
+from covariscope.views.recompute import recompute_summary
+from covariscope.views.residual import spline_knots_after
 from covariscope.views.review import proposed_after_toggle
 
 __all__ = ["MainWindow"]
+
+#: Node fields no analysis reads: editing them asks for none.
+LAYOUT_FIELDS = frozenset({"x", "y", "note"})
 
 
 class MainWindow(QMainWindow):
@@ -264,6 +269,8 @@ class MainWindow(QMainWindow):
     # -- reacting to the model -----------------------------------------------------------
     def _model_changed(self, event: Any) -> None:
         self.refresh_panels()
+        if event.kind == "node_changed" and set(event.changes) <= LAYOUT_FIELDS:
+            return  # where a node sits and what its note says change no number
         self.request_analysis()
 
     def _project_changed(self, event: Any) -> None:
@@ -326,6 +333,12 @@ class MainWindow(QMainWindow):
         else:
             self.rows_label.setText("No data loaded")
         self._set_state("Analysis up to date")
+        recomputed = getattr(result, "recomputed", None)
+        if recomputed is not None:
+            # a tooltip, not a status message: a long message would widen the window
+            self.state_label.setToolTip(
+                recompute_summary(recomputed, result.models_fitted, result.seconds)
+            )
         msgs = getattr(result, "messages", ())
         self.error_label.setToolTip("\n".join(msgs))
 
@@ -443,6 +456,13 @@ class MainWindow(QMainWindow):
         centre = self.view.mapToScene(self.view.viewport().rect().center())
         self.scene.add_node_at(QPointF(centre))
 
+    def set_form(self, column: str, knots: int) -> None:
+        """Enter ``column`` linearly (0) or as a spline with ``knots`` knots; one undo step."""
+        choices = spline_knots_after(self.project, column, knots)
+        if choices is not None:
+            text = f"Enter {column} as a spline" if knots else f"Enter {column} linearly"
+            self.push(SetSettings(self.project, text, spline_knots=choices))
+
     def set_family(self, family: str) -> None:
         if family != self.project.analysis.family:
             self.push(SetSettings(self.project, f"Use the {family} model", family=family))
@@ -512,6 +532,8 @@ class MainWindow(QMainWindow):
                 dialog.family_changed.connect(self.set_family)
             else:
                 dialog.keep_chosen.connect(self.keep_member)
+                dialog.form_chosen.connect(self.set_form)
+                dialog.plots_requested.connect(lambda n: output.export_dialog_plots(self, n))
             dialog.finished.connect(lambda _r, n=node_id: self.dialogs.pop(n, None))
             self.dialogs[node_id] = dialog
         self._refresh_dialog(dialog)

@@ -16,7 +16,13 @@ from covariscope.model.files import check_output_path
 if TYPE_CHECKING:
     from covariscope.qt.main_window import MainWindow
 
-__all__ = ["export_diagram", "export_review_csv", "print_rationale", "save_rationale_pdf"]
+__all__ = [
+    "export_diagram",
+    "export_dialog_plots",
+    "export_review_csv",
+    "print_rationale",
+    "save_rationale_pdf",
+]
 
 _FILTERS = {
     "png": "PNG image (*.png)",
@@ -155,3 +161,24 @@ def save_rationale_pdf(w: MainWindow, path: str | None = None) -> bool:
         return False
     w.show_message(f"Wrote {written}")
     return True
+
+
+def export_dialog_plots(w: MainWindow, node_id: str) -> list[Path]:
+    """Save the plots of ``node_id``'s diagnostics dialog as images (one file per plot)."""
+    dialog = w.dialogs.get(node_id)
+    save = getattr(dialog, "save_plots", None)
+    if save is None:
+        return []
+    target = _ask(w, "png", "Save the diagnostics plots", f"-{node_id}")
+    if target is None:
+        return []
+    target = _writable(w, target, "plots")
+    if target is None:
+        return []
+    try:
+        written: list[Path] = save(target)
+    except (OSError, ValueError) as exc:
+        w.prompts.warn("Cannot write the plots", f"{target}: {exc}")
+        return []
+    w.statusBar().showMessage(f"Saved {len(written)} plots beside {target.name}", 5000)
+    return written

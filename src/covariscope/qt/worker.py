@@ -1,8 +1,11 @@
 """Analysis and data loading off the GUI thread.
 
-:class:`AnalysisRunner` re-runs the study after each edit, debounced.  Each
-request gets a new *generation* number; a new request cancels the running
-one through its cancel callback, and a result whose generation is no
+:class:`AnalysisRunner` re-runs the study after each edit, debounced, on
+one worker thread (at most one analysis at a time), through the study
+cache the runner owns for the window's life: the pipeline recomputes only
+the stages an edit changed.  Each request gets a new *generation* number;
+a new request cancels the running one through its cancel callback (checked
+between stages, columns and models), and a result whose generation is no
 longer current is discarded (``discarded`` is emitted), never shown.
 :class:`LoadRunner` loads a data file in the background with progress and
 cancellation.
@@ -20,8 +23,9 @@ from PySide6.QtCore import QObject, QRunnable, QThreadPool, QTimer, Signal
 
 from covariscope.errors import CovariscopeError
 from covariscope.model.project import Project
+from covariscope.study.cache import StudyCache
 
-__all__ = ["AnalysisRunner", "LoadRunner", "snapshot"]
+__all__ = ["AnalysisRunner", "LoadRunner", "snapshot", "study_run"]
 
 
 def snapshot(project: Project) -> Project:
@@ -31,12 +35,19 @@ def snapshot(project: Project) -> Project:
     )
 
 
-def _default_run(
-    project: Project, table: Any, progress: Callable[..., Any], cancel: Callable[..., Any]
-) -> Any:
-    from covariscope.study import run_study
+def study_run(
+    cache: StudyCache,
+) -> Callable[[Project, Any, Callable[..., Any], Callable[..., Any]], Any]:
+    """The default analysis: the study pipeline through ``cache``."""
 
-    return run_study(project, table=table, progress=progress, cancel=cancel)
+    def run(
+        project: Project, table: Any, progress: Callable[..., Any], cancel: Callable[..., Any]
+    ) -> Any:
+        from covariscope.study import run_study
+
+        return run_study(project, table=table, progress=progress, cancel=cancel, cache=cache)
+
+    return run
 
 
 class _Bridge(QObject):
@@ -93,10 +104,10 @@ class _Token:
 class _Runner(QObject):
     """Shared machinery: generations, cancel tokens, one private pool."""
 
-    def __init__(self, parent: QObject | None = None) -> None:
+    def __init__(self, parent: QObject | None = None, threads: int = 2) -> None:
         super().__init__(parent)
         self.pool = QThreadPool(self)
-        self.pool.setMaxThreadCount(2)
+        self.pool.setMaxThreadCount(threads)
         self.generation = 0
         self._token: _Token | None = None
         self._running = False
@@ -170,10 +181,14 @@ class AnalysisRunner(_Runner):
         run: Callable[[Project, Any, Callable[..., Any], Callable[..., Any]], Any] | None = None,
         debounce_ms: int = 250,
         parent: QObject | None = None,
+        cache: StudyCache | None = None,
     ) -> None:
-        super().__init__(parent)
+        # One thread: a cancelled run finishes its current step before the next starts.
+        super().__init__(parent, threads=1)
         self.project_source = project_source
-        self.run_fn = run or _default_run
+        #: The stage results of every run so far (the window's study cache).
+        self.cache = cache if cache is not None else StudyCache()
+        self.run_fn = run or study_run(self.cache)
         self.table: Any = None
         self.result: Any = None
         self._timer = QTimer(self)

@@ -4,8 +4,10 @@
 target paint device and places it as a single-line :class:`TextItem`, so the
 painter draws only what was measured: nothing can overflow its cell or the
 page.  When the content is long the plan first gives the diagram less
-height, then shortens the notes (ending them with an ellipsis), and only then
-lowers the body text, never below :data:`MIN_BODY_PT`.  If even that does not
+height and lowers the body text (never below :data:`MIN_BODY_PT`) with every
+note printed whole; only when that cannot fit does it shorten the notes
+(ending them with an ellipsis), say so on the page, and continue them whole
+on an appendix page (:func:`plan_appendix`).  If even shortened notes do not
 fit, findings lists and finally table rows are cut, each cut said on the page.
 """
 
@@ -20,12 +22,24 @@ from PySide6.QtGui import QFont, QFontDatabase, QFontMetricsF, QPaintDevice
 
 from covariscope.views.report_content import RationaleContent
 
-__all__ = ["MIN_BODY_PT", "Fonts", "PagePlan", "Shade", "TextItem", "plan_page", "wrap_text"]
+__all__ = [
+    "MIN_BODY_PT",
+    "Fonts",
+    "PagePlan",
+    "Shade",
+    "TextItem",
+    "plan_appendix",
+    "plan_page",
+    "wrap_text",
+]
 
 #: Body text is never smaller than this (issue 6).
 MIN_BODY_PT = 7.0
 _BODY_SIZES = (9.0, 8.5, 8.0, 7.5, 7.0)
 _NOTE_LINES = (3, 2, 1, 0)  # 0: one line for every cell
+#: as many note lines as a note needs (the note printed whole); one more:
+#: whole, in a wider note column
+_NOTE_WHOLE = 10_000
 _DIAGRAM_SHARE = (0.42, 0.18)  # largest and smallest, of the page height
 _FINDING_CAPS = (None, 6, 3, 1)
 _FAMILIES = ("DejaVu Sans", "Noto Sans", "Liberation Sans", "Arial", "Helvetica")
@@ -67,6 +81,8 @@ class PagePlan:
     hidden_rows: int = 0
     capped_findings: int | None = None
     height: float = 0.0
+    #: the labels of covariates whose note was shortened here (whole in the appendix)
+    cut_notes: list[str] = field(default_factory=list)
 
 
 def _family() -> str:
@@ -254,13 +270,20 @@ def _two_line_width(text: str, fm: QFontMetricsF) -> float:
 
 
 def _table_columns(
-    content: RationaleContent, fonts: Fonts, width: float, size: float, compact: bool
+    content: RationaleContent,
+    fonts: Fonts,
+    width: float,
+    size: float,
+    compact: bool,
+    whole_notes: bool = False,
 ) -> list[float] | None:
     """Column widths.  Numbers get what they need and are never cut.  Labels,
     roles and verdicts first get one full line each; when that is too wide
     the note gives way to a floor, then verdicts, roles and labels go down to
     two lines (never in ``compact``, where every cell has one line), and only
-    then do labels and roles go down to a floor and get an ellipsis."""
+    then do labels and roles go down to a floor and get an ellipsis.  With
+    ``whole_notes`` the note keeps a third of the width, so that notes
+    printed whole wrap into a few lines rather than many."""
     fm = fonts.metrics(size)
     fb = fonts.metrics(size, bold=True)
     pad = fm.averageCharWidth() * 1.2
@@ -294,7 +317,8 @@ def _table_columns(
     # the note column needs room only for the notes there are; long notes are
     # cut first, down to a stub that still shows how the note begins
     note_need = full(8, [r.note for r in rows])
-    note_floor = min(note_need, width * (0.10 if compact else 0.15))
+    share = 0.33 if whole_notes else (0.10 if compact else 0.15)
+    note_floor = min(note_need, width * share)
     floors: list[tuple[int, float]] = []
     if not compact:
         floors += [
@@ -403,11 +427,10 @@ def _compose(
     c.y = diagram_bottom + gap
 
     # -- covariate table -------------------------------------------------------------
-    c.y += c.line("Covariates", page.left(), body, bold=True, kind="heading")
-    c.paragraph(content.table_caption, body, italic=True, grey=True, max_lines=2)
-    c.y += small_gap
     compact = note_lines == 0
-    widths = _table_columns(content, fonts, page.width(), body, compact)
+    widths = _table_columns(
+        content, fonts, page.width(), body, compact, whole_notes=note_lines > _NOTE_WHOLE
+    )
     if widths is None:  # the table cannot be this wide at this size
         plan.height = float("inf")
         return plan
@@ -415,6 +438,20 @@ def _compose(
     for w in widths[:-1]:
         xs.append(xs[-1] + w)
     pad = fm.averageCharWidth() * 0.6
+    rows = list(content.covariates)
+    if row_cap is not None and row_cap < len(rows):
+        plan.hidden_rows = len(rows) - row_cap
+        rows = rows[:row_cap]
+    note_width = widths[-1] - 2 * pad + 0.5
+    plan.cut_notes = [
+        r.label for r in rows if len(wrap_text(r.note, fm, note_width)) > max(1, note_lines)
+    ]
+    caption = content.table_caption
+    if plan.cut_notes:
+        caption += f" Notes ending in {_ELLIPSIS} are printed whole in the appendix (page 2)."
+    c.y += c.line("Covariates", page.left(), body, bold=True, kind="heading")
+    c.paragraph(caption, body, italic=True, grey=True, max_lines=3)
+    c.y += small_gap
     head_top = c.y
     head_h = 0.0
     for i, header in enumerate(content.covariate_headers):
@@ -427,10 +464,6 @@ def _compose(
     head_h += 2 * small_gap
     plan.shades.append(Shade(QRectF(page.left(), head_top, page.width(), head_h), 0))
     c.y = head_top + head_h
-    rows = list(content.covariates)
-    if row_cap is not None and row_cap < len(rows):
-        plan.hidden_rows = len(rows) - row_cap
-        rows = rows[:row_cap]
     wrap = 1 if compact else 2
     row_pad = small_gap * (0.25 if compact else 1.0)
     for index, row in enumerate(rows):
@@ -481,6 +514,7 @@ def _compose(
     for heading, lines, what in (
         ("Collinearity (groups and the member kept)", content.collinearity, "groups"),
         ("Where the diagram and the data disagree", content.disagreements, "findings"),
+        ("Residual confounding (curved continuous confounders)", content.residual, "checks"),
         ("Effect modification (not confounding)", content.modification, "modifiers"),
         ("Notes from the analysis", content.messages, "notes"),
     ):
@@ -519,6 +553,13 @@ def plan_page(content: RationaleContent, page: QRectF, device: QPaintDevice) -> 
     """
     height = page.height()
     low, high = _DIAGRAM_SHARE[-1], _DIAGRAM_SHARE[0]
+    # the notes are the analyst's justification: whole, at any body size that holds them
+    # (first in the note column's usual width, then in a wider one)
+    for body in _BODY_SIZES:
+        for whole in (_NOTE_WHOLE, _NOTE_WHOLE + 1):
+            attempt = _compose(content, page, device, body, low, whole, None, None)
+            if attempt.height <= height:
+                return _grow(content, page, device, attempt, high)
     for body in _BODY_SIZES:
         # labels, roles and verdicts keep two lines until the 7 pt floor
         for notes in _NOTE_LINES[:-1]:
@@ -554,3 +595,36 @@ def _grow(
         content, page, device, plan.body_pt, share, plan.note_lines, plan.capped_findings, None
     )
     return grown if grown.height <= page.height() else plan
+
+
+def plan_appendix(
+    content: RationaleContent, page: QRectF, device: QPaintDevice, body: float
+) -> list[PagePlan]:
+    """The appendix: every covariate's note in full, over as many pages as
+    they need (used when page one had to shorten notes)."""
+    fonts = Fonts(body, device)
+    fm = fonts.metrics(body)
+    plans: list[PagePlan] = []
+
+    def new_page() -> _Composer:
+        plan = PagePlan(body_pt=body, note_lines=_NOTE_WHOLE)
+        plans.append(plan)
+        c = _Composer(plan, fonts, page.left(), page.top(), page.width())
+        title = "Appendix — the analyst's notes in full (continued from page 1)"
+        c.y += c.line(title.upper(), page.left(), body, bold=True, kind="heading", grey=True)
+        c.y += fm.lineSpacing() * 0.5
+        return c
+
+    c = new_page()
+    for row in content.covariates:
+        if not row.note:
+            continue
+        text = f"{row.key}. {row.label}: {row.note}"
+        need = len(wrap_text(text, fm, page.width())) * fm.lineSpacing()
+        if c.y + need > page.bottom() and c.plan.items[1:]:
+            c = new_page()
+        c.paragraph(text, body)
+        c.y += fm.lineSpacing() * 0.4
+    for plan in plans:
+        plan.height = page.height()
+    return plans

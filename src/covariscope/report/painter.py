@@ -27,6 +27,7 @@ from PySide6.QtGui import (
     QPagedPaintDevice,
     QPageLayout,
     QPageSize,
+    QPaintDevice,
     QPainter,
     QPdfWriter,
     QPen,
@@ -35,7 +36,7 @@ from PySide6.QtGui import (
 from covariscope import __version__
 from covariscope.errors import CovariscopeError
 from covariscope.model.files import temporary_prefix
-from covariscope.report.layout import Fonts, PagePlan, TextItem, plan_page
+from covariscope.report.layout import Fonts, PagePlan, TextItem, plan_appendix, plan_page
 from covariscope.report.sketch import draw_sketch
 from covariscope.views.report_content import RationaleContent, build_content
 
@@ -65,6 +66,8 @@ class PaintRecord:
     page_rect: QRectF
     plan: PagePlan
     items: list[TextItem] = field(default_factory=list)
+    #: the appendix pages (the notes in full), when page one shortened notes
+    appendix: list[PagePlan] = field(default_factory=list)
 
 
 def _application() -> None:
@@ -139,11 +142,26 @@ def _paint_on(
     if not painter.begin(device):
         raise CovariscopeError("The page could not be opened for drawing (is the file writable?).")
     try:
-        return paint_rationale(
-            painter, QRectF(0, 0, paint.width(), paint.height()), content, diagram_drawer
-        )
+        rect = QRectF(0, 0, paint.width(), paint.height())
+        record = paint_rationale(painter, rect, content, diagram_drawer)
+        if record.plan.cut_notes:
+            record.appendix = plan_appendix(content, rect, device, record.plan.body_pt)
+            for plan in record.appendix:
+                device.newPage()
+                _draw_text(painter, plan, device)
+        return record
     finally:
         painter.end()
+
+
+def _draw_text(painter: QPainter, plan: PagePlan, device: QPaintDevice) -> None:
+    """Draw a plan that holds only text (the appendix pages)."""
+    fonts = Fonts(plan.body_pt, device)
+    for item in plan.items:
+        font, metrics = fonts.get(item.size_pt, item.bold, item.italic)
+        painter.setFont(font)
+        painter.setPen(QColor(90, 90, 90) if item.grey else QColor(0, 0, 0))
+        painter.drawText(QPointF(item.rect.left(), item.rect.top() + metrics.ascent()), item.text)
 
 
 def _page_layout(page: str) -> QPageLayout:

@@ -1,33 +1,102 @@
-"""Data preparation for a study: bound columns, analytic sample, design.
+"""The data stages of the pipeline: bindings → profiles → analytic sample → design.
 
-Turns a project's bindings and a loaded table into the analytic sample and
-the evidence engine; every problem becomes a plain message and the study
-falls back to the diagram alone.
+Each stage returns a frozen result and is cached under exactly what it
+reads: the data's digest and the columns, types and reference levels it
+uses.  A column is read from the source only when its own key is new
+(``missing`` and ``term`` count one pass over one column each), so binding
+a new column reads that column and no other, and changing a column's type
+or reference level recodes that column's terms only.  Every problem
+becomes a plain message and the study falls back to the diagram alone.
 """
 
 from __future__ import annotations
 
-from collections.abc import Mapping
+import hashlib
+from collections.abc import Callable, Mapping
+from dataclasses import dataclass
 from typing import Any
 
-from covariscope.analysis.design import TermSpec
-from covariscope.analysis.evidence import EvidenceEngine
-from covariscope.analysis.graph import DiagramAnalysis
-from covariscope.data.profile import ColumnProfile
-from covariscope.data.sample import AnalyticSample
-from covariscope.data.sources.base import DataSource, DesignRequest
-from covariscope.data.sources.coding import ColumnUse, term_spec
+import numpy as np
+import pandas as pd
+
+from covariscope.analysis.design import (
+    TERM_TYPES,
+    CodedTerm,
+    Design,
+    DesignBuilder,
+    Outcomes,
+    TermSpec,
+    code_column,
+    outcome_values,
+    spline_columns,
+)
+from covariscope.analysis.evidence import EvidenceCancelledError
+from covariscope.analysis.linear import LinearSummary, linear_summary
+from covariscope.data.coerce import coerce_column
+from covariscope.data.profile import ColumnProfile, check_settings_columns, profile_column
+from covariscope.data.sample import CompleteCases, complete_cases
 from covariscope.model.project import Project
+from covariscope.study.cache import StudyCache
 from covariscope.study.degenerate import check_question_columns, usable_covariates
+from covariscope.study.source import ColumnSource, TableSource
 
-__all__ = ["prepare_evidence"]
+__all__ = [
+    "Bindings",
+    "Prepared",
+    "Run",
+    "column_profile",
+    "prepare_design",
+    "read_bindings",
+    "sufficient_statistics",
+    "table_profiles",
+]
 
-_TERM_TYPES = ("continuous", "binary", "count", "categorical")
+_OUTCOME_KEYS = ("outcome", "time", "event", "offset")
 
 
-def _outcome_columns(
+@dataclass
+class Run:
+    """What one run of the pipeline carries through its stages (not a result)."""
+
+    cache: StudyCache
+    trace: list[str]
+    cancel: Callable[[], bool] | None = None
+
+    def check(self) -> None:
+        """Stop here when the run was cancelled (a newer edit came in)."""
+        if self.cancel is not None and self.cancel():
+            raise EvidenceCancelledError("The analysis was cancelled.")
+
+    def get(self, stage: str, key: Any, compute: Callable[[], Any]) -> Any:
+        """A cached stage result (see :meth:`StudyCache.get`)."""
+        self.check()
+        return self.cache.get(stage, key, compute, trace=self.trace)
+
+
+@dataclass(frozen=True)
+class Bindings:
+    """Which columns the models read, from the project alone (and the column names).
+
+    ``ready`` is False when the models cannot run (an unbound exposure or
+    outcome, a missing column); ``messages`` then says why.
+    """
+
+    ready: bool
+    exposure_column: str
+    outcome_columns: tuple[tuple[str, str | None], ...]
+    covariates: tuple[tuple[str, str], ...]
+    messages: tuple[str, ...]
+
+    @property
+    def outcomes(self) -> dict[str, str | None]:
+        """Outcome, time, event and offset columns (None where unused)."""
+        return dict(self.outcome_columns)
+
+
+def outcome_columns(
     project: Project, family: str, outcome_column: str | None
 ) -> dict[str, str | None]:
+    """The outcome, time, event and offset columns the family reads (a Cox model has no outcome column)."""
     chosen = dict(project.analysis.family_columns.get(family, {}))
     cols: dict[str, str | None] = {
         "outcome": chosen.get("outcome", outcome_column),
@@ -40,25 +109,24 @@ def _outcome_columns(
     return cols
 
 
-def prepare_evidence(
-    project: Project,
-    source: DataSource,
-    family: str,
-    exposure: str,
-    outcome: str,
-    analysis: DiagramAnalysis,
-    messages: list[str],
-) -> tuple[AnalyticSample | None, EvidenceEngine | None, list[str]]:
-    """Analytic sample and evidence engine, or (None, None, ...) with a message."""
+def _not_ready(messages: list[str]) -> Bindings:
+    return Bindings(False, "", (), (), tuple(messages))
+
+
+def read_bindings(
+    project: Project, family: str, exposure: str, outcome: str, source: ColumnSource
+) -> Bindings:
+    """The bound columns of a project for a family, with plain messages for what is missing."""
     diagram = project.diagram
+    messages: list[str] = []
     x_col = diagram.node(exposure).column
     y_col = diagram.node(outcome).column
     if x_col is None:
         messages.append(
             f'The exposure "{diagram.node(exposure).label}" is not bound to a data column, so only the diagram is analysed; bind it to a column.'
         )
-        return None, None, []
-    cols = _outcome_columns(project, family, y_col)
+        return _not_ready(messages)
+    cols = outcome_columns(project, family, y_col)
     if cols["offset"] is not None and family != "risk_ratio":
         messages.append(
             f'Only the risk/rate-ratio family takes an offset; the offset column "{cols["offset"]}" '
@@ -71,111 +139,445 @@ def prepare_evidence(
             "The Cox family needs a time and an event column; set them for the project "
             "(analysis.family_columns.cox), or choose another family. Only the diagram is analysed."
         )
-        return None, None, []
+        return _not_ready(messages)
     if family != "cox" and cols["outcome"] is None:
         messages.append(
             f'The outcome "{diagram.node(outcome).label}" is not bound to a data column, so only the diagram is analysed; bind it to a column.'
         )
-        return None, None, []
-    bound: list[str] = []
+        return _not_ready(messages)
+    bound: list[tuple[str, str]] = []
     for node in diagram.covariates:
         if not node.measured or node.column is None:
             continue
-        if node.column not in source.columns:
+        if not source.has_column(node.column):
             messages.append(
                 f'"{node.label}" is bound to the column "{node.column}", which is not in the data; it is left out.'
             )
             continue
-        bound.append(node.id)
-    outcome_cols = [c for c in (cols["outcome"], cols["time"], cols["event"], cols["offset"]) if c]
-    needed = list(
-        dict.fromkeys([*outcome_cols, x_col, *(diagram.node(b).column or "" for b in bound)])
-    )
-    missing_cols = [c for c in needed if c not in source.columns]
+        bound.append((node.id, node.column))
+    outcome_cols = [c for c in cols.values() if c]
+    needed = dict.fromkeys([*outcome_cols, x_col, *(c for _, c in bound)])
+    missing_cols = [c for c in needed if not source.has_column(c)]
     if missing_cols:
         messages.append(
             f"The data have no column {', '.join(map(repr, missing_cols))}; only the diagram is analysed. "
             "Bind existing columns."
         )
-        return None, None, []
-    profiles = source.profiles(
-        tuple(needed), project.analysis.column_types, project.analysis.reference_levels
+        return _not_ready(messages)
+    return Bindings(True, x_col, tuple(cols.items()), tuple(bound), tuple(messages))
+
+
+@dataclass(frozen=True)
+class DesignSpec:
+    """What a design is built from; two designs that differ only in ``terms`` share their other models."""
+
+    rows: tuple[Any, ...]
+    family: str
+    exposure: str
+    exposure_spec: tuple[Any, ...]
+    outcome_spec: tuple[Any, ...]
+    terms: tuple[tuple[Any, ...], ...]
+
+    def shares_models_with(self, other: DesignSpec) -> bool:
+        """Same rows, family, exposure and outcome: fits of common terms carry over."""
+        return (self.rows, self.family, self.exposure, self.exposure_spec, self.outcome_spec) == (
+            other.rows,
+            other.family,
+            other.exposure,
+            other.exposure_spec,
+            other.outcome_spec,
+        )
+
+    def common_terms(self, other: DesignSpec) -> frozenset[str]:
+        """Covariates bound to the same column, type and reference level in both."""
+        return frozenset(t[0] for t in set(self.terms) & set(other.terms))
+
+
+@dataclass(frozen=True, eq=False)
+class Prepared:
+    """The data stages' result: the sample, the design and which covariates it holds."""
+
+    sample: CompleteCases
+    design: Design
+    bound: tuple[str, ...]
+    messages: tuple[str, ...]
+    #: (sample key, one name per design column: its column's spec and level)
+    identity: tuple[Any, ...]
+    #: What the design was built from: rows, family, exposure and outcome specs, term specs
+    spec: DesignSpec
+
+
+def _profile(run: Run, source: ColumnSource, column: str, project: Project) -> ColumnProfile:
+    a = project.analysis
+    return column_profile(
+        run.cache,
+        source,
+        column,
+        a.column_types.get(column),
+        a.reference_levels.get(column),
+        run.trace,
+        run.check,
     )
+
+
+def column_profile(
+    cache: StudyCache,
+    source: ColumnSource,
+    column: str,
+    kind: str | None,
+    reference: Any,
+    trace: list[str] | None = None,
+    check: Callable[[], None] | None = None,
+) -> ColumnProfile:
+    """One column's profile through the cache (the pipeline and the data panel share it)."""
+    if check is not None:
+        check()
+    profile: ColumnProfile = cache.get(
+        "profile",
+        (source.digest, column, kind, _hashable(reference)),
+        lambda: profile_column(
+            source.column(column),
+            override_type=kind,
+            reference=reference,
+            value_labels=source.value_labels(column),
+        ),
+        trace=trace,
+    )
+    return profile
+
+
+def table_profiles(
+    cache: StudyCache,
+    source: TableSource,
+    types: Mapping[str, str],
+    references: Mapping[str, Any],
+    cancel: Callable[[], bool] | None = None,
+) -> dict[str, ColumnProfile]:
+    """Every column's profile, each from the cache when its settings did not change.
+
+    Raises
+    ------
+    DataError
+        A setting names a column the data lack, or a type or reference
+        level does not fit its column.
+    EvidenceCancelledError
+        ``cancel`` said stop (a newer request came in).
+    """
+    names = source.column_names
+    check_settings_columns(names, types, references)
+    run = Run(cache, [], cancel)
+    return {
+        c: column_profile(cache, source, c, types.get(c), references.get(c), None, run.check)
+        for c in names
+    }
+
+
+def _hashable(value: Any) -> Any:
+    try:
+        hash(value)
+    except TypeError:
+        return repr(value)
+    return value
+
+
+def _sample(run: Run, source: ColumnSource, columns: tuple[str, ...]) -> CompleteCases:
+    masks = {c: _missing(run, source, c) for c in columns}
+    sample: CompleteCases = run.get(
+        "sample", (source.digest, columns), lambda: complete_cases(masks, source.rows)
+    )
+    return sample
+
+
+def _missing(run: Run, source: ColumnSource, column: str) -> np.ndarray:
+    mask: np.ndarray = run.get("missing", (source.digest, column), lambda: source.missing(column))
+    return mask
+
+
+def rows_key(source: ColumnSource, sample: CompleteCases) -> tuple[Any, ...]:
+    """Names the sample's rows: the data and the chosen columns that miss any value.
+
+    Columns without a missing value drop no row, so binding one keeps the
+    rows (and every coded column of them) as they were.
+    """
+    return (source.digest, tuple(sorted(c for c, n in sample.missing_by_column.items() if n)))
+
+
+def _rows(source: ColumnSource, sample: CompleteCases, column: str) -> pd.Series:
+    series = source.column(column)
+    return series if sample.complete else series[sample.keep]
+
+
+def _spec_of(column: str, profile: ColumnProfile, knots: int = 0) -> tuple[str, Any]:
+    # A numeric term has no reference level: its slot holds its spline knots (0: linear).
+    if profile.type in ("continuous", "count"):
+        return profile.type, int(knots)
+    return profile.type, _hashable(profile.reference)
+
+
+def _code(
+    source: ColumnSource, sample: CompleteCases, column: str, kind: str, ref: Any, what: str
+) -> CodedTerm:
+    series = _rows(source, sample, column)
+    if kind in ("continuous", "count"):
+        coded = code_column(coerce_column(series, kind), TermSpec(column, kind), what)
+        if not ref:
+            return coded
+        raw = coded.values[:, 0]
+        names, vectors = spline_columns(raw, TermSpec(column, kind, knots=int(ref)), what)
+        return CodedTerm(tuple(names), np.column_stack(vectors), raw=raw)
+    if kind == "binary":
+        coded = coerce_column(series, "binary", ref)
+        return code_column(coded, TermSpec(column, "binary", 0.0), what)
+    return code_column(series, TermSpec(column, "categorical", ref), what)
+
+
+def _outcomes(
+    source: ColumnSource,
+    sample: CompleteCases,
+    family: str,
+    cols: Mapping[str, str | None],
+    profiles: Mapping[str, ColumnProfile],
+) -> Outcomes:
+    data: dict[str, pd.Series] = {}
+    for key, col in cols.items():
+        if col is None or col in data:
+            continue
+        series = _rows(source, sample, col)
+        kind = profiles[col].type
+        if key in ("outcome", "event") and kind == "binary":
+            series = coerce_column(series, "binary", profiles[col].reference)
+        elif key in ("time", "offset") or (key == "outcome" and kind in ("continuous", "count")):
+            series = coerce_column(series, "continuous")
+        data[col] = series
+    return outcome_values(data, family, cols)
+
+
+def prepare_design(
+    run: Run,
+    source: ColumnSource,
+    project: Project,
+    family: str,
+    exposure: str,
+    bindings: Bindings,
+) -> Prepared:
+    """Profiles, analytic sample and design for the bound columns, each from the cache when it can.
+
+    Raises
+    ------
+    DataError
+        A column's type or reference cannot be used, no row is complete, or
+        the design cannot be built; the study then analyses the diagram alone.
+    """
+    messages: list[str] = []
+    cols = bindings.outcomes
+    outcome_cols = [c for c in cols.values() if c]
+    needed = list(
+        dict.fromkeys(
+            [*outcome_cols, bindings.exposure_column, *(c for _, c in bindings.covariates)]
+        )
+    )
+    profiles = {c: _profile(run, source, c, project) for c in needed}
+    diagram = project.diagram
+    x_col = bindings.exposure_column
     check_question_columns(diagram, exposure, x_col, cols, profiles, family)
     taken = {x_col: "exposure"} | {c: k for k, c in cols.items() if c}
-    bound = usable_covariates(diagram, bound, taken, profiles, messages)
-    usable: list[str] = []
-    for b in bound:
-        column = diagram.node(b).column
-        assert column is not None
+    kept = set(
+        usable_covariates(diagram, [n for n, _ in bindings.covariates], taken, profiles, messages)
+    )
+    usable: list[tuple[str, str]] = []
+    labels = {n.id: n.label for n in diagram.nodes}
+    for node, column in bindings.covariates:
+        if node not in kept:
+            continue
         kind = profiles[column].type
-        if kind not in _TERM_TYPES:
+        if kind not in TERM_TYPES:
             messages.append(
-                f'"{diagram.node(b).label}" is bound to "{column}", a {kind} column, which a model cannot use; '
+                f'"{labels[node]}" is bound to "{column}", a {kind} column, which a model cannot use; '
                 "it is left out (set its type if this is wrong)."
             )
             continue
-        usable.append(b)
-    bound = usable
-    needed = list(
-        dict.fromkeys([*outcome_cols, x_col, *(diagram.node(b).column or "" for b in bound)])
+        usable.append((node, column))
+    columns = tuple(
+        dict.fromkeys([*outcome_cols, bindings.exposure_column, *(c for _, c in usable)])
     )
-    sample = source.analytic_sample(tuple(needed))
-    request = _request(project, profiles, family, exposure, x_col, bound, cols)
-    design = source.design(request, messages)
-    return sample, EvidenceEngine(design, family), bound
+    sample = _sample(run, source, columns)
+    knots = {c: k for c, k in project.analysis.spline_knots.items() if k}
+    spec = _spec(source, sample, family, exposure, bindings, usable, profiles, knots)
+    design = _design(run, source, sample, spec, bindings, usable, profiles, knots)
+    return Prepared(
+        sample,
+        design,
+        tuple(n for n, _ in usable),
+        tuple(messages),
+        _identity(source, sample, design, bindings, usable, profiles, knots),
+        spec,
+    )
 
 
-def _use(column: str, kind: str, reference: Any) -> ColumnUse:
-    if kind in ("continuous", "count"):
-        return ColumnUse(column, kind)
-    if kind == "binary":
-        return ColumnUse(column, "binary", reference)
-    return ColumnUse(column, "categorical", reference)
-
-
-def _request(
-    project: Project,
-    profiles: Mapping[str, ColumnProfile],
+def _spec(
+    source: ColumnSource,
+    sample: CompleteCases,
     family: str,
     exposure: str,
-    x_col: str,
-    bound: list[str],
-    cols: dict[str, str | None],
-) -> DesignRequest:
-    """How each column is coerced and which term it makes (the same for every source)."""
-    diagram = project.diagram
-    uses: dict[str, ColumnUse] = {}
-    specs: dict[str, TermSpec] = {}
-    for b in bound:
-        column = diagram.node(b).column
-        assert column is not None
-        uses[column] = _use(column, profiles[column].type, profiles[column].reference)
-        specs[b] = term_spec(uses[column])
-    uses[x_col] = _use(x_col, profiles[x_col].type, profiles[x_col].reference)
-    x_spec = term_spec(uses[x_col])
-    for key in ("outcome", "event"):
-        col = cols[key]
-        if col is not None and profiles[col].type == "binary":
-            uses[col] = ColumnUse(col, "binary", profiles[col].reference)
-    for key in ("time", "offset"):
-        col = cols[key]
-        if col is not None:
-            uses[col] = ColumnUse(col, "continuous")
-    out = cols["outcome"]
-    if out is not None and profiles[out].type in ("continuous", "count"):
-        uses[out] = ColumnUse(out, "continuous")
-    for col in (out, cols["time"], cols["event"], cols["offset"]):
-        if col is not None and col not in uses:
-            uses[col] = ColumnUse(col, "raw")
-    return DesignRequest(
-        uses=tuple(uses.values()),
-        exposure=x_spec,
-        covariates=specs,
+    bindings: Bindings,
+    usable: list[tuple[str, str]],
+    profiles: Mapping[str, ColumnProfile],
+    knots: Mapping[str, int],
+) -> DesignSpec:
+    x_col = bindings.exposure_column
+    return DesignSpec(
+        rows=rows_key(source, sample),
         family=family,
-        exposure_node=exposure,
-        outcome=out,
-        time=cols["time"],
-        event=cols["event"],
-        offset=cols["offset"],
+        exposure=exposure,
+        exposure_spec=(x_col, *_spec_of(x_col, profiles[x_col])),
+        outcome_spec=tuple(
+            (k, c, profiles[c].type if c else None) for k, c in bindings.outcome_columns
+        ),
+        terms=tuple(
+            (node, col, *_spec_of(col, profiles[col], knots.get(col, 0))) for node, col in usable
+        ),
     )
+
+
+def _identity(
+    source: ColumnSource,
+    sample: CompleteCases,
+    design: Design,
+    bindings: Bindings,
+    usable: list[tuple[str, str]],
+    profiles: Mapping[str, ColumnProfile],
+    knots: Mapping[str, int],
+) -> tuple[Any, ...]:
+    x_col = bindings.exposure_column
+    ids: list[Any] = [
+        (("exposure", x_col, *_spec_of(x_col, profiles[x_col])), design.exposure_name)
+    ]
+    for node, col in usable:
+        spec = (col, *_spec_of(col, profiles[col], knots.get(col, 0)))
+        ids += [(spec, name) for name in design.blocks[node].columns]
+    if design.y is not None:
+        y_spec = tuple((k, c, profiles[c].type if c else None) for k, c in bindings.outcome_columns)
+        ids.append((("outcome", y_spec), ""))
+    return (rows_key(source, sample), tuple(ids))
+
+
+def _design(
+    run: Run,
+    source: ColumnSource,
+    sample: CompleteCases,
+    spec: DesignSpec,
+    bindings: Bindings,
+    usable: list[tuple[str, str]],
+    profiles: Mapping[str, ColumnProfile],
+    knots: Mapping[str, int],
+) -> Design:
+    base = spec.rows
+    family, exposure = spec.family, spec.exposure
+    x_spec, specs, y_spec = spec.exposure_spec, spec.terms, spec.outcome_spec
+    cols = bindings.outcomes
+    key = (base, family, exposure, x_spec, specs, y_spec)
+
+    def build() -> Design:
+        def term(col: str, kind: str, ref: Any, what: str) -> CodedTerm:
+            t: CodedTerm = run.get(
+                "term", (base, col, kind, ref), lambda: _code(source, sample, col, kind, ref, what)
+            )
+            return t
+
+        outcomes: Outcomes = run.get(
+            "outcomes",
+            (base, family, y_spec),
+            lambda: _outcomes(source, sample, family, cols, profiles),
+        )
+        x_col, x_kind, x_ref = x_spec
+        x_term = term(x_col, x_kind, x_ref, "exposure")
+        width = 1 + sum(_width(profiles[col], knots.get(col, 0)) for _, col in usable)
+        builder = DesignBuilder(sample.used, width=width, outcome=outcomes.y is not None)
+        builder.add_exposure(x_term)
+        written: list[tuple[tuple[Any, ...], str]] = []
+        for node, col, kind, ref in specs:
+            builder.add(node, col, term(col, kind, ref, f"covariate {node}"))
+            written.append(((base, col, kind, ref), node))
+        digest = hashlib.sha256(repr(key).encode()).hexdigest()
+        design = builder.build(family=family, exposure_node=exposure, outcomes=outcomes, key=digest)
+        # The cached terms become views of the design: one copy of the numbers.
+        for term_key, node in written:
+            block = design.blocks[node]
+            run.cache.replace(
+                "term", term_key, CodedTerm(block.columns, block.values, block.levels)
+            )
+        return design
+
+    design: Design = run.get("design", key, build)
+    return design
+
+
+def _width(profile: ColumnProfile, knots: int = 0) -> int:
+    # The sample holds no level the file lacks: the file's levels bound the dummies.
+    if knots and profile.type in ("continuous", "count"):
+        return max(1, knots - 1) + 2  # bounds the spline basis's columns
+    if profile.type == "categorical":
+        return max(1, len(profile.levels) - 1)
+    return 1
+
+
+# -- sufficient statistics ------------------------------------------------------------
+
+
+def sufficient_statistics(run: Run, design: Design, identity: tuple[Any, ...]) -> LinearSummary:
+    """Means and co-moments of the design's columns, extended from an earlier design's.
+
+    ``identity`` names each design column (column, type, reference, level);
+    a summary of an earlier design of the same sample lends every entry
+    whose two columns it shares, so a new column costs one pass over the
+    rows for its own cross-products, not the whole matrix.
+    """
+    sample_key = identity[0]
+
+    def compute() -> tuple[tuple[Any, ...], LinearSummary]:
+        earlier = [v for _, v in run.cache.entries("summary") if v[0][0] == sample_key]
+        if earlier:
+            return identity, _extend(design, identity, *earlier[-1])
+        run.trace.append("rows")
+        run.cache.record("rows", False)
+        return identity, linear_summary(design.values)
+
+    entry: tuple[tuple[Any, ...], LinearSummary] = run.get("summary", (design.key,), compute)
+    return entry[1]
+
+
+def _extend(
+    design: Design, identity: tuple[Any, ...], old_identity: tuple[Any, ...], old: LinearSummary
+) -> LinearSummary:
+    ids = identity[1]
+    where = {c: i for i, c in enumerate(old_identity[1])}
+    q = len(ids)
+    mean = np.empty(q)
+    comoment = np.empty((q, q))
+    known = [j for j, c in enumerate(ids) if c in where]
+    fresh = [j for j, c in enumerate(ids) if c not in where]
+    pos = [where[ids[j]] for j in known]
+    mean[known] = old.mean[pos]
+    comoment[np.ix_(known, known)] = old.comoment[np.ix_(pos, pos)]
+    values = design.values
+    for j in fresh:
+        mean[j] = float(values[:, j].mean())
+    for j in fresh:
+        centred = values[:, j] - mean[j]
+        row = (
+            (values - mean).T @ centred
+            if q * len(values) < 4_000_000
+            else _chunked(values, mean, centred)
+        )
+        comoment[j, :] = row
+        comoment[:, j] = row
+    return LinearSummary(design.n, mean, comoment)
+
+
+def _chunked(
+    values: np.ndarray, mean: np.ndarray, centred: np.ndarray, rows: int = 65536
+) -> np.ndarray:
+    out = np.zeros(values.shape[1])
+    for s in range(0, len(values), rows):
+        out += (values[s : s + rows] - mean).T @ centred[s : s + rows]
+    return out

@@ -12,8 +12,9 @@ from covariscope.analysis.fits import Fit
 from covariscope.analysis.graph import DiagramAnalysis
 from covariscope.analysis.joint_region import CollinearityPicture
 from covariscope.analysis.modification import Modification
+from covariscope.analysis.splines import ResidualCheck
 from covariscope.analysis.verdicts import Verdict
-from covariscope.data.sample import AnalyticSample
+from covariscope.data.sample import AnalyticSample, CompleteCases
 
 __all__ = ["ESTIMATE_KEYS", "Progress", "StudyResult"]
 
@@ -24,7 +25,7 @@ Progress = Callable[[float, str], None]
 
 @dataclass(frozen=True)
 class StudyResult:
-    """Everything Covariscope says about one project (see STUDY_API)."""
+    """Everything Covariscope says about one project: what :func:`~covariscope.study.run_study` returns."""
 
     exposure: str
     outcome: str
@@ -32,7 +33,7 @@ class StudyResult:
     effect_measure: str
     diagram: DiagramAnalysis
     proposed: tuple[str, ...]
-    sample: AnalyticSample | None
+    sample: CompleteCases | AnalyticSample | None
     evidence: EvidenceTable | None
     verdicts: dict[str, Verdict]
     recommended: tuple[str, ...]
@@ -54,6 +55,14 @@ class StudyResult:
     #: effect modification of the exposure's effect by each candidate, in the
     #: recommended model (not confounding; changes no verdict)
     modification: dict[str, Modification] = field(default_factory=dict)
+    #: continuous confounders of the recommended model, linear against a spline
+    residual_confounding: dict[str, ResidualCheck] = field(default_factory=dict)
+    #: The stages this run computed (the rest came from the cache), in order.
+    recomputed: tuple[str, ...] = ()
+    #: Models this run fitted (the rest came from the cache).
+    models_fitted: int = 0
+    #: Wall-clock seconds this run took.
+    seconds: float = 0.0
 
     def name(self, node: str) -> str:
         """The label prose uses for a node (a measure group by its members' labels)."""

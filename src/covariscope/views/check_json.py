@@ -216,6 +216,16 @@ def study_to_json(result: StudyResult) -> dict[str, Any]:
     out["thresholds"] = dict(result.thresholds)
     out["collinearity"] = collinearity_json(ev.collinearity) if ev is not None else None
     out["modification"] = {c: _modification_json(m) for c, m in result.modification.items()}
+    out["residual_confounding"] = {
+        c: {
+            "linear": r.linear,
+            "spline": r.spline,
+            "change_pct": r.change_pct,
+            "knots": r.knots,
+            "flagged": r.flagged,
+        }
+        for c, r in result.residual_confounding.items()
+    }
     out["disagreements"] = list(result.disagreements)
     out["messages"] = list(result.messages)
     out["diagram_checks"] = _checks_json(result)

@@ -16,6 +16,8 @@ from covariscope.analysis.collinearity import CollinearityReport
 from covariscope.analysis.fits import Fit
 from covariscope.analysis.verdicts import format_set
 from covariscope.study.result import ESTIMATE_KEYS, StudyResult
+from covariscope.views.modification import flagged_lines
+from covariscope.views.residual import flagged_residual_lines
 from covariscope.vocabulary import (
     CAUTIONS,
     RATIO_FAMILIES,
@@ -185,6 +187,20 @@ def format_study_text(result: StudyResult) -> str:
         lines.append("Where diagram and data disagree:")
         lines += [f"  - {d}" for d in result.disagreements]
         lines.append("")
+    for heading, found in (
+        (
+            "Residual confounding (curved continuous confounders):",
+            flagged_residual_lines(result.residual_confounding, result.names),
+        ),
+        (
+            "Effect modification (not confounding):",
+            flagged_lines(result.modification, result.names),
+        ),
+    ):
+        if found:
+            lines.append(heading)
+            lines += [f"  - {line}" for line in found]
+            lines.append("")
     lines.append("Cautions:")
     lines += [f"  - {m}" for m in (*result.messages, *CAUTIONS)]
     return "\n".join(lines) + "\n"

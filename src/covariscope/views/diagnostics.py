@@ -18,6 +18,7 @@ from covariscope.views.format import DASH, is_number, number, percent
 from covariscope.views.joint_picture import PictureView, picture_views
 from covariscope.views.modification import ModificationView, modification_view
 from covariscope.views.outcome_settings import outcome_column_in_use
+from covariscope.views.residual import residual_figures
 from covariscope.views.review import change_value, role_words
 from covariscope.vocabulary import CAUTIONS
 
@@ -73,6 +74,8 @@ class NodeDiagnostics:
     pictures: tuple[PictureView, ...] = ()
     #: the exposure's effect across the covariate's levels (effect modification)
     modification: ModificationView | None = None
+    #: the covariate's form, knots of its spline (0: linear); None when it is not continuous
+    knots: int | None = None
 
 
 @dataclass(frozen=True)
@@ -245,6 +248,10 @@ def node_diagnostics(
             figures += condition_rows(collinearity, node_id, name)
         figures.append((f"VIF of the exposure in crude + {name}", number(vif_x)))
         figures += _own(name, getattr(ev, "own_coef", None), getattr(ev, "own_ci", None))
+        figures += residual_figures(
+            (getattr(result, "residual_confounding", None) or {}).get(node_id),
+            node.label or node_id,
+        )
         for name, comparison in (("adding", added), ("dropping", dropped)):
             parts = getattr(comparison, "se_ratio_parts", None)
             if parts:
@@ -271,6 +278,11 @@ def node_diagnostics(
         exposure_label=exposure.label if exposure else "",
         categorical=ctype in ("binary", "categorical"),
         numbers=numbers,
+        knots=(
+            project.analysis.spline_knots.get(node.column, 0)
+            if node.column and ctype in ("continuous", "count")
+            else None
+        ),
         pictures=picture_views(getattr(result, "pictures", ()) or (), node_id, labels),
         modification=modification_view(
             (getattr(result, "modification", None) or {}).get(node_id),
@@ -288,7 +300,8 @@ def condition_rows(report: Any, node_id: str, name: str) -> list[tuple[str, str]
     if report.condition_indices.size == 0:
         return []
     guide = f"guide {report.index_threshold:g}"
-    rows = [("Largest condition index, full model", f"{number(report.max_index)} ({guide})")]
+    largest = float(report.condition_indices[-1])  # ascending: the largest is last
+    rows = [("Largest condition index, full model", f"{number(largest)} ({guide})")]
     holding = [f for f in report.flagged if node_id in f.nodes]
     for f in holding:
         shares = ", ".join(

@@ -24,6 +24,7 @@ from typing import Any
 from covariscope import __version__
 from covariscope.analysis.claim_wording import SHORT_CAUTION, summary_line
 from covariscope.views.modification import flagged_lines
+from covariscope.views.residual import flagged_residual_lines
 from covariscope.views.review import change_value, role_words
 from covariscope.vocabulary import CAUTION_BRIEF, CAUTIONS, family_term
 
@@ -190,6 +191,8 @@ class RationaleContent:
     diagram_checks: str = ""
     #: one line per flagged modifier of the exposure's effect (not confounding)
     modification: tuple[str, ...] = ()
+    #: one line per continuous confounder whose spline moves the estimate past the guide
+    residual: tuple[str, ...] = ()
 
 
 def _get(obj: Any, name: str, default: Any = None) -> Any:
@@ -607,6 +610,9 @@ def build_content(result: Any, project: Any, *, today: _dt.date | None = None) -
         exposure=x_label,
         outcome=y_label,
         project_name=project_name,
+        residual=tuple(
+            flagged_residual_lines(_get(result, "residual_confounding", {}) or {}, label_of)
+        ),
         diagram_checks=_checks_line(result, label_of),
         modification=tuple(flagged_lines(_get(result, "modification", {}) or {}, label_of)),
     )

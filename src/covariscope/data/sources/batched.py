@@ -10,6 +10,7 @@ same rules as the in-memory path, so the numbers agree.
 from __future__ import annotations
 
 import dataclasses
+import functools
 import hashlib
 from abc import ABC, abstractmethod
 from collections.abc import Mapping
@@ -169,6 +170,16 @@ class BatchSource(ABC):
     def status(self) -> str:
         """The engine in use and the memory it holds, in a few words."""
 
+    def count_rows(self, columns: tuple[str, ...], tracked: tuple[str, ...]) -> FrameCounts:
+        """Exact counts over every row (see :class:`FrameCounts`); an engine may count faster."""
+        counts: FrameCounts = self.reduce_frames(
+            columns,
+            partial(count_frame, columns=columns, tracked=tracked),
+            merge_counts,
+            complete=False,
+        )
+        return counts
+
     # -- the interface ---------------------------------------------------------------
     @property
     def sha256(self) -> str:
@@ -204,12 +215,7 @@ class BatchSource(ABC):
             progress(0.3, "Inferring column types on a sample of rows")
         inferred = profile_table(sample, {k: v for k, v in types.items() if k in columns})
         tracked = tuple(c for c in columns if inferred[c].type in LEVEL_TYPES)
-        counts: FrameCounts = self.reduce_frames(
-            columns,
-            partial(count_frame, columns=columns, tracked=tracked),
-            merge_counts,
-            complete=False,
-        )
+        counts = self.count_rows(columns, tracked)
         if progress is not None:
             progress(1.0, "Counted missing values and levels")
         return {c: self._exact(inferred[c], counts, references.get(c)) for c in columns}
@@ -229,7 +235,7 @@ class BatchSource(ABC):
         if profile.type in LEVEL_TYPES and found is not None:
             levels = sort_levels(found)
             changes["levels"] = levels
-            changes["distinct"] = len(levels)
+            changes["count_distinct"] = functools.partial(len, levels)
             if profile.type == "binary" and len(levels) > 2:
                 changes["type"] = changes["inferred_type"] = "categorical"
         levels = changes.get("levels", profile.levels)
@@ -241,9 +247,7 @@ class BatchSource(ABC):
         """Exact counts of what was lost; ``frame`` is a random sample of the complete rows."""
         chosen = tuple(dict.fromkeys(columns))
         check_known(self.columns, chosen)
-        counts: FrameCounts = self.reduce_frames(
-            chosen, partial(count_frame, columns=chosen, tracked=()), merge_counts, complete=False
-        )
+        counts = self.count_rows(chosen, ())
         if counts.complete == 0:
             raise no_rows_error(counts.rows, counts.missing)
         frame = self.sample_rows(chosen, PLOT_ROWS, complete=True)

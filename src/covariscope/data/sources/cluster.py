@@ -57,6 +57,9 @@ class DaskSource(BatchSource):
         local cluster of ``workers`` workers.
     processes : bool
         Local cluster only: workers as processes (True) or threads.
+    client : distributed.Client, optional
+        A client already connected (then ``scheduler`` and ``workers`` are unused
+        and :meth:`close` leaves it open).
     """
 
     engine = "dask"
@@ -69,6 +72,7 @@ class DaskSource(BatchSource):
         workers: int = 2,
         processes: bool = True,
         origin: Path | None = None,
+        client: Any = None,
     ) -> None:
         try:
             # Untyped packages: held as Any.
@@ -81,8 +85,11 @@ class DaskSource(BatchSource):
         self._dask = dask
         self._cluster: Any = None
         self._client: Any = None
+        self._own_client = client is None
         try:
-            if scheduler:
+            if client is not None:
+                self._client = client
+            elif scheduler:
                 self._client = Client(scheduler, timeout=30)
             else:
                 self._cluster = LocalCluster(
@@ -132,6 +139,7 @@ class DaskSource(BatchSource):
 
     def close(self) -> None:
         """Disconnect from the cluster (and stop the local one)."""
-        self._client.close()
+        if self._cluster is not None or self._own_client:
+            self._client.close()
         if self._cluster is not None:
             self._cluster.close()

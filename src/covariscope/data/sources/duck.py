@@ -15,8 +15,10 @@ from typing import Any
 
 import pandas as pd
 
-from covariscope.data.sources.batched import BatchSource
-from covariscope.data.sources.memuse import resident_text
+from covariscope.analysis.design import Design
+from covariscope.data.sources.base import DesignRequest
+from covariscope.data.sources.batched import BatchSource, FrameCounts
+from covariscope.data.sources.memuse import process_limit, resident_text
 from covariscope.errors import DataError
 
 __all__ = ["BATCH_ROWS", "DuckSource", "quote_name"]
@@ -61,6 +63,7 @@ class DuckSource(BatchSource):
     """
 
     engine = "duckdb"
+    quote = staticmethod(quote_name)
 
     def __init__(
         self,
@@ -79,6 +82,15 @@ class DuckSource(BatchSource):
                 "(pip install duckdb) or use the in-memory engine."
             ) from exc
         config: dict[str, Any] = {}
+        limit = process_limit()
+        if memory_limit is None and limit is not None:
+            # DuckDB sizes its buffers by the machine's memory; a limit placed on
+            # this process is the one that counts (a share: Python holds the rest).
+            memory_limit = f"{max(limit * 3 // 10, 64 * 2**20) // 2**20}MB"
+        elif memory_limit is None:
+            # Every query here streams; a small buffer pool keeps the scans' working
+            # set small (measured: the peak of a pass falls by a third at 512 MB).
+            memory_limit = "512MB"
         if memory_limit:
             config["memory_limit"] = memory_limit
         if threads:
@@ -86,6 +98,8 @@ class DuckSource(BatchSource):
         self._tmp = tempfile.TemporaryDirectory(prefix="covariscope-duckdb-")
         config["temp_directory"] = self._tmp.name
         self._con = duckdb.connect(":memory:", config=config)
+        # Its own progress bar would print into the output of `check --json`.
+        self._con.sql("SET enable_progress_bar = false")
         self.batch_rows = batch_rows
         self._from = self._table_function(path)
         try:
@@ -96,15 +110,22 @@ class DuckSource(BatchSource):
                 f"{path.name} could not be read by DuckDB ({exc}). Check the file, or load it "
                 "with the in-memory engine."
             ) from exc
-        super().__init__(origin or path, tuple(str(r[0]) for r in described), rows)
+        self.column_types = {str(r[0]): str(r[1]) for r in described}
+        if path.suffix.lower() not in (".parquet", ".pq"):
+            # The types found on the whole file are pinned: later queries skip that scan.
+            self._from = self._table_function(path, self.column_types)
+        super().__init__(origin or path, tuple(self.column_types), rows)
 
-    def _table_function(self, path: Path) -> str:
+    def _table_function(self, path: Path, types: dict[str, str] | None = None) -> str:
         if path.suffix.lower() in (".parquet", ".pq"):
             return f"read_parquet({_literal(str(path))})"
         nulls = ", ".join(_literal(v) for v in _NULLS)
-        return (
-            f"read_csv({_literal(str(path))}, header = true, sample_size = -1, nullstr = [{nulls}])"
-        )
+        if types is None:
+            detect = "sample_size = -1"
+        else:
+            listed = ", ".join(f"{_literal(k)}: {_literal(v)}" for k, v in types.items())
+            detect = f"columns = {{{listed}}}"
+        return f"read_csv({_literal(str(path))}, header = true, {detect}, nullstr = [{nulls}])"
 
     def _select(self, columns: tuple[str, ...], complete: bool) -> str:
         names = ", ".join(quote_name(c) for c in columns)
@@ -141,6 +162,20 @@ class DuckSource(BatchSource):
         if complete:
             frame = frame.dropna()
         return frame.reset_index(drop=True)
+
+    def design(self, request: DesignRequest, messages: list[str]) -> Design:
+        """The design coded in SQL where the columns allow (see :mod:`.duck_sql`)."""
+        from covariscope.data.sources.duck_sql import sql_design
+
+        needed = tuple(dict.fromkeys(u.column for u in request.uses))
+        found = sql_design(self, request, self.source_key(needed))
+        return found if found is not None else super().design(request, messages)
+
+    def count_rows(self, columns: tuple[str, ...], tracked: tuple[str, ...]) -> FrameCounts:
+        """The counts as one aggregate query (and one DISTINCT per level column)."""
+        from covariscope.data.sources.duck_sql import sql_counts
+
+        return sql_counts(self, columns, tracked)
 
     def status(self) -> str:
         return f"DuckDB: {self.rows:,} rows read where they lie; {resident_text()}"

@@ -5,7 +5,7 @@ from __future__ import annotations
 import sys
 from pathlib import Path
 
-__all__ = ["available_memory", "resident_bytes", "resident_text"]
+__all__ = ["available_memory", "process_limit", "resident_bytes", "resident_text"]
 
 
 def resident_bytes() -> int | None:
@@ -39,3 +39,20 @@ def available_memory() -> int | None:
         if line.startswith("MemAvailable:"):
             return int(line.split()[1]) * 1024
     return None
+
+
+def process_limit() -> int | None:
+    """The smaller of this process's address-space and data limits, in bytes (None: no limit)."""
+    try:
+        import resource
+    except ImportError:
+        return None
+    limits = []
+    for name in ("RLIMIT_AS", "RLIMIT_DATA"):
+        which = getattr(resource, name, None)
+        if which is None:
+            continue
+        soft = resource.getrlimit(which)[0]
+        if soft != resource.RLIM_INFINITY and soft > 0:
+            limits.append(int(soft))
+    return min(limits) if limits else None

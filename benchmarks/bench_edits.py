@@ -1,0 +1,245 @@
+"""What an edit costs once the study is warm, against a cold run (issue 9).
+
+Two generated studies go through the same pipeline object the window uses
+(one :class:`~covariscope.study.cache.StudyCache`, :func:`run_study`):
+a linear one (``--n-linear`` rows, 20 covariates) and a logistic one
+(``--n-logistic`` rows).  For each, the median time of a cold run (empty
+cache) and of each edit kind on the warm cache — node moved, covariate
+ticked, arrow added, column bound, family switched and back — and its ratio
+to the cold run.  "bind" is set beside one pass over the new column (its
+cross-products with the design's columns), the least any bind can cost.
+
+Then the whole process, as a user meets it: ``covariscope check --json`` on
+the linear study written as a CSV, against pandas alone reading that CSV
+(each in a fresh process), with the check's peak memory against the size of
+its design.
+
+The last line is JSON: medians in seconds, keys ``move``, ``tick``,
+``arrow``, ``bind``, ``family_back``, ``cold`` for ``linear_1e6`` and
+``logistic_2e5`` (the keys keep those names at any ``--n``), and the
+``check`` figures.
+
+Run: ``python benchmarks/bench_edits.py`` (full size: 1e6 and 2e5 rows);
+``--n-linear 100000 --n-logistic 20000`` for a quick look.
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import os
+import statistics
+import sys
+import tempfile
+import time
+from collections.abc import Callable
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+from covariscope.data.loading import LoadedTable, file_sha256
+from covariscope.model.project import Project, project_from_dict, save_project
+from covariscope.study import run_study
+from covariscope.study.cache import StudyCache
+
+K = 20  # covariates in the model
+SPARE = 6  # unbound covariates, bound one per "bind" repetition
+
+
+def make_frame(n: int, seed: int = 1) -> pd.DataFrame:
+    """x, y, y_bin, c0..c19 (two binary, one three-level), e0..e5 spare columns."""
+    rng = np.random.default_rng(seed)
+    cols: dict[str, Any] = {}
+    for j in range(K):
+        cols[f"c{j}"] = rng.normal(size=n)
+    cols["c0"] = (cols["c0"] > 0).astype(np.int64)
+    cols["c1"] = (cols["c1"] > 0.5).astype(np.int64)
+    cols["c2"] = np.array(["low", "mid", "high"])[rng.integers(0, 3, size=n)]
+    x = sum(0.2 * cols[f"c{j}"] for j in range(3, 9)) + 0.3 * cols["c0"] + rng.normal(size=n)
+    y = 1.0 * x + sum(0.3 * cols[f"c{j}"] for j in range(3, 14)) + rng.normal(size=n)
+    for j in range(SPARE):
+        cols[f"e{j}"] = rng.normal(size=n)
+    frame = pd.DataFrame({"x": x, "y": y, **cols})
+    frame["y_bin"] = (y > np.median(y)).astype(np.int64)
+    return frame
+
+
+def make_project(family: str) -> Project:
+    nodes = [("x", "exposure"), ("y", "outcome")]
+    nodes += [(f"c{j}", "covariate") for j in range(K)]
+    nodes += [(f"e{j}", "covariate") for j in range(SPARE)]
+    arrows = [("x", "y")]
+    arrows += [(f"c{j}", "x") for j in range(9)] + [(f"c{j}", "y") for j in range(3, 14)]
+    arrows += [(f"e{j}", "y") for j in range(SPARE)]
+    return project_from_dict(
+        {
+            "format": "covariscope-project",
+            "version": 1,
+            "diagram": {
+                "nodes": [
+                    {
+                        "id": i,
+                        "kind": k,
+                        "column": None if i.startswith("e") else i,
+                        "x": 40.0 * n,
+                        "y": 0.0,
+                    }
+                    for n, (i, k) in enumerate(nodes)
+                ],
+                "arrows": [{"from": a, "to": b} for a, b in arrows],
+            },
+            "analysis": {
+                "family": family,
+                "proposed": ["c0", "c3", "c4"],
+                "column_types": {"c0": "binary", "c1": "binary", "c2": "categorical"},
+                "family_columns": {"logistic": {"outcome": "y_bin"}},
+            },
+        }
+    )
+
+
+def _timed(fn: Callable[[], Any]) -> float:
+    t0 = time.perf_counter()
+    fn()
+    return time.perf_counter() - t0
+
+
+def edit_times(frame: pd.DataFrame, family: str, repeat: int) -> dict[str, Any]:
+    """Median seconds of a cold run and of each edit kind on a warm cache."""
+    table = LoadedTable(frame, Path("bench.csv"), "text", f"bench-{family}-{len(frame)}")
+    cold = [
+        _timed(lambda: run_study(make_project(family), table=table, cache=StudyCache()))
+        for _ in range(max(1, repeat // 2))
+    ]
+    project = make_project(family)
+    cache = StudyCache()
+    run_study(project, table=table, cache=cache)
+    d = project.diagram
+
+    def again() -> Any:
+        return run_study(project, table=table, cache=cache)
+
+    times: dict[str, list[float]] = {
+        k: [] for k in ("move", "tick", "arrow", "bind", "family_back")
+    }
+    one_pass: list[float] = []
+    other = "linear" if family == "logistic" else "logistic"
+    for r in range(repeat):
+        d.update_node("c5", x=float(r), y=float(-r))
+        times["move"].append(_timed(again))
+        ticked = f"c{6 + r % 8}"
+        project.analysis.proposed = sorted(set(project.analysis.proposed) ^ {ticked})
+        times["tick"].append(_timed(again))
+        d.add_arrow(f"c{14 + r % 6}", f"c{3 + r % 6}")
+        times["arrow"].append(_timed(again))
+        spare = f"e{r % SPARE}"
+        if d.node(spare).column is None:
+            one_pass.append(_one_pass(frame, spare, cache))
+            d.update_node(spare, column=spare)
+            times["bind"].append(_timed(again))
+        project.analysis.family = other
+        again()
+        project.analysis.family = family
+        times["family_back"].append(_timed(again))
+    out: dict[str, Any] = {"cold": statistics.median(cold)}
+    out.update({k: statistics.median(v) for k, v in times.items() if v})
+    out["one_pass_bind_column"] = statistics.median(one_pass)
+    return out
+
+
+def _one_pass(frame: pd.DataFrame, column: str, cache: StudyCache) -> float:
+    """One pass over a column: read it as numbers, mark missing values, cross it with the design."""
+    designs = [v for _, v in cache.entries("design")]
+    values = designs[-1].values
+
+    def work() -> None:
+        v = frame[column].to_numpy(dtype=np.float64)
+        np.isnan(v)
+        values.T @ (v[: len(values)] - v.mean())
+
+    return _timed(work)
+
+
+def check_process(frame: pd.DataFrame, folder: Path) -> dict[str, float]:
+    """`covariscope check --json` on a CSV against pandas reading it, each in a fresh process."""
+    csv = folder / "study.csv"
+    frame.to_csv(csv, index=False)
+    project = make_project("linear")
+    project.data = None
+    for j in range(SPARE):
+        project.diagram.update_node(f"e{j}", column=f"e{j}")
+    save_project(project, folder / "study.json")
+    raw = json.loads((folder / "study.json").read_text())
+    raw["data"] = {"path": "study.csv", "sha256": file_sha256(csv)}
+    (folder / "study.json").write_text(json.dumps(raw))
+    read = _process([sys.executable, "-c", f"import pandas as pd; pd.read_csv({str(csv)!r})"])
+    cli = "import sys; from covariscope.cli import main; sys.exit(main())"
+    check = _process([sys.executable, "-c", cli, "check", "--json", str(folder / "study.json")])
+    design_bytes = len(frame) * (1 + K + SPARE + 2 + 1) * 8
+    return {
+        "check_seconds": check[0],
+        "pandas_read_seconds": read[0],
+        "ratio": check[0] / read[0],
+        "check_peak_mb": check[1] / 1e6,
+        "design_mb": design_bytes / 1e6,
+        "peak_over_design": check[1] / design_bytes,
+    }
+
+
+def _process(cmd: list[str]) -> tuple[float, float]:
+    """Wall seconds and peak resident bytes of a child process."""
+    t0 = time.perf_counter()
+    pid = os.fork()
+    if pid == 0:  # the child becomes the command
+        with open(os.devnull, "w") as null:
+            os.dup2(null.fileno(), 1)
+        os.execv(cmd[0], cmd)
+    _, status, usage = os.wait4(pid, 0)
+    seconds = time.perf_counter() - t0
+    if os.waitstatus_to_exitcode(status) != 0:
+        raise SystemExit(f"{' '.join(cmd)} failed")
+    return seconds, usage.ru_maxrss * 1024.0
+
+
+def _print(name: str, figures: dict[str, Any]) -> None:
+    cold = figures["cold"]
+    print(f"\n{name}: cold run {cold:.3f} s")
+    for k in ("move", "tick", "arrow", "bind", "family_back"):
+        if k in figures:
+            print(f"  {k:<12} {figures[k]:8.4f} s   {figures[k] / cold:7.4f} × cold")
+    if "bind" in figures:
+        p = figures["one_pass_bind_column"]
+        print(f"  bind against one pass over the column ({p:.4f} s): {figures['bind'] / p:.2f}×")
+
+
+def main() -> None:
+    parser = argparse.ArgumentParser(description=__doc__.split("\n\n")[0])
+    parser.add_argument("--n-linear", type=int, default=1_000_000)
+    parser.add_argument("--n-logistic", type=int, default=200_000)
+    parser.add_argument("--repeat", type=int, default=5)
+    parser.add_argument("--no-check", action="store_true", help="skip the whole-process check")
+    args = parser.parse_args()
+    results: dict[str, Any] = {}
+    linear = make_frame(args.n_linear)
+    results["linear_1e6"] = edit_times(linear, "linear", args.repeat)
+    _print(f"linear, {args.n_linear:,} rows", results["linear_1e6"])
+    if not args.no_check:
+        with tempfile.TemporaryDirectory() as folder:
+            results["check"] = check_process(linear, Path(folder))
+        c = results["check"]
+        print(
+            f"\ncheck --json: {c['check_seconds']:.2f} s against pandas read_csv "
+            f"{c['pandas_read_seconds']:.2f} s ({c['ratio']:.2f}×); peak memory "
+            f"{c['check_peak_mb']:.0f} MB = {c['peak_over_design']:.2f}× the design ({c['design_mb']:.0f} MB)"
+        )
+    del linear
+    logistic = make_frame(args.n_logistic, seed=2)
+    results["logistic_2e5"] = edit_times(logistic, "logistic", args.repeat)
+    _print(f"logistic, {args.n_logistic:,} rows", results["logistic_2e5"])
+    print(json.dumps(results))
+
+
+if __name__ == "__main__":
+    main()

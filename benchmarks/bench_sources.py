@@ -1,0 +1,193 @@
+"""Data sources on large files: DuckDB against in memory and Dask, same run.
+
+Writes a generated study (exposure, outcome, a 0/1 outcome and N
+covariates, float64) as Parquet in row groups, then times ``covariscope
+check`` on it, each run in a fresh process that reports its wall time and
+peak resident memory (VmHWM):
+
+1. the large file with DuckDB, linear and logistic: wall time, peak memory
+   and its ratio to the rows' in-memory size (target ≤ 0.25);
+2. the medium file: DuckDB against the in-memory engine (the straightforward
+   approach) for the linear and the logistic table, and Dask on a 2-worker
+   local cluster, with the ratios.
+
+Usage (sizes as the issue asks; scale down on a small machine and say so)::
+
+    python benchmarks/bench_sources.py --large 5e7 --medium 1e7 --covariates 20 \\
+        --folder /path/with/space
+
+The generated files are deleted at the end unless ``--keep``.
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import os
+import shutil
+import subprocess
+import sys
+import tempfile
+import time
+from pathlib import Path
+
+import numpy as np
+
+CHUNK = 1_000_000
+
+_RUN = """
+import json, sys, time
+start = time.perf_counter()
+from covariscope.cli import main
+import io, contextlib
+out = io.StringIO()
+with contextlib.redirect_stdout(out):
+    rc = main(["check", {project!r}, "--engine", {engine!r}, "--family", {family!r}, "--json"])
+wall = time.perf_counter() - start
+status = open("/proc/self/status").read()
+peak = int(status.split("VmHWM:")[1].split()[0]) * 1024
+result = json.loads(out.getvalue()) if rc == 0 else None
+coef = result["estimates"]["full"]["coef"] if result else None
+print(json.dumps({{"rc": rc, "wall": wall, "peak": peak, "full": coef}}))
+"""
+
+
+def write_study(folder: Path, rows: int, covariates: int, seed: int = 2026) -> Path:
+    """Parquet file of generated rows and a project that binds every column."""
+    import pyarrow as pa
+    import pyarrow.parquet as pq
+
+    folder.mkdir(parents=True, exist_ok=True)
+    rng = np.random.default_rng(seed)
+    weights = np.linspace(0.1, 0.5, covariates)
+    writer = None
+    done = 0
+    while done < rows:
+        m = min(CHUNK, rows - done)
+        z = rng.normal(size=(m, covariates))
+        lin = z[:, : min(3, covariates)].sum(axis=1) / 2
+        x = rng.normal(size=m) + lin
+        y = 0.5 * x + z @ weights + rng.normal(size=m)
+        yb = (rng.random(m) < 1 / (1 + np.exp(-(0.3 * x + z @ weights / 2 - 1)))).astype(float)
+        columns = {"x": x, "y": y, "yb": yb}
+        columns.update({f"c{j}": z[:, j] for j in range(covariates)})
+        table = pa.table(columns)
+        if writer is None:
+            writer = pq.ParquetWriter(folder / "rows.parquet", table.schema)
+        writer.write_table(table, row_group_size=CHUNK)
+        done += m
+    assert writer is not None
+    writer.close()
+    nodes = [
+        {"id": "x", "label": "x", "kind": "exposure", "column": "x", "x": 0, "y": 0},
+        {"id": "y", "label": "y", "kind": "outcome", "column": "y", "x": 300, "y": 0},
+    ]
+    arrows = [{"from": "x", "to": "y"}]
+    for j in range(covariates):
+        nodes.append({"id": f"c{j}", "label": f"c{j}", "column": f"c{j}", "x": 30 * j, "y": 90})
+        arrows += [{"from": f"c{j}", "to": "x"}, {"from": f"c{j}", "to": "y"}]
+    project = {
+        "format": "covariscope-project",
+        "version": 1,
+        "diagram": {"nodes": nodes, "arrows": arrows},
+        "data": {"path": "rows.parquet"},
+        "analysis": {
+            "family": "linear",
+            "family_columns": {"logistic": {"outcome": "yb"}},
+            "proposed": [f"c{j}" for j in range(covariates)],
+        },
+    }
+    path = folder / "study.json"
+    path.write_text(json.dumps(project), encoding="utf-8")
+    return path
+
+
+def run(project: Path, engine: str, family: str) -> dict[str, float]:
+    """One `check` in a fresh process: wall time, peak memory, the full model's estimate."""
+    code = _RUN.format(project=str(project), engine=engine, family=family)
+    env = dict(os.environ, PYTHONPATH=os.pathsep.join(p for p in sys.path if p))
+    done = subprocess.run(
+        [sys.executable, "-c", code], capture_output=True, text=True, env=env, check=False
+    )
+    lines = [line for line in done.stdout.splitlines() if line.startswith("{")]
+    if done.returncode != 0 or not lines:
+        raise SystemExit(f"{engine} {family} failed: {done.stderr[-1500:]}")
+    figures: dict[str, float] = json.loads(lines[-1])
+    if figures["rc"] != 0:
+        raise SystemExit(f"{engine} {family}: check failed: {done.stderr[-1500:]}")
+    return figures
+
+
+def _gb(n: float) -> str:
+    return f"{n / 2**30:.2f} GB"
+
+
+def main() -> None:
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--large", type=float, default=5e7, help="rows of the large file")
+    parser.add_argument(
+        "--large-logistic",
+        type=float,
+        default=None,
+        help="rows for its logistic run (default: --large)",
+    )
+    parser.add_argument("--medium", type=float, default=1e7, help="rows of the medium file")
+    parser.add_argument(
+        "--medium-logistic",
+        type=float,
+        default=None,
+        help="rows for the medium logistic runs (default: --medium)",
+    )
+    parser.add_argument("--covariates", type=int, default=20)
+    parser.add_argument("--folder", type=Path, default=None, help="where to write the files")
+    parser.add_argument("--keep", action="store_true", help="keep the generated files")
+    args = parser.parse_args()
+    root = Path(tempfile.mkdtemp(prefix="covariscope-bench-", dir=args.folder))
+    k = args.covariates
+    try:
+        print(f"{k} covariates; timings in fresh processes, on whatever load the machine carries.")
+        sizes = {
+            ("large", "linear"): int(args.large),
+            ("large", "logistic"): int(args.large_logistic or args.large),
+            ("medium", "linear"): int(args.medium),
+            ("medium", "logistic"): int(args.medium_logistic or args.medium),
+        }
+        projects: dict[int, Path] = {}
+        for rows in sorted(set(sizes.values())):
+            start = time.perf_counter()
+            projects[rows] = write_study(root / f"rows{rows}", rows, k)
+            size = (root / f"rows{rows}" / "rows.parquet").stat().st_size
+            print(
+                f"wrote {rows:,} rows ({_gb(size)} Parquet) in {time.perf_counter() - start:.0f} s"
+            )
+        print("\n1. Large file, DuckDB")
+        for family in ("linear", "logistic"):
+            rows = sizes[("large", family)]
+            frame = rows * (k + 3) * 8
+            r = run(projects[rows], "duckdb", family)
+            print(
+                f"   {family:9s} {rows:>12,} rows  wall {r['wall']:7.1f} s  peak {_gb(r['peak'])}  "
+                f"in-memory size {_gb(frame)}  ratio {r['peak'] / frame:.3f} (target ≤ 0.25)"
+            )
+        print("\n2. Medium file: DuckDB and Dask (2 local workers) against in memory")
+        for family in ("linear", "logistic"):
+            rows = sizes[("medium", family)]
+            base = run(projects[rows], "memory", family)
+            print(
+                f"   {family:9s} {rows:>12,} rows  memory  wall {base['wall']:7.1f} s  peak {_gb(base['peak'])}"
+            )
+            for engine in ("duckdb", "dask"):
+                r = run(projects[rows], engine, family)
+                same = abs(r["full"] - base["full"]) <= 1e-8 * abs(base["full"])
+                print(
+                    f"   {'':9s} {'':>12s}       {engine:6s}  wall {r['wall']:7.1f} s  peak {_gb(r['peak'])}  "
+                    f"time ratio {r['wall'] / base['wall']:.2f}  memory ratio {r['peak'] / base['peak']:.2f}  "
+                    f"same estimate: {same}"
+                )
+    finally:
+        if not args.keep:
+            shutil.rmtree(root, ignore_errors=True)
+
+
+if __name__ == "__main__":
+    main()

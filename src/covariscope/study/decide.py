@@ -1,0 +1,465 @@
+"""The last stages: collinear groups → recommended set → verdicts → estimates.
+
+They read the graph criteria, the proposal review, the evidence and the
+settings a verdict depends on (thresholds, saved keep choices, labels for
+the sentences), and nothing else; sentences are built here once per result.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Callable, Mapping
+from dataclasses import dataclass, field
+
+import networkx as nx
+
+from covariscope.analysis.evalue import EValue, evalue_for_fit
+from covariscope.analysis.evidence import Comparison, EvidenceEngine, EvidenceTable
+from covariscope.analysis.fits import Fit
+from covariscope.analysis.graph import DiagramAnalysis, is_sufficient
+from covariscope.analysis.joint_region import CollinearityPicture, collinearity_pictures
+from covariscope.analysis.modification import Modification, modification_table
+from covariscope.analysis.recommend import Recommendation, pair_r2, recommend_set
+from covariscope.analysis.splines import ResidualCheck, residual_table
+from covariscope.analysis.verdicts import (
+    Facts,
+    Numbers,
+    Shift,
+    Verdict,
+    collinear_groups,
+    decide_verdict,
+    format_set,
+)
+from covariscope.study.degenerate import aliased_pairs
+from covariscope.study.facts import (
+    group_why,
+    needed_together,
+    opened_paths,
+    stands_for,
+    suggest_member,
+    would_close,
+    would_open,
+)
+from covariscope.study.result import ESTIMATE_KEYS
+from covariscope.vocabulary import group_key
+
+__all__ = ["Decisions", "Question", "decide"]
+
+
+@dataclass(frozen=True)
+class Question:
+    """What the last stages read of the project besides the diagram's structure."""
+
+    exposure: str
+    outcome: str
+    family: str
+    effect_measure: str
+    proposed: tuple[str, ...]
+    thresholds: tuple[tuple[str, float], ...]
+    keep_choices: tuple[tuple[str, str], ...]
+    names: tuple[tuple[str, str], ...]
+    measured: tuple[tuple[str, bool], ...]
+    #: spline knots chosen per covariate node (absent: entered linearly)
+    spline_knots: tuple[tuple[str, int], ...] = ()
+
+    @property
+    def threshold(self) -> dict[str, float]:
+        """The thresholds as a mapping."""
+        return dict(self.thresholds)
+
+
+@dataclass(frozen=True, eq=False)
+class Decisions:
+    """Verdicts, groups, the recommended set and its estimates."""
+
+    verdicts: dict[str, Verdict]
+    groups: tuple[tuple[str, ...], ...]
+    recommended: tuple[str, ...]
+    recommended_reason: str
+    estimates: dict[str, Fit | None]
+    evalue: EValue | None
+    disagreements: tuple[str, ...]
+    messages: tuple[str, ...]
+    pictures: tuple[CollinearityPicture, ...] = ()
+    modification: dict[str, Modification] = field(default_factory=dict)
+    residual_confounding: dict[str, ResidualCheck] = field(default_factory=dict)
+
+
+def _finite(value: float | None) -> float | None:
+    if value is None:
+        return None
+    value = float(value)
+    return value if math.isfinite(value) else None
+
+
+def _shift(c: Comparison | None) -> Shift | None:
+    if c is None:
+        return None
+    change = _finite(c.change_pct) if c.change_defined else None
+    return Shift(change, _finite(c.se_inflation_pct), _finite(c.change_pct_ratio))
+
+
+def _numbers(ev: EvidenceTable | None, node: str) -> Numbers | None:
+    if ev is None or node not in ev.covariates:
+        return None
+    c = ev.covariates[node]
+    return Numbers(
+        added=_shift(c.added),
+        dropped=_shift(c.dropped),
+        vif_exposure=_finite(c.vif_exposure_added),
+        vif=_finite(c.vif),
+        aux_r2=_finite(c.aux_r2),
+        r2_exposure=_finite(c.r2_exposure),
+    )
+
+
+def set_names(da: DiagramAnalysis) -> dict[tuple[str, ...], str]:
+    """The evidence table's name of each minimal set's model."""
+    return {tuple(m): f"minimal:{i}" for i, m in enumerate(da.minimal_sets)}
+
+
+def _se_lookup(
+    ev: EvidenceTable | None, names: Mapping[tuple[str, ...], str]
+) -> Callable[[tuple[str, ...]], float | None]:
+    def se_of(members: tuple[str, ...]) -> float | None:
+        if ev is None:
+            return None
+        fit = ev.sets.get(names.get(members, ""))
+        return fit.se if fit is not None and fit.ok else None
+
+    return se_of
+
+
+def _fit_lookup(
+    engine: EvidenceEngine | None,
+) -> tuple[Callable[[tuple[str, ...]], float | None], Callable[[tuple[str, ...]], float | None]]:
+    """Exposure coefficient and SE of the model with a set (the engine caches its fits)."""
+
+    def fit(members: tuple[str, ...]) -> Fit | None:
+        if engine is None:
+            return None
+        f = engine.fit(members)
+        return f if f.ok else None
+
+    def estimate_of(members: tuple[str, ...]) -> float | None:
+        f = fit(members)
+        return f.coef if f is not None else None
+
+    def se_of(members: tuple[str, ...]) -> float | None:
+        f = fit(members)
+        return f.se if f is not None else None
+
+    return estimate_of, se_of
+
+
+def _groups(
+    q: Question, da: DiagramAnalysis, evidence: EvidenceTable | None, engine: EvidenceEngine | None
+) -> tuple[tuple[tuple[str, ...], ...], dict[tuple[str, str], float], list[tuple[str, ...]]]:
+    measured = dict(q.measured)
+    confounders = [
+        c
+        for c, f in da.roles.items()
+        if f.role == "confounder" and measured[c] and c not in da.measures_exposure
+    ]
+    r2_pairs: dict[tuple[str, str], float] = {}
+    flagged: list[tuple[str, ...]] = []
+    if evidence is not None and engine is not None:
+        blocks = {
+            c: list(engine.design.blocks[c].index) for c in confounders if c in engine.design.blocks
+        }
+        r2_pairs = pair_r2(engine.summary.correlation, blocks)
+        flagged = [tuple(d.nodes) for d in evidence.collinearity.flagged]
+    groups = collinear_groups(
+        confounders,
+        proxy_groups=da.groups,
+        pair_r2=r2_pairs,
+        flagged=flagged,
+        r2_threshold=q.threshold["r2"],
+    )
+    return groups, r2_pairs, flagged
+
+
+def _recommend(
+    q: Question,
+    da: DiagramAnalysis,
+    groups: tuple[tuple[str, ...], ...],
+    evidence: EvidenceTable | None,
+    engine: EvidenceEngine | None,
+    messages: list[str],
+) -> Recommendation:
+    # A choice saved for part of a group (the members left to choose among once
+    # the diagram needs the others) stands for the whole group in the ranking.
+    choices = dict(q.keep_choices)
+    rec_choices = dict(choices)
+    for g in groups:
+        for key, member in choices.items():
+            if set(key.split("|")) < set(g) and member in g:
+                rec_choices.setdefault(group_key(g), member)
+    names = set_names(da)
+    rec = recommend_set(
+        [tuple(s) for s in da.minimal_sets],
+        proposed=q.proposed,
+        groups=groups,
+        keep_choices=rec_choices,
+        se_of=_se_lookup(evidence, names),
+        estimate_of=_fit_lookup(engine)[0] if evidence is not None else None,
+    )
+    if (
+        evidence is not None
+        and rec.members is not None
+        and names.get(tuple(sorted(rec.members)), "") not in evidence.sets
+    ):
+        messages.append(
+            "The recommended set holds a covariate without data, so its model is not fitted."
+        )
+    label = dict(q.names)
+    if not da.identifiable:
+        messages.append(
+            "No set of measured covariates is sufficient in this diagram: the effect is not "
+            "identified by adjustment (see the unmeasured variables and the E-value)."
+        )
+    if q.proposed and not da.review.sufficient:
+        messages.append(
+            f"The proposed set {format_set(label[p] for p in q.proposed)} is not sufficient: it leaves "
+            f"{da.review.open_paths_text()} backdoor path(s) open."
+        )
+    return rec
+
+
+@dataclass(frozen=True)
+class _Context:
+    q: Question
+    da: DiagramAnalysis
+    groups: tuple[tuple[str, ...], ...]
+    r2_pairs: dict[tuple[str, str], float]
+    flagged: list[tuple[str, ...]]
+    needed: dict[tuple[str, ...], tuple[str, ...]]
+    base: tuple[str, ...]
+    recommended: tuple[str, ...]
+    sufficient: bool | None
+    set_name: str
+    evidence: EvidenceTable | None
+    engine: EvidenceEngine | None
+    aliases: dict[str, tuple[str, ...]]
+
+
+def _group_facts(
+    ctx: _Context, graph: nx.DiGraph, c: str
+) -> tuple[tuple[str, ...], tuple[str, ...], bool, str, str | None, str]:
+    """(group, members alone sufficient, needed?, why grouped, suggested member, why)."""
+    q, da = ctx.q, ctx.da
+    label = dict(q.names)
+    r2_guide = q.threshold["r2"]
+    group = next((g for g in ctx.groups if c in g), ())
+    is_needed = bool(group) and c in ctx.needed[group]
+    if group and not is_needed and ctx.needed[group]:
+        remainder = tuple(m for m in group if m not in ctx.needed[group])
+        group = remainder if len(remainder) >= 2 else group
+    if is_needed:
+        why = group_why(group, da.groups, ctx.r2_pairs, ctx.flagged, r2_guide, label, member=c)
+        return group, (), True, why, None, ""
+    if not group:
+        return (), (), False, "", None, ""
+    rest = [m for m in ctx.base if m not in group]
+    alone = tuple(m for m in group if is_sufficient(graph, q.exposure, q.outcome, [*rest, m]))
+    why = group_why(group, da.groups, ctx.r2_pairs, ctx.flagged, r2_guide, label)
+    estimate_of, se_of = _fit_lookup(ctx.engine if ctx.evidence is not None else None)
+    suggested, suggested_why = suggest_member(
+        group,
+        alone,
+        chosen=dict(q.keep_choices).get(group_key(group)),
+        recommended=ctx.recommended,
+        proposed=q.proposed,
+        rest=rest,
+        estimate_of=estimate_of,
+        se_of=se_of,
+        names=label,
+    )
+    return group, alone, False, why, suggested, suggested_why
+
+
+def _verdict(ctx: _Context, graph: nx.DiGraph, c: str) -> Verdict:
+    q, da, evidence = ctx.q, ctx.da, ctx.evidence
+    role = da.roles[c].role
+    measured = dict(q.measured)
+    group, alone, is_needed, why, suggested, suggested_why = _group_facts(ctx, graph, c)
+    stands = stands_for(graph, da, c) if role == "confounder_proxy" else ()
+    f = Facts(
+        node=c,
+        role=role,
+        measured=measured[c],
+        has_data=evidence is not None and c in evidence.covariates,
+        measures_exposure=c in da.measures_exposure,
+        measures_outcome=c in da.measures_outcome,
+        in_proposed=c in q.proposed,
+        group=group,
+        group_alone=alone,
+        group_needed=is_needed,
+        group_why=why,
+        suggested=suggested,
+        suggested_why=suggested_why,
+        opened_paths=(
+            opened_paths(graph, q.exposure, q.outcome, q.proposed, c)
+            if role == "collider" and c in q.proposed
+            else ()
+        ),
+        would_open=would_open(da, c) if role == "collider" else (),
+        stands_for=stands,
+        stands_for_adjusted=tuple(s for s in stands if measured[s] and s in ctx.base),
+        would_close=would_close(da, c) if not measured[c] else (),
+        sufficient_without=ctx.sufficient,
+        set_name=ctx.set_name,
+        set_members=ctx.base,
+        aliased_with=ctx.aliases.get(c, ()),
+    )
+    verdict = decide_verdict(
+        f, _numbers(evidence, c), family=q.family, thresholds=q.threshold, names=dict(q.names)
+    )
+    if (
+        evidence is None
+        and measured[c]
+        and verdict.code != "unmeasured"
+        and "no data" not in verdict.reason
+    ):
+        verdict = Verdict(
+            verdict.node,
+            verdict.code,
+            verdict.label,
+            verdict.reason.rstrip(".") + " (from the diagram alone; no data).",
+            verdict.group,
+            verdict.suggested,
+        )
+    return verdict
+
+
+@dataclass(frozen=True, eq=False)
+class RowsRead:
+    """What reads the rows themselves: pictures, modification, residual confounding."""
+
+    pictures: tuple[CollinearityPicture, ...] = ()
+    modification: dict[str, Modification] = field(default_factory=dict)
+    residual: dict[str, ResidualCheck] = field(default_factory=dict)
+
+
+def _rows_read(
+    q: Question,
+    da: DiagramAnalysis,
+    evidence: EvidenceTable,
+    engine: EvidenceEngine,
+    groups: tuple[tuple[str, ...], ...],
+    estimates: Mapping[str, Fit | None],
+    messages: list[str],
+) -> RowsRead:
+    """The collinearity pictures, effect modification and the residual-confounding
+    check of continuous confounders: they read the rows themselves."""
+    thresholds = q.threshold
+    if not engine.design.rows_in_memory:
+        messages.append(
+            "Effect modification, the residual-confounding check of continuous confounders "
+            "and the collinearity picture read the rows themselves, so they are shown only "
+            "when the data are analysed in memory."
+        )
+        if q.spline_knots:
+            messages.append(
+                "Splines are built from the rows in memory: with the data read where they "
+                "lie, every continuous covariate enters linearly."
+            )
+        return RowsRead()
+    high_vif = [
+        c
+        for c, e in evidence.covariates.items()
+        if c in evidence.candidates and e.vif_exposure_added >= thresholds["vif"]
+    ]
+    pictures = collinearity_pictures(evidence.full, engine.design, groups, high_vif)
+    rec_fit = estimates["recommended"]
+    modification: dict[str, Modification] = {}
+    residual: dict[str, ResidualCheck] = {}
+    if rec_fit is not None and rec_fit.ok:
+        modification = modification_table(
+            engine.design,
+            rec_fit.terms,
+            evidence.candidates,
+            p_guide=thresholds["modification_p"],
+            ratio_guide=thresholds["modification_ratio"],
+        )
+        residual = residual_table(
+            engine.design,
+            rec_fit.terms,
+            [c for c in rec_fit.terms if c in da.roles and da.roles[c].role == "confounder"],
+            knots=dict(q.spline_knots),
+            change_guide=thresholds["change_pct"],
+        )
+    return RowsRead(pictures, modification, residual)
+
+
+def decide(
+    q: Question,
+    graph: nx.DiGraph,
+    da: DiagramAnalysis,
+    evidence: EvidenceTable | None,
+    engine: EvidenceEngine | None,
+) -> Decisions:
+    """Collinear groups, the recommended set, one verdict per covariate, the estimates."""
+    messages: list[str] = []
+    groups, r2_pairs, flagged = _groups(q, da, evidence, engine)
+    rec = _recommend(q, da, groups, evidence, engine, messages)
+    recommended = rec.members or ()
+    base = tuple(recommended) if rec.members is not None else q.proposed
+    # Members the diagram needs whichever other is kept are adjusted for, with a
+    # caution; the rest of their group (two or more) is still one to keep one of.
+    needed = {g: needed_together(graph, q.exposure, q.outcome, g, list(base)) for g in groups}
+    ctx = _Context(
+        q=q,
+        da=da,
+        groups=groups,
+        r2_pairs=r2_pairs,
+        flagged=flagged,
+        needed=needed,
+        base=base,
+        recommended=tuple(recommended),
+        sufficient=True if rec.members is not None else (False if q.proposed else None),
+        set_name="recommended" if rec.members is not None else "proposed",
+        evidence=evidence,
+        engine=engine,
+        aliases=aliased_pairs(
+            evidence.aliased if evidence is not None else (), set(da.roles), da.groups
+        ),
+    )
+    verdicts = {c: _verdict(ctx, graph, c) for c in da.roles}
+    estimates: dict[str, Fit | None] = dict.fromkeys(ESTIMATE_KEYS)
+    ev_value: EValue | None = None
+    read = RowsRead()
+    if evidence is not None and engine is not None:
+        estimates["crude"] = evidence.crude
+        estimates["full"] = evidence.full
+        estimates["proposed"] = evidence.sets.get("proposed")
+        if rec.members is not None:
+            estimates["recommended"] = evidence.sets.get(
+                set_names(da).get(tuple(sorted(rec.members)), "")
+            )
+        ev_value, problem = evalue_for_fit(
+            estimates["recommended"], engine.design, q.effect_measure
+        )
+        if problem:
+            messages.append(problem)
+        read = _rows_read(q, da, evidence, engine, groups, estimates, messages)
+    label = dict(q.names)
+    disagreements = tuple(
+        f"{label.get(v.node, v.node)}: {v.reason}"
+        for v in verdicts.values()
+        if v.code == "review"
+        or (v.code == "exclude_measures_exposure" and v.node not in da.measures_exposure)
+    )
+    return Decisions(
+        verdicts=verdicts,
+        groups=groups,
+        recommended=tuple(recommended),
+        recommended_reason=rec.reason,
+        estimates=estimates,
+        evalue=ev_value,
+        disagreements=disagreements,
+        messages=tuple(messages),
+        pictures=read.pictures,
+        modification=read.modification,
+        residual_confounding=read.residual,
+    )

@@ -1,0 +1,63 @@
+"""The study cache: least-recently-used eviction, counters, one lock."""
+
+from __future__ import annotations
+
+import threading
+
+import numpy as np
+
+from covariscope.study.cache import StageCount, StudyCache
+
+
+def test_counts_hits_and_misses_per_stage():
+    cache = StudyCache()
+    assert cache.get("a", 1, lambda: "one") == "one"
+    assert cache.get("a", 1, lambda: "other") == "one"
+    cache.get("b", 1, lambda: 2)
+    assert cache.counts() == {"a": StageCount(1, 1), "b": StageCount(0, 1)}
+    cache.reset_counts()
+    assert cache.count("a") == StageCount(0, 0)
+    assert len(cache) == 2
+
+
+def test_least_recently_used_goes_first_when_memory_is_full():
+    cache = StudyCache(max_bytes=3 * 800)
+    for key in range(3):
+        cache.get("v", key, lambda: np.zeros(100))  # 800 bytes each
+    cache.get("v", 0, lambda: None)  # 0 is now the most recent
+    cache.get("v", 3, lambda: np.zeros(100))  # evicts 1, the least recent
+    assert cache.peek("v", 1) is None
+    assert cache.peek("v", 0) is not None
+    assert cache.peek("v", 3) is not None
+    assert cache.size_bytes <= 3 * 800
+
+
+def test_entry_bound():
+    cache = StudyCache(max_entries=5)
+    for key in range(20):
+        cache.get("k", key, lambda k=key: k)
+    assert len(cache) == 5
+    assert [k for k, _ in cache.entries("k")] == [15, 16, 17, 18, 19]
+
+
+def test_many_threads_one_cache():
+    cache = StudyCache(max_entries=50)
+    errors: list[BaseException] = []
+
+    def hammer(seed: int) -> None:
+        rng = np.random.default_rng(seed)
+        try:
+            for key in rng.integers(0, 80, size=2000):
+                assert cache.get("sq", int(key), lambda k=int(key): k * k) == int(key) ** 2
+        except BaseException as exc:  # reported below
+            errors.append(exc)
+
+    threads = [threading.Thread(target=hammer, args=(s,)) for s in range(4)]
+    for t in threads:
+        t.start()
+    for t in threads:
+        t.join()
+    assert errors == []
+    c = cache.count("sq")
+    assert c.hits + c.misses == 8000
+    assert len(cache) <= 50

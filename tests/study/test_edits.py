@@ -1,0 +1,272 @@
+"""What an edit recomputes, read from the study cache's own counters (issue 9).
+
+Each test warms one cache with a run, resets its counters, makes one edit
+and runs again; the counters (and a data source that logs the columns it
+hands out) say which stages ran and which columns were read.  Every second
+run is also checked against a fresh run on an empty cache: the cache must
+never change an answer.
+"""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+import pytest
+
+from covariscope.data.loading import LoadedTable, load_table
+from covariscope.model.project import load_project, project_from_dict
+from covariscope.study import run_study
+from covariscope.study.cache import StudyCache
+from covariscope.study.source import TableSource
+from covariscope.views.check_json import study_to_json
+
+DEMO = Path(__file__).resolve().parents[2] / "demo_data"
+
+#: Stages that read the data's rows (a pass over one or more columns).
+ROW_STAGES = ("profile", "missing", "term", "outcomes", "rows")
+
+
+class LoggingSource(TableSource):
+    """A table source that remembers which columns it handed out."""
+
+    def __init__(self, table: LoadedTable) -> None:
+        super().__init__(table)
+        self.read: list[str] = []
+
+    def column(self, column: str) -> pd.Series:
+        self.read.append(column)
+        return super().column(column)
+
+    def missing(self, column: str) -> np.ndarray:
+        self.read.append(column)
+        return super().missing(column)
+
+
+def _generated() -> tuple[object, LoadedTable]:
+    rng = np.random.default_rng(9)
+    n = 3000
+    c1, c2, c3, p1 = (rng.normal(size=n) for _ in range(4))
+    grp = rng.choice(["a", "b", "c"], size=n)
+    x = 0.6 * c1 + 0.4 * c2 + (grp == "b") * 0.5 + rng.normal(size=n)
+    y = 1.5 * x + c1 + 0.8 * c2 + 0.5 * c3 + 0.7 * p1 + rng.normal(size=n)
+    frame = pd.DataFrame({"x": x, "y": y, "c1": c1, "c2": c2, "c3": c3, "p1": p1, "grp": grp})
+    frame["y_bin"] = (y > np.median(y)).astype(int)
+    frame.loc[rng.choice(n, 40, replace=False), "c3"] = np.nan
+    nodes = ["x", "y", "c1", "c2", "c3", "p1", "grp"]
+    arrows = [("x", "y"), ("c1", "x"), ("c1", "y"), ("c2", "x"), ("c2", "y")]
+    arrows += [("c3", "y"), ("p1", "y"), ("grp", "x")]
+    project = project_from_dict(
+        {
+            "format": "covariscope-project",
+            "version": 1,
+            "diagram": {
+                "nodes": [
+                    {
+                        "id": v,
+                        "kind": {"x": "exposure", "y": "outcome"}.get(v, "covariate"),
+                        "measured": True,
+                        "column": v,
+                    }
+                    for v in nodes
+                ],
+                "arrows": [{"from": a, "to": b} for a, b in arrows],
+            },
+            "analysis": {
+                "family": "linear",
+                "proposed": ["c1"],
+                "family_columns": {"logistic": {"outcome": "y_bin"}},
+            },
+        }
+    )
+    return project, LoadedTable(frame, Path("generated.csv"), "text", "1" * 64)
+
+
+def _demo() -> tuple[object, LoadedTable]:
+    project = load_project(DEMO / "demo_project.json")
+    return project, load_table(DEMO / "demo_cohort.csv")
+
+
+STUDIES = {"demo": _demo, "generated": _generated}
+
+
+@pytest.fixture(params=sorted(STUDIES))
+def warm(request):
+    project, table = STUDIES[request.param]()
+    source = LoggingSource(table)
+    cache = StudyCache()
+    run_study(project, table=source, cache=cache)
+    cache.reset_counts()
+    source.read.clear()
+    return project, source, cache
+
+
+@pytest.fixture
+def rerun(same):
+    """Run again on the warm cache; the answer must equal a fresh run's."""
+
+    def again(project, source, cache):
+        result = run_study(project, table=source, cache=cache)
+        fresh = run_study(project, table=TableSource(source.table), cache=StudyCache())
+        assert same(study_to_json(result), study_to_json(fresh))
+        return result
+
+    return again
+
+
+def _misses(cache: StudyCache) -> dict[str, int]:
+    return {stage: c.misses for stage, c in cache.counts().items() if c.misses}
+
+
+def _covariate(project, *, bound=True):
+    return next(
+        n for n in project.diagram.covariates if n.measured and (n.column is not None) == bound
+    )
+
+
+def test_node_move_and_note_run_nothing(warm, rerun):
+    project, source, cache = warm
+    node = _covariate(project)
+    project.diagram.update_node(node.id, x=node.x + 40.0, y=node.y - 25.0, note="moved")
+    result = rerun(project, source, cache)
+    assert _misses(cache) == {}
+    assert result.recomputed == ()
+    assert source.read == []
+
+
+def test_label_change_rewrites_sentences_only(warm, rerun):
+    project, source, cache = warm
+    node = _covariate(project)
+    project.diagram.update_node(node.id, label="A new label")
+    result = rerun(project, source, cache)
+    assert set(_misses(cache)) <= {"bindings", "verdicts"}
+    assert source.read == []
+    assert "A new label" in json.dumps(result.names)
+
+
+def test_tick_reviews_the_proposal_and_fits_one_model_without_reading_rows(warm, rerun):
+    project, source, cache = warm
+    candidates = [n.id for n in project.diagram.covariates if n.measured and n.column]
+    ticked = next(c for c in candidates if c not in project.proposed)
+    project.analysis.proposed = [*project.proposed, ticked]
+    rerun(project, source, cache)
+    misses = _misses(cache)
+    assert set(misses) <= {"review", "evidence", "verdicts", "fit"}
+    assert misses.get("fit", 0) <= 1  # the proposed-set model, when no earlier model had its terms
+    assert source.read == []
+
+
+def test_added_arrow_refits_only_new_models_without_reading_rows(warm, rerun):
+    project, source, cache = warm
+    bound = [n.id for n in project.diagram.covariates if n.measured and n.column]
+    a, b = next(
+        (a, b)
+        for a in bound
+        for b in bound
+        if a != b
+        and not project.diagram.has_arrow(a, b)
+        and not project.diagram.has_arrow(b, a)
+        and _acyclic_with(project, a, b)
+    )
+    project.diagram.add_arrow(a, b)
+    rerun(project, source, cache)
+    misses = _misses(cache)
+    assert not set(misses) & {*ROW_STAGES, "summary", "design"}
+    assert source.read == []
+
+
+def _acyclic_with(project, a, b) -> bool:
+    import networkx as nx
+
+    G = project.diagram.to_networkx()
+    G.add_edge(a, b)
+    return nx.is_directed_acyclic_graph(G)
+
+
+def test_binding_a_column_reads_only_that_column(warm, rerun):
+    project, source, cache = warm
+    node = next(
+        n
+        for n in project.diagram.covariates
+        if n.measured
+        and n.column
+        and n.id not in project.proposed
+        and not _has_missing(source, n.column)
+    )
+    column = node.column
+    project.diagram.update_node(node.id, column=None)
+    cache = StudyCache()  # warmed without the column
+    run_study(project, table=source, cache=cache)
+    cache.reset_counts()
+    source.read.clear()
+    project.diagram.update_node(node.id, column=column)
+    rerun(project, source, cache)
+    assert set(source.read) == {column}
+    assert cache.count("rows").misses == 0  # the cross-products were extended, not recomputed
+    assert cache.count("term").misses == 1
+
+
+def _has_missing(source, column) -> bool:
+    return bool(source.table.frame[column].isna().any())
+
+
+def test_switching_family_and_back_refits_nothing(warm, rerun):
+    project, source, cache = warm
+    project.analysis.family = "logistic"
+    run_study(project, table=source, cache=cache)
+    project.analysis.family = "linear"
+    cache.reset_counts()
+    source.read.clear()
+    rerun(project, source, cache)
+    assert _misses(cache) == {}
+    assert source.read == []
+
+
+def test_binding_a_column_refits_only_the_models_that_hold_it(rerun):
+    project, table = _generated()
+    project.analysis.family = "logistic"
+    source = LoggingSource(table)
+    project.diagram.update_node("p1", column=None)
+    cache = StudyCache()
+    run_study(project, table=source, cache=cache)
+    cache.reset_counts()
+    project.diagram.update_node("p1", column="p1")
+    result = rerun(project, source, cache)
+    ev = result.evidence
+    models = {(), tuple(ev.candidates), *((c,) for c in ev.covariates)}
+    models |= {tuple(t for t in ev.candidates if t != c) for c in ev.candidates}
+    models |= {f.terms for f in ev.sets.values()}
+    holding = [m for m in models if "p1" in m]
+    # The models without p1 come over from the engine of the design without it;
+    # two more allow for the keep-one ranking's own models.
+    assert cache.count("fit").misses <= len(holding) + 2 < len(models)
+
+
+def test_reference_level_change_recodes_that_column_only(warm, rerun):
+    project, source, cache = warm
+    node, level = ("smoke", "former") if "smoke" in project.diagram else ("grp", "b")
+    column = project.diagram.node(node).column
+    project.analysis.reference_levels[column] = level
+    rerun(project, source, cache)
+    assert set(source.read) == {column}
+    assert cache.count("profile").misses == 1
+    assert cache.count("term").misses == 1
+    assert cache.count("missing").misses == 0
+
+
+def test_the_data_panel_profiles_come_from_the_same_cache(warm):
+    from covariscope.study.prepare import table_profiles
+
+    project, source, cache = warm
+    a = project.analysis
+    first = table_profiles(cache, source, a.column_types, a.reference_levels)
+    cache.reset_counts()
+    source.read.clear()
+    column = project.diagram.node("c1" if "c1" in project.diagram else "age").column
+    types = {**a.column_types, column: "continuous"}
+    again = table_profiles(cache, source, types, a.reference_levels)
+    assert again.keys() == first.keys()
+    assert cache.count("profile").misses <= 1  # only the column whose type was set
+    assert set(source.read) <= {column}
