@@ -136,7 +136,12 @@ def data_origin(
         return Origin(None, source, source.path.name, source.sha256, tuple(source.notes))
     if table is None:
         return None
-    notes = tuple(source.notes) if source is not None else ()
+    if source is not None:
+        notes = tuple(source.notes)
+    elif isinstance(table, LoadedTable):
+        notes = table.left_out  # columns the loader could not use, as a source says them
+    else:
+        notes = ()
     columns = source_of(table)
     return Origin(columns, None, columns.name, columns.digest, notes)
 

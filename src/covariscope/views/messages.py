@@ -44,6 +44,9 @@ def window_messages(
         Message("problem", b.text, b.fix, b.fix_label)
         for b in blockers(project, profiles, data_loaded=data_loaded)
     ]
+    if result is not None and result.data_problem:
+        # the bound data gave no estimate: `check` refuses the question here
+        out.append(Message("problem", result.data_problem))
     if result is not None:
         out.extend(Message("review", text) for text in result.disagreements)
         out.extend(Message("caution", text) for text in result.messages)
