@@ -49,7 +49,12 @@ def window_messages(
         out.append(Message("problem", result.data_problem))
     if result is not None:
         out.extend(Message("review", text) for text in result.disagreements)
-        out.extend(Message("caution", text) for text in result.messages)
+        out.extend(
+            Message("caution", text)
+            for text in result.messages
+            # the problem above, said once (the analysis's own note repeats it)
+            if not (result.data_problem and text.startswith(result.data_problem))
+        )
     seen: set[str] = set()
     unique = []
     for m in out:
