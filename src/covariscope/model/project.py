@@ -190,6 +190,9 @@ class Project:
 class _Problems:
     def __init__(self) -> None:
         self.items: list[str] = []
+        #: ids of nodes whose own entry was refused: links to them are not
+        #: reported again as links to an unknown node
+        self.refused_ids: set[str] = set()
 
     def add(self, where: str, what: str) -> None:
         self.items.append(f"{where}: {what}")
@@ -296,6 +299,7 @@ def _read_nodes(raw: Any, diagram: Diagram, problems: _Problems) -> None:
             problems.add(f"{where}.kind", f'"{kwargs["kind"]}" is not one of {", ".join(KINDS)}')
             ok = False
         if not ok:
+            problems.refused_ids.add(node_id)
             continue
         for key in ("x", "y"):
             wrong = finite_number(kwargs.get(key, 0.0), -MAX_COORDINATE, MAX_COORDINATE)
@@ -305,10 +309,12 @@ def _read_nodes(raw: Any, diagram: Diagram, problems: _Problems) -> None:
             elif key in kwargs:
                 kwargs[key] = float(kwargs[key])
         if not ok:
+            problems.refused_ids.add(node_id)
             continue
         try:
             diagram.add_node(Node(**kwargs))
         except DiagramError as exc:
+            problems.refused_ids.add(node_id)
             problems.add(where, str(exc))
 
 
@@ -328,7 +334,8 @@ def _read_links(
             if not _expect(problems, f"{where}.{key}", value, (str,), "a node id"):
                 break
             if value not in diagram:
-                problems.add(f"{where}.{key}", f'unknown node "{value}"')
+                if value not in problems.refused_ids:
+                    problems.add(f"{where}.{key}", f'unknown node "{value}"')
                 break
             ends.append(value)
         if len(ends) == 2:
@@ -548,6 +555,12 @@ def load_project(path: str | os.PathLike[str]) -> Project:
         found = [*parsed.duplicates, *exc.problems]
     else:
         found = list(parsed.duplicates)
+        data_path = project.data_path()
+        if data_path is not None and _same_file(data_path, path):
+            found.append(
+                "data.path: names the project file itself; choose the study's data file "
+                "(a CSV, Excel, Parquet, Stata, SPSS or SAS file)"
+            )
     if found:  # a repeated key first: it may explain the problems after it
         raise ProjectFileError(
             f"{path.name}: The project file has problems:\n" + "\n".join(f"  - {p}" for p in found),
@@ -555,6 +568,13 @@ def load_project(path: str | os.PathLike[str]) -> Project:
         )
     remove_stale_temporaries(path.resolve())
     return project
+
+
+def _same_file(a: Path, b: Path) -> bool:
+    try:
+        return os.path.samefile(a, b)
+    except OSError:  # a missing data file is said when the data are read
+        return False
 
 
 # -- writing -----------------------------------------------------------------------
