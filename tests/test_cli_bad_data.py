@@ -258,3 +258,37 @@ def test_parquet_nested_columns_are_left_out_and_named(tmp_path, capsys):
     messages = json.loads(out)["messages"]
     assert any("'tags'" in m and "left out" in m for m in messages), messages
     assert any("'visit'" in m for m in messages)
+
+
+@pytest.mark.parametrize("family", ["linear", "logistic"])
+def test_a_covariate_rescaled_as_the_message_says_matches_statsmodels(tmp_path, capsys, family):
+    """A covariate scaled by 1e-200 is left out, named, and called not constant;
+    multiplied back by 1e200 as the message suggests, the full model's
+    exposure estimate is statsmodels' on the same rescaled data (reference:
+    statsmodels OLS and Logit)."""
+    import statsmodels.api as sm
+
+    frame = _frame()
+    frame["b"] = (frame.y > frame.y.median()).astype(int)
+    columns = {"logistic": {"outcome": "b"}} if family == "logistic" else {}
+    tiny = frame.assign(c=frame.c * 1e-200)
+    (tmp_path / "tiny").mkdir()
+    code = main(
+        ["check", "--json", str(_project(tmp_path / "tiny", tiny, family=family, columns=columns))]
+    )
+    out, _ = capsys.readouterr()
+    assert code == 0
+    said = json.loads(out)["messages"]
+    assert any('column "c"' in m and "it is not constant" in m for m in said), said
+    rescaled = tiny.assign(c=tiny.c * 1e200)
+    (tmp_path / "fixed").mkdir()
+    path = _project(tmp_path / "fixed", rescaled, family=family, columns=columns)
+    assert main(["check", "--json", str(path)]) == 0
+    full = json.loads(capsys.readouterr()[0])["estimates"]["full"]
+    design = sm.add_constant(rescaled[["x", "c"]])
+    if family == "linear":
+        ref = sm.OLS(rescaled.y, design).fit()
+    else:
+        ref = sm.Logit(rescaled.b, design).fit(disp=0)
+    assert full["coef"] == pytest.approx(ref.params["x"], rel=1e-6)
+    assert full["se"] == pytest.approx(ref.bse["x"], rel=1e-5)
