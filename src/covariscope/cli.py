@@ -56,7 +56,9 @@ def _parser() -> argparse.ArgumentParser:
     parser = argparse.ArgumentParser(
         prog="covariscope",
         description="Decide, covariate by covariate, what to adjust for and why.",
-        epilog="Run 'covariscope PROJECT' to open a project in the window.",
+        epilog="Run 'covariscope PROJECT' to open a project in the window. Exit status: 0 a "
+        "result (parts left out are said in the messages), 2 the question cannot be answered "
+        "(one line says why and the fix), 1 an internal error.",
     )
     parser.add_argument("--version", action="version", version=f"covariscope {__version__}")
     sub = parser.add_subparsers(dest="command")
