@@ -43,6 +43,7 @@ from __future__ import annotations
 import math
 from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass, field
+from functools import partial
 
 import numpy as np
 import scipy.stats
@@ -63,6 +64,8 @@ from covariscope.vocabulary import StrengthKind
 __all__ = [
     "STRENGTH_KINDS",
     "ClaimData",
+    "ClaimMemo",
+    "ClaimOutcome",
     "ClaimResult",
     "DiagramChecks",
     "Strength",
@@ -402,13 +405,19 @@ def _partial_r(t: DirectionTest, n: int, k: int) -> Strength:
     return Strength(r, "partial_correlation", math.tanh(z - half), math.tanh(z + half))
 
 
+#: one claim's test: the reported direction and the strength, or why none was fitted
+ClaimOutcome = tuple[DirectionTest, Strength] | str
+
+#: ``memo(claim, test)``: ``test()``'s answer, or one kept from an earlier run
+ClaimMemo = Callable[[Claim, Callable[[], ClaimOutcome]], ClaimOutcome]
+
 _ROWS_ELSEWHERE = (
     "the rows stay in the data source, where only claims between numeric variables are "
     "tested (from the cross-product matrix)"
 )
 
 
-def _test_claim(fits: _Fits, claim: Claim) -> tuple[DirectionTest, Strength] | str:
+def _test_claim(fits: _Fits, claim: Claim) -> ClaimOutcome:
     """The reported direction and the strength, or why no model could be fitted."""
     d = fits.data
     a, b, given = claim.a, claim.b, claim.given
@@ -439,6 +448,7 @@ def check_claims(
     method: str = "holm",
     alpha: float = 0.05,
     cancel: Callable[[], bool] | None = None,
+    memo: ClaimMemo | None = None,
 ) -> DiagramChecks:
     """Test every claim and adjust the p-values for multiplicity.
 
@@ -455,6 +465,12 @@ def check_claims(
     cancel : callable, optional
         Checked between claims; a True answer stops the run with the claims
         tested so far (and says so in ``warnings``).
+    memo : callable, optional
+        ``memo(claim, test)`` returns ``test()``'s answer, or an answer kept
+        from an earlier run on the same data for the same pair and
+        separating set (the caller's cache: a diagram edit retests only the
+        claims it changed).  The multiplicity correction always runs on the
+        whole set.
 
     Examples
     --------
@@ -477,7 +493,11 @@ def check_claims(
         if cancel is not None and cancel():
             stopped = (f"Stopped after {len(done)} of {len(claims.claims)} claims.",)
             break
-        outcome = _test_claim(fits, claim)
+        outcome = (
+            _test_claim(fits, claim)
+            if memo is None
+            else memo(claim, partial(_test_claim, fits, claim))
+        )
         if isinstance(outcome, str):
             unfit.append(Untestable(claim.a, claim.b, "no_fit", detail=outcome))
         else:
