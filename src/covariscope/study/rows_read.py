@@ -24,7 +24,7 @@ from covariscope.analysis.evidence import EvidenceEngine, EvidenceTable
 from covariscope.analysis.fits import Fit
 from covariscope.analysis.graph import DiagramAnalysis
 from covariscope.analysis.joint_region import CollinearityPicture, collinearity_pictures
-from covariscope.analysis.modification import Modification, effect_modification
+from covariscope.analysis.modification import Modification, modification_table
 from covariscope.analysis.splines import ResidualCheck, residual_table
 from covariscope.study.decide import Question
 from covariscope.study.prepare import DesignSpec, Run
@@ -119,23 +119,25 @@ def _modification(
     candidates: Sequence[str],
     guides: tuple[float, float],
 ) -> dict[str, Modification]:
-    """:func:`~covariscope.analysis.modification.effect_modification` per candidate,
-    each its own entry: it reads the model's terms and the candidate."""
+    """:func:`~covariscope.analysis.modification.modification_table`, one entry
+    per candidate (it reads the model's terms and the candidate); the
+    candidates not stored are computed in one call, so they share its work."""
     if any(t not in design.blocks for t in terms):
         return {}
     model = tuple(sorted(terms))
-    out: dict[str, Modification] = {}
-    for c in candidates:
-        if c not in design.blocks or c in design.constant:
-            continue
-        out[c] = run.get(
-            "modification",
-            (reads_key(spec, design, (*model, c)), model, c, guides),
-            partial(
-                effect_modification, design, model, c, p_guide=guides[0], ratio_guide=guides[1]
-            ),
-        )
-    return out
+    keys = {
+        c: (reads_key(spec, design, (*model, c)), model, c, guides)
+        for c in candidates
+        if c in design.blocks and c not in design.constant
+    }
+    found: dict[str, Modification] = run.get_many(
+        "modification",
+        keys,
+        lambda missing: modification_table(
+            design, model, missing, p_guide=guides[0], ratio_guide=guides[1]
+        ),
+    )
+    return found
 
 
 def _residual(
@@ -147,25 +149,33 @@ def _residual(
     knots: Mapping[str, int],
     guide: float,
 ) -> dict[str, ResidualCheck]:
-    """:func:`~covariscope.analysis.splines.residual_table` per continuous
-    confounder, each its own entry: it reads the model's terms and the knots."""
+    """:func:`~covariscope.analysis.splines.residual_table`, one entry per
+    continuous confounder (it reads the model's terms and the knots); those
+    not stored are computed in one call, so they share its linear model."""
     model = tuple(sorted(terms))
-    out: dict[str, ResidualCheck] = {}
-    for c in confounders:
-        found: dict[str, ResidualCheck] = run.get(
-            "residual",
-            (reads_key(spec, design, model), model, c, knots.get(c), guide),
-            partial(
-                residual_table,
-                design,
-                model,
-                [c],
-                knots={c: knots[c]} if c in knots else {},
-                change_guide=guide,
-            ),
-        )
-        out.update(found)
-    return out
+    base = reads_key(spec, design, model)
+    # the ones residual_table examines: continuous, varying, in the model
+    examined = [
+        c
+        for c in confounders
+        if c in model
+        and c in design.blocks
+        and not design.blocks[c].levels
+        and c not in design.constant
+    ]
+    keys = {c: (base, model, c, knots.get(c), guide) for c in examined}
+    found: dict[str, ResidualCheck] = run.get_many(
+        "residual",
+        keys,
+        lambda missing: residual_table(
+            design,
+            model,
+            missing,
+            knots={c: knots[c] for c in missing if c in knots},
+            change_guide=guide,
+        ),
+    )
+    return found
 
 
 def rows_read(
