@@ -46,8 +46,6 @@ from dataclasses import dataclass, field
 from functools import partial
 
 import numpy as np
-import scipy.stats
-from statsmodels.stats.multitest import multipletests
 
 from covariscope.analysis.claim_fits import (
     DirectionTest,
@@ -58,6 +56,7 @@ from covariscope.analysis.claim_fits import (
 )
 from covariscope.analysis.claims import CORRECTIONS, Claim, ClaimSet, Untestable
 from covariscope.analysis.design import Design
+from covariscope.analysis.distributions import norm_ppf, t_ppf
 from covariscope.analysis.linear import LinearSummary, linear_summary
 from covariscope.vocabulary import StrengthKind
 
@@ -80,7 +79,7 @@ STRENGTH_KINDS: tuple[str, ...] = tuple(k.value for k in StrengthKind)
 
 _TYPES = frozenset({"continuous", "binary", "count", "categorical"})
 _NUMERIC = frozenset({"continuous", "count"})
-_Z975 = float(scipy.stats.norm.ppf(0.975))
+_Z975 = float(norm_ppf(0.975))
 
 
 @dataclass(frozen=True, eq=False)
@@ -294,6 +293,8 @@ def adjust_p(p: Sequence[float], method: str = "holm") -> np.ndarray:
     if pv.size == 0:
         return np.zeros(0)
     if method == "bh":
+        from statsmodels.stats.multitest import multipletests  # seconds to import: on demand
+
         return np.asarray(multipletests(pv, method="fdr_bh")[1])
     order = np.argsort(pv, kind="stable")
     steps = pv[order] * np.arange(pv.size, 0, -1)
@@ -386,7 +387,7 @@ def strength_of(d: ClaimData, response: str, predictor: str, t: DirectionTest) -
         else:
             scale = _sd(d, p_col) / _sd(d, d.columns[response][0])
             kind = "standardised_coefficient"
-        q = float(scipy.stats.t.ppf(0.975, max(t.coefficients.df_resid, 1)))
+        q = float(t_ppf(0.975, max(t.coefficients.df_resid, 1)))
         return Strength(b * scale, kind, (b - q * s) * scale, (b + q * s) * scale, level)
     per_sd = kp in _NUMERIC
     scale = _sd(d, p_col) if per_sd else 1.0
