@@ -13,8 +13,9 @@ from dataclasses import dataclass, field
 
 import networkx as nx
 
+from covariscope.analysis.contrasts import headline_estimates
 from covariscope.analysis.evalue import EValue, evalue_for_fit
-from covariscope.analysis.evidence import Comparison, EvidenceEngine, EvidenceTable
+from covariscope.analysis.evidence import Comparison, EvidenceEngine, EvidenceTable, compare
 from covariscope.analysis.fits import Fit
 from covariscope.analysis.graph import DiagramAnalysis, is_sufficient
 from covariscope.analysis.joint_region import CollinearityPicture, collinearity_pictures
@@ -110,6 +111,7 @@ def _numbers(ev: EvidenceTable | None, node: str) -> Numbers | None:
         vif=_finite(c.vif),
         aux_r2=_finite(c.aux_r2),
         r2_exposure=_finite(c.r2_exposure),
+        contrast=c.joint.moved_most if c.joint is not None else "",
     )
 
 
@@ -365,16 +367,25 @@ def _rows_read(
                 "lie, every continuous covariate enters linearly."
             )
         return RowsRead()
+    multilevel = engine.design.multilevel
     high_vif = [
         c
         for c, e in evidence.covariates.items()
         if c in evidence.candidates and e.vif_exposure_added >= thresholds["vif"]
     ]
+    if multilevel:
+        # The picture of a near-alias pairs the exposure's one coefficient with C's.
+        high_vif = []
+        messages.append(
+            "The exposure has several levels: effect modification is not examined "
+            "(each contrast would need its own interaction), and the collinearity "
+            "picture is drawn for groups of covariates only."
+        )
     pictures = collinearity_pictures(evidence.full, engine.design, groups, high_vif)
     rec_fit = estimates["recommended"]
     modification: dict[str, Modification] = {}
     residual: dict[str, ResidualCheck] = {}
-    if rec_fit is not None and rec_fit.ok:
+    if rec_fit is not None and rec_fit.ok and not multilevel:
         modification = modification_table(
             engine.design,
             rec_fit.terms,
@@ -382,6 +393,7 @@ def _rows_read(
             p_guide=thresholds["modification_p"],
             ratio_guide=thresholds["modification_ratio"],
         )
+    if rec_fit is not None and rec_fit.ok:
         residual = residual_table(
             engine.design,
             rec_fit.terms,
@@ -437,6 +449,8 @@ def decide(
             estimates["recommended"] = evidence.sets.get(
                 set_names(da).get(tuple(sorted(rec.members)), "")
             )
+        if engine.design.multilevel:
+            estimates = headline_estimates(estimates, compare)
         ev_value, problem = evalue_for_fit(
             estimates["recommended"], engine.design, q.effect_measure
         )

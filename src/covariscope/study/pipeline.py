@@ -537,4 +537,9 @@ def _result(
         pictures=decisions.pictures,
         modification=decisions.modification,
         residual_confounding=decisions.residual_confounding,
+        exposure_levels=(
+            data.engine.design.exposure_levels
+            if data.engine is not None and data.evidence is not None
+            else ()
+        ),
     )
