@@ -191,7 +191,7 @@ def test_multilevel_variant_recovers_each_contrast():
     adjusted = {c.level: c for c in result.estimates["recommended"].contrasts}
     for level in ("middle", "high"):
         truth = gen.TRUE_EFFECT * (mean[level] - mean["low"])
-        name = f"{level} vs low"
+        name = level
         assert adjusted[name].ci[0] <= truth <= adjusted[name].ci[1]
         assert not crude[name].ci[0] <= truth <= crude[name].ci[1]
     assert result.verdicts["age"].code == "adjust"

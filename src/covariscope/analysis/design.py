@@ -142,13 +142,12 @@ class Design:
         """True for a categorical exposure with more than one contrast."""
         return self.exposure_width > 1
 
-    def contrast_label(self, column: str) -> str:
-        """A contrast as the user reads it: ``"current vs never"`` (the column itself
-        for a one-column exposure)."""
+    def contrast_level(self, column: str) -> str:
+        """The level an exposure column contrasts with the reference (``"current"``;
+        the column itself for a one-column exposure)."""
         if not self.exposure_levels or column not in self.exposure_columns:
             return column
-        j = self.exposure_columns.index(column)
-        return f"{self.exposure_levels[j + 1]} vs {self.exposure_levels[0]}"
+        return self.exposure_levels[self.exposure_columns.index(column) + 1]
 
     @property
     def rows_in_memory(self) -> bool:

@@ -238,7 +238,7 @@ class EvidenceEngine:
         if not design.multilevel:
             return fit
         cols = design.exposure_columns
-        return fit.with_contrasts(cols, tuple(design.contrast_label(c) for c in cols))
+        return fit.with_contrasts(cols, tuple(design.contrast_level(c) for c in cols))
 
     def ols(self, terms: Sequence[str]) -> OLSResult | None:
         """The least-squares solution behind a linear :meth:`fit` (None if rank deficient)."""

@@ -29,8 +29,8 @@ def effect_measure(family: str, *, count_outcome: bool = False) -> str:
 class Contrast:
     """One level of a multi-level exposure against its reference level, in one model.
 
-    ``level`` names it as the user reads it (``"current vs never"``);
-    ``column`` is its design column.
+    ``level`` is the level compared with the reference (``"current"``; the
+    reference is the exposure's first level); ``column`` is its design column.
     """
 
     level: str

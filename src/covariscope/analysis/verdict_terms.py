@@ -91,7 +91,7 @@ class Numbers:
     aux_r2: float | None = None
     r2_exposure: float | None = None
     #: a multi-level exposure: the contrast the shifts are of (the one that moved
-    #: most, e.g. "current vs never"); empty for a single contrast
+    #: most, as "current vs never"); empty for a single contrast
     contrast: str = ""
 
 
