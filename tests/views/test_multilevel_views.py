@@ -65,7 +65,7 @@ def test_page_lists_each_contrast(study):
         for model in ("Crude", "Set chosen", "Recommended set")
         for level in ("high", "middle")
     ]
-    assert content.estimates_caption.endswith("each level of the exposure against low")
+    assert content.estimates_caption.endswith("each level vs low")
 
 
 def test_check_text_lists_each_contrast(study):

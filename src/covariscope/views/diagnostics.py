@@ -49,6 +49,8 @@ class ModelRow:
     se_inflation: str
     #: (label, estimate, low, high) on the display scale, for the plot
     point: tuple[str, float, float, float] | None = None
+    #: a multi-level exposure's contrast this row is of ("high vs low"); else empty
+    contrast: str = ""
 
 
 @dataclass(frozen=True)
@@ -218,9 +220,8 @@ def _contrast_rows(joint: Any, name: str, family: str, reference: str) -> list[M
         for row in _model_rows(None, shift.added, shift.dropped, name, family):
             if row.estimate == DASH and row.model not in ("Crude", f"Crude + {name}"):
                 continue  # not a candidate: no full model to show
-            title = f"{row.model}: {shift.level} vs {reference}"
-            point = (title, *row.point[1:]) if row.point is not None else None
-            rows.append(replace(row, model=title, point=point))
+            contrast = f"{shift.level} vs {reference}"
+            rows.append(replace(row, model=f"{row.model}: {contrast}", contrast=contrast))
     return rows
 
 

@@ -203,6 +203,12 @@ def _get(obj: Any, name: str, default: Any = None) -> Any:
     return getattr(obj, name, default)
 
 
+def _contrast_words(fit: Any, levels: tuple[str, ...]) -> str:
+    """`` (high vs low)`` for a multi-level exposure's estimate, else nothing."""
+    contrast = _get(fit, "contrast", "") if fit is not None else ""
+    return f" ({contrast} vs {levels[0]})" if contrast and levels else ""
+
+
 def _change_cell(change: float | None, joint: Any) -> str:
     """The change, naming the contrast that moved most for a multi-level exposure."""
     text = format_percent(change)
@@ -491,12 +497,13 @@ def build_content(result: Any, project: Any, *, today: _dt.date | None = None) -
     estimates_caption = f"Estimates: {measure} with 95% CI"
     levels = tuple(_get(result, "exposure_levels", ()) or ())
     if levels:
-        estimates_caption += f", each level of the exposure against {levels[0]}"
+        estimates_caption += f", each level vs {levels[0]}"
 
     evalue = _get(result, "evalue")
     if evalue is not None and _get(evalue, "estimate") is not None:
         text = (
-            f"E-value: {format_number(_get(evalue, 'estimate'), 2)} for the recommended estimate, "
+            f"E-value: {format_number(_get(evalue, 'estimate'), 2)} for the recommended estimate"
+            f"{_contrast_words(estimates.get('recommended'), levels)}, "
             f"{format_number(_get(evalue, 'ci'), 2)} for its CI limit nearer the null"
         )
         conversion = _get(evalue, "conversion")
