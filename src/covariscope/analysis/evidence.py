@@ -26,7 +26,6 @@ from dataclasses import dataclass, field
 from typing import Any
 
 import numpy as np
-import scipy.stats
 
 from covariscope.analysis.collinearity import (
     AliasFinding,
@@ -38,6 +37,7 @@ from covariscope.analysis.collinearity import (
 )
 from covariscope.analysis.contrasts import ExposureJoint, joint_summary
 from covariscope.analysis.design import Design, constant_message
+from covariscope.analysis.distributions import t_ppf
 from covariscope.analysis.fits import Fit
 from covariscope.analysis.linear import (
     LinearSummary,
@@ -77,7 +77,7 @@ FitRecorder = Callable[[str, bool], None]
 
 @functools.lru_cache(maxsize=256)
 def _t_quantile(df: int) -> float:
-    return float(scipy.stats.t.ppf(0.975, df))
+    return float(t_ppf(0.975, df))
 
 
 class EvidenceCancelledError(Exception):
