@@ -22,8 +22,8 @@ from dataclasses import dataclass
 from typing import TYPE_CHECKING
 
 import numpy as np
-import scipy.stats
 
+from covariscope.analysis.distributions import chi2_sf, f_sf
 from covariscope.analysis.fits import Fit
 from covariscope.vocabulary import RATIO_FAMILIES, change_read
 
@@ -110,8 +110,8 @@ def block_wald(fit: Fit, columns: Sequence[str]) -> BlockWald | None:
     k = len(cols)
     if fit.family == "linear" and fit.df_resid:
         f = chi2 / k
-        return BlockWald(f, k, float(scipy.stats.f.sf(f, k, fit.df_resid)), "F")
-    return BlockWald(chi2, k, float(scipy.stats.chi2.sf(chi2, k)))
+        return BlockWald(f, k, f_sf(f, k, fit.df_resid), "F")
+    return BlockWald(chi2, k, chi2_sf(chi2, k))
 
 
 def _read(cmp: Comparison, ratio: bool) -> float | None:
