@@ -228,17 +228,18 @@ _ESTIMATE_TITLES = (
 )
 
 
-def _estimate_lines(estimates: Mapping[str, Any]) -> list[tuple[str, Any]]:
-    """(title, fit or contrast) of every estimate line: one per model, or for a
-    multi-level exposure one per model and contrast."""
-    lines: list[tuple[str, Any]] = []
+def _estimate_lines(estimates: Mapping[str, Any]) -> list[tuple[str, Any, Any]]:
+    """(title, fit or contrast, rows) of every estimate line: one per model, or
+    for a multi-level exposure one per model and contrast."""
+    lines: list[tuple[str, Any, Any]] = []
     for key, title in _ESTIMATE_TITLES:
         fit = estimates.get(key)
+        n = _get(fit, "n") if fit is not None else None
         contrasts = tuple(_get(fit, "contrasts", ()) or ()) if fit is not None else ()
         if contrasts and _get(fit, "ok", True):
-            lines += [(f"{title}: {c.level}", c) for c in contrasts]
+            lines += [(f"{title}: {c.level}", c, n) for c in contrasts]
         else:
-            lines.append((title, fit))
+            lines.append((title, fit, n))
     return lines
 
 
@@ -476,16 +477,15 @@ def build_content(result: Any, project: Any, *, today: _dt.date | None = None) -
     # -- estimates --------------------------------------------------------------------
     estimates = _get(result, "estimates", {}) or {}
     wanted = _estimate_lines(estimates)
-    numbers = [_fit_numbers(fit, ratio) for _, fit in wanted]
+    numbers = [_fit_numbers(fit, ratio) for _, fit, _ in wanted]
     widths = [hi - lo for _, lo, hi in numbers if lo is not None and hi is not None]
     decimals = estimate_decimals(widths, ratio=ratio)
     rows_out: list[EstimateRow] = []
-    for (title, fit), (est, lo, hi) in zip(wanted, numbers, strict=True):
+    for (title, fit, n), (est, lo, hi) in zip(wanted, numbers, strict=True):
         if est is None:
             why = _one_line(_get(fit, "message", "") or "not estimated") if fit else "not estimated"
             rows_out.append(EstimateRow(title, _NOT_AVAILABLE, why, ""))
         else:
-            n = _get(fit, "n")
             rows_out.append(
                 EstimateRow(
                     title,
