@@ -587,4 +587,9 @@ def _result(
         modification=read.modification,
         residual_confounding=read.residual,
         data_problem=data.problem,
+        exposure_levels=(
+            data.engine.design.exposure_levels
+            if data.engine is not None and data.evidence is not None
+            else ()
+        ),
     )

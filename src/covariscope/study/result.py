@@ -61,6 +61,9 @@ class StudyResult:
     #: asked for): the verdicts then come from the diagram alone.  ``check``
     #: and ``report`` treat it as a question that cannot be answered (exit 2).
     data_problem: str = ""
+    #: a multi-level categorical exposure's levels as text, the reference first
+    #: (empty for a binary or continuous exposure)
+    exposure_levels: tuple[str, ...] = ()
     #: The stages this run computed (the rest came from the cache), in order.
     recomputed: tuple[str, ...] = ()
     #: Models this run fitted (the rest came from the cache).
