@@ -24,7 +24,6 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
-from functools import partial
 
 import numpy as np
 import numpy.typing as npt
@@ -46,10 +45,8 @@ from covariscope.analysis.glm import EXTREME_MU
 from covariscope.analysis.rows import (
     GlmSums,
     RowReducer,
-    SandwichSums,
     glm_pass,
-    merge_sandwich_sums,
-    sandwich_sums,
+    sandwich_pass,
 )
 
 __all__ = ["RowOutcome", "fit_glm_rows"]
@@ -242,6 +239,4 @@ def fit_glm_rows(
 
 
 def _sandwich(reducer: RowReducer, columns: tuple[int, ...], params: Array, cov: Array) -> Array:
-    fn = partial(sandwich_sums, columns=columns, params=params)
-    sums: SandwichSums = reducer.reduce(fn, merge_sandwich_sums)
-    return cov @ sums.meat @ cov
+    return cov @ sandwich_pass(reducer, columns, params).meat @ cov

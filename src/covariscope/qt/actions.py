@@ -108,6 +108,7 @@ class WindowActions:
             self.family[key] = act
         self.outcome_columns = a("&Outcome columns…", w.edit_outcome_columns)
         self.thresholds = a("&Thresholds…", w.edit_thresholds)
+        self.engine = a("Data &engine…", w.data.edit_engine)
         self.rerun = a("&Run the analysis again", w.runner.run_now, _Std.Refresh)
         # no Esc shortcut: Esc belongs to the canvas (leave a mode, drop a rename);
         # while work runs the status bar shows a Cancel button
@@ -206,7 +207,9 @@ class WindowActions:
         analysis = bar.addMenu("&Analysis")
         family = analysis.addMenu("Model &family")
         family.addActions(self.family_group.actions())
-        analysis.addActions([self.outcome_columns, self.thresholds, self.rerun, self.cancel])
+        analysis.addActions(
+            [self.outcome_columns, self.thresholds, self.engine, self.rerun, self.cancel]
+        )
 
         self.view_menu = bar.addMenu("&View")
         self.view_menu.addActions([self.zoom_in, self.zoom_out, self.actual_size, self.fit])

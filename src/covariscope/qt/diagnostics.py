@@ -636,7 +636,11 @@ class EndpointDialog(NodeDialog):
                 ax.hist(values.to_numpy(dtype=float), bins=40, color="#56B4E9", edgecolor="#0072B2")
                 ax.set_ylabel("rows")
             ax.set_xlabel(s.column)
-            ax.set_title(f"Distribution of {s.label}", fontsize=10)
+            title = f"Distribution of {s.label}"
+            sample = getattr(result, "sample", None)
+            if sample is not None and sample.frame_is_sample and frame is sample.frame:
+                title += f"\nrandom sample of {len(values):,} of {sample.used:,} rows"
+            ax.set_title(title, fontsize=10)
         self.canvas.draw_idle()
 
 

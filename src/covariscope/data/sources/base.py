@@ -22,15 +22,12 @@ from covariscope.analysis.design import Design, TermSpec
 from covariscope.data.profile import ColumnProfile
 from covariscope.data.sample import AnalyticSample
 from covariscope.data.sources.coding import ColumnUse
+from covariscope.vocabulary import ENGINE_TERMS, Engine
 
 __all__ = ["ENGINES", "DataSource", "DesignRequest", "ProgressFn"]
 
 #: The engines a study can read its data with: name → plain description.
-ENGINES: dict[str, str] = {
-    "memory": "in memory (pandas)",
-    "duckdb": "DuckDB, reading the file where it lies",
-    "dask": "Dask, summing on a cluster",
-}
+ENGINES: dict[str, str] = {e.value: ENGINE_TERMS[e].label for e in Engine if e is not Engine.AUTO}
 
 ProgressFn = Callable[[float, str], None]
 
