@@ -24,7 +24,6 @@ import numpy.typing as npt
 import pandas as pd
 
 from covariscope.analysis.design import Design, TermCoding, TermSpec, plan_term
-from covariscope.analysis.design_rows import make_row_design
 from covariscope.analysis.rows import (
     ColumnStats,
     GlmSums,
@@ -34,7 +33,7 @@ from covariscope.analysis.rows import (
     column_stats,
 )
 from covariscope.data.coerce import coerce_column
-from covariscope.data.sources.base import DesignRequest
+from covariscope.data.sources.base import DesignRequest, row_design
 from covariscope.data.sources.batched import MAX_TRACKED_LEVELS, FrameCounts
 from covariscope.data.sources.coding import ColumnUse
 from covariscope.data.values import level_key
@@ -286,16 +285,7 @@ def sql_design(source: Any, request: DesignRequest, key: str) -> Design | None:
     else:
         columns.append(f"CAST({quote(out.column)} AS DOUBLE)")
     offset = None if request.offset is None else f"CAST({quote(request.offset)} AS DOUBLE)"
-    rows = SqlRows(source, columns, offset, base)
-    return make_row_design(
-        rows,
-        exposure=exposure,
-        covariates=covariates,
-        outcome=request.outcome,
-        family=request.family,
-        exposure_node=request.exposure_node,
-        source_key=key,
-    )
+    return row_design(SqlRows(source, columns, offset, base), request, exposure, covariates, key)
 
 
 def _coding(use: ColumnUse, raw: list[Any]) -> dict[Any, list[Any]]:
