@@ -39,7 +39,22 @@ _RUN = """
 import json, sys, time
 start = time.perf_counter()
 from covariscope.cli import main
+from covariscope.data.sources.duck_sql import SqlRows
 import io, contextlib
+passes = {{"n": 0, "seconds": 0.0}}
+
+def counted(method):
+    def run(*args, **kwargs):
+        began = time.perf_counter()
+        try:
+            return method(*args, **kwargs)
+        finally:
+            passes["n"] += 1
+            passes["seconds"] += time.perf_counter() - began
+    return run
+
+for name in ("column_stats", "glm_sums", "sandwich_sums"):
+    setattr(SqlRows, name, counted(getattr(SqlRows, name)))
 out = io.StringIO()
 with contextlib.redirect_stdout(out):
     rc = main(["check", {project!r}, "--engine", {engine!r}, "--family", {family!r}, "--json"])
@@ -48,7 +63,8 @@ status = open("/proc/self/status").read()
 peak = int(status.split("VmHWM:")[1].split()[0]) * 1024
 result = json.loads(out.getvalue()) if rc == 0 else None
 coef = result["estimates"]["full"]["coef"] if result else None
-print(json.dumps({{"rc": rc, "wall": wall, "peak": peak, "full": coef}}))
+print(json.dumps({{"rc": rc, "wall": wall, "peak": peak, "full": coef, **{{
+    "passes": passes["n"], "pass_seconds": passes["seconds"]}}}}))
 """
 
 
@@ -118,6 +134,20 @@ def run(project: Path, engine: str, family: str) -> dict[str, float]:
     return figures
 
 
+def _passes(r: dict[str, float], rows: int, full: int) -> None:
+    """The database passes of a DuckDB run, and what they would take at ``full`` rows."""
+    if not r.get("passes"):
+        return
+    each = r["pass_seconds"] / r["passes"]
+    line = f"   {'':9s} {int(r['passes'])} aggregate passes, {each:.2f} s each"
+    if full > rows:
+        line += (
+            f"; at {full:,} rows (passes scale with rows): about "
+            f"{r['passes'] * each * full / rows / 60:.0f} min of passes"
+        )
+    print(line)
+
+
 def _gb(n: float) -> str:
     return f"{n / 2**30:.2f} GB"
 
@@ -139,6 +169,7 @@ def main() -> None:
         help="rows for the medium logistic runs (default: --medium)",
     )
     parser.add_argument("--covariates", type=int, default=20)
+    parser.add_argument("--no-dask", action="store_true", help="skip the Dask runs")
     parser.add_argument("--folder", type=Path, default=None, help="where to write the files")
     parser.add_argument("--keep", action="store_true", help="keep the generated files")
     args = parser.parse_args()
@@ -169,6 +200,7 @@ def main() -> None:
                 f"   {family:9s} {rows:>12,} rows  wall {r['wall']:7.1f} s  peak {_gb(r['peak'])}  "
                 f"in-memory size {_gb(frame)}  ratio {r['peak'] / frame:.3f} (target ≤ 0.25)"
             )
+            _passes(r, rows, int(args.large))
         print("\n2. Medium file: DuckDB and Dask (2 local workers) against in memory")
         for family in ("linear", "logistic"):
             rows = sizes[("medium", family)]
@@ -177,6 +209,8 @@ def main() -> None:
                 f"   {family:9s} {rows:>12,} rows  memory  wall {base['wall']:7.1f} s  peak {_gb(base['peak'])}"
             )
             for engine in ("duckdb", "dask"):
+                if engine == "dask" and args.no_dask:
+                    continue
                 r = run(projects[rows], engine, family)
                 same = abs(r["full"] - base["full"]) <= 1e-8 * abs(base["full"])
                 print(
@@ -184,6 +218,7 @@ def main() -> None:
                     f"time ratio {r['wall'] / base['wall']:.2f}  memory ratio {r['peak'] / base['peak']:.2f}  "
                     f"same estimate: {same}"
                 )
+                _passes(r, rows, rows)
     finally:
         if not args.keep:
             shutil.rmtree(root, ignore_errors=True)

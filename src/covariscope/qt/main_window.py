@@ -670,6 +670,7 @@ class MainWindow(QMainWindow):
         save_layout(self)
         self.runner.shutdown(30_000)
         self.data.loader.shutdown(30_000)
+        self.data.profiler.shutdown(30_000)
         self.io.shutdown()
         self.project.diagram.unsubscribe(self._model_changed)
         self.project.unsubscribe(self._project_changed)
