@@ -120,7 +120,7 @@ def test_profiles_arrive_column_by_column_with_progress(qtbot, large, fake_promp
 
 
 def test_profiling_is_cancelled_while_the_canvas_takes_edits(
-    qtbot, large, fake_prompts, monkeypatch
+    qtbot, large, fake_prompts, monkeypatch, shots
 ):
     from covariscope.data.sources.duck import DuckSource
 
@@ -142,6 +142,7 @@ def test_profiling_is_cancelled_while_the_canvas_takes_edits(
     assert len(w.scene.items()) > 0
     assert w.state_label.text() == "Waiting for the data"
     assert w.cancel_button.isVisible()
+    w.grab().save(str(shots / "large_data_profiling.png"))
     w.cancel_work()
     release.set()
     assert not w.data.loading
@@ -151,7 +152,7 @@ def test_profiling_is_cancelled_while_the_canvas_takes_edits(
     _close(w)
 
 
-def test_the_engine_is_chosen_in_the_window_and_saved(qtbot, tmp_path, fake_prompts):
+def test_the_engine_is_chosen_in_the_window_and_saved(qtbot, tmp_path, fake_prompts, shots):
     from covariscope.data.sources.duck import DuckSource
     from covariscope.qt.settings_dialogs import EngineDialog
 
@@ -161,6 +162,8 @@ def test_the_engine_is_chosen_in_the_window_and_saved(qtbot, tmp_path, fake_prom
     qtbot.waitUntil(lambda: w.data.table is not None and not w.data.loading, timeout=60_000)
     assert w.data.source is None  # a small file: in memory
     dialog = EngineDialog("auto", "", w)
+    dialog.show()
+    dialog.grab().save(str(shots / "engine_dialog.png"))
     dialog.engine.setCurrentIndex(dialog.engine.findData("dask"))
     assert dialog.scheduler.isEnabled()
     dialog.scheduler.setText(" tcp://host:8786 ")

@@ -90,7 +90,7 @@ class EngineDialog(QDialog):
                 self.engine.count() - 1, ENGINE_TERMS[e].explanation, Qt.ItemDataRole.ToolTipRole
             )
         self.engine.setCurrentIndex(max(self.engine.findData(engine), 0))
-        form.addRow("Read the data with", self.engine)
+        form.addRow("Engine", self.engine)
         self.explanation = QLabel()
         self.explanation.setWordWrap(True)
         form.addRow(self.explanation)
