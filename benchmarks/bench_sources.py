@@ -16,7 +16,8 @@ Usage (sizes as the issue asks; scale down on a small machine and say so)::
     python benchmarks/bench_sources.py --large 5e7 --medium 1e7 --covariates 20 \\
         --folder /path/with/space
 
-The generated files are deleted at the end unless ``--keep``.
+The generated files are deleted at the end unless ``--keep``; ``--reuse FOLDER
+--generate-only`` writes them ahead of the timed run (``--reuse FOLDER`` again).
 """
 
 from __future__ import annotations
@@ -172,8 +173,17 @@ def main() -> None:
     parser.add_argument("--no-dask", action="store_true", help="skip the Dask runs")
     parser.add_argument("--folder", type=Path, default=None, help="where to write the files")
     parser.add_argument("--keep", action="store_true", help="keep the generated files")
+    parser.add_argument(
+        "--reuse",
+        type=Path,
+        default=None,
+        help="a folder of files kept by an earlier run (--keep): used as they are, never deleted",
+    )
+    parser.add_argument(
+        "--generate-only", action="store_true", help="write the files (with --reuse) and stop"
+    )
     args = parser.parse_args()
-    root = Path(tempfile.mkdtemp(prefix="covariscope-bench-", dir=args.folder))
+    root = args.reuse or Path(tempfile.mkdtemp(prefix="covariscope-bench-", dir=args.folder))
     k = args.covariates
     try:
         print(f"{k} covariates; timings in fresh processes, on whatever load the machine carries.")
@@ -186,16 +196,29 @@ def main() -> None:
         projects: dict[int, Path] = {}
         for rows in sorted(set(sizes.values())):
             start = time.perf_counter()
-            projects[rows] = write_study(root / f"rows{rows}", rows, k)
-            size = (root / f"rows{rows}" / "rows.parquet").stat().st_size
+            folder = root / f"rows{rows}-k{k}"
+            if (folder / "study.json").exists():
+                projects[rows] = folder / "study.json"
+                continue
+            projects[rows] = write_study(folder, rows, k)
+            size = (folder / "rows.parquet").stat().st_size
             print(
                 f"wrote {rows:,} rows ({_gb(size)} Parquet) in {time.perf_counter() - start:.0f} s"
             )
+        if args.generate_only:
+            return
+        done: dict[tuple[int, str, str], dict[str, float]] = {}
+
+        def measured(rows: int, engine: str, family: str) -> dict[str, float]:
+            if (rows, engine, family) not in done:
+                done[rows, engine, family] = run(projects[rows], engine, family)
+            return done[rows, engine, family]
+
         print("\n1. Large file, DuckDB")
         for family in ("linear", "logistic"):
             rows = sizes[("large", family)]
             frame = rows * (k + 3) * 8
-            r = run(projects[rows], "duckdb", family)
+            r = measured(rows, "duckdb", family)
             print(
                 f"   {family:9s} {rows:>12,} rows  wall {r['wall']:7.1f} s  peak {_gb(r['peak'])}  "
                 f"in-memory size {_gb(frame)}  ratio {r['peak'] / frame:.3f} (target ≤ 0.25)"
@@ -204,14 +227,14 @@ def main() -> None:
         print("\n2. Medium file: DuckDB and Dask (2 local workers) against in memory")
         for family in ("linear", "logistic"):
             rows = sizes[("medium", family)]
-            base = run(projects[rows], "memory", family)
+            base = measured(rows, "memory", family)
             print(
                 f"   {family:9s} {rows:>12,} rows  memory  wall {base['wall']:7.1f} s  peak {_gb(base['peak'])}"
             )
             for engine in ("duckdb", "dask"):
                 if engine == "dask" and args.no_dask:
                     continue
-                r = run(projects[rows], engine, family)
+                r = measured(rows, engine, family)
                 same = abs(r["full"] - base["full"]) <= 1e-8 * abs(base["full"])
                 print(
                     f"   {'':9s} {'':>12s}       {engine:6s}  wall {r['wall']:7.1f} s  peak {_gb(r['peak'])}  "
@@ -220,7 +243,7 @@ def main() -> None:
                 )
                 _passes(r, rows, rows)
     finally:
-        if not args.keep:
+        if not args.keep and args.reuse is None:
             shutil.rmtree(root, ignore_errors=True)
 
 

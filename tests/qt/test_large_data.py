@@ -203,3 +203,20 @@ def test_diagnostics_plots_say_they_draw_a_random_sample(
     assert exposure is not None
     assert f"random sample of 20,000 of {used:,} rows" in exposure.figure.axes[0].get_title()
     _close(w)
+
+
+def test_a_file_too_large_for_memory_is_read_where_it_lies_by_itself(
+    qtbot, tmp_path, fake_prompts, wait_for_analysis, monkeypatch
+):
+    from covariscope.data.sources import choose
+    from covariscope.data.sources.duck import DuckSource
+
+    path = _study(tmp_path, "auto")
+    monkeypatch.setattr(choose, "available_memory", lambda: 2**20)  # 1 MB free
+    w = _window(qtbot, fake_prompts)
+    assert w.io.open(str(path))
+    wait_for_analysis(qtbot, w)
+    assert isinstance(w.data.source, DuckSource)
+    assert w.project.analysis.engine == "auto"  # chosen for this file, not saved
+    assert any("read where it lies (DuckDB)" in m for m in w.result.messages)
+    _close(w)
