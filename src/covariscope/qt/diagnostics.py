@@ -696,7 +696,12 @@ class EndpointDialog(NodeDialog):
             ax.set_xlabel(s.column)
             title = f"Distribution of {s.label}"
             sample = getattr(result, "sample", None)
-            if sample is not None and sample.frame_is_sample and frame is sample.frame:
+            # only a sample read from a source that keeps its rows holds a random sample
+            if (
+                sample is not None
+                and getattr(sample, "frame_is_sample", False)
+                and frame is sample.frame
+            ):
                 title += f"\nrandom sample of {len(values):,} of {sample.used:,} rows"
             ax.set_title(title, fontsize=10)
         self.canvas.draw_idle()
