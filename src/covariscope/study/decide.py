@@ -19,6 +19,7 @@ from covariscope.analysis.fits import Fit
 from covariscope.analysis.graph import DiagramAnalysis, is_sufficient
 from covariscope.analysis.joint_region import CollinearityPicture, collinearity_pictures
 from covariscope.analysis.modification import Modification, modification_table
+from covariscope.analysis.proposal_wording import sufficiency_sentence
 from covariscope.analysis.recommend import Recommendation, pair_r2, recommend_set
 from covariscope.analysis.splines import ResidualCheck, residual_table
 from covariscope.analysis.verdicts import (
@@ -219,9 +220,10 @@ def _recommend(
             "identified by adjustment (see the unmeasured variables and the E-value)."
         )
     if q.proposed and not da.review.sufficient:
+        roles = {c: f.role for c, f in da.roles.items()}
         messages.append(
-            f"The proposed set {format_set(label[p] for p in q.proposed)} is not sufficient: it leaves "
-            f"{da.review.open_paths_text()} backdoor path(s) open."
+            f"The proposed set {format_set(label[p] for p in q.proposed)} is "
+            f"{sufficiency_sentence(da.review, roles, label)}."
         )
     return rec
 

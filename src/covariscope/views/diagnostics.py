@@ -14,7 +14,7 @@ from dataclasses import dataclass, field
 from typing import Any
 
 from covariscope.views.estimates import display_scale
-from covariscope.views.format import DASH, is_number, number, percent
+from covariscope.views.format import DASH, is_number, number, percent, term_names
 from covariscope.views.joint_picture import PictureView, picture_views
 from covariscope.views.modification import ModificationView, modification_view
 from covariscope.views.outcome_settings import outcome_column_in_use
@@ -245,7 +245,7 @@ def node_diagnostics(
             ]
         collinearity = getattr(getattr(result, "evidence", None), "collinearity", None)
         if collinearity is not None:
-            figures += condition_rows(collinearity, node_id, name)
+            figures += condition_rows(collinearity, node_id, name, labels)
         figures.append((f"VIF of the exposure in crude + {name}", number(vif_x)))
         figures += _own(name, getattr(ev, "own_coef", None), getattr(ev, "own_ci", None))
         figures += residual_figures(
@@ -293,7 +293,9 @@ def node_diagnostics(
     )
 
 
-def condition_rows(report: Any, node_id: str, name: str) -> list[tuple[str, str]]:
+def condition_rows(
+    report: Any, node_id: str, name: str, labels: Mapping[str, str] | None = None
+) -> list[tuple[str, str]]:
     """The full model's largest condition index, and each flagged dimension
     that holds the node with the terms that share it (Belsley, Kuh & Welsch
     1980: an index of 30 or more shared by two or more terms)."""
@@ -303,9 +305,11 @@ def condition_rows(report: Any, node_id: str, name: str) -> list[tuple[str, str]
     largest = float(report.condition_indices[-1])  # ascending: the largest is last
     rows = [("Largest condition index, full model", f"{number(largest)} ({guide})")]
     holding = [f for f in report.flagged if node_id in f.nodes]
+    words = term_names(report.columns, report.nodes, labels or {})
     for f in holding:
         shares = ", ".join(
-            f"{term} {p:.2f}" for term, p in zip(f.columns, f.proportions, strict=True)
+            f"{words.get(term, term)} {p:.2f}"
+            for term, p in zip(f.columns, f.proportions, strict=True)
         )
         rows.append((f"Flagged dimension, index {f.index:.1f}", f"variance shared by {shares}"))
     if not holding:
