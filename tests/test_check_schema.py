@@ -40,6 +40,19 @@ def test_demo_output_validates(schema, capsys):
     assert out["keep_one_groups"] == out["collinear_groups"] == [["area", "income"]]
     for member in ("area", "income"):
         assert out["covariates"][member]["group"] == ["area", "income"]
+    code = out["model_code"]["recommended"]
+    assert code["members"] == ["age", "income"]
+    assert code["formula"] == "lungfn ~ dust + age + income"
+    assert "smf.ols('lungfn ~ dust + age + income'" in code["python"]
+    assert "lm(lungfn ~ dust + age + income, data = d)" in code["r"]
+    assert "regress lungfn dust age income" in code["stata"]
+    broken = json.loads(json.dumps(out))
+    broken["model_code"]["proposed"]["python"] = 1
+    with pytest.raises(jsonschema.ValidationError):
+        jsonschema.validate(broken, schema)
+    del broken["model_code"]
+    with pytest.raises(jsonschema.ValidationError):
+        jsonschema.validate(broken, schema)
 
 
 @pytest.mark.parametrize("family", ["logistic", "risk_ratio", "cox"])

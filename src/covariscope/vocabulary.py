@@ -35,6 +35,7 @@ __all__ = [
     "CLAIM_CAUTION_SHORT",
     "CLAIM_TEST_TERMS",
     "COLUMN_TYPE_TERMS",
+    "CONCEPT_TERMS",
     "CORRECTION_TERMS",
     "DEFAULT_CLAIM_LIMIT",
     "DEFAULT_THRESHOLDS",
@@ -859,3 +860,67 @@ def column_tooltip(column: ReviewColumn, *, ratio: bool = False) -> str:
     if column in (ReviewColumn.CHANGE_ADDED, ReviewColumn.CHANGE_DROPPED):
         text += " " + (CHANGE_SIGN_RATIO if ratio else CHANGE_SIGN)
     return text
+
+
+# -- the concepts every screen names ------------------------------------------------------
+
+#: The trade's concepts the screens and the page use, each defined once (the glossary
+#: lists them; DESIGN §2).
+CONCEPT_TERMS: tuple[Term, ...] = (
+    Term(
+        "backdoor_path",
+        "Backdoor path",
+        "backdoor path",
+        "A path between the exposure and the outcome, arrows taken either way, whose first "
+        "arrow points into the exposure. It is open when no non-collider on it is adjusted for "
+        "and every collider on it (or a descendant of one) is.",
+    ),
+    Term(
+        "proposed_set",
+        "Proposed set",
+        "proposed",
+        "The covariates you tick to adjust for; the program says whether the diagram finds it "
+        "sufficient, and which members it could do without (either one, not both, where two "
+        "close the same path).",
+    ),
+    Term(
+        "minimal_set",
+        "Minimal sufficient set",
+        "minimal set",
+        "A set of measured covariates that closes every backdoor path and holds no descendant "
+        "of the exposure, none of whose members can be dropped (the backdoor criterion).",
+    ),
+    Term(
+        "recommended_set",
+        "Recommended set",
+        "recommended",
+        "The minimal sufficient set the program suggests: it keeps the member of a collinear "
+        "group that carries the most of the confounding, then prefers your proposed set.",
+    ),
+    Term(
+        "proxy_link",
+        "Proxy link",
+        "proxy link",
+        "An undirected link saying two variables measure the same thing; linked covariates "
+        "form a measure group that the diagram treats as one construct.",
+    ),
+    Term(
+        "crude_model",
+        "Crude model",
+        "crude",
+        "The outcome on the exposure alone.",
+    ),
+    Term(
+        "full_model",
+        "Full model",
+        "full",
+        "The outcome on the exposure and every measured candidate covariate.",
+    ),
+    Term(
+        "analytic_sample",
+        "Analytic sample",
+        "sample",
+        "The rows complete on the outcome, the exposure and every candidate covariate, so "
+        "that every compared model sees the same rows.",
+    ),
+)

@@ -259,6 +259,7 @@ class PathsPanel(QWidget):
         self.list = QListWidget()
         self.list.setWordWrap(True)
         self.list.setTextElideMode(Qt.TextElideMode.ElideNone)
+        self.list.setMinimumHeight(36)
         self.list.currentItemChanged.connect(self._chosen)
         layout = QVBoxLayout(self)
         layout.setContentsMargins(4, 4, 4, 4)
@@ -305,7 +306,18 @@ class PathsPanel(QWidget):
                 count = f"{total:,}" if exact else f"At least {total:,}"
                 head = f"{count} backdoor paths left open by the proposed set; {n} are listed."
             self.summary.setText(f"{head} Choose one to see it on the diagram.")
+        self._fit_summary()
         self.path_chosen.emit(None)
+
+    def _fit_summary(self) -> None:
+        """Give the summary the height its wrapped words need, so a small dock
+        grows (or scrolls the list) instead of cutting the sentence."""
+        width = max(1, self.summary.width())
+        self.summary.setMinimumHeight(self.summary.heightForWidth(width))
+
+    def resizeEvent(self, event: Any) -> None:
+        super().resizeEvent(event)
+        self._fit_summary()
 
     def choose(self, index: int) -> None:
         self.list.setCurrentRow(index)

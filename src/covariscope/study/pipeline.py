@@ -30,6 +30,7 @@ from covariscope.analysis.evidence import (
 from covariscope.analysis.fits import effect_measure
 from covariscope.analysis.graph import DiagramAnalysis
 from covariscope.analysis.linear import LinearSummary
+from covariscope.analysis.model_terms import model_terms
 from covariscope.analysis.verdicts import LABELS, VERDICTS, Verdict
 from covariscope.data.loading import LoadedTable
 from covariscope.data.sample import AnalyticSample, CompleteCases, summary_text
@@ -558,4 +559,9 @@ def _result(
         pictures=decisions.pictures,
         modification=decisions.modification,
         residual_confounding=decisions.residual_confounding,
+        model_terms=(
+            model_terms(data.engine.design)
+            if data.engine is not None and data.evidence is not None
+            else {}
+        ),
     )
