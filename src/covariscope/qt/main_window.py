@@ -187,8 +187,11 @@ class MainWindow(QMainWindow):
 
     def _legend_toggled(self, shown: bool) -> None:
         """An opened legend takes a readable width beside the canvas."""
-        if shown:
-            self.resizeDocks([self.docks["legend"]], [360], Qt.Orientation.Horizontal)
+        if shown:  # once the dock is laid out
+            QTimer.singleShot(
+                0,
+                lambda: self.resizeDocks([self.docks["legend"]], [360], Qt.Orientation.Horizontal),
+            )
 
     def _size_review(self) -> None:
         """The review table is the main output: give it a good share of the height."""
