@@ -89,6 +89,8 @@ def test_quoted_names_offset_and_spline_run_and_reproduce(awkward_study, capsys)
     assert f"Boundary.knots = c({knots[0]!r}, {knots[-1]!r})" in code.r
     assert "offset(`log py`)" in code.r
     assert 'vcovHC(fit, type = "HC0")' in code.r
+    assert 's[rownames(s) == "dust", , drop = FALSE]' in code.r
+    assert 'na.strings = c("", "NA")' in code.r  # an empty cell is missing, as in pandas
     assert 'read.csv("' in code.r
     assert "check.names = FALSE" in code.r
     assert code.formula.startswith("low_lung ~ dust + ")

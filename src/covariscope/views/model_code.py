@@ -99,15 +99,6 @@ class Term:
     def factor(self) -> bool:
         return self.type in ("binary", "categorical")
 
-    @property
-    def width(self) -> int:
-        """How many coefficients the term has."""
-        if self.knots:
-            return len(self.knots) - 1
-        if self.factor:
-            return max(1, len(self.levels) - 1)
-        return 1
-
 
 @dataclass(frozen=True)
 class ModelCode:
@@ -392,10 +383,11 @@ def _py_term_list(m: _Model) -> list[str]:
 # -- R -----------------------------------------------------------------------------------
 
 _R_READ = {
-    ".csv": "read.csv({p}, check.names = FALSE)",
-    ".tsv": "read.delim({p}, check.names = FALSE)",
-    ".tab": "read.delim({p}, check.names = FALSE)",
-    ".txt": "read.delim({p}, check.names = FALSE)",
+    # an empty cell is missing, as pandas (and Covariscope) read it
+    ".csv": 'read.csv({p}, check.names = FALSE, na.strings = c("", "NA"))',
+    ".tsv": 'read.delim({p}, check.names = FALSE, na.strings = c("", "NA"))',
+    ".tab": 'read.delim({p}, check.names = FALSE, na.strings = c("", "NA"))',
+    ".txt": 'read.delim({p}, check.names = FALSE, na.strings = c("", "NA"))',
     ".xlsx": "as.data.frame(readxl::read_excel({p}))",
     ".xls": "as.data.frame(readxl::read_excel({p}))",
     ".parquet": "as.data.frame(arrow::read_parquet({p}))",
@@ -410,9 +402,9 @@ def _r(m: _Model, head: str) -> str:
     suffix = PurePath(m.data_path).suffix.lower()
     read = _R_READ.get(suffix, _R_READ[".csv"]).format(p=_py_str(m.data_path))
     formula = _formula(m)
-    width = m.exposure.width
-    first = 1 if m.family == "cox" else 2
-    rows = f"{first}" if width == 1 else f"{first}:{first + width - 1}"
+    x = _py_str(_r_term(m.exposure))
+    # the exposure's row(s): its name, or each level's row of a factor
+    pick = f"startsWith(rownames(s), {x})" if m.exposure.factor else f"rownames(s) == {x}"
     lines = [
         f"# {head}",
         f"d <- {read}",
@@ -420,26 +412,24 @@ def _r(m: _Model, head: str) -> str:
         f"d <- d[complete.cases(d[, c({', '.join(_py_str(c) for c in m.sample)})]), ]",
     ]
     if m.family == "linear":
-        lines += [f"fit <- lm({formula}, data = d)", f"coef(summary(fit))[{rows}, ]"]
+        lines += [f"fit <- lm({formula}, data = d)", "s <- coef(summary(fit))"]
     elif m.family == "logistic":
-        lines += [
-            f"fit <- glm({formula}, family = binomial, data = d)",
-            f"coef(summary(fit))[{rows}, ]",
-            f"exp(coef(fit)[{rows}])  # odds ratio",
-        ]
+        lines += [f"fit <- glm({formula}, family = binomial, data = d)", "s <- coef(summary(fit))"]
     elif m.family == "risk_ratio":
         lines += [
             f'fit <- glm({formula}, family = poisson(link = "log"), data = d)',
             "# robust (HC0 sandwich) standard errors",
-            f'lmtest::coeftest(fit, vcov. = sandwich::vcovHC(fit, type = "HC0"))[{rows}, ]',
-            f"exp(coef(fit)[{rows}])  # risk or rate ratio",
+            's <- lmtest::coeftest(fit, vcov. = sandwich::vcovHC(fit, type = "HC0"))',
         ]
     else:
         lines += [
             "library(survival)",
             f'fit <- coxph({formula}, data = d, ties = "efron")',
-            f"coef(summary(fit))[{rows}, ]",
+            "s <- coef(summary(fit))",
         ]
+    lines.append(f"s[{pick}, , drop = FALSE]  # the exposure's coefficient(s) and SE")
+    if family_term(m.family).ratio:
+        lines.append(f"exp(s[{pick}, 1])  # on the ratio scale")
     return "\n".join(lines) + "\n"
 
 
