@@ -128,3 +128,21 @@ def test_capped_open_paths_validate_with_their_count(schema, capsys, tmp_path):
         del broken[key]
         with pytest.raises(jsonschema.ValidationError):
             jsonschema.validate(broken, schema)
+
+
+def test_members_to_drop_either_one_not_both_are_grouped(schema, capsys, tmp_path):
+    demo = ROOT / "demo_data"
+    raw = json.loads((demo / "demo_project.json").read_text("utf-8"))
+    raw["analysis"]["proposed"] = ["age", "income", "area", "smoke"]
+    (tmp_path / "demo_cohort.csv").write_bytes((demo / "demo_cohort.csv").read_bytes())
+    path = tmp_path / "either.json"
+    path.write_text(json.dumps(raw), encoding="utf-8")
+    out = _check(capsys, str(path))
+    jsonschema.validate(out, schema)
+    assert out["proposed_sufficient"] is True
+    assert set(out["unnecessary"]) == {"area", "income", "smoke"}
+    # a script must not drop both measures of the one confounder
+    assert out["unnecessary_not_together"] == [["area", "income"]]
+    main(["check", str(path)])
+    text = capsys.readouterr().out
+    assert "unnecessary: Smoking; either Area deprivation or Income, not both" in text
