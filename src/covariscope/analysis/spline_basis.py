@@ -11,7 +11,6 @@ memory): the basis has ``k − 1`` columns, which VIF and GVIF treat as one term
 from __future__ import annotations
 
 import numpy as np
-import patsy
 
 __all__ = ["DEFAULT_KNOTS", "KNOT_QUANTILES", "knot_positions", "spline_basis"]
 #: Knot quantiles by number of knots (Harrell 2015, Table 2.3).
@@ -48,6 +47,8 @@ def spline_basis(x: np.ndarray, knots: int) -> np.ndarray:
     where = knot_positions(x, knots)
     if len(np.unique(where)) < knots:
         raise ValueError("too few distinct values for the spline's knots")
+    import patsy  # on demand: a second to import, paid only when a spline is built
+
     basis = patsy.dmatrix(
         "cr(x, knots=inner, lower_bound=lo, upper_bound=hi, constraints='center') - 1",
         {"x": x, "inner": where[1:-1], "lo": where[0], "hi": where[-1]},
