@@ -56,7 +56,8 @@ def model_terms(design: Design) -> dict[str, ModelTerm]:
     (('b', 'a', 'c'), 3, 'continuous')
     """
     x = design.exposure_node
-    out = {x: ModelTerm(x, _type(design, x, ()))}
+    levels = tuple(design.exposure_levels)
+    out = {x: ModelTerm(x, _type(design, x, levels), levels)}
     for node, block in design.blocks.items():
         knots: tuple[float, ...] = ()
         if block.raw is not None:

@@ -603,4 +603,9 @@ def _result(
             if data.engine is not None and data.evidence is not None
             else {}
         ),
+        exposure_levels=(
+            data.engine.design.exposure_levels
+            if data.engine is not None and data.evidence is not None
+            else ()
+        ),
     )

@@ -61,6 +61,9 @@ class StudyResult:
     #: how the exposure and each covariate entered the models (type, levels, spline
     #: knots), by node; empty without data
     model_terms: dict[str, ModelTerm] = field(default_factory=dict)
+    #: a multi-level categorical exposure's levels as text, the reference first
+    #: (empty for a binary or continuous exposure)
+    exposure_levels: tuple[str, ...] = ()
     #: The stages this run computed (the rest came from the cache), in order.
     recomputed: tuple[str, ...] = ()
     #: Models this run fitted (the rest came from the cache).
