@@ -32,15 +32,8 @@ from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 
 import numpy as np
-import scipy.stats
-from statsmodels.discrete.discrete_model import Logit, MNLogit, Poisson
-from statsmodels.tools.sm_exceptions import (
-    ConvergenceWarning,
-    HessianInversionWarning,
-    PerfectSeparationError,
-    PerfectSeparationWarning,
-)
 
+from covariscope.analysis.distributions import chi2_sf, f_sf, t_sf
 from covariscope.analysis.linear import LinearSummary, OLSResult, solve_ols
 
 __all__ = [
@@ -52,9 +45,6 @@ __all__ = [
     "linear_direction",
     "lr_test",
 ]
-
-_GLM_KINDS = {"binary": Logit, "count": Poisson, "categorical": MNLogit}
-_TROUBLE = (ConvergenceWarning, HessianInversionWarning, PerfectSeparationWarning)
 
 
 @dataclass(frozen=True)
@@ -123,7 +113,7 @@ def linear_direction(
     coefs = Coefficients(fit1.coef[len(given) :], fit1.se[len(given) :], fit1.df_resid)
     if k == 1:
         t = float(coefs.coef[0] / coefs.se[0]) if coefs.se[0] > 0 else float("inf")
-        p = float(2.0 * scipy.stats.t.sf(abs(t), fit1.df_resid))
+        p = 2.0 * t_sf(abs(t), fit1.df_resid)
         return DirectionTest("linear t", t, fit1.df_resid, p, coefs)
     fit0 = solve_ols(summary, list(given), response)
     if fit0 is None:
@@ -134,7 +124,7 @@ def linear_direction(
 def _f_test(fit0: OLSResult, fit1: OLSResult, k: int, coefs: Coefficients) -> DirectionTest:
     gain = max(fit0.rss - fit1.rss, 0.0)
     f = (gain / k) / (fit1.rss / fit1.df_resid) if fit1.rss > 0 else float("inf")
-    p = float(scipy.stats.f.sf(f, k, fit1.df_resid))
+    p = f_sf(f, k, fit1.df_resid)
     return DirectionTest("linear F", float(f), k, p, coefs, df_denominator=fit1.df_resid)
 
 
@@ -198,20 +188,31 @@ def lr_test(kind: str, null: GlmFit, alt: GlmFit, m: int, k: int) -> DirectionTe
     lr = max(2.0 * (alt.llf - null.llf), 0.0)
     if kind == "count":
         lr /= max(alt.dispersion, 1.0)
-    p = float(scipy.stats.chi2.sf(lr, df))
+    p = chi2_sf(lr, df)
     name = {"binary": "logistic LR", "count": "Poisson LR", "categorical": "multinomial LR"}[kind]
     coefs = Coefficients(alt.params[m:], alt.bse[m:], 0)
     return DirectionTest(name, float(lr), df, p, coefs)
 
 
 def _fit(kind: str, y: np.ndarray, X: np.ndarray, start: np.ndarray | None) -> GlmFit | None:
-    model = _GLM_KINDS[kind](y, X, hasconst=True)
+    # statsmodels is imported here, not with the module: a diagram whose claims
+    # are all between numeric variables never needs it, and it takes seconds to load.
+    from statsmodels.discrete.discrete_model import Logit, MNLogit, Poisson
+    from statsmodels.tools.sm_exceptions import (
+        ConvergenceWarning,
+        HessianInversionWarning,
+        PerfectSeparationError,
+        PerfectSeparationWarning,
+    )
+
+    trouble = (ConvergenceWarning, HessianInversionWarning, PerfectSeparationWarning)
+    model = {"binary": Logit, "count": Poisson, "categorical": MNLogit}[kind](y, X, hasconst=True)
     try:
         with warnings.catch_warnings():
-            warnings.simplefilter("error", _TROUBLE)
+            warnings.simplefilter("error", trouble)
             warnings.simplefilter("ignore", RuntimeWarning)
             res = model.fit(start_params=start, method="newton", maxiter=100, disp=0)
-    except (*_TROUBLE, PerfectSeparationError, np.linalg.LinAlgError, ValueError):
+    except (*trouble, PerfectSeparationError, np.linalg.LinAlgError, ValueError):
         return None
     params = np.asarray(res.params, dtype=np.float64)
     bse = np.asarray(res.bse, dtype=np.float64)

@@ -45,8 +45,6 @@ from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass, field
 
 import numpy as np
-import scipy.stats
-from statsmodels.stats.multitest import multipletests
 
 from covariscope.analysis.claim_fits import (
     DirectionTest,
@@ -57,6 +55,7 @@ from covariscope.analysis.claim_fits import (
 )
 from covariscope.analysis.claims import CORRECTIONS, Claim, ClaimSet, Untestable
 from covariscope.analysis.design import Design
+from covariscope.analysis.distributions import normal_quantile, t_quantile
 from covariscope.analysis.linear import LinearSummary, linear_summary
 from covariscope.vocabulary import StrengthKind
 
@@ -77,7 +76,7 @@ STRENGTH_KINDS: tuple[str, ...] = tuple(k.value for k in StrengthKind)
 
 _TYPES = frozenset({"continuous", "binary", "count", "categorical"})
 _NUMERIC = frozenset({"continuous", "count"})
-_Z975 = float(scipy.stats.norm.ppf(0.975))
+_Z975 = normal_quantile(0.975)
 
 
 @dataclass(frozen=True, eq=False)
@@ -291,6 +290,8 @@ def adjust_p(p: Sequence[float], method: str = "holm") -> np.ndarray:
     if pv.size == 0:
         return np.zeros(0)
     if method == "bh":
+        from statsmodels.stats.multitest import multipletests  # seconds to load: only when used
+
         return np.asarray(multipletests(pv, method="fdr_bh")[1])
     order = np.argsort(pv, kind="stable")
     steps = pv[order] * np.arange(pv.size, 0, -1)
@@ -383,7 +384,7 @@ def strength_of(d: ClaimData, response: str, predictor: str, t: DirectionTest) -
         else:
             scale = _sd(d, p_col) / _sd(d, d.columns[response][0])
             kind = "standardised_coefficient"
-        q = float(scipy.stats.t.ppf(0.975, max(t.coefficients.df_resid, 1)))
+        q = t_quantile(0.975, max(t.coefficients.df_resid, 1))
         return Strength(b * scale, kind, (b - q * s) * scale, (b + q * s) * scale, level)
     per_sd = kp in _NUMERIC
     scale = _sd(d, p_col) if per_sd else 1.0

@@ -29,7 +29,6 @@ from dataclasses import dataclass
 
 import numpy as np
 import numpy.typing as npt
-from scipy import optimize
 
 from covariscope.analysis.fits import Fit
 from covariscope.analysis.fitting_common import (
@@ -130,6 +129,8 @@ def detect_separation(X: Array, y: Array, *, family: str = "logistic") -> Separa
     >>> detect_separation(X, np.array([0, 0, 0, 1, 1, 1.0]))
     Separation(kind='complete', columns=(1,), rows=6)
     """
+    from scipy import optimize  # loaded only when a fit runs off (it takes a while)
+
     quick = _screen_binary(X, y, family)
     if quick.found:
         return quick
@@ -190,6 +191,8 @@ def _sparse_direction(
 ) -> tuple[int, ...]:
     """Columns of the sparsest separating direction (least L1 norm), so that the
     message names the columns responsible rather than every column."""
+    from scipy import optimize
+
     m, p = A.shape
     free = np.ptp(Xs, axis=0) == 0.0  # the intercept costs nothing
     eye = np.eye(p)

@@ -33,9 +33,14 @@ from dataclasses import dataclass
 from itertools import combinations
 
 import numpy as np
-import scipy.stats
 
 from covariscope.analysis.design import Design
+from covariscope.analysis.distributions import (
+    chi2_quantile,
+    f_quantile,
+    normal_quantile,
+    t_quantile,
+)
 from covariscope.analysis.fits import Fit
 
 __all__ = [
@@ -130,10 +135,10 @@ def _critical(fit: Fit, level: float) -> tuple[float, float]:
     if fit.family == "linear" and fit.df_resid:
         df = fit.df_resid
         return (
-            2.0 * float(scipy.stats.f.ppf(level, 2, df)),
-            float(scipy.stats.t.ppf(0.5 + level / 2.0, df)),
+            2.0 * f_quantile(level, 2, df),
+            t_quantile(0.5 + level / 2.0, df),
         )
-    return float(scipy.stats.chi2.ppf(level, 2)), float(scipy.stats.norm.ppf(0.5 + level / 2.0))
+    return chi2_quantile(level, 2), normal_quantile(0.5 + level / 2.0)
 
 
 def _region(

@@ -26,8 +26,9 @@ from collections.abc import Sequence
 from dataclasses import dataclass
 
 import numpy as np
-import scipy.stats
 from scipy.linalg import lapack
+
+from covariscope.analysis.distributions import t_quantile
 
 __all__ = [
     "ALIAS_TOLERANCE",
@@ -161,7 +162,7 @@ class OLSResult:
 
     def ci(self, level: float = 0.95) -> tuple[np.ndarray, np.ndarray]:
         """Confidence limits of the slopes from the t distribution."""
-        t = float(scipy.stats.t.ppf(0.5 + level / 2.0, self.df_resid))
+        t = t_quantile(0.5 + level / 2.0, self.df_resid)
         return self.coef - t * self.se, self.coef + t * self.se
 
 

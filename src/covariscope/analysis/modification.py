@@ -33,13 +33,20 @@ from collections.abc import Sequence
 from dataclasses import dataclass
 
 import numpy as np
-import scipy.stats
 
-from covariscope.analysis.column_fit import fit_columns
+from covariscope.analysis.column_fit import ColumnFit, fit_columns, start_from
 from covariscope.analysis.design import Design
+from covariscope.analysis.distributions import chi2_sf, f_sf, normal_quantile, t_quantile
 from covariscope.vocabulary import RATIO_FAMILIES, ModificationForm
 
-__all__ = ["Modification", "Stratum", "effect_modification", "modification_table", "reri"]
+__all__ = [
+    "Modification",
+    "Stratum",
+    "base_fit",
+    "effect_modification",
+    "modification_table",
+    "reri",
+]
 
 
 @dataclass(frozen=True)
@@ -108,7 +115,7 @@ def reri(
     value = joint - math.exp(b1) - math.exp(b2) + 1.0
     grad = np.array([joint - math.exp(b1), joint - math.exp(b2), joint])
     se = math.sqrt(max(float(grad @ cov @ grad), 0.0))
-    z = float(scipy.stats.norm.ppf(0.5 + level / 2.0))
+    z = normal_quantile(0.5 + level / 2.0)
     return value, se, (value - z * se, value + z * se)
 
 
@@ -117,8 +124,8 @@ def _wald(b: np.ndarray, V: np.ndarray, df_resid: int | None) -> tuple[float, fl
     k = len(b)
     if df_resid is not None:
         f = chi2 / k
-        return f, float(scipy.stats.f.sf(f, k, df_resid))
-    return chi2, float(scipy.stats.chi2.sf(chi2, k))
+        return f, f_sf(f, k, df_resid)
+    return chi2, chi2_sf(chi2, k)
 
 
 def _strata_values(
@@ -160,6 +167,7 @@ def effect_modification(
     p_guide: float = 0.05,
     ratio_guide: float = 1.5,
     level: float = 0.95,
+    near: ColumnFit | None = None,
 ) -> Modification:
     """The exposure effect across levels of ``node`` in the model exposure + ``terms``.
 
@@ -170,6 +178,9 @@ def effect_modification(
     node : the covariate examined as a modifier (added as a main effect when
         not in ``terms``)
     p_guide, ratio_guide : the guides of :attr:`Modification.flagged`
+    near : a fit of exposure + ``terms`` (`base_fit`) to start the iterative
+        fit from, with the product terms at zero (saves passes over the rows;
+        the result is the same)
 
     Examples
     --------
@@ -195,7 +206,8 @@ def effect_modification(
     X = np.column_stack([design.values[:, cols], products])
     k = products.shape[1]
     pnames = [f"{design.exposure_name}×{node}[{j}]" for j in range(k)]
-    fitted = fit_columns(design, np.ascontiguousarray(X), [*names, *pnames])
+    start = None if near is None else start_from(near, [*names, *pnames])
+    fitted = fit_columns(design, np.ascontiguousarray(X), [*names, *pnames], start=start)
     kind, strata_spec = _strata_values(design, node)
     nan = float("nan")
     if isinstance(fitted, str):
@@ -205,9 +217,9 @@ def effect_modification(
     ratio = design.family in RATIO_FAMILIES
     p_idx = list(range(len(names), len(names) + k))
     z = (
-        float(scipy.stats.t.ppf(0.5 + level / 2.0, fitted.df_resid))
+        t_quantile(0.5 + level / 2.0, fitted.df_resid)
         if fitted.df_resid is not None
-        else float(scipy.stats.norm.ppf(0.5 + level / 2.0))
+        else normal_quantile(0.5 + level / 2.0)
     )
     strata = []
     for label, weights, rows in strata_spec:
@@ -261,15 +273,32 @@ def modification_table(
     *,
     p_guide: float = 0.05,
     ratio_guide: float = 1.5,
+    near: ColumnFit | None = None,
 ) -> dict[str, Modification]:
     """:func:`effect_modification` of every candidate with data, in the model exposure + ``terms``.
 
-    A covariate whose column never varies, or that is not in the design, is left out.
+    A covariate whose column never varies, or that is not in the design, is
+    left out.  Every fit starts from ``near``, the fit of exposure + ``terms``
+    (`base_fit`; fitted here when not given).
     """
     if any(t not in design.blocks for t in terms):
         return {}
+    wanted = [c for c in candidates if c in design.blocks and c not in design.constant]
+    if near is None and wanted:
+        near = base_fit(design, terms)
     return {
-        c: effect_modification(design, terms, c, p_guide=p_guide, ratio_guide=ratio_guide)
-        for c in candidates
-        if c in design.blocks and c not in design.constant
+        c: effect_modification(
+            design, terms, c, p_guide=p_guide, ratio_guide=ratio_guide, near=near
+        )
+        for c in wanted
     }
+
+
+def base_fit(design: Design, terms: Sequence[str]) -> ColumnFit | None:
+    """The model exposure + ``terms`` fitted once, for the checks that extend
+    it to start from (None when it cannot be fitted: they then start cold)."""
+    model_terms = [t for t in design.blocks if t in set(terms)]
+    cols = [0] + [j for t in model_terms for j in design.blocks[t].index]
+    names = [design.column_names[j] for j in cols]
+    fitted = fit_columns(design, np.ascontiguousarray(design.values[:, cols]), names)
+    return None if isinstance(fitted, str) else fitted

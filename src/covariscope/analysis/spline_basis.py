@@ -11,7 +11,6 @@ memory): the basis has ``k − 1`` columns, which VIF and GVIF treat as one term
 from __future__ import annotations
 
 import numpy as np
-import patsy
 
 __all__ = ["DEFAULT_KNOTS", "KNOT_QUANTILES", "knot_positions", "spline_basis"]
 #: Knot quantiles by number of knots (Harrell 2015, Table 2.3).
@@ -45,6 +44,8 @@ def spline_basis(x: np.ndarray, knots: int) -> np.ndarray:
     >>> spline_basis(x, 4).shape
     (50, 3)
     """
+    import patsy  # loaded only when a spline is built (a second or so at start-up otherwise)
+
     where = knot_positions(x, knots)
     if len(np.unique(where)) < knots:
         raise ValueError("too few distinct values for the spline's knots")

@@ -16,7 +16,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from covariscope.analysis.column_fit import fit_columns
+from covariscope.analysis.column_fit import ColumnFit, fit_columns, start_from
 from covariscope.analysis.design import Design
 from covariscope.analysis.spline_basis import DEFAULT_KNOTS, spline_basis
 from covariscope.vocabulary import RATIO_FAMILIES
@@ -50,6 +50,7 @@ def residual_confounding(
     *,
     knots: int = DEFAULT_KNOTS,
     change_guide: float = 10.0,
+    near: ColumnFit | None = None,
 ) -> ResidualCheck:
     """Compare the exposure estimate with ``node`` linear and as a spline.
 
@@ -60,6 +61,8 @@ def residual_confounding(
     node : a continuous covariate
     raw : its values in the design's rows
     knots, change_guide : the spline's knots; the guide past which it is flagged
+    near : a fit of exposure + ``terms`` to start from (saves passes over the
+        rows of an iterative fit; the result is the same)
 
     Examples
     --------
@@ -83,21 +86,48 @@ def residual_confounding(
         basis = spline_basis(raw, knots)
     except ValueError as exc:
         return ResidualCheck(node, knots, nan, nan, nan, False, str(exc))
-    linear = fit_columns(design, np.column_stack([base, raw]), [*names, node])
-    spline = fit_columns(
-        design,
-        np.column_stack([base, basis]),
-        [*names, *(f"{node}[spline {j + 1}]" for j in range(basis.shape[1]))],
-    )
-    if isinstance(linear, str) or isinstance(spline, str):
-        why = linear if isinstance(linear, str) else spline
-        return ResidualCheck(node, knots, nan, nan, nan, False, str(why))
+    block = design.blocks[node]
+    # The node's own design column holds the raw values when it enters linearly.
+    same = {node: near_value(near, block.columns[0])} if block.raw is None else {}
+    lin_names = [*names, node]
+    start = None if near is None else start_from(near, lin_names, given=same)
+    linear = fit_columns(design, np.column_stack([base, raw]), lin_names, start=start)
+    if isinstance(linear, str):
+        return ResidualCheck(node, knots, nan, nan, nan, False, linear)
+    spl_names = [*names, *(f"{node}[spline {j + 1}]" for j in range(basis.shape[1]))]
+    start = start_from(linear, spl_names, given=_as_spline(linear, node, raw, basis, spl_names))
+    spline = fit_columns(design, np.column_stack([base, basis]), spl_names, start=start)
+    if isinstance(spline, str):
+        return ResidualCheck(node, knots, nan, nan, nan, False, spline)
     b_lin, b_spl = float(linear.coef[0]), float(spline.coef[0])
     if design.family in RATIO_FAMILIES:
         change = 100.0 * math.expm1(b_spl - b_lin)
     else:
         change = 100.0 * (b_spl - b_lin) / abs(b_lin) if b_lin != 0 else math.inf
     return ResidualCheck(node, knots, b_lin, b_spl, change, bool(abs(change) >= change_guide))
+
+
+def near_value(near: ColumnFit | None, name: str) -> float:
+    """The coefficient of column ``name`` in a neighbouring fit (0 when it lacks it)."""
+    if near is None or name not in near.names:
+        return 0.0
+    return float(near.coef[near.names.index(name)])
+
+
+def _as_spline(
+    linear: ColumnFit, node: str, raw: np.ndarray, basis: np.ndarray, names: list[str]
+) -> dict[str, float]:
+    """Spline coefficients (and intercept shift) that reproduce the linear fit's
+    b·raw: a natural cubic spline holds every straight line, so the spline fit
+    starts where the linear fit ended."""
+    b = near_value(linear, node)
+    design = np.column_stack([np.ones(len(raw)), basis])
+    c = np.linalg.lstsq(design, raw, rcond=None)[0]
+    given = {"(intercept)": b * float(c[0])}
+    given.update(
+        {name: b * float(v) for name, v in zip(names[-basis.shape[1] :], c[1:], strict=True)}
+    )
+    return given
 
 
 def residual_table(
@@ -107,12 +137,14 @@ def residual_table(
     *,
     knots: Mapping[str, int] | None = None,
     change_guide: float = 10.0,
+    near: ColumnFit | None = None,
 ) -> dict[str, ResidualCheck]:
     """:func:`residual_confounding` for every continuous confounder among ``terms``.
 
     ``knots`` gives a node's spline knots (:data:`DEFAULT_KNOTS` otherwise);
     a binary or categorical covariate, or one whose column never varies, is
-    left out.
+    left out.  The fits start from ``near``, the fit of exposure + ``terms``
+    (:func:`~covariscope.analysis.modification.base_fit`), when given.
     """
     out: dict[str, ResidualCheck] = {}
     for c in confounders:
@@ -127,5 +159,6 @@ def residual_table(
             raw,
             knots=(knots or {}).get(c) or DEFAULT_KNOTS,
             change_guide=change_guide,
+            near=near,
         )
     return out
