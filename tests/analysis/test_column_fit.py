@@ -12,9 +12,9 @@ import pandas as pd
 import pytest
 
 from covariscope.analysis import glm_newton
-from covariscope.analysis.column_fit import ColumnFit, start_from
+from covariscope.analysis.column_fit import ColumnFit, base_fit, start_from
 from covariscope.analysis.design import TermSpec, make_design
-from covariscope.analysis.modification import base_fit, effect_modification, modification_table
+from covariscope.analysis.modification import effect_modification, modification_table
 from covariscope.analysis.splines import residual_confounding, residual_table
 
 

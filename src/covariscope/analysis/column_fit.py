@@ -17,7 +17,7 @@ import numpy as np
 
 from covariscope.analysis.design import Design
 
-__all__ = ["ColumnFit", "fit_columns", "start_from"]
+__all__ = ["ColumnFit", "base_fit", "fit_columns", "start_from"]
 
 
 @dataclass(frozen=True)
@@ -111,3 +111,13 @@ def fit_columns(
     # A fit whose runaway coefficients were left blank is no place to start from.
     kept = None if not np.all(np.isfinite(coef)) else params
     return ColumnFit(coef, fit.cov, None, tuple(names), kept)
+
+
+def base_fit(design: Design, terms: Sequence[str]) -> ColumnFit | None:
+    """The model exposure + ``terms`` fitted once, for the checks that extend
+    it to start from (None when it cannot be fitted: they then start cold)."""
+    model_terms = [t for t in design.blocks if t in set(terms)]
+    cols = [0] + [j for t in model_terms for j in design.blocks[t].index]
+    names = [design.column_names[j] for j in cols]
+    fitted = fit_columns(design, np.ascontiguousarray(design.values[:, cols]), names)
+    return None if isinstance(fitted, str) else fitted

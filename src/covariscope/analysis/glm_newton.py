@@ -187,7 +187,7 @@ def newton_glm(
             )
         moved = float(reach @ np.abs(delta))
         if _chord_pays(moved, last_moved):
-            chord = _chord(run, b + delta, cov, reach, P.deviance)
+            chord = _chord(run, b + delta, cov, reach, P.deviance, moved)
             if chord is not None:
                 b, P = chord, run(chord, True, meat)
                 last_moved = None
@@ -237,9 +237,18 @@ def _chord(
     cov: Array,
     reach: Array,
     deviance: float,
+    dist: float,
 ) -> Array | None:
     """Chord steps b ← b + V g(b) (V the inverse information in hand) by
-    score-only passes; None when the deviance rises (fall back to Newton)."""
+    score-only passes; None when the deviance rises (fall back to Newton).
+
+    A chord step shrinks the error by a factor κ of about the distance
+    ``dist`` (in linear-predictor units) between b and the point where V was
+    formed, or by the observed ratio of successive steps when that is larger;
+    the steps stop once the error left, κ times the last step, is a hundredth
+    of `ETA_TOL`, so that the fresh pass that follows is the last.
+    """
+    last = math.inf
     for _ in range(CHORD_STEPS):
         P = run(b, False, False)
         if not math.isfinite(P.deviance) or P.deviance > deviance + 1e-12 * abs(deviance):
@@ -247,8 +256,11 @@ def _chord(
         step = cov @ P.score
         b = b + step
         deviance = P.deviance
-        if float(reach @ np.abs(step)) <= 1e-3 * ETA_TOL:
+        size = float(reach @ np.abs(step))
+        kappa = max(dist, size / last) if math.isfinite(last) else dist
+        if kappa * size <= 1e-2 * ETA_TOL:
             break
+        last = size
     return b
 
 

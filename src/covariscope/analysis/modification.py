@@ -34,7 +34,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from covariscope.analysis.column_fit import ColumnFit, fit_columns, start_from
+from covariscope.analysis.column_fit import ColumnFit, base_fit, fit_columns, start_from
 from covariscope.analysis.design import Design
 from covariscope.analysis.distributions import chi2_sf, f_sf, normal_quantile, t_quantile
 from covariscope.vocabulary import RATIO_FAMILIES, ModificationForm
@@ -42,7 +42,6 @@ from covariscope.vocabulary import RATIO_FAMILIES, ModificationForm
 __all__ = [
     "Modification",
     "Stratum",
-    "base_fit",
     "effect_modification",
     "modification_table",
     "reri",
@@ -292,13 +291,3 @@ def modification_table(
         )
         for c in wanted
     }
-
-
-def base_fit(design: Design, terms: Sequence[str]) -> ColumnFit | None:
-    """The model exposure + ``terms`` fitted once, for the checks that extend
-    it to start from (None when it cannot be fitted: they then start cold)."""
-    model_terms = [t for t in design.blocks if t in set(terms)]
-    cols = [0] + [j for t in model_terms for j in design.blocks[t].index]
-    names = [design.column_names[j] for j in cols]
-    fitted = fit_columns(design, np.ascontiguousarray(design.values[:, cols]), names)
-    return None if isinstance(fitted, str) else fitted

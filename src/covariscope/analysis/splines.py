@@ -16,7 +16,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from covariscope.analysis.column_fit import ColumnFit, fit_columns, start_from
+from covariscope.analysis.column_fit import ColumnFit, base_fit, fit_columns, start_from
 from covariscope.analysis.design import Design
 from covariscope.analysis.spline_basis import DEFAULT_KNOTS, spline_basis
 from covariscope.vocabulary import RATIO_FAMILIES
@@ -143,15 +143,18 @@ def residual_table(
 
     ``knots`` gives a node's spline knots (:data:`DEFAULT_KNOTS` otherwise);
     a binary or categorical covariate, or one whose column never varies, is
-    left out.  The fits start from ``near``, the fit of exposure + ``terms``
-    (:func:`~covariscope.analysis.modification.base_fit`), when given.
+    left out.  Every fit starts from ``near``, the fit of exposure + ``terms``
+    (`~covariscope.analysis.column_fit.base_fit`; fitted here when not given).
     """
     out: dict[str, ResidualCheck] = {}
+    tried = near is not None
     for c in confounders:
         block = design.blocks.get(c)
         if c not in terms or block is None or block.levels or c in design.constant:
             continue
         raw = block.raw if block.raw is not None else block.values[:, 0]
+        if not tried:
+            near, tried = base_fit(design, terms), True
         out[c] = residual_confounding(
             design,
             terms,

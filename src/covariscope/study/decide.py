@@ -18,7 +18,7 @@ from covariscope.analysis.evidence import Comparison, EvidenceEngine, EvidenceTa
 from covariscope.analysis.fits import Fit
 from covariscope.analysis.graph import DiagramAnalysis, is_sufficient
 from covariscope.analysis.joint_region import CollinearityPicture, collinearity_pictures
-from covariscope.analysis.modification import Modification, base_fit, modification_table
+from covariscope.analysis.modification import Modification, modification_table
 from covariscope.analysis.recommend import Recommendation, pair_r2, recommend_set
 from covariscope.analysis.splines import ResidualCheck, residual_table
 from covariscope.analysis.verdicts import (
@@ -375,15 +375,12 @@ def _rows_read(
     modification: dict[str, Modification] = {}
     residual: dict[str, ResidualCheck] = {}
     if rec_fit is not None and rec_fit.ok:
-        # Both checks extend the recommended model: their fits start from it.
-        near = base_fit(engine.design, rec_fit.terms)
         modification = modification_table(
             engine.design,
             rec_fit.terms,
             evidence.candidates,
             p_guide=thresholds["modification_p"],
             ratio_guide=thresholds["modification_ratio"],
-            near=near,
         )
         residual = residual_table(
             engine.design,
@@ -391,7 +388,6 @@ def _rows_read(
             [c for c in rec_fit.terms if c in da.roles and da.roles[c].role == "confounder"],
             knots=dict(q.spline_knots),
             change_guide=thresholds["change_pct"],
-            near=near,
         )
     return RowsRead(pictures, modification, residual)
 
