@@ -17,7 +17,7 @@ import numpy as np
 
 from covariscope.analysis.design import Design
 
-__all__ = ["ColumnFit", "base_fit", "fit_columns", "start_from"]
+__all__ = ["ColumnFit", "base_fit", "fit_columns", "model_matrix", "start_from"]
 
 
 @dataclass(frozen=True)
@@ -63,16 +63,51 @@ def start_from(
     return np.array([*head, *(known.get(n, given.get(n, 0.0)) for n in names)], dtype=float)
 
 
+def model_matrix(design: Design, cols: Sequence[int], *extra: np.ndarray) -> np.ndarray:
+    """[1 | the design's columns ``cols`` | ``extra`` columns], Fortran-ordered,
+    in one allocation (no intermediate copies of the rows), for `fit_columns`
+    with ``ones_first=True``.
+
+    >>> import pandas as pd
+    >>> from covariscope.analysis.design import TermSpec, make_design
+    >>> d = make_design(pd.DataFrame({"x": [0, 1, 2, 3.0], "z": [1, 0, 1, 1.0], "y": [0, 1, 1, 2.0]}),
+    ...                 exposure=TermSpec("x", "continuous"),
+    ...                 covariates={"z": TermSpec("z", "binary")}, outcome="y", family="linear")
+    >>> model_matrix(d, [0, 1], np.arange(4.0))[1].tolist()
+    [1.0, 1.0, 0.0, 1.0]
+    """
+    n = design.n
+    widths = [1 if e.ndim == 1 else e.shape[1] for e in extra]
+    out = np.empty((n, 1 + len(cols) + sum(widths)), order="F")
+    out[:, 0] = 1.0
+    for i, c in enumerate(cols):
+        out[:, 1 + i] = design.values[:, c]
+    j = 1 + len(cols)
+    for e, w in zip(extra, widths, strict=True):
+        out[:, j : j + w] = e.reshape(n, w)
+        j += w
+    return out
+
+
 def fit_columns(
-    design: Design, X: np.ndarray, names: list[str], *, start: np.ndarray | None = None
+    design: Design,
+    X: np.ndarray,
+    names: list[str],
+    *,
+    start: np.ndarray | None = None,
+    ones_first: bool = False,
 ) -> ColumnFit | str:
     """Fit exposure-first columns ``X`` (no intercept) in the design's family.
 
     Returns the coefficients and their covariance (exposure first, the
     intercept left out), or the reason the model could not be fitted.
     ``start`` (see `start_from`) is where an iterative fit starts; it changes
-    the number of passes over the rows, not the result.
+    the number of passes over the rows, not the result.  With ``ones_first``
+    X's first column is the intercept's column of ones (`model_matrix`), and
+    logistic and Poisson fits read X as it is.
     """
+    if ones_first:
+        Xi, X = X, X[:, 1:]
     family = design.family
     if family == "linear":
         from covariscope.analysis.linear import linear_summary, solve_ols
@@ -95,7 +130,8 @@ def fit_columns(
         from covariscope.analysis.glm import fit_glm
 
         assert design.y is not None
-        Xi = np.column_stack([np.ones(len(X)), X])
+        if not ones_first:
+            Xi = np.column_stack([np.ones(len(X)), X])
         fit, params = fit_glm(
             Xi,
             design.y,
@@ -119,5 +155,5 @@ def base_fit(design: Design, terms: Sequence[str]) -> ColumnFit | None:
     model_terms = [t for t in design.blocks if t in set(terms)]
     cols = [0] + [j for t in model_terms for j in design.blocks[t].index]
     names = [design.column_names[j] for j in cols]
-    fitted = fit_columns(design, np.ascontiguousarray(design.values[:, cols]), names)
+    fitted = fit_columns(design, model_matrix(design, cols), names, ones_first=True)
     return None if isinstance(fitted, str) else fitted

@@ -34,7 +34,13 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from covariscope.analysis.column_fit import ColumnFit, base_fit, fit_columns, start_from
+from covariscope.analysis.column_fit import (
+    ColumnFit,
+    base_fit,
+    fit_columns,
+    model_matrix,
+    start_from,
+)
 from covariscope.analysis.design import Design
 from covariscope.analysis.distributions import chi2_sf, f_sf, normal_quantile, t_quantile
 from covariscope.vocabulary import RATIO_FAMILIES, ModificationForm
@@ -202,11 +208,11 @@ def effect_modification(
     # a spline-entered modifier: its main effect is the spline, the product is linear in it
     moderated = block.values if block.raw is None else block.raw[:, None]
     products = moderated * x[:, None]
-    X = np.column_stack([design.values[:, cols], products])
+    X = model_matrix(design, cols, products)
     k = products.shape[1]
     pnames = [f"{design.exposure_name}×{node}[{j}]" for j in range(k)]
     start = None if near is None else start_from(near, [*names, *pnames])
-    fitted = fit_columns(design, np.ascontiguousarray(X), [*names, *pnames], start=start)
+    fitted = fit_columns(design, X, [*names, *pnames], start=start, ones_first=True)
     kind, strata_spec = _strata_values(design, node)
     nan = float("nan")
     if isinstance(fitted, str):

@@ -16,7 +16,13 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from covariscope.analysis.column_fit import ColumnFit, base_fit, fit_columns, start_from
+from covariscope.analysis.column_fit import (
+    ColumnFit,
+    base_fit,
+    fit_columns,
+    model_matrix,
+    start_from,
+)
 from covariscope.analysis.design import Design
 from covariscope.analysis.spline_basis import DEFAULT_KNOTS, spline_basis
 from covariscope.vocabulary import RATIO_FAMILIES
@@ -80,7 +86,6 @@ def residual_confounding(
     nan = float("nan")
     others = [t for t in design.blocks if t in set(terms) and t != node]
     cols = [0] + [j for t in others for j in design.blocks[t].index]
-    base = design.values[:, cols]
     names = [design.column_names[j] for j in cols]
     try:
         basis = spline_basis(raw, knots)
@@ -91,12 +96,16 @@ def residual_confounding(
     same = {node: near_value(near, block.columns[0])} if block.raw is None else {}
     lin_names = [*names, node]
     start = None if near is None else start_from(near, lin_names, given=same)
-    linear = fit_columns(design, np.column_stack([base, raw]), lin_names, start=start)
+    linear = fit_columns(
+        design, model_matrix(design, cols, raw), lin_names, start=start, ones_first=True
+    )
     if isinstance(linear, str):
         return ResidualCheck(node, knots, nan, nan, nan, False, linear)
     spl_names = [*names, *(f"{node}[spline {j + 1}]" for j in range(basis.shape[1]))]
     start = start_from(linear, spl_names, given=_as_spline(linear, node, raw, basis, spl_names))
-    spline = fit_columns(design, np.column_stack([base, basis]), spl_names, start=start)
+    spline = fit_columns(
+        design, model_matrix(design, cols, basis), spl_names, start=start, ones_first=True
+    )
     if isinstance(spline, str):
         return ResidualCheck(node, knots, nan, nan, nan, False, spline)
     b_lin, b_spl = float(linear.coef[0]), float(spline.coef[0])
