@@ -61,3 +61,18 @@ def test_many_threads_one_cache():
     c = cache.count("sq")
     assert c.hits + c.misses == 8000
     assert len(cache) <= 50
+
+
+def test_get_many_computes_only_absent_items_in_one_call():
+    cache = StudyCache()
+    calls: list[list[int]] = []
+
+    def squares(items: list[int]) -> dict[int, int]:
+        calls.append(items)
+        return {i: i * i for i in items if i != 5}  # 5 has no result
+
+    assert cache.get_many("sq", {2: ("k", 2), 3: ("k", 3)}, squares) == {2: 4, 3: 9}
+    assert cache.get_many("sq", {3: ("k", 3), 4: ("k", 4), 5: ("k", 5)}, squares) == {3: 9, 4: 16}
+    assert calls == [[2, 3], [4, 5]]
+    assert cache.count("sq") == StageCount(hits=1, misses=4)
+    assert cache.get("sq", ("k", 4), lambda: -1) == 16  # the same entries as get's

@@ -270,3 +270,52 @@ def test_the_data_panel_profiles_come_from_the_same_cache(warm):
     assert again.keys() == first.keys()
     assert cache.count("profile").misses <= 1  # only the column whose type was set
     assert set(source.read) <= {column}
+
+
+#: The stages that read the rows after the verdicts (one entry per item).
+READING_STAGES = ("pictures", "modification", "residual")
+
+
+def test_tick_reads_no_row_for_modification_or_residual_checks(rerun):
+    project, table = _generated()
+    table = LoggingSource(table)
+    cache = StudyCache()
+    run_study(project, table=table, cache=cache)
+    cache.reset_counts()
+    project.analysis.proposed = [*project.proposed, "p1"]
+    result = rerun(project, table, cache)
+    assert result.modification  # the generated study has a recommended model
+    assert cache.count("modification").hits == len(result.modification)
+    assert cache.count("residual").hits == len(result.residual_confounding) > 0
+    assert not set(_misses(cache)) & set(READING_STAGES)
+
+
+def test_arrow_that_keeps_the_recommended_set_retests_only_changed_claims(rerun):
+    project, table = _generated()
+    table = LoggingSource(table)
+    cache = StudyCache()
+    before = run_study(project, table=table, cache=cache)
+    cache.reset_counts()
+    project.diagram.add_arrow("p1", "c3")  # c3 and p1 both only cause y
+    after = rerun(project, table, cache)
+    assert after.recommended == before.recommended
+    assert not set(_misses(cache)) & set(READING_STAGES)
+    claims = cache.count("claim")
+    assert after.diagram_checks is not None
+    assert claims.misses + claims.hits == after.diagram_checks.tested
+    assert claims.misses < claims.hits
+
+
+def test_binding_a_candidate_computes_its_own_modification_only(rerun):
+    project, table = _generated()
+    table = LoggingSource(table)
+    project.diagram.update_node("p1", column=None)
+    cache = StudyCache()
+    before = run_study(project, table=table, cache=cache)
+    cache.reset_counts()
+    project.diagram.update_node("p1", column="p1")
+    after = rerun(project, table, cache)
+    assert set(after.modification) == set(before.modification) | {"p1"}
+    assert cache.count("modification").misses == 1
+    assert cache.count("modification").hits == len(before.modification)
+    assert cache.count("residual").misses == 0

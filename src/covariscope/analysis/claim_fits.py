@@ -113,7 +113,7 @@ def linear_direction(
     coefs = Coefficients(fit1.coef[len(given) :], fit1.se[len(given) :], fit1.df_resid)
     if k == 1:
         t = float(coefs.coef[0] / coefs.se[0]) if coefs.se[0] > 0 else float("inf")
-        p = 2.0 * t_sf(abs(t), fit1.df_resid)
+        p = float(2.0 * t_sf(abs(t), fit1.df_resid))
         return DirectionTest("linear t", t, fit1.df_resid, p, coefs)
     fit0 = solve_ols(summary, list(given), response)
     if fit0 is None:
@@ -124,7 +124,7 @@ def linear_direction(
 def _f_test(fit0: OLSResult, fit1: OLSResult, k: int, coefs: Coefficients) -> DirectionTest:
     gain = max(fit0.rss - fit1.rss, 0.0)
     f = (gain / k) / (fit1.rss / fit1.df_resid) if fit1.rss > 0 else float("inf")
-    p = f_sf(f, k, fit1.df_resid)
+    p = float(f_sf(f, k, fit1.df_resid))
     return DirectionTest("linear F", float(f), k, p, coefs, df_denominator=fit1.df_resid)
 
 
@@ -188,15 +188,14 @@ def lr_test(kind: str, null: GlmFit, alt: GlmFit, m: int, k: int) -> DirectionTe
     lr = max(2.0 * (alt.llf - null.llf), 0.0)
     if kind == "count":
         lr /= max(alt.dispersion, 1.0)
-    p = chi2_sf(lr, df)
+    p = float(chi2_sf(lr, df))
     name = {"binary": "logistic LR", "count": "Poisson LR", "categorical": "multinomial LR"}[kind]
     coefs = Coefficients(alt.params[m:], alt.bse[m:], 0)
     return DirectionTest(name, float(lr), df, p, coefs)
 
 
 def _fit(kind: str, y: np.ndarray, X: np.ndarray, start: np.ndarray | None) -> GlmFit | None:
-    # statsmodels is imported here, not with the module: a diagram whose claims
-    # are all between numeric variables never needs it, and it takes seconds to load.
+    # statsmodels takes seconds to import: only a study with a non-numeric claim pays it
     from statsmodels.discrete.discrete_model import Logit, MNLogit, Poisson
     from statsmodels.tools.sm_exceptions import (
         ConvergenceWarning,

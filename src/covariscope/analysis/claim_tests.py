@@ -43,6 +43,7 @@ from __future__ import annotations
 import math
 from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass, field
+from functools import partial
 
 import numpy as np
 
@@ -55,13 +56,15 @@ from covariscope.analysis.claim_fits import (
 )
 from covariscope.analysis.claims import CORRECTIONS, Claim, ClaimSet, Untestable
 from covariscope.analysis.design import Design
-from covariscope.analysis.distributions import normal_quantile, t_quantile
+from covariscope.analysis.distributions import norm_ppf, t_ppf
 from covariscope.analysis.linear import LinearSummary, linear_summary
 from covariscope.vocabulary import StrengthKind
 
 __all__ = [
     "STRENGTH_KINDS",
     "ClaimData",
+    "ClaimMemo",
+    "ClaimOutcome",
     "ClaimResult",
     "DiagramChecks",
     "Strength",
@@ -76,7 +79,7 @@ STRENGTH_KINDS: tuple[str, ...] = tuple(k.value for k in StrengthKind)
 
 _TYPES = frozenset({"continuous", "binary", "count", "categorical"})
 _NUMERIC = frozenset({"continuous", "count"})
-_Z975 = normal_quantile(0.975)
+_Z975 = float(norm_ppf(0.975))
 
 
 @dataclass(frozen=True, eq=False)
@@ -290,7 +293,7 @@ def adjust_p(p: Sequence[float], method: str = "holm") -> np.ndarray:
     if pv.size == 0:
         return np.zeros(0)
     if method == "bh":
-        from statsmodels.stats.multitest import multipletests  # seconds to load: only when used
+        from statsmodels.stats.multitest import multipletests  # seconds to import: on demand
 
         return np.asarray(multipletests(pv, method="fdr_bh")[1])
     order = np.argsort(pv, kind="stable")
@@ -384,7 +387,7 @@ def strength_of(d: ClaimData, response: str, predictor: str, t: DirectionTest) -
         else:
             scale = _sd(d, p_col) / _sd(d, d.columns[response][0])
             kind = "standardised_coefficient"
-        q = t_quantile(0.975, max(t.coefficients.df_resid, 1))
+        q = float(t_ppf(0.975, max(t.coefficients.df_resid, 1)))
         return Strength(b * scale, kind, (b - q * s) * scale, (b + q * s) * scale, level)
     per_sd = kp in _NUMERIC
     scale = _sd(d, p_col) if per_sd else 1.0
@@ -403,13 +406,19 @@ def _partial_r(t: DirectionTest, n: int, k: int) -> Strength:
     return Strength(r, "partial_correlation", math.tanh(z - half), math.tanh(z + half))
 
 
+#: one claim's test: the reported direction and the strength, or why none was fitted
+ClaimOutcome = tuple[DirectionTest, Strength] | str
+
+#: ``memo(claim, test)``: ``test()``'s answer, or one kept from an earlier run
+ClaimMemo = Callable[[Claim, Callable[[], ClaimOutcome]], ClaimOutcome]
+
 _ROWS_ELSEWHERE = (
     "the rows stay in the data source, where only claims between numeric variables are "
     "tested (from the cross-product matrix)"
 )
 
 
-def _test_claim(fits: _Fits, claim: Claim) -> tuple[DirectionTest, Strength] | str:
+def _test_claim(fits: _Fits, claim: Claim) -> ClaimOutcome:
     """The reported direction and the strength, or why no model could be fitted."""
     d = fits.data
     a, b, given = claim.a, claim.b, claim.given
@@ -440,6 +449,7 @@ def check_claims(
     method: str = "holm",
     alpha: float = 0.05,
     cancel: Callable[[], bool] | None = None,
+    memo: ClaimMemo | None = None,
 ) -> DiagramChecks:
     """Test every claim and adjust the p-values for multiplicity.
 
@@ -456,6 +466,12 @@ def check_claims(
     cancel : callable, optional
         Checked between claims; a True answer stops the run with the claims
         tested so far (and says so in ``warnings``).
+    memo : callable, optional
+        ``memo(claim, test)`` returns ``test()``'s answer, or an answer kept
+        from an earlier run on the same data for the same pair and
+        separating set (the caller's cache: a diagram edit retests only the
+        claims it changed).  The multiplicity correction always runs on the
+        whole set.
 
     Examples
     --------
@@ -478,7 +494,11 @@ def check_claims(
         if cancel is not None and cancel():
             stopped = (f"Stopped after {len(done)} of {len(claims.claims)} claims.",)
             break
-        outcome = _test_claim(fits, claim)
+        outcome = (
+            _test_claim(fits, claim)
+            if memo is None
+            else memo(claim, partial(_test_claim, fits, claim))
+        )
         if isinstance(outcome, str):
             unfit.append(Untestable(claim.a, claim.b, "no_fit", detail=outcome))
         else:

@@ -36,7 +36,7 @@ from covariscope.analysis.collinearity import (
     vif,
 )
 from covariscope.analysis.design import Design, constant_message
-from covariscope.analysis.distributions import t_quantile
+from covariscope.analysis.distributions import t_ppf
 from covariscope.analysis.fits import Fit
 from covariscope.analysis.linear import (
     LinearSummary,
@@ -76,7 +76,7 @@ FitRecorder = Callable[[str, bool], None]
 
 @functools.lru_cache(maxsize=256)
 def _t_quantile(df: int) -> float:
-    return t_quantile(0.975, df)
+    return float(t_ppf(0.975, df))
 
 
 class EvidenceCancelledError(Exception):

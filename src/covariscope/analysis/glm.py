@@ -129,7 +129,7 @@ def detect_separation(X: Array, y: Array, *, family: str = "logistic") -> Separa
     >>> detect_separation(X, np.array([0, 0, 0, 1, 1, 1.0]))
     Separation(kind='complete', columns=(1,), rows=6)
     """
-    from scipy import optimize  # loaded only when a fit runs off (it takes a while)
+    from scipy import optimize  # on demand: seconds to import
 
     quick = _screen_binary(X, y, family)
     if quick.found:
@@ -191,7 +191,7 @@ def _sparse_direction(
 ) -> tuple[int, ...]:
     """Columns of the sparsest separating direction (least L1 norm), so that the
     message names the columns responsible rather than every column."""
-    from scipy import optimize
+    from scipy import optimize  # on demand: seconds to import
 
     m, p = A.shape
     free = np.ptp(Xs, axis=0) == 0.0  # the intercept costs nothing

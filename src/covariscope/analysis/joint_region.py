@@ -35,12 +35,7 @@ from itertools import combinations
 import numpy as np
 
 from covariscope.analysis.design import Design
-from covariscope.analysis.distributions import (
-    chi2_quantile,
-    f_quantile,
-    normal_quantile,
-    t_quantile,
-)
+from covariscope.analysis.distributions import chi2_ppf, f_ppf, norm_ppf, t_ppf
 from covariscope.analysis.fits import Fit
 
 __all__ = [
@@ -135,10 +130,10 @@ def _critical(fit: Fit, level: float) -> tuple[float, float]:
     if fit.family == "linear" and fit.df_resid:
         df = fit.df_resid
         return (
-            2.0 * f_quantile(level, 2, df),
-            t_quantile(0.5 + level / 2.0, df),
+            2.0 * float(f_ppf(level, 2, df)),
+            float(t_ppf(0.5 + level / 2.0, df)),
         )
-    return chi2_quantile(level, 2), normal_quantile(0.5 + level / 2.0)
+    return float(chi2_ppf(level, 2)), float(norm_ppf(0.5 + level / 2.0))
 
 
 def _region(

@@ -28,7 +28,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy.linalg import lapack
 
-from covariscope.analysis.distributions import t_quantile
+from covariscope.analysis.distributions import t_ppf
 
 __all__ = [
     "ALIAS_TOLERANCE",
@@ -162,7 +162,7 @@ class OLSResult:
 
     def ci(self, level: float = 0.95) -> tuple[np.ndarray, np.ndarray]:
         """Confidence limits of the slopes from the t distribution."""
-        t = t_quantile(0.5 + level / 2.0, self.df_resid)
+        t = float(t_ppf(0.5 + level / 2.0, self.df_resid))
         return self.coef - t * self.se, self.coef + t * self.se
 
 

@@ -42,7 +42,7 @@ from covariscope.analysis.column_fit import (
     start_from,
 )
 from covariscope.analysis.design import Design
-from covariscope.analysis.distributions import chi2_sf, f_sf, normal_quantile, t_quantile
+from covariscope.analysis.distributions import chi2_sf, f_sf, norm_ppf, t_ppf
 from covariscope.vocabulary import RATIO_FAMILIES, ModificationForm
 
 __all__ = [
@@ -120,7 +120,7 @@ def reri(
     value = joint - math.exp(b1) - math.exp(b2) + 1.0
     grad = np.array([joint - math.exp(b1), joint - math.exp(b2), joint])
     se = math.sqrt(max(float(grad @ cov @ grad), 0.0))
-    z = normal_quantile(0.5 + level / 2.0)
+    z = float(norm_ppf(0.5 + level / 2.0))
     return value, se, (value - z * se, value + z * se)
 
 
@@ -129,8 +129,8 @@ def _wald(b: np.ndarray, V: np.ndarray, df_resid: int | None) -> tuple[float, fl
     k = len(b)
     if df_resid is not None:
         f = chi2 / k
-        return f, f_sf(f, k, df_resid)
-    return chi2, chi2_sf(chi2, k)
+        return f, float(f_sf(f, k, df_resid))
+    return chi2, float(chi2_sf(chi2, k))
 
 
 def _strata_values(
@@ -222,9 +222,9 @@ def effect_modification(
     ratio = design.family in RATIO_FAMILIES
     p_idx = list(range(len(names), len(names) + k))
     z = (
-        t_quantile(0.5 + level / 2.0, fitted.df_resid)
+        float(t_ppf(0.5 + level / 2.0, fitted.df_resid))
         if fitted.df_resid is not None
-        else normal_quantile(0.5 + level / 2.0)
+        else float(norm_ppf(0.5 + level / 2.0))
     )
     strata = []
     for label, weights, rows in strata_spec:

@@ -44,11 +44,11 @@ def spline_basis(x: np.ndarray, knots: int) -> np.ndarray:
     >>> spline_basis(x, 4).shape
     (50, 3)
     """
-    import patsy  # loaded only when a spline is built (a second or so at start-up otherwise)
-
     where = knot_positions(x, knots)
     if len(np.unique(where)) < knots:
         raise ValueError("too few distinct values for the spline's knots")
+    import patsy  # on demand: a second to import, paid only when a spline is built
+
     basis = patsy.dmatrix(
         "cr(x, knots=inner, lower_bound=lo, upper_bound=hi, constraints='center') - 1",
         {"x": x, "inner": where[1:-1], "lo": where[0], "hi": where[-1]},

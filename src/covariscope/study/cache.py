@@ -19,7 +19,7 @@ from __future__ import annotations
 import sys
 import threading
 from collections import OrderedDict
-from collections.abc import Callable, Hashable
+from collections.abc import Callable, Hashable, Mapping
 from dataclasses import dataclass
 from typing import Any, TypeVar
 
@@ -28,6 +28,7 @@ import numpy as np
 __all__ = ["StageCount", "StudyCache", "nbytes"]
 
 T = TypeVar("T")
+H = TypeVar("H", bound=Hashable)
 
 #: Default memory bound: enough for the designs of a few 1,000,000-row studies.
 DEFAULT_MAX_BYTES = 2 * 1024**3
@@ -110,6 +111,50 @@ class StudyCache:
         value = compute()
         self.put(stage, key, value, size(value))
         return value
+
+    def get_many(
+        self,
+        stage: str,
+        keys: Mapping[H, Hashable],
+        compute: Callable[[list[H]], Mapping[H, T]],
+        *,
+        trace: list[str] | None = None,
+    ) -> dict[H, T]:
+        """One entry per item, the absent ones computed together in one call.
+
+        ``keys`` maps each item to its key; ``compute(missing)`` returns the
+        results of the items not stored (one call, so that work they share
+        is done once).  Each item counts one hit or one miss.
+
+        Examples
+        --------
+        >>> cache = StudyCache()
+        >>> squares = lambda items: {i: i * i for i in items}
+        >>> cache.get_many("square", {2: 2, 3: 3}, squares)
+        {2: 4, 3: 9}
+        >>> cache.get_many("square", {3: 3, 4: 4}, squares), cache.count("square")
+        ({3: 9, 4: 16}, StageCount(hits=1, misses=3))
+        """
+        found: dict[H, T] = {}
+        with self._lock:
+            for item, key in keys.items():
+                hit = self._entries.get((stage, key))
+                if hit is not None:
+                    self._entries.move_to_end((stage, key))
+                    found[item] = hit[0]
+            self._hits[stage] = self._hits.get(stage, 0) + len(found)
+            missing = [item for item in keys if item not in found]
+            self._misses[stage] = self._misses.get(stage, 0) + len(missing)
+        if missing:
+            if trace is not None:
+                trace.append(stage)
+            computed = compute(missing)
+            for item in missing:
+                if item in computed:
+                    value = computed[item]
+                    self.put(stage, keys[item], value, nbytes(value))
+                    found[item] = value
+        return {item: found[item] for item in keys if item in found}
 
     def peek(self, stage: str, key: Hashable) -> Any:
         """The stored result or None, without counting or reordering."""

@@ -14,7 +14,12 @@ from dataclasses import replace
 
 import networkx as nx
 
-from covariscope.analysis.claim_tests import DiagramChecks, check_claims, design_claim_data
+from covariscope.analysis.claim_tests import (
+    ClaimMemo,
+    DiagramChecks,
+    check_claims,
+    design_claim_data,
+)
 from covariscope.analysis.claim_wording import verdict_clause
 from covariscope.analysis.claims import implied_claims
 from covariscope.analysis.evidence import EvidenceEngine
@@ -48,11 +53,18 @@ def check_diagram(
     engine: EvidenceEngine,
     *,
     cancel: Callable[[], bool] | None = None,
+    memo: ClaimMemo | None = None,
 ) -> DiagramChecks:
-    """Every claim of the diagram among the nodes with data, tested and corrected."""
+    """Every claim of the diagram among the nodes with data, tested and corrected.
+
+    ``memo`` keeps each claim's test across runs (see
+    :func:`~covariscope.analysis.claim_tests.check_claims`).
+    """
     data = design_claim_data(engine.design, engine.summary, outcome)
     claims = implied_claims(G, exposure, outcome, data.columns, limit=project.analysis.claim_limit)
-    return check_claims(claims, data, method=project.analysis.claim_correction, cancel=cancel)
+    return check_claims(
+        claims, data, method=project.analysis.claim_correction, cancel=cancel, memo=memo
+    )
 
 
 def with_failed_claims(

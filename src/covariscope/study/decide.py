@@ -1,5 +1,8 @@
 """The last stages: collinear groups → recommended set → verdicts → estimates.
 
+What reads the rows after them (pictures, effect modification, the
+residual-confounding check) is in :mod:`covariscope.study.rows_read`.
+
 They read the graph criteria, the proposal review, the evidence and the
 settings a verdict depends on (thresholds, saved keep choices, labels for
 the sentences), and nothing else; sentences are built here once per result.
@@ -9,7 +12,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Callable, Mapping
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 
 import networkx as nx
 
@@ -17,10 +20,7 @@ from covariscope.analysis.evalue import EValue, evalue_for_fit
 from covariscope.analysis.evidence import Comparison, EvidenceEngine, EvidenceTable
 from covariscope.analysis.fits import Fit
 from covariscope.analysis.graph import DiagramAnalysis, is_sufficient
-from covariscope.analysis.joint_region import CollinearityPicture, collinearity_pictures
-from covariscope.analysis.modification import Modification, modification_table
 from covariscope.analysis.recommend import Recommendation, pair_r2, recommend_set
-from covariscope.analysis.splines import ResidualCheck, residual_table
 from covariscope.analysis.verdicts import (
     Facts,
     Numbers,
@@ -80,9 +80,6 @@ class Decisions:
     evalue: EValue | None
     disagreements: tuple[str, ...]
     messages: tuple[str, ...]
-    pictures: tuple[CollinearityPicture, ...] = ()
-    modification: dict[str, Modification] = field(default_factory=dict)
-    residual_confounding: dict[str, ResidualCheck] = field(default_factory=dict)
 
 
 def _finite(value: float | None) -> float | None:
@@ -332,66 +329,6 @@ def _verdict(ctx: _Context, graph: nx.DiGraph, c: str) -> Verdict:
     return verdict
 
 
-@dataclass(frozen=True, eq=False)
-class RowsRead:
-    """What reads the rows themselves: pictures, modification, residual confounding."""
-
-    pictures: tuple[CollinearityPicture, ...] = ()
-    modification: dict[str, Modification] = field(default_factory=dict)
-    residual: dict[str, ResidualCheck] = field(default_factory=dict)
-
-
-def _rows_read(
-    q: Question,
-    da: DiagramAnalysis,
-    evidence: EvidenceTable,
-    engine: EvidenceEngine,
-    groups: tuple[tuple[str, ...], ...],
-    estimates: Mapping[str, Fit | None],
-    messages: list[str],
-) -> RowsRead:
-    """The collinearity pictures, effect modification and the residual-confounding
-    check of continuous confounders: they read the rows themselves."""
-    thresholds = q.threshold
-    if not engine.design.rows_in_memory:
-        messages.append(
-            "Effect modification, the residual-confounding check of continuous confounders "
-            "and the collinearity picture read the rows themselves, so they are shown only "
-            "when the data are analysed in memory."
-        )
-        if q.spline_knots:
-            messages.append(
-                "Splines are built from the rows in memory: with the data read where they "
-                "lie, every continuous covariate enters linearly."
-            )
-        return RowsRead()
-    high_vif = [
-        c
-        for c, e in evidence.covariates.items()
-        if c in evidence.candidates and e.vif_exposure_added >= thresholds["vif"]
-    ]
-    pictures = collinearity_pictures(evidence.full, engine.design, groups, high_vif)
-    rec_fit = estimates["recommended"]
-    modification: dict[str, Modification] = {}
-    residual: dict[str, ResidualCheck] = {}
-    if rec_fit is not None and rec_fit.ok:
-        modification = modification_table(
-            engine.design,
-            rec_fit.terms,
-            evidence.candidates,
-            p_guide=thresholds["modification_p"],
-            ratio_guide=thresholds["modification_ratio"],
-        )
-        residual = residual_table(
-            engine.design,
-            rec_fit.terms,
-            [c for c in rec_fit.terms if c in da.roles and da.roles[c].role == "confounder"],
-            knots=dict(q.spline_knots),
-            change_guide=thresholds["change_pct"],
-        )
-    return RowsRead(pictures, modification, residual)
-
-
 def decide(
     q: Question,
     graph: nx.DiGraph,
@@ -428,7 +365,6 @@ def decide(
     verdicts = {c: _verdict(ctx, graph, c) for c in da.roles}
     estimates: dict[str, Fit | None] = dict.fromkeys(ESTIMATE_KEYS)
     ev_value: EValue | None = None
-    read = RowsRead()
     if evidence is not None and engine is not None:
         estimates["crude"] = evidence.crude
         estimates["full"] = evidence.full
@@ -442,7 +378,6 @@ def decide(
         )
         if problem:
             messages.append(problem)
-        read = _rows_read(q, da, evidence, engine, groups, estimates, messages)
     label = dict(q.names)
     disagreements = tuple(
         f"{label.get(v.node, v.node)}: {v.reason}"
@@ -459,7 +394,4 @@ def decide(
         evalue=ev_value,
         disagreements=disagreements,
         messages=tuple(messages),
-        pictures=read.pictures,
-        modification=read.modification,
-        residual_confounding=read.residual,
     )

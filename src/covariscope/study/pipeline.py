@@ -6,7 +6,8 @@ each cached under exactly what it reads (see :mod:`covariscope.study.cache`):
 
 data source → bindings → profiles → analytic sample → design → sufficient
 statistics → fits and evidence → graph criteria → proposal review →
-collinear groups, recommended set and verdicts → result.
+collinear groups, recommended set and verdicts → collinearity pictures,
+effect modification and the residual-confounding check → result.
 
 The GUI, the command line and the report call it; none of them recomputes a
 statistic.  Without data (no data file, or none bound) the result is
@@ -21,7 +22,8 @@ from collections.abc import Callable, Sequence
 from dataclasses import dataclass, replace
 from typing import Any
 
-from covariscope.analysis.claim_tests import DiagramChecks
+from covariscope.analysis.claim_tests import ClaimOutcome, DiagramChecks
+from covariscope.analysis.claims import Claim
 from covariscope.analysis.evidence import (
     EvidenceEngine,
     EvidenceTable,
@@ -52,6 +54,7 @@ from covariscope.study.prepare import (
     sufficient_statistics,
 )
 from covariscope.study.result import ESTIMATE_KEYS, Progress, StudyResult
+from covariscope.study.rows_read import RowsRead, reads_key, rows_read
 from covariscope.study.source import ColumnSource, source_of
 from covariscope.study.whole_source import prepare_evidence
 from covariscope.vocabulary import CAUTION_BRIEF, DEFAULT_THRESHOLDS
@@ -101,6 +104,8 @@ class DataStage:
     evidence: EvidenceTable | None
     key: Any
     messages: tuple[str, ...]
+    #: what the design was built from (None for a source that keeps its rows)
+    spec: DesignSpec | None = None
 
 
 @dataclass(frozen=True, eq=False)
@@ -174,7 +179,9 @@ def _data_stage(
     messages.extend(evidence.warnings)
     if prepared.sample.message:
         messages.append(prepared.sample.message)
-    return DataStage(prepared.sample, engine, evidence, (design.key, plan), tuple(messages))
+    return DataStage(
+        prepared.sample, engine, evidence, (design.key, plan), tuple(messages), prepared.spec
+    )
 
 
 def _engine(run: Run, prepared: Prepared, summary: LinearSummary) -> EvidenceEngine:
@@ -345,13 +352,14 @@ def run_study(
         (criteria.key, q, data.key),
         lambda: decide(q, criteria.graph, da, data.evidence, data.engine),
     )
-    checks = _checks(run, project, q, criteria, data.engine, report)
+    read = _rows_read(run, q, da, data, decisions)
+    checks = _checks(run, project, q, criteria, data, report)
     if checks is not None:
         # After the disagreements: their short form stays the verdict's own sentence.
         verdicts = with_failed_claims(decisions.verdicts, checks, dict(q.names))
         decisions = replace(decisions, verdicts=verdicts)
     report(1.0, "Done")
-    result = _result(q, da, data, decisions, origin, project, run)
+    result = _result(q, da, data, decisions, read, origin, project, run)
     if checks is not None:
         notes = _checks_message(checks)
         result = replace(
@@ -366,24 +374,56 @@ def run_study(
     )
 
 
+def _rows_read(
+    run: Run, q: Question, da: DiagramAnalysis, data: DataStage, decisions: Decisions
+) -> RowsRead:
+    """Pictures, effect modification and the residual-confounding check: each
+    its own stage, keyed by what it reads (see :mod:`covariscope.study.rows_read`)."""
+    if data.evidence is None or data.engine is None:
+        return RowsRead()
+    return rows_read(
+        run,
+        q,
+        da,
+        data.spec,
+        data.evidence,
+        data.engine,
+        decisions.groups,
+        decisions.estimates["recommended"],
+    )
+
+
 def _checks(
     run: Run,
     project: Project,
     q: Question,
     criteria: GraphCriteria,
-    engine: EvidenceEngine | None,
+    data: DataStage,
     report: Progress,
 ) -> DiagramChecks | None:
     """The diagram's independence claims tested on the data: a stage keyed by
-    the design, the arrows, the proxy links and the claim settings."""
+    the design, the arrows, the proxy links and the claim settings; each
+    claim's test is a stage of its own, keyed by the columns it reads, so an
+    edit of the diagram retests only the claims it changed."""
+    engine = data.engine
     if engine is None:
         return None
     report(0.96, "Checking the diagram against the data")
     G = criteria.graph
+    design = engine.design
+
+    def memo(claim: Claim, test: Callable[[], ClaimOutcome]) -> ClaimOutcome:
+        nodes = sorted({claim.a, claim.b, *claim.given})
+        key = (reads_key(data.spec, design, nodes), claim.a, claim.b, claim.given)
+        outcome: ClaimOutcome = run.get("claim", key, test)
+        return outcome
+
     checks: DiagramChecks = run.get(
         "claims",
         checks_key(project, G, engine),
-        lambda: check_diagram(project, G, q.exposure, q.outcome, engine, cancel=run.cancel),
+        lambda: check_diagram(
+            project, G, q.exposure, q.outcome, engine, cancel=run.cancel, memo=memo
+        ),
     )
     return checks
 
@@ -498,6 +538,7 @@ def _result(
     da: DiagramAnalysis,
     data: DataStage,
     decisions: Decisions,
+    read: RowsRead,
     origin: Origin | None,
     project: Project,
     run: Run,
@@ -511,7 +552,7 @@ def _result(
             f"The data file {origin.name} has changed since it was bound to this project "
             "(its SHA-256 differs); check that it is the intended file."
         )
-    messages += [*data.messages, *decisions.messages, CAUTION_BRIEF]
+    messages += [*data.messages, *decisions.messages, *read.messages, CAUTION_BRIEF]
     return StudyResult(
         exposure=q.exposure,
         outcome=q.outcome,
@@ -534,7 +575,7 @@ def _result(
         recommended_reason=decisions.recommended_reason,
         names=dict(q.names),
         recomputed=tuple(dict.fromkeys(run.trace)),
-        pictures=decisions.pictures,
-        modification=decisions.modification,
-        residual_confounding=decisions.residual_confounding,
+        pictures=read.pictures,
+        modification=read.modification,
+        residual_confounding=read.residual,
     )

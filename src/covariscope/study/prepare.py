@@ -72,6 +72,14 @@ class Run:
         self.check()
         return self.cache.get(stage, key, compute, trace=self.trace)
 
+    def get_many(
+        self, stage: str, keys: Mapping[Any, Any], compute: Callable[[list[Any]], Mapping[Any, Any]]
+    ) -> dict[Any, Any]:
+        """Cached results per item, the absent ones computed in one call
+        (see :meth:`StudyCache.get_many`)."""
+        self.check()
+        return self.cache.get_many(stage, keys, compute, trace=self.trace)
+
 
 @dataclass(frozen=True)
 class Bindings:

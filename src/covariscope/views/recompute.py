@@ -25,6 +25,9 @@ STAGE_WORDS = {
     "summary": "cross-products",
     "evidence": "the evidence",
     "verdicts": "the verdicts",
+    "pictures": "the collinearity pictures",
+    "modification": "effect modification",
+    "residual": "the residual-confounding check",
 }
 
 

@@ -1,0 +1,212 @@
+"""The stages that read the rows after the verdicts: collinearity pictures,
+effect modification and the residual-confounding check.
+
+Each is a cached stage of its own, one entry per item (a picture per
+collinear group, a modification per candidate, a check per continuous
+confounder), keyed by exactly what that item reads: the sample's rows, the
+family, the exposure and outcome columns, the specs (column, type,
+reference level, knots) of the model's terms and of the item's own
+covariate, and the guides that flag it.  Ticking a covariate, adding an
+arrow that leaves the recommended set as it was or binding a column outside
+the model therefore reads no row here; only an item whose model changed is
+computed again.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Iterable, Mapping, Sequence
+from dataclasses import dataclass, field
+from functools import partial
+from typing import Any
+
+from covariscope.analysis.design import Design
+from covariscope.analysis.evidence import EvidenceEngine, EvidenceTable
+from covariscope.analysis.fits import Fit
+from covariscope.analysis.graph import DiagramAnalysis
+from covariscope.analysis.joint_region import CollinearityPicture, collinearity_pictures
+from covariscope.analysis.modification import Modification, modification_table
+from covariscope.analysis.splines import ResidualCheck, residual_table
+from covariscope.study.decide import Question
+from covariscope.study.prepare import DesignSpec, Run
+
+__all__ = ["RowsRead", "reads_key", "rows_read"]
+
+#: what the stages say when the rows stay where they lie
+_NOT_IN_MEMORY = (
+    "Effect modification, the residual-confounding check of continuous confounders "
+    "and the collinearity picture read the rows themselves, so they are shown only "
+    "when the data are analysed in memory."
+)
+_SPLINES_NOT_IN_MEMORY = (
+    "Splines are built from the rows in memory: with the data read where they "
+    "lie, every continuous covariate enters linearly."
+)
+
+
+@dataclass(frozen=True, eq=False)
+class RowsRead:
+    """Pictures, modification and residual-confounding checks, and what they say."""
+
+    pictures: tuple[CollinearityPicture, ...] = ()
+    modification: dict[str, Modification] = field(default_factory=dict)
+    residual: dict[str, ResidualCheck] = field(default_factory=dict)
+    messages: tuple[str, ...] = ()
+
+
+def reads_key(spec: DesignSpec | None, design: Design, nodes: Iterable[str]) -> tuple[Any, ...]:
+    """What a computation on ``nodes``' columns of ``design`` reads.
+
+    The rows, family, exposure and outcome specs and each node's own spec
+    (column, type, reference level, knots), so that a design that differs
+    in other columns shares the entry.  Without a spec (a design built
+    elsewhere) the design's own key stands for all of it.
+
+    Examples
+    --------
+    >>> spec = DesignSpec(("rows",), "linear", "x", ("x", "continuous", None), (),
+    ...                   (("a", "a", "continuous", None, 0), ("b", "b", "binary", 0, 0)))
+    >>> reads_key(spec, None, ["b"])  # doctest: +NORMALIZE_WHITESPACE
+    (('rows',), 'linear', ('x', 'continuous', None), (),
+     (('b', ('b', 'binary', 0, 0)),))
+    """
+    if spec is None:
+        return (design.key, tuple(nodes))
+    terms = {t[0]: tuple(t[1:]) for t in spec.terms}
+    return (
+        spec.rows,
+        spec.family,
+        spec.exposure_spec,
+        spec.outcome_spec,
+        tuple((n, terms.get(n)) for n in nodes),
+    )
+
+
+def _pictures(
+    run: Run,
+    spec: DesignSpec | None,
+    evidence: EvidenceTable,
+    engine: EvidenceEngine,
+    groups: Sequence[tuple[str, ...]],
+    vif_guide: float,
+) -> tuple[CollinearityPicture, ...]:
+    """One picture per collinear group and per near-alias of the exposure, each
+    its own entry: it reads the full model (the candidates' specs) and its members."""
+    design = engine.design
+    high_vif = [
+        c
+        for c, e in evidence.covariates.items()
+        if c in evidence.candidates and e.vif_exposure_added >= vif_guide
+    ]
+    full = reads_key(spec, design, sorted(evidence.candidates))
+    out: list[CollinearityPicture] = []
+    items: list[tuple[Sequence[tuple[str, ...]], Sequence[str]]] = [((g,), ()) for g in groups]
+    items += [((), (c,)) for c in high_vif]
+    for group, alias in items:
+        pictures: tuple[CollinearityPicture, ...] = run.get(
+            "pictures",
+            (full, tuple(group), tuple(alias)),
+            partial(collinearity_pictures, evidence.full, design, group, alias),
+        )
+        out.extend(pictures)
+    return tuple(out)
+
+
+def _modification(
+    run: Run,
+    spec: DesignSpec | None,
+    design: Design,
+    terms: Sequence[str],
+    candidates: Sequence[str],
+    guides: tuple[float, float],
+) -> dict[str, Modification]:
+    """:func:`~covariscope.analysis.modification.modification_table`, one entry
+    per candidate (it reads the model's terms and the candidate); the
+    candidates not stored are computed in one call, so they share its work."""
+    if any(t not in design.blocks for t in terms):
+        return {}
+    model = tuple(sorted(terms))
+    keys = {
+        c: (reads_key(spec, design, (*model, c)), model, c, guides)
+        for c in candidates
+        if c in design.blocks and c not in design.constant
+    }
+    found: dict[str, Modification] = run.get_many(
+        "modification",
+        keys,
+        lambda missing: modification_table(
+            design, model, missing, p_guide=guides[0], ratio_guide=guides[1]
+        ),
+    )
+    return found
+
+
+def _residual(
+    run: Run,
+    spec: DesignSpec | None,
+    design: Design,
+    terms: Sequence[str],
+    confounders: Sequence[str],
+    knots: Mapping[str, int],
+    guide: float,
+) -> dict[str, ResidualCheck]:
+    """:func:`~covariscope.analysis.splines.residual_table`, one entry per
+    continuous confounder (it reads the model's terms and the knots); those
+    not stored are computed in one call, so they share its linear model."""
+    model = tuple(sorted(terms))
+    base = reads_key(spec, design, model)
+    # the ones residual_table examines: continuous, varying, in the model
+    examined = [
+        c
+        for c in confounders
+        if c in model
+        and c in design.blocks
+        and not design.blocks[c].levels
+        and c not in design.constant
+    ]
+    keys = {c: (base, model, c, knots.get(c), guide) for c in examined}
+    found: dict[str, ResidualCheck] = run.get_many(
+        "residual",
+        keys,
+        lambda missing: residual_table(
+            design,
+            model,
+            missing,
+            knots={c: knots[c] for c in missing if c in knots},
+            change_guide=guide,
+        ),
+    )
+    return found
+
+
+def rows_read(
+    run: Run,
+    q: Question,
+    da: DiagramAnalysis,
+    spec: DesignSpec | None,
+    evidence: EvidenceTable,
+    engine: EvidenceEngine,
+    groups: Sequence[tuple[str, ...]],
+    recommended: Fit | None,
+) -> RowsRead:
+    """The collinearity pictures, effect modification and the residual-confounding
+    check of continuous confounders, each through its own cached stage.
+
+    They read the rows themselves, so a design whose rows stay with their
+    source gets none of them, and a message that says so.
+    """
+    thresholds = q.threshold
+    design = engine.design
+    if not design.rows_in_memory:
+        messages = [_NOT_IN_MEMORY] + ([_SPLINES_NOT_IN_MEMORY] if q.spline_knots else [])
+        return RowsRead(messages=tuple(messages))
+    pictures = _pictures(run, spec, evidence, engine, groups, thresholds["vif"])
+    if recommended is None or not recommended.ok:
+        return RowsRead(pictures)
+    terms = recommended.terms
+    guides = (thresholds["modification_p"], thresholds["modification_ratio"])
+    modification = _modification(run, spec, design, terms, evidence.candidates, guides)
+    confounders = [c for c in terms if c in da.roles and da.roles[c].role == "confounder"]
+    residual = _residual(
+        run, spec, design, terms, confounders, dict(q.spline_knots), thresholds["change_pct"]
+    )
+    return RowsRead(pictures, modification, residual)
