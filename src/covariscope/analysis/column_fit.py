@@ -153,7 +153,7 @@ def base_fit(design: Design, terms: Sequence[str]) -> ColumnFit | None:
     """The model exposure + ``terms`` fitted once, for the checks that extend
     it to start from (None when it cannot be fitted: they then start cold)."""
     model_terms = [t for t in design.blocks if t in set(terms)]
-    cols = [0] + [j for t in model_terms for j in design.blocks[t].index]
+    cols = [*design.exposure_index, *(j for t in model_terms for j in design.blocks[t].index)]
     names = [design.column_names[j] for j in cols]
     fitted = fit_columns(design, model_matrix(design, cols), names, ones_first=True)
     return None if isinstance(fitted, str) else fitted

@@ -10,7 +10,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Mapping
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from typing import Any
 
 from covariscope.views.estimates import display_scale
@@ -49,6 +49,8 @@ class ModelRow:
     se_inflation: str
     #: (label, estimate, low, high) on the display scale, for the plot
     point: tuple[str, float, float, float] | None = None
+    #: a multi-level exposure's contrast this row is of ("high vs low"); else empty
+    contrast: str = ""
 
 
 @dataclass(frozen=True)
@@ -180,6 +182,76 @@ def _row(title: str, fit: Any, family: str, change: Any = None, se: Any = None) 
     )
 
 
+def _model_rows(evidence: Any, added: Any, dropped: Any, name: str, family: str) -> list[ModelRow]:
+    """The four comparison models of one covariate, seen from the exposure's estimate."""
+    return [
+        _row(
+            "Crude",
+            getattr(added, "without_fit", None) or getattr(evidence, "crude", None),
+            family,
+        ),
+        _row(
+            f"Crude + {name}",
+            getattr(added, "with_fit", None),
+            family,
+            change_value(added, family),
+            getattr(added, "se_inflation_pct", None),
+        ),
+        _row(
+            "Full",
+            getattr(dropped, "with_fit", None) or getattr(evidence, "full", None),
+            family,
+            change_value(dropped, family),
+            getattr(dropped, "se_inflation_pct", None),
+        ),
+        _row(f"Full − {name}", getattr(dropped, "without_fit", None), family),
+    ]
+
+
+def _reference(result: Any) -> str:
+    levels = tuple(getattr(result, "exposure_levels", ()) or ())
+    return levels[0] if levels else ""
+
+
+def _contrast_rows(joint: Any, name: str, family: str, reference: str) -> list[ModelRow]:
+    """A multi-level exposure: the comparison models, one row per contrast each."""
+    rows: list[ModelRow] = []
+    for shift in joint.contrasts:
+        for row in _model_rows(None, shift.added, shift.dropped, name, family):
+            if row.estimate == DASH and row.model not in ("Crude", f"Crude + {name}"):
+                continue  # not a candidate: no full model to show
+            contrast = f"{shift.level} vs {reference}"
+            rows.append(replace(row, model=f"{row.model}: {contrast}", contrast=contrast))
+    return rows
+
+
+def joint_figures(joint: Any, name: str, reference: str) -> list[tuple[str, str]]:
+    """A multi-level exposure's joint summary for one covariate, as dialog figures."""
+    if joint is None:
+        return []
+    out = [
+        (
+            "Contrast that moved most",
+            f"{joint.moved_most} vs {reference} ({percent(joint.largest_change_pct)})",
+        ),
+        (
+            f"Exposure block GVIF^(1/(2·df)) in crude + {name}",
+            number(joint.gvif_root_added, 3),
+        ),
+        ("Exposure block GVIF^(1/(2·df)) in the full model", number(joint.gvif_root_full, 3)),
+    ]
+    wald = joint.wald
+    if wald is not None:
+        p = "p < 0.001" if is_number(wald.p) and wald.p < 0.001 else f"p = {number(wald.p, 3)}"
+        out.append(
+            (
+                f"Joint Wald test of the exposure in crude + {name}",
+                f"{wald.kind} = {number(wald.stat)} ({wald.df} df), {p}",
+            )
+        )
+    return out
+
+
 def node_diagnostics(
     project: Any, result: Any, node_id: str, profiles: Any = None
 ) -> NodeDiagnostics:
@@ -195,29 +267,11 @@ def node_diagnostics(
     added = getattr(ev, "added", None)
     dropped = getattr(ev, "dropped", None)
     models: list[ModelRow] = []
-    if ev is not None:
-        models = [
-            _row(
-                "Crude",
-                getattr(added, "without_fit", None) or getattr(evidence, "crude", None),
-                family,
-            ),
-            _row(
-                f"Crude + {name}",
-                getattr(added, "with_fit", None),
-                family,
-                change_value(added, family),
-                getattr(added, "se_inflation_pct", None),
-            ),
-            _row(
-                "Full",
-                getattr(dropped, "with_fit", None) or getattr(evidence, "full", None),
-                family,
-                change_value(dropped, family),
-                getattr(dropped, "se_inflation_pct", None),
-            ),
-            _row(f"Full − {name}", getattr(dropped, "without_fit", None), family),
-        ]
+    joint = getattr(ev, "joint", None)
+    if ev is not None and joint is not None:
+        models = _contrast_rows(joint, name, family, _reference(result))
+    elif ev is not None:
+        models = _model_rows(evidence, added, dropped, name, family)
     figures: list[tuple[str, str]] = []
     numbers: dict[str, Any] = {}
     if ev is not None:
@@ -246,7 +300,11 @@ def node_diagnostics(
         collinearity = getattr(getattr(result, "evidence", None), "collinearity", None)
         if collinearity is not None:
             figures += condition_rows(collinearity, node_id, name)
-        figures.append((f"VIF of the exposure in crude + {name}", number(vif_x)))
+        if joint is not None:
+            figures.append((f"GVIF^(1/df) of the exposure block in crude + {name}", number(vif_x)))
+            figures += joint_figures(joint, name, _reference(result))
+        else:
+            figures.append((f"VIF of the exposure in crude + {name}", number(vif_x)))
         figures += _own(name, getattr(ev, "own_coef", None), getattr(ev, "own_ci", None))
         figures += residual_figures(
             (getattr(result, "residual_confounding", None) or {}).get(node_id),

@@ -9,7 +9,14 @@ from typing import Any
 
 from covariscope.views.format import DASH, fit_ok, is_number, number, ratio_family
 
-__all__ = ["ESTIMATE_KEYS", "EstimateCell", "display_scale", "estimate_cells", "evalue_text"]
+__all__ = [
+    "ESTIMATE_KEYS",
+    "EstimateCell",
+    "contrast_lines",
+    "display_scale",
+    "estimate_cells",
+    "evalue_text",
+]
 
 #: The strip's estimates, in order, with their titles.
 ESTIMATE_KEYS: tuple[tuple[str, str], ...] = (
@@ -73,8 +80,31 @@ def estimate_cells(result: Any) -> list[EstimateCell]:
         ci = f"95% CI {number(lo)} to {number(hi)}"
         n = getattr(fit, "n", None)
         tip = f"{title}: {number(est)} ({ci}), {terms}" + (f", n = {n}" if n else "")
+        contrasts = tuple(getattr(fit, "contrasts", ()) or ())
+        if contrasts:
+            ref, level = _reference(result), str(getattr(fit, "contrast", ""))
+            ci = f"{level} vs {ref}; CI {number(lo)} to {number(hi)}"
+            tip += contrast_lines(contrasts, family, ref, level)
         cells.append(EstimateCell(key, title, number(est), ci, terms, tip))
     return cells
+
+
+def _reference(result: Any) -> str:
+    levels = tuple(getattr(result, "exposure_levels", ()) or ())
+    return levels[0] if levels else ""
+
+
+def contrast_lines(contrasts: tuple[Any, ...], family: str, reference: str, shown: str) -> str:
+    """Every contrast of a multi-level exposure, one line each (for tooltips)."""
+    lines = []
+    for c in contrasts:
+        ratio = ratio_family(family) and c.ratio is not None and c.ratio_ci is not None
+        est, (lo, hi) = (c.ratio, c.ratio_ci) if ratio else (c.coef, c.ci)
+        mark = " (shown: it moved most from the crude estimate)" if c.level == shown else ""
+        lines.append(
+            f"\n{c.level} vs {reference}: {number(est)} (95% CI {number(lo)} to {number(hi)}){mark}"
+        )
+    return "".join(lines)
 
 
 def evalue_text(result: Any) -> tuple[str, str]:
