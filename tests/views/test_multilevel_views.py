@@ -73,3 +73,9 @@ def test_check_text_lists_each_contrast(study):
     text = format_study_text(result)
     assert "recommended  each level against low:" in text
     assert "    high       mean difference" in text
+
+
+def test_keep_one_reason_names_the_contrast_it_compares(study):
+    _, result = study
+    reason = result.verdicts[result.verdicts["income"].suggested].reason
+    assert "gives an exposure estimate (high vs low) of" in reason

@@ -281,8 +281,18 @@ def _group_facts(
         estimate_of=estimate_of,
         se_of=se_of,
         names=label,
+        contrast=_first_contrast(ctx),
     )
     return group, alone, False, why, suggested, suggested_why
+
+
+def _first_contrast(ctx: _Context) -> str:
+    """The contrast a fit's own estimate holds for a multi-level exposure (its first),
+    as "high vs low"; empty otherwise."""
+    design = ctx.engine.design if ctx.engine is not None else None
+    if design is None or not design.multilevel:
+        return ""
+    return f"{design.exposure_levels[1]} vs {design.exposure_levels[0]}"
 
 
 def _verdict(ctx: _Context, graph: nx.DiGraph, c: str) -> Verdict:
