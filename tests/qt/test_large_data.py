@@ -109,7 +109,7 @@ def test_profiles_arrive_column_by_column_with_progress(qtbot, large, fake_promp
     seen: list[int] = []
     steps: list[str] = []
     w.data.profiler.profiled.connect(lambda found: seen.append(len(w.data.profiles)))
-    w.data.profiler.progress.connect(lambda f, column: steps.append(w.progress.format()))
+    w.data.profiler.progress.connect(lambda f, column: steps.append(w.progress_label.text()))
     assert w.io.open(str(large))
     qtbot.waitUntil(lambda: w.data.source is not None and not w.data.loading, timeout=60_000)
     assert seen == sorted(seen)
