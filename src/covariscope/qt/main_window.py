@@ -151,6 +151,10 @@ class MainWindow(QMainWindow):
         self.rows_label = QLabel("")
         self.error_label = QLabel("")
         self.error_label.setObjectName("lastError")
+        # What is being done ("Fitting model 12 of 42, pass 2 over the rows")
+        # beside the bar, which shows the share done: the sentence does not fit in it.
+        self.progress_label = QLabel("")
+        self.progress_label.hide()
         self.progress = QProgressBar()
         self.progress.setMaximumWidth(180)
         self.progress.setRange(0, 1000)
@@ -162,7 +166,8 @@ class MainWindow(QMainWindow):
         bar = self.statusBar()
         for label in (self.state_label, self.rows_label):
             label.setObjectName("statusField")
-        for w in (self.state_label, self.rows_label, self.progress, self.cancel_button):
+        permanent = (self.state_label, self.rows_label, self.progress_label, self.progress)
+        for w in (*permanent, self.cancel_button):
             bar.addPermanentWidget(w)
         bar.addWidget(self.error_label, 1)
 
@@ -587,12 +592,15 @@ class MainWindow(QMainWindow):
         self.error_label.setToolTip(text)
 
     def show_progress(self, text: str, fraction: float) -> None:
-        self.progress.setFormat(f"{text} %p%")
+        self.progress_label.setText(text)
+        self.progress.setFormat("%p%")
         self.progress.setValue(int(1000 * max(0.0, min(1.0, fraction))))
+        self.progress_label.show()
         self.progress.show()
         self.cancel_button.show()
 
     def hide_progress(self) -> None:
+        self.progress_label.hide()
         self.progress.hide()
         self.cancel_button.hide()
 
