@@ -378,7 +378,11 @@ def condition_rows(
 def _own(node_id: str, coef: Any, ci: Any) -> list[tuple[str, str]]:
     """The covariate's own coefficient in crude + C (one per level when multi-level)."""
     if isinstance(coef, dict):
-        items = [(k, v, (ci or {}).get(k)) for k, v in coef.items()]
+        # a level's design column "col[level]" reads as "Label [level]"
+        items = [
+            (f"{node_id} {k[k.index('[') :]}" if "[" in k else k, v, (ci or {}).get(k))
+            for k, v in coef.items()
+        ]
     elif is_number(coef):
         items = [(node_id, coef, ci)]
     else:
