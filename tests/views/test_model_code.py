@@ -152,7 +152,7 @@ def test_python_snippet_reproduces_each_contrast_of_a_multilevel_exposure(capsys
         assert code is not None
         assert 'relevel(factor(dust_level), ref = "low")' in code.formula
         namespace: dict = {}
-        exec(compile(code.python, "<model code>", "exec"), namespace)  # noqa: S102
+        exec(compile(code.python, "<model code>", "exec"), namespace)
         names = [namespace["fit"].model.exog_names[i] for i in namespace["rows"]]
         got = {
             n.split("[T.")[1].rstrip("]"): (e, s)
