@@ -25,6 +25,8 @@ __all__ = ["LegendPanel", "sample_pixmap"]
 
 _SCALE = 0.72
 _LINE_W, _LINE_H = 120, 34
+#: a sample never wider than this: a long role tag is elided (the words beside it name the role)
+_NODE_MAX_W = 104.0
 
 
 def _node_pixmap(entry: LegendEntry) -> QPixmap:
@@ -40,7 +42,7 @@ def _node_pixmap(entry: LegendEntry) -> QPixmap:
         highlighted=entry.highlighted,
         selected=entry.selected,
     )
-    geom = node_geometry(look, font_scale=_SCALE)
+    geom = node_geometry(look, font_scale=_SCALE, max_width=_NODE_MAX_W)
     r = geom.bounds
     pix = QPixmap(int(r.width()) + 2, int(r.height()) + 2)
     pix.fill(colour("background"))
