@@ -38,6 +38,8 @@ from covariscope.qt.data_panel import DataPanel
 from covariscope.qt.diagnostics import CovariateDialog, EndpointDialog, NodeDialog
 from covariscope.qt.estimates_strip import EstimatesStrip
 from covariscope.qt.geometry import restore_layout, save_layout, window_size
+from covariscope.qt.glossary import GlossaryWindow
+from covariscope.qt.legend import LegendPanel
 from covariscope.qt.messages_bar import MessagesBar
 from covariscope.qt.outcome_dialog import OutcomeColumnsDialog
 from covariscope.qt.project_io import ProjectIO, Prompts
@@ -51,6 +53,7 @@ from covariscope.views.diagnostics import node_labels
 from covariscope.views.diagram import canvas_annotations
 from covariscope.views.keep_choice import keep_choice, keep_choices_after
 from covariscope.views.messages import window_messages
+from covariscope.views.model_code import model_code, model_code_text
 from covariscope.views.outcome_settings import family_columns_after
 from covariscope.views.recompute import recompute_summary
 from covariscope.views.residual import spline_knots_after
@@ -128,7 +131,12 @@ class MainWindow(QMainWindow):
             "claims": self._dock(
                 "Independence claims", self.claims, Qt.DockWidgetArea.BottomDockWidgetArea
             ),
+            "legend": self._dock("Legend", LegendPanel(), Qt.DockWidgetArea.RightDockWidgetArea),
         }
+        # the legend opens from View ▸ Legend: on a laptop the canvas needs the width
+        self.docks["legend"].hide()
+        self.docks["legend"].toggleViewAction().triggered.connect(self._legend_toggled)
+        self.glossary: GlossaryWindow | None = None
         # the claims share the bottom with the review, one tab each
         self.tabifyDockWidget(self.docks["review"], self.docks["claims"])
         # closed at first (View ▸ Independence claims): its tab would take a row of the review
@@ -149,8 +157,14 @@ class MainWindow(QMainWindow):
 
         self.state_label = QLabel("No analysis yet")
         self.rows_label = QLabel("")
+        self.engine_label = QLabel("")
+        self.engine_label.setObjectName("engineLabel")
         self.error_label = QLabel("")
         self.error_label.setObjectName("lastError")
+        # What is being done ("Fitting model 12 of 42, pass 2 over the rows")
+        # beside the bar, which shows the share done: the sentence does not fit in it.
+        self.progress_label = QLabel("")
+        self.progress_label.hide()
         self.progress = QProgressBar()
         self.progress.setMaximumWidth(180)
         self.progress.setRange(0, 1000)
@@ -162,7 +176,14 @@ class MainWindow(QMainWindow):
         bar = self.statusBar()
         for label in (self.state_label, self.rows_label):
             label.setObjectName("statusField")
-        for w in (self.state_label, self.rows_label, self.progress, self.cancel_button):
+        permanent = (
+            self.state_label,
+            self.rows_label,
+            self.engine_label,
+            self.progress_label,
+            self.progress,
+        )
+        for w in (*permanent, self.cancel_button):
             bar.addPermanentWidget(w)
         bar.addWidget(self.error_label, 1)
 
@@ -176,6 +197,14 @@ class MainWindow(QMainWindow):
         self.set_project(project or Project())
         self.io.mark_clean()
         self._restored = restore_layout(self)
+
+    def _legend_toggled(self, shown: bool) -> None:
+        """An opened legend takes a readable width beside the canvas."""
+        if shown:  # once the dock is laid out
+            QTimer.singleShot(
+                0,
+                lambda: self.resizeDocks([self.docks["legend"]], [360], Qt.Orientation.Horizontal),
+            )
 
     def _size_review(self) -> None:
         """The review table is the main output: give it a good share of the height."""
@@ -333,6 +362,7 @@ class MainWindow(QMainWindow):
         else:
             self.rows_label.setText("No data loaded")
         self._set_state("Analysis up to date")
+        self.show_engine()
         recomputed = getattr(result, "recomputed", None)
         if recomputed is not None:
             # a tooltip, not a status message: a long message would widen the window
@@ -469,8 +499,7 @@ class MainWindow(QMainWindow):
 
     def outcome_columns_dialog(self) -> OutcomeColumnsDialog:
         """The outcome-columns dialog for the project's family (not shown)."""
-        columns = list(self.data.table.frame.columns) if self.data.table is not None else []
-        return OutcomeColumnsDialog(self.project, [str(c) for c in columns], self)
+        return OutcomeColumnsDialog(self.project, self.data.columns(), self)
 
     def edit_outcome_columns(self) -> None:
         dialog = self.outcome_columns_dialog()
@@ -508,8 +537,7 @@ class MainWindow(QMainWindow):
 
     def cancel_work(self) -> None:
         if self.data.loading:
-            self.data.loader.cancel()
-            self.show_message("Loading cancelled.")
+            self.show_message(self.data.cancel())
         if self.runner.running or self.runner.pending:
             self.runner.cancel()
             self._set_state("Analysis cancelled — edit or press F5 to run again")
@@ -545,8 +573,9 @@ class MainWindow(QMainWindow):
         if dialog.node_id not in self.project.diagram:
             dialog.close()
             return
-        frame = self.data.table.frame if self.data.table is not None else None
-        dialog.refresh(self.project, self.result, self.data.profiles, frame)
+        dialog.refresh(
+            self.project, self.result, self.data.profiles, self.data.plot_frame(self.result)
+        )
 
     def _save_note(self, node_id: str, text: str) -> None:
         if node_id in self.project.diagram and self.project.diagram.node(node_id).note != text:
@@ -564,6 +593,32 @@ class MainWindow(QMainWindow):
 
     def save_rationale_pdf(self, path: str | None = None) -> bool:
         return output.save_rationale_pdf(self, path)
+
+    def copy_model_code(self, language: str = "all") -> str:
+        """Put the recommended and the proposed set's model, as code in
+        ``language`` ("python", "r", "stata" or "all"), on the clipboard;
+        returns the text (empty when no model is fitted yet)."""
+        codes = model_code(self.result, self.project) if self.result is not None else {}
+        text = model_code_text(codes, language)
+        if not text:
+            self.show_message(
+                "No fitted model to copy yet: bind the exposure and the outcome to data "
+                "and let the analysis finish."
+            )
+            return ""
+        QApplication.clipboard().setText(text)
+        self.show_message("The model's code is on the clipboard.")
+        return text
+
+    def show_glossary(self, section: str = "") -> GlossaryWindow:
+        """Open (or raise) the glossary, at ``section`` when given."""
+        if self.glossary is None or not shiboken6.isValid(self.glossary):
+            self.glossary = GlossaryWindow(self)
+        self.glossary.show()
+        self.glossary.raise_()
+        if section:
+            self.glossary.show_section(section)
+        return self.glossary
 
     def show_about(self) -> None:
         from covariscope import __version__
@@ -586,13 +641,32 @@ class MainWindow(QMainWindow):
         self.error_label.setText(f"Last problem: {text}" if text else "")
         self.error_label.setToolTip(text)
 
+    def show_engine(self) -> None:
+        """Name the engine that reads the data, and the memory the program holds now."""
+        from covariscope.data.sources.memuse import resident_bytes
+        from covariscope.views.data_panel import engine_status
+
+        if self.data.table is None:
+            self.engine_label.setText("")
+            self.engine_label.setToolTip("")
+            return
+        source = self.data.source
+        engine = source.engine if source is not None else "memory"
+        self.engine_label.setText(engine_status(engine, resident_bytes()))
+        self.engine_label.setToolTip(
+            source.status() if source is not None else "Every row is loaded into memory."
+        )
+
     def show_progress(self, text: str, fraction: float) -> None:
-        self.progress.setFormat(f"{text} %p%")
+        self.progress_label.setText(text)
+        self.progress.setFormat("%p%")
         self.progress.setValue(int(1000 * max(0.0, min(1.0, fraction))))
+        self.progress_label.show()
         self.progress.show()
         self.cancel_button.show()
 
     def hide_progress(self) -> None:
+        self.progress_label.hide()
         self.progress.hide()
         self.cancel_button.hide()
 
@@ -651,6 +725,7 @@ class MainWindow(QMainWindow):
         save_layout(self)
         self.runner.shutdown(30_000)
         self.data.loader.shutdown(30_000)
+        self.data.profiler.shutdown(30_000)
         self.io.shutdown()
         self.project.diagram.unsubscribe(self._model_changed)
         self.project.unsubscribe(self._project_changed)

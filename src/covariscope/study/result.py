@@ -11,6 +11,7 @@ from covariscope.analysis.evidence import EvidenceTable
 from covariscope.analysis.fits import Fit
 from covariscope.analysis.graph import DiagramAnalysis
 from covariscope.analysis.joint_region import CollinearityPicture
+from covariscope.analysis.model_terms import ModelTerm
 from covariscope.analysis.modification import Modification
 from covariscope.analysis.splines import ResidualCheck
 from covariscope.analysis.verdicts import Verdict
@@ -61,6 +62,9 @@ class StudyResult:
     #: asked for): the verdicts then come from the diagram alone.  ``check``
     #: and ``report`` treat it as a question that cannot be answered (exit 2).
     data_problem: str = ""
+    #: how the exposure and each covariate entered the models (type, levels, spline
+    #: knots), by node; empty without data
+    model_terms: dict[str, ModelTerm] = field(default_factory=dict)
     #: a multi-level categorical exposure's levels as text, the reference first
     #: (empty for a binary or continuous exposure)
     exposure_levels: tuple[str, ...] = ()

@@ -14,7 +14,7 @@ from dataclasses import dataclass, field, replace
 from typing import Any
 
 from covariscope.views.estimates import display_scale
-from covariscope.views.format import DASH, is_number, number, percent
+from covariscope.views.format import DASH, is_number, number, percent, term_names
 from covariscope.views.joint_picture import PictureView, picture_views
 from covariscope.views.modification import ModificationView, modification_view
 from covariscope.views.outcome_settings import outcome_column_in_use
@@ -299,7 +299,7 @@ def node_diagnostics(
             ]
         collinearity = getattr(getattr(result, "evidence", None), "collinearity", None)
         if collinearity is not None:
-            figures += condition_rows(collinearity, node_id, name)
+            figures += condition_rows(collinearity, node_id, name, labels)
         if joint is not None:
             figures.append((f"GVIF^(1/df) of the exposure block in crude + {name}", number(vif_x)))
             figures += joint_figures(joint, name, _reference(result))
@@ -351,7 +351,9 @@ def node_diagnostics(
     )
 
 
-def condition_rows(report: Any, node_id: str, name: str) -> list[tuple[str, str]]:
+def condition_rows(
+    report: Any, node_id: str, name: str, labels: Mapping[str, str] | None = None
+) -> list[tuple[str, str]]:
     """The full model's largest condition index, and each flagged dimension
     that holds the node with the terms that share it (Belsley, Kuh & Welsch
     1980: an index of 30 or more shared by two or more terms)."""
@@ -361,9 +363,11 @@ def condition_rows(report: Any, node_id: str, name: str) -> list[tuple[str, str]
     largest = float(report.condition_indices[-1])  # ascending: the largest is last
     rows = [("Largest condition index, full model", f"{number(largest)} ({guide})")]
     holding = [f for f in report.flagged if node_id in f.nodes]
+    words = term_names(report.columns, report.nodes, labels or {})
     for f in holding:
         shares = ", ".join(
-            f"{term} {p:.2f}" for term, p in zip(f.columns, f.proportions, strict=True)
+            f"{words.get(term, term)} {p:.2f}"
+            for term, p in zip(f.columns, f.proportions, strict=True)
         )
         rows.append((f"Flagged dimension, index {f.index:.1f}", f"variance shared by {shares}"))
     if not holding:
@@ -374,7 +378,11 @@ def condition_rows(report: Any, node_id: str, name: str) -> list[tuple[str, str]
 def _own(node_id: str, coef: Any, ci: Any) -> list[tuple[str, str]]:
     """The covariate's own coefficient in crude + C (one per level when multi-level)."""
     if isinstance(coef, dict):
-        items = [(k, v, (ci or {}).get(k)) for k, v in coef.items()]
+        # a level's design column "col[level]" reads as "Label [level]"
+        items = [
+            (f"{node_id} {k[k.index('[') :]}" if "[" in k else k, v, (ci or {}).get(k))
+            for k, v in coef.items()
+        ]
     elif is_number(coef):
         items = [(node_id, coef, ci)]
     else:
