@@ -50,6 +50,10 @@ class ProposalReview:
         backdoor path that the full set opens.
     unmeasured_in_set : tuple of str
         Members marked as not measured.
+    unsearched : tuple of str
+        Members whose search for a backdoor path they open stopped at its
+        work budget (:data:`~covariscope.analysis.paths.SEARCH_BUDGET`)
+        without a find: not marked harmful, but not shown harmless either.
     """
 
     proposed: tuple[str, ...]
@@ -60,6 +64,7 @@ class ProposalReview:
     unnecessary: tuple[str, ...]
     harmful: tuple[str, ...]
     unmeasured_in_set: tuple[str, ...]
+    unsearched: tuple[str, ...] = ()
 
     def open_paths_text(self) -> str:
         """The number of open paths in words: ``"3"`` or ``"at least 10,001"``."""
@@ -247,6 +252,7 @@ def review_on(md: MergedDiagram, X: str, Y: str, proposed: Iterable[str]) -> Pro
     opened = listing(M, X, Y, Z, 500, only_open=True)
     harmful: list[str] = []
     unnecessary: list[str] = []
+    unsearched: list[str] = []
     for m in members:
         c = md.construct_of[m]
         rest = given_constructs(md, [n for n in members if n != m], X, Y)
@@ -255,9 +261,12 @@ def review_on(md: MergedDiagram, X: str, Y: str, proposed: Iterable[str]) -> Pro
             continue
         if c not in rest:
             wanted = ancestors_of(M, {c}) - ancestors_of(M, rest)
-            if open_path_with_collider(M, X, Y, Z, wanted) is not None:
+            search = open_path_with_collider(M, X, Y, Z, wanted)
+            if search.path is not None:
                 harmful.append(m)
                 continue
+            if not search.complete:
+                unsearched.append(m)
         if sufficient_on(M, X, Y, rest):
             unnecessary.append(m)
     unmeasured = tuple(m for m in members if not md_measured(md, m))
@@ -270,6 +279,7 @@ def review_on(md: MergedDiagram, X: str, Y: str, proposed: Iterable[str]) -> Pro
         unnecessary=tuple(unnecessary),
         harmful=tuple(harmful),
         unmeasured_in_set=unmeasured,
+        unsearched=tuple(unsearched),
     )
 
 

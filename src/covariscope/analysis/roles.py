@@ -39,6 +39,9 @@ class RoleFacts:
     group: tuple[str, ...]
     on_paths: tuple[tuple[int, bool], ...]
     explanation: str
+    #: the search for a backdoor path that adjusting for it alone opens stopped
+    #: at its work budget without a find (its role then comes from the later rules)
+    search_stopped: bool = False
 
 
 def confounding_nodes(M: nx.DiGraph, X: str, Y: str) -> set[str]:
@@ -139,6 +142,17 @@ _EXPLAIN = {
 }
 
 
+def _opens_path(
+    M: nx.DiGraph, X: str, Y: str, c: str, anc_c: set[str], unsearched: set[str]
+) -> bool:
+    """Whether adjusting for ``c`` alone opens a backdoor path blocked at a
+    collider (``c`` joins ``unsearched`` when the search stopped at its budget)."""
+    search = open_path_with_collider(M, X, Y, frozenset({c}), anc_c)
+    if not search.complete:
+        unsearched.add(c)
+    return search.path is not None
+
+
 def roles_on(md: MergedDiagram, X: str, Y: str, unadjusted: PathListing) -> dict[str, RoleFacts]:
     """Roles of every covariate on a merged diagram (see classify_covariates)."""
     M = md.graph
@@ -155,6 +169,7 @@ def roles_on(md: MergedDiagram, X: str, Y: str, unadjusted: PathListing) -> dict
     anc_y_gx = ancestors_of(Gx, {Y})
     confounding = confounding_nodes(M, X, Y)
     through = _paths_through(unadjusted)
+    unsearched: set[str] = set()
     out: dict[str, RoleFacts] = {}
     for c, members in md.members.items():
         if c in (X, Y):
@@ -170,7 +185,7 @@ def roles_on(md: MergedDiagram, X: str, Y: str, unadjusted: PathListing) -> dict
             role = "descendant_of_exposure"
         elif c in confounding:
             role = "confounder"
-        elif open_path_with_collider(M, X, Y, frozenset({c}), anc_c) is not None:
+        elif _opens_path(M, X, Y, c, anc_c, unsearched):
             role = "collider"
         elif linked_x and not linked_y_gx:
             role = "instrument"
@@ -190,6 +205,7 @@ def roles_on(md: MergedDiagram, X: str, Y: str, unadjusted: PathListing) -> dict
             group=members if len(members) > 1 else (),
             on_paths=tuple(through.get(c, ())),
             explanation=_EXPLAIN[role].format(x=X, y=Y),
+            search_stopped=c in unsearched,
         )
         for m in members:
             out[m] = facts
