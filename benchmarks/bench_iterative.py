@@ -99,7 +99,6 @@ def alternate(fns: dict[str, Callable[[], Any]], repeat: int) -> dict[str, float
 
 
 def engine_table(frame: pd.DataFrame, family: str) -> Callable[[], Any]:
-    from covariscope.analysis import evidence
     from covariscope.analysis.design import TermSpec, make_design
     from covariscope.analysis.evidence import EvidenceEngine, compute_evidence
 
@@ -109,14 +108,53 @@ def engine_table(frame: pd.DataFrame, family: str) -> Callable[[], Any]:
     covs = {c: TermSpec(c, "continuous") for c in NODES}
 
     def run() -> Any:
-        evidence._FIT_CACHE.clear()
-        evidence._SUMMARY_CACHE.clear()
         design = make_design(
             frame, exposure=TermSpec("x", "continuous"), covariates=covs, family=family, **kw
         )
         return compute_evidence(EvidenceEngine(design), candidates=NODES, added=NODES)
 
     return run
+
+
+def pass_counts(frame: pd.DataFrame, family: str) -> dict[str, Any]:
+    """Passes over the rows per model of one table: fresh (information formed)
+    and score-only, by model group (crude, crude + C, full, full − C)."""
+    from covariscope.analysis import glm_newton
+    from covariscope.analysis.design import TermSpec, make_design
+    from covariscope.analysis.evidence import EvidenceEngine, compute_evidence
+
+    seen: list[tuple[bool, int]] = []
+    real = glm_newton.glm_pass
+
+    def counting(*args: Any, **kw: Any) -> Any:
+        cols = kw.get("cols")
+        seen.append((bool(kw.get("info", True)), args[0].shape[1] if cols is None else len(cols)))
+        return real(*args, **kw)
+
+    per_model: list[list[tuple[bool, int]]] = []
+
+    def progress(done: int, total: int) -> None:
+        per_model.append(list(seen))
+        seen.clear()
+
+    covs = {c: TermSpec(c, "continuous") for c in NODES}
+    design = make_design(
+        frame, exposure=TermSpec("x", "continuous"), covariates=covs, family=family, outcome="y"
+    )
+    glm_newton.glm_pass = counting  # type: ignore[assignment]
+    try:
+        compute_evidence(EvidenceEngine(design), candidates=NODES, added=NODES, progress=progress)
+    finally:
+        glm_newton.glm_pass = real  # type: ignore[assignment]
+    groups = {"crude": per_model[:1], "crude+C": per_model[1 : K + 1]}
+    groups |= {"full": per_model[K + 1 : K + 2], "full-C": per_model[K + 2 :]}
+    out: dict[str, Any] = {}
+    for name, models in groups.items():
+        fresh = sum(1 for m in models for info, _ in m if info)
+        score = sum(1 for m in models for info, _ in m if not info)
+        out[name] = {"models": len(models), "fresh": fresh, "score_only": score}
+    out["fresh_per_model"] = sum(g["fresh"] for g in out.values()) / len(per_model)
+    return out
 
 
 def floor_logistic(frame: pd.DataFrame) -> float:
@@ -280,6 +318,7 @@ def child(args: argparse.Namespace) -> dict[str, Any]:
             f"{ref_name}_s": t["ref"] * scale,
             f"vs_{ref_name}": t["ref"] * scale / t["engine"],
         }
+        out[family]["passes"] = pass_counts(big, family)
         if family == "logistic":
             floor = floor_logistic(big)
             out[family]["floor_s"] = floor
@@ -389,6 +428,13 @@ def report(r: dict[str, Any]) -> None:
         f"{lg['statsmodels_logit_s']:.2f} s ({lg['vs_statsmodels_logit']:.1f}x, target >= 20); "
         f"floor {lg['floor_s']:.2f} s (engine {lg['engine_over_floor']:.2f}x, target <= 3)"
     )
+    for name, fam in (("logistic", lg), ("risk ratio", rr)):
+        counts = ", ".join(
+            f"{k}: {v['models']} models, {v['fresh']} fresh + {v['score_only']} score-only passes"
+            for k, v in fam["passes"].items()
+            if isinstance(v, dict)
+        )
+        print(f"  {name} passes ({fam['passes']['fresh_per_model']:.2f} fresh per model): {counts}")
     print(
         f"  risk ratio n={rr['n']:,}: engine {rr['engine_s']:.2f} s, statsmodels GLM loop "
         f"{rr['statsmodels_glm_s']:.2f} s ({rr['vs_statsmodels_glm']:.1f}x, target >= 20)"

@@ -10,9 +10,6 @@ words.
 
 from __future__ import annotations
 
-import os
-from concurrent.futures import ThreadPoolExecutor
-
 import numpy as np
 import numpy.typing as npt
 
@@ -25,10 +22,8 @@ __all__ = [
     "ETA_TOL",
     "EVENTS_PER_PARAMETER",
     "LEFT_BLANK",
-    "MIN_THREAD_ROWS",
     "SINGULAR_INFORMATION",
     "STEP_TOL",
-    "WORKERS",
     "Z95",
     "aliased_columns",
     "design_problem",
@@ -36,7 +31,6 @@ __all__ = [
     "inverse_from_cholesky",
     "newton_done",
     "rank_message",
-    "row_ranges",
     "too_few_rows",
     "upper_cholesky",
     "weighted_crossprod",
@@ -79,26 +73,6 @@ ETA_TOL = 1e-8
 CHUNK_ROWS = 4096
 
 
-#: Threads a pass over the rows is split over: the processor's cores, at most
-#: four (numpy and BLAS release the interpreter lock in every block's work).
-WORKERS = max(1, min(os.cpu_count() or 1, 4))
-
-#: Fewest rows worth a thread of their own.
-MIN_THREAD_ROWS = 65_536
-
-
-def row_ranges(n: int) -> list[tuple[int, int]]:
-    """Rows split for the processor's cores: one range per worker
-    (`WORKERS`), none shorter than `MIN_THREAD_ROWS`.
-
-    >>> row_ranges(10)
-    [(0, 10)]
-    """
-    parts = max(1, min(WORKERS, n // MIN_THREAD_ROWS))
-    edges = np.linspace(0, n, parts + 1).astype(int)
-    return [(int(edges[i]), int(edges[i + 1])) for i in range(parts)]
-
-
 def weighted_crossprod(X: Array, w: Array, buf: Array | None = None) -> Array:
     """X' diag(w) X (w ≥ 0), accumulated over blocks of rows; full matrix returned.
 
@@ -108,17 +82,14 @@ def weighted_crossprod(X: Array, w: Array, buf: Array | None = None) -> Array:
     update (half the flops of a general product).  X may be C- or
     Fortran-ordered.  Only numpy's BLAS is called, so that the passes and the
     small solves share one BLAS thread pool (two pools on two cores wait on
-    each other).  Large X is split over the cores (`row_ranges`).
+    each other).  The rows are not split over Python threads: BLAS alone uses
+    the cores, so that no BLAS call is ever made from two of our threads at
+    once (OpenBLAS entered from several threads while its own pool also runs
+    is a known source of crashes, and the window runs analyses off its own
+    thread).
     """
     n, _p = X.shape
-    sw = np.sqrt(w)
-    ranges = row_ranges(n)
-    if len(ranges) == 1:
-        return _crossprod_rows(X, sw, 0, n, buf)
-    with ThreadPoolExecutor(len(ranges)) as pool:
-        futures = [pool.submit(_crossprod_rows, X, sw, s, e, None) for s, e in ranges]
-        total: Array = np.sum([f.result() for f in futures], axis=0)
-    return total
+    return _crossprod_rows(X, np.sqrt(w), 0, n, buf)
 
 
 def _crossprod_rows(X: Array, sw: Array, start: int, stop: int, buf: Array | None) -> Array:

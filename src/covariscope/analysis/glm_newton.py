@@ -129,10 +129,11 @@ def newton_glm(
         b = _start(family, X[:, idx[0]], y, offset, p)
     else:
         b = np.array(start, dtype=np.float64)
-    if scale is None:
-        scale = np.std(X[:, idx], axis=0)
-    if reach is None:
-        reach = np.max(np.abs(X[:, idx]), axis=0)
+    if scale is None or reach is None:
+        # The model's own columns, read in place when it uses them all.
+        Xm = X if cols is None else X[:, idx]
+        scale = np.std(Xm, axis=0) if scale is None else scale
+        reach = np.max(np.abs(Xm), axis=0) if reach is None else reach
     passes = 0
 
     def run(beta: Array, info: bool, want_meat: bool) -> GlmPass:
