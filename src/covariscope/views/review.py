@@ -7,9 +7,11 @@ from __future__ import annotations
 import csv
 import io
 from dataclasses import dataclass
-from typing import Any
 
 from covariscope.analysis.evidence import Comparison
+from covariscope.analysis.modification import Modification
+from covariscope.model.project import Project
+from covariscope.study.result import StudyResult
 from covariscope.views.format import DASH, is_number, number, percent, ratio_family
 from covariscope.vocabulary import change_read, role_label
 
@@ -96,7 +98,7 @@ def change_value(comparison: Comparison | None, family: str) -> float | None:
     )
 
 
-def modifier_text(modification: Any) -> str:
+def modifier_text(modification: Modification | None) -> str:
     """The effect-modification cell: flagged or not, with the interaction p."""
     if modification is None or not modification.strata:
         return DASH
@@ -105,54 +107,47 @@ def modifier_text(modification: Any) -> str:
     return f"yes, {p_text}" if modification.flagged else "no"
 
 
-def _evidence_for(result: Any, node_id: str) -> Any:
-    evidence = getattr(result, "evidence", None) if result is not None else None
-    covariates = getattr(evidence, "covariates", None) or {}
-    return covariates.get(node_id)
-
-
-def review_rows(project: Any, result: Any = None) -> list[ReviewRow]:
+def review_rows(project: Project, result: StudyResult | None = None) -> list[ReviewRow]:
     """Rows for every covariate of the project's diagram, in diagram order.
 
     Before an analysis (``result`` None) or for a covariate the result does
     not know yet, the numbers are dashes and the verdict says it is pending.
     """
     proposed = set(project.proposed)
-    family = getattr(result, "family", None) or project.analysis.family
-    roles = getattr(getattr(result, "diagram", None), "roles", None) or {}
-    verdicts = getattr(result, "verdicts", None) or {}
-    modifications = getattr(result, "modification", None) or {}
+    family = result.family if result is not None else project.analysis.family
+    roles = result.diagram.roles if result is not None else {}
+    verdicts = result.verdicts if result is not None else {}
+    modifications = result.modification if result is not None else {}
+    evidence = result.evidence.covariates if result is not None and result.evidence else {}
     rows = []
     for node in project.diagram.covariates:
         facts = roles.get(node.id)
-        ev = _evidence_for(result, node.id)
+        ev = evidence.get(node.id)
         verdict = verdicts.get(node.id)
-        added = getattr(ev, "added", None)
-        dropped = getattr(ev, "dropped", None)
-        vif_value = getattr(ev, "vif", None)
-        label = getattr(verdict, "label", None) or ("Pending" if result is None else DASH)
-        reason = getattr(verdict, "reason", "") or (
-            "Waiting for the analysis." if result is None else ""
-        )
+        added = ev.added if ev is not None else None
+        dropped = ev.dropped if ev is not None else None
+        vif_value = ev.vif if ev is not None else None
+        label = verdict.label if verdict is not None else ("Pending" if result is None else DASH)
+        reason = verdict.reason if verdict is not None else ""
+        reason = reason or ("Waiting for the analysis." if result is None else "")
         if not node.measured and verdict is None:
             label, reason = "Unmeasured", "Not measured: the data cannot speak for it."
         detail_bits = [f"{node.label}: {label}"]
         if reason:
             detail_bits.append(reason)
-        explanation = getattr(facts, "explanation", "")
-        if explanation:
-            detail_bits.append(f"Diagram: {explanation}")
+        if facts is not None and facts.explanation:
+            detail_bits.append(f"Diagram: {facts.explanation}")
         rows.append(
             ReviewRow(
                 node=node.id,
                 label=node.label,
-                role=role_words(getattr(facts, "role", None)),
+                role=role_words(facts.role if facts is not None else None),
                 added_change=percent(change_value(added, family)),
                 dropped_change=percent(change_value(dropped, family)),
-                se_inflation=percent(getattr(added, "se_inflation_pct", None)),
+                se_inflation=percent(added.se_inflation_pct if added is not None else None),
                 vif=number(vif_value) if is_number(vif_value) else DASH,
                 verdict=label,
-                verdict_code=getattr(verdict, "code", "") or "",
+                verdict_code=verdict.code if verdict is not None else "",
                 reason=reason,
                 detail=" — ".join(detail_bits),
                 proposed=node.id in proposed,
@@ -163,7 +158,7 @@ def review_rows(project: Any, result: Any = None) -> list[ReviewRow]:
     return rows
 
 
-def proposed_after_toggle(project: Any, node_id: str, checked: bool) -> list[str] | None:
+def proposed_after_toggle(project: Project, node_id: str, checked: bool) -> list[str] | None:
     """The proposed set after ticking (or unticking) ``node_id``; None when
     nothing changes.  Order is kept: a new member goes at the end."""
     current = list(project.proposed)
