@@ -8,9 +8,9 @@ import inspect
 
 import pytest
 
-from covariscope.views import estimates, review
+from covariscope.views import diagnostics, estimates, review
 
-TYPED = [estimates, review]
+TYPED = [diagnostics, estimates, review]
 
 
 @pytest.mark.parametrize("module", TYPED, ids=lambda m: m.__name__)
