@@ -8,9 +8,9 @@ import inspect
 
 import pytest
 
-from covariscope.views import diagnostics, estimates, review
+from covariscope.views import diagnostics, estimates, keep_choice, review
 
-TYPED = [diagnostics, estimates, review]
+TYPED = [diagnostics, estimates, keep_choice, review]
 
 
 @pytest.mark.parametrize("module", TYPED, ids=lambda m: m.__name__)
