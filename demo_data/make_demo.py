@@ -39,6 +39,12 @@ inhaler        from lungfn (descendant of the outcome)         exclude_descendan
 canteen        linked to nothing (unrelated)                   not_needed
 =============  ==============================================  ======================
 
+The multi-level exposure variant (``demo_levels_project.json``) asks the same
+question of the dust index in thirds (``dust_level``: low, the reference;
+middle; high).  The effect is linear in the index, so each contrast's true
+effect is about TRUE_EFFECT times the difference in mean dust index between
+its level and the low one.
+
 Outcome versions: ``low_lung`` (lung-function score in the lowest quarter,
 for the logistic and risk-ratio families) and ``years_to_dx`` / ``dx`` (years
 to a respiratory diagnosis and its indicator, censored at 12 years, for the
@@ -65,10 +71,14 @@ DIRECT_EFFECT = -1.2
 INFLAM_PER_DUST = 0.6
 LUNG_PER_INFLAM = -1.0
 
+#: The multi-level variant's exposure: the dust index in thirds, reference first.
+DUST_LEVELS = ("low", "middle", "high")
+
 HERE = Path(__file__).resolve().parent
 PACKAGE_DEMO = HERE.parent / "src" / "covariscope" / "demo"
 CSV_NAME = "demo_cohort.csv"
 PROJECT_NAME = "demo_project.json"
+LEVELS_PROJECT_NAME = "demo_levels_project.json"
 
 
 def simulate(seed: int = SEED, n: int = N) -> pd.DataFrame:
@@ -145,6 +155,8 @@ def simulate(seed: int = SEED, n: int = N) -> pd.DataFrame:
         frame[column] = frame[column].astype(object).where(~holes, None)
     # Drawn last so that adding it left every other value as it was.
     frame.insert(frame.columns.get_loc("inhaler") + 1, "canteen", rng.binomial(1, 0.6, n))
+    # The dust index in thirds, for the multi-level exposure variant (no draw).
+    frame["dust_level"] = pd.qcut(dust, 3, labels=list(DUST_LEVELS)).astype(str)
     return frame
 
 
@@ -248,8 +260,25 @@ def project_dict(csv_sha256: str) -> dict[str, object]:
     }
 
 
-def write(folder: Path = HERE, package_copy: Path | None = PACKAGE_DEMO) -> tuple[Path, Path]:
-    """Write the CSV and the project file (and their package-data copies)."""
+def levels_project_dict(csv_sha256: str) -> dict[str, object]:
+    """The multi-level exposure variant: the same study with the dust index in
+    thirds (low, the reference; middle; high) as the exposure."""
+    project = project_dict(csv_sha256)
+    diagram = project["diagram"]
+    assert isinstance(diagram, dict)
+    for node in diagram["nodes"]:
+        if node["id"] == "dust":
+            node["label"] = "Dust level (thirds)"
+            node["column"] = "dust_level"
+    analysis = project["analysis"]
+    assert isinstance(analysis, dict)
+    analysis["column_types"] = {**analysis["column_types"], "dust_level": "categorical"}
+    analysis["reference_levels"] = {**analysis["reference_levels"], "dust_level": DUST_LEVELS[0]}
+    return project
+
+
+def write(folder: Path = HERE, package_copy: Path | None = PACKAGE_DEMO) -> tuple[Path, Path, Path]:
+    """Write the CSV and the project files (and their package-data copies)."""
     frame = simulate()
     csv_path = folder / CSV_NAME
     text = frame.to_csv(index=False, lineterminator="\n")
@@ -259,11 +288,16 @@ def write(folder: Path = HERE, package_copy: Path | None = PACKAGE_DEMO) -> tupl
     project_path.write_text(
         json.dumps(project_dict(sha), indent=2, ensure_ascii=False) + "\n", encoding="utf-8"
     )
+    levels_path = folder / LEVELS_PROJECT_NAME
+    levels_path.write_text(
+        json.dumps(levels_project_dict(sha), indent=2, ensure_ascii=False) + "\n",
+        encoding="utf-8",
+    )
     if package_copy is not None:
         package_copy.mkdir(parents=True, exist_ok=True)
-        for path in (csv_path, project_path):
+        for path in (csv_path, project_path, levels_path):
             shutil.copyfile(path, package_copy / path.name)
-    return csv_path, project_path
+    return csv_path, project_path, levels_path
 
 
 if __name__ == "__main__":

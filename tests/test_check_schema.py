@@ -42,6 +42,33 @@ def test_demo_output_validates(schema, capsys):
         assert out["covariates"][member]["group"] == ["area", "income"]
 
 
+def test_binary_exposure_keeps_its_single_contrast_fields(schema, capsys):
+    out = _check(capsys, str(ROOT / "demo_data" / "demo_project.json"))
+    assert out["exposure_levels"] is None
+    for fit in out["estimates"].values():
+        assert fit["contrast"] is None
+        assert fit["contrasts"] is None
+    assert all(c["joint"] is None for c in out["covariates"].values())
+
+
+@pytest.mark.parametrize("family", ["linear", "logistic"])
+def test_multilevel_exposure_output_validates(schema, capsys, family):
+    out = _check(capsys, str(ROOT / "demo_data" / "demo_levels_project.json"), "--family", family)
+    jsonschema.validate(out, schema)
+    assert out["exposure_levels"] == {"reference": "low", "levels": ["low", "high", "middle"]}
+    for fit in out["estimates"].values():
+        levels = [c["level"] for c in fit["contrasts"]]
+        assert levels == ["high", "middle"]
+        # the top-level estimate is the contrast it names
+        named = next(c for c in fit["contrasts"] if c["level"] == fit["contrast"])
+        assert (fit["coef"], fit["se"]) == (named["coef"], named["se"])
+    age = out["covariates"]["age"]
+    assert age["joint"]["moved_most"] in ("high", "middle")
+    assert age["joint"]["wald"]["df"] == 2
+    assert f"{age['joint']['moved_most']} vs low" in age["reason"]
+    assert out["modification"] == {}
+
+
 @pytest.mark.parametrize("family", ["logistic", "risk_ratio", "cox"])
 def test_ratio_family_output_validates(schema, capsys, family):
     out = _check(capsys, str(ROOT / "demo_data" / "demo_project.json"), "--family", family)

@@ -107,6 +107,8 @@ def test_demo_keeps_an_existing_project(tmp_path):
     first.write_text(edited)
     write_demo(tmp_path)
     assert first.read_text() == edited
+    # the multi-level exposure variant is written beside it
+    assert (tmp_path / "demo_levels_project.json").is_file()
 
 
 def test_gui_without_a_display_says_so(capsys, monkeypatch):

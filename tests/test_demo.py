@@ -55,8 +55,9 @@ def test_generator_reproduces_the_shipped_files():
     text = gen.simulate().to_csv(index=False, lineterminator="\n")
     shipped = (DEMO / "demo_cohort.csv").read_text(encoding="utf-8")
     assert text == shipped
-    project = json.loads((DEMO / "demo_project.json").read_text(encoding="utf-8"))
-    assert project["data"]["sha256"] == hashlib.sha256(shipped.encode()).hexdigest()
+    for name in ("demo_project.json", "demo_levels_project.json"):
+        project = json.loads((DEMO / name).read_text(encoding="utf-8"))
+        assert project["data"]["sha256"] == hashlib.sha256(shipped.encode()).hexdigest()
     assert (
         pytest.approx(gen.DIRECT_EFFECT + gen.INFLAM_PER_DUST * gen.LUNG_PER_INFLAM)
         == gen.TRUE_EFFECT
@@ -65,7 +66,7 @@ def test_generator_reproduces_the_shipped_files():
 
 def test_package_data_holds_the_same_demo():
     package = resources.files("covariscope") / "demo"
-    for name in ("demo_cohort.csv", "demo_project.json"):
+    for name in ("demo_cohort.csv", "demo_project.json", "demo_levels_project.json"):
         assert (package / name).read_bytes() == (DEMO / name).read_bytes()
 
 
@@ -174,3 +175,23 @@ def test_saved_choice_within_a_group_takes_effect():
     assert chosen.verdicts["area"].suggested == other
     assert "saved choice" in chosen.verdicts["area"].reason
     assert "saved choice" in chosen.recommended_reason
+
+
+def test_multilevel_variant_recovers_each_contrast():
+    """The dust index in thirds: the effect is linear in the index (TRUE_EFFECT per
+    unit), so each contrast's truth is about TRUE_EFFECT times the difference in
+    mean dust index between its third and the lowest; the recommended model's
+    interval covers it and the crude one does not."""
+    gen = _generator()
+    frame = gen.simulate()
+    dust = frame["dust"].astype(float)
+    mean = dust.groupby(frame["dust_level"]).mean()
+    result = run_study(load_project(DEMO / "demo_levels_project.json"))
+    crude = {c.level: c for c in result.estimates["crude"].contrasts}
+    adjusted = {c.level: c for c in result.estimates["recommended"].contrasts}
+    for level in ("middle", "high"):
+        truth = gen.TRUE_EFFECT * (mean[level] - mean["low"])
+        name = level
+        assert adjusted[name].ci[0] <= truth <= adjusted[name].ci[1]
+        assert not crude[name].ci[0] <= truth <= crude[name].ci[1]
+    assert result.verdicts["age"].code == "adjust"

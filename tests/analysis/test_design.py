@@ -67,7 +67,7 @@ def test_key_changes_with_data():
     ("change", "kwargs", "needle"),
     [
         ("const", {}, "exposure column 'x' has the same value in every row"),
-        ("multi", {}, "has 3 levels"),
+        ("multi", {}, "declared binary but has 3 levels"),
         ("logit", {"family": "logistic"}, "coded 0/1"),
         ("few", {}, "too few even for the crude model"),
         (
@@ -87,7 +87,7 @@ def test_bad_data_gets_one_clear_message(change, kwargs, needle):
     if change == "const":
         f["x"] = 1.0
     elif change == "multi":
-        exposure = TermSpec("grp", "categorical")
+        exposure = TermSpec("grp", "binary")
     elif change == "logit":
         f["y"] = f["y"].round() + 3
     elif change == "few":

@@ -185,3 +185,38 @@ def test_reri_on_a_saturated_model_equals_the_cross_product_ratios() -> None:
         se, rel=1e-6
     )
     assert mod.strata[1].coef == pytest.approx(b1 + b3, rel=1e-8)
+
+
+def test_reri_of_a_published_rate_table() -> None:
+    # Reference: a published table used to teach additive interaction. Gordis,
+    # *Epidemiology*, Table 15.15 (edition not checked), lung-cancer deaths per
+    # 100,000 by cigarette smoking and asbestos exposure, modified from Hammond,
+    # Selikoff & Seidman (1979): neither 11.3, asbestos only 58.4, smoking only
+    # 122.6, both 601.6. Additivity would give 11.3 + 47.1 + 111.3 = 169.7 for
+    # both (computed here). The source gives rates, not counts, so it checks the
+    # point estimate only: RERI = RR11 − RR10 − RR01 + 1 = (601.6 − 169.7) / 11.3.
+    # The person-time (1,000,000 per cell, in ten rows) is ours; a saturated
+    # Poisson rate model reproduces the cell rates whatever it is.
+    rates = {(0, 0): 11.3, (0, 1): 58.4, (1, 0): 122.6, (1, 1): 601.6}  # (smoking, asbestos)
+    rows = []
+    for (smoke, asbestos), rate in rates.items():
+        deaths = round(rate * 10)  # per 1,000,000 person-years
+        share = [deaths // 10 + (1 if k < deaths % 10 else 0) for k in range(10)]
+        rows += [
+            {"smoke": smoke, "asbestos": asbestos, "deaths": d, "log_py": math.log(1e5)}
+            for d in share
+        ]
+    design = make_design(
+        pd.DataFrame(rows),
+        exposure=TermSpec("smoke", "binary"),
+        covariates={"asbestos": TermSpec("asbestos", "binary")},
+        outcome="deaths",
+        family="risk_ratio",
+        offset="log_py",
+    )
+    mod = effect_modification(design, [], "asbestos")
+    expected_under_additivity = 11.3 + (58.4 - 11.3) + (122.6 - 11.3)
+    assert expected_under_additivity == pytest.approx(169.7)
+    assert mod.reri == pytest.approx((601.6 - expected_under_additivity) / 11.3, rel=1e-8)
+    # the stratum rate ratios of smoking: 122.6 / 11.3 without asbestos, 601.6 / 58.4 with it
+    assert [s.ratio for s in mod.strata] == pytest.approx([122.6 / 11.3, 601.6 / 58.4], rel=1e-8)

@@ -188,7 +188,7 @@ def test_duckdb_and_dask_give_the_in_memory_study(
 def demo_copy(tmp_path_factory: pytest.TempPathFactory) -> Path:
     """The demo study beside a Parquet copy of its data (the rows as the loader reads them)."""
     folder = tmp_path_factory.mktemp("demo")
-    for name in ("demo_project.json", "demo_cohort.csv"):
+    for name in ("demo_project.json", "demo_levels_project.json", "demo_cohort.csv"):
         shutil.copy(DEMO / name, folder / name)
     load_table(folder / "demo_cohort.csv").frame.to_parquet(folder / "demo_cohort.parquet")
     return folder
@@ -210,6 +210,19 @@ def test_the_demo_study_is_the_same_on_every_engine(
     on_dask = _study(project, DaskSource(demo_copy / "demo_cohort.parquet", client=cluster), family)
     assert_same_study(memory, in_duckdb, TOLERANCE[family])
     assert_same_study(memory, on_dask, TOLERANCE[family])
+
+
+def test_a_multilevel_exposure_is_the_same_in_duckdb(demo_copy: Path) -> None:
+    project = load_project(demo_copy / "demo_levels_project.json")
+    memory = _study(project, MemorySource(load_table(demo_copy / "demo_cohort.csv")), "logistic")
+    duck = DuckSource(demo_copy / "demo_cohort.parquet")
+    try:
+        in_duckdb = _study(project, duck, "logistic")
+    finally:
+        duck.close()
+    assert memory["exposure_levels"] == in_duckdb["exposure_levels"]
+    assert len(memory["estimates"]["crude"]["contrasts"]) == 2
+    assert_same_study(memory, in_duckdb, TOLERANCE["logistic"])
 
 
 def test_a_csv_file_is_read_where_it_lies(demo_copy: Path) -> None:

@@ -173,7 +173,7 @@ def design_claim_data(
     >>> sorted(data.types.items())
     [('c', 'continuous'), ('x', 'binary'), ('y', 'continuous')]
     """
-    columns: dict[str, tuple[int, ...]] = {design.exposure_node: (0,)}
+    columns: dict[str, tuple[int, ...]] = {design.exposure_node: design.exposure_index}
     for node, block in design.blocks.items():
         if node not in design.constant:
             columns[node] = block.index

@@ -115,10 +115,39 @@ class Design:
     #: 0 × q and ``y`` None) and their column statistics
     rows: RowReducer | None = None
     row_stats: ColumnStats | None = None
+    #: design columns of the exposure: 1, or one per non-reference level of a
+    #: multi-level categorical exposure (columns 0 … width − 1)
+    exposure_width: int = 1
+    #: a categorical exposure's levels as text, the reference first, then one
+    #: per exposure column; empty for a continuous or binary exposure
+    exposure_levels: tuple[str, ...] = ()
 
     @property
     def exposure(self) -> np.ndarray:
+        """The exposure's first design column (its only one unless it is multi-level)."""
         return self.values[:, 0]
+
+    @property
+    def exposure_index(self) -> tuple[int, ...]:
+        """Design-column positions of the exposure block."""
+        return tuple(range(self.exposure_width))
+
+    @property
+    def exposure_columns(self) -> tuple[str, ...]:
+        """Design-column names of the exposure block (one per contrast)."""
+        return tuple(self.column_names[: self.exposure_width])
+
+    @property
+    def multilevel(self) -> bool:
+        """True for a categorical exposure with more than one contrast."""
+        return self.exposure_width > 1
+
+    def contrast_level(self, column: str) -> str:
+        """The level an exposure column contrasts with the reference (``"current"``;
+        the column itself for a one-column exposure)."""
+        if not self.exposure_levels or column not in self.exposure_columns:
+            return column
+        return self.exposure_levels[self.exposure_columns.index(column) + 1]
 
     @property
     def rows_in_memory(self) -> bool:
@@ -128,7 +157,7 @@ class Design:
     @property
     def n_design_columns(self) -> int:
         """Exposure plus every covariate column (outcome excluded)."""
-        return 1 + sum(b.df for b in self.blocks.values())
+        return self.exposure_width + sum(b.df for b in self.blocks.values())
 
 
 def constant_message(node: str, column: str) -> str:
@@ -426,7 +455,8 @@ def make_design(
         The analytic sample: complete cases on every column named here.
     exposure : TermSpec
         Continuous, count or binary; a two-level categorical is the contrast
-        of its non-reference level.  A multi-level exposure is refused.
+        of its non-reference level; a categorical with more levels is a block
+        of contrasts, one per non-reference level (design columns 0 … k − 1).
     covariates : mapping of node id → TermSpec
         Every bound covariate, in the order the blocks are to appear.
     outcome : str or None
@@ -456,14 +486,13 @@ def make_design(
         raise DataError(f"Unknown model family {family!r}; use one of {', '.join(FAMILIES)}.")
     exposure_node = exposure_node or exposure.column
     n = len(frame)
-    names, vectors, _ = _coded(frame, exposure, "exposure")
-    if len(vectors) > 1:
+    names, vectors, x_levels = _coded(frame, exposure, "exposure")
+    if exposure.knots:
         raise DataError(
-            f"The exposure {exposure.column!r} has {len(vectors) + 1} levels; Covariscope compares "
-            "one contrast at a time. Recode it to two levels or a numeric dose."
+            f"The exposure {exposure.column!r} cannot enter as a spline; enter it linearly."
         )
     exposure_name = names[0]
-    all_names = [exposure_name]
+    all_names = list(names)
     all_vectors = list(vectors)
     spans: dict[str, tuple[list[str], tuple[int, ...]]] = {}
     texts: dict[str, tuple[str, ...]] = {}
@@ -477,7 +506,7 @@ def make_design(
         all_names += cnames
         all_vectors += cvecs
         spans[node] = (cnames, tuple(range(start, start + len(cvecs))))
-    if n > 0 and np.all(all_vectors[0] == all_vectors[0][0]):
+    if n > 0 and all(np.all(v == v[0]) for v in vectors):
         raise DataError(
             f"The exposure column {exposure_name!r} has the same value in every row of the "
             "analytic sample, so no effect of it can be estimated; bind another column."
@@ -566,10 +595,19 @@ def make_design(
         column_names=tuple(all_names),
         constant=constant,
         types={
-            exposure_node: "binary" if exposure.type == "categorical" else exposure.type,
+            exposure_node: _exposure_type(exposure.type, len(vectors)),
             **{node: spec.type for node, spec in covariates.items()},
         },
+        exposure_width=len(vectors),
+        exposure_levels=x_levels if len(vectors) > 1 else (),
     )
+
+
+def _exposure_type(kind: str, width: int) -> str:
+    """An exposure coded as one contrast is ``binary``; a multi-level one ``categorical``."""
+    if kind == "categorical":
+        return "categorical" if width > 1 else "binary"
+    return kind
 
 
 @dataclass(frozen=True, eq=False)
@@ -639,14 +677,8 @@ def _is_constant(values: np.ndarray) -> bool:
 
 
 def check_exposure(exposure: CodedTerm) -> None:
-    """Refuse a multi-level or constant exposure, naming the fix."""
-    if exposure.values.shape[1] > 1:
-        raise DataError(
-            f"The exposure {exposure.names[0].split('[')[0]!r} has {exposure.values.shape[1] + 1} "
-            "levels; Covariscope compares one contrast at a time. Recode it to two levels or a "
-            "numeric dose."
-        )
-    if _is_constant(exposure.values[:, 0]):
+    """Refuse a constant exposure, naming the fix (a multi-level one is a block of contrasts)."""
+    if all(_is_constant(exposure.values[:, j]) for j in range(exposure.values.shape[1])):
         raise DataError(
             f"The exposure column {exposure.names[0]!r} has the same value in every row of the "
             "analytic sample, so no effect of it can be estimated; bind another column."
@@ -678,12 +710,16 @@ class DesignBuilder:
         self._columns: dict[str, str] = {}
         self._levels: dict[str, tuple[str, ...]] = {}
         self._raws: dict[str, np.ndarray | None] = {}
+        self._exposure: CodedTerm | None = None
 
     def add_exposure(self, exposure: CodedTerm) -> None:
-        """Write the exposure (first, once); refuses a multi-level or constant one."""
+        """Write the exposure (first, once: one column, or one per contrast of a
+        multi-level exposure); refuses a constant one."""
         check_exposure(exposure)
-        self._values[:, 0] = exposure.values[:, 0]
-        self._names.append(exposure.names[0])
+        k = exposure.values.shape[1]
+        self._values[:, :k] = exposure.values
+        self._names += exposure.names
+        self._exposure = exposure
 
     def add(self, node: str, column: str, term: CodedTerm) -> None:
         """Write one covariate term after those already written."""
@@ -756,4 +792,9 @@ class DesignBuilder:
             ),
             column_names=tuple(self._names),
             constant=constant,
+            exposure_width=self._width(),
+            exposure_levels=self._exposure.levels if self._width() > 1 and self._exposure else (),
         )
+
+    def _width(self) -> int:
+        return 1 if self._exposure is None else int(self._exposure.values.shape[1])

@@ -1,7 +1,7 @@
 """The design of the comparison models when the rows stay with their source.
 
 :func:`make_row_design` checks what :func:`~covariscope.analysis.design.make_design`
-checks — a two-level exposure that varies, an outcome that suits the family,
+checks — an exposure that varies, an outcome that suits the family,
 constant covariates, enough rows — from one reduction over the rows (their
 means, co-moments and ranges), and returns a
 :class:`~covariscope.analysis.design.Design` whose ``values`` are empty and
@@ -32,12 +32,8 @@ __all__ = ["make_row_design"]
 def _spans(
     exposure: TermCoding, covariates: Mapping[str, TermCoding]
 ) -> tuple[list[str], dict[str, tuple[tuple[str, ...], tuple[int, ...]]]]:
-    if len(exposure.names) > 1:
-        raise DataError(
-            f"The exposure {exposure.column!r} has {len(exposure.names) + 1} levels; Covariscope "
-            "compares one contrast at a time. Recode it to two levels or a numeric dose."
-        )
-    names = [exposure.names[0]]
+    # A multi-level exposure is a block of contrasts, columns 0 … k − 1.
+    names = list(exposure.names)
     spans: dict[str, tuple[tuple[str, ...], tuple[int, ...]]] = {}
     for node, coding in covariates.items():
         start = len(names)
@@ -115,7 +111,7 @@ def make_row_design(
             "load the data again."
         )
     flat = stats.low == stats.high
-    if n > 0 and flat[0]:
+    if n > 0 and flat[: len(exposure.names)].all():
         raise DataError(
             f"The exposure column {names[0]!r} has the same value in every row of the "
             "analytic sample, so no effect of it can be estimated; bind another column."
@@ -158,6 +154,8 @@ def make_row_design(
         row_stats=stats,
         types={exposure_node: _coded_type(exposure)}
         | {node: _coded_type(c) for node, c in covariates.items()},
+        exposure_width=len(exposure.names),
+        exposure_levels=level_texts(exposure) if len(exposure.names) > 1 else (),
     )
 
 

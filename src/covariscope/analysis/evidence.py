@@ -35,6 +35,7 @@ from covariscope.analysis.collinearity import (
     gvif,
     vif,
 )
+from covariscope.analysis.contrasts import ExposureJoint, joint_summary
 from covariscope.analysis.design import Design, constant_message
 from covariscope.analysis.distributions import t_ppf
 from covariscope.analysis.fits import Fit
@@ -167,7 +168,7 @@ class EvidenceEngine:
 
     def columns(self, terms: Sequence[str]) -> list[int]:
         """Design-column positions of the exposure and ``terms`` (design order)."""
-        cols = [0]
+        cols = list(self.design.exposure_index)
         for node in self.ordered(terms):
             cols.extend(self.design.blocks[node].index)
         return cols
@@ -177,7 +178,7 @@ class EvidenceEngine:
         return tuple(sorted(set(terms), key=self._order.__getitem__))
 
     def groups(self, terms: Sequence[str]) -> dict[str, list[int]]:
-        groups = {self.design.exposure_node: [0]}
+        groups = {self.design.exposure_node: list(self.design.exposure_index)}
         for node in self.ordered(terms):
             groups[node] = list(self.design.blocks[node].index)
         return groups
@@ -226,9 +227,18 @@ class EvidenceEngine:
             if self._record is not None:
                 self._record("fit", hit is not None)
             if hit is None:
-                hit = self._fit_uncached(self.ordered(terms), on_pass)
+                made, params = self._fit_uncached(self.ordered(terms), on_pass)
+                hit = (self._named(made), params)
                 self._fits[key] = hit
             return hit[0]
+
+    def _named(self, fit: Fit) -> Fit:
+        """A multi-level exposure's fit with its contrasts named (see :meth:`Fit.with_contrasts`)."""
+        design = self.design
+        if not design.multilevel:
+            return fit
+        cols = design.exposure_columns
+        return fit.with_contrasts(cols, tuple(design.contrast_level(c) for c in cols))
 
     def ols(self, terms: Sequence[str]) -> OLSResult | None:
         """The least-squares solution behind a linear :meth:`fit` (None if rank deficient)."""
@@ -666,6 +676,10 @@ class CovariateEvidence:
     own_se: float | dict[str, float] | None
     own_ci: tuple[float, float] | dict[str, tuple[float, float]] | None
     se_ratio_parts: tuple[float, float, float] | None
+    #: a multi-level exposure: every contrast's comparisons and their joint
+    #: summary (``added``/``dropped`` then hold the contrast that moved most,
+    #: and ``vif_exposure_added`` the block's GVIF^(1/df)); None otherwise
+    joint: ExposureJoint | None = None
 
 
 @dataclass(frozen=True)
@@ -685,17 +699,22 @@ class EvidenceTable:
 
 
 def _se_parts(
-    engine: EvidenceEngine, with_terms: Sequence[str], without_terms: Sequence[str]
+    engine: EvidenceEngine,
+    with_terms: Sequence[str],
+    without_terms: Sequence[str],
+    contrast: int = 0,
 ) -> tuple[float, float, float] | None:
+    """The split of the SE ratio of the exposure's column ``contrast`` (linear models)."""
     if engine.family != "linear":
         return None
     w, wo = engine.ols(with_terms), engine.ols(without_terms)
     if w is None or wo is None:
         return None
-    if min(wo.rss, w.rss, wo.vif[0], w.vif[0], w.df_resid, wo.df_resid) <= 0:
+    j = contrast
+    if min(wo.rss, w.rss, wo.vif[j], w.vif[j], w.df_resid, wo.df_resid) <= 0:
         return None  # a perfect fit or no residual degrees of freedom: no split
     return (
-        math.sqrt(w.vif[0] / wo.vif[0]),
+        math.sqrt(w.vif[j] / wo.vif[j]),
         math.sqrt(w.rss / wo.rss),
         math.sqrt(wo.df_resid / w.df_resid),
     )
@@ -712,6 +731,35 @@ def _own(fit: Fit, columns: tuple[str, ...]) -> tuple[Any, Any, Any]:
         {c: fit.term_coefs[c][1] for c in columns},
         {c: (fit.term_coefs[c][2], fit.term_coefs[c][3]) for c in columns},
     )
+
+
+def _headline(
+    engine: EvidenceEngine,
+    joint: ExposureJoint,
+    node: str,
+    cands: tuple[str, ...],
+    near_zero: float,
+) -> tuple[Comparison, Comparison | None]:
+    """The comparisons of the contrast that moved most, with their SE split (linear)."""
+    shift = next(s for s in joint.contrasts if s.level == joint.moved_most)
+    j = [s.level for s in joint.contrasts].index(joint.moved_most)
+    constant = node in engine.design.constant
+    added = compare(
+        shift.added.with_fit,
+        shift.added.without_fit,
+        near_zero=near_zero,
+        se_ratio_parts=None if constant else _se_parts(engine, (node,), (), j),
+    )
+    if shift.dropped is None:
+        return added, None
+    rest = tuple(t for t in cands if t != node)
+    dropped = compare(
+        shift.dropped.with_fit,
+        shift.dropped.without_fit,
+        near_zero=near_zero,
+        se_ratio_parts=None if constant else _se_parts(engine, cands, rest, j),
+    )
+    return added, dropped
 
 
 def _pass_hook(
@@ -816,6 +864,12 @@ def compute_evidence(
     full_vif = None if few_rows else vif(summary, vif_cols)
     covariates: dict[str, CovariateEvidence] = {}
     dropped_fits: dict[str, Fit] = {}
+    x_cols = list(design.exposure_index)
+    gvif_full = (
+        gvif(summary, x_cols, [j for j in vif_cols if j not in x_cols])
+        if design.multilevel and not few_rows
+        else None
+    )
     for c in added_nodes:
         block = design.blocks[c]
         with_c = engine.fit((c,))
@@ -823,22 +877,16 @@ def compute_evidence(
             with_c, crude, near_zero=near_zero, se_ratio_parts=_se_parts(engine, (c,), ())
         )
         dropped_cmp = None
+        without: Fit | None = None
         v = tol = aux = g = g_root = None
-        if c in cands and c in constant:
+        if c in cands:
             rest = tuple(t for t in cands if t != c)
             without = engine.fit(rest)
             dropped_fits[c] = without
-            dropped_cmp = compare(full, without, near_zero=near_zero)
-        elif c in cands:
-            rest = tuple(t for t in cands if t != c)
-            without = engine.fit(rest)
-            dropped_fits[c] = without
-            dropped_cmp = compare(
-                full, without, near_zero=near_zero, se_ratio_parts=_se_parts(engine, cands, rest)
-            )
-            if full_vif is None:
-                pass
-            elif block.df == 1:
+            parts = None if c in constant else _se_parts(engine, cands, rest)
+            dropped_cmp = compare(full, without, near_zero=near_zero, se_ratio_parts=parts)
+        if c in cands and c not in constant and full_vif is not None:
+            if block.df == 1:
                 v = g = float(full_vif[vif_cols.index(block.index[0])])
             else:
                 others = [j for j in vif_cols if j not in block.index]
@@ -849,8 +897,25 @@ def compute_evidence(
                 g_root = g ** (1.0 / (2 * block.df))
                 tol = 1.0 / v
                 aux = 1.0 - tol
-        # On a constant, the exposure's auxiliary R² is 0 (the intercept absorbs it).
-        vif_x = 1.0 if c in constant else float(vif(summary, [0, *block.index])[0])
+        joint = None
+        if design.multilevel:
+            g_added = 1.0 if c in constant else gvif(summary, x_cols, list(block.index))
+            joint = joint_summary(
+                with_c,
+                crude,
+                full if without is not None else None,
+                without,
+                compare=functools.partial(compare, near_zero=near_zero),
+                exposure_columns=design.exposure_columns,
+                gvif_added=g_added,
+                gvif_full=gvif_full,
+            )
+            added_cmp, dropped_cmp = _headline(engine, joint, c, cands, near_zero)
+            # The block's GVIF^(1/df) is the value a VIF guide reads (DESIGN §2).
+            vif_x = g_added ** (1.0 / design.exposure_width)
+        else:
+            # On a constant, the exposure's auxiliary R² is 0 (the intercept absorbs it).
+            vif_x = 1.0 if c in constant else float(vif(summary, [0, *block.index])[0])
         own = _own(with_c, block.columns)
         covariates[c] = CovariateEvidence(
             node=c,
@@ -868,6 +933,7 @@ def compute_evidence(
             own_se=own[1],
             own_ci=own[2],
             se_ratio_parts=added_cmp.se_ratio_parts,
+            joint=joint,
         )
 
     report = collinearity_report(
@@ -876,7 +942,8 @@ def compute_evidence(
         [] if few_rows else [design.column_names[j] for j in vif_cols],
         []
         if few_rows
-        else [design.exposure_node] + [n for n in varying for _ in design.blocks[n].index],
+        else [design.exposure_node] * design.exposure_width
+        + [n for n in varying for _ in design.blocks[n].index],
         index_threshold=index_threshold,
         proportion_threshold=proportion_threshold,
     )

@@ -3,13 +3,13 @@
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 
 from covariscope.vocabulary import RATIO_FAMILIES, Family, family_term
 
-__all__ = ["FAMILIES", "Fit", "effect_measure"]
+__all__ = ["FAMILIES", "Contrast", "Fit", "effect_measure"]
 
 #: Model families, by the name used in project files and in ``check --json``.
 FAMILIES: tuple[str, ...] = tuple(Family)
@@ -23,6 +23,23 @@ def effect_measure(family: str, *, count_outcome: bool = False) -> str:
     """
     term = family_term(family)
     return term.count_measure if count_outcome else term.effect_measure
+
+
+@dataclass(frozen=True)
+class Contrast:
+    """One level of a multi-level exposure against its reference level, in one model.
+
+    ``level`` is the level compared with the reference (``"current"``; the
+    reference is the exposure's first level); ``column`` is its design column.
+    """
+
+    level: str
+    column: str
+    coef: float
+    se: float
+    ci: tuple[float, float]
+    ratio: float | None = None
+    ratio_ci: tuple[float, float] | None = None
 
 
 @dataclass(frozen=True)
@@ -53,6 +70,49 @@ class Fit:
     cov_columns: tuple[str, ...] = ()
     #: covariance matrix of the coefficients of :attr:`cov_columns` (robust for risk ratios)
     cov: np.ndarray | None = field(default=None, compare=False, repr=False)
+    #: a multi-level exposure's contrasts against its reference level, in design
+    #: order (empty for a binary or continuous exposure)
+    contrasts: tuple[Contrast, ...] = ()
+    #: which contrast :attr:`coef`, :attr:`se` and :attr:`ci` hold (multi-level
+    #: exposures only; the first contrast unless a headline was chosen)
+    contrast: str = ""
+
+    def with_contrasts(self, columns: tuple[str, ...], labels: tuple[str, ...]) -> Fit:
+        """This fit with its exposure block's contrasts (``columns`` in design
+        order, the first being the one :attr:`coef` holds) named by ``labels``.
+
+        >>> fit = Fit("linear", (), 1.0, 0.1, (0.8, 1.2), 50,
+        ...           term_coefs={"x[c]": (2.0, 0.2, 1.6, 2.4)})
+        >>> [c.coef for c in fit.with_contrasts(("x[b]", "x[c]"), ("b vs a", "c vs a")).contrasts]
+        [1.0, 2.0]
+        """
+        if not self.ok or len(columns) < 2:
+            return self
+        found = [(self.coef, self.se, *self.ci)] + [
+            self.term_coefs.get(c, (math.nan,) * 4) for c in columns[1:]
+        ]
+        ratio = self.family in RATIO_FAMILIES
+        contrasts = tuple(
+            Contrast(
+                label,
+                col,
+                b,
+                se,
+                (lo, hi),
+                _exp(b) if ratio else None,
+                (_exp(lo), _exp(hi)) if ratio else None,
+            )
+            for label, col, (b, se, lo, hi) in zip(labels, columns, found, strict=True)
+        )
+        return replace(self, contrasts=contrasts, contrast=labels[0])
+
+    def for_contrast(self, level: str) -> Fit:
+        """This fit seen from one contrast: :attr:`coef`, :attr:`se` and
+        :attr:`ci` are that contrast's (itself when it has no contrasts)."""
+        for c in self.contrasts:
+            if c.level == level:
+                return replace(self, coef=c.coef, se=c.se, ci=c.ci, contrast=c.level)
+        return self
 
     def covariance(self, columns: tuple[str, ...]) -> np.ndarray | None:
         """The covariance block of ``columns`` (design column names), or None
@@ -72,6 +132,9 @@ class Fit:
     def coefficient(self, column: str) -> float | None:
         """The coefficient of one design column (the exposure's when it is
         :attr:`cov_columns`'s first), or None when the fit does not hold it."""
+        for c in self.contrasts:
+            if c.column == column:
+                return c.coef
         if self.cov_columns and column == self.cov_columns[0]:
             return self.coef
         hit = self.term_coefs.get(column)

@@ -76,7 +76,7 @@ def residual_confounding(
     """
     nan = float("nan")
     others = [t for t in design.blocks if t in set(terms) and t != node]
-    cols = [0] + [j for t in others for j in design.blocks[t].index]
+    cols = [*design.exposure_index, *(j for t in others for j in design.blocks[t].index)]
     base = design.values[:, cols]
     names = [design.column_names[j] for j in cols]
     try:
@@ -92,12 +92,19 @@ def residual_confounding(
     if isinstance(linear, str) or isinstance(spline, str):
         why = linear if isinstance(linear, str) else spline
         return ResidualCheck(node, knots, nan, nan, nan, False, str(why))
-    b_lin, b_spl = float(linear.coef[0]), float(spline.coef[0])
-    if design.family in RATIO_FAMILIES:
-        change = 100.0 * math.expm1(b_spl - b_lin)
-    else:
-        change = 100.0 * (b_spl - b_lin) / abs(b_lin) if b_lin != 0 else math.inf
+    # A multi-level exposure: the contrast whose estimate moves most is reported.
+    pairs = [(float(linear.coef[j]), float(spline.coef[j])) for j in range(design.exposure_width)]
+    b_lin, b_spl, change = max(
+        ((a, b, _change(a, b, design.family)) for a, b in pairs), key=lambda t: abs(t[2])
+    )
     return ResidualCheck(node, knots, b_lin, b_spl, change, bool(abs(change) >= change_guide))
+
+
+def _change(b_lin: float, b_spl: float, family: str) -> float:
+    """Change from the linear to the spline form, on the scale the change guide reads."""
+    if family in RATIO_FAMILIES:
+        return 100.0 * math.expm1(b_spl - b_lin)
+    return 100.0 * (b_spl - b_lin) / abs(b_lin) if b_lin != 0 else math.inf
 
 
 def residual_table(

@@ -30,6 +30,7 @@ from covariscope.analysis.verdict_terms import (
 )
 from covariscope.analysis.verdict_wording import (
     COMPARISON_WORDS,
+    estimate_words,
     format_set,
     guide,
     largest_shift,
@@ -122,7 +123,7 @@ def _review(f: Facts, n: Numbers, t: Mapping[str, float], family: str) -> Verdic
     return _verdict(
         f,
         "review",
-        f"Review: the diagram calls it {role}, yet {COMPARISON_WORDS[name]} moves the estimate by "
+        f"Review: the diagram calls it {role}, yet {COMPARISON_WORDS[name]} moves {estimate_words(n)} by "
         f"{pct(value)}{scale_words(ratio)}, past the {guide(t, 'change_pct')} guide, so the diagram may "
         f"lack {lacks}.",
     )

@@ -90,6 +90,9 @@ class Numbers:
     vif: float | None = None
     aux_r2: float | None = None
     r2_exposure: float | None = None
+    #: a multi-level exposure: the contrast the shifts are of (the one that moved
+    #: most, as "current vs never"); empty for a single contrast
+    contrast: str = ""
 
 
 @dataclass(frozen=True)

@@ -14,6 +14,7 @@ from covariscope.analysis.verdict_terms import Facts, Numbers
 
 __all__ = [
     "COMPARISON_WORDS",
+    "estimate_words",
     "format_set",
     "guide",
     "labelled",
@@ -95,12 +96,20 @@ def scale_words(ratio_family: bool) -> str:
     return " on the ratio scale" if ratio_family else ""
 
 
+def estimate_words(n: Numbers) -> str:
+    """ "the estimate", or for a multi-level exposure "the estimate of current vs
+    never (the contrast that moved most)"."""
+    if not n.contrast:
+        return "the estimate"
+    return f"the estimate of {n.contrast} (the contrast that moved most)"
+
+
 def shift_clause(n: Numbers, ratio: bool) -> str:
     """ "adding it moves the estimate by +12.0% and its SE by +3.0%"."""
     if n.added is None:
         return "no comparison could be made"
     return (
-        f"adding it to the crude model moves the estimate by {pct(n.added.change_read(ratio))}"
+        f"adding it to the crude model moves {estimate_words(n)} by {pct(n.added.change_read(ratio))}"
         f"{scale_words(ratio)} and its standard error by {pct(n.added.se_inflation_pct)}"
     )
 

@@ -8,9 +8,11 @@ import shutil
 from importlib import resources
 from pathlib import Path
 
-__all__ = ["DEMO_DATA", "DEMO_PROJECT", "demo_folder", "write_demo"]
+__all__ = ["DEMO_DATA", "DEMO_LEVELS_PROJECT", "DEMO_PROJECT", "demo_folder", "write_demo"]
 
 DEMO_PROJECT = "demo_project.json"
+#: the same study with the exposure in thirds: a multi-level exposure
+DEMO_LEVELS_PROJECT = "demo_levels_project.json"
 DEMO_DATA = "demo_cohort.csv"
 
 
@@ -31,7 +33,7 @@ def write_demo(folder: Path) -> Path:
     folder.mkdir(parents=True, exist_ok=True)
     package = resources.files("covariscope") / "demo"
     target = folder / DEMO_PROJECT
-    for name in (DEMO_DATA, DEMO_PROJECT):
+    for name in (DEMO_DATA, DEMO_PROJECT, DEMO_LEVELS_PROJECT):
         destination = folder / name
         if destination.exists():
             continue

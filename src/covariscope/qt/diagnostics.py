@@ -21,12 +21,14 @@ from PySide6.QtWidgets import (
     QDialog,
     QDialogButtonBox,
     QFormLayout,
+    QFrame,
     QGroupBox,
     QHBoxLayout,
     QHeaderView,
     QLabel,
     QPlainTextEdit,
     QPushButton,
+    QScrollArea,
     QSizePolicy,
     QSplitter,
     QTableWidget,
@@ -94,7 +96,43 @@ def _analysed_rows(sample: Any, frame: Any, s: NodeDiagnostics) -> Any:
     return sample.rows_of(frame)
 
 
-def _fill(table: QTableWidget, rows: list[tuple[str, ...]], fit: bool = True) -> None:
+#: A multi-level exposure's contrasts in the estimates plot: marker and colour (never colour alone)
+_CONTRAST_STYLES = (("s", "#0072B2"), ("o", "#D55E00"), ("^", "#009E73"), ("D", "#CC79A7"))
+
+
+def _forest(ax: Any, points: list[tuple[tuple[str, float, float, float], str]]) -> None:
+    """Estimates with their CIs, one line per model; a multi-level exposure's
+    contrasts share a model's line, offset, each with its own marker and a legend."""
+    models = list(dict.fromkeys(p[0] for p, _ in points))
+    contrasts = list(dict.fromkeys(c for _, c in points))
+    ys = {m: len(models) - 1 - i for i, m in enumerate(models)}
+    step = 0.6 / max(len(contrasts), 1)
+    for k, contrast in enumerate(contrasts):
+        mine = [p for p, c in points if c == contrast]
+        offset = (k - (len(contrasts) - 1) / 2) * step if len(contrasts) > 1 else 0.0
+        est = np.array([p[1] for p in mine])
+        lo = np.array([p[2] for p in mine])
+        hi = np.array([p[3] for p in mine])
+        marker, colour = _CONTRAST_STYLES[k % len(_CONTRAST_STYLES)]
+        ax.errorbar(
+            est,
+            [ys[p[0]] + offset for p in mine],
+            xerr=[est - lo, hi - est],
+            fmt=marker,
+            color=colour,
+            capsize=3,
+            label=contrast or None,
+        )
+    ax.set_yticks(list(ys.values()), list(ys))
+    if len(contrasts) > 1:
+        ax.legend(fontsize=7, loc="best")
+
+
+def _fill(
+    table: QTableWidget, rows: list[tuple[str, ...]], fit: bool = True, most: int = 0
+) -> None:
+    """Fill a table; ``fit`` sizes it to its rows (at most ``most`` of them when given:
+    the rest scroll)."""
     with filling(table):
         table.setRowCount(len(rows))
         for r, row in enumerate(rows):
@@ -108,9 +146,8 @@ def _fill(table: QTableWidget, rows: list[tuple[str, ...]], fit: bool = True) ->
     table.resizeRowsToContents()
     if not fit:
         return
-    height = (
-        table.horizontalHeader().height() + sum(table.rowHeight(i) for i in range(len(rows))) + 6
-    )
+    shown = min(len(rows), most) if most else len(rows)
+    height = table.horizontalHeader().height() + sum(table.rowHeight(i) for i in range(shown)) + 6
     table.setFixedHeight(max(height, 40))
 
 
@@ -250,7 +287,8 @@ class CovariateDialog(NodeDialog):
         self.checks.setTextFormat(Qt.TextFormat.RichText)
         self.models = _table(_MODEL_HEADERS)
         self.models.setHorizontalScrollBarPolicy(Qt.ScrollBarPolicy.ScrollBarAlwaysOff)
-        self.models.setVerticalScrollBarPolicy(Qt.ScrollBarPolicy.ScrollBarAlwaysOff)
+        # a multi-level exposure has a row per model and contrast: those past five scroll
+        self.models.setVerticalScrollBarPolicy(Qt.ScrollBarPolicy.ScrollBarAsNeeded)
         self.models.horizontalHeader().setSectionResizeMode(0, QHeaderView.ResizeMode.Stretch)
         self.models.horizontalHeader().setStretchLastSection(False)
         for column, tip in _MODEL_TIPS.items():
@@ -312,7 +350,10 @@ class CovariateDialog(NodeDialog):
         # the numbers need the room of five columns; the checklist wraps
         top.addLayout(left, 2)
         top.addWidget(numbers, 3)
-        layout = QVBoxLayout(self)
+        # Everything but the buttons scrolls: on a screen shorter than the dialog
+        # (1366 × 768) the user scrolls instead of losing the bottom of it.
+        body = QWidget()
+        layout = QVBoxLayout(body)
         head = QHBoxLayout()
         head.addWidget(self.heading, 1)
         head.addWidget(self.form_box)
@@ -323,7 +364,27 @@ class CovariateDialog(NodeDialog):
         layout.addWidget(plots, 2)
         layout.addWidget(self._note_box())
         layout.addWidget(self.caution)
-        layout.addWidget(self.buttons)
+        scroll = QScrollArea()
+        scroll.setWidgetResizable(True)
+        scroll.setFrameShape(QFrame.Shape.NoFrame)
+        scroll.setHorizontalScrollBarPolicy(Qt.ScrollBarPolicy.ScrollBarAlwaysOff)
+        scroll.setWidget(body)
+        outer = QVBoxLayout(self)
+        outer.setContentsMargins(0, 0, 0, 8)
+        outer.addWidget(scroll, 1)
+        buttons = QHBoxLayout()
+        buttons.setContentsMargins(9, 0, 9, 0)
+        buttons.addWidget(self.buttons)
+        outer.addLayout(buttons)
+        self._fit_screen()
+
+    def _fit_screen(self) -> None:
+        """The dialog's size, within the screen it opens on (its body scrolls)."""
+        screen = self.screen()
+        if screen is None:
+            return
+        room = screen.availableGeometry()
+        self.resize(min(1000, room.width() - 40), min(820, room.height() - 60))
 
     def refresh(self, project: Any, result: Any, profiles: Any, frame: Any) -> None:
         s = node_diagnostics(project, result, self.node_id, profiles)
@@ -339,7 +400,9 @@ class CovariateDialog(NodeDialog):
             + "</ul>"
         )
         _fill(
-            self.models, [(m.model, m.estimate, m.ci, m.change, m.se_inflation) for m in s.models]
+            self.models,
+            [(m.model, m.estimate, m.ci, m.change, m.se_inflation) for m in s.models],
+            most=5,
         )
         _fill(self.figures, list(s.figures), fit=False)
         measure = f"Estimates: {s.effect_measure}" if s.effect_measure else ""
@@ -459,12 +522,7 @@ class CovariateDialog(NodeDialog):
             )
             ax.set_axis_off()
         else:
-            ys = np.arange(len(points))[::-1]
-            est = np.array([p[1] for p in points])
-            lo = np.array([p[2] for p in points])
-            hi = np.array([p[3] for p in points])
-            ax.errorbar(est, ys, xerr=[est - lo, hi - est], fmt="s", color="#0072B2", capsize=4)
-            ax.set_yticks(ys, [p[0] for p in points])
+            _forest(ax, [(m.point, m.contrast) for m in s.models if m.point is not None])
             ax.axvline(1.0 if ratio_family(family) else 0.0, color="#5A5A5A", lw=0.8, ls="--")
             if ratio_family(family):
                 ax.set_xscale("log")

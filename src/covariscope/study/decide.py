@@ -16,8 +16,9 @@ from dataclasses import dataclass
 
 import networkx as nx
 
+from covariscope.analysis.contrasts import headline_estimates
 from covariscope.analysis.evalue import EValue, evalue_for_fit
-from covariscope.analysis.evidence import Comparison, EvidenceEngine, EvidenceTable
+from covariscope.analysis.evidence import Comparison, EvidenceEngine, EvidenceTable, compare
 from covariscope.analysis.fits import Fit
 from covariscope.analysis.graph import DiagramAnalysis, is_sufficient
 from covariscope.analysis.recommend import Recommendation, pair_r2, recommend_set
@@ -96,7 +97,15 @@ def _shift(c: Comparison | None) -> Shift | None:
     return Shift(change, _finite(c.se_inflation_pct), _finite(c.change_pct_ratio))
 
 
-def _numbers(ev: EvidenceTable | None, node: str) -> Numbers | None:
+def _reference(ctx: _Context) -> str:
+    """A multi-level exposure's reference level ("" otherwise)."""
+    levels = ctx.engine.design.exposure_levels if ctx.engine is not None else ()
+    return levels[0] if levels else ""
+
+
+def _numbers(ev: EvidenceTable | None, node: str, reference: str = "") -> Numbers | None:
+    """What the data say about one covariate (``reference``: a multi-level
+    exposure's reference level, which names the contrast that moved most)."""
     if ev is None or node not in ev.covariates:
         return None
     c = ev.covariates[node]
@@ -107,6 +116,7 @@ def _numbers(ev: EvidenceTable | None, node: str) -> Numbers | None:
         vif=_finite(c.vif),
         aux_r2=_finite(c.aux_r2),
         r2_exposure=_finite(c.r2_exposure),
+        contrast=f"{c.joint.moved_most} vs {reference}" if c.joint is not None else "",
     )
 
 
@@ -291,8 +301,18 @@ def _group_facts(
         estimate_of=estimate_of,
         se_of=se_of,
         names=label,
+        contrast=_first_contrast(ctx),
     )
     return group, alone, False, why, suggested, suggested_why
+
+
+def _first_contrast(ctx: _Context) -> str:
+    """The contrast a fit's own estimate holds for a multi-level exposure (its first),
+    as "high vs low"; empty otherwise."""
+    design = ctx.engine.design if ctx.engine is not None else None
+    if design is None or not design.multilevel:
+        return ""
+    return f"{design.exposure_levels[1]} vs {design.exposure_levels[0]}"
 
 
 def _verdict(ctx: _Context, graph: nx.DiGraph, c: str) -> Verdict:
@@ -330,7 +350,11 @@ def _verdict(ctx: _Context, graph: nx.DiGraph, c: str) -> Verdict:
         aliased_with=ctx.aliases.get(c, ()),
     )
     verdict = decide_verdict(
-        f, _numbers(evidence, c), family=q.family, thresholds=q.threshold, names=dict(q.names)
+        f,
+        _numbers(evidence, c, _reference(ctx)),
+        family=q.family,
+        thresholds=q.threshold,
+        names=dict(q.names),
     )
     if (
         evidence is None
@@ -393,6 +417,8 @@ def decide(
             estimates["recommended"] = evidence.sets.get(
                 set_names(da).get(tuple(sorted(rec.members)), "")
             )
+        if engine.design.multilevel:
+            estimates = headline_estimates(estimates, compare)
         ev_value, problem = evalue_for_fit(
             estimates["recommended"], engine.design, q.effect_measure
         )

@@ -142,8 +142,12 @@ def suggest_member(
     estimate_of: Callable[[tuple[str, ...]], float | None],
     se_of: Callable[[tuple[str, ...]], float | None],
     names: Mapping[str, str],
+    contrast: str = "",
 ) -> tuple[str | None, str]:
     """The member of a collinear group to keep, and why (a clause).
+
+    ``contrast`` names the contrast ``estimate_of`` reads for a multi-level
+    exposure ("high vs low"; empty otherwise).
 
     The saved choice wins; then the member the proposed set holds alone;
     then the member that carries the most of the confounding
@@ -166,10 +170,12 @@ def suggest_member(
         if pick in in_rec:
             return pick, "it is the member in the recommended set"
         return pick, "it alone gives a sufficient set"
-    return pick, _carries_most(ranking, pick, names)
+    return pick, _carries_most(ranking, pick, names, contrast)
 
 
-def _carries_most(ranking: MemberRanking, pick: str, names: Mapping[str, str]) -> str:
+def _carries_most(
+    ranking: MemberRanking, pick: str, names: Mapping[str, str], contrast: str = ""
+) -> str:
     """Why ``pick`` is kept, naming the estimates (and the SEs when they decided)."""
     others = ", ".join(
         f"{b:.4g} with {names.get(m, m)}" for m, b in sorted(ranking.alone.items()) if m != pick
@@ -181,7 +187,7 @@ def _carries_most(ranking: MemberRanking, pick: str, names: Mapping[str, str]) -
         )
     return (
         "it carries the most of the confounding: adjusting for it alone gives an exposure "
-        f"estimate of {ranking.alone[pick]:.4g}, the closest to {ranking.whole:.4g} with the "
+        f"estimate{f' ({contrast})' if contrast else ''} of {ranking.alone[pick]:.4g}, the closest to {ranking.whole:.4g} with the "
         f"whole group (against {others}); a noisier measure leaves residual confounding even "
         "when its standard error looks smaller"
     )

@@ -591,4 +591,9 @@ def _result(
         pictures=read.pictures,
         modification=read.modification,
         residual_confounding=read.residual,
+        exposure_levels=(
+            data.engine.design.exposure_levels
+            if data.engine is not None and data.evidence is not None
+            else ()
+        ),
     )

@@ -457,9 +457,8 @@ def _identity(
     knots: Mapping[str, int],
 ) -> tuple[Any, ...]:
     x_col = bindings.exposure_column
-    ids: list[Any] = [
-        (("exposure", x_col, *_spec_of(x_col, profiles[x_col])), design.exposure_name)
-    ]
+    x_spec = ("exposure", x_col, *_spec_of(x_col, profiles[x_col]))
+    ids: list[Any] = [(x_spec, name) for name in design.exposure_columns]
     for node, col in usable:
         spec = (col, *_spec_of(col, profiles[col], knots.get(col, 0)))
         ids += [(spec, name) for name in design.blocks[node].columns]
@@ -499,7 +498,9 @@ def _design(
         )
         x_col, x_kind, x_ref = x_spec
         x_term = term(x_col, x_kind, x_ref, "exposure")
-        width = 1 + sum(_width(profiles[col], knots.get(col, 0)) for _, col in usable)
+        width = _width(profiles[x_col]) + sum(
+            _width(profiles[col], knots.get(col, 0)) for _, col in usable
+        )
         builder = DesignBuilder(sample.used, width=width, outcome=outcomes.y is not None)
         builder.add_exposure(x_term)
         # Each cached term becomes a view of the design as soon as it is written:

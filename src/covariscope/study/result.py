@@ -57,6 +57,9 @@ class StudyResult:
     modification: dict[str, Modification] = field(default_factory=dict)
     #: continuous confounders of the recommended model, linear against a spline
     residual_confounding: dict[str, ResidualCheck] = field(default_factory=dict)
+    #: a multi-level categorical exposure's levels as text, the reference first
+    #: (empty for a binary or continuous exposure)
+    exposure_levels: tuple[str, ...] = ()
     #: The stages this run computed (the rest came from the cache), in order.
     recomputed: tuple[str, ...] = ()
     #: Models this run fitted (the rest came from the cache).

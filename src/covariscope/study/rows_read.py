@@ -37,6 +37,11 @@ _NOT_IN_MEMORY = (
     "and the collinearity picture read the rows themselves, so they are shown only "
     "when the data are analysed in memory."
 )
+_MULTILEVEL = (
+    "The exposure has several levels: effect modification is not examined "
+    "(each contrast would need its own interaction), and the collinearity "
+    "picture is drawn for groups of covariates only."
+)
 _SPLINES_NOT_IN_MEMORY = (
     "Splines are built from the rows in memory: with the data read where they "
     "lie, every continuous covariate enters linearly."
@@ -90,12 +95,13 @@ def _pictures(
     vif_guide: float,
 ) -> tuple[CollinearityPicture, ...]:
     """One picture per collinear group and per near-alias of the exposure, each
-    its own entry: it reads the full model (the candidates' specs) and its members."""
+    its own entry: it reads the full model (the candidates' specs) and its members.
+    (A multi-level exposure has no one coefficient to pair with a near-alias.)"""
     design = engine.design
     high_vif = [
         c
         for c, e in evidence.covariates.items()
-        if c in evidence.candidates and e.vif_exposure_added >= vif_guide
+        if c in evidence.candidates and e.vif_exposure_added >= vif_guide and not design.multilevel
     ]
     full = reads_key(spec, design, sorted(evidence.candidates))
     out: list[CollinearityPicture] = []
@@ -204,9 +210,14 @@ def rows_read(
         return RowsRead(pictures)
     terms = recommended.terms
     guides = (thresholds["modification_p"], thresholds["modification_ratio"])
-    modification = _modification(run, spec, design, terms, evidence.candidates, guides)
+    modification = (
+        {}
+        if design.multilevel
+        else _modification(run, spec, design, terms, evidence.candidates, guides)
+    )
     confounders = [c for c in terms if c in da.roles and da.roles[c].role == "confounder"]
     residual = _residual(
         run, spec, design, terms, confounders, dict(q.spline_knots), thresholds["change_pct"]
     )
-    return RowsRead(pictures, modification, residual)
+    said = (_MULTILEVEL,) if design.multilevel else ()
+    return RowsRead(pictures, modification, residual, said)

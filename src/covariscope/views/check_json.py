@@ -12,8 +12,9 @@ import numpy as np
 
 from covariscope.analysis.claim_wording import untestable_words
 from covariscope.analysis.collinearity import CollinearityReport
+from covariscope.analysis.contrasts import ExposureJoint
 from covariscope.analysis.evidence import Comparison
-from covariscope.analysis.fits import Fit
+from covariscope.analysis.fits import Contrast, Fit
 from covariscope.analysis.modification import Modification
 from covariscope.study.result import ESTIMATE_KEYS, StudyResult
 
@@ -34,6 +35,17 @@ def _clean(value: Any) -> Any:
     return value
 
 
+def _contrast_json(c: Contrast) -> dict[str, Any]:
+    return {
+        "level": c.level,
+        "coef": c.coef,
+        "se": c.se,
+        "ci": list(c.ci),
+        "ratio": c.ratio,
+        "ratio_ci": list(c.ratio_ci) if c.ratio_ci is not None else None,
+    }
+
+
 def _fit_json(fit: Fit | None) -> dict[str, Any] | None:
     if fit is None:
         return None
@@ -46,6 +58,33 @@ def _fit_json(fit: Fit | None) -> dict[str, Any] | None:
         "n": fit.n,
         "ok": fit.ok,
         "message": fit.message or None,
+        "contrast": fit.contrast or None,
+        "contrasts": [_contrast_json(c) for c in fit.contrasts] if fit.contrasts else None,
+    }
+
+
+def _joint_json(j: ExposureJoint | None) -> dict[str, Any] | None:
+    """A multi-level exposure's per-contrast comparisons and joint summary for one covariate."""
+    if j is None:
+        return None
+    return {
+        "moved_most": j.moved_most,
+        "largest_change_pct": j.largest_change_pct,
+        "gvif_root_added": j.gvif_root_added,
+        "gvif_root_full": j.gvif_root_full,
+        "wald": (
+            {"stat": j.wald.stat, "df": j.wald.df, "p": j.wald.p, "kind": j.wald.kind}
+            if j.wald is not None
+            else None
+        ),
+        "contrasts": [
+            {
+                "level": s.level,
+                "added": _cmp_json(s.added, with_vif=None, added=True),
+                "dropped": _cmp_json(s.dropped, added=False),
+            }
+            for s in j.contrasts
+        ],
     }
 
 
@@ -180,6 +219,11 @@ def study_to_json(result: StudyResult) -> dict[str, Any]:
         if sample is not None and ev is not None
         else None
     )
+    out["exposure_levels"] = (
+        {"reference": result.exposure_levels[0], "levels": list(result.exposure_levels)}
+        if result.exposure_levels
+        else None
+    )
     out["estimates"] = {k: _fit_json(result.estimates.get(k)) for k in ESTIMATE_KEYS}
     out["recommended"] = list(result.recommended)
     covariates: dict[str, Any] = {}
@@ -198,6 +242,7 @@ def study_to_json(result: StudyResult) -> dict[str, Any]:
             "tolerance": e.tolerance if e else None,
             "aux_r2": e.aux_r2 if e else None,
             "r2_exposure": e.r2_exposure if e else None,
+            "joint": _joint_json(e.joint) if e else None,
         }
     out["covariates"] = covariates
     # Data-level groups (members may all be ``adjust``); keep_one_groups are the

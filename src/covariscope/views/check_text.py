@@ -125,6 +125,11 @@ def format_study_text(result: StudyResult) -> str:
         "change % and SE infl %: the covariate added alone to the crude model; "
         "VIF: the covariate in the full model (– when it is not a candidate)."
     )
+    if result.exposure_levels:
+        lines.append(
+            "The exposure has several levels: change % and SE infl % are those of the contrast "
+            "that moved most, named in each reason; the JSON output lists every contrast."
+        )
     lines.append("")
     lines.append("Reasons:")
     for c, v in result.verdicts.items():
@@ -175,7 +180,16 @@ def format_study_text(result: StudyResult) -> str:
     if ev is not None:
         lines.append("Estimates:")
         for key in ESTIMATE_KEYS:
-            lines.append(_estimate_line(key, result.estimates.get(key), result.effect_measure))
+            fit = result.estimates.get(key)
+            if fit is not None and fit.ok and fit.contrasts:
+                ref = result.exposure_levels[0] if result.exposure_levels else ""
+                lines.append(f"  {key:<12} each level against {ref}:")
+                lines += [
+                    _estimate_line(f"  {c.level}", fit.for_contrast(c.level), result.effect_measure)
+                    for c in fit.contrasts
+                ]
+            else:
+                lines.append(_estimate_line(key, fit, result.effect_measure))
         if result.evalue is not None:
             lines.append(
                 f"E-value (recommended): {result.evalue.estimate:.2f} for the estimate, "

@@ -10,11 +10,12 @@ from __future__ import annotations
 
 import math
 from collections.abc import Mapping
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from typing import Any
 
 from covariscope.analysis.collinearity import CollinearityReport
-from covariscope.analysis.evidence import CovariateEvidence, EvidenceTable
+from covariscope.analysis.contrasts import ExposureJoint
+from covariscope.analysis.evidence import Comparison, CovariateEvidence, EvidenceTable
 from covariscope.analysis.fits import Fit
 from covariscope.data.profile import ColumnProfile
 from covariscope.model.project import Project
@@ -55,6 +56,8 @@ class ModelRow:
     se_inflation: str
     #: (label, estimate, low, high) on the display scale, for the plot
     point: tuple[str, float, float, float] | None = None
+    #: a multi-level exposure's contrast this row is of ("high vs low"); else empty
+    contrast: str = ""
 
 
 @dataclass(frozen=True)
@@ -185,6 +188,80 @@ def _row(
     )
 
 
+def _model_rows(
+    evidence: EvidenceTable | None,
+    added: Comparison,
+    dropped: Comparison | None,
+    name: str,
+    family: str,
+) -> list[ModelRow]:
+    """The four comparison models of one covariate, seen from the exposure's estimate."""
+    crude = evidence.crude if evidence is not None else None
+    full = evidence.full if evidence is not None else None
+    return [
+        _row("Crude", added.without_fit or crude, family),
+        _row(
+            f"Crude + {name}",
+            added.with_fit,
+            family,
+            change_value(added, family),
+            added.se_inflation_pct,
+        ),
+        _row(
+            "Full",
+            dropped.with_fit if dropped is not None else full,
+            family,
+            change_value(dropped, family),
+            dropped.se_inflation_pct if dropped is not None else None,
+        ),
+        _row(f"Full − {name}", dropped.without_fit if dropped is not None else None, family),
+    ]
+
+
+def _reference(result: StudyResult | None) -> str:
+    levels = result.exposure_levels if result is not None else ()
+    return levels[0] if levels else ""
+
+
+def _contrast_rows(joint: ExposureJoint, name: str, family: str, reference: str) -> list[ModelRow]:
+    """A multi-level exposure: the comparison models, one row per contrast each."""
+    rows: list[ModelRow] = []
+    for shift in joint.contrasts:
+        for row in _model_rows(None, shift.added, shift.dropped, name, family):
+            if row.estimate == DASH and row.model not in ("Crude", f"Crude + {name}"):
+                continue  # not a candidate: no full model to show
+            contrast = f"{shift.level} vs {reference}"
+            rows.append(replace(row, model=f"{row.model}: {contrast}", contrast=contrast))
+    return rows
+
+
+def joint_figures(joint: ExposureJoint | None, name: str, reference: str) -> list[tuple[str, str]]:
+    """A multi-level exposure's joint summary for one covariate, as dialog figures."""
+    if joint is None:
+        return []
+    out = [
+        (
+            "Contrast that moved most",
+            f"{joint.moved_most} vs {reference} ({percent(joint.largest_change_pct)})",
+        ),
+        (
+            f"Exposure block GVIF^(1/(2·df)) in crude + {name}",
+            number(joint.gvif_root_added, 3),
+        ),
+        ("Exposure block GVIF^(1/(2·df)) in the full model", number(joint.gvif_root_full, 3)),
+    ]
+    wald = joint.wald
+    if wald is not None:
+        p = "p < 0.001" if is_number(wald.p) and wald.p < 0.001 else f"p = {number(wald.p, 3)}"
+        out.append(
+            (
+                f"Joint Wald test of the exposure in crude + {name}",
+                f"{wald.kind} = {number(wald.stat)} ({wald.df} df), {p}",
+            )
+        )
+    return out
+
+
 def node_diagnostics(
     project: Project,
     result: StudyResult | None,
@@ -204,8 +281,20 @@ def node_diagnostics(
     figures: list[tuple[str, str]] = []
     numbers: dict[str, Any] = {}
     if evidence is not None and ev is not None:
-        models = _models(evidence, ev, name, family)
+        joint = ev.joint
+        if joint is not None:
+            models = _contrast_rows(joint, name, family, _reference(result))
+        else:
+            models = _model_rows(evidence, ev.added, ev.dropped, name, family)
         numbers, figures = _collinearity(evidence, ev, name, node_id)
+        if joint is not None:
+            vif_x = number(ev.vif_exposure_added)
+            figures.append((f"GVIF^(1/df) of the exposure block in crude + {name}", vif_x))
+            figures += joint_figures(joint, name, _reference(result))
+        else:
+            figures.append(
+                (f"VIF of the exposure in crude + {name}", number(ev.vif_exposure_added))
+            )
         figures += _own(name, ev.own_coef, ev.own_ci)
         figures += residual_figures(
             result.residual_confounding.get(node_id) if result is not None else None,
@@ -252,31 +341,6 @@ def node_diagnostics(
     )
 
 
-def _models(
-    evidence: EvidenceTable, ev: CovariateEvidence, name: str, family: str
-) -> list[ModelRow]:
-    """The four comparison models: crude, crude + C, full, full − C."""
-    added, dropped = ev.added, ev.dropped
-    return [
-        _row("Crude", added.without_fit or evidence.crude, family),
-        _row(
-            f"Crude + {name}",
-            added.with_fit,
-            family,
-            change_value(added, family),
-            added.se_inflation_pct,
-        ),
-        _row(
-            "Full",
-            dropped.with_fit if dropped is not None else evidence.full,
-            family,
-            change_value(dropped, family),
-            dropped.se_inflation_pct if dropped is not None else None,
-        ),
-        _row(f"Full − {name}", dropped.without_fit if dropped is not None else None, family),
-    ]
-
-
 def _collinearity(
     evidence: EvidenceTable, ev: CovariateEvidence, name: str, node_id: str
 ) -> tuple[dict[str, Any], list[tuple[str, str]]]:
@@ -302,7 +366,6 @@ def _collinearity(
             ("GVIF^(1/(2·df))", number(ev.gvif_root, 3)),
         ]
     figures += condition_rows(evidence.collinearity, node_id, name)
-    figures.append((f"VIF of the exposure in crude + {name}", number(ev.vif_exposure_added)))
     return numbers, figures
 
 

@@ -6,11 +6,18 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 
-from covariscope.analysis.fits import Fit
+from covariscope.analysis.fits import Contrast, Fit
 from covariscope.study.result import StudyResult
 from covariscope.views.format import DASH, fit_ok, is_number, number, ratio_family
 
-__all__ = ["ESTIMATE_KEYS", "EstimateCell", "display_scale", "estimate_cells", "evalue_text"]
+__all__ = [
+    "ESTIMATE_KEYS",
+    "EstimateCell",
+    "contrast_lines",
+    "display_scale",
+    "estimate_cells",
+    "evalue_text",
+]
 
 #: The strip's estimates, in order, with their titles.
 ESTIMATE_KEYS: tuple[tuple[str, str], ...] = (
@@ -71,8 +78,31 @@ def estimate_cells(result: StudyResult | None) -> list[EstimateCell]:
         terms = _terms_text(fit, sets.get(key, ()))
         ci = f"95% CI {number(lo)} to {number(hi)}"
         tip = f"{title}: {number(est)} ({ci}), {terms}" + (f", n = {fit.n}" if fit.n else "")
+        if fit.contrasts and result is not None:
+            ref, level = _reference(result), fit.contrast
+            ci = f"{level} vs {ref}; CI {number(lo)} to {number(hi)}"
+            tip += contrast_lines(fit.contrasts, family, ref, level)
         cells.append(EstimateCell(key, title, number(est), ci, terms, tip))
     return cells
+
+
+def _reference(result: StudyResult) -> str:
+    levels = result.exposure_levels
+    return levels[0] if levels else ""
+
+
+def contrast_lines(contrasts: tuple[Contrast, ...], family: str, reference: str, shown: str) -> str:
+    """Every contrast of a multi-level exposure, one line each (for tooltips)."""
+    lines = []
+    for c in contrasts:
+        est, (lo, hi) = c.coef, c.ci
+        if ratio_family(family) and c.ratio is not None and c.ratio_ci is not None:
+            est, (lo, hi) = c.ratio, c.ratio_ci
+        mark = " (shown: it moved most from the crude estimate)" if c.level == shown else ""
+        lines.append(
+            f"\n{c.level} vs {reference}: {number(est)} (95% CI {number(lo)} to {number(hi)}){mark}"
+        )
+    return "".join(lines)
 
 
 def evalue_text(result: StudyResult | None) -> tuple[str, str]:

@@ -203,8 +203,44 @@ def _get(obj: Any, name: str, default: Any = None) -> Any:
     return getattr(obj, name, default)
 
 
+def _contrast_words(fit: Any, levels: tuple[str, ...]) -> str:
+    """`` (high vs low)`` for a multi-level exposure's estimate, else nothing."""
+    contrast = _get(fit, "contrast", "") if fit is not None else ""
+    return f" ({contrast} vs {levels[0]})" if contrast and levels else ""
+
+
+def _change_cell(change: float | None, joint: Any) -> str:
+    """The change, naming the contrast that moved most for a multi-level exposure."""
+    text = format_percent(change)
+    if joint is None or change is None:
+        return text
+    return f"{text} ({joint.moved_most})"
+
+
 def _labels(ids: Sequence[str], label_of: Mapping[str, str]) -> str:
     return ", ".join(label_of.get(i, i) for i in ids) if ids else "none"
+
+
+_ESTIMATE_TITLES = (
+    ("crude", "Crude"),
+    ("proposed", "Set chosen"),
+    ("recommended", "Recommended set"),
+)
+
+
+def _estimate_lines(estimates: Mapping[str, Any]) -> list[tuple[str, Any, Any]]:
+    """(title, fit or contrast, rows) of every estimate line: one per model, or
+    for a multi-level exposure one per model and contrast."""
+    lines: list[tuple[str, Any, Any]] = []
+    for key, title in _ESTIMATE_TITLES:
+        fit = estimates.get(key)
+        n = _get(fit, "n") if fit is not None else None
+        contrasts = tuple(_get(fit, "contrasts", ()) or ()) if fit is not None else ()
+        if contrasts and _get(fit, "ok", True):
+            lines += [(f"{title}: {c.level}", c, n) for c in contrasts]
+        else:
+            lines.append((title, fit, n))
+    return lines
 
 
 def _fit_numbers(fit: Any, ratio: bool) -> tuple[float | None, float | None, float | None]:
@@ -440,19 +476,16 @@ def build_content(result: Any, project: Any, *, today: _dt.date | None = None) -
 
     # -- estimates --------------------------------------------------------------------
     estimates = _get(result, "estimates", {}) or {}
-    wanted = (("crude", "Crude"), ("proposed", "Set chosen"), ("recommended", "Recommended set"))
-    numbers = {key: _fit_numbers(estimates.get(key), ratio) for key, _ in wanted}
-    widths = [hi - lo for _, lo, hi in numbers.values() if lo is not None and hi is not None]
+    wanted = _estimate_lines(estimates)
+    numbers = [_fit_numbers(fit, ratio) for _, fit, _ in wanted]
+    widths = [hi - lo for _, lo, hi in numbers if lo is not None and hi is not None]
     decimals = estimate_decimals(widths, ratio=ratio)
     rows_out: list[EstimateRow] = []
-    for key, title in wanted:
-        fit = estimates.get(key)
-        est, lo, hi = numbers[key]
+    for (title, fit, n), (est, lo, hi) in zip(wanted, numbers, strict=True):
         if est is None:
             why = _one_line(_get(fit, "message", "") or "not estimated") if fit else "not estimated"
             rows_out.append(EstimateRow(title, _NOT_AVAILABLE, why, ""))
         else:
-            n = _get(fit, "n")
             rows_out.append(
                 EstimateRow(
                     title,
@@ -462,11 +495,15 @@ def build_content(result: Any, project: Any, *, today: _dt.date | None = None) -
                 )
             )
     estimates_caption = f"Estimates: {measure} with 95% CI"
+    levels = tuple(_get(result, "exposure_levels", ()) or ())
+    if levels:
+        estimates_caption += f", each level vs {levels[0]}"
 
     evalue = _get(result, "evalue")
     if evalue is not None and _get(evalue, "estimate") is not None:
         text = (
-            f"E-value: {format_number(_get(evalue, 'estimate'), 2)} for the recommended estimate, "
+            f"E-value: {format_number(_get(evalue, 'estimate'), 2)} for the recommended estimate"
+            f"{_contrast_words(estimates.get('recommended'), levels)}, "
             f"{format_number(_get(evalue, 'ci'), 2)} for its CI limit nearer the null"
         )
         conversion = _get(evalue, "conversion")
@@ -492,6 +529,12 @@ def build_content(result: Any, project: Any, *, today: _dt.date | None = None) -
         "the covariate added alone to the crude model"
         + (" (change on the ratio scale)" if ratio else "")
         + "; VIF: the covariate in the full model."
+        + (
+            f" For the exposure's levels, the change shown is the contrast against {levels[0]} "
+            "that moved most (named in brackets)."
+            if levels
+            else ""
+        )
     )
     cov_rows: list[CovariateRow] = []
     for number, node in enumerate(diagram.covariates, start=1):
@@ -511,7 +554,7 @@ def build_content(result: Any, project: Any, *, today: _dt.date | None = None) -
                     if inside
                 ),
                 role=role_words(_get(facts, "role") if facts is not None else None),
-                change=format_percent(change) if ev is not None else "—",
+                change=_change_cell(change, _get(ev, "joint")) if ev is not None else "—",
                 se_inflation=format_percent(_get(added, "se_inflation_pct"))
                 if ev is not None
                 else "—",

@@ -8,6 +8,7 @@ import csv
 import io
 from dataclasses import dataclass
 
+from covariscope.analysis.contrasts import ExposureJoint
 from covariscope.analysis.evidence import Comparison
 from covariscope.analysis.modification import Modification
 from covariscope.model.project import Project
@@ -20,6 +21,7 @@ __all__ = [
     "REVIEW_COLUMNS",
     "ReviewRow",
     "change_value",
+    "joint_text",
     "modifier_text",
     "proposed_after_toggle",
     "review_rows",
@@ -107,6 +109,41 @@ def modifier_text(modification: Modification | None) -> str:
     return f"yes, {p_text}" if modification.flagged else "no"
 
 
+def _reference(result: StudyResult | None) -> str:
+    levels = result.exposure_levels if result is not None else ()
+    return levels[0] if levels else ""
+
+
+def _with_level(text: str, joint: ExposureJoint | None) -> str:
+    """A multi-level exposure's change cell names the contrast that moved most."""
+    if joint is None or text == DASH:
+        return text
+    return f"{text} ({joint.moved_most})"
+
+
+def joint_text(joint: ExposureJoint, family: str, reference: str) -> str:
+    """Every contrast's change (added / dropped) and SE inflation, and the joint
+    summary, for a multi-level exposure (the row's tooltip)."""
+    parts = []
+    for s in joint.contrasts:
+        dropped = f", dropped {percent(change_value(s.dropped, family))}" if s.dropped else ""
+        parts.append(
+            f"{s.level} vs {reference}: added {percent(change_value(s.added, family))}{dropped}, "
+            f"SE {percent(s.added.se_inflation_pct)}"
+        )
+    text = "Contrasts — " + "; ".join(parts)
+    text += (
+        f". Moved most: {joint.moved_most} vs {reference}. Exposure block GVIF^(1/(2·df)) "
+        f"{number(joint.gvif_root_added, 3)} with it, {number(joint.gvif_root_full, 3)} in the "
+        "full model"
+    )
+    if joint.wald is not None:
+        p = joint.wald.p
+        p_text = "p < 0.001" if is_number(p) and p < 0.001 else f"p = {number(p, 3)}"
+        text += f"; joint Wald test of the exposure with it: {p_text}"
+    return text + "."
+
+
 def review_rows(project: Project, result: StudyResult | None = None) -> list[ReviewRow]:
     """Rows for every covariate of the project's diagram, in diagram order.
 
@@ -137,13 +174,16 @@ def review_rows(project: Project, result: StudyResult | None = None) -> list[Rev
             detail_bits.append(reason)
         if facts is not None and facts.explanation:
             detail_bits.append(f"Diagram: {facts.explanation}")
+        joint = ev.joint if ev is not None else None
+        if joint is not None:
+            detail_bits.append(joint_text(joint, family, _reference(result)))
         rows.append(
             ReviewRow(
                 node=node.id,
                 label=node.label,
                 role=role_words(facts.role if facts is not None else None),
-                added_change=percent(change_value(added, family)),
-                dropped_change=percent(change_value(dropped, family)),
+                added_change=_with_level(percent(change_value(added, family)), joint),
+                dropped_change=_with_level(percent(change_value(dropped, family)), joint),
                 se_inflation=percent(added.se_inflation_pct if added is not None else None),
                 vif=number(vif_value) if is_number(vif_value) else DASH,
                 verdict=label,
