@@ -375,13 +375,20 @@ def main() -> None:
     parser.add_argument("--n-check", type=int, default=20_000, help="rows of the CSV study")
     parser.add_argument("--repeat", type=int, default=3)
     parser.add_argument("--subset", type=int, default=42, help="reference models timed")
+    parser.add_argument(
+        "--blas-threads",
+        choices=["both", "unset", "1"],
+        default="both",
+        help="OPENBLAS_NUM_THREADS settings to run (default: unset, then 1)",
+    )
     parser.add_argument("--child", action="store_true", help=argparse.SUPPRESS)
     args = parser.parse_args()
     if args.child:
         print(json.dumps(child(args)))
         return
     rows = []
-    for threads in (None, "1"):
+    settings = {"both": (None, "1"), "unset": (None,), "1": ("1",)}[args.blas_threads]
+    for threads in settings:
         env = dict(os.environ)
         env.pop("OPENBLAS_NUM_THREADS", None)
         if threads:

@@ -21,6 +21,7 @@ from typing import Any
 
 import pytest
 
+from covariscope.analysis.adjustment import ProposalReview
 from covariscope.analysis.fits import Fit
 from covariscope.model import Diagram, Node, Project
 
@@ -172,11 +173,15 @@ def make_result(project: Project, family: str = "linear", *, data: bool = True) 
             roles=roles,
             identifiable=True,
             minimal_sets=(recommended,),
-            proposal=Ns(
+            review=ProposalReview(
+                proposed=tuple(sorted(proposed)),
                 sufficient=False,
                 open_paths=(("shift", "c1", "sbp"),),
+                open_paths_total=1,
+                open_paths_total_exact=True,
                 unnecessary=(),
                 harmful=("c4",) if len(covs) > 4 else (),
+                unmeasured_in_set=(),
             ),
         ),
         proposed=proposed,

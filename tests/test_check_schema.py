@@ -40,6 +40,19 @@ def test_demo_output_validates(schema, capsys):
     assert out["keep_one_groups"] == out["collinear_groups"] == [["area", "income"]]
     for member in ("area", "income"):
         assert out["covariates"][member]["group"] == ["area", "income"]
+    code = out["model_code"]["recommended"]
+    assert code["members"] == ["age", "income"]
+    assert code["formula"] == "lungfn ~ dust + age + income"
+    assert "smf.ols('lungfn ~ dust + age + income'" in code["python"]
+    assert "lm(lungfn ~ dust + age + income, data = d)" in code["r"]
+    assert "regress lungfn dust age income" in code["stata"]
+    broken = json.loads(json.dumps(out))
+    broken["model_code"]["proposed"]["python"] = 1
+    with pytest.raises(jsonschema.ValidationError):
+        jsonschema.validate(broken, schema)
+    del broken["model_code"]
+    with pytest.raises(jsonschema.ValidationError):
+        jsonschema.validate(broken, schema)
 
 
 def test_binary_exposure_keeps_its_single_contrast_fields(schema, capsys):
@@ -142,3 +155,21 @@ def test_capped_open_paths_validate_with_their_count(schema, capsys, tmp_path):
         del broken[key]
         with pytest.raises(jsonschema.ValidationError):
             jsonschema.validate(broken, schema)
+
+
+def test_members_to_drop_either_one_not_both_are_grouped(schema, capsys, tmp_path):
+    demo = ROOT / "demo_data"
+    raw = json.loads((demo / "demo_project.json").read_text("utf-8"))
+    raw["analysis"]["proposed"] = ["age", "income", "area", "smoke"]
+    (tmp_path / "demo_cohort.csv").write_bytes((demo / "demo_cohort.csv").read_bytes())
+    path = tmp_path / "either.json"
+    path.write_text(json.dumps(raw), encoding="utf-8")
+    out = _check(capsys, str(path))
+    jsonschema.validate(out, schema)
+    assert out["proposed_sufficient"] is True
+    assert set(out["unnecessary"]) == {"area", "income", "smoke"}
+    # a script must not drop both measures of the one confounder
+    assert out["unnecessary_not_together"] == [["area", "income"]]
+    main(["check", str(path)])
+    text = capsys.readouterr().out
+    assert "unnecessary: Smoking; either Area deprivation or Income, not both" in text

@@ -187,7 +187,7 @@ def test_page_shows_the_vocabulary_words(demo_words, qapp, tmp_path):
     pdf = write_pdf(result, project, tmp_path / "page.pdf")
     text = " ".join(PdfReader(pdf).pages[0].extract_text().split())
     for number, (label, role, verdict) in enumerate(words.values(), start=1):
-        row = rf"\b{number} {re.escape(label)} (C )?(R )?{re.escape(role)} .*?{re.escape(verdict)}"
+        row = rf"\b{number} {re.escape(label)} (P )?(R )?{re.escape(role)} .*?{re.escape(verdict)}"
         assert re.search(row, text), (label, role, verdict)
 
 

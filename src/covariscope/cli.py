@@ -174,12 +174,13 @@ def _run(args: argparse.Namespace) -> tuple[Any, Any]:
 
 
 def _cmd_check(args: argparse.Namespace) -> int:
-    _, result = _run(args)
+    project, result = _run(args)
     from covariscope.views.check_json import study_to_json
     from covariscope.views.check_text import format_study_text
 
     if args.json:
-        json.dump(study_to_json(result), sys.stdout, indent=2, allow_nan=False)
+        out = study_to_json(result, project, data_path=args.data)
+        json.dump(out, sys.stdout, indent=2, allow_nan=False)
         sys.stdout.write("\n")
     else:
         text = format_study_text(result)

@@ -29,10 +29,13 @@ from types import MappingProxyType
 __all__ = [
     "CAUTIONS",
     "CAUTION_BRIEF",
+    "CHANGE_SIGN",
+    "CHANGE_SIGN_RATIO",
     "CLAIM_CAUTION",
     "CLAIM_CAUTION_SHORT",
     "CLAIM_TEST_TERMS",
     "COLUMN_TYPE_TERMS",
+    "CONCEPT_TERMS",
     "CORRECTION_TERMS",
     "DEFAULT_CLAIM_LIMIT",
     "DEFAULT_THRESHOLDS",
@@ -40,17 +43,20 @@ __all__ = [
     "KIND_TERMS",
     "NONCOLLAPSIBLE_FAMILIES",
     "RATIO_FAMILIES",
+    "REVIEW_COLUMN_TERMS",
     "ROLE_TERMS",
     "STRENGTH_TERMS",
     "THRESHOLD_TERMS",
     "VERDICT_TERMS",
     "ClaimTest",
+    "ColumnTerm",
     "ColumnType",
     "Correction",
     "Family",
     "FamilyTerm",
     "Kind",
     "ModificationForm",
+    "ReviewColumn",
     "Role",
     "StrengthKind",
     "Term",
@@ -59,6 +65,7 @@ __all__ = [
     "Untestable",
     "VerdictCode",
     "change_read",
+    "column_tooltip",
     "family_term",
     "group_key",
     "role_label",
@@ -704,3 +711,216 @@ def role_label(role: str | None) -> str | None:
 def verdict_label(code: str | None) -> str | None:
     """The label of a verdict code (None when there is no verdict)."""
     return VERDICT_TERMS[VerdictCode(code)].label if code else None
+
+
+# -- the review table's columns and the numbers behind them -----------------------------
+
+
+class ReviewColumn(StrEnum):
+    """A column of the covariate review table (and of its CSV export)."""
+
+    COVARIATE = "covariate"
+    ROLE = "role"
+    CHANGE_ADDED = "change_added"
+    CHANGE_DROPPED = "change_dropped"
+    SE_INFLATION = "se_inflation"
+    VIF = "vif"
+    MODIFIES = "modifies"
+    VERDICT = "verdict"
+    PROPOSED = "proposed"
+
+
+@dataclass(frozen=True)
+class ColumnTerm(Term):
+    """A review column's words: ``formula`` says how its number is computed
+    (on the coefficient scale) and ``ratio_formula`` how, where it differs,
+    for ratio measures (odds, risk, rate and hazard ratios)."""
+
+    formula: str = ""
+    ratio_formula: str = ""
+
+    def formula_for(self, ratio: bool) -> str:
+        """The formula on the scale the column shows (ratio measures or not)."""
+        return self.ratio_formula if ratio and self.ratio_formula else self.formula
+
+
+#: The sign of a change in estimate, on either scale (DESIGN §2).
+CHANGE_SIGN = (
+    "Sign: a positive change means the exposure estimate is larger with the covariate than "
+    "without it, a negative one that it is smaller."
+)
+#: The same for ratio measures, where "larger" is read on the ratio scale.
+CHANGE_SIGN_RATIO = (
+    "For ratio measures the change is on the ratio scale: positive means the ratio is larger "
+    "with the covariate than without it (a ratio below 1 moves toward 1, a ratio above 1 away "
+    "from 1); negative means it is smaller."
+)
+
+_CHANGE_COEF = "100 × (b_with − b_without) / |b_without|, b the exposure coefficient"
+_CHANGE_RATIO = (
+    "100 × (exp(b_with − b_without) − 1) = 100 × (ratio_with / ratio_without − 1), "
+    "b the exposure coefficient (a log ratio)"
+)
+
+REVIEW_COLUMN_TERMS: Mapping[ReviewColumn, ColumnTerm] = MappingProxyType(
+    {
+        ReviewColumn.COVARIATE: ColumnTerm(
+            "covariate",
+            "Covariate",
+            "Covariate",
+            "The covariate's label on the diagram, with its data column in brackets where the "
+            "two differ.",
+        ),
+        ReviewColumn.ROLE: ColumnTerm(
+            "role",
+            "Role",
+            "Role",
+            "What the diagram says the covariate is for the total effect of the exposure on "
+            "the outcome (see Roles).",
+        ),
+        ReviewColumn.CHANGE_ADDED: ColumnTerm(
+            "change_added",
+            "Added: change %",
+            "Added: change %",
+            "How far adding the covariate alone to the crude model (outcome on exposure) moves "
+            "the exposure estimate: with = crude + covariate, without = crude.",
+            formula=_CHANGE_COEF,
+            ratio_formula=_CHANGE_RATIO,
+        ),
+        ReviewColumn.CHANGE_DROPPED: ColumnTerm(
+            "change_dropped",
+            "Dropped: change %",
+            "Dropped: change %",
+            "How far the exposure estimate of the full candidate model differs from the same "
+            "model without the covariate: with = full, without = full − covariate.",
+            formula=_CHANGE_COEF,
+            ratio_formula=_CHANGE_RATIO,
+        ),
+        ReviewColumn.SE_INFLATION: ColumnTerm(
+            "se_inflation",
+            "SE inflation %",
+            "SE inflation %",
+            "How much adding the covariate alone to the crude model widens the standard error "
+            "of the exposure estimate (negative: it narrows it).",
+            formula="100 × (SE_with / SE_without − 1), with = crude + covariate, without = crude",
+        ),
+        ReviewColumn.VIF: ColumnTerm(
+            "vif",
+            "VIF",
+            "VIF",
+            "Variance inflation factor of the covariate in the full candidate model: how much "
+            "its collinearity with the other terms inflates its coefficient's variance.",
+            formula=(
+                "VIF = 1 / (1 − R²), R² of the covariate on every other term of the full model "
+                "(with an intercept); tolerance = 1 / VIF; for a multi-level term "
+                "GVIF^(1/df) (Fox & Monette 1992)"
+            ),
+        ),
+        ReviewColumn.MODIFIES: ColumnTerm(
+            "modifies",
+            "Modifies effect",
+            "Modifies effect",
+            "Whether the exposure's effect differs across the covariate's levels (effect "
+            "modification). It is not confounding and no reason to adjust for it or not.",
+            formula=(
+                "yes when the exposure × covariate interaction test has p below its guide and "
+                "the largest and smallest stratum estimates differ by more than their ratio guide"
+            ),
+        ),
+        ReviewColumn.VERDICT: ColumnTerm(
+            "verdict",
+            "Verdict",
+            "Verdict",
+            "What to do with the covariate: its role, the data's evidence and the guides put "
+            "together (see Verdicts); the full reason is under the table.",
+        ),
+        ReviewColumn.PROPOSED: ColumnTerm(
+            "proposed",
+            "In proposed set",
+            "In proposed set",
+            "Ticked when the covariate is in the proposed set, the set you plan to adjust for; "
+            "tick or untick to change it.",
+        ),
+    }
+)
+
+
+def column_tooltip(column: ReviewColumn, *, ratio: bool = False) -> str:
+    """A review column's definition with its formula (and, for the change
+    columns, the sign convention), as one plain paragraph.
+
+    >>> column_tooltip(ReviewColumn.SE_INFLATION).startswith("How much adding")
+    True
+    """
+    term = REVIEW_COLUMN_TERMS[column]
+    text = term.explanation
+    formula = term.formula_for(ratio)
+    if formula:
+        text += f" Formula: {formula}."
+    if column in (ReviewColumn.CHANGE_ADDED, ReviewColumn.CHANGE_DROPPED):
+        text += " " + (CHANGE_SIGN_RATIO if ratio else CHANGE_SIGN)
+    return text
+
+
+# -- the concepts every screen names ------------------------------------------------------
+
+#: The trade's concepts the screens and the page use, each defined once (the glossary
+#: lists them; DESIGN §2).
+CONCEPT_TERMS: tuple[Term, ...] = (
+    Term(
+        "backdoor_path",
+        "Backdoor path",
+        "backdoor path",
+        "A path between the exposure and the outcome, arrows taken either way, whose first "
+        "arrow points into the exposure. It is open when no non-collider on it is adjusted for "
+        "and every collider on it (or a descendant of one) is.",
+    ),
+    Term(
+        "proposed_set",
+        "Proposed set",
+        "proposed",
+        "The covariates you tick to adjust for; the program says whether the diagram finds it "
+        "sufficient, and which members it could do without (either one, not both, where two "
+        "close the same path).",
+    ),
+    Term(
+        "minimal_set",
+        "Minimal sufficient set",
+        "minimal set",
+        "A set of measured covariates that closes every backdoor path and holds no descendant "
+        "of the exposure, none of whose members can be dropped (the backdoor criterion).",
+    ),
+    Term(
+        "recommended_set",
+        "Recommended set",
+        "recommended",
+        "The minimal sufficient set the program suggests: it keeps the member of a collinear "
+        "group that carries the most of the confounding, then prefers your proposed set.",
+    ),
+    Term(
+        "proxy_link",
+        "Proxy link",
+        "proxy link",
+        "An undirected link saying two variables measure the same thing; linked covariates "
+        "form a measure group that the diagram treats as one construct.",
+    ),
+    Term(
+        "crude_model",
+        "Crude model",
+        "crude",
+        "The outcome on the exposure alone.",
+    ),
+    Term(
+        "full_model",
+        "Full model",
+        "full",
+        "The outcome on the exposure and every measured candidate covariate.",
+    ),
+    Term(
+        "analytic_sample",
+        "Analytic sample",
+        "sample",
+        "The rows complete on the outcome, the exposure and every candidate covariate, so "
+        "that every compared model sees the same rows.",
+    ),
+)

@@ -294,6 +294,7 @@ def test_check_json_keys() -> None:
         "proposed_sufficient",
         "open_paths",
         "unnecessary",
+        "unnecessary_not_together",
         "harmful",
     }
     assert data["minimal_sets"] == [["a", "m"], ["b", "m"]]

@@ -116,7 +116,7 @@ def demo(tmp_path):
     """A copy of the demo project and its data in a temporary folder."""
     if not (DEMO / "demo_project.json").exists():
         pytest.skip("the demo study is not there yet")
-    for name in ("demo_project.json", "demo_cohort.csv"):
+    for name in ("demo_project.json", "demo_levels_project.json", "demo_cohort.csv"):
         shutil.copyfile(DEMO / name, tmp_path / name)
     return tmp_path
 

@@ -220,3 +220,22 @@ def test_dialog_plots_are_saved_with_the_collinearity_picture(
     ]
     assert all((tmp_path / n).stat().st_size > 1000 for n in names)
     dialog.close()
+
+
+def test_multilevel_exposure_dialog_fits_its_screen(qtbot, window, demo, wait_for_analysis):
+    """One row per model and contrast, the plot grouped by contrast, and a dialog
+    no taller than the screen it opens on (its body scrolls)."""
+    w = window
+    w.io.open(str(demo / "demo_levels_project.json"))
+    wait_for_analysis(qtbot, w)
+    dialog = w.open_diagnostics("age")
+    titles = [dialog.models.item(r, 0).text() for r in range(dialog.models.rowCount())]
+    assert "Crude + Age: high vs low" in titles
+    assert "Full − Age: middle vs low" in titles
+    legend = dialog.estimate_figure.axes[0].get_legend()
+    assert legend is not None
+    assert [t.get_text() for t in legend.get_texts()] == ["high vs low", "middle vs low"]
+    room = dialog.screen().availableGeometry()
+    assert dialog.height() <= room.height()
+    assert dialog.width() <= room.width()
+    dialog.close()

@@ -389,3 +389,18 @@ def test_demo_fits_without_scroll_bars(qtbot, window, demo, wait_for_analysis, s
     assert w.view.verticalScrollBar().maximum() <= 0
     assert w.data_panel.table.horizontalScrollBar().maximum() <= 0
     w.grab().save(str(shots / f"p_main_{size[0]}.png"))
+
+
+def test_progress_by_model_and_pass_is_shown_whole_beside_the_bar(qtbot, window):
+    # The pipeline's words ("Fitting model m of N, pass k over the rows") are
+    # too long for the bar: they sit in a label of their own, and go with it.
+    text = "Fitting model 12 of 42, pass 2 over the rows"
+    window.show_progress(text, 0.4)
+    assert window.progress_label.isVisible()
+    assert window.progress_label.text() == text
+    assert window.progress.value() == 400
+    assert text not in window.progress.format()
+    assert window.progress_label.sizeHint().width() <= window.progress_label.width()
+    window.hide_progress()
+    assert not window.progress_label.isVisible()
+    assert not window.progress.isVisible()

@@ -122,5 +122,5 @@ def test_edit_storm_settles_to_check_json(qtbot, window, tmp_path, wait_for_anal
     with redirect_stdout(out):
         assert cli_main(["check", "--json", str(path)]) == 0
     checked = json.loads(out.getvalue())
-    shown = json.loads(json.dumps(study_to_json(w.result), allow_nan=False))
+    shown = json.loads(json.dumps(study_to_json(w.result, w.project), allow_nan=False))
     assert same(shown, checked)

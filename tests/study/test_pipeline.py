@@ -262,7 +262,7 @@ def test_capped_open_paths_carry_their_exact_total():
     keys = list(js)
     assert keys.index("open_paths_total") == keys.index("open_paths") + 1
     text = format_study_text(r)
-    assert "NOT sufficient (529 open path(s))" in text
+    assert "not sufficient: it leaves 529 backdoor paths open" in text
     assert "    showing 5 of 529 open paths" in text
     assert text.count("    open: ") == 5
     # a proposed a00 closes the 23 paths through it: 506 left, still past the cap
@@ -270,7 +270,7 @@ def test_capped_open_paths_carry_their_exact_total():
     r = run_study(project)
     js = study_to_json(r)
     assert (len(js["open_paths"]), js["open_paths_total"]) == (500, 506)
-    assert any("it leaves 506 backdoor path(s) open" in m for m in r.messages)
+    assert any("it leaves 506 backdoor paths open" in m for m in r.messages)
 
 
 def test_open_paths_past_the_count_budget_read_at_least():

@@ -73,3 +73,17 @@ def test_endpoint(demo_study):
     assert s.family == "linear"
     used, rows = js["sample"]["used"], js["sample"]["rows"]
     assert any(f"{used:,} of {rows:,}" in line for line in s.lines)
+
+
+def test_dialog_names_levels_and_shared_dimensions_by_label(demo_study):
+    project, result, _ = demo_study
+    figures = dict(node_diagnostics(project, result, "smoke").figures)
+    # a multi-level covariate's own coefficients: "Smoking [former]", not the column id
+    own = [k for k in figures if k.startswith("Coefficient of ")]
+    assert own
+    assert all(k.startswith("Coefficient of Smoking [") for k in own), own
+    # the flagged dimension that holds Income names its partners by label
+    shared = [v for k, v in node_diagnostics(project, result, "income").figures if "Flagged" in k]
+    assert shared
+    assert "Area deprivation" in shared[0]
+    assert "area" not in shared[0].replace("Area deprivation", "")

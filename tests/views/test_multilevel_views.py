@@ -62,7 +62,7 @@ def test_page_lists_each_contrast(study):
     names = [r.name for r in content.estimates]
     assert names == [
         f"{model}: {level}"
-        for model in ("Crude", "Set chosen", "Recommended set")
+        for model in ("Crude", "Proposed set", "Recommended set")
         for level in ("high", "middle")
     ]
     assert content.estimates_caption.endswith("each level vs low")

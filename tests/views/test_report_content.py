@@ -60,13 +60,14 @@ def test_build_content_holds_every_section(make):
     assert "2,310 of 2,500" in c.data[1]
     assert "c1 120" in c.data[2]
     assert "c3 70" in c.data[2]
-    assert "does NOT suffice" in c.adjustment[0]
+    assert "NOT sufficient" in c.adjustment[0]
     assert any(line.startswith("Open path: Night-shift work") for line in c.adjustment)
-    assert [r.name for r in c.estimates] == ["Crude", "Set chosen", "Recommended set"]
+    assert [r.name for r in c.estimates] == ["Crude", "Proposed set", "Recommended set"]
+    assert c.adjustment[0].startswith("Proposed set: ")
     assert c.estimates[0].estimate == format_number(4.8361, c.decimals)
     assert len(c.covariates) == 8
     assert c.covariates[0].verdict == "Adjust"
-    assert c.covariates[0].sets == "C R"
+    assert c.covariates[0].sets == "P R"
     assert c.covariates[4].change == "—"  # unmeasured: no data evidence
     assert c.collinearity == ("Cov 0, Covariate number 2: kept Cov 0.",)
     assert "E-value: 2.13" in c.evalue
@@ -108,7 +109,7 @@ def test_findings_and_messages_use_labels(make):
     result.sample.message = "2,310 of 2,500 rows used."
     result.messages = (
         "2,310 of 2,500 rows used.",  # the Data section says it
-        "The proposed set {c0, c2} is not sufficient: it leaves 1 backdoor path(s) open.",
+        "The proposed set {c0, c2} is not sufficient: it leaves 1 backdoor path open.",
         "Ties in {c0, c1} follow shift – c0|c2 – sbp.",
     )
     c = build_content(result, project)

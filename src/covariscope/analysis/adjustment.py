@@ -50,6 +50,16 @@ class ProposalReview:
         backdoor path that the full set opens.
     unmeasured_in_set : tuple of str
         Members marked as not measured.
+    exposure_descendants : tuple of str
+        Members that descend from the exposure (a mediator, or any other
+        descendant of the exposure or the outcome): a set that holds one is
+        insufficient whatever paths it closes.
+    not_together : tuple of tuple of str
+        Groups of ``unnecessary`` members that may be dropped one at a time
+        but not together: dropping two of a group at once would leave the set
+        insufficient (two measures of one confounder: either one, not both).
+        Members of ``unnecessary`` outside every group may all be dropped at
+        once.
     unsearched : tuple of str
         Members whose search for a backdoor path they open stopped at its
         work budget (:data:`~covariscope.analysis.paths.SEARCH_BUDGET`)
@@ -64,6 +74,8 @@ class ProposalReview:
     unnecessary: tuple[str, ...]
     harmful: tuple[str, ...]
     unmeasured_in_set: tuple[str, ...]
+    exposure_descendants: tuple[str, ...] = ()
+    not_together: tuple[tuple[str, ...], ...] = ()
     unsearched: tuple[str, ...] = ()
 
     def open_paths_text(self) -> str:
@@ -271,6 +283,8 @@ def review_on(md: MergedDiagram, X: str, Y: str, proposed: Iterable[str]) -> Pro
             unnecessary.append(m)
     unmeasured = tuple(m for m in members if not md_measured(md, m))
     return ProposalReview(
+        exposure_descendants=tuple(m for m in members if md.construct_of[m] in descendants),
+        not_together=_not_together(md, X, Y, members, unnecessary),
         proposed=members,
         sufficient=sufficient,
         open_paths=tuple(p.nodes for p in opened.paths),
@@ -281,6 +295,44 @@ def review_on(md: MergedDiagram, X: str, Y: str, proposed: Iterable[str]) -> Pro
         unmeasured_in_set=unmeasured,
         unsearched=tuple(unsearched),
     )
+
+
+#: Above this many unnecessary members the pairwise check is skipped and they
+#: are all reported as one group (a proposal that large is read by hand anyway).
+_PAIR_CHECK_LIMIT = 40
+
+
+def _not_together(
+    md: MergedDiagram, X: str, Y: str, members: tuple[str, ...], unnecessary: list[str]
+) -> tuple[tuple[str, ...], ...]:
+    """Groups of unnecessary members that cannot all be dropped at once.
+
+    Two members conflict when the set without both of them no longer meets
+    the backdoor criterion; the groups are the connected components of that
+    relation.  When the members outside every group cannot be dropped
+    together either (a conflict among three or more), every unnecessary
+    member forms one group, so "drop the rest" is never wrong.
+    """
+    if len(unnecessary) < 2:
+        return ()
+    if len(unnecessary) > _PAIR_CHECK_LIMIT:
+        return (tuple(unnecessary),)
+
+    def suffices_without(dropped: Collection[str]) -> bool:
+        kept = [n for n in members if n not in dropped]
+        return sufficient_on(md.graph, X, Y, given_constructs(md, kept, X, Y))
+
+    if suffices_without(unnecessary):
+        return ()
+    conflicts = nx.Graph()
+    for a, b in itertools.combinations(unnecessary, 2):
+        if not suffices_without((a, b)):
+            conflicts.add_edge(a, b)
+    groups = [tuple(sorted(c)) for c in nx.connected_components(conflicts)]
+    free = [m for m in unnecessary if m not in conflicts]
+    if free and not suffices_without(free):
+        return (tuple(unnecessary),)
+    return tuple(sorted(groups))
 
 
 def review_proposal(
@@ -308,6 +360,14 @@ def review_proposal(
     >>> r = review_proposal(G, "x", "y", ["m"])
     >>> r.sufficient, r.harmful, r.open_paths
     (False, ('m',), (('x', 'a', 'm', 'b', 'y'),))
+
+    Two covariates on the one backdoor path, each closing it alone: either
+    one may go, not both.
+
+    >>> G = nx.DiGraph([("c", "a"), ("c", "b"), ("a", "x"), ("b", "y"), ("x", "y")])
+    >>> r = review_proposal(G, "x", "y", ["a", "b"])
+    >>> r.unnecessary, r.not_together
+    (('a', 'b'), (('a', 'b'),))
     """
     md = merge_diagram(G, exposure, outcome)
     return review_on(md, exposure, outcome, proposed)

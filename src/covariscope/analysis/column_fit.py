@@ -1,33 +1,113 @@
 """One model on arbitrary columns of a design: exposure first, any extra
 columns (product terms, a spline basis) after it, fitted in the design's
-family through the public fitting functions."""
+family through the public fitting functions.
+
+The iterative families start from a neighbouring fit when the caller names
+one (`start_from`): the effect-modification and residual-confounding checks
+fit many models that differ from the recommended one by a few columns, and a
+Newton loop that starts at the neighbour's optimum needs two or three passes
+over the rows instead of five or six."""
 
 from __future__ import annotations
 
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 
 import numpy as np
 
 from covariscope.analysis.design import Design
 
-__all__ = ["ColumnFit", "fit_columns"]
+__all__ = ["ColumnFit", "base_fit", "fit_columns", "model_matrix", "start_from"]
 
 
 @dataclass(frozen=True)
 class ColumnFit:
-    """Coefficients (exposure first) and their covariance; residual df for a linear model."""
+    """Coefficients (exposure first) and their covariance; residual df for a linear model.
+
+    ``names`` are the fitted columns' names and ``params`` every fitted
+    parameter (the intercept first for logistic and Poisson models), kept
+    for warm starts (`start_from`); both are empty for a linear model.
+    """
 
     coef: np.ndarray
     cov: np.ndarray
     df_resid: int | None
+    names: tuple[str, ...] = ()
+    params: np.ndarray | None = None
 
 
-def fit_columns(design: Design, X: np.ndarray, names: list[str]) -> ColumnFit | str:
+def start_from(
+    near: ColumnFit,
+    names: Sequence[str],
+    *,
+    given: Mapping[str, float] | None = None,
+) -> np.ndarray | None:
+    """Starting parameters for columns ``names`` from a neighbouring fit.
+
+    A column the neighbour has keeps its coefficient; one it lacks starts at
+    zero unless ``given`` names a value (so the linear predictor starts at the
+    neighbour's); an intercept, when the neighbour has one, is kept (and
+    shifted by ``given["(intercept)"]``).  None when the neighbour kept no
+    parameters (a linear model).
+
+    >>> near = ColumnFit(np.zeros(2), np.eye(2), None, ("x", "z"), np.array([-1.0, 0.5, 0.2]))
+    >>> start_from(near, ["x", "w"]).tolist()
+    [-1.0, 0.5, 0.0]
+    """
+    if near.params is None:
+        return None
+    extra = len(near.params) - len(near.names)
+    known = dict(zip(near.names, near.params[extra:], strict=True))
+    given = dict(given or {})
+    head = [float(near.params[0]) + given.pop("(intercept)", 0.0)] if extra else []
+    return np.array([*head, *(known.get(n, given.get(n, 0.0)) for n in names)], dtype=float)
+
+
+def model_matrix(design: Design, cols: Sequence[int], *extra: np.ndarray) -> np.ndarray:
+    """[1 | the design's columns ``cols`` | ``extra`` columns], Fortran-ordered,
+    in one allocation (no intermediate copies of the rows), for `fit_columns`
+    with ``ones_first=True``.
+
+    >>> import pandas as pd
+    >>> from covariscope.analysis.design import TermSpec, make_design
+    >>> d = make_design(pd.DataFrame({"x": [0, 1, 2, 3.0], "z": [1, 0, 1, 1.0], "y": [0, 1, 1, 2.0]}),
+    ...                 exposure=TermSpec("x", "continuous"),
+    ...                 covariates={"z": TermSpec("z", "binary")}, outcome="y", family="linear")
+    >>> model_matrix(d, [0, 1], np.arange(4.0))[1].tolist()
+    [1.0, 1.0, 0.0, 1.0]
+    """
+    n = design.n
+    widths = [1 if e.ndim == 1 else e.shape[1] for e in extra]
+    out = np.empty((n, 1 + len(cols) + sum(widths)), order="F")
+    out[:, 0] = 1.0
+    for i, c in enumerate(cols):
+        out[:, 1 + i] = design.values[:, c]
+    j = 1 + len(cols)
+    for e, w in zip(extra, widths, strict=True):
+        out[:, j : j + w] = e.reshape(n, w)
+        j += w
+    return out
+
+
+def fit_columns(
+    design: Design,
+    X: np.ndarray,
+    names: list[str],
+    *,
+    start: np.ndarray | None = None,
+    ones_first: bool = False,
+) -> ColumnFit | str:
     """Fit exposure-first columns ``X`` (no intercept) in the design's family.
 
     Returns the coefficients and their covariance (exposure first, the
     intercept left out), or the reason the model could not be fitted.
+    ``start`` (see `start_from`) is where an iterative fit starts; it changes
+    the number of passes over the rows, not the result.  With ``ones_first``
+    X's first column is the intercept's column of ones (`model_matrix`), and
+    logistic and Poisson fits read X as it is.
     """
+    if ones_first:
+        Xi, X = X, X[:, 1:]
     family = design.family
     if family == "linear":
         from covariscope.analysis.linear import linear_summary, solve_ols
@@ -43,21 +123,37 @@ def fit_columns(design: Design, X: np.ndarray, names: list[str]) -> ColumnFit | 
 
         assert design.time is not None
         assert design.event is not None
-        fit, _ = fit_cox(X, design.time, design.event, column_names=names, terms=())
+        fit, params = fit_cox(
+            X, design.time, design.event, column_names=names, terms=(), start=start
+        )
     else:
         from covariscope.analysis.glm import fit_glm
 
         assert design.y is not None
-        Xi = np.column_stack([np.ones(len(X)), X])
-        fit, _ = fit_glm(
+        if not ones_first:
+            Xi = np.column_stack([np.ones(len(X)), X])
+        fit, params = fit_glm(
             Xi,
             design.y,
             family,
             column_names=["(intercept)", *names],
             terms=(),
             offset=design.offset,
+            start=start,
         )
     if not fit.ok or fit.cov is None:
         return fit.message or "the model could not be fitted"
     coef = np.array([fit.coefficient(n) for n in names], dtype=float)
-    return ColumnFit(coef, fit.cov, None)
+    # A fit whose runaway coefficients were left blank is no place to start from.
+    kept = None if not np.all(np.isfinite(coef)) else params
+    return ColumnFit(coef, fit.cov, None, tuple(names), kept)
+
+
+def base_fit(design: Design, terms: Sequence[str]) -> ColumnFit | None:
+    """The model exposure + ``terms`` fitted once, for the checks that extend
+    it to start from (None when it cannot be fitted: they then start cold)."""
+    model_terms = [t for t in design.blocks if t in set(terms)]
+    cols = [*design.exposure_index, *(j for t in model_terms for j in design.blocks[t].index)]
+    names = [design.column_names[j] for j in cols]
+    fitted = fit_columns(design, model_matrix(design, cols), names, ones_first=True)
+    return None if isinstance(fitted, str) else fitted

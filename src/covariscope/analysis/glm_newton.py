@@ -40,10 +40,12 @@ CHORD_ZONE = 1e-2
 #: Most chord steps before the next fresh pass.
 CHORD_STEPS = 3
 
-#: Largest change of any row's linear predictor by a step after which the
-#: next pass is expected to be the last: that pass then also forms the
-#: sandwich's middle term (a guess that only costs time when wrong).
-NEAR_END = 1e-3
+#: Newton's rate s₊ ≈ C s² (steps in linear-predictor units) assumed before
+#: two steps have shown it.  The next pass is expected to be the last when
+#: C·s² is within `ETA_TOL`: that pass then also forms the sandwich's middle
+#: term (a guess that only costs time when wrong: a meat formed in vain, or
+#: one more pass for it).
+FIRST_RATE = 1.0
 
 
 @dataclass(frozen=True)
@@ -82,6 +84,22 @@ def _start(family: str, first: Array, y: Array, off: Array | None, p: int) -> Ar
             denom = float(np.sum(np.exp(off))) if off is not None else float(len(y))
             b[0] = math.log(max(float(np.sum(y)), 1e-10) / denom) / x0
     return b
+
+
+def _column_sd(X: Array) -> Array:
+    """Each column's standard deviation from one pass of sums (no n × p
+    temporaries); it only scales the test for a runaway coefficient."""
+    n = X.shape[0]
+    mean = X.sum(axis=0) / n
+    sq = np.einsum("ij,ij->j", X, X) / n
+    var = sq - mean * mean
+    # Where the mean dwarfs the spread the difference cancels: those columns
+    # are taken the slow, exact way.
+    poor = var <= 1e-6 * sq
+    if np.any(poor & (sq > 0)):
+        var[poor] = np.var(X[:, np.flatnonzero(poor)], axis=0)
+    sd: Array = np.sqrt(np.clip(var, 0.0, None))
+    return sd
 
 
 def _aliased(c: Array | None, H: Array) -> bool:
@@ -132,8 +150,8 @@ def newton_glm(
     if scale is None or reach is None:
         # The model's own columns, read in place when it uses them all.
         Xm = X if cols is None else X[:, idx]
-        scale = np.std(Xm, axis=0) if scale is None else scale
-        reach = np.max(np.abs(Xm), axis=0) if reach is None else reach
+        scale = _column_sd(Xm) if scale is None else scale
+        reach = np.maximum(Xm.max(axis=0), -Xm.min(axis=0)) if reach is None else reach
     passes = 0
 
     def run(beta: Array, info: bool, want_meat: bool) -> GlmPass:
@@ -187,13 +205,14 @@ def newton_glm(
             )
         moved = float(reach @ np.abs(delta))
         if _chord_pays(moved, last_moved):
-            chord = _chord(run, b + delta, cov, reach, P.deviance)
+            chord = _chord(run, b + delta, cov, reach, P.deviance, moved)
             if chord is not None:
                 b, P = chord, run(chord, True, meat)
                 last_moved = None
                 continue
+        rate = FIRST_RATE if not last_moved else moved / last_moved**2
+        near = meat and rate * moved**2 <= ETA_TOL
         last_moved = moved
-        near = meat and moved <= NEAR_END
         t = 1.0
         for _ in range(40):
             b_new = b + t * delta
@@ -237,9 +256,18 @@ def _chord(
     cov: Array,
     reach: Array,
     deviance: float,
+    dist: float,
 ) -> Array | None:
     """Chord steps b ← b + V g(b) (V the inverse information in hand) by
-    score-only passes; None when the deviance rises (fall back to Newton)."""
+    score-only passes; None when the deviance rises (fall back to Newton).
+
+    A chord step shrinks the error by a factor κ of about the distance
+    ``dist`` (in linear-predictor units) between b and the point where V was
+    formed, or by the observed ratio of successive steps when that is larger;
+    the steps stop once the error left, κ times the last step, is a hundredth
+    of `ETA_TOL`, so that the fresh pass that follows is the last.
+    """
+    last = math.inf
     for _ in range(CHORD_STEPS):
         P = run(b, False, False)
         if not math.isfinite(P.deviance) or P.deviance > deviance + 1e-12 * abs(deviance):
@@ -247,8 +275,11 @@ def _chord(
         step = cov @ P.score
         b = b + step
         deviance = P.deviance
-        if float(reach @ np.abs(step)) <= 1e-3 * ETA_TOL:
+        size = float(reach @ np.abs(step))
+        kappa = max(dist, size / last) if math.isfinite(last) else dist
+        if kappa * size <= 1e-2 * ETA_TOL:
             break
+        last = size
     return b
 
 

@@ -76,6 +76,7 @@ class DiagramAnalysis:
             "proposed_sufficient": self.review.sufficient,
             "open_paths": [list(p) for p in self.review.open_paths],
             "unnecessary": list(self.review.unnecessary),
+            "unnecessary_not_together": [list(g) for g in self.review.not_together],
             "harmful": list(self.review.harmful),
         }
 

@@ -16,7 +16,13 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from covariscope.analysis.column_fit import fit_columns
+from covariscope.analysis.column_fit import (
+    ColumnFit,
+    base_fit,
+    fit_columns,
+    model_matrix,
+    start_from,
+)
 from covariscope.analysis.design import Design
 from covariscope.analysis.spline_basis import DEFAULT_KNOTS, spline_basis
 from covariscope.vocabulary import RATIO_FAMILIES
@@ -50,6 +56,7 @@ def residual_confounding(
     *,
     knots: int = DEFAULT_KNOTS,
     change_guide: float = 10.0,
+    near: ColumnFit | None = None,
 ) -> ResidualCheck:
     """Compare the exposure estimate with ``node`` linear and as a spline.
 
@@ -60,6 +67,8 @@ def residual_confounding(
     node : a continuous covariate
     raw : its values in the design's rows
     knots, change_guide : the spline's knots; the guide past which it is flagged
+    near : a fit of exposure + ``terms`` to start from (saves passes over the
+        rows of an iterative fit; the result is the same)
 
     Examples
     --------
@@ -77,21 +86,28 @@ def residual_confounding(
     nan = float("nan")
     others = [t for t in design.blocks if t in set(terms) and t != node]
     cols = [*design.exposure_index, *(j for t in others for j in design.blocks[t].index)]
-    base = design.values[:, cols]
     names = [design.column_names[j] for j in cols]
     try:
         basis = spline_basis(raw, knots)
     except ValueError as exc:
         return ResidualCheck(node, knots, nan, nan, nan, False, str(exc))
-    linear = fit_columns(design, np.column_stack([base, raw]), [*names, node])
-    spline = fit_columns(
-        design,
-        np.column_stack([base, basis]),
-        [*names, *(f"{node}[spline {j + 1}]" for j in range(basis.shape[1]))],
+    block = design.blocks[node]
+    # The node's own design column holds the raw values when it enters linearly.
+    same = {node: near_value(near, block.columns[0])} if block.raw is None else {}
+    lin_names = [*names, node]
+    start = None if near is None else start_from(near, lin_names, given=same)
+    linear = fit_columns(
+        design, model_matrix(design, cols, raw), lin_names, start=start, ones_first=True
     )
-    if isinstance(linear, str) or isinstance(spline, str):
-        why = linear if isinstance(linear, str) else spline
-        return ResidualCheck(node, knots, nan, nan, nan, False, str(why))
+    if isinstance(linear, str):
+        return ResidualCheck(node, knots, nan, nan, nan, False, linear)
+    spl_names = [*names, *(f"{node}[spline {j + 1}]" for j in range(basis.shape[1]))]
+    start = start_from(linear, spl_names, given=_as_spline(linear, node, raw, basis, spl_names))
+    spline = fit_columns(
+        design, model_matrix(design, cols, basis), spl_names, start=start, ones_first=True
+    )
+    if isinstance(spline, str):
+        return ResidualCheck(node, knots, nan, nan, nan, False, spline)
     # A multi-level exposure: the contrast whose estimate moves most is reported.
     pairs = [(float(linear.coef[j]), float(spline.coef[j])) for j in range(design.exposure_width)]
     b_lin, b_spl, change = max(
@@ -107,6 +123,29 @@ def _change(b_lin: float, b_spl: float, family: str) -> float:
     return 100.0 * (b_spl - b_lin) / abs(b_lin) if b_lin != 0 else math.inf
 
 
+def near_value(near: ColumnFit | None, name: str) -> float:
+    """The coefficient of column ``name`` in a neighbouring fit (0 when it lacks it)."""
+    if near is None or name not in near.names:
+        return 0.0
+    return float(near.coef[near.names.index(name)])
+
+
+def _as_spline(
+    linear: ColumnFit, node: str, raw: np.ndarray, basis: np.ndarray, names: list[str]
+) -> dict[str, float]:
+    """Spline coefficients (and intercept shift) that reproduce the linear fit's
+    b·raw: a natural cubic spline holds every straight line, so the spline fit
+    starts where the linear fit ended."""
+    b = near_value(linear, node)
+    design = np.column_stack([np.ones(len(raw)), basis])
+    c = np.linalg.lstsq(design, raw, rcond=None)[0]
+    given = {"(intercept)": b * float(c[0])}
+    given.update(
+        {name: b * float(v) for name, v in zip(names[-basis.shape[1] :], c[1:], strict=True)}
+    )
+    return given
+
+
 def residual_table(
     design: Design,
     terms: Sequence[str],
@@ -114,19 +153,24 @@ def residual_table(
     *,
     knots: Mapping[str, int] | None = None,
     change_guide: float = 10.0,
+    near: ColumnFit | None = None,
 ) -> dict[str, ResidualCheck]:
     """:func:`residual_confounding` for every continuous confounder among ``terms``.
 
     ``knots`` gives a node's spline knots (:data:`DEFAULT_KNOTS` otherwise);
     a binary or categorical covariate, or one whose column never varies, is
-    left out.
+    left out.  Every fit starts from ``near``, the fit of exposure + ``terms``
+    (`~covariscope.analysis.column_fit.base_fit`; fitted here when not given).
     """
     out: dict[str, ResidualCheck] = {}
+    tried = near is not None
     for c in confounders:
         block = design.blocks.get(c)
         if c not in terms or block is None or block.levels or c in design.constant:
             continue
         raw = block.raw if block.raw is not None else block.values[:, 0]
+        if not tried:
+            near, tried = base_fit(design, terms), True
         out[c] = residual_confounding(
             design,
             terms,
@@ -134,5 +178,6 @@ def residual_table(
             raw,
             knots=(knots or {}).get(c) or DEFAULT_KNOTS,
             change_guide=change_guide,
+            near=near,
         )
     return out

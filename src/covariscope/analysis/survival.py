@@ -123,21 +123,41 @@ def newton_cox(
         if X is None or time is None or event is None:
             raise ValueError("newton_cox needs X, time and event, or a CoxSample")
         sample = CoxSample(X, time, event, ties)
-    Xm = sample.columns(cols)
     reach = sample.reach if cols is None else sample.reach[cols]
-    p = Xm.shape[1]
+    # A model with most of the sample's columns reads them all in place, with
+    # zero coefficients for the others, and takes its sub-blocks of the sums
+    # (no copy of its columns); a narrow one copies its few columns once.
+    q = sample.X.shape[1]
+    idx = np.arange(q) if cols is None else cols
+    wide = cols is not None and 2 * len(cols) >= q
+    Xm = sample.X if wide else sample.columns(cols)
+    p = q if cols is None else len(cols)
     beta = np.zeros(p) if start is None else np.array(start, dtype=np.float64)
-    scale = np.std(Xm, axis=0) if scale is None else scale
+    if scale is None:
+        scale = sample.sd[idx] if wide else np.std(Xm, axis=0)
+
+    def spread(b: Array) -> Array:
+        if not wide:
+            return b
+        out = np.zeros(q)
+        out[idx] = b
+        return out
 
     def evaluate(b: Array) -> CoxPoint:
-        pt = sample.point(Xm, b)
+        pt = sample.point(Xm, spread(b))
         if on_pass is not None:
             on_pass()
         return pt
 
-    ev_sum = Xm[sample.ev_rows].sum(axis=0)
+    def derivatives(pt: CoxPoint) -> tuple[Array, Array]:
+        score, H = sample.derivatives(Xm, pt, ev_sum)
+        if not wide:
+            return score, H
+        return score[idx], H[np.ix_(idx, idx)]
+
+    ev_sum = sample.X_ev_sum if Xm is sample.X else Xm[sample.ev_rows].sum(axis=0)
     pt = evaluate(beta)
-    score, H = sample.derivatives(Xm, pt, ev_sum)
+    score, H = derivatives(pt)
     cov: Array | None = None
     for it in range(1, max_iter + 1):
         c = upper_cholesky(H)
@@ -156,14 +176,15 @@ def newton_cox(
             return CoxPath(beta + delta, cov, it, True, pt.loglik)
         t = 1.0
         for _ in range(40):
-            trial = evaluate(beta + t * delta)
+            moved = beta + t * delta
+            trial = evaluate(moved)
             if math.isfinite(trial.loglik) and trial.loglik >= pt.loglik - 1e-12 * abs(pt.loglik):
                 break
             t *= 0.5
         else:
             return CoxPath(beta, cov, it, False, pt.loglik, "no_progress")
-        beta, pt = trial.beta, trial
-        score, H = sample.derivatives(Xm, pt, ev_sum)
+        beta, pt = moved, trial
+        score, H = derivatives(pt)
         if np.any(np.abs(beta) * scale > DIVERGE_SD):
             return CoxPath(beta, cov, it, False, pt.loglik, "diverging")
     return CoxPath(beta, cov, max_iter, False, pt.loglik)

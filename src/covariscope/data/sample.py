@@ -255,14 +255,18 @@ def summary_text(
     lost: dict[str, int] | None = None,
     several: int = 0,
     count: int = 0,
+    names: Mapping[str, str] | None = None,
 ) -> str:
-    """The plain summary of an analytic sample: rows used, dropped, and why."""
+    """The plain summary of an analytic sample: rows used, dropped, and why;
+    ``names`` (column → label) names the columns as people know them."""
     if used == rows:
         return f"All {rows:,} rows are complete and used."
     dropped = rows - used
     share = 100.0 * dropped / rows
     parts = [
-        f"{c} missing in {n:,}" for c, n in sorted((lost or {}).items(), key=lambda kv: -kv[1]) if n
+        f"{(names or {}).get(c, c)} missing in {n:,}"
+        for c, n in sorted((lost or {}).items(), key=lambda kv: -kv[1])
+        if n
     ]
     if several:
         parts.append(f"{several:,} missing more than one")

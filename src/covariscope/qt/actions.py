@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from collections.abc import Callable
+from functools import partial
 from typing import TYPE_CHECKING
 
 from PySide6.QtCore import QSize, Qt
@@ -36,6 +37,19 @@ def redo_keys(platform: list[QKeySequence] | None = None) -> list[QKeySequence]:
         if not key.isEmpty() and key not in keys:
             keys.append(key)
     return keys
+
+
+def _std_keys(key: QKeySequence.StandardKey) -> list[QKeySequence]:
+    return list(QKeySequence.keyBindings(key))
+
+
+def _unique(keys: list[QKeySequence]) -> list[QKeySequence]:
+    """Each key once: a key bound twice is "ambiguous" to Qt and never fires."""
+    out: list[QKeySequence] = []
+    for key in keys:
+        if not key.isEmpty() and key not in out:
+            out.append(key)
+    return out
 
 
 class WindowActions:
@@ -106,6 +120,16 @@ class WindowActions:
             act.triggered.connect(lambda _=False, k=key: w.set_family(k))
             self.family_group.addAction(act)
             self.family[key] = act
+        self.copy_code = {
+            language: a(words, partial(w.copy_model_code, language))
+            for language, words in (
+                ("python", "&Python (statsmodels)"),
+                ("r", "&R"),
+                ("stata", "&Stata"),
+                ("all", "&All three"),
+            )
+        }
+        self.copy_code["all"].setShortcut(QKeySequence("Ctrl+Shift+C"))
         self.outcome_columns = a("&Outcome columns…", w.edit_outcome_columns)
         self.thresholds = a("&Thresholds…", w.edit_thresholds)
         self.rerun = a("&Run the analysis again", w.runner.run_now, _Std.Refresh)
@@ -113,9 +137,9 @@ class WindowActions:
         # while work runs the status bar shows a Cancel button
         self.cancel = a("&Cancel loading or analysis", w.cancel_work)
 
-        self.cautions = a(
-            "&Cautions", lambda: w.prompts.info("Cautions", CAUTIONS), _Std.HelpContents
-        )
+        self.glossary = a("&Glossary", lambda: w.show_glossary(), _Std.HelpContents)
+        self.glossary.setShortcuts(_unique([QKeySequence("F1"), *_std_keys(_Std.HelpContents)]))
+        self.cautions = a("&Cautions", lambda: w.prompts.info("Cautions", CAUTIONS))
         self.about = a("&About Covariscope", w.show_about)
 
     def _action(
@@ -207,12 +231,16 @@ class WindowActions:
         family = analysis.addMenu("Model &family")
         family.addActions(self.family_group.actions())
         analysis.addActions([self.outcome_columns, self.thresholds, self.rerun, self.cancel])
+        analysis.addSeparator()
+        code = analysis.addMenu("Copy the model as &code")
+        code.addActions(list(self.copy_code.values()))
+        edit.addMenu(code)
 
         self.view_menu = bar.addMenu("&View")
         self.view_menu.addActions([self.zoom_in, self.zoom_out, self.actual_size, self.fit])
         self.view_menu.addSeparator()
         help_ = bar.addMenu("&Help")
-        help_.addActions([self.cautions, self.about])
+        help_.addActions([self.glossary, self.cautions, self.about])
 
     def build_toolbar(self, compact: bool = False) -> QToolBar:
         """The toolbar; ``compact`` (a low screen) puts the words beside

@@ -38,6 +38,8 @@ from covariscope.qt.data_panel import DataPanel
 from covariscope.qt.diagnostics import CovariateDialog, EndpointDialog, NodeDialog
 from covariscope.qt.estimates_strip import EstimatesStrip
 from covariscope.qt.geometry import restore_layout, save_layout, window_size
+from covariscope.qt.glossary import GlossaryWindow
+from covariscope.qt.legend import LegendPanel
 from covariscope.qt.messages_bar import MessagesBar
 from covariscope.qt.outcome_dialog import OutcomeColumnsDialog
 from covariscope.qt.project_io import ProjectIO, Prompts
@@ -51,6 +53,7 @@ from covariscope.views.diagnostics import node_labels
 from covariscope.views.diagram import canvas_annotations
 from covariscope.views.keep_choice import keep_choice, keep_choices_after
 from covariscope.views.messages import window_messages
+from covariscope.views.model_code import model_code, model_code_text
 from covariscope.views.outcome_settings import family_columns_after
 from covariscope.views.recompute import recompute_summary
 from covariscope.views.residual import spline_knots_after
@@ -128,7 +131,12 @@ class MainWindow(QMainWindow):
             "claims": self._dock(
                 "Independence claims", self.claims, Qt.DockWidgetArea.BottomDockWidgetArea
             ),
+            "legend": self._dock("Legend", LegendPanel(), Qt.DockWidgetArea.RightDockWidgetArea),
         }
+        # the legend opens from View ▸ Legend: on a laptop the canvas needs the width
+        self.docks["legend"].hide()
+        self.docks["legend"].toggleViewAction().triggered.connect(self._legend_toggled)
+        self.glossary: GlossaryWindow | None = None
         # the claims share the bottom with the review, one tab each
         self.tabifyDockWidget(self.docks["review"], self.docks["claims"])
         # closed at first (View ▸ Independence claims): its tab would take a row of the review
@@ -151,6 +159,10 @@ class MainWindow(QMainWindow):
         self.rows_label = QLabel("")
         self.error_label = QLabel("")
         self.error_label.setObjectName("lastError")
+        # What is being done ("Fitting model 12 of 42, pass 2 over the rows")
+        # beside the bar, which shows the share done: the sentence does not fit in it.
+        self.progress_label = QLabel("")
+        self.progress_label.hide()
         self.progress = QProgressBar()
         self.progress.setMaximumWidth(180)
         self.progress.setRange(0, 1000)
@@ -162,7 +174,8 @@ class MainWindow(QMainWindow):
         bar = self.statusBar()
         for label in (self.state_label, self.rows_label):
             label.setObjectName("statusField")
-        for w in (self.state_label, self.rows_label, self.progress, self.cancel_button):
+        permanent = (self.state_label, self.rows_label, self.progress_label, self.progress)
+        for w in (*permanent, self.cancel_button):
             bar.addPermanentWidget(w)
         bar.addWidget(self.error_label, 1)
 
@@ -176,6 +189,14 @@ class MainWindow(QMainWindow):
         self.set_project(project or Project())
         self.io.mark_clean()
         self._restored = restore_layout(self)
+
+    def _legend_toggled(self, shown: bool) -> None:
+        """An opened legend takes a readable width beside the canvas."""
+        if shown:  # once the dock is laid out
+            QTimer.singleShot(
+                0,
+                lambda: self.resizeDocks([self.docks["legend"]], [360], Qt.Orientation.Horizontal),
+            )
 
     def _size_review(self) -> None:
         """The review table is the main output: give it a good share of the height."""
@@ -565,6 +586,32 @@ class MainWindow(QMainWindow):
     def save_rationale_pdf(self, path: str | None = None) -> bool:
         return output.save_rationale_pdf(self, path)
 
+    def copy_model_code(self, language: str = "all") -> str:
+        """Put the recommended and the proposed set's model, as code in
+        ``language`` ("python", "r", "stata" or "all"), on the clipboard;
+        returns the text (empty when no model is fitted yet)."""
+        codes = model_code(self.result, self.project) if self.result is not None else {}
+        text = model_code_text(codes, language)
+        if not text:
+            self.show_message(
+                "No fitted model to copy yet: bind the exposure and the outcome to data "
+                "and let the analysis finish."
+            )
+            return ""
+        QApplication.clipboard().setText(text)
+        self.show_message("The model's code is on the clipboard.")
+        return text
+
+    def show_glossary(self, section: str = "") -> GlossaryWindow:
+        """Open (or raise) the glossary, at ``section`` when given."""
+        if self.glossary is None or not shiboken6.isValid(self.glossary):
+            self.glossary = GlossaryWindow(self)
+        self.glossary.show()
+        self.glossary.raise_()
+        if section:
+            self.glossary.show_section(section)
+        return self.glossary
+
     def show_about(self) -> None:
         from covariscope import __version__
 
@@ -587,12 +634,15 @@ class MainWindow(QMainWindow):
         self.error_label.setToolTip(text)
 
     def show_progress(self, text: str, fraction: float) -> None:
-        self.progress.setFormat(f"{text} %p%")
+        self.progress_label.setText(text)
+        self.progress.setFormat("%p%")
         self.progress.setValue(int(1000 * max(0.0, min(1.0, fraction))))
+        self.progress_label.show()
         self.progress.show()
         self.cancel_button.show()
 
     def hide_progress(self) -> None:
+        self.progress_label.hide()
         self.progress.hide()
         self.cancel_button.hide()
 

@@ -18,6 +18,8 @@ from PySide6.QtWidgets import (
     QWidget,
 )
 
+from covariscope.analysis.adjustment import ProposalReview
+from covariscope.analysis.proposal_wording import sufficiency_sentence, unnecessary_words
 from covariscope.qt.keep_menu import add_keep_actions
 from covariscope.qt.tables import filling
 from covariscope.views.keep_choice import KeepChoice, keep_choice, kept_words
@@ -28,6 +30,7 @@ from covariscope.views.review import (
     review_rows,
     rows_to_csv,
 )
+from covariscope.vocabulary import RATIO_FAMILIES, ReviewColumn, column_tooltip
 
 __all__ = ["PathsPanel", "ReviewTable", "open_paths"]
 
@@ -60,8 +63,7 @@ class ReviewTable(QWidget):
         for i in range(len(REVIEW_COLUMNS)):
             header.setSectionResizeMode(i, QHeaderView.ResizeMode.ResizeToContents)
         header.setSectionResizeMode(_VERDICT, QHeaderView.ResizeMode.Stretch)
-        if (modifies := self.table.horizontalHeaderItem(_VERDICT - 1)) is not None:
-            modifies.setToolTip(MODIFICATION_CAUTION)
+        self.set_header_tips(ratio=False)
         self.detail = QLabel("Select a covariate to read its verdict in full.")
         self.detail.setObjectName("reviewDetail")
         self.detail.setWordWrap(True)
@@ -83,6 +85,13 @@ class ReviewTable(QWidget):
             )
         )
 
+    def set_header_tips(self, *, ratio: bool) -> None:
+        """Every header's definition and formula, from the vocabulary (the
+        change columns read the ratio scale for ratio measures)."""
+        for i, column in enumerate(ReviewColumn):
+            if (item := self.table.horizontalHeaderItem(i)) is not None:
+                item.setToolTip(column_tooltip(column, ratio=ratio))
+
     @property
     def rows(self) -> list[ReviewRow]:
         return list(self._rows)
@@ -90,6 +99,8 @@ class ReviewTable(QWidget):
     def refresh(self, project: Any, result: Any) -> None:
         selected = self.selected_node()
         self._rows = review_rows(project, result)
+        family = getattr(result, "family", None) or project.analysis.family
+        self.set_header_tips(ratio=family in RATIO_FAMILIES)
         self._keep = {
             row.node: choice
             for row in self._rows
@@ -225,6 +236,16 @@ def open_paths(result: Any) -> list[tuple[str, ...]]:
     return out
 
 
+def _insufficient_words(
+    result: Any, review: ProposalReview, labels: dict[str, str], listed: bool
+) -> str:
+    """Why the proposed set falls short, in the engine's words, with a hint
+    to pick a listed path."""
+    roles = {c: f.role for c, f in result.diagram.roles.items()}
+    text = f"The proposed set is {sufficiency_sentence(review, roles, labels)}."
+    return text + (" Choose a path to see it on the diagram." if listed else "")
+
+
 class PathsPanel(QWidget):
     """Open backdoor paths under the proposed set; choosing one highlights it."""
 
@@ -238,6 +259,7 @@ class PathsPanel(QWidget):
         self.list = QListWidget()
         self.list.setWordWrap(True)
         self.list.setTextElideMode(Qt.TextElideMode.ElideNone)
+        self.list.setMinimumHeight(36)
         self.list.currentItemChanged.connect(self._chosen)
         layout = QVBoxLayout(self)
         layout.setContentsMargins(4, 4, 4, 4)
@@ -266,7 +288,12 @@ class PathsPanel(QWidget):
         if result is None:
             self.summary.setText("No analysis yet.")
         elif not self._paths and getattr(proposal, "sufficient", False):
-            self.summary.setText("The proposed set closes every backdoor path.")
+            text = "The proposed set is sufficient: it closes every backdoor path."
+            if isinstance(proposal, ProposalReview) and proposal.unnecessary:
+                text += f" Unnecessary in it: {unnecessary_words(proposal, labels)}."
+            self.summary.setText(text)
+        elif isinstance(proposal, ProposalReview) and not proposal.sufficient:
+            self.summary.setText(_insufficient_words(result, proposal, labels, bool(self._paths)))
         elif not self._paths:
             self.summary.setText("No open backdoor paths are listed.")
         else:
@@ -279,7 +306,18 @@ class PathsPanel(QWidget):
                 count = f"{total:,}" if exact else f"At least {total:,}"
                 head = f"{count} backdoor paths left open by the proposed set; {n} are listed."
             self.summary.setText(f"{head} Choose one to see it on the diagram.")
+        self._fit_summary()
         self.path_chosen.emit(None)
+
+    def _fit_summary(self) -> None:
+        """Give the summary the height its wrapped words need, so a small dock
+        grows (or scrolls the list) instead of cutting the sentence."""
+        width = max(1, self.summary.width())
+        self.summary.setMinimumHeight(self.summary.heightForWidth(width))
+
+    def resizeEvent(self, event: Any) -> None:
+        super().resizeEvent(event)
+        self._fit_summary()
 
     def choose(self, index: int) -> None:
         self.list.setCurrentRow(index)

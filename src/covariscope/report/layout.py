@@ -378,7 +378,7 @@ def _compose(
     band_top = c.y
     c.line("Diagram as drawn", page.left(), body, bold=True, kind="heading")
     legend = (
-        "boxed: in the set chosen · dashed: unmeasured · dotted line: proxy link · "
+        "boxed: in the proposed set · dashed: unmeasured · dotted line: proxy link · "
         "a number stands for that row of the covariate table"
     )
     legend_lines = wrap_text(legend, fonts.metrics(body, italic=True), left_w, 3)

@@ -2,7 +2,7 @@
 
 Used when no richer drawer is given.  Positions come from the canvas; the
 drawing keeps their arrangement, scaled into the rectangle.  Conventions of
-the page: a node in the adjustment set chosen is boxed (a textbook
+the page: a node in the proposed set is boxed (a textbook
 convention), an unmeasured node has a dashed outline and an italic label, the
 exposure and the outcome are bold and rounded, a proxy link is a dotted line
 without a head.  Every label is measured and elided to its box.

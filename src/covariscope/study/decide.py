@@ -21,6 +21,7 @@ from covariscope.analysis.evalue import EValue, evalue_for_fit
 from covariscope.analysis.evidence import Comparison, EvidenceEngine, EvidenceTable, compare
 from covariscope.analysis.fits import Fit
 from covariscope.analysis.graph import DiagramAnalysis, is_sufficient
+from covariscope.analysis.proposal_wording import sufficiency_sentence
 from covariscope.analysis.recommend import Recommendation, pair_r2, recommend_set
 from covariscope.analysis.verdicts import (
     Facts,
@@ -226,9 +227,10 @@ def _recommend(
             "identified by adjustment (see the unmeasured variables and the E-value)."
         )
     if q.proposed and not da.review.sufficient:
+        roles = {c: f.role for c, f in da.roles.items()}
         messages.append(
-            f"The proposed set {format_set(label[p] for p in q.proposed)} is not sufficient: it leaves "
-            f"{da.review.open_paths_text()} backdoor path(s) open."
+            f"The proposed set {format_set(label[p] for p in q.proposed)} is "
+            f"{sufficiency_sentence(da.review, roles, label)}."
         )
     messages.extend(_stopped_searches(da, label))
     return rec

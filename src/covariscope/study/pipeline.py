@@ -20,7 +20,7 @@ from __future__ import annotations
 import time
 from collections.abc import Callable, Hashable, Sequence
 from dataclasses import dataclass, replace
-from typing import Any
+from typing import Any, TypeVar
 
 from covariscope.analysis.claim_tests import ClaimOutcome, DiagramChecks
 from covariscope.analysis.claims import Claim
@@ -32,9 +32,10 @@ from covariscope.analysis.evidence import (
 from covariscope.analysis.fits import effect_measure
 from covariscope.analysis.graph import DiagramAnalysis
 from covariscope.analysis.linear import LinearSummary
+from covariscope.analysis.model_terms import model_terms
 from covariscope.analysis.verdicts import LABELS, VERDICTS, Verdict
 from covariscope.data.loading import LoadedTable
-from covariscope.data.sample import AnalyticSample, CompleteCases
+from covariscope.data.sample import AnalyticSample, CompleteCases, summary_text
 from covariscope.data.sources.base import DataSource
 from covariscope.data.sources.choose import open_source
 from covariscope.data.sources.memory import MemorySource
@@ -177,11 +178,28 @@ def _data_stage(
     plan = _plan(q, da, prepared.bound, messages)
     evidence = _evidence(run, engine, plan, q, report)
     messages.extend(evidence.warnings)
-    if prepared.sample.message:
-        messages.append(prepared.sample.message)
-    return DataStage(
-        prepared.sample, engine, evidence, (design.key, plan), tuple(messages), prepared.spec
+    sample = labelled_sample(prepared.sample, project)
+    if sample.message:
+        messages.append(sample.message)
+    return DataStage(sample, engine, evidence, (design.key, plan), tuple(messages), prepared.spec)
+
+
+_Sample = TypeVar("_Sample", AnalyticSample, CompleteCases)
+
+
+def labelled_sample(sample: _Sample, project: Project) -> _Sample:
+    """The sample with its summary naming columns by the labels of the nodes
+    bound to them (a column no node is bound to keeps its name)."""
+    names = {n.column: n.label for n in project.diagram.nodes if n.column}
+    message = summary_text(
+        sample.rows,
+        sample.used,
+        dict(sample.lost_by_column),
+        sample.lost_to_several,
+        len(sample.columns),
+        names=names,
     )
+    return sample if message == sample.message else replace(sample, message=message)
 
 
 def _engine(run: Run, prepared: Prepared, summary: LinearSummary) -> EvidenceEngine:
@@ -520,6 +538,8 @@ def _whole_stage(
     plan = _plan(q, da, bound, messages)
     evidence = _evidence(run, engine, plan, q, report)
     messages.extend(evidence.warnings)
+    if sample is not None:
+        sample = labelled_sample(sample, project)
     if sample is not None and sample.message:
         messages.append(sample.message)
     return DataStage(sample, engine, evidence, (engine.design.key, plan), tuple(messages))
@@ -591,6 +611,11 @@ def _result(
         pictures=read.pictures,
         modification=read.modification,
         residual_confounding=read.residual,
+        model_terms=(
+            model_terms(data.engine.design)
+            if data.engine is not None and data.evidence is not None
+            else {}
+        ),
         exposure_levels=(
             data.engine.design.exposure_levels
             if data.engine is not None and data.evidence is not None

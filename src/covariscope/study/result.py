@@ -11,6 +11,7 @@ from covariscope.analysis.evidence import EvidenceTable
 from covariscope.analysis.fits import Fit
 from covariscope.analysis.graph import DiagramAnalysis
 from covariscope.analysis.joint_region import CollinearityPicture
+from covariscope.analysis.model_terms import ModelTerm
 from covariscope.analysis.modification import Modification
 from covariscope.analysis.splines import ResidualCheck
 from covariscope.analysis.verdicts import Verdict
@@ -57,6 +58,9 @@ class StudyResult:
     modification: dict[str, Modification] = field(default_factory=dict)
     #: continuous confounders of the recommended model, linear against a spline
     residual_confounding: dict[str, ResidualCheck] = field(default_factory=dict)
+    #: how the exposure and each covariate entered the models (type, levels, spline
+    #: knots), by node; empty without data
+    model_terms: dict[str, ModelTerm] = field(default_factory=dict)
     #: a multi-level categorical exposure's levels as text, the reference first
     #: (empty for a binary or continuous exposure)
     exposure_levels: tuple[str, ...] = ()

@@ -16,7 +16,9 @@ from covariscope.analysis.contrasts import ExposureJoint
 from covariscope.analysis.evidence import Comparison
 from covariscope.analysis.fits import Contrast, Fit
 from covariscope.analysis.modification import Modification
+from covariscope.model.project import Project
 from covariscope.study.result import ESTIMATE_KEYS, StudyResult
+from covariscope.views.model_code import model_code, model_code_json
 
 __all__ = ["study_to_json"]
 
@@ -189,10 +191,14 @@ def collinearity_json(report: CollinearityReport) -> dict[str, Any] | None:
     }
 
 
-def study_to_json(result: StudyResult) -> dict[str, Any]:
+def study_to_json(
+    result: StudyResult, project: Project | None = None, *, data_path: str | None = None
+) -> dict[str, Any]:
     """The ``covariscope check --json`` object (schema: schemas/check.schema.json).
 
-    Fields that do not apply are null, never absent.
+    Fields that do not apply are null, never absent; ``model_code`` needs the
+    ``project`` (its columns and data file; ``data_path`` names another data
+    file) and is null without it.
     """
     out: dict[str, Any] = {}
     review = result.diagram.review
@@ -274,5 +280,8 @@ def study_to_json(result: StudyResult) -> dict[str, Any]:
     out["disagreements"] = list(result.disagreements)
     out["messages"] = list(result.messages)
     out["diagram_checks"] = _checks_json(result)
+    out["model_code"] = (
+        model_code_json(model_code(result, project, data_path)) if project is not None else None
+    )
     cleaned: dict[str, Any] = _clean(out)
     return cleaned

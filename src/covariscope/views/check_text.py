@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 import math
-from collections.abc import Iterable
+from collections.abc import Iterable, Mapping
 
 from covariscope.analysis.claim_wording import (
     CAUTION,
@@ -14,15 +14,25 @@ from covariscope.analysis.claim_wording import (
 )
 from covariscope.analysis.collinearity import CollinearityReport
 from covariscope.analysis.fits import Fit
+from covariscope.analysis.proposal_wording import (
+    PROPOSED_SET,
+    sufficiency_sentence,
+    unnecessary_words,
+)
 from covariscope.analysis.verdicts import format_set
 from covariscope.study.result import ESTIMATE_KEYS, StudyResult
+from covariscope.views.format import term_names
 from covariscope.views.modification import flagged_lines
 from covariscope.views.residual import flagged_residual_lines
 from covariscope.vocabulary import (
     CAUTIONS,
+    CHANGE_SIGN,
+    CHANGE_SIGN_RATIO,
     RATIO_FAMILIES,
+    REVIEW_COLUMN_TERMS,
     ROLE_TERMS,
     VERDICT_TERMS,
+    ReviewColumn,
     change_read,
     role_label,
     verdict_label,
@@ -121,9 +131,16 @@ def format_study_text(result: StudyResult) -> str:
             f"{verdict_label(v.code):<{verdict_w}} {_fmt(change, '+.1f'):>9} "
             f"{_fmt(se, '+.1f'):>10} {_fmt(vif, '.2f'):>7}"
         )
+    ratio = result.family in RATIO_FAMILIES
     lines.append(
         "change % and SE infl %: the covariate added alone to the crude model; "
         "VIF: the covariate in the full model (– when it is not a candidate)."
+    )
+    lines.append(
+        "change %: "
+        + REVIEW_COLUMN_TERMS[ReviewColumn.CHANGE_ADDED].formula_for(ratio)
+        + ". "
+        + (CHANGE_SIGN_RATIO if ratio else CHANGE_SIGN)
     )
     if result.exposure_levels:
         lines.append(
@@ -138,13 +155,10 @@ def format_study_text(result: StudyResult) -> str:
     da = result.diagram
     sets = "; ".join(named(s) for s in da.minimal_sets) or "none (not identified by adjustment)"
     lines.append(f"Minimal sufficient sets: {sets}")
+    roles = {c: r.role for c, r in da.roles.items()}
     lines.append(
-        f"Proposed set: {named(result.proposed)} — "
-        + (
-            "sufficient"
-            if da.review.sufficient
-            else f"NOT sufficient ({da.review.open_paths_text()} open path(s))"
-        )
+        f"{PROPOSED_SET}: {named(result.proposed)} — "
+        + sufficiency_sentence(da.review, roles, result.names)
     )
     if da.review.open_paths:
         shown = da.review.open_paths[:OPEN_PATHS_SHOWN]
@@ -155,7 +169,7 @@ def format_study_text(result: StudyResult) -> str:
     if da.review.harmful:
         lines.append(f"    harmful: {', '.join(nm(n) for n in da.review.harmful)}")
     if da.review.unnecessary:
-        lines.append(f"    unnecessary: {', '.join(nm(n) for n in da.review.unnecessary)}")
+        lines.append(f"    unnecessary: {unnecessary_words(da.review, result.names)}")
     lines.append(f"Recommended set: {named(result.recommended) if result.recommended else 'none'}")
     if result.recommended_reason:
         lines.append(f"    {result.recommended_reason}")
@@ -175,7 +189,7 @@ def format_study_text(result: StudyResult) -> str:
             described.append(f"{named(g)} ({note})")
         lines.append("Collinear groups: " + "; ".join(described))
     if ev is not None and ev.collinearity.condition_indices.size:
-        lines.append(condition_index_line(ev.collinearity))
+        lines.append(condition_index_line(ev.collinearity, result.names))
     lines.append("")
     if ev is not None:
         lines.append("Estimates:")
@@ -220,9 +234,11 @@ def format_study_text(result: StudyResult) -> str:
     return "\n".join(lines) + "\n"
 
 
-def condition_index_line(report: CollinearityReport) -> str:
+def condition_index_line(report: CollinearityReport, names: Mapping[str, str] | None = None) -> str:
     """The full model's condition indices, ascending, and the flagged
-    dimensions with the variables that share them (Belsley, Kuh & Welsch)."""
+    dimensions with the variables that share them, by their labels in
+    ``names`` (node id → label) (Belsley, Kuh & Welsch)."""
+    words = term_names(report.columns, report.nodes, names or {})
     indices = ", ".join(f"{i:.1f}" for i in report.condition_indices.tolist())
     line = f"Condition indices (full model, ascending): {indices}"
     if not report.flagged:
@@ -230,7 +246,8 @@ def condition_index_line(report: CollinearityReport) -> str:
     parts = []
     for f in report.flagged:
         shares = ", ".join(
-            f"{term} {p:.2f}" for term, p in zip(f.columns, f.proportions, strict=True)
+            f"{words.get(term, term)} {p:.2f}"
+            for term, p in zip(f.columns, f.proportions, strict=True)
         )
         parts.append(f"{f.index:.1f} shared by {shares}")
     return (

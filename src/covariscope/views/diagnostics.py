@@ -21,7 +21,7 @@ from covariscope.data.profile import ColumnProfile
 from covariscope.model.project import Project
 from covariscope.study.result import StudyResult
 from covariscope.views.estimates import display_scale
-from covariscope.views.format import DASH, is_number, number, percent
+from covariscope.views.format import DASH, is_number, number, percent, term_names
 from covariscope.views.joint_picture import PictureView, picture_views
 from covariscope.views.modification import ModificationView, modification_view
 from covariscope.views.outcome_settings import outcome_column_in_use
@@ -286,7 +286,7 @@ def node_diagnostics(
             models = _contrast_rows(joint, name, family, _reference(result))
         else:
             models = _model_rows(evidence, ev.added, ev.dropped, name, family)
-        numbers, figures = _collinearity(evidence, ev, name, node_id)
+        numbers, figures = _collinearity(evidence, ev, name, node_id, labels)
         if joint is not None:
             vif_x = number(ev.vif_exposure_added)
             figures.append((f"GVIF^(1/df) of the exposure block in crude + {name}", vif_x))
@@ -342,7 +342,11 @@ def node_diagnostics(
 
 
 def _collinearity(
-    evidence: EvidenceTable, ev: CovariateEvidence, name: str, node_id: str
+    evidence: EvidenceTable,
+    ev: CovariateEvidence,
+    name: str,
+    node_id: str,
+    labels: Mapping[str, str] | None = None,
 ) -> tuple[dict[str, Any], list[tuple[str, str]]]:
     """The VIF family of figures and the condition indices that hold the node."""
     numbers: dict[str, Any] = {
@@ -365,11 +369,13 @@ def _collinearity(
             ("Generalized VIF (Fox & Monette 1992)", number(ev.gvif)),
             ("GVIF^(1/(2·df))", number(ev.gvif_root, 3)),
         ]
-    figures += condition_rows(evidence.collinearity, node_id, name)
+    figures += condition_rows(evidence.collinearity, node_id, name, labels)
     return numbers, figures
 
 
-def condition_rows(report: CollinearityReport, node_id: str, name: str) -> list[tuple[str, str]]:
+def condition_rows(
+    report: CollinearityReport, node_id: str, name: str, labels: Mapping[str, str] | None = None
+) -> list[tuple[str, str]]:
     """The full model's largest condition index, and each flagged dimension
     that holds the node with the terms that share it (Belsley, Kuh & Welsch
     1980: an index of 30 or more shared by two or more terms)."""
@@ -379,9 +385,11 @@ def condition_rows(report: CollinearityReport, node_id: str, name: str) -> list[
     largest = float(report.condition_indices[-1])  # ascending: the largest is last
     rows = [("Largest condition index, full model", f"{number(largest)} ({guide})")]
     holding = [f for f in report.flagged if node_id in f.nodes]
+    words = term_names(report.columns, report.nodes, labels or {})
     for f in holding:
         shares = ", ".join(
-            f"{term} {p:.2f}" for term, p in zip(f.columns, f.proportions, strict=True)
+            f"{words.get(term, term)} {p:.2f}"
+            for term, p in zip(f.columns, f.proportions, strict=True)
         )
         rows.append((f"Flagged dimension, index {f.index:.1f}", f"variance shared by {shares}"))
     if not holding:
@@ -397,8 +405,12 @@ def _own(
     """The covariate's own coefficient in crude + C (one per level when multi-level)."""
     items: list[tuple[str, float, tuple[float, float] | None]]
     if isinstance(coef, dict):
+        # a level's design column "col[level]" reads as "Label [level]"
         levels = ci if isinstance(ci, dict) else {}
-        items = [(k, v, levels.get(k)) for k, v in coef.items()]
+        items = [
+            (f"{node_id} {k[k.index('[') :]}" if "[" in k else k, v, levels.get(k))
+            for k, v in coef.items()
+        ]
     elif coef is not None and is_number(coef):
         items = [(node_id, coef, ci if isinstance(ci, tuple) else None)]
     else:

@@ -4,11 +4,12 @@ the CSV export write a number the same way)."""
 from __future__ import annotations
 
 import math
+from collections.abc import Mapping, Sequence
 from typing import Any
 
 from covariscope.vocabulary import RATIO_FAMILIES
 
-__all__ = ["DASH", "fit_ok", "is_number", "number", "percent", "ratio_family"]
+__all__ = ["DASH", "fit_ok", "is_number", "number", "percent", "ratio_family", "term_names"]
 
 #: Shown where a value does not exist (unmeasured, not fitted, undefined).
 DASH = "—"
@@ -50,3 +51,27 @@ def fit_ok(fit: Any) -> bool:
         and bool(getattr(fit, "ok", False))
         and is_number(getattr(fit, "coef", None))
     )
+
+
+def term_names(
+    columns: Sequence[str], nodes: Sequence[str], names: Mapping[str, str]
+) -> dict[str, str]:
+    """Design column → the words people read: the node's label, with the
+    level after it where a node has several columns (``"Region [north]"``);
+    the intercept stays ``"(intercept)"``.
+
+    >>> term_names(["(intercept)", "age", "reg[n]", "reg[s]"],
+    ...            ["(intercept)", "age", "reg", "reg"], {"age": "Age", "reg": "Region"})
+    {'(intercept)': '(intercept)', 'age': 'Age', 'reg[n]': 'Region [n]', 'reg[s]': 'Region [s]'}
+    """
+    count: dict[str, int] = {}
+    for node in nodes:
+        count[node] = count.get(node, 0) + 1
+    out = {}
+    for column, node in zip(columns, nodes, strict=True):
+        label = names.get(node) or node
+        if count[node] > 1:
+            level = column[column.index("[") :] if "[" in column else f"({column})"
+            label = f"{label} {level}"
+        out[column] = label
+    return out

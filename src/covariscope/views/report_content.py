@@ -22,7 +22,14 @@ from itertools import pairwise
 from typing import Any
 
 from covariscope import __version__
+from covariscope.analysis.adjustment import ProposalReview
 from covariscope.analysis.claim_wording import SHORT_CAUTION, summary_line
+from covariscope.analysis.proposal_wording import (
+    PROPOSED_SET,
+    collider_openers,
+    descendant_reasons,
+    unnecessary_words,
+)
 from covariscope.views.modification import flagged_lines
 from covariscope.views.residual import flagged_residual_lines
 from covariscope.views.review import change_value, role_words
@@ -125,7 +132,7 @@ class CovariateRow:
     node: str
     key: str  # the row's number, also printed in a crowded diagram
     label: str
-    sets: str  # "C" in the set chosen, "R" in the recommended set
+    sets: str  # "P" in the proposed set, "R" in the recommended set
     role: str
     change: str
     se_inflation: str
@@ -147,7 +154,7 @@ class SketchNode:
     measured: bool
     x: float
     y: float
-    adjusted: bool  # in the adjustment set chosen
+    adjusted: bool  # in the proposed set
     role: str
 
 
@@ -223,7 +230,7 @@ def _labels(ids: Sequence[str], label_of: Mapping[str, str]) -> str:
 
 _ESTIMATE_TITLES = (
     ("crude", "Crude"),
-    ("proposed", "Set chosen"),
+    ("proposed", PROPOSED_SET),
     ("recommended", "Recommended set"),
 )
 
@@ -431,8 +438,11 @@ def build_content(result: Any, project: Any, *, today: _dt.date | None = None) -
         lost = _get(sample, "lost_by_column") or _get(sample, "missing_by_column") or {}
         lost = {c: int(v) for c, v in dict(lost).items() if v}
         if rows - used > 0:
+            # people read the diagram's labels; a column no node is bound to keeps its name
+            label_of_column = {n.column: n.label for n in diagram.nodes if n.column}
             detail = ", ".join(
-                f"{c} {v:,}" for c, v in sorted(lost.items(), key=lambda kv: (-kv[1], kv[0]))
+                f"{label_of_column.get(c, c)} {v:,}"
+                for c, v in sorted(lost.items(), key=lambda kv: (-kv[1], kv[0]))
             )
             text = f"Rows lost: {rows - used:,}"
             data_lines.append(text + (f", missing in {detail}." if detail else "."))
@@ -446,12 +456,14 @@ def build_content(result: Any, project: Any, *, today: _dt.date | None = None) -
     review = _get(analysis, "review") or _get(analysis, "proposal")
     sufficient = _get(review, "sufficient")
     chosen = _labels(proposed, label_of)
+    role_of = {c: _get(f, "role") for c, f in roles.items()}
     if sufficient is True:
-        adjustment.append(f"Adjustment set chosen: {chosen} — the diagram says it suffices.")
+        adjustment.append(f"{PROPOSED_SET}: {chosen} — sufficient, the diagram says.")
     elif sufficient is False:
-        adjustment.append(
-            f"Adjustment set chosen: {chosen} — the diagram says it does NOT suffice."
-        )
+        typed = isinstance(review, ProposalReview)
+        reasons = descendant_reasons(review, role_of, label_of) if typed else ()
+        adjustment.append(f"{PROPOSED_SET}: {chosen} — NOT sufficient" + (":" if typed else "."))
+        adjustment.extend(f"{r[0].upper()}{r[1:]}." for r in reasons)
         listed = tuple(_get(review, "open_paths", ()) or ())
         for path in listed:
             adjustment.append(f"Open path: {_path_text(path, arrows, label_of)}")
@@ -461,11 +473,14 @@ def build_content(result: Any, project: Any, *, today: _dt.date | None = None) -
             count = f"{total:,}" if exact else f"at least {total:,}"
             adjustment.append(f"Open paths in all: {count}; {len(listed)} are shown.")
     else:
-        adjustment.append(f"Adjustment set chosen: {chosen}.")
-    for attr, words in (("unnecessary", "Unnecessary in it"), ("harmful", "Harmful in it")):
-        ids = tuple(_get(review, attr, ()) or ())
-        if ids:
-            adjustment.append(f"{words}: {_labels(ids, label_of)}.")
+        adjustment.append(f"{PROPOSED_SET}: {chosen}.")
+    if isinstance(review, ProposalReview) and review.unnecessary:
+        adjustment.append(f"Unnecessary in it: {unnecessary_words(review, label_of)}.")
+    if isinstance(review, ProposalReview):  # the descendants are named above
+        if openers := collider_openers(review):
+            adjustment.append(f"Opens a collider path: {_labels(openers, label_of)}.")
+    elif harmful := tuple(_get(review, "harmful", ()) or ()):
+        adjustment.append(f"Harmful in it: {_labels(harmful, label_of)}.")
     if _get(analysis, "identifiable") is False:
         adjustment.append(
             "No set of measured covariates suffices: the effect is not identified by "
@@ -525,9 +540,14 @@ def build_content(result: Any, project: Any, *, today: _dt.date | None = None) -
         "Note",
     )
     table_caption = (
-        "Set: C = in the set chosen, R = in the recommended set. Change and SE inflation: "
+        "Set: P = in the proposed set, R = in the recommended set. Change and SE inflation: "
         "the covariate added alone to the crude model"
-        + (" (change on the ratio scale)" if ratio else "")
+        + (
+            " (change on the ratio scale, 100 × (ratio with / ratio without − 1): positive = "
+            "a larger ratio with the covariate)"
+            if ratio
+            else " (positive = a larger estimate with the covariate)"
+        )
         + "; VIF: the covariate in the full model."
         + (
             f" For the exposure's levels, the change shown is the contrast against {levels[0]} "
@@ -550,7 +570,7 @@ def build_content(result: Any, project: Any, *, today: _dt.date | None = None) -
                 label=node.label,
                 sets=" ".join(
                     flag
-                    for flag, inside in (("C", node.id in proposed), ("R", node.id in recommended))
+                    for flag, inside in (("P", node.id in proposed), ("R", node.id in recommended))
                     if inside
                 ),
                 role=role_words(_get(facts, "role") if facts is not None else None),

@@ -14,7 +14,7 @@ from covariscope.analysis.modification import Modification
 from covariscope.model.project import Project
 from covariscope.study.result import StudyResult
 from covariscope.views.format import DASH, is_number, number, percent, ratio_family
-from covariscope.vocabulary import change_read, role_label
+from covariscope.vocabulary import REVIEW_COLUMN_TERMS, change_read, role_label
 
 __all__ = [
     "MODIFICATION_CAUTION",
@@ -28,18 +28,8 @@ __all__ = [
     "rows_to_csv",
 ]
 
-#: Column titles, in order (the last one is the checkbox).
-REVIEW_COLUMNS: tuple[str, ...] = (
-    "Covariate",
-    "Role",
-    "Added: change %",
-    "Dropped: change %",
-    "SE inflation %",
-    "VIF",
-    "Modifies effect",
-    "Verdict",
-    "In proposed set",
-)
+#: Column titles, in order (the last one is the checkbox), from the vocabulary.
+REVIEW_COLUMNS: tuple[str, ...] = tuple(t.label for t in REVIEW_COLUMN_TERMS.values())
 
 #: Said beside the effect-modification column and in its tooltips.
 MODIFICATION_CAUTION = (
