@@ -16,7 +16,8 @@ Usage (sizes as the issue asks; scale down on a small machine and say so)::
     python benchmarks/bench_sources.py --large 5e7 --medium 1e7 --covariates 20 \\
         --folder /path/with/space
 
-The generated files are deleted at the end unless ``--keep``.
+The generated files are deleted at the end unless ``--keep``; ``--reuse FOLDER
+--generate-only`` writes them ahead of the timed run (``--reuse FOLDER`` again).
 """
 
 from __future__ import annotations
@@ -39,7 +40,22 @@ _RUN = """
 import json, sys, time
 start = time.perf_counter()
 from covariscope.cli import main
+from covariscope.data.sources.duck_sql import SqlRows
 import io, contextlib
+passes = {{"n": 0, "seconds": 0.0}}
+
+def counted(method):
+    def run(*args, **kwargs):
+        began = time.perf_counter()
+        try:
+            return method(*args, **kwargs)
+        finally:
+            passes["n"] += 1
+            passes["seconds"] += time.perf_counter() - began
+    return run
+
+for name in ("column_stats", "glm_sums", "sandwich_sums"):
+    setattr(SqlRows, name, counted(getattr(SqlRows, name)))
 out = io.StringIO()
 with contextlib.redirect_stdout(out):
     rc = main(["check", {project!r}, "--engine", {engine!r}, "--family", {family!r}, "--json"])
@@ -48,7 +64,8 @@ status = open("/proc/self/status").read()
 peak = int(status.split("VmHWM:")[1].split()[0]) * 1024
 result = json.loads(out.getvalue()) if rc == 0 else None
 coef = result["estimates"]["full"]["coef"] if result else None
-print(json.dumps({{"rc": rc, "wall": wall, "peak": peak, "full": coef}}))
+print(json.dumps({{"rc": rc, "wall": wall, "peak": peak, "full": coef, **{{
+    "passes": passes["n"], "pass_seconds": passes["seconds"]}}}}))
 """
 
 
@@ -118,6 +135,20 @@ def run(project: Path, engine: str, family: str) -> dict[str, float]:
     return figures
 
 
+def _passes(r: dict[str, float], rows: int, full: int) -> None:
+    """The database passes of a DuckDB run, and what they would take at ``full`` rows."""
+    if not r.get("passes"):
+        return
+    each = r["pass_seconds"] / r["passes"]
+    line = f"   {'':9s} {int(r['passes'])} aggregate passes, {each:.2f} s each"
+    if full > rows:
+        line += (
+            f"; at {full:,} rows (passes scale with rows): about "
+            f"{r['passes'] * each * full / rows / 60:.0f} min of passes"
+        )
+    print(line)
+
+
 def _gb(n: float) -> str:
     return f"{n / 2**30:.2f} GB"
 
@@ -139,10 +170,20 @@ def main() -> None:
         help="rows for the medium logistic runs (default: --medium)",
     )
     parser.add_argument("--covariates", type=int, default=20)
+    parser.add_argument("--no-dask", action="store_true", help="skip the Dask runs")
     parser.add_argument("--folder", type=Path, default=None, help="where to write the files")
     parser.add_argument("--keep", action="store_true", help="keep the generated files")
+    parser.add_argument(
+        "--reuse",
+        type=Path,
+        default=None,
+        help="a folder of files kept by an earlier run (--keep): used as they are, never deleted",
+    )
+    parser.add_argument(
+        "--generate-only", action="store_true", help="write the files (with --reuse) and stop"
+    )
     args = parser.parse_args()
-    root = Path(tempfile.mkdtemp(prefix="covariscope-bench-", dir=args.folder))
+    root = args.reuse or Path(tempfile.mkdtemp(prefix="covariscope-bench-", dir=args.folder))
     k = args.covariates
     try:
         print(f"{k} covariates; timings in fresh processes, on whatever load the machine carries.")
@@ -155,37 +196,54 @@ def main() -> None:
         projects: dict[int, Path] = {}
         for rows in sorted(set(sizes.values())):
             start = time.perf_counter()
-            projects[rows] = write_study(root / f"rows{rows}", rows, k)
-            size = (root / f"rows{rows}" / "rows.parquet").stat().st_size
+            folder = root / f"rows{rows}-k{k}"
+            if (folder / "study.json").exists():
+                projects[rows] = folder / "study.json"
+                continue
+            projects[rows] = write_study(folder, rows, k)
+            size = (folder / "rows.parquet").stat().st_size
             print(
                 f"wrote {rows:,} rows ({_gb(size)} Parquet) in {time.perf_counter() - start:.0f} s"
             )
+        if args.generate_only:
+            return
+        done: dict[tuple[int, str, str], dict[str, float]] = {}
+
+        def measured(rows: int, engine: str, family: str) -> dict[str, float]:
+            if (rows, engine, family) not in done:
+                done[rows, engine, family] = run(projects[rows], engine, family)
+            return done[rows, engine, family]
+
         print("\n1. Large file, DuckDB")
         for family in ("linear", "logistic"):
             rows = sizes[("large", family)]
             frame = rows * (k + 3) * 8
-            r = run(projects[rows], "duckdb", family)
+            r = measured(rows, "duckdb", family)
             print(
                 f"   {family:9s} {rows:>12,} rows  wall {r['wall']:7.1f} s  peak {_gb(r['peak'])}  "
                 f"in-memory size {_gb(frame)}  ratio {r['peak'] / frame:.3f} (target ≤ 0.25)"
             )
+            _passes(r, rows, int(args.large))
         print("\n2. Medium file: DuckDB and Dask (2 local workers) against in memory")
         for family in ("linear", "logistic"):
             rows = sizes[("medium", family)]
-            base = run(projects[rows], "memory", family)
+            base = measured(rows, "memory", family)
             print(
                 f"   {family:9s} {rows:>12,} rows  memory  wall {base['wall']:7.1f} s  peak {_gb(base['peak'])}"
             )
             for engine in ("duckdb", "dask"):
-                r = run(projects[rows], engine, family)
+                if engine == "dask" and args.no_dask:
+                    continue
+                r = measured(rows, engine, family)
                 same = abs(r["full"] - base["full"]) <= 1e-8 * abs(base["full"])
                 print(
                     f"   {'':9s} {'':>12s}       {engine:6s}  wall {r['wall']:7.1f} s  peak {_gb(r['peak'])}  "
                     f"time ratio {r['wall'] / base['wall']:.2f}  memory ratio {r['peak'] / base['peak']:.2f}  "
                     f"same estimate: {same}"
                 )
+                _passes(r, rows, rows)
     finally:
-        if not args.keep:
+        if not args.keep and args.reuse is None:
             shutil.rmtree(root, ignore_errors=True)
 
 

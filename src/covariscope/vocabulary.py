@@ -39,6 +39,7 @@ __all__ = [
     "CORRECTION_TERMS",
     "DEFAULT_CLAIM_LIMIT",
     "DEFAULT_THRESHOLDS",
+    "ENGINE_TERMS",
     "FAMILY_TERMS",
     "KIND_TERMS",
     "NONCOLLAPSIBLE_FAMILIES",
@@ -52,6 +53,7 @@ __all__ = [
     "ColumnTerm",
     "ColumnType",
     "Correction",
+    "Engine",
     "Family",
     "FamilyTerm",
     "Kind",
@@ -689,6 +691,50 @@ CAUTION_BRIEF = (
     "not rules, and unmeasured confounding is possible."
 )
 
+
+# -- data engines (DESIGN §3 "Data sources") --------------------------------------------
+
+
+class Engine(StrEnum):
+    """What reads a study's data: "auto" picks memory or DuckDB by the file's size."""
+
+    AUTO = "auto"
+    MEMORY = "memory"
+    DUCKDB = "duckdb"
+    DASK = "dask"
+
+
+ENGINE_TERMS: Mapping[Engine, Term] = MappingProxyType(
+    {
+        Engine.AUTO: Term(
+            "auto",
+            "Automatic: in memory when the file fits, else read where it lies",
+            "Automatic",
+            "Loads the file into memory unless it would take more than 40% of the memory "
+            "available; then DuckDB reads it where it lies.",
+        ),
+        Engine.MEMORY: Term(
+            "memory",
+            "In memory (pandas)",
+            "In memory",
+            "Every row is loaded; the fastest for files that fit in memory.",
+        ),
+        Engine.DUCKDB: Term(
+            "duckdb",
+            "DuckDB, reading the file where it lies",
+            "DuckDB",
+            "The file (Parquet or CSV) is queried where it lies and never loaded whole; "
+            "every number is a sum the database computes.",
+        ),
+        Engine.DASK: Term(
+            "dask",
+            "Dask, summing on a cluster",
+            "Dask",
+            "A Parquet file is summed on a Dask cluster (its address, or a local one); "
+            'needs pip install "covariscope[cluster]".',
+        ),
+    }
+)
 
 # -- small shared rules ------------------------------------------------------------------
 

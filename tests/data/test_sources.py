@@ -333,3 +333,16 @@ def test_a_missing_dask_names_the_extra(monkeypatch: pytest.MonkeyPatch, tmp_pat
 
     with pytest.raises(DataError, match=r"covariscope\[cluster\]"):
         DaskSource(tmp_path / "x.parquet")
+
+
+def test_cox_out_of_memory_says_it_reads_the_rows_into_memory(generated_file: Path) -> None:
+    """Risk sets are sums over rows sorted by time: the review says the rows were read."""
+    duck = DuckSource(generated_file)
+    try:
+        result = run_study(generated_project(generated_file, "cox"), source=duck, family="cox")
+    finally:
+        duck.close()
+    assert result.evidence is not None
+    said = [m for m in result.messages if "Cox models need every row" in m]
+    assert said
+    assert "duckdb read them into memory" in said[0]

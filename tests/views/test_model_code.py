@@ -139,3 +139,28 @@ def test_names_are_quoted_where_a_language_needs_it(column, python, r, stata):
     assert py_name(column) == python
     assert r_name(column) == r
     assert stata_name(column) == stata
+
+
+def test_python_snippet_reproduces_each_contrast_of_a_multilevel_exposure(capsys):
+    from pathlib import Path
+
+    demo = Path(__file__).resolve().parents[2] / "demo_data" / "demo_levels_project.json"
+    project = load_project(demo)
+    result = run_study(project)
+    for key in ("recommended", "proposed"):
+        fit, code = result.estimates[key], model_code(result, project)[key]
+        assert code is not None
+        assert 'relevel(factor(dust_level), ref = "low")' in code.formula
+        namespace: dict = {}
+        exec(compile(code.python, "<model code>", "exec"), namespace)
+        names = [namespace["fit"].model.exog_names[i] for i in namespace["rows"]]
+        got = {
+            n.split("[T.")[1].rstrip("]"): (e, s)
+            for n, e, s in zip(names, namespace["estimate"], namespace["se"], strict=True)
+        }
+        assert set(got) == {c.level for c in fit.contrasts} == {"high", "middle"}
+        for c in fit.contrasts:
+            assert _same_to_print(float(got[c.level][0]), c.coef), (key, c.level)
+            assert _same_to_print(float(got[c.level][1]), c.se), (key, c.level)
+        assert 'startsWith(rownames(s), "relevel(factor(dust_level), ref = \\"low\\")")' in code.r
+    capsys.readouterr()

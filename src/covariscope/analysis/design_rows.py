@@ -23,7 +23,7 @@ from covariscope.analysis.design import (
     level_texts,
 )
 from covariscope.analysis.fits import FAMILIES
-from covariscope.analysis.rows import ColumnStats, RowReducer, column_stats, merge_column_stats
+from covariscope.analysis.rows import ColumnStats, RowReducer, reduce_column_stats
 from covariscope.errors import DataError
 
 __all__ = ["make_row_design"]
@@ -99,7 +99,7 @@ def make_row_design(
             f"The {family} family cannot be fitted from row sums; its rows must be in memory."
         )
     names, spans = _spans(exposure, covariates)
-    stats: ColumnStats = rows.reduce(column_stats, merge_column_stats)
+    stats = reduce_column_stats(rows)
     n = stats.summary.n
     infinite = [
         names[j] for j in range(len(names)) if not np.isfinite([stats.low[j], stats.high[j]]).all()

@@ -28,6 +28,7 @@ __all__ = [
     "aliased_columns",
     "design_problem",
     "fit_from_params",
+    "glm_cautions",
     "inverse_from_cholesky",
     "newton_done",
     "rank_message",
@@ -290,3 +291,27 @@ def fit_from_params(
         n_params=len(params),
         term_coefs=term_coefs,
     )
+
+
+def glm_cautions(family: str, events: float, p: int, *, binary: bool, mu_high: float) -> list[str]:
+    """The cautions a logistic or Poisson fit carries: fitted risks above 1 (a
+    log-link model of a 0/1 outcome), and few events per covariate parameter
+    (Peduzzi et al. 1996).  ``events``: events (Poisson) or outcomes in the rarer
+    class (logistic); ``p``: parameters with the intercept.
+
+    >>> glm_cautions("logistic", 12.0, 3, binary=True, mu_high=0.9)
+    ['Only 12 outcomes in the rarer class for 2 covariate parameters (fewer than 10 per parameter, Peduzzi et al. 1996): estimates may be unstable.']
+    """
+    said: list[str] = []
+    if family == "risk_ratio" and binary and mu_high > 1.0 + 1e-9:
+        said.append(
+            f"Some fitted risks exceed 1 (largest {mu_high:.3g}); the risk "
+            "ratios remain usable but the fitted risks are not."
+        )
+    if p > 1 and events / (p - 1) < EVENTS_PER_PARAMETER:
+        said.append(
+            f"Only {events:g} {'events' if family == 'risk_ratio' else 'outcomes in the rarer class'} "
+            f"for {p - 1} covariate parameters (fewer than {EVENTS_PER_PARAMETER} per parameter, "
+            "Peduzzi et al. 1996): estimates may be unstable."
+        )
+    return said

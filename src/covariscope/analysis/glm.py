@@ -32,12 +32,12 @@ import numpy.typing as npt
 
 from covariscope.analysis.fits import Fit
 from covariscope.analysis.fitting_common import (
-    EVENTS_PER_PARAMETER,
     LEFT_BLANK,
     SINGULAR_INFORMATION,
     aliased_columns,
     design_problem,
     fit_from_params,
+    glm_cautions,
     rank_message,
     too_few_rows,
 )
@@ -453,20 +453,9 @@ def fit_glm_path(
         # HC0 sandwich H⁻¹ (Σ rᵢ² xᵢxᵢ') H⁻¹, both parts from the last Newton
         # pass (the step left moves no linear predictor by more than ETA_TOL).
         cov = cov @ path.meat @ cov
-    if family == "risk_ratio":
-        binary = bool(np.all((y == 0) | (y == 1)))
-        if binary and path.mu_high > 1.0 + 1e-9:
-            warns.append(
-                f"Some fitted risks exceed 1 (largest {path.mu_high:.3g}); the risk "
-                "ratios remain usable but the fitted risks are not."
-            )
+    binary = family == "risk_ratio" and bool(np.all((y == 0) | (y == 1)))
     events = float(np.sum(y)) if family == "risk_ratio" else float(min(np.sum(y), n - np.sum(y)))
-    if p > 1 and events / (p - 1) < EVENTS_PER_PARAMETER:
-        warns.append(
-            f"Only {events:g} {'events' if family == 'risk_ratio' else 'outcomes in the rarer class'} "
-            f"for {p - 1} covariate parameters (fewer than {EVENTS_PER_PARAMETER} per parameter, "
-            "Peduzzi et al. 1996): estimates may be unstable."
-        )
+    warns.extend(glm_cautions(family, events, p, binary=binary, mu_high=path.mu_high))
     fit = fit_from_params(
         family,
         terms,

@@ -24,7 +24,6 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
-from functools import partial
 
 import numpy as np
 import numpy.typing as npt
@@ -33,10 +32,10 @@ from covariscope.analysis.fits import Fit
 from covariscope.analysis.fitting_common import (
     ALIAS_TOL,
     DIVERGE_SD,
-    EVENTS_PER_PARAMETER,
     SINGULAR_INFORMATION,
     aliased_columns,
     fit_from_params,
+    glm_cautions,
     inverse_from_cholesky,
     newton_done,
     rank_message,
@@ -46,10 +45,8 @@ from covariscope.analysis.glm import EXTREME_MU
 from covariscope.analysis.rows import (
     GlmSums,
     RowReducer,
-    SandwichSums,
     glm_pass,
-    merge_sandwich_sums,
-    sandwich_sums,
+    sandwich_pass,
 )
 
 __all__ = ["RowOutcome", "fit_glm_rows"]
@@ -211,20 +208,9 @@ def fit_glm_rows(
         # HC0 sandwich, both parts at the last Newton point (as the in-memory fit).
         assert path.last is not None
         cov = _sandwich(reducer, columns, path.last, cov)
-        if outcome.binary and s.mu_high > 1.0 + 1e-9:
-            warns.append(
-                f"Some fitted risks exceed 1 (largest {s.mu_high:.3g}); the risk "
-                "ratios remain usable but the fitted risks are not."
-            )
     total = outcome.mean * n
-    events = total if family == "risk_ratio" else min(total, n - total)
-    events = float(round(events, 6))
-    if p > 1 and events / (p - 1) < EVENTS_PER_PARAMETER:
-        warns.append(
-            f"Only {events:g} {'events' if family == 'risk_ratio' else 'outcomes in the rarer class'} "
-            f"for {p - 1} covariate parameters (fewer than {EVENTS_PER_PARAMETER} per parameter, "
-            "Peduzzi et al. 1996): estimates may be unstable."
-        )
+    events = float(round(total if family == "risk_ratio" else min(total, n - total), 6))
+    warns.extend(glm_cautions(family, events, p, binary=outcome.binary, mu_high=s.mu_high))
     fit = fit_from_params(
         family,
         terms,
@@ -242,6 +228,4 @@ def fit_glm_rows(
 
 
 def _sandwich(reducer: RowReducer, columns: tuple[int, ...], params: Array, cov: Array) -> Array:
-    fn = partial(sandwich_sums, columns=columns, params=params)
-    sums: SandwichSums = reducer.reduce(fn, merge_sandwich_sums)
-    return cov @ sums.meat @ cov
+    return cov @ sandwich_pass(reducer, columns, params).meat @ cov

@@ -22,7 +22,7 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 from functools import partial
-from typing import Any, Protocol, TypeVar
+from typing import Any, Protocol, TypeVar, runtime_checkable
 
 import numpy as np
 import numpy.typing as npt
@@ -33,14 +33,18 @@ from covariscope.analysis.linear import LinearSummary, linear_summary, merge_sum
 __all__ = [
     "ColumnStats",
     "GlmSums",
+    "LinearSummary",
     "RowBatch",
     "RowReducer",
     "SandwichSums",
+    "SummingReducer",
     "column_stats",
     "glm_sums",
     "merge_column_stats",
     "merge_glm_sums",
     "merge_sandwich_sums",
+    "reduce_column_stats",
+    "sandwich_pass",
     "sandwich_sums",
 ]
 
@@ -73,6 +77,31 @@ class RowReducer(Protocol):
 
     def reduce(self, fn: Any, merge: Any) -> Any:
         """``merge`` of ``fn(batch)`` over every batch (``fn`` of an empty batch when none)."""
+
+
+@runtime_checkable
+class SummingReducer(Protocol):
+    """A :class:`RowReducer` that computes the three standard sums where the rows lie.
+
+    An analytic database sums faster, and in far less memory, than it can
+    hand its rows out: such a source computes :func:`column_stats`,
+    :func:`glm_sums` and :func:`sandwich_sums` itself, as aggregate queries,
+    with the same definitions (the sums below say what each one means).
+    """
+
+    def reduce(self, fn: Any, merge: Any) -> Any:
+        """As :meth:`RowReducer.reduce`, for any other function."""
+
+    def column_stats(self) -> ColumnStats:
+        """:func:`column_stats` over every row."""
+
+    def glm_sums(
+        self, columns: tuple[int, ...], params: Array, family: str, ylogy: bool
+    ) -> GlmSums:
+        """:func:`glm_sums` over every row."""
+
+    def sandwich_sums(self, columns: tuple[int, ...], params: Array) -> SandwichSums:
+        """:func:`sandwich_sums` over every row."""
 
 
 # ------------------------------------------------------------------ column statistics
@@ -222,8 +251,31 @@ def merge_sandwich_sums(a: SandwichSums, b: SandwichSums) -> SandwichSums:
     return SandwichSums(a.meat + b.meat)
 
 
+def reduce_column_stats(reducer: RowReducer) -> ColumnStats:
+    """:func:`column_stats` over every row (one pass, or the source's own aggregate)."""
+    if isinstance(reducer, SummingReducer):
+        return reducer.column_stats()
+    result: ColumnStats = reducer.reduce(column_stats, merge_column_stats)
+    return result
+
+
+def sandwich_pass(reducer: RowReducer, columns: tuple[int, ...], params: Array) -> SandwichSums:
+    """:func:`sandwich_sums` over every row."""
+    params = np.asarray(params, dtype=np.float64)
+    if isinstance(reducer, SummingReducer):
+        return reducer.sandwich_sums(columns, params)
+    result: SandwichSums = reducer.reduce(
+        partial(sandwich_sums, columns=columns, params=params), merge_sandwich_sums
+    )
+    return result
+
+
 def glm_pass(reducer: RowReducer, columns: tuple[int, ...], params: Array, family: str) -> GlmSums:
     """One reduction of :func:`glm_sums` over every row."""
+    if isinstance(reducer, SummingReducer):
+        return reducer.glm_sums(
+            columns, np.asarray(params, dtype=np.float64), family, family == "risk_ratio"
+        )
     fn = partial(
         glm_sums,
         columns=columns,

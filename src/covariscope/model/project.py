@@ -36,7 +36,13 @@ from covariscope.errors import CovariscopeError, DiagramError, ProjectFileError
 from covariscope.model.diagram import KINDS, Diagram, Node
 from covariscope.model.files import read_project_bytes, remove_stale_temporaries
 from covariscope.model.project_json import finite_number, parse_project_json
-from covariscope.vocabulary import DEFAULT_CLAIM_LIMIT, DEFAULT_THRESHOLDS, Correction, Family
+from covariscope.vocabulary import (
+    DEFAULT_CLAIM_LIMIT,
+    DEFAULT_THRESHOLDS,
+    Correction,
+    Engine,
+    Family,
+)
 
 __all__ = [
     "ENGINE_CHOICES",
@@ -110,7 +116,7 @@ class AnalysisSettings:
 
 
 #: The values of ``analysis.engine``.
-ENGINE_CHOICES = ("auto", "memory", "duckdb", "dask")
+ENGINE_CHOICES = tuple(e.value for e in Engine)
 
 
 @dataclass(frozen=True)

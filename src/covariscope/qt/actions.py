@@ -132,6 +132,7 @@ class WindowActions:
         self.copy_code["all"].setShortcut(QKeySequence("Ctrl+Shift+C"))
         self.outcome_columns = a("&Outcome columns…", w.edit_outcome_columns)
         self.thresholds = a("&Thresholds…", w.edit_thresholds)
+        self.engine = a("Data &engine…", w.data.edit_engine)
         self.rerun = a("&Run the analysis again", w.runner.run_now, _Std.Refresh)
         # no Esc shortcut: Esc belongs to the canvas (leave a mode, drop a rename);
         # while work runs the status bar shows a Cancel button
@@ -230,7 +231,9 @@ class WindowActions:
         analysis = bar.addMenu("&Analysis")
         family = analysis.addMenu("Model &family")
         family.addActions(self.family_group.actions())
-        analysis.addActions([self.outcome_columns, self.thresholds, self.rerun, self.cancel])
+        analysis.addActions(
+            [self.outcome_columns, self.thresholds, self.engine, self.rerun, self.cancel]
+        )
         analysis.addSeparator()
         code = analysis.addMenu("Copy the model as &code")
         code.addActions(list(self.copy_code.values()))

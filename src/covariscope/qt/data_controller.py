@@ -1,6 +1,13 @@
 """The data side of the window: loading in the background, the SHA-256
 check, relocating a missing file, bindings, column types and reference
-levels, and columns dropped onto the canvas."""
+levels, columns dropped onto the canvas, and the engine that reads the file.
+
+A file that fits is loaded into memory and profiled whole.  A file read
+where it lies (DuckDB, Dask: chosen in the project's settings, or
+automatically for a file too large for memory) is only opened in the
+background; its columns appear at once and their profiles arrive one by one
+(:class:`~covariscope.qt.profiling.ProfileRunner`), with progress and cancel.
+"""
 
 from __future__ import annotations
 
@@ -11,13 +18,16 @@ from typing import TYPE_CHECKING, Any
 
 from PySide6.QtCore import QObject
 
+from covariscope.data.sources.batched import BatchSource
 from covariscope.errors import CovariscopeError
 from covariscope.model.commands import Macro
 from covariscope.model.project import DataRef
+from covariscope.qt.profiling import ProfileRunner
 from covariscope.qt.project_io import DATA_FILTER
 from covariscope.qt.worker import LoadRunner
 from covariscope.views.commands import SetData, SetSettings, bind_column
 from covariscope.views.data_panel import matching_bindings
+from covariscope.vocabulary import ENGINE_TERMS, Engine
 
 if TYPE_CHECKING:
     from covariscope.qt.main_window import MainWindow
@@ -37,10 +47,40 @@ class DataController(QObject):
         self.loader.progress.connect(lambda f: window.show_progress("Loading data", f))
         self.loader.loaded.connect(self._loaded)
         self.loader.failed.connect(self._failed)
+        self.profiler = ProfileRunner(self)
+        self.profiler.profiled.connect(self._profiled)
+        self.profiler.progress.connect(
+            lambda f, column: window.show_progress(f"Profiling {column}", f)
+        )
+        self.profiler.finished.connect(self._profiles_done)
+        self.profiler.failed.connect(self._failed)
+        #: column → (type setting, reference setting) its profile was made with
+        self._profiled_with: dict[str, tuple[Any, Any]] = {}
+        #: the engine and scheduler the data in hand were opened with
+        self._engine: tuple[str, str] = ("auto", "")
 
     @property
     def loading(self) -> bool:
-        return self.loader.running
+        return self.loader.running or self.profiler.running
+
+    @property
+    def source(self) -> BatchSource | None:
+        """The source when the rows are read where they lie, else None (in memory)."""
+        return self.table if isinstance(self.table, BatchSource) else None
+
+    def cancel(self) -> str:
+        """Stop loading or profiling; what was stopped, in words ("" when nothing ran)."""
+        if self.loader.running:
+            self.loader.cancel()
+            return "Loading cancelled."
+        if self.profiler.running:
+            self.profiler.cancel()
+            done = len(self.profiles)
+            return (
+                f"Profiling cancelled: {done} of {len(self.columns())} columns profiled. "
+                "The analysis still counts every row of the columns it uses."
+            )
+        return ""
 
     # -- loading ---------------------------------------------------------------------
     def _data_folder(self) -> str:
@@ -62,6 +102,7 @@ class DataController(QObject):
 
     def forget(self) -> None:
         self.loader.cancel()
+        self.profiler.cancel()
         self.table = None
         self.profiles = {}
         self.w.runner.table = None
@@ -86,20 +127,28 @@ class DataController(QObject):
             ref = DataRef(os.path.abspath(found), project.data.sha256 if project.data else None)
             self.w.push(SetData(project, ref, "Relocate the data file"))
             path = Path(found)
+        self.profiler.cancel()
         self.table = None
         a = project.analysis
         self._settings = (dict(a.column_types), dict(a.reference_levels))
+        self._engine = (a.engine, a.scheduler)
         self.w.show_progress("Loading data", 0.0)
         self.loader.load(str(path))
         return True
 
     def _load_and_profile(self, path: str, progress: Any, cancel: Any) -> Any:
         """Load the file and profile its columns, in the background: the GUI
-        thread then finds every profile in the study cache."""
+        thread then finds every profile in the study cache.  A file to be read
+        where it lies is only opened here (its profiles come column by column)."""
         from covariscope.data.loading import load_table
+        from covariscope.data.sources.choose import choose_engine, open_source
         from covariscope.study.prepare import table_profiles
         from covariscope.study.source import TableSource
 
+        engine, scheduler = self._engine
+        if choose_engine(Path(path), engine) != "memory":
+            progress(0.5, "Opening the file where it lies")
+            return open_source(path, engine, scheduler=scheduler)
         table = load_table(path, progress=lambda f: progress(0.9 * f, ""), cancel=cancel)
         progress(0.9, "Profiling the columns")
         types, references = self._settings
@@ -134,17 +183,56 @@ class DataController(QObject):
             self.w.io.update_title()
         self.table = table
         self.w.runner.table = table
+        self.profiles = {}
+        self._profiled_with = {}
         self.reprofile()
         self.bind_matching()
         self.w.refresh_panels()
-        self.w.show_message(f"Loaded {table.path.name}: {table.rows:,} rows")
+        if self.source is not None:
+            engine = ENGINE_TERMS[Engine(self.source.engine)].short
+            self.w.show_message(
+                f"Opened {table.path.name}: {table.rows:,} rows, read where they lie by "
+                f"{engine}; profiling the columns"
+            )
+        else:
+            self.w.show_message(f"Loaded {table.path.name}: {table.rows:,} rows")
         self.w.request_analysis()
+        self.w.show_engine()
+
+    def _profiled(self, found: dict[str, Any]) -> None:
+        self.profiles = {**self.profiles, **found}
+        self.w.data_panel.refresh(self.w.project, self.table, self.profiles)
+
+    def _profiles_done(self, done: int) -> None:
+        self.w.hide_progress()
+        self.w.show_engine()
+        self.w.refresh_panels()
+        self.w.request_analysis()
+
+    def _reprofile_source(self, source: BatchSource) -> None:
+        """Profile again, in the background, the columns whose type or reference changed."""
+        a = self.w.project.analysis
+        wanted = {c: (a.column_types.get(c), a.reference_levels.get(c)) for c in source.columns}
+        stale = tuple(c for c in source.columns if self._profiled_with.get(c, ()) != wanted[c])
+        if not stale:
+            return
+        self._profiled_with.update({c: wanted[c] for c in stale})
+        self.w.show_progress("Profiling the columns", 0.0)
+        self.profiler.profile(source, stale, dict(a.column_types), dict(a.reference_levels))
 
     def reprofile(self) -> None:
         """Profiles for the data panel, from the study cache: only a column whose
-        type or reference level changed is profiled again."""
+        type or reference level changed is profiled again.  A change of engine
+        loads the data again with the engine now chosen."""
         if self.table is None:
             self.profiles = {}
+            return
+        a = self.w.project.analysis
+        if (a.engine, a.scheduler) != self._engine:
+            self.start_load()
+            return
+        if self.source is not None:
+            self._reprofile_source(self.source)
             return
         from covariscope.study.prepare import table_profiles
         from covariscope.study.source import TableSource
@@ -159,7 +247,40 @@ class DataController(QObject):
             self.w.show_message(str(exc))
 
     def columns(self) -> list[str]:
+        if self.source is not None:
+            return list(self.source.columns)
         return [str(c) for c in self.table.frame.columns] if self.table is not None else []
+
+    def plot_frame(self, result: Any) -> Any:
+        """The rows the diagnostics plots draw: every loaded row, or, for a file
+        read where it lies, the analytic sample's random sample of rows."""
+        if self.source is None:
+            return self.table.frame if self.table is not None else None
+        sample = getattr(result, "sample", None)
+        return sample.frame if sample is not None else None
+
+    def edit_engine(self) -> None:
+        """Ask which engine reads the data (saved in the project, one undo step)."""
+        from covariscope.qt.settings_dialogs import EngineDialog
+
+        a = self.w.project.analysis
+        dialog = EngineDialog(a.engine, a.scheduler, self.w)
+        if dialog.exec():
+            self.set_engine(*dialog.values())
+
+    def set_engine(self, engine: str, scheduler: str) -> bool:
+        """Read the data with ``engine`` from now on; the data are loaded again."""
+        a = self.w.project.analysis
+        if (engine, scheduler) == (a.engine, a.scheduler):
+            return False
+        return self.w.push(
+            SetSettings(
+                self.w.project,
+                f"Read the data with the {engine} engine",
+                engine=engine,
+                scheduler=scheduler,
+            )
+        )
 
     # -- binding ---------------------------------------------------------------------
     def bind_matching(self) -> int:
@@ -188,7 +309,7 @@ class DataController(QObject):
     def set_type(self, column: str, kind: str) -> bool:
         types = dict(self.w.project.analysis.column_types)
         if kind:
-            if self.table is not None and column in self.table.frame:
+            if self.source is None and self.table is not None and column in self.table.frame:
                 from covariscope.data.profile import validate_type
 
                 try:

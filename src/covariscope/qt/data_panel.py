@@ -19,6 +19,7 @@ from PySide6.QtWidgets import (
     QWidget,
 )
 
+from covariscope.data.sources.batched import BatchSource
 from covariscope.qt.tables import filling
 from covariscope.views.data_panel import (
     COLUMN_MIME,
@@ -27,6 +28,7 @@ from covariscope.views.data_panel import (
     DATA_COLUMNS,
     ColumnRow,
     column_rows,
+    file_summary,
     unbound_summary,
 )
 
@@ -122,13 +124,18 @@ class DataPanel(QWidget):
         return list(self._rows)
 
     def refresh(self, project: Any, table: Any, profiles: Any) -> None:
-        columns = list(table.frame.columns) if table is not None else []
+        """``table``: the loaded table, a source that reads the file where it lies, or None."""
+        where = table.engine if isinstance(table, BatchSource) else None
+        if table is None:
+            columns = []
+        elif where is not None:
+            columns = list(table.columns)
+        else:
+            columns = list(table.frame.columns)
         self._rows = column_rows(project, columns, profiles)
         self._node_ids = [n.id for n in project.diagram.nodes]
         if table is not None:
-            self.file_label.setText(
-                f"{table.path.name} — {table.rows:,} rows, {len(columns)} columns"
-            )
+            self.file_label.setText(file_summary(table.path.name, table.rows, len(columns), where))
             self.file_label.setToolTip(str(table.path))
         elif project.data is not None:
             self.file_label.setText(f"{project.data.path} (not loaded)")

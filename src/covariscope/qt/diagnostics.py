@@ -694,7 +694,16 @@ class EndpointDialog(NodeDialog):
                 ax.hist(values.to_numpy(dtype=float), bins=40, color="#56B4E9", edgecolor="#0072B2")
                 ax.set_ylabel("rows")
             ax.set_xlabel(s.column)
-            ax.set_title(f"Distribution of {s.label}", fontsize=10)
+            title = f"Distribution of {s.label}"
+            sample = getattr(result, "sample", None)
+            # only a sample read from a source that keeps its rows holds a random sample
+            if (
+                sample is not None
+                and getattr(sample, "frame_is_sample", False)
+                and frame is sample.frame
+            ):
+                title += f"\nrandom sample of {len(values):,} of {sample.used:,} rows"
+            ax.set_title(title, fontsize=10)
         self.canvas.draw_idle()
 
 

@@ -157,6 +157,8 @@ class MainWindow(QMainWindow):
 
         self.state_label = QLabel("No analysis yet")
         self.rows_label = QLabel("")
+        self.engine_label = QLabel("")
+        self.engine_label.setObjectName("engineLabel")
         self.error_label = QLabel("")
         self.error_label.setObjectName("lastError")
         # What is being done ("Fitting model 12 of 42, pass 2 over the rows")
@@ -174,7 +176,13 @@ class MainWindow(QMainWindow):
         bar = self.statusBar()
         for label in (self.state_label, self.rows_label):
             label.setObjectName("statusField")
-        permanent = (self.state_label, self.rows_label, self.progress_label, self.progress)
+        permanent = (
+            self.state_label,
+            self.rows_label,
+            self.engine_label,
+            self.progress_label,
+            self.progress,
+        )
         for w in (*permanent, self.cancel_button):
             bar.addPermanentWidget(w)
         bar.addWidget(self.error_label, 1)
@@ -354,6 +362,7 @@ class MainWindow(QMainWindow):
         else:
             self.rows_label.setText("No data loaded")
         self._set_state("Analysis up to date")
+        self.show_engine()
         recomputed = getattr(result, "recomputed", None)
         if recomputed is not None:
             # a tooltip, not a status message: a long message would widen the window
@@ -490,8 +499,7 @@ class MainWindow(QMainWindow):
 
     def outcome_columns_dialog(self) -> OutcomeColumnsDialog:
         """The outcome-columns dialog for the project's family (not shown)."""
-        columns = list(self.data.table.frame.columns) if self.data.table is not None else []
-        return OutcomeColumnsDialog(self.project, [str(c) for c in columns], self)
+        return OutcomeColumnsDialog(self.project, self.data.columns(), self)
 
     def edit_outcome_columns(self) -> None:
         dialog = self.outcome_columns_dialog()
@@ -529,8 +537,7 @@ class MainWindow(QMainWindow):
 
     def cancel_work(self) -> None:
         if self.data.loading:
-            self.data.loader.cancel()
-            self.show_message("Loading cancelled.")
+            self.show_message(self.data.cancel())
         if self.runner.running or self.runner.pending:
             self.runner.cancel()
             self._set_state("Analysis cancelled — edit or press F5 to run again")
@@ -566,8 +573,9 @@ class MainWindow(QMainWindow):
         if dialog.node_id not in self.project.diagram:
             dialog.close()
             return
-        frame = self.data.table.frame if self.data.table is not None else None
-        dialog.refresh(self.project, self.result, self.data.profiles, frame)
+        dialog.refresh(
+            self.project, self.result, self.data.profiles, self.data.plot_frame(self.result)
+        )
 
     def _save_note(self, node_id: str, text: str) -> None:
         if node_id in self.project.diagram and self.project.diagram.node(node_id).note != text:
@@ -632,6 +640,22 @@ class MainWindow(QMainWindow):
     def set_last_error(self, text: str) -> None:
         self.error_label.setText(f"Last problem: {text}" if text else "")
         self.error_label.setToolTip(text)
+
+    def show_engine(self) -> None:
+        """Name the engine that reads the data, and the memory the program holds now."""
+        from covariscope.data.sources.memuse import resident_bytes
+        from covariscope.views.data_panel import engine_status
+
+        if self.data.table is None:
+            self.engine_label.setText("")
+            self.engine_label.setToolTip("")
+            return
+        source = self.data.source
+        engine = source.engine if source is not None else "memory"
+        self.engine_label.setText(engine_status(engine, resident_bytes()))
+        self.engine_label.setToolTip(
+            source.status() if source is not None else "Every row is loaded into memory."
+        )
 
     def show_progress(self, text: str, fraction: float) -> None:
         self.progress_label.setText(text)
@@ -701,6 +725,7 @@ class MainWindow(QMainWindow):
         save_layout(self)
         self.runner.shutdown(30_000)
         self.data.loader.shutdown(30_000)
+        self.data.profiler.shutdown(30_000)
         self.io.shutdown()
         self.project.diagram.unsubscribe(self._model_changed)
         self.project.unsubscribe(self._project_changed)

@@ -1,19 +1,22 @@
-"""The thresholds editor (guides, not rules)."""
+"""The thresholds editor (guides, not rules) and the choice of the engine that reads the data."""
 
 from __future__ import annotations
 
+from PySide6.QtCore import Qt
 from PySide6.QtWidgets import (
+    QComboBox,
     QDialog,
     QDialogButtonBox,
     QDoubleSpinBox,
     QFormLayout,
     QLabel,
+    QLineEdit,
     QWidget,
 )
 
-from covariscope.vocabulary import DEFAULT_THRESHOLDS
+from covariscope.vocabulary import DEFAULT_THRESHOLDS, ENGINE_TERMS, Engine
 
-__all__ = ["THRESHOLD_LABELS", "ThresholdsDialog"]
+__all__ = ["THRESHOLD_LABELS", "EngineDialog", "ThresholdsDialog"]
 
 THRESHOLD_LABELS: dict[str, tuple[str, float, float, int]] = {
     # key: (label, minimum, maximum, decimals)
@@ -65,3 +68,51 @@ class ThresholdsDialog(QDialog):
 
     def values(self) -> dict[str, float]:
         return {key: float(spin.value()) for key, spin in self.spins.items()}
+
+
+class EngineDialog(QDialog):
+    """Which engine reads the project's data (saved in the project)."""
+
+    def __init__(self, engine: str, scheduler: str, parent: QWidget | None = None) -> None:
+        super().__init__(parent)
+        self.setWindowTitle("Data engine")
+        form = QFormLayout(self)
+        note = QLabel(
+            "Every engine gives the same numbers. A file larger than memory is read where it "
+            "lies: the rows stay on disk and the database sums over them."
+        )
+        note.setWordWrap(True)
+        form.addRow(note)
+        self.engine = QComboBox()
+        for e in Engine:
+            self.engine.addItem(ENGINE_TERMS[e].label, e.value)
+            self.engine.setItemData(
+                self.engine.count() - 1, ENGINE_TERMS[e].explanation, Qt.ItemDataRole.ToolTipRole
+            )
+        self.engine.setCurrentIndex(max(self.engine.findData(engine), 0))
+        form.addRow("Engine", self.engine)
+        self.explanation = QLabel()
+        self.explanation.setWordWrap(True)
+        form.addRow(self.explanation)
+        self.scheduler = QLineEdit(scheduler)
+        self.scheduler.setPlaceholderText("tcp://host:8786 (empty: a local cluster)")
+        form.addRow("Dask scheduler", self.scheduler)
+        self.engine.currentIndexChanged.connect(self._sync)
+        buttons = QDialogButtonBox(
+            QDialogButtonBox.StandardButton.Ok | QDialogButtonBox.StandardButton.Cancel
+        )
+        buttons.accepted.connect(self.accept)
+        buttons.rejected.connect(self.reject)
+        form.addRow(buttons)
+        self.setMinimumWidth(460)
+        self._sync()
+
+    def _sync(self) -> None:
+        chosen = Engine(self.engine.currentData())
+        self.explanation.setText(ENGINE_TERMS[chosen].explanation)
+        self.scheduler.setEnabled(chosen is Engine.DASK)
+
+    def values(self) -> tuple[str, str]:
+        """The engine chosen, and the scheduler's address (kept only for Dask)."""
+        engine = str(self.engine.currentData())
+        return engine, self.scheduler.text().strip() if engine == Engine.DASK else ""

@@ -43,8 +43,11 @@ def study_run(
     def run(
         project: Project, table: Any, progress: Callable[..., Any], cancel: Callable[..., Any]
     ) -> Any:
+        from covariscope.data.sources.batched import BatchSource
         from covariscope.study import run_study
 
+        if isinstance(table, BatchSource):  # rows read where they lie (DuckDB, Dask)
+            return run_study(project, source=table, progress=progress, cancel=cancel, cache=cache)
         return run_study(project, table=table, progress=progress, cancel=cancel, cache=cache)
 
     return run

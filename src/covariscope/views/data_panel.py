@@ -9,7 +9,7 @@ from typing import Any
 
 from covariscope.data.loading import FORMAT_LABELS, SUPPORTED_SUFFIXES
 from covariscope.views.format import DASH, is_number
-from covariscope.vocabulary import ColumnType
+from covariscope.vocabulary import ENGINE_TERMS, ColumnType, Engine
 
 __all__ = [
     "COLUMN_MIME",
@@ -19,6 +19,8 @@ __all__ = [
     "ColumnRow",
     "column_rows",
     "data_file_filter",
+    "engine_status",
+    "file_summary",
     "matching_bindings",
     "nodes_without_column",
     "unbound_summary",
@@ -70,6 +72,28 @@ class ColumnRow:
             self.bound_to,
             self.reference_text or self.reference,
         )
+
+
+def file_summary(name: str, rows: int, columns: int, engine: str | None) -> str:
+    """The data panel's first line: the file, its size, and where its rows are read.
+
+    >>> file_summary("cohort.parquet", 50_000_000, 23, "duckdb")
+    'cohort.parquet — 50,000,000 rows, 23 columns; read where it lies (DuckDB)'
+    """
+    text = f"{name} — {rows:,} rows, {columns} columns"
+    if engine is None or engine == Engine.MEMORY:
+        return text
+    return f"{text}; read where it lies ({ENGINE_TERMS[Engine(engine)].short})"
+
+
+def engine_status(engine: str, resident: int | None) -> str:
+    """The status bar's words for the engine in use and the memory the program holds.
+
+    >>> engine_status("duckdb", 420 * 2**20)
+    'DuckDB · 420 MB'
+    """
+    name = ENGINE_TERMS[Engine(engine)].short
+    return name if resident is None else f"{name} · {resident / 2**20:,.0f} MB"
 
 
 def column_rows(

@@ -18,19 +18,18 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Any, Protocol
 
-from covariscope.analysis.design import Design, TermSpec
+from covariscope.analysis.design import Design, TermCoding, TermSpec, make_design
+from covariscope.analysis.design_rows import make_row_design
+from covariscope.analysis.rows import RowReducer
 from covariscope.data.profile import ColumnProfile
 from covariscope.data.sample import AnalyticSample
-from covariscope.data.sources.coding import ColumnUse
+from covariscope.data.sources.coding import ColumnUse, coerce_frame
+from covariscope.vocabulary import ENGINE_TERMS, Engine
 
-__all__ = ["ENGINES", "DataSource", "DesignRequest", "ProgressFn"]
+__all__ = ["ENGINES", "DataSource", "DesignRequest", "ProgressFn", "frame_design", "row_design"]
 
 #: The engines a study can read its data with: name → plain description.
-ENGINES: dict[str, str] = {
-    "memory": "in memory (pandas)",
-    "duckdb": "DuckDB, reading the file where it lies",
-    "dask": "Dask, summing on a cluster",
-}
+ENGINES: dict[str, str] = {e.value: ENGINE_TERMS[e].label for e in Engine if e is not Engine.AUTO}
 
 ProgressFn = Callable[[float, str], None]
 
@@ -89,3 +88,38 @@ class DataSource(Protocol):
 
     def design(self, request: DesignRequest, messages: list[str]) -> Design:
         """The design of the comparison models on the complete cases of ``request``'s columns."""
+
+
+def frame_design(frame: Any, request: DesignRequest) -> Design:
+    """The design of rows held in memory (``frame``), coerced as every engine coerces them."""
+    return make_design(
+        coerce_frame(frame, request.uses),
+        exposure=request.exposure,
+        covariates=request.covariates,
+        outcome=request.outcome,
+        family=request.family,
+        time=request.time,
+        event=request.event,
+        offset=request.offset,
+        exposure_node=request.exposure_node,
+    )
+
+
+def row_design(
+    rows: RowReducer,
+    request: DesignRequest,
+    exposure: TermCoding,
+    covariates: Mapping[str, TermCoding],
+    key: str,
+) -> Design:
+    """The design of rows that stay with their source, its terms coded as planned."""
+    assert request.outcome is not None
+    return make_row_design(
+        rows,
+        exposure=exposure,
+        covariates=covariates,
+        outcome=request.outcome,
+        family=request.family,
+        exposure_node=request.exposure_node,
+        source_key=key,
+    )

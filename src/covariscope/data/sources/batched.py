@@ -22,17 +22,15 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from covariscope.analysis.design import Design, TermCoding, make_design, plan_term
-from covariscope.analysis.design_rows import make_row_design
+from covariscope.analysis.design import Design, TermCoding, plan_term
 from covariscope.analysis.rows import RowBatch
 from covariscope.data.loading import file_sha256
 from covariscope.data.profile import LEVEL_TYPES, ColumnProfile, match_level, profile_table
 from covariscope.data.sample import AnalyticSample, check_known, no_rows_error, summary_text
-from covariscope.data.sources.base import DesignRequest, ProgressFn
+from covariscope.data.sources.base import DesignRequest, ProgressFn, frame_design, row_design
 from covariscope.data.sources.coding import (
     BatchPlan,
     code_batch,
-    coerce_frame,
     level_values,
     merge_levels,
 )
@@ -274,17 +272,8 @@ class BatchSource(ABC):
                 "Cox models need every row of the analytic sample in memory (the risk sets are "
                 f"sums over rows sorted by time); {self.engine} read them into memory for this study."
             )
-            frame = self.reduce_frames(needed, _identity, _concat, complete=True)
-            return make_design(
-                coerce_frame(frame, request.uses),
-                exposure=request.exposure,
-                covariates=request.covariates,
-                outcome=request.outcome,
-                family=request.family,
-                time=request.time,
-                event=request.event,
-                offset=request.offset,
-                exposure_node=request.exposure_node,
+            return frame_design(
+                self.reduce_frames(needed, _identity, _concat, complete=True), request
             )
         levels = self.reduce_frames(
             needed, partial(level_values, uses=request.uses), merge_levels, complete=True
@@ -300,14 +289,8 @@ class BatchSource(ABC):
         plan = BatchPlan(
             request.uses, (exposure, *covariates.values()), request.outcome, request.offset
         )
-        return make_row_design(
-            _Rows(self, needed, plan),
-            exposure=exposure,
-            covariates=covariates,
-            outcome=request.outcome,
-            family=request.family,
-            exposure_node=request.exposure_node,
-            source_key=self.source_key(needed),
+        return row_design(
+            _Rows(self, needed, plan), request, exposure, covariates, self.source_key(needed)
         )
 
 

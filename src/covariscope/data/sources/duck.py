@@ -10,6 +10,7 @@ size, so the memory a pass holds does not grow with the file.
 from __future__ import annotations
 
 import tempfile
+import threading
 from pathlib import Path
 from typing import Any
 
@@ -98,13 +99,14 @@ class DuckSource(BatchSource):
         self._tmp = tempfile.TemporaryDirectory(prefix="covariscope-duckdb-")
         config["temp_directory"] = self._tmp.name
         self._con = duckdb.connect(":memory:", config=config)
-        # Its own progress bar would print into the output of `check --json`.
-        self._con.sql("SET enable_progress_bar = false")
+        # Sums need no row order; kept, it makes a parallel scan buffer its output.
+        self._con.sql("SET preserve_insertion_order = false")
+        self._local = threading.local()
         self.batch_rows = batch_rows
         self._from = self._table_function(path)
         try:
-            described = self._con.sql(f"DESCRIBE SELECT * FROM {self._from}").fetchall()
-            rows = int(self._con.sql(f"SELECT COUNT(*) FROM {self._from}").fetchall()[0][0])
+            described = self.db().sql(f"DESCRIBE SELECT * FROM {self._from}").fetchall()
+            rows = int(self.db().sql(f"SELECT COUNT(*) FROM {self._from}").fetchall()[0][0])
         except duckdb.Error as exc:
             raise DataError(
                 f"{path.name} could not be read by DuckDB ({exc}). Check the file, or load it "
@@ -115,6 +117,16 @@ class DuckSource(BatchSource):
             # The types found on the whole file are pinned: later queries skip that scan.
             self._from = self._table_function(path, self.column_types)
         super().__init__(origin or path, tuple(self.column_types), rows)
+
+    def db(self) -> Any:
+        """This thread's cursor on the database (a connection is not shared between threads)."""
+        cursor = getattr(self._local, "cursor", None)
+        if cursor is None:
+            cursor = self._con.cursor()
+            # Its own progress bar would print into the output of `check --json`.
+            cursor.sql("SET enable_progress_bar = false")
+            self._local.cursor = cursor
+        return cursor
 
     def _table_function(self, path: Path, types: dict[str, str] | None = None) -> str:
         if path.suffix.lower() in (".parquet", ".pq"):
@@ -137,7 +149,7 @@ class DuckSource(BatchSource):
     def reduce_frames(
         self, columns: tuple[str, ...], fn: Any, merge: Any, *, complete: bool
     ) -> Any:
-        reader = self._con.sql(self._select(columns, complete)).to_arrow_reader(self.batch_rows)
+        reader = self.db().sql(self._select(columns, complete)).to_arrow_reader(self.batch_rows)
         result: Any = None
         seen = False
         for batch in reader:
@@ -158,7 +170,7 @@ class DuckSource(BatchSource):
             query = (
                 f"SELECT * FROM ({query}) USING SAMPLE reservoir({int(rows)} ROWS) REPEATABLE (7)"
             )
-        frame: pd.DataFrame = self._con.sql(query).df()
+        frame: pd.DataFrame = self.db().sql(query).df()
         if complete:
             frame = frame.dropna()
         return frame.reset_index(drop=True)

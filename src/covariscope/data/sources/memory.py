@@ -6,12 +6,11 @@ from collections.abc import Mapping
 from pathlib import Path
 from typing import Any
 
-from covariscope.analysis.design import Design, make_design
+from covariscope.analysis.design import Design
 from covariscope.data.loading import LoadedTable
 from covariscope.data.profile import ColumnProfile, profile_table
 from covariscope.data.sample import AnalyticSample, analytic_sample
-from covariscope.data.sources.base import DesignRequest, ProgressFn
-from covariscope.data.sources.coding import coerce_frame
+from covariscope.data.sources.base import DesignRequest, ProgressFn, frame_design
 
 __all__ = ["MemorySource"]
 
@@ -75,15 +74,4 @@ class MemorySource:
         sample = self._sample
         if sample is None or sample.columns != needed:
             sample = self.analytic_sample(needed)
-        work = coerce_frame(sample.frame, request.uses)
-        return make_design(
-            work,
-            exposure=request.exposure,
-            covariates=request.covariates,
-            outcome=request.outcome,
-            family=request.family,
-            time=request.time,
-            event=request.event,
-            offset=request.offset,
-            exposure_node=request.exposure_node,
-        )
+        return frame_design(sample.frame, request)
