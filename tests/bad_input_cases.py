@@ -162,10 +162,20 @@ CONTRADICTIONS = [
     ("keep-member-outside-group", _keep("c|d", "x"), "is not in its group"),
     ("keep-group-unknown-node", _keep("c|zz", "c"), '"zz"'),
     ("keep-group-names-exposure", _keep("c|x", "c"), "not a covariate"),
+    (
+        "data-path-is-the-project",
+        _edited(lambda d: d.__setitem__("data", {"path": "bad.json"})),
+        "names the project file itself",
+    ),
+    (
+        "arrows-to-a-refused-node-named-once",
+        _edited(lambda d: d["diagram"]["nodes"][0].__setitem__("kind", "mystery")),
+        '"mystery" is not one of',
+    ),
 ]
 SIZES = [
-    ("too-many-nodes", _many("nodes", 2_500), "2,504 nodes"),
-    ("too-many-arrows", _many("arrows", 20_001), "20,004 arrows"),
+    ("too-many-nodes", _many("nodes", 100_000), "100,004 nodes"),
+    ("too-many-arrows", _many("arrows", 100_001), "100,004 arrows"),
 ]
 
 PROJECT_CASES = NUMBERS + NESTING + SOURCES + CONTRADICTIONS + SIZES

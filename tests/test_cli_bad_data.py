@@ -1,9 +1,13 @@
 """Every class of bad data or degenerate design: a plain message, never an
 internal error, never a wrong figure.
 
-Refusals (the question cannot be answered) end in one line and exit status
-2; problems confined to one covariate or setting leave the rest of the
-study running and say what was left out.
+The exit status follows the classes documented in ``covariscope.cli``:
+REFUSED (the bound data cannot estimate the effect: same column, an outcome
+the exposure determines, out-of-range or stray values in the exposure or
+outcome, an outcome with one value or not coded for its family) ends in one
+line and exit status 2; SAID (a problem confined to one covariate or one
+setting) leaves the rest of the study running, exit status 0, and names
+what was left out in the messages.
 """
 
 from __future__ import annotations
@@ -82,6 +86,42 @@ REFUSED = [
     ("tiny-spread-exposure", _with(x=lambda f: f.x * 1e-200), {}, "not constant"),
     ("constant-linear-outcome", _with(y=lambda f: 5.0), {}, "single value 5"),
     ("stray-text-in-exposure", _with(x=_stray), {}, "'n.a.' in data row(s) 18"),
+    (
+        "all-ones-logistic-outcome",
+        _with(b=lambda f: 1),
+        {"family": "logistic", "columns": {"logistic": {"outcome": "b"}}},
+        "single value 1",
+    ),
+    (
+        "all-zeros-risk-ratio-outcome",
+        _with(b=lambda f: 0),
+        {"family": "risk_ratio", "columns": {"risk_ratio": {"outcome": "b"}}},
+        "single value 0",
+    ),
+    (
+        "logistic-outcome-not-binary",
+        _with(b=lambda f: (f.y > 0).astype(int) + (f.y > 1).astype(int)),
+        {"family": "logistic", "columns": {"logistic": {"outcome": "b"}}},
+        "coded 0/1",
+    ),
+    (
+        "huge-cox-time",
+        _with(t=lambda f: (f.y - f.y.min() + 1) * 1e300, e=lambda f: 1),
+        {"family": "cox", "columns": {"cox": {"time": "t", "event": "e"}}},
+        "as large as",
+    ),
+    (
+        "huge-logistic-exposure",
+        _with(x=lambda f: f.x * 1e300, b=lambda f: (f.y > 0).astype(int)),
+        {"family": "logistic", "columns": {"logistic": {"outcome": "b"}}},
+        "as large as",
+    ),
+    (
+        "tiny-risk-ratio-exposure",
+        _with(x=lambda f: f.x * 1e-200, b=lambda f: (f.y > 0).astype(int)),
+        {"family": "risk_ratio", "columns": {"risk_ratio": {"outcome": "b"}}},
+        "not constant",
+    ),
 ]
 
 
@@ -117,12 +157,6 @@ SAID = [
         _with(o=lambda f: 1.0, b=lambda f: (f.y > 0).astype(int)),
         {"family": "logistic", "columns": {"logistic": {"outcome": "b", "offset": "o"}}},
         "offset",
-    ),
-    (
-        "all-ones-logistic-outcome",
-        _with(b=lambda f: 1),
-        {"family": "logistic", "columns": {"logistic": {"outcome": "b"}}},
-        "single value 1",
     ),
 ]
 
@@ -224,3 +258,37 @@ def test_parquet_nested_columns_are_left_out_and_named(tmp_path, capsys):
     messages = json.loads(out)["messages"]
     assert any("'tags'" in m and "left out" in m for m in messages), messages
     assert any("'visit'" in m for m in messages)
+
+
+@pytest.mark.parametrize("family", ["linear", "logistic"])
+def test_a_covariate_rescaled_as_the_message_says_matches_statsmodels(tmp_path, capsys, family):
+    """A covariate scaled by 1e-200 is left out, named, and called not constant;
+    multiplied back by 1e200 as the message suggests, the full model's
+    exposure estimate is statsmodels' on the same rescaled data (reference:
+    statsmodels OLS and Logit)."""
+    import statsmodels.api as sm
+
+    frame = _frame()
+    frame["b"] = (frame.y > frame.y.median()).astype(int)
+    columns = {"logistic": {"outcome": "b"}} if family == "logistic" else {}
+    tiny = frame.assign(c=frame.c * 1e-200)
+    (tmp_path / "tiny").mkdir()
+    code = main(
+        ["check", "--json", str(_project(tmp_path / "tiny", tiny, family=family, columns=columns))]
+    )
+    out, _ = capsys.readouterr()
+    assert code == 0
+    said = json.loads(out)["messages"]
+    assert any('column "c"' in m and "it is not constant" in m for m in said), said
+    rescaled = tiny.assign(c=tiny.c * 1e200)
+    (tmp_path / "fixed").mkdir()
+    path = _project(tmp_path / "fixed", rescaled, family=family, columns=columns)
+    assert main(["check", "--json", str(path)]) == 0
+    full = json.loads(capsys.readouterr()[0])["estimates"]["full"]
+    design = sm.add_constant(rescaled[["x", "c"]])
+    if family == "linear":
+        ref = sm.OLS(rescaled.y, design).fit()
+    else:
+        ref = sm.Logit(rescaled.b, design).fit(disp=0)
+    assert full["coef"] == pytest.approx(ref.params["x"], rel=1e-6)
+    assert full["se"] == pytest.approx(ref.bse["x"], rel=1e-5)

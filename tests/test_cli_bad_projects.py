@@ -27,3 +27,5 @@ def test_check_refuses_a_bad_project_in_one_line(tmp_path, capsys, build, expect
     assert len(err.strip().splitlines()) == 1
     assert "internal error" not in err
     assert "Traceback" not in out + err
+    # a refused node is named once, not again by every arrow that touches it
+    assert "unknown node" not in err

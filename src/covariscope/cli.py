@@ -1,8 +1,29 @@
 """Command line: ``gui`` (the default), ``check``, ``report`` and ``demo``.
 
-Every user problem ends in one line on standard error that says what and
-where, and exit status 2; no traceback is ever shown.  An unexpected failure
-is written to a log file and summarised in one line (exit status 1).
+Exit status, by class of problem (no traceback is ever shown):
+
+- **0, a result** (possibly with warnings).  The effect of the exposure on
+  the outcome was estimated, or no data were asked for (no data file, or the
+  exposure or outcome not bound yet: the diagram alone is analysed).  A part
+  left out is said in the messages (the notes of the text output, the
+  ``messages`` list in ``--json``): a covariate whose column cannot be used
+  (stray text, values out of range, bound to the exposure's or outcome's
+  column), a setting that does not apply (an offset outside the rate-ratio
+  family), data columns no node uses that cannot be read (nested Parquet),
+  aliased covariates (the ``review`` verdict).  A closed output pipe is
+  also 0 (quiet, as command-line tools do).
+- **2, the question cannot be answered**: one line on standard error naming
+  the problem and its fix, nothing on standard output.  The project file is
+  unreadable, too large, or contradicts itself; the data file is missing,
+  not a regular file, or damaged (NUL bytes, a tail of zero bytes, growing
+  while read); the bound data cannot estimate the effect (exposure and
+  outcome in one column, an outcome the exposure determines, stray text or
+  out-of-range values in the exposure or outcome, an outcome with a single
+  value, an outcome not coded for the family); an output that cannot be
+  written or would overwrite something the project reads.
+- **1**: an internal error, written to the per-user log and summarised in
+  one line.
+- **130**: interrupted.
 """
 
 from __future__ import annotations
@@ -35,7 +56,9 @@ def _parser() -> argparse.ArgumentParser:
     parser = argparse.ArgumentParser(
         prog="covariscope",
         description="Decide, covariate by covariate, what to adjust for and why.",
-        epilog="Run 'covariscope PROJECT' to open a project in the window.",
+        epilog="Run 'covariscope PROJECT' to open a project in the window. Exit status: 0 a "
+        "result (parts left out are said in the messages), 2 the question cannot be answered "
+        "(one line says why and the fix), 1 an internal error.",
     )
     parser.add_argument("--version", action="version", version=f"covariscope {__version__}")
     sub = parser.add_subparsers(dest="command")
@@ -167,6 +190,10 @@ def _run(args: argparse.Namespace) -> tuple[Any, Any]:
         close = getattr(source, "close", None)
         if close is not None:
             close()
+    if result.data_problem:
+        # The data named cannot estimate the effect asked about: a question
+        # that cannot be answered, not a result with a warning (see EXIT STATUS).
+        raise CovariscopeError(result.data_problem)
     return project, result
 
 

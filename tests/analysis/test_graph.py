@@ -358,8 +358,6 @@ def test_searches_over_very_many_paths_stop_at_their_budget_and_say_so() -> None
     review = review_proposal(big, "x", "y", ["p"])
     assert review.unsearched == ("p",)
     assert review.harmful == ()
-    assert classify_covariates(big, "x", "y")["p"].search_stopped
     assert classify_covariates(big, "x", "y")["p"].role == "precision"
     small = _ladder(5)  # 32 paths: the searches finish
     assert review_proposal(small, "x", "y", ["p"]).unsearched == ()
-    assert not classify_covariates(small, "x", "y")["p"].search_stopped

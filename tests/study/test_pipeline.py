@@ -424,5 +424,5 @@ def test_a_graph_search_that_stops_at_its_budget_is_said_in_the_messages() -> No
     project.analysis.proposed = ["p"]
     result = run_study(project)
     stopped = [m for m in result.messages if "work budget" in m]
-    assert len(stopped) == 2  # the proposal review's and the roles' searches
+    assert len(stopped) == 1  # the proposal review's search
     assert result.diagram.review.unsearched == ("p",)

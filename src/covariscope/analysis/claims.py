@@ -39,6 +39,7 @@ from functools import partial
 import networkx as nx
 
 from covariscope.analysis.constructs import merge_diagram, merge_every_link
+from covariscope.analysis.separation import minimal_d_separator
 from covariscope.vocabulary import DEFAULT_CLAIM_LIMIT, Correction
 from covariscope.vocabulary import Untestable as UntestableReason
 
@@ -128,7 +129,7 @@ SeparatorMemo = Callable[[Hashable, Callable[[], frozenset[str] | None]], frozen
 
 
 def _separator(M: nx.DiGraph, ca: str, cb: str, allowed: set[str]) -> frozenset[str] | None:
-    found = nx.find_minimal_d_separator(M, ca, cb, restricted=allowed)
+    found = minimal_d_separator(M, ca, cb, restricted=allowed)
     return None if found is None else frozenset(found)
 
 
@@ -243,7 +244,7 @@ def _needs(
     construct_of: Mapping[str, str],
 ) -> tuple[str, ...]:
     """Variables without data in one minimal separating set (any set is allowed)."""
-    found = nx.find_minimal_d_separator(M, ca, cb)
+    found = minimal_d_separator(M, ca, cb)
     if found is None:  # cannot happen for non-adjacent nodes of a DAG
         return ()
     lacking = set(found) - set(with_data)

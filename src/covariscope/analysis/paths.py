@@ -141,12 +141,24 @@ def skeleton(M: nx.DiGraph) -> _Adjacency:
 
 
 def ancestors_of(M: nx.DiGraph, nodes: Iterable[str]) -> set[str]:
-    """The nodes and all their ancestors."""
-    out: set[str] = set()
-    for node in nodes:
-        if node not in out:
-            out.add(node)
-            out |= nx.ancestors(M, node)
+    """The nodes and all their ancestors (one search from all of them at
+    once, so linear in the size of the graph however many nodes are given)."""
+    return _closure(M.predecessors, nodes)
+
+
+def descendants_of(M: nx.DiGraph, nodes: Iterable[str]) -> set[str]:
+    """The nodes and all their descendants (one search, linear)."""
+    return _closure(M.successors, nodes)
+
+
+def _closure(step: Callable[[str], Iterable[str]], nodes: Iterable[str]) -> set[str]:
+    out = set(nodes)
+    stack = list(out)
+    while stack:
+        for w in step(stack.pop()):
+            if w not in out:
+                out.add(w)
+                stack.append(w)
     return out
 
 
@@ -159,7 +171,13 @@ def path_colliders(M: nx.DiGraph, nodes: tuple[str, ...]) -> tuple[str, ...]:
     )
 
 
-def _reaches(adj: _Adjacency, start: str, target: str, blocked: Collection[str]) -> bool:
+def _reaches(
+    adj: _Adjacency,
+    start: str,
+    target: str,
+    blocked: Collection[str],
+    nodes_ok: Collection[str] | None = None,
+) -> bool:
     if start == target:
         return True
     seen = {start}
@@ -169,7 +187,7 @@ def _reaches(adj: _Adjacency, start: str, target: str, blocked: Collection[str])
         for w in adj[v]:
             if w == target:
                 return True
-            if w not in seen and w not in blocked:
+            if w not in seen and w not in blocked and (nodes_ok is None or w in nodes_ok):
                 seen.add(w)
                 stack.append(w)
     return False
@@ -207,12 +225,16 @@ def _walk(
     """
     path = [X]
     on_path = {X}
-    sorted_adj = {v: sorted(ws) for v, ws in adj.items()}
+    # Neighbours are sorted only where the walk goes (sorting them all would
+    # cost the whole graph on every call).
+    sorted_adj: dict[str, list[str]] = {}
 
     def ok(w: str) -> bool:
         return nodes_ok is None or w in nodes_ok
 
     def extend(v: str) -> Iterator[tuple[str, ...]]:
+        if v not in sorted_adj:
+            sorted_adj[v] = sorted(adj[v])
         for w in sorted_adj[v]:
             if w in on_path or not ok(w):
                 continue
@@ -221,8 +243,7 @@ def _walk(
             if w == Y:
                 yield (*path, Y)
                 continue
-            blocked = on_path if nodes_ok is None else on_path | (set(adj) - set(nodes_ok))
-            if not _reaches(adj, w, Y, blocked):
+            if not _reaches(adj, w, Y, on_path, nodes_ok):
                 continue
             path.append(w)
             on_path.add(w)
@@ -236,7 +257,7 @@ def _walk(
         if p == Y:
             yield (X, Y)
             continue
-        if not _reaches(adj, p, Y, on_path):
+        if not _reaches(adj, p, Y, on_path, nodes_ok):
             continue
         path.append(p)
         on_path.add(p)
@@ -469,6 +490,7 @@ def open_path_with_collider(
     Y: str,
     Z: frozenset[str],
     wanted: Collection[str],
+    adj: _Adjacency | None = None,
     *,
     budget: int | None = SEARCH_BUDGET,
 ) -> PathSearch:
@@ -476,9 +498,10 @@ def open_path_with_collider(
 
     Open paths are walked in a fixed order; with a ``budget`` at most that
     many are examined, and a search that stops there without a find says so
-    (``complete`` False).
+    (``complete`` False).  ``adj`` is ``skeleton(M)`` when the caller asks
+    many times of one graph.
     """
-    adj = skeleton(M)
+    adj = skeleton(M) if adj is None else adj
     anZ = ancestors_of(M, Z)
     nodes_ok = ancestors_of(M, {X, Y} | Z)
 

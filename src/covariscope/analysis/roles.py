@@ -4,12 +4,20 @@ from __future__ import annotations
 
 from collections import deque
 from dataclasses import dataclass
+from typing import Any
 
 import networkx as nx
 
 from covariscope.analysis.adjustment import without_exposure_arrows
 from covariscope.analysis.constructs import MergedDiagram, merge_diagram
-from covariscope.analysis.paths import PathListing, ancestors_of, listing, open_path_with_collider
+from covariscope.analysis.paths import (
+    PathListing,
+    ancestors_of,
+    descendants_of,
+    listing,
+    open_path_with_collider,
+    skeleton,
+)
 from covariscope.vocabulary import Role
 
 __all__ = [
@@ -120,6 +128,20 @@ def confounding_nodes(M: nx.DiGraph, X: str, Y: str) -> set[str]:
     return nodes - {X, Y}
 
 
+def _below_colliders(Gx: nx.DiGraph, X: str) -> set[str]:
+    """Nodes at or below a node with two or more parents once X's arrows out
+    are removed: only these can open a backdoor path by being adjusted.
+
+    With ``linked to X`` and ``linked to Y without X's arrows`` this is a
+    necessary condition for the collider role (an opened path runs X … K1,
+    a collider-free stretch into the first collider, and Kr … Y, one out of
+    the last, both ancestors of the adjusted node); it spares the path
+    search for every covariate that cannot pass it.
+    """
+    merging = [v for v in Gx if v != X and Gx.in_degree(v) >= 2]
+    return descendants_of(Gx, merging)
+
+
 def _paths_through(unadjusted: PathListing) -> dict[str, list[tuple[int, bool]]]:
     through: dict[str, list[tuple[int, bool]]] = {}
     for i, path in enumerate(unadjusted.paths):
@@ -142,12 +164,10 @@ _EXPLAIN = {
 }
 
 
-def _opens_path(
-    M: nx.DiGraph, X: str, Y: str, c: str, anc_c: set[str], unsearched: set[str]
-) -> bool:
+def _opens_path(M: nx.DiGraph, X: str, Y: str, c: str, adj: Any, unsearched: set[str]) -> bool:
     """Whether adjusting for ``c`` alone opens a backdoor path blocked at a
     collider (``c`` joins ``unsearched`` when the search stopped at its budget)."""
-    search = open_path_with_collider(M, X, Y, frozenset({c}), anc_c)
+    search = open_path_with_collider(M, X, Y, frozenset({c}), ancestors_of(M, {c}), adj)
     if not search.complete:
         unsearched.add(c)
     return search.path is not None
@@ -165,8 +185,12 @@ def roles_on(md: MergedDiagram, X: str, Y: str, unadjusted: PathListing) -> dict
     anc_y_no_x = ancestors_of(M.subgraph(set(M) - {X}), {Y})
     # Marginal d-connection: two nodes are d-connected given nothing exactly
     # when they share an ancestor (one may be the ancestor of the other).
-    anc_x_self = anc_x | {X}
-    anc_y_gx = ancestors_of(Gx, {Y})
+    # c shares an ancestor with X exactly when c descends from X or from one
+    # of X's ancestors: one search over the graph, not one per covariate.
+    linked_x_all = descendants_of(M, anc_x | {X})
+    linked_y_gx_all = descendants_of(Gx, ancestors_of(Gx, {Y}))
+    may_collide = _below_colliders(Gx, X)
+    adj = skeleton(M)
     confounding = confounding_nodes(M, X, Y)
     through = _paths_through(unadjusted)
     unsearched: set[str] = set()
@@ -174,9 +198,8 @@ def roles_on(md: MergedDiagram, X: str, Y: str, unadjusted: PathListing) -> dict
     for c, members in md.members.items():
         if c in (X, Y):
             continue
-        anc_c = ancestors_of(M, {c})
-        linked_x = bool(anc_c & anc_x_self)
-        linked_y_gx = bool(ancestors_of(Gx, {c}) & anc_y_gx)
+        linked_x = c in linked_x_all
+        linked_y_gx = c in linked_y_gx_all
         if c in desc_x and c in anc_y:
             role = "mediator"
         elif c in desc_y:
@@ -185,7 +208,12 @@ def roles_on(md: MergedDiagram, X: str, Y: str, unadjusted: PathListing) -> dict
             role = "descendant_of_exposure"
         elif c in confounding:
             role = "confounder"
-        elif _opens_path(M, X, Y, c, anc_c, unsearched):
+        elif (
+            linked_x
+            and linked_y_gx
+            and c in may_collide
+            and _opens_path(M, X, Y, c, adj, unsearched)
+        ):
             role = "collider"
         elif linked_x and not linked_y_gx:
             role = "instrument"

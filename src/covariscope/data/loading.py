@@ -40,6 +40,7 @@ __all__ = [
     "SUPPORTED_SUFFIXES",
     "LoadCancelledError",
     "LoadedTable",
+    "check_text_bytes",
     "detect_format",
     "file_sha256",
     "load_table",
@@ -303,6 +304,23 @@ def _existing_file(path: Path) -> Path:
             "access or copy the file somewhere you can read it."
         )
     return path.resolve()
+
+
+def check_text_bytes(path: Path) -> str:
+    """One pass over a delimited-text file that refuses zero bytes inside it
+    or at its end, as :func:`load_table` does, for the engines that read
+    the file where it lies.  Returns the file's SHA-256.
+
+    Raises
+    ------
+    DataError
+        A zero byte inside the data (named by line and byte) or a tail of
+        zero bytes (named by its size and where to cut the file).
+    """
+    target = _existing_file(path)
+    scan = scan_file(target, text=True)
+    _refuse_zero_bytes(target, scan)
+    return scan.sha256
 
 
 def _refuse_zero_bytes(path: Path, scan: FileScan) -> None:

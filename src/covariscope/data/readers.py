@@ -20,7 +20,15 @@ from covariscope.data.progress import Steps
 from covariscope.data.values import tidy_text_column
 from covariscope.errors import DataError
 
-__all__ = ["ReadResult", "read_excel", "read_old_excel", "read_parquet", "read_statistical"]
+__all__ = [
+    "ReadResult",
+    "nested_columns",
+    "nested_parquet_columns",
+    "read_excel",
+    "read_old_excel",
+    "read_parquet",
+    "read_statistical",
+]
 
 STAT_CHUNK_ROWS = 200_000
 _EXCEL_PROGRESS_ROWS = 5_000
@@ -223,27 +231,49 @@ def read_parquet(path: Path, steps: Steps) -> ReadResult:
     return ReadResult(frame.reset_index(drop=True), names, left_out=notes)
 
 
+def nested_columns(schema: Any) -> dict[str, str]:
+    """Columns of an Arrow schema that hold nested values (lists, structs,
+    maps), each with the plain sentence that says it was left out.
+
+    Every engine leaves these out the same way: a variable holds one value
+    per row.
+    """
+    import pyarrow.types as pat
+
+    return {
+        field.name: (
+            f"Column {field.name!r} holds {field.type} values (several values per row), which "
+            "cannot be a variable in a model; it was left out. The other columns were read. "
+            "To use it, store one value per row in the file."
+        )
+        for field in schema
+        if pat.is_nested(field.type)
+    }
+
+
+def nested_parquet_columns(path: Path) -> dict[str, str]:
+    """:func:`nested_columns` of a Parquet file or folder, from its schema
+    alone (no row is read); empty for any other file."""
+    if path.suffix.lower() not in (".parquet", ".pq") and not path.is_dir():
+        return {}
+    import pyarrow.dataset as ds
+
+    return nested_columns(ds.dataset(str(path), format="parquet").schema)
+
+
 def _without_nested(table: Any, path: Path) -> tuple[Any, list[str]]:
     """Leave out columns of nested types (lists, structs, maps): a variable
     holds one value per row.  Each one left out is named, with its type."""
-    import pyarrow.types as pat
-
-    nested = [(i, field) for i, field in enumerate(table.schema) if pat.is_nested(field.type)]
+    nested = nested_columns(table.schema)
     if not nested:
         return table, []
-    notes = [
-        f"Column {field.name!r} holds {field.type} values (several values per row), which "
-        "cannot be a variable in a model; it was left out. The other columns were read. "
-        "To use it, store one value per row in the file."
-        for _, field in nested
-    ]
     if len(nested) == table.num_columns:
         raise DataError(
             f"{path.name}: every column holds nested values (lists or structures), none of "
             "which can be a variable. Store one value per row and column, then load it again."
         )
-    keep = [i for i in range(table.num_columns) if i not in {i for i, _ in nested}]
-    return table.select(keep), notes
+    keep = [i for i, field in enumerate(table.schema) if field.name not in nested]
+    return table.select(keep), list(nested.values())
 
 
 _STAT_KINDS = {

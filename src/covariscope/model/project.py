@@ -63,10 +63,10 @@ FORMAT_VERSION = 1
 MAX_COORDINATE = 1e7
 """Canvas positions beyond this are a damaged file (a diagram spans a few
 thousand units)."""
-MAX_NODES = 2_000
+MAX_NODES = 20_000
 """Common practice, not a published bound: diagrams for one exposure and one
 outcome hold tens of nodes, rarely hundreds."""
-MAX_LINKS = 20_000
+MAX_LINKS = 100_000
 MAX_THRESHOLD = 1e6
 """No guide threshold (percent, VIF, condition index) means anything past this."""
 FAMILY_NAMES: tuple[str, ...] = tuple(Family)
@@ -196,6 +196,9 @@ class Project:
 class _Problems:
     def __init__(self) -> None:
         self.items: list[str] = []
+        #: ids of nodes whose own entry was refused: links to them are not
+        #: reported again as links to an unknown node
+        self.refused_ids: set[str] = set()
 
     def add(self, where: str, what: str) -> None:
         self.items.append(f"{where}: {what}")
@@ -253,8 +256,8 @@ def project_from_dict(data: Any, path: Path | None = None) -> Project:
     if not isinstance(raw_diagram, dict):
         problems.add("diagram", "missing or not an object")
         raw_diagram = {}
-    _read_nodes(raw_diagram.get("nodes", []), diagram, problems)
     _check_size(raw_diagram)
+    _read_nodes(raw_diagram.get("nodes", []), diagram, problems)
     _read_links(raw_diagram.get("arrows", []), "arrows", ("from", "to"), diagram, problems)
     _read_links(raw_diagram.get("proxies", []), "proxies", ("a", "b"), diagram, problems)
 
@@ -302,6 +305,7 @@ def _read_nodes(raw: Any, diagram: Diagram, problems: _Problems) -> None:
             problems.add(f"{where}.kind", f'"{kwargs["kind"]}" is not one of {", ".join(KINDS)}')
             ok = False
         if not ok:
+            problems.refused_ids.add(node_id)
             continue
         for key in ("x", "y"):
             wrong = finite_number(kwargs.get(key, 0.0), -MAX_COORDINATE, MAX_COORDINATE)
@@ -311,10 +315,12 @@ def _read_nodes(raw: Any, diagram: Diagram, problems: _Problems) -> None:
             elif key in kwargs:
                 kwargs[key] = float(kwargs[key])
         if not ok:
+            problems.refused_ids.add(node_id)
             continue
         try:
             diagram.add_node(Node(**kwargs))
         except DiagramError as exc:
+            problems.refused_ids.add(node_id)
             problems.add(where, str(exc))
 
 
@@ -334,7 +340,8 @@ def _read_links(
             if not _expect(problems, f"{where}.{key}", value, (str,), "a node id"):
                 break
             if value not in diagram:
-                problems.add(f"{where}.{key}", f'unknown node "{value}"')
+                if value not in problems.refused_ids:
+                    problems.add(f"{where}.{key}", f'unknown node "{value}"')
                 break
             ends.append(value)
         if len(ends) == 2:
@@ -554,6 +561,12 @@ def load_project(path: str | os.PathLike[str]) -> Project:
         found = [*parsed.duplicates, *exc.problems]
     else:
         found = list(parsed.duplicates)
+        data_path = project.data_path()
+        if data_path is not None and _same_file(data_path, path):
+            found.append(
+                "data.path: names the project file itself; choose the study's data file "
+                "(a CSV, Excel, Parquet, Stata, SPSS or SAS file)"
+            )
     if found:  # a repeated key first: it may explain the problems after it
         raise ProjectFileError(
             f"{path.name}: The project file has problems:\n" + "\n".join(f"  - {p}" for p in found),
@@ -561,6 +574,13 @@ def load_project(path: str | os.PathLike[str]) -> Project:
         )
     remove_stale_temporaries(path.resolve())
     return project
+
+
+def _same_file(a: Path, b: Path) -> bool:
+    try:
+        return os.path.samefile(a, b)
+    except OSError:  # a missing data file is said when the data are read
+        return False
 
 
 # -- writing -----------------------------------------------------------------------

@@ -270,6 +270,9 @@ class _Context:
     evidence: EvidenceTable | None
     engine: EvidenceEngine | None
     aliases: dict[str, tuple[str, ...]]
+    # looked up once per covariate: built once, not once per covariate
+    names: dict[str, str]
+    measured: dict[str, bool]
 
 
 def _group_facts(
@@ -277,7 +280,7 @@ def _group_facts(
 ) -> tuple[tuple[str, ...], tuple[str, ...], bool, str, str | None, str]:
     """(group, members alone sufficient, needed?, why grouped, suggested member, why)."""
     q, da = ctx.q, ctx.da
-    label = dict(q.names)
+    label = ctx.names
     r2_guide = q.threshold["r2"]
     group = next((g for g in ctx.groups if c in g), ())
     is_needed = bool(group) and c in ctx.needed[group]
@@ -320,7 +323,7 @@ def _first_contrast(ctx: _Context) -> str:
 def _verdict(ctx: _Context, graph: nx.DiGraph, c: str) -> Verdict:
     q, da, evidence = ctx.q, ctx.da, ctx.evidence
     role = da.roles[c].role
-    measured = dict(q.measured)
+    measured = ctx.measured
     group, alone, is_needed, why, suggested, suggested_why = _group_facts(ctx, graph, c)
     stands = stands_for(graph, da, c) if role == "confounder_proxy" else ()
     f = Facts(
@@ -356,7 +359,7 @@ def _verdict(ctx: _Context, graph: nx.DiGraph, c: str) -> Verdict:
         _numbers(evidence, c, _reference(ctx)),
         family=q.family,
         thresholds=q.threshold,
-        names=dict(q.names),
+        names=ctx.names,
     )
     if (
         evidence is None
@@ -407,6 +410,8 @@ def decide(
         aliases=aliased_pairs(
             evidence.aliased if evidence is not None else (), set(da.roles), da.groups
         ),
+        names=dict(q.names),
+        measured=dict(q.measured),
     )
     verdicts = {c: _verdict(ctx, graph, c) for c in da.roles}
     estimates: dict[str, Fit | None] = dict.fromkeys(ESTIMATE_KEYS)

@@ -105,6 +105,9 @@ class DataStage:
     evidence: EvidenceTable | None
     key: Any
     messages: tuple[str, ...]
+    #: why the bound data could give no estimate ("" when they did, or when
+    #: nothing was asked of them): the study falls back to the diagram
+    problem: str = ""
     #: what the design was built from (None for a source that keeps its rows)
     spec: DesignSpec | None = None
 
@@ -139,7 +142,12 @@ def data_origin(
         return Origin(None, source, source.path.name, source.sha256, tuple(source.notes))
     if table is None:
         return None
-    notes = tuple(source.notes) if source is not None else ()
+    if source is not None:
+        notes = tuple(source.notes)
+    elif isinstance(table, LoadedTable):
+        notes = table.left_out  # columns the loader could not use, as a source says them
+    else:
+        notes = ()
     columns = source_of(table)
     return Origin(columns, None, columns.name, columns.digest, notes)
 
@@ -167,7 +175,7 @@ def _data_stage(
         raise  # no number could mean anything: the study stops, saying why
     except DataError as exc:
         messages.append(f"{exc} Only the diagram is analysed.")
-        return DataStage(None, None, None, None, tuple(messages))
+        return DataStage(None, None, None, None, tuple(messages), problem=str(exc))
     messages.extend(prepared.messages)
     _family_columns_message(project, q, messages)
     design = prepared.design
@@ -181,7 +189,9 @@ def _data_stage(
     sample = labelled_sample(prepared.sample, project)
     if sample.message:
         messages.append(sample.message)
-    return DataStage(sample, engine, evidence, (design.key, plan), tuple(messages), prepared.spec)
+    return DataStage(
+        sample, engine, evidence, (design.key, plan), tuple(messages), spec=prepared.spec
+    )
 
 
 _Sample = TypeVar("_Sample", AnalyticSample, CompleteCases)
@@ -515,7 +525,7 @@ def _whole_stage(
         tuple(sorted((k, repr(v)) for k, v in a.reference_levels.items())),
     )
 
-    def prepare() -> tuple[Any, EvidenceEngine | None, list[str], tuple[str, ...]]:
+    def prepare() -> tuple[Any, EvidenceEngine | None, list[str], tuple[str, ...], str]:
         messages: list[str] = []
         try:
             sample, engine, bound = prepare_evidence(
@@ -525,13 +535,13 @@ def _whole_stage(
             raise  # no number could mean anything: the study stops, saying why
         except DataError as exc:
             messages.append(f"{exc} Only the diagram is analysed.")
-            return None, None, [], tuple(messages)
-        return sample, engine, bound, tuple(messages)
+            return None, None, [], tuple(messages), str(exc)
+        return sample, engine, bound, tuple(messages), ""
 
-    sample, engine, bound, prepared_messages = run.get("source", key, prepare)
+    sample, engine, bound, prepared_messages, problem = run.get("source", key, prepare)
     messages = list(prepared_messages)
     if engine is None:
-        return DataStage(None, None, None, None, tuple(messages))
+        return DataStage(None, None, None, None, tuple(messages), problem=problem)
     _family_columns_message(project, q, messages)
     _check_crude(engine, q)
     report(0.15, "Fitting the comparison models")
@@ -611,6 +621,7 @@ def _result(
         pictures=read.pictures,
         modification=read.modification,
         residual_confounding=read.residual,
+        data_problem=data.problem,
         model_terms=(
             model_terms(data.engine.design)
             if data.engine is not None and data.evidence is not None

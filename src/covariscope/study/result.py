@@ -58,6 +58,10 @@ class StudyResult:
     modification: dict[str, Modification] = field(default_factory=dict)
     #: continuous confounders of the recommended model, linear against a spline
     residual_confounding: dict[str, ResidualCheck] = field(default_factory=dict)
+    #: Why the bound data gave no estimate ("" when they did or none were
+    #: asked for): the verdicts then come from the diagram alone.  ``check``
+    #: and ``report`` treat it as a question that cannot be answered (exit 2).
+    data_problem: str = ""
     #: how the exposure and each covariate entered the models (type, levels, spline
     #: knots), by node; empty without data
     model_terms: dict[str, ModelTerm] = field(default_factory=dict)

@@ -44,9 +44,19 @@ def window_messages(
         Message("problem", b.text, b.fix, b.fix_label)
         for b in blockers(project, profiles, data_loaded=data_loaded)
     ]
+    # the bound data gave no estimate (`check` refuses the question): a problem,
+    # unless the window's own check above already names it with its fix
+    data_problem = result.data_problem if result is not None and not out else ""
+    if data_problem:
+        out.append(Message("problem", data_problem))
     if result is not None:
         out.extend(Message("review", text) for text in result.disagreements)
-        out.extend(Message("caution", text) for text in result.messages)
+        out.extend(
+            Message("caution", text)
+            for text in result.messages
+            # the problem above, said once (the analysis's own note repeats it)
+            if not (data_problem and text.startswith(data_problem))
+        )
     seen: set[str] = set()
     unique = []
     for m in out:

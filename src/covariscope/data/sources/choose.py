@@ -12,7 +12,7 @@ from __future__ import annotations
 from pathlib import Path
 from typing import Any
 
-from covariscope.data.loading import SUPPORTED_SUFFIXES, load_table
+from covariscope.data.loading import SUPPORTED_SUFFIXES, check_text_bytes, load_table
 from covariscope.data.sources.base import DataSource
 from covariscope.data.sources.memory import MemorySource
 from covariscope.data.sources.memuse import available_memory
@@ -142,6 +142,9 @@ def open_source(
             f"The Dask engine reads Parquet; {path.name} is {kind}. Convert it to Parquet, or "
             "use the duckdb engine."
         )
+    if kind == "text":
+        # zero bytes would be read as text (a stray value) or as one more row
+        check_text_bytes(path)
     if chosen == "duckdb":
         from covariscope.data.sources.duck import DuckSource
 
@@ -150,5 +153,5 @@ def open_source(
         from covariscope.data.sources.cluster import DaskSource
 
         source = DaskSource(path, scheduler=scheduler, origin=origin)
-    source.notes = (*notes,)
+    source.notes = (*notes, *source.notes)
     return source

@@ -18,6 +18,7 @@ from typing import Any
 
 import pandas as pd
 
+from covariscope.data.readers import nested_parquet_columns as nested_parquet
 from covariscope.data.sources.batched import BatchSource
 from covariscope.data.sources.memuse import resident_text
 from covariscope.errors import DataError
@@ -109,7 +110,10 @@ class DaskSource(BatchSource):
         import pyarrow.dataset as ds
 
         rows = int(ds.dataset(str(path), format="parquet").count_rows())
-        super().__init__(origin or path, tuple(str(c) for c in self._frame.columns), rows)
+        left_out = nested_parquet(path)
+        columns = tuple(str(c) for c in self._frame.columns if str(c) not in left_out)
+        super().__init__(origin or path, columns, rows)
+        self.notes = tuple(left_out.values())
 
     def reduce_frames(
         self, columns: tuple[str, ...], fn: Any, merge: Any, *, complete: bool

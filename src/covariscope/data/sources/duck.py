@@ -17,6 +17,7 @@ from typing import Any
 import pandas as pd
 
 from covariscope.analysis.design import Design
+from covariscope.data.readers import nested_parquet_columns as nested_parquet
 from covariscope.data.sources.base import DesignRequest
 from covariscope.data.sources.batched import BatchSource, FrameCounts
 from covariscope.data.sources.memuse import process_limit, resident_text
@@ -113,10 +114,14 @@ class DuckSource(BatchSource):
                 "with the in-memory engine."
             ) from exc
         self.column_types = {str(r[0]): str(r[1]) for r in described}
+        left_out = nested_parquet(path)
+        for name in left_out:
+            self.column_types.pop(name, None)
         if path.suffix.lower() not in (".parquet", ".pq"):
             # The types found on the whole file are pinned: later queries skip that scan.
             self._from = self._table_function(path, self.column_types)
         super().__init__(origin or path, tuple(self.column_types), rows)
+        self.notes = tuple(left_out.values())
 
     def db(self) -> Any:
         """This thread's cursor on the database (a connection is not shared between threads)."""
