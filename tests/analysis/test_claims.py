@@ -139,3 +139,53 @@ def test_suggested_arrows_keep_the_diagram_acyclic(seed: int) -> None:
             H = G.copy()
             H.add_edge(u, v)
             assert not nx.is_directed_acyclic_graph(quotient(H)[0])
+
+
+@pytest.mark.parametrize("seed", range(60))
+def test_a_separator_memo_shared_across_edits_changes_no_claim(seed: int) -> None:
+    """One memo kept while arrows are added: every answer equals a search
+    without it, and an edit searches again only where ancestors changed."""
+    G, x, y, testable = random_case(seed)
+    kept: dict[object, object] = {}
+    searches: list[object] = []
+
+    def memo(key, find):
+        if key not in kept:
+            searches.append(key)
+            kept[key] = find()
+        return kept[key]
+
+    rng = random.Random(seed)
+    order = list(nx.topological_sort(G))
+    for _ in range(3):
+        plain = implied_claims(G, x, y, testable)
+        assert implied_claims(G, x, y, testable, memo=memo) == plain
+        i, j = sorted(rng.sample(range(len(order)), 2))
+        G.add_edge(order[i], order[j])  # forward in a topological order: stays acyclic
+    first = len(list(itertools.combinations(sorted(testable), 2)))
+    assert len(searches) <= 3 * first
+    assert len(kept) == len(searches)
+
+
+def test_an_arrow_into_one_node_searches_again_only_below_it() -> None:
+    G = nx.DiGraph([("c", "x"), ("c", "y"), ("x", "y"), ("a", "y"), ("b", "y")])
+    for v in G:
+        G.nodes[v]["kind"] = {"x": "exposure", "y": "outcome"}.get(v, "covariate")
+        G.nodes[v]["measured"] = True
+    G.graph["proxies"] = []
+    kept: dict[object, object] = {}
+    searches: list[object] = []
+
+    def memo(key, find):
+        if key not in kept:
+            searches.append(key)
+            kept[key] = find()
+        return kept[key]
+
+    implied_claims(G, "x", "y", list(G), memo=memo)
+    before = len(searches)
+    G.add_edge("a", "b")  # only b gains an ancestor; a–b is now adjacent
+    after = implied_claims(G, "x", "y", list(G), memo=memo)
+    assert after == implied_claims(G, "x", "y", list(G))
+    # pairs with b: (b, c), (b, x); pairs without b ((a, c), (a, x)) hit the memo
+    assert len(searches) - before == 2

@@ -334,3 +334,30 @@ def test_a_budgeted_path_count_is_the_same_in_every_run():
         outputs.add(run.stdout.strip())
     assert len(outputs) == 1, outputs
     assert outputs.pop().endswith("False")  # the budget did run out
+
+
+def _ladder(rungs: int) -> nx.DiGraph:
+    """x ← l0 … ← l(k−1) → y through two nodes per layer, every arrow between
+    neighbouring layers: 2**k open backdoor paths, none through a collider;
+    p is a cause of y alone."""
+    G = nx.DiGraph([("x", "y"), ("p", "y")])
+    for a in ("a", "b"):
+        G.add_edge(f"{a}0", "x")
+        G.add_edge(f"{a}{rungs - 1}", "y")
+        for i in range(rungs - 1):
+            for b in ("a", "b"):
+                G.add_edge(f"{b}{i + 1}", f"{a}{i}")
+    return G
+
+
+def test_searches_over_very_many_paths_stop_at_their_budget_and_say_so() -> None:
+    from covariscope.analysis.paths import SEARCH_BUDGET
+
+    big = _ladder(12)  # 4,096 open paths, more than the budget
+    assert SEARCH_BUDGET < 2**12
+    review = review_proposal(big, "x", "y", ["p"])
+    assert review.unsearched == ("p",)
+    assert review.harmful == ()
+    assert classify_covariates(big, "x", "y")["p"].role == "precision"
+    small = _ladder(5)  # 32 paths: the searches finish
+    assert review_proposal(small, "x", "y", ["p"]).unsearched == ()

@@ -405,3 +405,24 @@ def test_keep_one_default_keeps_the_measure_that_carries_the_confounding():
     r = run_study(p, table=_table(frame))
     assert r.recommended == ("noisy",)
     assert r.verdicts["good"].suggested == "noisy"
+
+
+def test_a_graph_search_that_stops_at_its_budget_is_said_in_the_messages() -> None:
+    from covariscope.model import Diagram, Node, Project
+
+    d = Diagram()
+    rungs = 12  # 4,096 open backdoor paths: more than a search's budget
+    names = ["x", "y", "p", *(f"{a}{i}" for a in "ab" for i in range(rungs))]
+    for n in names:
+        d.add_node(Node(n, kind={"x": "exposure", "y": "outcome"}.get(n, "covariate")))
+    arrows = [("x", "y"), ("p", "y"), ("a0", "x"), ("b0", "x")]
+    arrows += [(f"{a}{rungs - 1}", "y") for a in "ab"]
+    arrows += [(f"{b}{i + 1}", f"{a}{i}") for i in range(rungs - 1) for a in "ab" for b in "ab"]
+    for a, b in arrows:
+        d.add_arrow(a, b)
+    project = Project(d)
+    project.analysis.proposed = ["p"]
+    result = run_study(project)
+    stopped = [m for m in result.messages if "work budget" in m]
+    assert len(stopped) == 1  # the proposal review's search
+    assert result.diagram.review.unsearched == ("p",)

@@ -61,6 +61,10 @@ class ProposalReview:
         insufficient (two measures of one confounder: either one, not both).
         Members of ``unnecessary`` outside every group may all be dropped at
         once.
+    unsearched : tuple of str
+        Members whose search for a backdoor path they open stopped at its
+        work budget (:data:`~covariscope.analysis.paths.SEARCH_BUDGET`)
+        without a find: not marked harmful, but not shown harmless either.
     """
 
     proposed: tuple[str, ...]
@@ -73,6 +77,7 @@ class ProposalReview:
     unmeasured_in_set: tuple[str, ...]
     exposure_descendants: tuple[str, ...] = ()
     not_together: tuple[tuple[str, ...], ...] = ()
+    unsearched: tuple[str, ...] = ()
 
     def open_paths_text(self) -> str:
         """The number of open paths in words: ``"3"`` or ``"at least 10,001"``."""
@@ -287,6 +292,7 @@ def review_on(md: MergedDiagram, X: str, Y: str, proposed: Iterable[str]) -> Pro
     opened = listing(M, X, Y, Z, 500, only_open=True)
     harmful: list[str] = []
     unnecessary: list[str] = []
+    unsearched: list[str] = []
     for m in members:
         c = md.construct_of[m]
         rest = given_constructs(md, [n for n in members if n != m], X, Y)
@@ -295,9 +301,12 @@ def review_on(md: MergedDiagram, X: str, Y: str, proposed: Iterable[str]) -> Pro
             continue
         if c not in rest:
             wanted = ancestors_of(M, {c}) - ancestors_of(M, rest)
-            if open_path_with_collider(M, X, Y, Z, wanted) is not None:
+            search = open_path_with_collider(M, X, Y, Z, wanted)
+            if search.path is not None:
                 harmful.append(m)
                 continue
+            if not search.complete:
+                unsearched.append(m)
         if sufficient_on(M, X, Y, rest):
             unnecessary.append(m)
     unmeasured = tuple(m for m in members if not md_measured(md, m))
@@ -312,6 +321,7 @@ def review_on(md: MergedDiagram, X: str, Y: str, proposed: Iterable[str]) -> Pro
         unnecessary=tuple(unnecessary),
         harmful=tuple(harmful),
         unmeasured_in_set=unmeasured,
+        unsearched=tuple(unsearched),
     )
 
 

@@ -43,7 +43,7 @@ from __future__ import annotations
 import math
 from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass, field
-from functools import partial
+from functools import cached_property, partial
 
 import numpy as np
 
@@ -263,6 +263,11 @@ class DiagramChecks:
 
     def ranked(self) -> tuple[ClaimResult, ...]:
         """Failed claims first, each part by strength (largest first)."""
+        return self._ranked
+
+    @cached_property
+    def _ranked(self) -> tuple[ClaimResult, ...]:
+        # sorted once per result: the verdicts ask once per covariate
         return tuple(
             sorted(
                 self.results,

@@ -32,8 +32,9 @@ testing a diagram through its implied independences).
 from __future__ import annotations
 
 import itertools
-from collections.abc import Iterable, Mapping
+from collections.abc import Callable, Hashable, Iterable, Mapping
 from dataclasses import dataclass
+from functools import partial
 
 import networkx as nx
 
@@ -48,6 +49,7 @@ __all__ = [
     "UNTESTABLE_REASONS",
     "Claim",
     "ClaimSet",
+    "SeparatorMemo",
     "Untestable",
     "implied_claims",
 ]
@@ -121,6 +123,27 @@ def _claim_graph(
     return md.graph, md.construct_of, md.measures_exposure | md.measures_outcome
 
 
+#: ``memo(key, find)``: ``find()``'s separating set (None: there is none), or
+#: the one kept from an earlier call with the same key
+SeparatorMemo = Callable[[Hashable, Callable[[], frozenset[str] | None]], frozenset[str] | None]
+
+
+def _separator(M: nx.DiGraph, ca: str, cb: str, allowed: set[str]) -> frozenset[str] | None:
+    found = minimal_d_separator(M, ca, cb, restricted=allowed)
+    return None if found is None else frozenset(found)
+
+
+def _ancestral_key(
+    M: nx.DiGraph, ancestors: Mapping[str, set[str]], ca: str, cb: str, allowed: set[str]
+) -> Hashable:
+    """What a minimal separator of ``ca`` and ``cb`` depends on: the subgraph
+    induced by their ancestors (themselves included) and the allowed nodes in it
+    (van der Zander & Liśkiewicz's search looks no further)."""
+    A = ancestors[ca] | ancestors[cb] | {ca, cb}
+    edges = frozenset((u, v) for v in A for u in M.pred[v] if u in A)
+    return (ca, cb, frozenset(A), edges, frozenset(allowed & A))
+
+
 def _priority(claim: Claim, ends: frozenset[str]) -> tuple[int, int, str, str]:
     return (0 if {claim.a, claim.b} & ends else 1, len(claim.given), claim.a, claim.b)
 
@@ -132,6 +155,7 @@ def implied_claims(
     testable: Iterable[str],
     *,
     limit: int = DEFAULT_CLAIM_LIMIT,
+    memo: SeparatorMemo | None = None,
 ) -> ClaimSet:
     """List the conditional independences the diagram claims among ``testable``.
 
@@ -146,6 +170,11 @@ def implied_claims(
         among them when bound).
     limit : int
         Most claims kept; the rest are counted in ``omitted``.
+    memo : callable, optional
+        ``memo(key, find)`` returns ``find()``, or the separating set kept
+        from an earlier call with the same key (the caller's cache): a key
+        names the pair's ancestral subgraph, so an edit of the diagram
+        searches again only for the pairs whose ancestors it changed.
 
     Returns
     -------
@@ -173,6 +202,7 @@ def implied_claims(
         with_data.setdefault(construct_of[node], []).append(node)
     claims: list[Claim] = []
     untestable: list[Untestable] = []
+    ancestors = {v: nx.ancestors(M, v) for v in M} if memo is not None else {}
     for a, b in itertools.combinations(nodes, 2):
         ca, cb = construct_of[a], construct_of[b]
         if ca == cb or M.has_edge(ca, cb) or M.has_edge(cb, ca):
@@ -181,7 +211,10 @@ def implied_claims(
             untestable.append(Untestable(a, b, "measures_endpoint"))
             continue
         allowed = set(with_data) - {ca, cb}
-        found = minimal_d_separator(M, ca, cb, restricted=allowed)
+        find = partial(_separator, M, ca, cb, allowed)
+        found = (
+            find() if memo is None else memo(_ancestral_key(M, ancestors, ca, cb, allowed), find)
+        )
         if found is None:
             needs = _needs(M, ca, cb, with_data, construct_of)
             untestable.append(Untestable(a, b, "unmeasured", needs))

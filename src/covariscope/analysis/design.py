@@ -732,6 +732,16 @@ class DesignBuilder:
         self._levels[node] = term.levels
         self._raws[node] = term.raw
 
+    def written(self, node: str | None = None) -> CodedTerm:
+        """A term as written: a view of the design's columns (the exposure when
+        ``node`` is None), so a caller can let go of its own copy."""
+        if node is None:  # the exposure: every column before the first covariate's
+            first = min((idx[0] for _, idx in self._spans.values()), default=len(self._names))
+            return CodedTerm(tuple(self._names[:first]), self._values[:, :first])
+        names, idx = self._spans[node]
+        view = self._values[:, idx[0] : idx[-1] + 1]
+        return CodedTerm(names, view, self._levels[node], self._raws[node])
+
     def build(self, *, family: str, exposure_node: str, outcomes: Outcomes, key: str) -> Design:
         """The design; raises :class:`DataError` when too few rows for the crude model."""
         n = self.n

@@ -19,7 +19,9 @@ from covariscope.errors import DiagramError
 
 __all__ = [
     "COUNT_BUDGET",
+    "SEARCH_BUDGET",
     "PathListing",
+    "PathSearch",
     "PathStatus",
     "backdoor_paths",
     "given_constructs",
@@ -85,6 +87,22 @@ class PathListing:
 #: over the arrows.  At most about a quarter of a second on a dense 40-node
 #: diagram (benchmarks/bench_graph.py), so re-analysis after an edit stays quick.
 COUNT_BUDGET = 10_000
+
+#: Default work budget of a search for one open path of a kind: paths examined.
+#: Every branch of the walk ends in a path, so each costs a few reachability
+#: checks; common practice, chosen to stay well under a second on a dense
+#: 80-node diagram.
+SEARCH_BUDGET = 2_000
+
+
+@dataclass(frozen=True)
+class PathSearch:
+    """The outcome of a search for one path: the path found, or None; and
+    whether the search was complete (False: it stopped at its work budget
+    without finding one, so "none found" is not "none exists")."""
+
+    path: tuple[str, ...] | None
+    complete: bool = True
 
 
 def given_constructs(
@@ -473,10 +491,15 @@ def open_path_with_collider(
     Z: frozenset[str],
     wanted: Collection[str],
     adj: _Adjacency | None = None,
-) -> tuple[str, ...] | None:
-    """A backdoor path open given Z with a collider in ``wanted``, or None.
+    *,
+    budget: int | None = SEARCH_BUDGET,
+) -> PathSearch:
+    """A backdoor path open given Z with a collider in ``wanted``.
 
-    ``adj`` is ``skeleton(M)`` when the caller asks many times of one graph.
+    Open paths are walked in a fixed order; with a ``budget`` at most that
+    many are examined, and a search that stops there without a find says so
+    (``complete`` False).  ``adj`` is ``skeleton(M)`` when the caller asks
+    many times of one graph.
     """
     adj = skeleton(M) if adj is None else adj
     anZ = ancestors_of(M, Z)
@@ -486,10 +509,12 @@ def open_path_with_collider(
         collider = M.has_edge(prev, v) and M.has_edge(nxt, v)
         return v in anZ if collider else v not in Z
 
-    for p in _walk(M, adj, X, Y, allow, nodes_ok):
+    for seen, p in enumerate(_walk(M, adj, X, Y, allow, nodes_ok)):
+        if budget is not None and seen >= budget:
+            return PathSearch(None, complete=False)
         if any(c in wanted for c in path_colliders(M, p)):
-            return p
-    return None
+            return PathSearch(p)
+    return PathSearch(None)
 
 
 def backdoor_paths(

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 from collections import deque
 from dataclasses import dataclass
+from typing import Any
 
 import networkx as nx
 
@@ -46,6 +47,9 @@ class RoleFacts:
     group: tuple[str, ...]
     on_paths: tuple[tuple[int, bool], ...]
     explanation: str
+    #: the search for a backdoor path that adjusting for it alone opens stopped
+    #: at its work budget without a find (its role then comes from the later rules)
+    search_stopped: bool = False
 
 
 def confounding_nodes(M: nx.DiGraph, X: str, Y: str) -> set[str]:
@@ -160,6 +164,15 @@ _EXPLAIN = {
 }
 
 
+def _opens_path(M: nx.DiGraph, X: str, Y: str, c: str, adj: Any, unsearched: set[str]) -> bool:
+    """Whether adjusting for ``c`` alone opens a backdoor path blocked at a
+    collider (``c`` joins ``unsearched`` when the search stopped at its budget)."""
+    search = open_path_with_collider(M, X, Y, frozenset({c}), ancestors_of(M, {c}), adj)
+    if not search.complete:
+        unsearched.add(c)
+    return search.path is not None
+
+
 def roles_on(md: MergedDiagram, X: str, Y: str, unadjusted: PathListing) -> dict[str, RoleFacts]:
     """Roles of every covariate on a merged diagram (see classify_covariates)."""
     M = md.graph
@@ -180,6 +193,7 @@ def roles_on(md: MergedDiagram, X: str, Y: str, unadjusted: PathListing) -> dict
     adj = skeleton(M)
     confounding = confounding_nodes(M, X, Y)
     through = _paths_through(unadjusted)
+    unsearched: set[str] = set()
     out: dict[str, RoleFacts] = {}
     for c, members in md.members.items():
         if c in (X, Y):
@@ -198,8 +212,7 @@ def roles_on(md: MergedDiagram, X: str, Y: str, unadjusted: PathListing) -> dict
             linked_x
             and linked_y_gx
             and c in may_collide
-            and open_path_with_collider(M, X, Y, frozenset({c}), ancestors_of(M, {c}), adj)
-            is not None
+            and _opens_path(M, X, Y, c, adj, unsearched)
         ):
             role = "collider"
         elif linked_x and not linked_y_gx:
@@ -220,6 +233,7 @@ def roles_on(md: MergedDiagram, X: str, Y: str, unadjusted: PathListing) -> dict
             group=members if len(members) > 1 else (),
             on_paths=tuple(through.get(c, ())),
             explanation=_EXPLAIN[role].format(x=X, y=Y),
+            search_stopped=c in unsearched,
         )
         for m in members:
             out[m] = facts

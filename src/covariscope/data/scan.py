@@ -44,27 +44,35 @@ class FileScan:
 
 class _Zeros:
     """Where zero bytes are in a stream of blocks: the first one inside the
-    data, and the start of a run of them that ends the file."""
+    data, and the start of a run of them that ends the file (byte offsets;
+    the line of the first is counted afterwards, only when there is one)."""
 
     def __init__(self) -> None:
-        self.first: tuple[int, int] | None = None
+        self.first: int | None = None
         self.tail_from: int | None = None
-        self.lines = 1
 
     def feed(self, block: bytes, offset: int) -> None:
         body = block.rstrip(b"\0")
         if body and self.tail_from is not None and self.first is None:
             # an earlier run of zeros turned out not to end the file
-            self.first = (self.tail_from, self.lines)
+            self.first = self.tail_from
         if self.first is None and b"\0" in body:
-            at = body.index(b"\0")
-            self.first = (offset + at, self.lines + body.count(b"\n", 0, at))
-        self.lines += body.count(b"\n")
+            self.first = offset + body.index(b"\0")
         if len(body) < len(block):
             if body or self.tail_from is None:
                 self.tail_from = offset + len(body)
         elif body:
             self.tail_from = None
+
+
+def _line_of(path: Path, offset: int) -> int:
+    """The 1-based line that holds byte ``offset``."""
+    lines = 1
+    with open(path, "rb") as handle:
+        while offset > 0 and (block := handle.read(min(BLOCK_SIZE, offset))):
+            lines += block.count(b"\n")
+            offset -= len(block)
+    return lines
 
 
 def scan_file(path: Path, steps: Steps | None = None, *, text: bool = False) -> FileScan:
@@ -106,7 +114,8 @@ def scan_file(path: Path, steps: Steps | None = None, *, text: bool = False) -> 
             digest.update(block)
             if zeros is not None:
                 zeros.feed(block, done)
-            if text:
+            # plain ASCII (most data files) is valid in every candidate encoding
+            if text and not (block.isascii() and not decoder.getstate()[0]):
                 if utf8_ok:
                     try:
                         decoder.decode(block)
@@ -133,7 +142,8 @@ def scan_file(path: Path, steps: Steps | None = None, *, text: bool = False) -> 
         encoding = _choose_encoding(head, utf8_ok, cp1252_ok)
     if zeros is None or head.startswith((codecs.BOM_UTF16_LE, codecs.BOM_UTF16_BE)):
         return FileScan(digest.hexdigest(), size, head, encoding)
-    return FileScan(digest.hexdigest(), size, head, encoding, zeros.first, zeros.tail_from)
+    nul_at = None if zeros.first is None else (zeros.first, _line_of(path, zeros.first))
+    return FileScan(digest.hexdigest(), size, head, encoding, nul_at, zeros.tail_from)
 
 
 def _choose_encoding(head: bytes, utf8_ok: bool, cp1252_ok: bool) -> str:

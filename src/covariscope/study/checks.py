@@ -21,7 +21,7 @@ from covariscope.analysis.claim_tests import (
     design_claim_data,
 )
 from covariscope.analysis.claim_wording import verdict_clause
-from covariscope.analysis.claims import implied_claims
+from covariscope.analysis.claims import SeparatorMemo, implied_claims
 from covariscope.analysis.evidence import EvidenceEngine
 from covariscope.analysis.verdicts import Verdict
 from covariscope.model.project import Project
@@ -54,14 +54,24 @@ def check_diagram(
     *,
     cancel: Callable[[], bool] | None = None,
     memo: ClaimMemo | None = None,
+    separators: SeparatorMemo | None = None,
 ) -> DiagramChecks:
     """Every claim of the diagram among the nodes with data, tested and corrected.
 
     ``memo`` keeps each claim's test across runs (see
-    :func:`~covariscope.analysis.claim_tests.check_claims`).
+    :func:`~covariscope.analysis.claim_tests.check_claims`), ``separators``
+    each pair's separating set (see
+    :func:`~covariscope.analysis.claims.implied_claims`).
     """
     data = design_claim_data(engine.design, engine.summary, outcome)
-    claims = implied_claims(G, exposure, outcome, data.columns, limit=project.analysis.claim_limit)
+    claims = implied_claims(
+        G,
+        exposure,
+        outcome,
+        data.columns,
+        limit=project.analysis.claim_limit,
+        memo=separators,
+    )
     return check_claims(
         claims, data, method=project.analysis.claim_correction, cancel=cancel, memo=memo
     )

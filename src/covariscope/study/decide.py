@@ -232,7 +232,27 @@ def _recommend(
             f"The proposed set {format_set(label[p] for p in q.proposed)} is "
             f"{sufficiency_sentence(da.review, roles, label)}."
         )
+    messages.extend(_stopped_searches(da, label))
     return rec
+
+
+def _stopped_searches(da: DiagramAnalysis, label: Mapping[str, str]) -> list[str]:
+    """What the graph searches that stopped at their work budget could not say."""
+    out: list[str] = []
+    if da.review.unsearched:
+        out.append(
+            f"The search for backdoor paths that {format_set(label[m] for m in da.review.unsearched)} "
+            "would open in the proposed set stopped at its work budget (the diagram has very many "
+            "paths): they are not marked harmful, but that is not shown either; check them by eye."
+        )
+    stopped = [c for c, f in da.roles.items() if f.search_stopped]
+    if stopped:
+        out.append(
+            f"The search for a backdoor path that adjusting for {format_set(label[c] for c in stopped)} "
+            "alone would open stopped at its work budget (the diagram has very many paths), so "
+            "the collider rule could not be settled for them; their role comes from the later rules."
+        )
+    return out
 
 
 @dataclass(frozen=True)

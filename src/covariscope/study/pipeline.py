@@ -18,7 +18,7 @@ sample, evidence, estimates and E-value are None.
 from __future__ import annotations
 
 import time
-from collections.abc import Callable, Sequence
+from collections.abc import Callable, Hashable, Sequence
 from dataclasses import dataclass, replace
 from typing import Any, TypeVar
 
@@ -446,11 +446,24 @@ def _checks(
         outcome: ClaimOutcome = run.get("claim", key, test)
         return outcome
 
+    def separator(
+        key: Hashable, find: Callable[[], frozenset[str] | None]
+    ) -> frozenset[str] | None:
+        found: frozenset[str] | None = run.get("separator", key, find)
+        return found
+
     checks: DiagramChecks = run.get(
         "claims",
         checks_key(project, G, engine),
         lambda: check_diagram(
-            project, G, q.exposure, q.outcome, engine, cancel=run.cancel, memo=memo
+            project,
+            G,
+            q.exposure,
+            q.outcome,
+            engine,
+            cancel=run.cancel,
+            memo=memo,
+            separators=separator,
         ),
     )
     return checks

@@ -13,7 +13,7 @@ from __future__ import annotations
 
 import hashlib
 from collections.abc import Callable, Mapping
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from typing import Any
 
 import numpy as np
@@ -503,19 +503,16 @@ def _design(
         )
         builder = DesignBuilder(sample.used, width=width, outcome=outcomes.y is not None)
         builder.add_exposure(x_term)
-        written: list[tuple[tuple[Any, ...], str]] = []
+        # Each cached term becomes a view of the design as soon as it is written:
+        # one copy of the numbers, even while the design is being filled.
+        x_view = replace(x_term, values=builder.written().values)
+        run.cache.replace("term", (base, *x_spec), x_view)
+        del x_term
         for node, col, kind, ref in specs:
             builder.add(node, col, term(col, kind, ref, f"covariate {node}"))
-            written.append(((base, col, kind, ref), node))
+            run.cache.replace("term", (base, col, kind, ref), builder.written(node))
         digest = hashlib.sha256(repr(key).encode()).hexdigest()
-        design = builder.build(family=family, exposure_node=exposure, outcomes=outcomes, key=digest)
-        # The cached terms become views of the design: one copy of the numbers.
-        for term_key, node in written:
-            block = design.blocks[node]
-            run.cache.replace(
-                "term", term_key, CodedTerm(block.columns, block.values, block.levels)
-            )
-        return design
+        return builder.build(family=family, exposure_node=exposure, outcomes=outcomes, key=digest)
 
     design: Design = run.get("design", key, build)
     return design

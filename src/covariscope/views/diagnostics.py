@@ -13,6 +13,13 @@ from collections.abc import Mapping
 from dataclasses import dataclass, field, replace
 from typing import Any
 
+from covariscope.analysis.collinearity import CollinearityReport
+from covariscope.analysis.contrasts import ExposureJoint
+from covariscope.analysis.evidence import Comparison, CovariateEvidence, EvidenceTable
+from covariscope.analysis.fits import Fit
+from covariscope.data.profile import ColumnProfile
+from covariscope.model.project import Project
+from covariscope.study.result import StudyResult
 from covariscope.views.estimates import display_scale
 from covariscope.views.format import DASH, is_number, number, percent, term_names
 from covariscope.views.joint_picture import PictureView, picture_views
@@ -103,31 +110,24 @@ def _path_text(nodes: tuple[str, ...], labels: Mapping[str, str] | None = None) 
     return " – ".join(_name(n, labels or {}) for n in nodes)
 
 
-def node_labels(project: Any) -> dict[str, str]:
+def node_labels(project: Project) -> dict[str, str]:
     """Node id → the label the user gave it (the id when there is none)."""
     return {n.id: (n.label or n.id) for n in project.diagram.nodes}
 
 
-def _paths(result: Any) -> tuple[Any, ...]:
-    listing = getattr(getattr(result, "diagram", None), "paths", None)
-    return tuple(getattr(listing, "paths", ()) or ())
-
-
 def checklist(
-    node_id: str, result: Any, labels: Mapping[str, str] | None = None
+    node_id: str, result: StudyResult | None, labels: Mapping[str, str] | None = None
 ) -> tuple[str, ...]:
     """The classical criteria in words, from the diagram's facts about
     ``node_id``; variables are named by ``labels`` (node id → label) where given."""
-    facts = getattr(getattr(result, "diagram", None), "roles", {}).get(node_id)
-    if facts is None:
+    facts = result.diagram.roles.get(node_id) if result is not None else None
+    if result is None or facts is None:
         return ("The diagram has not been analysed yet.",)
     labels = labels or {}
-    exposure = getattr(result, "exposure", None)
-    outcome = getattr(result, "outcome", None)
-    exposure = labels.get(exposure, exposure) if exposure else "the exposure"
-    outcome = labels.get(outcome, outcome) if outcome else "the outcome"
-    paths = _paths(result)
-    on = list(getattr(facts, "on_paths", ()) or ())
+    exposure = labels.get(result.exposure, result.exposure) or "the exposure"
+    outcome = labels.get(result.outcome, result.outcome) or "the outcome"
+    paths = result.diagram.paths.paths
+    on = list(facts.on_paths)
     through = [paths[i] for i, collider in on if not collider and i < len(paths)]
     as_collider = [paths[i] for i, collider in on if collider and i < len(paths)]
     lines = []
@@ -135,23 +135,23 @@ def checklist(
         shown = "; ".join(_path_text(p.nodes, labels) for p in through[:3])
         more = f" (and {len(through) - 3} more)" if len(through) > 3 else ""
         lines.append(f"Associated with {exposure}: yes, through the backdoor path {shown}{more}.")
-    elif getattr(facts, "ancestor_of_exposure", False):
+    elif facts.ancestor_of_exposure:
         lines.append(f"Associated with {exposure}: yes, it is a cause of {exposure}.")
-    elif getattr(facts, "descendant_of_exposure", False):
+    elif facts.descendant_of_exposure:
         lines.append(f"Associated with {exposure}: yes, as its consequence.")
     else:
         lines.append(f"Associated with {exposure}: not through any open path in the diagram.")
-    if getattr(facts, "descendant_of_outcome", False):
+    if facts.descendant_of_outcome:
         lines.append(
             f"Affects {outcome} apart from {exposure}: no, it is a consequence of {outcome}."
         )
-    elif getattr(facts, "ancestor_of_outcome", False):
+    elif facts.ancestor_of_outcome:
         lines.append(f"Affects {outcome} apart from {exposure}: yes, it is a cause of {outcome}.")
     else:
         lines.append(
             f"Affects {outcome} apart from {exposure}: no, the diagram has no such arrow path."
         )
-    mediator = getattr(facts, "role", "") == "mediator"
+    mediator = facts.role == "mediator"
     lines.append(
         f"On the causal pathway from {exposure} to {outcome}: "
         + ("yes — adjusting for it would remove part of the effect." if mediator else "no.")
@@ -161,15 +161,21 @@ def checklist(
         lines.append(f"Collider: yes, on {shown} — adjusting for it would open that path.")
     else:
         lines.append("Collider: not on any backdoor path.")
-    if getattr(facts, "common_cause", False):
+    if facts.common_cause:
         lines.append(f"Common cause of {exposure} and {outcome}: yes.")
     return tuple(lines)
 
 
-def _row(title: str, fit: Any, family: str, change: Any = None, se: Any = None) -> ModelRow:
+def _row(
+    title: str,
+    fit: Fit | None,
+    family: str,
+    change: float | None = None,
+    se: float | None = None,
+) -> ModelRow:
     shown = display_scale(fit, family)
     if shown is None:
-        why = getattr(fit, "message", "") if fit is not None else ""
+        why = fit.message if fit is not None else ""
         return ModelRow(title, DASH, why or "not fitted", DASH, DASH)
     est, lo, hi = shown
     return ModelRow(
@@ -182,38 +188,42 @@ def _row(title: str, fit: Any, family: str, change: Any = None, se: Any = None) 
     )
 
 
-def _model_rows(evidence: Any, added: Any, dropped: Any, name: str, family: str) -> list[ModelRow]:
+def _model_rows(
+    evidence: EvidenceTable | None,
+    added: Comparison,
+    dropped: Comparison | None,
+    name: str,
+    family: str,
+) -> list[ModelRow]:
     """The four comparison models of one covariate, seen from the exposure's estimate."""
+    crude = evidence.crude if evidence is not None else None
+    full = evidence.full if evidence is not None else None
     return [
-        _row(
-            "Crude",
-            getattr(added, "without_fit", None) or getattr(evidence, "crude", None),
-            family,
-        ),
+        _row("Crude", added.without_fit or crude, family),
         _row(
             f"Crude + {name}",
-            getattr(added, "with_fit", None),
+            added.with_fit,
             family,
             change_value(added, family),
-            getattr(added, "se_inflation_pct", None),
+            added.se_inflation_pct,
         ),
         _row(
             "Full",
-            getattr(dropped, "with_fit", None) or getattr(evidence, "full", None),
+            dropped.with_fit if dropped is not None else full,
             family,
             change_value(dropped, family),
-            getattr(dropped, "se_inflation_pct", None),
+            dropped.se_inflation_pct if dropped is not None else None,
         ),
-        _row(f"Full − {name}", getattr(dropped, "without_fit", None), family),
+        _row(f"Full − {name}", dropped.without_fit if dropped is not None else None, family),
     ]
 
 
-def _reference(result: Any) -> str:
-    levels = tuple(getattr(result, "exposure_levels", ()) or ())
+def _reference(result: StudyResult | None) -> str:
+    levels = result.exposure_levels if result is not None else ()
     return levels[0] if levels else ""
 
 
-def _contrast_rows(joint: Any, name: str, family: str, reference: str) -> list[ModelRow]:
+def _contrast_rows(joint: ExposureJoint, name: str, family: str, reference: str) -> list[ModelRow]:
     """A multi-level exposure: the comparison models, one row per contrast each."""
     rows: list[ModelRow] = []
     for shift in joint.contrasts:
@@ -225,7 +235,7 @@ def _contrast_rows(joint: Any, name: str, family: str, reference: str) -> list[M
     return rows
 
 
-def joint_figures(joint: Any, name: str, reference: str) -> list[tuple[str, str]]:
+def joint_figures(joint: ExposureJoint | None, name: str, reference: str) -> list[tuple[str, str]]:
     """A multi-level exposure's joint summary for one covariate, as dialog figures."""
     if joint is None:
         return []
@@ -253,83 +263,63 @@ def joint_figures(joint: Any, name: str, reference: str) -> list[tuple[str, str]
 
 
 def node_diagnostics(
-    project: Any, result: Any, node_id: str, profiles: Any = None
+    project: Project,
+    result: StudyResult | None,
+    node_id: str,
+    profiles: Mapping[str, ColumnProfile] | None = None,
 ) -> NodeDiagnostics:
     """Everything the covariate diagnostics dialog shows for ``node_id``."""
     node = project.diagram.node(node_id)
     labels = node_labels(project)
     name = node.label or node_id
-    family = getattr(result, "family", None) or project.analysis.family
-    facts = getattr(getattr(result, "diagram", None), "roles", {}).get(node_id) if result else None
-    verdict = (getattr(result, "verdicts", None) or {}).get(node_id) if result else None
-    evidence = getattr(result, "evidence", None) if result else None
-    ev = (getattr(evidence, "covariates", None) or {}).get(node_id)
-    added = getattr(ev, "added", None)
-    dropped = getattr(ev, "dropped", None)
+    family = result.family if result is not None else project.analysis.family
+    facts = result.diagram.roles.get(node_id) if result is not None else None
+    verdict = result.verdicts.get(node_id) if result is not None else None
+    evidence = result.evidence if result is not None else None
+    ev = evidence.covariates.get(node_id) if evidence is not None else None
     models: list[ModelRow] = []
-    joint = getattr(ev, "joint", None)
-    if ev is not None and joint is not None:
-        models = _contrast_rows(joint, name, family, _reference(result))
-    elif ev is not None:
-        models = _model_rows(evidence, added, dropped, name, family)
     figures: list[tuple[str, str]] = []
     numbers: dict[str, Any] = {}
-    if ev is not None:
-        vif = getattr(ev, "vif", None)
-        vif_x = getattr(ev, "vif_exposure_added", None)
-        numbers = {
-            "vif": vif,
-            "tolerance": getattr(ev, "tolerance", None),
-            "aux_r2": getattr(ev, "aux_r2", None),
-            "gvif": getattr(ev, "gvif", None),
-            "gvif_root": getattr(ev, "gvif_root", None),
-            "vif_exposure": vif_x,
-        }
-        multi = int(getattr(ev, "df", 1) or 1) > 1 and is_number(numbers["gvif"])
-        vif_label = "GVIF^(1/df)" if multi else "VIF"
-        figures += [
-            (f"{vif_label} of {name} in the full model", number(vif)),
-            ("Tolerance (1 / VIF)", number(numbers["tolerance"], 3)),
-            ("Auxiliary R² (1 − 1 / VIF)", number(numbers["aux_r2"], 3)),
-        ]
-        if multi:
-            figures += [
-                ("Generalized VIF (Fox & Monette 1992)", number(numbers["gvif"])),
-                ("GVIF^(1/(2·df))", number(numbers["gvif_root"], 3)),
-            ]
-        collinearity = getattr(getattr(result, "evidence", None), "collinearity", None)
-        if collinearity is not None:
-            figures += condition_rows(collinearity, node_id, name, labels)
+    if evidence is not None and ev is not None:
+        joint = ev.joint
         if joint is not None:
-            figures.append((f"GVIF^(1/df) of the exposure block in crude + {name}", number(vif_x)))
+            models = _contrast_rows(joint, name, family, _reference(result))
+        else:
+            models = _model_rows(evidence, ev.added, ev.dropped, name, family)
+        numbers, figures = _collinearity(evidence, ev, name, node_id, labels)
+        if joint is not None:
+            vif_x = number(ev.vif_exposure_added)
+            figures.append((f"GVIF^(1/df) of the exposure block in crude + {name}", vif_x))
             figures += joint_figures(joint, name, _reference(result))
         else:
-            figures.append((f"VIF of the exposure in crude + {name}", number(vif_x)))
-        figures += _own(name, getattr(ev, "own_coef", None), getattr(ev, "own_ci", None))
+            figures.append(
+                (f"VIF of the exposure in crude + {name}", number(ev.vif_exposure_added))
+            )
+        figures += _own(name, ev.own_coef, ev.own_ci)
         figures += residual_figures(
-            (getattr(result, "residual_confounding", None) or {}).get(node_id),
+            result.residual_confounding.get(node_id) if result is not None else None,
             node.label or node_id,
         )
-        for name, comparison in (("adding", added), ("dropping", dropped)):
-            parts = getattr(comparison, "se_ratio_parts", None)
-            if parts:
-                figures += _se_parts(name, parts)
-    messages = list(getattr(result, "messages", ()) or ()) if result else []
+        for name, comparison in (("adding", ev.added), ("dropping", ev.dropped)):
+            if comparison is not None and comparison.se_ratio_parts:
+                figures += _se_parts(name, comparison.se_ratio_parts)
     prof = (profiles or {}).get(node.column) if node.column else None
-    ctype = project.analysis.column_types.get(node.column or "") or getattr(prof, "type", None)
+    ctype = project.analysis.column_types.get(node.column or "") or (
+        prof.type if prof is not None else None
+    )
     exposure = project.diagram.exposure
     return NodeDiagnostics(
         node=node_id,
         label=node.label,
         title=f"Diagnostics — {node.label}",
-        role=role_words(getattr(facts, "role", None)),
-        verdict=getattr(verdict, "label", None) or ("Pending" if result is None else DASH),
-        reason=getattr(verdict, "reason", "") or "",
+        role=role_words(facts.role if facts is not None else None),
+        verdict=verdict.label if verdict is not None else ("Pending" if result is None else DASH),
+        reason=verdict.reason if verdict is not None else "",
         checklist=checklist(node_id, result, labels) if result else ("Waiting for the analysis.",),
         models=tuple(models),
         figures=tuple(figures),
-        effect_measure=getattr(result, "effect_measure", "") or "",
-        messages=tuple(messages),
+        effect_measure=result.effect_measure if result is not None else "",
+        messages=result.messages if result is not None else (),
         note=node.note,
         column=node.column,
         exposure_column=exposure.column if exposure else None,
@@ -341,18 +331,50 @@ def node_diagnostics(
             if node.column and ctype in ("continuous", "count")
             else None
         ),
-        pictures=picture_views(getattr(result, "pictures", ()) or (), node_id, labels),
+        pictures=picture_views(result.pictures if result is not None else (), node_id, labels),
         modification=modification_view(
-            (getattr(result, "modification", None) or {}).get(node_id),
+            result.modification.get(node_id) if result is not None else None,
             node.label or node_id,
-            getattr(result, "effect_measure", "") or "",
-            getattr(result, "thresholds", None),
+            result.effect_measure if result is not None else "",
+            result.thresholds if result is not None else None,
         ),
     )
 
 
+def _collinearity(
+    evidence: EvidenceTable,
+    ev: CovariateEvidence,
+    name: str,
+    node_id: str,
+    labels: Mapping[str, str] | None = None,
+) -> tuple[dict[str, Any], list[tuple[str, str]]]:
+    """The VIF family of figures and the condition indices that hold the node."""
+    numbers: dict[str, Any] = {
+        "vif": ev.vif,
+        "tolerance": ev.tolerance,
+        "aux_r2": ev.aux_r2,
+        "gvif": ev.gvif,
+        "gvif_root": ev.gvif_root,
+        "vif_exposure": ev.vif_exposure_added,
+    }
+    multi = int(ev.df or 1) > 1 and is_number(ev.gvif)
+    vif_label = "GVIF^(1/df)" if multi else "VIF"
+    figures = [
+        (f"{vif_label} of {name} in the full model", number(ev.vif)),
+        ("Tolerance (1 / VIF)", number(ev.tolerance, 3)),
+        ("Auxiliary R² (1 − 1 / VIF)", number(ev.aux_r2, 3)),
+    ]
+    if multi:
+        figures += [
+            ("Generalized VIF (Fox & Monette 1992)", number(ev.gvif)),
+            ("GVIF^(1/(2·df))", number(ev.gvif_root, 3)),
+        ]
+    figures += condition_rows(evidence.collinearity, node_id, name, labels)
+    return numbers, figures
+
+
 def condition_rows(
-    report: Any, node_id: str, name: str, labels: Mapping[str, str] | None = None
+    report: CollinearityReport, node_id: str, name: str, labels: Mapping[str, str] | None = None
 ) -> list[tuple[str, str]]:
     """The full model's largest condition index, and each flagged dimension
     that holds the node with the terms that share it (Belsley, Kuh & Welsch
@@ -375,16 +397,22 @@ def condition_rows(
     return rows
 
 
-def _own(node_id: str, coef: Any, ci: Any) -> list[tuple[str, str]]:
+def _own(
+    node_id: str,
+    coef: float | dict[str, float] | None,
+    ci: tuple[float, float] | dict[str, tuple[float, float]] | None,
+) -> list[tuple[str, str]]:
     """The covariate's own coefficient in crude + C (one per level when multi-level)."""
+    items: list[tuple[str, float, tuple[float, float] | None]]
     if isinstance(coef, dict):
         # a level's design column "col[level]" reads as "Label [level]"
+        levels = ci if isinstance(ci, dict) else {}
         items = [
-            (f"{node_id} {k[k.index('[') :]}" if "[" in k else k, v, (ci or {}).get(k))
+            (f"{node_id} {k[k.index('[') :]}" if "[" in k else k, v, levels.get(k))
             for k, v in coef.items()
         ]
-    elif is_number(coef):
-        items = [(node_id, coef, ci)]
+    elif coef is not None and is_number(coef):
+        items = [(node_id, coef, ci if isinstance(ci, tuple) else None)]
     else:
         return []
     out = []
@@ -394,7 +422,7 @@ def _own(node_id: str, coef: Any, ci: Any) -> list[tuple[str, str]]:
     return out
 
 
-def _se_parts(name: str, parts: Any) -> list[tuple[str, str]]:
+def _se_parts(name: str, parts: tuple[float, float, float]) -> list[tuple[str, str]]:
     """The linear SE-ratio split on ``name`` the covariate: variance
     inflation × residual variance × degrees of freedom = SE ratio."""
     labels = ("variance inflation", "residual variance", "degrees of freedom")
@@ -408,17 +436,20 @@ def _se_parts(name: str, parts: Any) -> list[tuple[str, str]]:
 
 
 def endpoint_diagnostics(
-    project: Any, result: Any, node_id: str, profiles: Any = None
+    project: Project,
+    result: StudyResult | None,
+    node_id: str,
+    profiles: Mapping[str, ColumnProfile] | None = None,
 ) -> EndpointDiagnostics:
     """The exposure's or outcome's dialog: missing data and the family."""
     node = project.diagram.node(node_id)
     family = project.analysis.family
-    sample = getattr(result, "sample", None) if result else None
+    sample = result.sample if result is not None else None
     # the outcome's dialog shows the column the family's model reads, which
     # may be another than the one bound to the node (a binary outcome, Cox)
     column = outcome_column_in_use(project, family) if node.kind == "outcome" else node.column
     prof = (profiles or {}).get(column) if column else None
-    missing_pct = getattr(prof, "missing_pct", None)
+    missing_pct = prof.missing_pct if prof is not None else None
     missing = f"{missing_pct:.1f}% of the rows" if is_number(missing_pct) else DASH
     lines = []
     if node.kind == "outcome" and column != node.column:
@@ -435,16 +466,14 @@ def endpoint_diagnostics(
             )
         )
     if sample is not None:
-        rows, used = getattr(sample, "rows", None), getattr(sample, "used", None)
-        if rows is not None and used is not None:
-            lines.append(
-                f"Analytic sample: {used:,} of {rows:,} rows (complete cases on every "
-                "candidate covariate)."
-            )
-        lost = (getattr(sample, "lost_by_column", None) or {}).get(column or "")
+        lines.append(
+            f"Analytic sample: {sample.used:,} of {sample.rows:,} rows (complete cases on every "
+            "candidate covariate)."
+        )
+        lost = sample.lost_by_column.get(column or "")
         if lost:
             lines.append(f"Rows lost to missing {column}: {lost:,}.")
-    if result is not None and getattr(result, "effect_measure", None):
+    if result is not None and result.effect_measure:
         lines.append(f"Effect measure: {result.effect_measure}.")
     return EndpointDiagnostics(
         node=node_id,
@@ -453,7 +482,7 @@ def endpoint_diagnostics(
         title=f"{node.kind.capitalize()} — {node.label}",
         column=column,
         family=family,
-        effect_measure=getattr(result, "effect_measure", "") or "",
+        effect_measure=result.effect_measure if result is not None else "",
         missing=missing,
         lines=tuple(lines),
         note=node.note,

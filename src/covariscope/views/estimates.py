@@ -5,8 +5,9 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
-from typing import Any
 
+from covariscope.analysis.fits import Contrast, Fit
+from covariscope.study.result import StudyResult
 from covariscope.views.format import DASH, fit_ok, is_number, number, ratio_family
 
 __all__ = [
@@ -38,10 +39,10 @@ class EstimateCell:
     tooltip: str
 
 
-def display_scale(fit: Any, family: str) -> tuple[float, float, float] | None:
+def display_scale(fit: Fit | None, family: str) -> tuple[float, float, float] | None:
     """Estimate and CI on the scale the user reads: the ratio for ratio
     families, the coefficient otherwise; None when not fitted."""
-    if not fit_ok(fit):
+    if fit is None or not fit_ok(fit):
         return None
     lo, hi = fit.ci
     if ratio_family(family):
@@ -49,28 +50,26 @@ def display_scale(fit: Any, family: str) -> tuple[float, float, float] | None:
     return float(fit.coef), float(lo), float(hi)
 
 
-def _terms_text(fit: Any, fallback: tuple[str, ...]) -> str:
-    terms = tuple(getattr(fit, "terms", ()) or fallback)
+def _terms_text(fit: Fit, fallback: tuple[str, ...]) -> str:
+    terms = tuple(fit.terms or fallback)
     return "adjusted for " + ", ".join(terms) if terms else "no adjustment"
 
 
-def estimate_cells(result: Any) -> list[EstimateCell]:
-    """The three cells of the strip (dashes before any analysis).
-
-    ``result`` is a :class:`covariscope.study.StudyResult` or None.
-    """
+def estimate_cells(result: StudyResult | None) -> list[EstimateCell]:
+    """The three cells of the strip (dashes before any analysis)."""
     cells = []
-    family = getattr(result, "family", "linear") if result is not None else "linear"
-    estimates = getattr(result, "estimates", {}) or {} if result is not None else {}
+    family = result.family if result is not None else "linear"
+    estimates = result.estimates if result is not None else {}
+    sets = (
+        {"proposed": result.proposed, "recommended": result.recommended}
+        if result is not None
+        else {}
+    )
     for key, title in ESTIMATE_KEYS:
         fit = estimates.get(key)
         shown = display_scale(fit, family)
-        sets = {
-            "proposed": tuple(getattr(result, "proposed", ()) or ()),
-            "recommended": tuple(getattr(result, "recommended", ()) or ()),
-        }
-        if shown is None:
-            why = getattr(fit, "message", "") if fit is not None else ""
+        if fit is None or shown is None:
+            why = fit.message if fit is not None else ""
             cells.append(
                 EstimateCell(key, title, DASH, "", "", why or "Not estimated yet (no data bound?)")
             )
@@ -78,28 +77,27 @@ def estimate_cells(result: Any) -> list[EstimateCell]:
         est, lo, hi = shown
         terms = _terms_text(fit, sets.get(key, ()))
         ci = f"95% CI {number(lo)} to {number(hi)}"
-        n = getattr(fit, "n", None)
-        tip = f"{title}: {number(est)} ({ci}), {terms}" + (f", n = {n}" if n else "")
-        contrasts = tuple(getattr(fit, "contrasts", ()) or ())
-        if contrasts:
-            ref, level = _reference(result), str(getattr(fit, "contrast", ""))
+        tip = f"{title}: {number(est)} ({ci}), {terms}" + (f", n = {fit.n}" if fit.n else "")
+        if fit.contrasts and result is not None:
+            ref, level = _reference(result), fit.contrast
             ci = f"{level} vs {ref}; CI {number(lo)} to {number(hi)}"
-            tip += contrast_lines(contrasts, family, ref, level)
+            tip += contrast_lines(fit.contrasts, family, ref, level)
         cells.append(EstimateCell(key, title, number(est), ci, terms, tip))
     return cells
 
 
-def _reference(result: Any) -> str:
-    levels = tuple(getattr(result, "exposure_levels", ()) or ())
+def _reference(result: StudyResult) -> str:
+    levels = result.exposure_levels
     return levels[0] if levels else ""
 
 
-def contrast_lines(contrasts: tuple[Any, ...], family: str, reference: str, shown: str) -> str:
+def contrast_lines(contrasts: tuple[Contrast, ...], family: str, reference: str, shown: str) -> str:
     """Every contrast of a multi-level exposure, one line each (for tooltips)."""
     lines = []
     for c in contrasts:
-        ratio = ratio_family(family) and c.ratio is not None and c.ratio_ci is not None
-        est, (lo, hi) = (c.ratio, c.ratio_ci) if ratio else (c.coef, c.ci)
+        est, (lo, hi) = c.coef, c.ci
+        if ratio_family(family) and c.ratio is not None and c.ratio_ci is not None:
+            est, (lo, hi) = c.ratio, c.ratio_ci
         mark = " (shown: it moved most from the crude estimate)" if c.level == shown else ""
         lines.append(
             f"\n{c.level} vs {reference}: {number(est)} (95% CI {number(lo)} to {number(hi)}){mark}"
@@ -107,17 +105,15 @@ def contrast_lines(contrasts: tuple[Any, ...], family: str, reference: str, show
     return "".join(lines)
 
 
-def evalue_text(result: Any) -> tuple[str, str]:
+def evalue_text(result: StudyResult | None) -> tuple[str, str]:
     """(short text, tooltip) for the E-value of the recommended estimate."""
-    ev = getattr(result, "evalue", None) if result is not None else None
+    ev = result.evalue if result is not None else None
     if ev is None:
         return DASH, "E-value: not available until the recommended model is fitted."
-    est = getattr(ev, "estimate", None)
-    ci = getattr(ev, "ci", None)
-    text = number(est)
-    if is_number(ci):
-        text += f" (CI limit {number(ci)})"
-    conversion = getattr(ev, "conversion", "") or ""
+    text = number(ev.estimate)
+    if is_number(ev.ci):
+        text += f" (CI limit {number(ev.ci)})"
+    conversion = ev.conversion or ""
     tip = (
         "E-value (VanderWeele & Ding 2017): how strongly an unmeasured confounder would have "
         "to be associated with both exposure and outcome to explain away the estimate."

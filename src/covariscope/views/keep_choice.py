@@ -9,8 +9,9 @@ then builds the recommended set around it.
 from __future__ import annotations
 
 from dataclasses import dataclass
-from typing import Any
 
+from covariscope.model.project import Project
+from covariscope.study.result import StudyResult
 from covariscope.vocabulary import group_key
 
 __all__ = ["KeepChoice", "keep_choice", "keep_choices_after", "kept_words"]
@@ -35,23 +36,21 @@ class KeepChoice:
         return ", ".join(self.labels[m] for m in self.group)
 
 
-def keep_choice(project: Any, result: Any, node_id: str) -> KeepChoice | None:
+def keep_choice(project: Project, result: StudyResult | None, node_id: str) -> KeepChoice | None:
     """The group ``node_id`` is to keep one of, or None when its verdict is
     not ``keep_one_of`` (or there is no analysis yet)."""
-    verdict = (getattr(result, "verdicts", None) or {}).get(node_id)
-    if verdict is None or getattr(verdict, "code", "") != "keep_one_of":
+    verdict = result.verdicts.get(node_id) if result is not None else None
+    if result is None or verdict is None or verdict.code != "keep_one_of":
         return None
-    group = tuple(getattr(verdict, "group", ()) or ())
+    group = tuple(verdict.group)
     if not group:
-        group = next(
-            (tuple(g) for g in getattr(result, "collinear_groups", ()) or () if node_id in g), ()
-        )
+        group = next((tuple(g) for g in result.collinear_groups if node_id in g), ())
     if len(group) < 2:
         return None
     key = group_key(group)
     saved = project.analysis.keep_choices.get(key)
     saved = saved if saved in group else None
-    kept = saved or getattr(verdict, "suggested", None)
+    kept = saved or verdict.suggested
     diagram = project.diagram
     labels = {m: (diagram.node(m).label or m) if m in diagram else m for m in group}
     return KeepChoice(
@@ -74,7 +73,7 @@ def kept_words(choice: KeepChoice) -> str:
     return f"{who} kept" + (" (your choice)" if choice.saved else "")
 
 
-def keep_choices_after(project: Any, key: str, member: str | None) -> dict[str, str] | None:
+def keep_choices_after(project: Project, key: str, member: str | None) -> dict[str, str] | None:
     """The project's ``keep_choices`` once ``member`` is kept of the group
     filed under ``key`` (None forgets the choice); None when nothing changes."""
     current = dict(project.analysis.keep_choices)

@@ -7,9 +7,12 @@ from __future__ import annotations
 import csv
 import io
 from dataclasses import dataclass
-from typing import Any
 
+from covariscope.analysis.contrasts import ExposureJoint
 from covariscope.analysis.evidence import Comparison
+from covariscope.analysis.modification import Modification
+from covariscope.model.project import Project
+from covariscope.study.result import StudyResult
 from covariscope.views.format import DASH, is_number, number, percent, ratio_family
 from covariscope.vocabulary import REVIEW_COLUMN_TERMS, change_read, role_label
 
@@ -87,7 +90,7 @@ def change_value(comparison: Comparison | None, family: str) -> float | None:
     )
 
 
-def modifier_text(modification: Any) -> str:
+def modifier_text(modification: Modification | None) -> str:
     """The effect-modification cell: flagged or not, with the interaction p."""
     if modification is None or not modification.strata:
         return DASH
@@ -96,19 +99,19 @@ def modifier_text(modification: Any) -> str:
     return f"yes, {p_text}" if modification.flagged else "no"
 
 
-def _reference(result: Any) -> str:
-    levels = tuple(getattr(result, "exposure_levels", ()) or ())
+def _reference(result: StudyResult | None) -> str:
+    levels = result.exposure_levels if result is not None else ()
     return levels[0] if levels else ""
 
 
-def _with_level(text: str, joint: Any) -> str:
+def _with_level(text: str, joint: ExposureJoint | None) -> str:
     """A multi-level exposure's change cell names the contrast that moved most."""
     if joint is None or text == DASH:
         return text
     return f"{text} ({joint.moved_most})"
 
 
-def joint_text(joint: Any, family: str, reference: str) -> str:
+def joint_text(joint: ExposureJoint, family: str, reference: str) -> str:
     """Every contrast's change (added / dropped) and SE inflation, and the joint
     summary, for a multi-level exposure (the row's tooltip)."""
     parts = []
@@ -131,57 +134,50 @@ def joint_text(joint: Any, family: str, reference: str) -> str:
     return text + "."
 
 
-def _evidence_for(result: Any, node_id: str) -> Any:
-    evidence = getattr(result, "evidence", None) if result is not None else None
-    covariates = getattr(evidence, "covariates", None) or {}
-    return covariates.get(node_id)
-
-
-def review_rows(project: Any, result: Any = None) -> list[ReviewRow]:
+def review_rows(project: Project, result: StudyResult | None = None) -> list[ReviewRow]:
     """Rows for every covariate of the project's diagram, in diagram order.
 
     Before an analysis (``result`` None) or for a covariate the result does
     not know yet, the numbers are dashes and the verdict says it is pending.
     """
     proposed = set(project.proposed)
-    family = getattr(result, "family", None) or project.analysis.family
-    roles = getattr(getattr(result, "diagram", None), "roles", None) or {}
-    verdicts = getattr(result, "verdicts", None) or {}
-    modifications = getattr(result, "modification", None) or {}
+    family = result.family if result is not None else project.analysis.family
+    roles = result.diagram.roles if result is not None else {}
+    verdicts = result.verdicts if result is not None else {}
+    modifications = result.modification if result is not None else {}
+    evidence = result.evidence.covariates if result is not None and result.evidence else {}
     rows = []
     for node in project.diagram.covariates:
         facts = roles.get(node.id)
-        ev = _evidence_for(result, node.id)
+        ev = evidence.get(node.id)
         verdict = verdicts.get(node.id)
-        added = getattr(ev, "added", None)
-        dropped = getattr(ev, "dropped", None)
-        vif_value = getattr(ev, "vif", None)
-        label = getattr(verdict, "label", None) or ("Pending" if result is None else DASH)
-        reason = getattr(verdict, "reason", "") or (
-            "Waiting for the analysis." if result is None else ""
-        )
+        added = ev.added if ev is not None else None
+        dropped = ev.dropped if ev is not None else None
+        vif_value = ev.vif if ev is not None else None
+        label = verdict.label if verdict is not None else ("Pending" if result is None else DASH)
+        reason = verdict.reason if verdict is not None else ""
+        reason = reason or ("Waiting for the analysis." if result is None else "")
         if not node.measured and verdict is None:
             label, reason = "Unmeasured", "Not measured: the data cannot speak for it."
         detail_bits = [f"{node.label}: {label}"]
         if reason:
             detail_bits.append(reason)
-        explanation = getattr(facts, "explanation", "")
-        if explanation:
-            detail_bits.append(f"Diagram: {explanation}")
-        joint = getattr(ev, "joint", None)
+        if facts is not None and facts.explanation:
+            detail_bits.append(f"Diagram: {facts.explanation}")
+        joint = ev.joint if ev is not None else None
         if joint is not None:
             detail_bits.append(joint_text(joint, family, _reference(result)))
         rows.append(
             ReviewRow(
                 node=node.id,
                 label=node.label,
-                role=role_words(getattr(facts, "role", None)),
+                role=role_words(facts.role if facts is not None else None),
                 added_change=_with_level(percent(change_value(added, family)), joint),
                 dropped_change=_with_level(percent(change_value(dropped, family)), joint),
-                se_inflation=percent(getattr(added, "se_inflation_pct", None)),
+                se_inflation=percent(added.se_inflation_pct if added is not None else None),
                 vif=number(vif_value) if is_number(vif_value) else DASH,
                 verdict=label,
-                verdict_code=getattr(verdict, "code", "") or "",
+                verdict_code=verdict.code if verdict is not None else "",
                 reason=reason,
                 detail=" — ".join(detail_bits),
                 proposed=node.id in proposed,
@@ -192,7 +188,7 @@ def review_rows(project: Any, result: Any = None) -> list[ReviewRow]:
     return rows
 
 
-def proposed_after_toggle(project: Any, node_id: str, checked: bool) -> list[str] | None:
+def proposed_after_toggle(project: Project, node_id: str, checked: bool) -> list[str] | None:
     """The proposed set after ticking (or unticking) ``node_id``; None when
     nothing changes.  Order is kept: a new member goes at the end."""
     current = list(project.proposed)
