@@ -189,18 +189,34 @@ def check_process(frame: pd.DataFrame, folder: Path) -> dict[str, float]:
 
 
 def _process(cmd: list[str]) -> tuple[float, float]:
-    """Wall seconds and peak resident bytes of a child process."""
-    t0 = time.perf_counter()
-    pid = os.fork()
-    if pid == 0:  # the child becomes the command
-        with open(os.devnull, "w") as null:
-            os.dup2(null.fileno(), 1)
-        os.execv(cmd[0], cmd)
-    _, status, usage = os.wait4(pid, 0)
-    seconds = time.perf_counter() - t0
-    if os.waitstatus_to_exitcode(status) != 0:
-        raise SystemExit(f"{' '.join(cmd)} failed")
-    return seconds, usage.ru_maxrss * 1024.0
+    """Wall seconds and peak resident bytes of a child process.
+
+    ``cmd`` is ``[python, "-c", code, *args]``.  The child reports its own
+    peak (``VmHWM``, Linux) at exit: ``ru_maxrss`` of a forked child keeps the
+    high-water mark of the parent's pages it was forked with, and this
+    parent holds the whole study, which inflated the figure several-fold.
+    """
+    with tempfile.NamedTemporaryFile("r", suffix=".hwm") as peak:
+        report = (
+            "import atexit\n"
+            "def _peak():\n"
+            f"    with open('/proc/self/status') as s, open({peak.name!r}, 'w') as out:\n"
+            "        out.write(next(l for l in s if l.startswith('VmHWM')).split()[1])\n"
+            "atexit.register(_peak)\n"
+        )
+        cmd = [cmd[0], cmd[1], report + cmd[2], *cmd[3:]]
+        t0 = time.perf_counter()
+        pid = os.fork()
+        if pid == 0:  # the child becomes the command
+            with open(os.devnull, "w") as null:
+                os.dup2(null.fileno(), 1)
+            os.execv(cmd[0], cmd)
+        _, status, usage = os.wait4(pid, 0)
+        seconds = time.perf_counter() - t0
+        if os.waitstatus_to_exitcode(status) != 0:
+            raise SystemExit(f"{' '.join(cmd)} failed")
+        text = peak.read().strip()
+    return seconds, float(text) * 1024.0 if text else usage.ru_maxrss * 1024.0
 
 
 def _print(name: str, figures: dict[str, Any]) -> None:
