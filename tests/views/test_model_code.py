@@ -118,6 +118,19 @@ def test_categorical_terms_keep_their_reference_in_every_language(demo_folder):
     assert code.formula.startswith("Surv(years_to_dx, dx) ~ dust + ")
 
 
+def test_every_snippet_says_it_reads_the_file_as_it_stands(demo_folder):
+    """The loader may have cleaned values that the code reads raw: each
+    language's snippet says so under its title, as a comment of that language."""
+    from covariscope.views.model_code import AS_READ
+
+    project = load_project(demo_folder / "demo_project.json")
+    code = model_code(run_study(project), project)["recommended"]
+    assert code is not None
+    assert code.python.splitlines()[1] == f"# {AS_READ}"
+    assert code.r.splitlines()[1] == f"# {AS_READ}"
+    assert code.stata.splitlines()[1] == f"* {AS_READ}"
+
+
 def test_no_data_no_code(demo_folder):
     project = load_project(demo_folder / "demo_project.json")
     project.data = None

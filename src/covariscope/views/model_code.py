@@ -328,6 +328,13 @@ _PY_READ = {
 }
 
 
+#: Said under every snippet's title: the code reads the file as it stands.
+AS_READ = (
+    "reads the file as it stands: first recode any values the data panel says were "
+    "cleaned or set aside (missing-value codes, decimal commas, stray text)"
+)
+
+
 def _python(m: _Model, head: str) -> str:
     suffix = PurePath(m.data_path).suffix.lower()
     read = _PY_READ.get(suffix, "pd.read_csv({p})").format(p=_py_str(m.data_path))
@@ -335,6 +342,7 @@ def _python(m: _Model, head: str) -> str:
     x = _py_term(m.exposure)
     lines = [
         f"# {head}",
+        f"# {AS_READ}",
         "import numpy as np",
         "import pandas as pd",
         "import statsmodels.api as sm",
@@ -407,6 +415,7 @@ def _r(m: _Model, head: str) -> str:
     pick = f"startsWith(rownames(s), {x})" if m.exposure.factor else f"rownames(s) == {x}"
     lines = [
         f"# {head}",
+        f"# {AS_READ}",
         f"d <- {read}",
         "# the analytic sample: complete cases on every candidate column",
         f"d <- d[complete.cases(d[, c({', '.join(_py_str(c) for c in m.sample)})]), ]",
@@ -456,7 +465,7 @@ def _stata_read(path: str) -> str:
 
 
 def _stata(m: _Model, head: str) -> str:
-    lines = [f"* {head}", _stata_read(m.data_path)]
+    lines = [f"* {head}", f"* {AS_READ}", _stata_read(m.data_path)]
     renamed = [c for c in m.sample if stata_name(c) != c]
     for c in renamed:
         lines.append(f'* the column "{c}" is named {stata_name(c)} in Stata (check with describe)')
