@@ -190,19 +190,7 @@ def _numeric(frame: pd.DataFrame, column: str, what: str) -> np.ndarray:
 
 
 def _levels(values: Any, reference: Any, column: str) -> tuple[list[Any], Any]:
-    levels = sorted(pd.unique(values), key=lambda v: (str(type(v)), v))
-    if reference is None:
-        reference = levels[0]
-    elif reference not in levels:
-        # A reference given as text for a numeric column (or the reverse) still matches.
-        matches = [v for v in levels if str(v) == str(reference)]
-        if not matches:
-            raise DataError(
-                f"Reference level {reference!r} of column {column!r} does not occur in the "
-                f"analytic sample (levels: {', '.join(map(str, levels))}); choose one of these."
-            )
-        reference = matches[0]
-    return levels, reference
+    return _sample_levels(list(pd.unique(values)), column, reference)
 
 
 @dataclass(frozen=True)

@@ -121,20 +121,20 @@ def _not_ready(messages: list[str]) -> Bindings:
     return Bindings(False, "", (), (), tuple(messages))
 
 
-def read_bindings(
-    project: Project, family: str, exposure: str, outcome: str, source: ColumnSource
-) -> Bindings:
-    """The bound columns of a project for a family, with plain messages for what is missing."""
+def question_columns(
+    project: Project, family: str, exposure: str, outcome: str, messages: list[str]
+) -> tuple[str, dict[str, str | None]] | None:
+    """The exposure's column and the family's outcome columns, or None with a
+    message in ``messages`` naming what is not bound (an offset outside the
+    rate-ratio family is dropped with a message)."""
     diagram = project.diagram
-    messages: list[str] = []
     x_col = diagram.node(exposure).column
-    y_col = diagram.node(outcome).column
     if x_col is None:
         messages.append(
             f'The exposure "{diagram.node(exposure).label}" is not bound to a data column, so only the diagram is analysed; bind it to a column.'
         )
-        return _not_ready(messages)
-    cols = outcome_columns(project, family, y_col)
+        return None
+    cols = outcome_columns(project, family, diagram.node(outcome).column)
     if cols["offset"] is not None and family != "risk_ratio":
         messages.append(
             f'Only the risk/rate-ratio family takes an offset; the offset column "{cols["offset"]}" '
@@ -147,22 +147,43 @@ def read_bindings(
             "The Cox family needs a time and an event column; set them for the project "
             "(analysis.family_columns.cox), or choose another family. Only the diagram is analysed."
         )
-        return _not_ready(messages)
+        return None
     if family != "cox" and cols["outcome"] is None:
         messages.append(
             f'The outcome "{diagram.node(outcome).label}" is not bound to a data column, so only the diagram is analysed; bind it to a column.'
         )
-        return _not_ready(messages)
+        return None
+    return x_col, cols
+
+
+def bound_covariates(
+    project: Project, has_column: Callable[[str], bool], messages: list[str]
+) -> list[tuple[str, str]]:
+    """(node id, column) of every measured covariate whose column the data
+    hold; a column the data lack is named in ``messages`` and left out."""
     bound: list[tuple[str, str]] = []
-    for node in diagram.covariates:
+    for node in project.diagram.covariates:
         if not node.measured or node.column is None:
             continue
-        if not source.has_column(node.column):
+        if not has_column(node.column):
             messages.append(
                 f'"{node.label}" is bound to the column "{node.column}", which is not in the data; it is left out.'
             )
             continue
         bound.append((node.id, node.column))
+    return bound
+
+
+def read_bindings(
+    project: Project, family: str, exposure: str, outcome: str, source: ColumnSource
+) -> Bindings:
+    """The bound columns of a project for a family, with plain messages for what is missing."""
+    messages: list[str] = []
+    question = question_columns(project, family, exposure, outcome, messages)
+    if question is None:
+        return _not_ready(messages)
+    x_col, cols = question
+    bound = bound_covariates(project, source.has_column, messages)
     outcome_cols = [c for c in cols.values() if c]
     needed = dict.fromkeys([*outcome_cols, x_col, *(c for _, c in bound)])
     missing_cols = [c for c in needed if not source.has_column(c)]

@@ -19,7 +19,7 @@ from covariscope.data.sources.base import DataSource, DesignRequest
 from covariscope.data.sources.coding import ColumnUse, term_spec
 from covariscope.model.project import Project
 from covariscope.study.degenerate import check_question_columns, usable_covariates
-from covariscope.study.prepare import outcome_columns
+from covariscope.study.prepare import bound_covariates, question_columns
 
 __all__ = ["prepare_evidence"]
 
@@ -35,42 +35,12 @@ def prepare_evidence(
 ) -> tuple[AnalyticSample | None, EvidenceEngine | None, list[str]]:
     """Analytic sample and evidence engine, or (None, None, ...) with a message."""
     diagram = project.diagram
-    x_col = diagram.node(exposure).column
-    y_col = diagram.node(outcome).column
-    if x_col is None:
-        messages.append(
-            f'The exposure "{diagram.node(exposure).label}" is not bound to a data column, so only the diagram is analysed; bind it to a column.'
-        )
+    question = question_columns(project, family, exposure, outcome, messages)
+    if question is None:
         return None, None, []
-    cols = outcome_columns(project, family, y_col)
-    if cols["offset"] is not None and family != "risk_ratio":
-        messages.append(
-            f'Only the risk/rate-ratio family takes an offset; the offset column "{cols["offset"]}" '
-            f"set for the {family} family is not used. Remove it from the family's columns, or "
-            "choose the risk/rate-ratio family for counts over time."
-        )
-        cols["offset"] = None
-    if family == "cox" and (cols["time"] is None or cols["event"] is None):
-        messages.append(
-            "The Cox family needs a time and an event column; set them for the project "
-            "(analysis.family_columns.cox), or choose another family. Only the diagram is analysed."
-        )
-        return None, None, []
-    if family != "cox" and cols["outcome"] is None:
-        messages.append(
-            f'The outcome "{diagram.node(outcome).label}" is not bound to a data column, so only the diagram is analysed; bind it to a column.'
-        )
-        return None, None, []
-    bound: list[str] = []
-    for node in diagram.covariates:
-        if not node.measured or node.column is None:
-            continue
-        if node.column not in source.columns:
-            messages.append(
-                f'"{node.label}" is bound to the column "{node.column}", which is not in the data; it is left out.'
-            )
-            continue
-        bound.append(node.id)
+    x_col, cols = question
+    present = set(source.columns)
+    bound = [node_id for node_id, _ in bound_covariates(project, present.__contains__, messages)]
     outcome_cols = [c for c in (cols["outcome"], cols["time"], cols["event"], cols["offset"]) if c]
     needed = list(
         dict.fromkeys([*outcome_cols, x_col, *(diagram.node(b).column or "" for b in bound)])
