@@ -171,6 +171,12 @@ def main() -> None:
     )
     parser.add_argument("--covariates", type=int, default=20)
     parser.add_argument("--no-dask", action="store_true", help="skip the Dask runs")
+    parser.add_argument(
+        "--large-families",
+        default="linear,logistic",
+        help="families of the large-file runs, comma-separated (default: linear,logistic)",
+    )
+    parser.add_argument("--no-medium", action="store_true", help="skip the medium-file runs")
     parser.add_argument("--folder", type=Path, default=None, help="where to write the files")
     parser.add_argument("--keep", action="store_true", help="keep the generated files")
     parser.add_argument(
@@ -215,7 +221,7 @@ def main() -> None:
             return done[rows, engine, family]
 
         print("\n1. Large file, DuckDB")
-        for family in ("linear", "logistic"):
+        for family in args.large_families.split(","):
             rows = sizes[("large", family)]
             frame = rows * (k + 3) * 8
             r = measured(rows, "duckdb", family)
@@ -224,6 +230,8 @@ def main() -> None:
                 f"in-memory size {_gb(frame)}  ratio {r['peak'] / frame:.3f} (target ≤ 0.25)"
             )
             _passes(r, rows, int(args.large))
+        if args.no_medium:
+            return
         print("\n2. Medium file: DuckDB and Dask (2 local workers) against in memory")
         for family in ("linear", "logistic"):
             rows = sizes[("medium", family)]
