@@ -252,6 +252,8 @@ class DiagramChecks:
     omitted: int
     limit: int
     warnings: tuple[str, ...] = field(default=())
+    #: pairs not looked at: the listing of claims stopped at its search budget
+    unsearched: int = 0
 
     @property
     def tested(self) -> int:
@@ -517,5 +519,13 @@ def check_claims(
     )
     untestable = tuple(sorted([*claims.untestable, *unfit], key=lambda u: (u.a, u.b)))
     return DiagramChecks(
-        method, alpha, data.n, results, untestable, claims.omitted, claims.limit, stopped
+        method,
+        alpha,
+        data.n,
+        results,
+        untestable,
+        claims.omitted,
+        claims.limit,
+        stopped,
+        unsearched=claims.unsearched,
     )
