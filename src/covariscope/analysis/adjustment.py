@@ -12,11 +12,12 @@ from covariscope.analysis.constructs import MergedDiagram, merge_diagram
 from covariscope.analysis.paths import (
     WalkBudget,
     ancestors_of,
+    descendants_of,
     given_constructs,
     listing,
     open_path_with_collider,
 )
-from covariscope.analysis.separation import minimal_d_separator
+from covariscope.analysis.separation import d_connected_closure, minimal_d_separator
 
 __all__ = [
     "MINIMAL_SETS_BUDGET",
@@ -104,10 +105,22 @@ def without_exposure_arrows(M: nx.DiGraph, X: str) -> nx.DiGraph:
 
 
 def sufficient_on(M: nx.DiGraph, X: str, Y: str, Z: Collection[str]) -> bool:
-    """Backdoor criterion for constructs Z on a merged graph."""
-    if set(Z) & nx.descendants(M, X):
+    """Backdoor criterion for constructs Z on a merged graph.
+
+    X and Y are d-separated given Z exactly when they are separated in the
+    moral graph of the ancestors of X, Y and Z (Lauritzen SL, Dawid AP,
+    Larsen BN, Leimer HG (1990), Independence properties of directed Markov
+    fields, *Networks* 20:491–505; from memory), which
+    :func:`~covariscope.analysis.separation.d_connected_closure` searches in
+    linear time.  (networkx's ``is_d_separator`` gives the same answer but
+    took 20 s a call on a 140-node diagram of stacked rungs.)
+    """
+    given = set(Z)
+    if given & descendants_of(M, {X}) - {X}:
         return False
-    return bool(nx.is_d_separator(without_exposure_arrows(M, X), {X}, {Y}, set(Z)))
+    Gx = without_exposure_arrows(M, X)
+    within = ancestors_of(Gx, {X, Y} | given)
+    return Y not in d_connected_closure(Gx, [X], within, given)
 
 
 def is_sufficient(G: nx.DiGraph, exposure: str, outcome: str, adjustment: Iterable[str]) -> bool:

@@ -9,8 +9,8 @@ tests live in :mod:`covariscope.analysis.claim_tests`.
 For each pair of testable nodes (measured and bound to data) that are not
 adjacent and not joined by a proxy link, one claim ``a ⫫ b | S`` is made,
 where ``S`` is a minimal d-separating set drawn from the testable nodes
-(van der Zander & Liśkiewicz 2020, through
-``networkx.find_minimal_d_separator`` with ``restricted``).  A pair that no
+(FINDMINSEP of van der Zander & Liśkiewicz 2020, restricted to those nodes,
+in linear time: :func:`~covariscope.analysis.separation.minimal_d_separator`).  A pair that no
 such set separates is listed as untestable, naming an unmeasured variable a
 separating set would need.
 
