@@ -125,7 +125,7 @@ def test_a_listing_stopped_by_its_walk_budget_keeps_only_real_paths() -> None:
     assert not whole.walk_stopped
     assert tight.walk_stopped
     assert tight.truncated
-    assert set(p.nodes for p in tight.paths) <= set(p.nodes for p in whole.paths)
+    assert {p.nodes for p in tight.paths} <= {p.nodes for p in whole.paths}
     assert tight.total == whole.total == 1
 
 

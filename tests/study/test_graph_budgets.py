@@ -4,6 +4,7 @@ against the shipped schema)."""
 
 from __future__ import annotations
 
+import itertools
 import json
 from importlib import resources
 from pathlib import Path
@@ -92,7 +93,7 @@ def test_claims_past_their_budget_are_counted_in_messages_and_json() -> None:
     # a chain of 70 variables with data: 2,346 pairs with no arrow between them
     n = 70
     names = ["x", *(f"v{i:02d}" for i in range(n - 2)), "y"]
-    arrows = list(zip(names, names[1:], strict=False))
+    arrows = list(itertools.pairwise(names))
     rng = np.random.default_rng(5)
     values = np.cumsum(rng.normal(size=(120, n)), axis=1)
     frame = pd.DataFrame(values, columns=names)
