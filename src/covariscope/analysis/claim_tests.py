@@ -395,7 +395,7 @@ def strength_of(d: ClaimData, response: str, predictor: str, t: DirectionTest) -
         if kp == "categorical":
             scale, kind = 1.0 / _sd(d, d.columns[response][0]), "standardised_difference"
         elif kr == "continuous" and kp == "continuous":
-            return _partial_r(t, d.n, len(d.columns[predictor]))
+            return _partial_r(t, d.n)
         else:
             scale = _sd(d, p_col) / _sd(d, d.columns[response][0])
             kind = "standardised_coefficient"
@@ -408,7 +408,7 @@ def strength_of(d: ClaimData, response: str, predictor: str, t: DirectionTest) -
     return Strength(math.exp(b * scale), kind, math.exp(lo), math.exp(hi), level)
 
 
-def _partial_r(t: DirectionTest, n: int, k: int) -> Strength:
+def _partial_r(t: DirectionTest, n: int) -> Strength:
     """Partial correlation from the t statistic, Fisher-z interval (Fisher 1924)."""
     df = t.coefficients.df_resid
     r = t.statistic / math.sqrt(t.statistic**2 + df)

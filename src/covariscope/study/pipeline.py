@@ -545,7 +545,7 @@ def _whole_stage(
         messages: list[str] = []
         try:
             sample, engine, bound = prepare_evidence(
-                project, source, q.family, q.exposure, q.outcome, da, messages
+                project, source, q.family, q.exposure, q.outcome, messages
             )
         except DesignError:
             raise  # no number could mean anything: the study stops, saying why
