@@ -119,9 +119,9 @@ class PathListing:
 COUNT_BUDGET = 10_000
 
 #: Default work budget of a search for one open path of a kind: paths examined.
-#: Every branch of the walk ends in a path, so each costs a few reachability
-#: checks; common practice, chosen to stay well under a second on a dense
-#: 80-node diagram.
+#: Branches that end in no path are bounded by :data:`WALK_BUDGET` instead;
+#: common practice, chosen to stay well under a second on a dense 80-node
+#: diagram.
 SEARCH_BUDGET = 2_000
 
 #: Default work budget of the path walks of one result (one listing, or the
