@@ -200,6 +200,8 @@ def roles_on(md: MergedDiagram, X: str, Y: str, unadjusted: PathListing) -> dict
     through = _paths_through(unadjusted)
     unsearched: set[str] = set()
     walk = WalkBudget()  # shared: the searches of all covariates together stay bounded
+    # each role's sentence is built once per diagram, not once per covariate
+    explain = {role: text.format(x=X, y=Y) for role, text in _EXPLAIN.items()}
     out: dict[str, RoleFacts] = {}
     for c, members in md.members.items():
         if c in (X, Y):
@@ -238,7 +240,7 @@ def roles_on(md: MergedDiagram, X: str, Y: str, unadjusted: PathListing) -> dict
             descendant_of_outcome=c in desc_y,
             group=members if len(members) > 1 else (),
             on_paths=tuple(through.get(c, ())),
-            explanation=_EXPLAIN[role].format(x=X, y=Y),
+            explanation=explain[role],
             search_stopped=c in unsearched,
         )
         for m in members:
