@@ -38,7 +38,9 @@ def test_watch_counts_data_work_on_its_own_thread_only():
 
     table = _table()
     watch = DataWorkWatch()
-    other = threading.Thread(target=lambda: table_profiles(StudyCache(), TableSource(table), {}, {}))
+    other = threading.Thread(
+        target=lambda: table_profiles(StudyCache(), TableSource(table), {}, {})
+    )
     watch.install()
     try:
         other.start()

@@ -119,8 +119,8 @@ def test_edit_storm_settles_to_check_json(qtbot, window, tmp_path, wait_for_anal
         rng = random.Random(5)
         for i in range(EDITS):
             _edit(w, rng)
-            if i % 10 == 0:
-                qtbot.wait(1)  # let the debounce timer and the worker's signals through now and then
+            if i % 10 == 0:  # let the debounce timer and the worker's signals through
+                qtbot.wait(1)
         wait_for_analysis(qtbot, w, timeout=180_000)
     finally:
         meter.stop()
