@@ -16,6 +16,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from covariscope.analysis.design import Design
+from covariscope.analysis.families import Fitter, family_of
 
 __all__ = ["ColumnFit", "base_fit", "fit_columns", "model_matrix", "start_from"]
 
@@ -109,7 +110,8 @@ def fit_columns(
     if ones_first:
         Xi, X = X, X[:, 1:]
     family = design.family
-    if family == "linear":
+    fitter = family_of(family).fitter
+    if fitter is Fitter.LEAST_SQUARES:
         from covariscope.analysis.linear import linear_summary, solve_ols
 
         assert design.y is not None
@@ -118,7 +120,7 @@ def fit_columns(
         if res is None or res.cov is None:
             return "the model's columns are exactly collinear"
         return ColumnFit(res.coef, res.cov, res.df_resid)
-    if family == "cox":
+    if fitter is Fitter.COX:
         from covariscope.analysis.survival import fit_cox
 
         assert design.time is not None
