@@ -37,12 +37,12 @@ import numpy as np
 from covariscope.analysis.column_fit import (
     ColumnFit,
     base_fit,
-    fit_columns,
-    model_matrix,
+    fit_extra,
     start_from,
 )
 from covariscope.analysis.design import Design
 from covariscope.analysis.distributions import chi2_sf, f_sf, norm_ppf, t_ppf
+from covariscope.analysis.linear import LinearSummary
 from covariscope.vocabulary import RATIO_FAMILIES, ModificationForm
 
 __all__ = [
@@ -173,6 +173,7 @@ def effect_modification(
     ratio_guide: float = 1.5,
     level: float = 0.95,
     near: ColumnFit | None = None,
+    summary: LinearSummary | None = None,
 ) -> Modification:
     """The exposure effect across levels of ``node`` in the model exposure + ``terms``.
 
@@ -186,6 +187,8 @@ def effect_modification(
     near : a fit of exposure + ``terms`` (`base_fit`) to start the iterative
         fit from, with the product terms at zero (saves passes over the rows;
         the result is the same)
+    summary : the design's means and co-moments, outcome last: a linear
+        model then reads only its product columns (`fit_extra`)
 
     Examples
     --------
@@ -208,11 +211,10 @@ def effect_modification(
     # a spline-entered modifier: its main effect is the spline, the product is linear in it
     moderated = block.values if block.raw is None else block.raw[:, None]
     products = moderated * x[:, None]
-    X = model_matrix(design, cols, products)
     k = products.shape[1]
     pnames = [f"{design.exposure_name}×{node}[{j}]" for j in range(k)]
     start = None if near is None else start_from(near, [*names, *pnames])
-    fitted = fit_columns(design, X, [*names, *pnames], start=start, ones_first=True)
+    fitted = fit_extra(design, cols, [products], [*names, *pnames], start=start, summary=summary)
     kind, strata_spec = _strata_values(design, node)
     nan = float("nan")
     if isinstance(fitted, str):
@@ -279,21 +281,30 @@ def modification_table(
     p_guide: float = 0.05,
     ratio_guide: float = 1.5,
     near: ColumnFit | None = None,
+    summary: LinearSummary | None = None,
 ) -> dict[str, Modification]:
     """:func:`effect_modification` of every candidate with data, in the model exposure + ``terms``.
 
     A covariate whose column never varies, or that is not in the design, is
     left out.  Every fit starts from ``near``, the fit of exposure + ``terms``
-    (`base_fit`; fitted here when not given).
+    (`base_fit`; fitted here when not given).  With ``summary`` (the
+    design's means and co-moments) a linear model reads only its product
+    columns.
     """
     if any(t not in design.blocks for t in terms):
         return {}
     wanted = [c for c in candidates if c in design.blocks and c not in design.constant]
     if near is None and wanted:
-        near = base_fit(design, terms)
+        near = base_fit(design, terms, summary=summary)
     return {
         c: effect_modification(
-            design, terms, c, p_guide=p_guide, ratio_guide=ratio_guide, near=near
+            design,
+            terms,
+            c,
+            p_guide=p_guide,
+            ratio_guide=ratio_guide,
+            near=near,
+            summary=summary,
         )
         for c in wanted
     }

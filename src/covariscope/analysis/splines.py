@@ -19,11 +19,11 @@ import numpy as np
 from covariscope.analysis.column_fit import (
     ColumnFit,
     base_fit,
-    fit_columns,
-    model_matrix,
+    fit_extra,
     start_from,
 )
 from covariscope.analysis.design import Design
+from covariscope.analysis.linear import LinearSummary
 from covariscope.analysis.spline_basis import DEFAULT_KNOTS, spline_basis
 from covariscope.vocabulary import RATIO_FAMILIES
 
@@ -57,6 +57,7 @@ def residual_confounding(
     knots: int = DEFAULT_KNOTS,
     change_guide: float = 10.0,
     near: ColumnFit | None = None,
+    summary: LinearSummary | None = None,
 ) -> ResidualCheck:
     """Compare the exposure estimate with ``node`` linear and as a spline.
 
@@ -69,6 +70,8 @@ def residual_confounding(
     knots, change_guide : the spline's knots; the guide past which it is flagged
     near : a fit of exposure + ``terms`` to start from (saves passes over the
         rows of an iterative fit; the result is the same)
+    summary : the design's means and co-moments, outcome last: a linear
+        model then reads only its own new columns (`fit_extra`)
 
     Examples
     --------
@@ -96,16 +99,12 @@ def residual_confounding(
     same = {node: near_value(near, block.columns[0])} if block.raw is None else {}
     lin_names = [*names, node]
     start = None if near is None else start_from(near, lin_names, given=same)
-    linear = fit_columns(
-        design, model_matrix(design, cols, raw), lin_names, start=start, ones_first=True
-    )
+    linear = fit_extra(design, cols, [raw], lin_names, start=start, summary=summary)
     if isinstance(linear, str):
         return ResidualCheck(node, knots, nan, nan, nan, False, linear)
     spl_names = [*names, *(f"{node}[spline {j + 1}]" for j in range(basis.shape[1]))]
     start = start_from(linear, spl_names, given=_as_spline(linear, node, raw, basis, spl_names))
-    spline = fit_columns(
-        design, model_matrix(design, cols, basis), spl_names, start=start, ones_first=True
-    )
+    spline = fit_extra(design, cols, [basis], spl_names, start=start, summary=summary)
     if isinstance(spline, str):
         return ResidualCheck(node, knots, nan, nan, nan, False, spline)
     # A multi-level exposure: the contrast whose estimate moves most is reported.
@@ -154,6 +153,7 @@ def residual_table(
     knots: Mapping[str, int] | None = None,
     change_guide: float = 10.0,
     near: ColumnFit | None = None,
+    summary: LinearSummary | None = None,
 ) -> dict[str, ResidualCheck]:
     """:func:`residual_confounding` for every continuous confounder among ``terms``.
 
@@ -170,7 +170,7 @@ def residual_table(
             continue
         raw = block.raw if block.raw is not None else block.values[:, 0]
         if not tried:
-            near, tried = base_fit(design, terms), True
+            near, tried = base_fit(design, terms, summary=summary), True
         out[c] = residual_confounding(
             design,
             terms,
@@ -179,5 +179,6 @@ def residual_table(
             knots=(knots or {}).get(c) or DEFAULT_KNOTS,
             change_guide=change_guide,
             near=near,
+            summary=summary,
         )
     return out

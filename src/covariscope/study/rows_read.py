@@ -24,6 +24,7 @@ from covariscope.analysis.evidence import EvidenceEngine, EvidenceTable
 from covariscope.analysis.fits import Fit
 from covariscope.analysis.graph import DiagramAnalysis
 from covariscope.analysis.joint_region import CollinearityPicture, collinearity_pictures
+from covariscope.analysis.linear import LinearSummary
 from covariscope.analysis.modification import Modification, modification_table
 from covariscope.analysis.splines import ResidualCheck, residual_table
 from covariscope.study.decide import Question
@@ -124,6 +125,7 @@ def _modification(
     terms: Sequence[str],
     candidates: Sequence[str],
     guides: tuple[float, float],
+    summary: LinearSummary | None,
 ) -> dict[str, Modification]:
     """:func:`~covariscope.analysis.modification.modification_table`, one entry
     per candidate (it reads the model's terms and the candidate); the
@@ -140,7 +142,12 @@ def _modification(
         "modification",
         keys,
         lambda missing: modification_table(
-            design, model, missing, p_guide=guides[0], ratio_guide=guides[1]
+            design,
+            model,
+            missing,
+            p_guide=guides[0],
+            ratio_guide=guides[1],
+            summary=summary,
         ),
     )
     return found
@@ -154,6 +161,7 @@ def _residual(
     confounders: Sequence[str],
     knots: Mapping[str, int],
     guide: float,
+    summary: LinearSummary | None,
 ) -> dict[str, ResidualCheck]:
     """:func:`~covariscope.analysis.splines.residual_table`, one entry per
     continuous confounder (it reads the model's terms and the knots); those
@@ -179,6 +187,7 @@ def _residual(
             missing,
             knots={c: knots[c] for c in missing if c in knots},
             change_guide=guide,
+            summary=summary,
         ),
     )
     return found
@@ -210,14 +219,24 @@ def rows_read(
         return RowsRead(pictures)
     terms = recommended.terms
     guides = (thresholds["modification_p"], thresholds["modification_ratio"])
+    # A linear model's checks read only their own new columns: the design's
+    # cross-products come from the evidence engine's one-pass summary.
+    summary = engine.summary if design.family == "linear" else None
     modification = (
         {}
         if design.multilevel
-        else _modification(run, spec, design, terms, evidence.candidates, guides)
+        else _modification(run, spec, design, terms, evidence.candidates, guides, summary)
     )
     confounders = [c for c in terms if c in da.roles and da.roles[c].role == "confounder"]
     residual = _residual(
-        run, spec, design, terms, confounders, dict(q.spline_knots), thresholds["change_pct"]
+        run,
+        spec,
+        design,
+        terms,
+        confounders,
+        dict(q.spline_knots),
+        thresholds["change_pct"],
+        summary,
     )
     said = (_MULTILEVEL,) if design.multilevel else ()
     return RowsRead(pictures, modification, residual, said)
