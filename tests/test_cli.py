@@ -119,6 +119,40 @@ def test_gui_without_a_display_says_so(capsys, monkeypatch):
     assert "No display was found" in err
 
 
+def test_check_on_a_terminal_shows_the_modification_and_residual_tables(
+    monkeypatch, tmp_path
+) -> None:
+    """The tables after the evidence say which model they fit, on standard error."""
+    import io
+    import shutil
+    from pathlib import Path
+
+    import covariscope.cli as cli
+
+    class Terminal(io.StringIO):
+        def isatty(self) -> bool:
+            return True
+
+    demo = Path(__file__).resolve().parents[1] / "demo_data"
+    for name in ("demo_project.json", "demo_cohort.csv"):
+        shutil.copyfile(demo / name, tmp_path / name)
+    err = Terminal()
+    monkeypatch.setattr(cli, "PROGRESS_DELAY", 0.0)  # every line, however quick the run
+    monkeypatch.setattr(cli, "PROGRESS_EVERY", 0.0)
+    monkeypatch.setattr(sys, "stderr", err)
+    monkeypatch.setattr(sys, "stdout", io.StringIO())
+    assert main(["check", "--json", str(tmp_path / "demo_project.json")]) == 0
+    lines = [line.strip() for line in err.getvalue().split("\r") if line.strip()]
+    modification = [line for line in lines if "Checking effect modification: model" in line]
+    residual = [line for line in lines if "Checking residual confounding: model" in line]
+    # the demo examines ten candidates and two continuous confounders (check --json)
+    assert modification[0].endswith("model 1 of 11")
+    assert modification[-1].endswith("model 11 of 11")
+    assert residual[0].endswith("model 1 of 5")
+    assert residual[-1].endswith("model 5 of 5")
+    assert lines.index(modification[-1]) < lines.index(residual[0])
+
+
 def test_progress_goes_to_a_terminal_only_and_only_for_long_runs() -> None:
     import io
 

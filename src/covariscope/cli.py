@@ -133,6 +133,10 @@ def has_display() -> bool:
     return True
 
 
+#: a run shorter than this many seconds prints no progress; lines at most this often
+PROGRESS_DELAY, PROGRESS_EVERY = 1.0, 0.1
+
+
 class TerminalProgress:
     """Progress of a long run on standard error: only on a terminal, and only
     once the run has taken more than a second (short runs print nothing).
@@ -142,7 +146,9 @@ class TerminalProgress:
     >>> show(0.5, "Fitting model 3 of 42, pass 2 over the rows"); show.close()
     """
 
-    def __init__(self, stream: Any, *, delay: float = 1.0, every: float = 0.1) -> None:
+    def __init__(
+        self, stream: Any, *, delay: float = PROGRESS_DELAY, every: float = PROGRESS_EVERY
+    ) -> None:
         self.stream = stream
         self.active = bool(getattr(stream, "isatty", lambda: False)())
         self.delay, self.every = delay, every
@@ -182,7 +188,7 @@ def _run(args: argparse.Namespace) -> tuple[Any, Any]:
         source = open_source(args.data, engine, scheduler=scheduler)
     elif project.data is not None:
         source = open_source(project.data.resolve(project.path), engine, scheduler=scheduler)
-    progress = TerminalProgress(sys.stderr)
+    progress = TerminalProgress(sys.stderr, delay=PROGRESS_DELAY, every=PROGRESS_EVERY)
     try:
         result = run_study(project, source=source, family=args.family, progress=progress)
     finally:

@@ -29,7 +29,7 @@ VanderWeele, T. J. & Knol, M. J. (2014). A tutorial on interaction.
 from __future__ import annotations
 
 import math
-from collections.abc import Sequence
+from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 
 import numpy as np
@@ -282,6 +282,7 @@ def modification_table(
     ratio_guide: float = 1.5,
     near: ColumnFit | None = None,
     summary: LinearSummary | None = None,
+    on_fit: Callable[[int, int], None] | None = None,
 ) -> dict[str, Modification]:
     """:func:`effect_modification` of every candidate with data, in the model exposure + ``terms``.
 
@@ -289,15 +290,42 @@ def modification_table(
     left out.  Every fit starts from ``near``, the fit of exposure + ``terms``
     (`base_fit`; fitted here when not given).  With ``summary`` (the
     design's means and co-moments) a linear model reads only its product
-    columns.
+    columns.  ``on_fit(k, n)`` is called before each of the ``n`` models is
+    fitted (the base fit first, when it is fitted here); whatever it raises
+    stops the table between two fits (the window's cancel).
+
+    Examples
+    --------
+    >>> import pandas as pd
+    >>> from covariscope.analysis.design import TermSpec, make_design
+    >>> rng = np.random.default_rng(2)
+    >>> m = rng.integers(0, 2, 500); c = rng.normal(size=500); x = rng.normal(size=500)
+    >>> d = make_design(pd.DataFrame({"x": x, "m": m, "c": c, "y": x + c + rng.normal(size=500)}),
+    ...                 exposure=TermSpec("x", "continuous"), outcome="y", family="linear",
+    ...                 covariates={"m": TermSpec("m", "binary"), "c": TermSpec("c", "continuous")})
+    >>> seen = []
+    >>> sorted(modification_table(d, ["c"], ["m", "c"], on_fit=lambda k, n: seen.append((k, n))))
+    ['c', 'm']
+    >>> seen
+    [(1, 3), (2, 3), (3, 3)]
     """
     if any(t not in design.blocks for t in terms):
         return {}
     wanted = [c for c in candidates if c in design.blocks and c not in design.constant]
+    fitted_here = near is None and bool(wanted)
+    total = len(wanted) + fitted_here
+
+    def starting(k: int) -> None:
+        if on_fit is not None:
+            on_fit(k, total)
+
     if near is None and wanted:
+        starting(1)
         near = base_fit(design, terms, summary=summary)
-    return {
-        c: effect_modification(
+    out: dict[str, Modification] = {}
+    for k, c in enumerate(wanted, start=1 + fitted_here):
+        starting(k)
+        out[c] = effect_modification(
             design,
             terms,
             c,
@@ -306,5 +334,4 @@ def modification_table(
             near=near,
             summary=summary,
         )
-        for c in wanted
-    }
+    return out

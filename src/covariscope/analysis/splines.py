@@ -10,8 +10,9 @@ change guide suggests the spline.
 
 from __future__ import annotations
 
+import itertools
 import math
-from collections.abc import Mapping, Sequence
+from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass
 
 import numpy as np
@@ -58,6 +59,7 @@ def residual_confounding(
     change_guide: float = 10.0,
     near: ColumnFit | None = None,
     summary: LinearSummary | None = None,
+    on_fit: Callable[[], None] | None = None,
 ) -> ResidualCheck:
     """Compare the exposure estimate with ``node`` linear and as a spline.
 
@@ -72,6 +74,8 @@ def residual_confounding(
         rows of an iterative fit; the result is the same)
     summary : the design's means and co-moments, outcome last: a linear
         model then reads only its own new columns (`fit_extra`)
+    on_fit : called before each of the two fits (linear, then spline); what
+        it raises stops the check between them
 
     Examples
     --------
@@ -99,11 +103,15 @@ def residual_confounding(
     same = {node: near_value(near, block.columns[0])} if block.raw is None else {}
     lin_names = [*names, node]
     start = None if near is None else start_from(near, lin_names, given=same)
+    if on_fit is not None:
+        on_fit()
     linear = fit_extra(design, cols, [raw], lin_names, start=start, summary=summary)
     if isinstance(linear, str):
         return ResidualCheck(node, knots, nan, nan, nan, False, linear)
     spl_names = [*names, *(f"{node}[spline {j + 1}]" for j in range(basis.shape[1]))]
     start = start_from(linear, spl_names, given=_as_spline(linear, node, raw, basis, spl_names))
+    if on_fit is not None:
+        on_fit()
     spline = fit_extra(design, cols, [basis], spl_names, start=start, summary=summary)
     if isinstance(spline, str):
         return ResidualCheck(node, knots, nan, nan, nan, False, spline)
@@ -154,6 +162,7 @@ def residual_table(
     change_guide: float = 10.0,
     near: ColumnFit | None = None,
     summary: LinearSummary | None = None,
+    on_fit: Callable[[int, int], None] | None = None,
 ) -> dict[str, ResidualCheck]:
     """:func:`residual_confounding` for every continuous confounder among ``terms``.
 
@@ -161,16 +170,49 @@ def residual_table(
     a binary or categorical covariate, or one whose column never varies, is
     left out.  Every fit starts from ``near``, the fit of exposure + ``terms``
     (`~covariscope.analysis.column_fit.base_fit`; fitted here when not given).
+    With ``summary`` (the design's means and co-moments) a linear model reads
+    only its own new columns.  ``on_fit(k, n)`` is called before each of the ``n`` models is fitted (the
+    base fit first when it is fitted here, then two per confounder: linear,
+    spline; a check that stops early skips its numbers); whatever it raises
+    stops the table between two fits (the window's cancel).
+
+    Examples
+    --------
+    >>> import pandas as pd
+    >>> from covariscope.analysis.design import TermSpec, make_design
+    >>> rng = np.random.default_rng(4)
+    >>> a, c = rng.normal(size=(2, 800)); x = a + c + rng.normal(size=800)
+    >>> d = make_design(pd.DataFrame({"x": x, "a": a, "c": c, "y": x + a + c}),
+    ...                 exposure=TermSpec("x", "continuous"), outcome="y", family="linear",
+    ...                 covariates={"a": TermSpec("a", "continuous"), "c": TermSpec("c", "continuous")})
+    >>> seen = []
+    >>> sorted(residual_table(d, ["a", "c"], ["a", "c"], on_fit=lambda k, n: seen.append((k, n))))
+    ['a', 'c']
+    >>> seen
+    [(1, 5), (2, 5), (3, 5), (4, 5), (5, 5)]
     """
+    examined = [
+        c
+        for c in confounders
+        if c in terms
+        and c in design.blocks
+        and not design.blocks[c].levels
+        and c not in design.constant
+    ]
+    fitted_here = near is None and bool(examined)
+    total = 2 * len(examined) + fitted_here
+
+    def starting(k: int) -> None:
+        if on_fit is not None:
+            on_fit(k, total)
+
+    if near is None and examined:
+        starting(1)
+        near = base_fit(design, terms, summary=summary)
     out: dict[str, ResidualCheck] = {}
-    tried = near is not None
-    for c in confounders:
-        block = design.blocks.get(c)
-        if c not in terms or block is None or block.levels or c in design.constant:
-            continue
+    for i, c in enumerate(examined):
+        block = design.blocks[c]
         raw = block.raw if block.raw is not None else block.values[:, 0]
-        if not tried:
-            near, tried = base_fit(design, terms, summary=summary), True
         out[c] = residual_confounding(
             design,
             terms,
@@ -180,5 +222,12 @@ def residual_table(
             change_guide=change_guide,
             near=near,
             summary=summary,
+            on_fit=_numbered(1 + fitted_here + 2 * i, starting),
         )
     return out
+
+
+def _numbered(first: int, starting: Callable[[int], None]) -> Callable[[], None]:
+    """A call per fit that numbers them on from ``first``."""
+    count = itertools.count(first)
+    return lambda: starting(next(count))

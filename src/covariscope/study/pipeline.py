@@ -55,7 +55,7 @@ from covariscope.study.prepare import (
     sufficient_statistics,
 )
 from covariscope.study.result import ESTIMATE_KEYS, Progress, StudyResult
-from covariscope.study.rows_read import RowsRead, reads_key, rows_read
+from covariscope.study.rows_read import MODIFICATION_SPAN, RowsRead, reads_key, rows_read
 from covariscope.study.source import ColumnSource, source_of
 from covariscope.study.whole_source import prepare_evidence
 from covariscope.vocabulary import CAUTION_BRIEF, DEFAULT_THRESHOLDS
@@ -275,12 +275,14 @@ def _plan(q: Question, da: DiagramAnalysis, bound: Sequence[str], messages: list
 def _evidence(
     run: Run, engine: EvidenceEngine, plan: Plan, q: Question, report: Progress
 ) -> EvidenceTable:
+    share = MODIFICATION_SPAN[0] - 0.15  # the tables of rows_read follow
+
     def step(done: int, total: int) -> None:
-        report(0.15 + 0.8 * done / max(total, 1), f"Fitting model {done} of {total}")
+        report(0.15 + share * done / max(total, 1), f"Fitting model {done} of {total}")
 
     def each_pass(model: int, total: int, passes: int) -> None:
         report(
-            0.15 + 0.8 * (model - 1) / max(total, 1),
+            0.15 + share * (model - 1) / max(total, 1),
             f"Fitting model {model} of {total}, pass {passes} over the rows",
         )
 
@@ -380,7 +382,7 @@ def run_study(
         (criteria.key, q, data.key),
         lambda: decide(q, criteria.graph, da, data.evidence, data.engine),
     )
-    read = _rows_read(run, q, da, data, decisions)
+    read = _rows_read(run, q, da, data, decisions, report)
     checks = _checks(run, project, q, criteria, data, report)
     if checks is not None:
         # After the disagreements: their short form stays the verdict's own sentence.
@@ -403,7 +405,12 @@ def run_study(
 
 
 def _rows_read(
-    run: Run, q: Question, da: DiagramAnalysis, data: DataStage, decisions: Decisions
+    run: Run,
+    q: Question,
+    da: DiagramAnalysis,
+    data: DataStage,
+    decisions: Decisions,
+    report: Progress,
 ) -> RowsRead:
     """Pictures, effect modification and the residual-confounding check: each
     its own stage, keyed by what it reads (see :mod:`covariscope.study.rows_read`)."""
@@ -418,6 +425,7 @@ def _rows_read(
         data.engine,
         decisions.groups,
         decisions.estimates["recommended"],
+        report=report,
     )
 
 

@@ -14,7 +14,7 @@ computed again.
 
 from __future__ import annotations
 
-from collections.abc import Iterable, Mapping, Sequence
+from collections.abc import Callable, Iterable, Mapping, Sequence
 from dataclasses import dataclass, field
 from functools import partial
 from typing import Any
@@ -29,8 +29,20 @@ from covariscope.analysis.modification import Modification, modification_table
 from covariscope.analysis.splines import ResidualCheck, residual_table
 from covariscope.study.decide import Question
 from covariscope.study.prepare import DesignSpec, Run
+from covariscope.study.result import Progress
 
-__all__ = ["RowsRead", "reads_key", "rows_read"]
+__all__ = [
+    "MODIFICATION_SPAN",
+    "RESIDUAL_SPAN",
+    "RowsRead",
+    "fit_reporter",
+    "reads_key",
+    "rows_read",
+]
+
+#: the share of the progress bar each table's fits take (after the evidence)
+MODIFICATION_SPAN = (0.80, 0.88)
+RESIDUAL_SPAN = (0.88, 0.95)
 
 #: what the stages say when the rows stay where they lie
 _NOT_IN_MEMORY = (
@@ -87,6 +99,32 @@ def reads_key(spec: DesignSpec | None, design: Design, nodes: Iterable[str]) -> 
     )
 
 
+def fit_reporter(
+    run: Run, report: Progress | None, words: str, span: tuple[float, float]
+) -> Callable[[int, int], None]:
+    """The ``on_fit(k, n)`` of a table of fits: stops between two fits when
+    the run was cancelled, and says "<words>: model k of n" across ``span``
+    of the progress bar.
+
+    Examples
+    --------
+    >>> from covariscope.study.cache import StudyCache
+    >>> said = []
+    >>> on_fit = fit_reporter(Run(StudyCache(), []), lambda f, t: said.append((f, t)),
+    ...                       "Checking effect modification", (0.8, 0.9))
+    >>> on_fit(3, 4); [(round(f, 3), t) for f, t in said]
+    [(0.85, 'Checking effect modification: model 3 of 4')]
+    """
+    low, high = span
+
+    def on_fit(k: int, n: int) -> None:
+        run.check()
+        if report is not None:
+            report(low + (high - low) * (k - 1) / max(n, 1), f"{words}: model {k} of {n}")
+
+    return on_fit
+
+
 def _pictures(
     run: Run,
     spec: DesignSpec | None,
@@ -126,6 +164,7 @@ def _modification(
     candidates: Sequence[str],
     guides: tuple[float, float],
     summary: LinearSummary | None,
+    report: Progress | None = None,
 ) -> dict[str, Modification]:
     """:func:`~covariscope.analysis.modification.modification_table`, one entry
     per candidate (it reads the model's terms and the candidate); the
@@ -148,6 +187,7 @@ def _modification(
             p_guide=guides[0],
             ratio_guide=guides[1],
             summary=summary,
+            on_fit=fit_reporter(run, report, "Checking effect modification", MODIFICATION_SPAN),
         ),
     )
     return found
@@ -162,6 +202,7 @@ def _residual(
     knots: Mapping[str, int],
     guide: float,
     summary: LinearSummary | None,
+    report: Progress | None = None,
 ) -> dict[str, ResidualCheck]:
     """:func:`~covariscope.analysis.splines.residual_table`, one entry per
     continuous confounder (it reads the model's terms and the knots); those
@@ -188,6 +229,7 @@ def _residual(
             knots={c: knots[c] for c in missing if c in knots},
             change_guide=guide,
             summary=summary,
+            on_fit=fit_reporter(run, report, "Checking residual confounding", RESIDUAL_SPAN),
         ),
     )
     return found
@@ -202,12 +244,16 @@ def rows_read(
     engine: EvidenceEngine,
     groups: Sequence[tuple[str, ...]],
     recommended: Fit | None,
+    *,
+    report: Progress | None = None,
 ) -> RowsRead:
     """The collinearity pictures, effect modification and the residual-confounding
     check of continuous confounders, each through its own cached stage.
 
     They read the rows themselves, so a design whose rows stay with their
-    source gets none of them, and a message that says so.
+    source gets none of them, and a message that says so.  ``report(fraction,
+    text)`` hears of every model the two tables fit, and the run's cancel is
+    checked between them.
     """
     thresholds = q.threshold
     design = engine.design
@@ -225,7 +271,7 @@ def rows_read(
     modification = (
         {}
         if design.multilevel
-        else _modification(run, spec, design, terms, evidence.candidates, guides, summary)
+        else _modification(run, spec, design, terms, evidence.candidates, guides, summary, report)
     )
     confounders = [c for c in terms if c in da.roles and da.roles[c].role == "confounder"]
     residual = _residual(
@@ -237,6 +283,7 @@ def rows_read(
         dict(q.spline_knots),
         thresholds["change_pct"],
         summary,
+        report,
     )
     said = (_MULTILEVEL,) if design.multilevel else ()
     return RowsRead(pictures, modification, residual, said)
