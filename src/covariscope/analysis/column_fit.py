@@ -16,6 +16,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from covariscope.analysis.design import Design
+from covariscope.analysis.families import Fitter, family_of
 from covariscope.analysis.linear import LinearSummary
 
 __all__ = ["ColumnFit", "base_fit", "fit_columns", "fit_extra", "model_matrix", "start_from"]
@@ -113,7 +114,8 @@ def fit_columns(
     if ones_first:
         Xi, X = X, X[:, 1:]
     family = design.family
-    if family == "linear":
+    fitter = family_of(family).fitter
+    if fitter is Fitter.LEAST_SQUARES:
         from covariscope.analysis.linear import linear_summary, solve_ols
 
         assert design.y is not None
@@ -122,7 +124,7 @@ def fit_columns(
         if res is None or res.cov is None:
             return "the model's columns are exactly collinear"
         return ColumnFit(res.coef, res.cov, res.df_resid)
-    if family == "cox":
+    if fitter is Fitter.COX:
         from covariscope.analysis.survival import fit_cox
 
         assert design.time is not None
@@ -173,7 +175,7 @@ def fit_extra(
     need only these sums), to rounding.  Other families, or no summary,
     build the model's matrix (`model_matrix`) and fit it.
     """
-    if design.family == "linear" and summary is not None:
+    if family_of(design.family).fitter is Fitter.LEAST_SQUARES and summary is not None:
         return _linear_extra(design, list(cols), extra, summary)
     return fit_columns(
         design, model_matrix(design, cols, *extra), names, start=start, ones_first=True

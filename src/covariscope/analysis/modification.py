@@ -42,8 +42,9 @@ from covariscope.analysis.column_fit import (
 )
 from covariscope.analysis.design import Design
 from covariscope.analysis.distributions import chi2_sf, f_sf, norm_ppf, t_ppf
+from covariscope.analysis.families import family_of
 from covariscope.analysis.linear import LinearSummary
-from covariscope.vocabulary import RATIO_FAMILIES, ModificationForm
+from covariscope.vocabulary import ModificationForm
 
 __all__ = [
     "Modification",
@@ -221,7 +222,7 @@ def effect_modification(
         return Modification(
             node, ModificationForm.MODEL, kind, (), nan, k, nan, nan, False, message=fitted
         )
-    ratio = design.family in RATIO_FAMILIES
+    ratio = family_of(design.family).ratio
     p_idx = list(range(len(names), len(names) + k))
     z = (
         float(t_ppf(0.5 + level / 2.0, fitted.df_resid))

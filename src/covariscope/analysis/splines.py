@@ -24,9 +24,9 @@ from covariscope.analysis.column_fit import (
     start_from,
 )
 from covariscope.analysis.design import Design
+from covariscope.analysis.families import family_of
 from covariscope.analysis.linear import LinearSummary
 from covariscope.analysis.spline_basis import DEFAULT_KNOTS, spline_basis
-from covariscope.vocabulary import RATIO_FAMILIES
 
 __all__ = ["ResidualCheck", "residual_confounding", "residual_table"]
 
@@ -125,7 +125,7 @@ def residual_confounding(
 
 def _change(b_lin: float, b_spl: float, family: str) -> float:
     """Change from the linear to the spline form, on the scale the change guide reads."""
-    if family in RATIO_FAMILIES:
+    if family_of(family).ratio:
         return 100.0 * math.expm1(b_spl - b_lin)
     return 100.0 * (b_spl - b_lin) / abs(b_lin) if b_lin != 0 else math.inf
 

@@ -21,6 +21,7 @@ from typing import Any
 
 from covariscope.analysis.design import Design
 from covariscope.analysis.evidence import EvidenceEngine, EvidenceTable
+from covariscope.analysis.families import Fitter, family_of
 from covariscope.analysis.fits import Fit
 from covariscope.analysis.graph import DiagramAnalysis
 from covariscope.analysis.joint_region import CollinearityPicture, collinearity_pictures
@@ -267,7 +268,7 @@ def rows_read(
     guides = (thresholds["modification_p"], thresholds["modification_ratio"])
     # A linear model's checks read only their own new columns: the design's
     # cross-products come from the evidence engine's one-pass summary.
-    summary = engine.summary if design.family == "linear" else None
+    summary = engine.summary if family_of(design.family).fitter is Fitter.LEAST_SQUARES else None
     modification = (
         {}
         if design.multilevel
