@@ -57,6 +57,7 @@ from covariscope.analysis.claim_fits import (
 from covariscope.analysis.claims import CORRECTIONS, Claim, ClaimSet, Untestable
 from covariscope.analysis.design import Design
 from covariscope.analysis.distributions import norm_ppf, t_ppf
+from covariscope.analysis.families import family_of
 from covariscope.analysis.linear import LinearSummary, linear_summary
 from covariscope.vocabulary import StrengthKind
 
@@ -149,7 +150,7 @@ def _outcome_type(design: Design, y: np.ndarray) -> str:
     if np.isin(y, (0.0, 1.0)).all():
         return "binary"
     whole = bool(np.all(y >= 0) and np.all(np.floor(y) == y))
-    return "count" if whole and design.family == "risk_ratio" else "continuous"
+    return "count" if whole and family_of(design.family).count_outcome else "continuous"
 
 
 def design_claim_data(
@@ -192,7 +193,11 @@ def design_claim_data(
         stats = design.row_stats
         binary = stats.outcome_not_binary == 0
         types[outcome] = (
-            "binary" if binary else "count" if design.family == "risk_ratio" else "continuous"
+            "binary"
+            if binary
+            else "count"
+            if family_of(design.family).count_outcome
+            else "continuous"
         )
         names.append(outcome)
     return ClaimData(design.values, columns, types, summary, tuple(names))

@@ -24,8 +24,9 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 from covariscope.analysis.distributions import chi2_sf, f_sf
+from covariscope.analysis.families import family_of
 from covariscope.analysis.fits import Fit
-from covariscope.vocabulary import RATIO_FAMILIES, change_read
+from covariscope.vocabulary import change_read
 
 if TYPE_CHECKING:  # evidence imports this module
     from covariscope.analysis.evidence import Comparison
@@ -108,7 +109,7 @@ def block_wald(fit: Fit, columns: Sequence[str]) -> BlockWald | None:
     except np.linalg.LinAlgError:
         return None
     k = len(cols)
-    if fit.family == "linear" and fit.df_resid:
+    if family_of(fit.family).least_squares and fit.df_resid:
         f = chi2 / k
         return BlockWald(f, k, f_sf(f, k, fit.df_resid), "F")
     return BlockWald(chi2, k, chi2_sf(chi2, k))
@@ -146,7 +147,7 @@ def joint_summary(
     >>> j.moved_most, round(j.largest_change_pct)
     ('c vs a', 20)
     """
-    ratio = with_added.family in RATIO_FAMILIES
+    ratio = family_of(with_added.family).ratio
     shifts: list[ContrastShift] = []
     best: tuple[float, str, float | None] | None = None
     levels = [c.level for c in with_added.contrasts] or [c.level for c in without_added.contrasts]
@@ -184,7 +185,7 @@ def moved_most(fit: Fit, crude: Fit, compare: Callable[[Fit, Fit], Comparison]) 
     """The contrast whose estimate moves most from the crude model to ``fit``
     (largest absolute change on the scale the change guide reads); None when
     neither fit has contrasts or no change is defined."""
-    ratio = fit.family in RATIO_FAMILIES
+    ratio = family_of(fit.family).ratio
     best: tuple[float, str] | None = None
     for c in fit.contrasts:
         value = _read(compare(fit.for_contrast(c.level), crude.for_contrast(c.level)), ratio)

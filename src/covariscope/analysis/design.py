@@ -11,14 +11,14 @@ model takes its columns as views.  Categorical terms become treatment
 from __future__ import annotations
 
 import hashlib
-from collections.abc import Mapping
+from collections.abc import Callable, Mapping
 from dataclasses import dataclass, field
 from typing import Any
 
 import numpy as np
 import pandas as pd
 
-from covariscope.analysis.fits import FAMILIES
+from covariscope.analysis.families import ModelFamily, family_of
 from covariscope.analysis.rows import ColumnStats, RowReducer
 from covariscope.analysis.spline_basis import spline_basis
 from covariscope.errors import DataError
@@ -404,25 +404,6 @@ def _numeric_series(series: pd.Series, column: str, what: str) -> np.ndarray:
     return _numeric(pd.DataFrame({column: series}, copy=False), column, what)
 
 
-def _check_outcome(y: np.ndarray, family: str, column: str) -> None:
-    if family == "logistic" and not np.isin(y, (0.0, 1.0)).all():
-        bad = y[~np.isin(y, (0.0, 1.0))][0]
-        raise DataError(
-            f"Logistic regression needs an outcome coded 0/1, but {column!r} holds {bad:g}; "
-            "recode the outcome or choose the linear family."
-        )
-    if family == "risk_ratio" and (y < 0).any():
-        raise DataError(
-            f"The risk/rate-ratio model needs a 0/1 or count outcome, but {column!r} has negative "
-            "values; recode the outcome or choose the linear family."
-        )
-    if family in ("logistic", "risk_ratio") and np.all(y == y[0]):
-        raise DataError(
-            f"The outcome {column!r} takes the single value {y[0]:g} in every row of the analytic "
-            "sample, so no effect on it can be estimated."
-        )
-
-
 def make_design(
     frame: pd.DataFrame,
     *,
@@ -450,7 +431,7 @@ def make_design(
     outcome : str or None
         Outcome column (None for the Cox family, which uses ``time`` and ``event``).
     family : str
-        One of :data:`~covariscope.analysis.fits.FAMILIES`.
+        One of :data:`~covariscope.analysis.families.FAMILY_CODES`.
     time, event, offset : str, optional
         Survival time and event indicator (Cox); log-scale offset (risk/rate ratio).
     exposure_node : str, optional
@@ -470,8 +451,7 @@ def make_design(
     >>> d.blocks["z"].columns
     ('z[b]', 'z[c]')
     """
-    if family not in FAMILIES:
-        raise DataError(f"Unknown model family {family!r}; use one of {', '.join(FAMILIES)}.")
+    family_of(family)  # an unknown family is refused before any work
     exposure_node = exposure_node or exposure.column
     n = len(frame)
     names, vectors, x_levels = _coded(frame, exposure, "exposure")
@@ -510,38 +490,15 @@ def make_design(
         for node in constant
     )
 
-    y = None
-    if family != "cox":
-        if outcome is None:
-            raise DataError(f"The {family} family needs an outcome column; bind the outcome node.")
-        y = _numeric(frame, outcome, "outcome")
-        if n > 0:
-            _check_outcome(y, family, outcome)
-    time_v = event_v = offset_v = None
-    if family == "cox":
-        if time is None or event is None:
-            raise DataError("The Cox family needs a time column and an event column; choose both.")
-        time_v = _numeric(frame, time, "survival time")
-        if (time_v <= 0).any():
-            raise DataError(
-                f"Survival times must be positive, but {time!r} has "
-                f"{int((time_v <= 0).sum())} zero or negative values; correct them or drop those rows."
-            )
-        event_v = _numeric(frame, event, "event indicator")
-        if not np.isin(event_v, (0.0, 1.0)).all():
-            raise DataError(
-                f"The event indicator {event!r} must be coded 0/1 (1 = event); recode it."
-            )
-        if not event_v.any():
-            raise DataError(
-                f"The event indicator {event!r} records no events; a hazard ratio cannot be estimated."
-            )
-    if offset is not None:
-        offset_v = _numeric(frame, offset, "offset")
+    y, time_v, event_v, offset_v = _outcomes(
+        family_of(family),
+        lambda column, what: _numeric(frame, column, what),
+        {"outcome": outcome, "time": time, "event": event, "offset": offset},
+    )
 
     # Only the crude model must fit; larger models with too few rows are
     # reported one by one by the engine, and the rest still run.
-    n_params = 1 + (0 if family == "cox" else 1)
+    n_params = family_of(family).crude_params
     if n <= n_params:
         raise DataError(
             f"The analytic sample has {n} rows, too few even for the crude model "
@@ -625,39 +582,42 @@ def outcome_values(
         An unknown family, a missing or non-numeric column, or values the
         family cannot model (naming the fix).
     """
-    if family not in FAMILIES:
-        raise DataError(f"Unknown model family {family!r}; use one of {', '.join(FAMILIES)}.")
+    fam = family_of(family)
+
+    def read(column: str, what: str) -> np.ndarray:
+        return _numeric_series(_column(frame, column, what), column, what)
+
+    return Outcomes(*_outcomes(fam, read, columns))
+
+
+def _outcomes(
+    fam: ModelFamily,
+    read: Callable[[str, str], np.ndarray],
+    columns: Mapping[str, str | None],
+) -> tuple[np.ndarray | None, np.ndarray | None, np.ndarray | None, np.ndarray | None]:
+    """Outcome, time, event and offset values the family reads, checked by the family."""
     outcome, time, event, offset = (columns.get(k) for k in ("outcome", "time", "event", "offset"))
     y = time_v = event_v = offset_v = None
-    if family != "cox":
-        if outcome is None:
-            raise DataError(f"The {family} family needs an outcome column; bind the outcome node.")
-        y = _numeric_series(_column(frame, outcome, "outcome"), outcome, "outcome")
-        if len(y) > 0:
-            _check_outcome(y, family, outcome)
-    if family == "cox":
+    if fam.survival:
         if time is None or event is None:
-            raise DataError("The Cox family needs a time column and an event column; choose both.")
-        time_v = _numeric_series(_column(frame, time, "survival time"), time, "survival time")
-        if (time_v <= 0).any():
             raise DataError(
-                f"Survival times must be positive, but {time!r} has "
-                f"{int((time_v <= 0).sum())} zero or negative values; correct them or drop those rows."
+                f"The {fam.term.short} family needs a time column and an event column; choose both."
             )
-        event_v = _numeric_series(
-            _column(frame, event, "event indicator"), event, "event indicator"
-        )
-        if not np.isin(event_v, (0.0, 1.0)).all():
+        time_v = read(time, "survival time")
+        fam.check_time(time_v, time)
+        event_v = read(event, "event indicator")
+        fam.check_event(event_v, event)
+    else:
+        if outcome is None:
             raise DataError(
-                f"The event indicator {event!r} must be coded 0/1 (1 = event); recode it."
+                f"The {fam.code.value} family needs an outcome column; bind the outcome node."
             )
-        if not event_v.any():
-            raise DataError(
-                f"The event indicator {event!r} records no events; a hazard ratio cannot be estimated."
-            )
+        y = read(outcome, "outcome")
+        if len(y) > 0:
+            fam.check_outcome(y, outcome)
     if offset is not None:
-        offset_v = _numeric_series(_column(frame, offset, "offset"), offset, "offset")
-    return Outcomes(y, time_v, event_v, offset_v)
+        offset_v = read(offset, "offset")
+    return y, time_v, event_v, offset_v
 
 
 def _is_constant(values: np.ndarray) -> bool:
@@ -735,7 +695,7 @@ class DesignBuilder:
         n = self.n
         # Only the crude model must fit; larger models with too few rows are
         # reported one by one by the engine, and the rest still run.
-        n_params = 1 + (0 if family == "cox" else 1)
+        n_params = family_of(family).crude_params
         if n <= n_params:
             raise DataError(
                 f"The analytic sample has {n} rows, too few even for the crude model "

@@ -22,8 +22,8 @@ from covariscope.analysis.design import (
     constant_message,
     level_texts,
 )
-from covariscope.analysis.fits import FAMILIES
-from covariscope.analysis.rows import ColumnStats, RowReducer, reduce_column_stats
+from covariscope.analysis.families import FAMILY_CODES, family_of
+from covariscope.analysis.rows import RowReducer, reduce_column_stats
 from covariscope.errors import DataError
 
 __all__ = ["make_row_design"]
@@ -40,26 +40,6 @@ def _spans(
         names += coding.names
         spans[node] = (coding.names, tuple(range(start, start + len(coding.names))))
     return names, spans
-
-
-def _check_outcome(stats: ColumnStats, family: str, column: str) -> None:
-    low, high = float(stats.low[-1]), float(stats.high[-1])
-    if family == "logistic" and stats.outcome_not_binary:
-        raise DataError(
-            f"Logistic regression needs an outcome coded 0/1, but {column!r} holds other values "
-            f"in {stats.outcome_not_binary:,} rows (from {low:g} to {high:g}); recode the outcome "
-            "or choose the linear family."
-        )
-    if family == "risk_ratio" and low < 0:
-        raise DataError(
-            f"The risk/rate-ratio model needs a 0/1 or count outcome, but {column!r} has negative "
-            "values; recode the outcome or choose the linear family."
-        )
-    if family in ("logistic", "risk_ratio") and low == high:
-        raise DataError(
-            f"The outcome {column!r} takes the single value {low:g} in every row of the analytic "
-            "sample, so no effect on it can be estimated."
-        )
 
 
 def make_row_design(
@@ -84,7 +64,8 @@ def make_row_design(
         :func:`~covariscope.analysis.design.plan_term`).
     outcome : str
         The outcome column (the Cox family needs the rows in memory).
-    family : "linear", "logistic" or "risk_ratio"
+    family : str
+        A family whose models fit from row sums (:attr:`ModelFamily.row_sums`).
     source_key : str
         Identifies the rows (the file and the filter); with the specification
         it makes the design's cache key.
@@ -94,7 +75,7 @@ def make_row_design(
     DataError
         With one message naming the problem and the fix.
     """
-    if family not in FAMILIES or family == "cox":
+    if family not in FAMILY_CODES or not family_of(family).row_sums:
         raise DataError(
             f"The {family} family cannot be fitted from row sums; its rows must be in memory."
         )
@@ -122,7 +103,9 @@ def make_row_design(
         for node in constant
     )
     if n > 0:
-        _check_outcome(stats, family, outcome)
+        family_of(family).check_outcome_sums(
+            float(stats.low[-1]), float(stats.high[-1]), stats.outcome_not_binary, outcome
+        )
     if n <= 2:
         raise DataError(
             f"The analytic sample has {n} rows, too few even for the crude model "

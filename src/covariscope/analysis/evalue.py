@@ -37,7 +37,7 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
-from covariscope.vocabulary import RATIO_FAMILIES
+from covariscope.analysis.families import family_of
 
 if TYPE_CHECKING:
     from covariscope.analysis.design import Design
@@ -202,12 +202,13 @@ def evalue_for_fit(
     if fit is None or not fit.ok:
         return None, None
     try:
-        if fit.family in RATIO_FAMILIES:
+        fam = family_of(fit.family)
+        if fam.ratio:
             ratio, ratio_ci = fit.ratio, fit.ratio_ci
             assert ratio is not None
             assert ratio_ci is not None
             share = None
-            if fit.family == "cox" and design.event is not None:
+            if fam.survival and design.event is not None:
                 share = float(np.mean(design.event))
             elif design.y is not None:
                 share = float(np.mean(design.y > 0))
@@ -215,10 +216,10 @@ def evalue_for_fit(
                 share = design.row_stats.outcome_positive / design.n
             common = share is not None and share >= COMMON_OUTCOME_PREVALENCE
             return evalue_for_estimate(ratio, ratio_ci, measure, common_outcome=common), None
-        if fit.family == "linear" and design.y is not None and len(design.y) > 1:
+        if fam.least_squares and design.y is not None and len(design.y) > 1:
             sd = float(np.std(design.y, ddof=1))
             return evalue_for_estimate(fit.coef, fit.ci, "mean difference", outcome_sd=sd), None
-        if fit.family == "linear" and design.row_stats is not None and design.n > 1:
+        if fam.least_squares and design.row_stats is not None and design.n > 1:
             sd = math.sqrt(float(design.row_stats.summary.comoment[-1, -1]) / (design.n - 1))
             return evalue_for_estimate(fit.coef, fit.ci, "mean difference", outcome_sd=sd), None
     except (ValueError, ZeroDivisionError, OverflowError) as exc:

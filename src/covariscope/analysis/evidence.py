@@ -38,6 +38,7 @@ from covariscope.analysis.collinearity import (
 from covariscope.analysis.contrasts import ExposureJoint, joint_summary
 from covariscope.analysis.design import Design, constant_message
 from covariscope.analysis.distributions import t_ppf
+from covariscope.analysis.families import Fitter, family_of
 from covariscope.analysis.fits import Fit
 from covariscope.analysis.linear import (
     LinearSummary,
@@ -47,7 +48,6 @@ from covariscope.analysis.linear import (
     solve_ols,
 )
 from covariscope.errors import DataError
-from covariscope.vocabulary import RATIO_FAMILIES
 
 __all__ = [
     "NEAR_ZERO_SE_FRACTION",
@@ -132,6 +132,8 @@ class EvidenceEngine:
             raise ValueError(f"design was built for {design.family!r}, not {family!r}")
         self.design = design
         self.family = family
+        #: the family object every branch on the family asks
+        self.model_family = family_of(family)
         self._summary = summary
         self._record = record
         # One lock per engine: two threads sharing it fit one model at a time.
@@ -271,17 +273,17 @@ class EvidenceEngine:
     ) -> tuple[Fit, np.ndarray | None]:
         cols = self.columns(terms)
         names = [self.design.column_names[c] for c in cols]
-        intercept = self.family != "cox"
+        intercept = self.model_family.intercept
         problem = self._precheck(terms, len(cols) + int(intercept))
         if problem:
             return Fit.failed(self.family, terms, self.design.n, problem), None
-        if self.family == "linear":
+        if self.model_family.least_squares:
             return self._fit_linear(terms, names), None
         start = self._warm_start(terms, names, intercept)
         if self.design.rows is not None:
             return self._fit_rows(terms, cols, names, start)
         try:
-            if intercept:
+            if self.model_family.fitter is Fitter.GLM:
                 fit, path = self._fit_glm(terms, cols, names, start, on_pass)
             else:
                 fit, path = self._fit_cox(terms, cols, names, start, on_pass)
@@ -384,7 +386,7 @@ class EvidenceEngine:
         rows, stats = self.design.rows, self.design.row_stats
         assert rows is not None
         assert stats is not None
-        if self.family not in ("logistic", "risk_ratio"):
+        if self.model_family.fitter is not Fitter.GLM:
             return Fit.failed(
                 self.family, terms, self.design.n, "This family needs the rows in memory."
             ), None
@@ -506,7 +508,7 @@ class EvidenceEngine:
             every = tuple(range(self.design.n_design_columns))
             sums = glm_pass(self.design.rows, every, b, self.family)
             hit = (sums.information, sums.score)
-        elif self.family == "cox":
+        elif self.model_family.fitter is Fitter.COX:
             sample = self._cox_sample()
             b = np.zeros(sample.X.shape[1])
             b[parent_cols] = parent_params
@@ -543,7 +545,7 @@ class EvidenceEngine:
 
         H, score = self._step_at(parent, parent_cols, parent_params)
         cols = self.columns(terms)
-        cox = self.family == "cox"
+        cox = not self.model_family.intercept
         idx = cols if cox else [0, *(c + 1 for c in cols)]
         try:
             step = np.linalg.solve(H[np.ix_(idx, idx)], score[idx])
@@ -569,7 +571,7 @@ class EvidenceEngine:
             for j in range(1, len(names))
         }
         return Fit(
-            family="linear",
+            family=self.family,
             terms=terms,
             coef=float(res.coef[0]),
             se=float(res.se[0]),
@@ -624,7 +626,7 @@ def compare(
     (-25.0, 100.0)
     """
     nan = float("nan")
-    ratio_family = with_fit.family in RATIO_FAMILIES
+    ratio_family = family_of(with_fit.family).ratio
     if not (with_fit.ok and without_fit.ok):
         failed = with_fit if not with_fit.ok else without_fit
         note = f"Not compared: {failed.message}"
@@ -705,7 +707,7 @@ def _se_parts(
     contrast: int = 0,
 ) -> tuple[float, float, float] | None:
     """The split of the SE ratio of the exposure's column ``contrast`` (linear models)."""
-    if engine.family != "linear":
+    if not engine.model_family.least_squares:
         return None
     w, wo = engine.ols(with_terms), engine.ols(without_terms)
     if w is None or wo is None:
@@ -958,20 +960,7 @@ def compute_evidence(
             "from it and its collinearity diagnostics cannot be estimated. Load more data or "
             "consider fewer candidate covariates."
         )
-    if engine.family == "logistic":
-        warnings.append(
-            "Odds ratios are non-collapsible: the estimate can change on adjustment even without confounding."
-        )
-    if engine.family == "risk_ratio":
-        warnings.append(
-            "Standard errors are robust (sandwich) ones from the log-link Poisson model, "
-            "as Zou (2004) proposed for risk ratios."
-        )
-    if engine.family == "cox":
-        warnings.append(
-            "Hazard ratios are non-collapsible: the estimate can change on adjustment even without confounding. "
-            "Ties are handled by Efron's method."
-        )
+    warnings.extend(engine.model_family.cautions)
     return EvidenceTable(
         family=engine.family,
         crude=crude,

@@ -7,12 +7,10 @@ from dataclasses import dataclass, field, replace
 
 import numpy as np
 
-from covariscope.vocabulary import RATIO_FAMILIES, Family, family_term
+from covariscope.analysis.families import family_of
+from covariscope.vocabulary import family_term
 
-__all__ = ["FAMILIES", "Contrast", "Fit", "effect_measure"]
-
-#: Model families, by the name used in project files and in ``check --json``.
-FAMILIES: tuple[str, ...] = tuple(Family)
+__all__ = ["Contrast", "Fit", "effect_measure"]
 
 
 def effect_measure(family: str, *, count_outcome: bool = False) -> str:
@@ -91,7 +89,7 @@ class Fit:
         found = [(self.coef, self.se, *self.ci)] + [
             self.term_coefs.get(c, (math.nan,) * 4) for c in columns[1:]
         ]
-        ratio = self.family in RATIO_FAMILIES
+        ratio = family_of(self.family).ratio
         contrasts = tuple(
             Contrast(
                 label,
@@ -143,13 +141,13 @@ class Fit:
     @property
     def ratio(self) -> float | None:
         """exp(coef) for ratio families, else None."""
-        if self.family in RATIO_FAMILIES and self.ok:
+        if self.ok and family_of(self.family).ratio:
             return _exp(self.coef)
         return None
 
     @property
     def ratio_ci(self) -> tuple[float, float] | None:
-        if self.family in RATIO_FAMILIES and self.ok:
+        if self.ok and family_of(self.family).ratio:
             return (_exp(self.ci[0]), _exp(self.ci[1]))
         return None
 

@@ -13,6 +13,7 @@ from __future__ import annotations
 import numpy as np
 import numpy.typing as npt
 
+from covariscope.analysis.families import family_of
 from covariscope.analysis.fits import Fit
 
 __all__ = [
@@ -302,15 +303,14 @@ def glm_cautions(family: str, events: float, p: int, *, binary: bool, mu_high: f
     >>> glm_cautions("logistic", 12.0, 3, binary=True, mu_high=0.9)
     ['Only 12 outcomes in the rarer class for 2 covariate parameters (fewer than 10 per parameter, Peduzzi et al. 1996): estimates may be unstable.']
     """
+    link = family_of(family).glm
     said: list[str] = []
-    if family == "risk_ratio" and binary and mu_high > 1.0 + 1e-9:
-        said.append(
-            f"Some fitted risks exceed 1 (largest {mu_high:.3g}); the risk "
-            "ratios remain usable but the fitted risks are not."
-        )
+    risk = link.fitted_risk_caution(binary=binary, mu_high=mu_high)
+    if risk:
+        said.append(risk)
     if p > 1 and events / (p - 1) < EVENTS_PER_PARAMETER:
         said.append(
-            f"Only {events:g} {'events' if family == 'risk_ratio' else 'outcomes in the rarer class'} "
+            f"Only {events:g} {link.events_word} "
             f"for {p - 1} covariate parameters (fewer than {EVENTS_PER_PARAMETER} per parameter, "
             "Peduzzi et al. 1996): estimates may be unstable."
         )

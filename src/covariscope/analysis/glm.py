@@ -30,6 +30,7 @@ from dataclasses import dataclass
 import numpy as np
 import numpy.typing as npt
 
+from covariscope.analysis.families import FAMILIES, Fitter, GlmLink, family_of
 from covariscope.analysis.fits import Fit
 from covariscope.analysis.fitting_common import (
     LEFT_BLANK,
@@ -44,7 +45,7 @@ from covariscope.analysis.fitting_common import (
 from covariscope.analysis.glm_newton import GlmPath, information_and_score, newton_glm
 
 __all__ = [
-    "GLM_FAMILIES",
+    "GLM_FAMILY_CODES",
     "GlmPath",
     "Separation",
     "detect_separation",
@@ -56,15 +57,8 @@ __all__ = [
 
 Array = npt.NDArray[np.float64]
 
-#: Families `fit_glm` fits, with the standard error each one reports.
-GLM_FAMILIES: dict[str, str] = {
-    "logistic": "binomial, logit link; model-based SE (observed information)",
-    "risk_ratio": "Poisson, log link; robust HC0 sandwich SE (Zou 2004)",
-}
-
-#: Fitted probabilities (or rates relative to the mean) closer than this to
-#: 0 or 1 hint at separation and trigger the separation check.
-EXTREME_MU = 1e-8
+#: The families `fit_glm` fits (:attr:`Fitter.GLM`).
+GLM_FAMILY_CODES: tuple[str, ...] = tuple(f.code.value for f in FAMILIES if f.fitter is Fitter.GLM)
 
 
 @dataclass(frozen=True)
@@ -88,8 +82,9 @@ class Separation:
 # ------------------------------------------------------------------ separation
 
 
-def _screen_binary(X: Array, y: Array, family: str, *, first: int = 1) -> Separation:
+def _screen_binary(X: Array, y: Array, link: GlmLink, *, first: int = 1) -> Separation:
     """Cheap check: a two-valued column with no events (or only events) at one value."""
+    both = link.two_sided_separation
     lo, hi = X.min(axis=0), X.max(axis=0)
     is_hi = hi == X
     two_valued = np.all(is_hi | (lo == X), axis=0) & (hi > lo)
@@ -101,10 +96,10 @@ def _screen_binary(X: Array, y: Array, family: str, *, first: int = 1) -> Separa
         for level in (at_hi, ~at_hi):
             ev = int(np.count_nonzero(event[level]))
             size = int(np.count_nonzero(level))
-            if ev == 0 or (family == "logistic" and ev == size):
+            if ev == 0 or (both and ev == size):
                 other = ~level
                 ev_o = int(np.count_nonzero(event[other]))
-                complete = family == "logistic" and ev_o in (0, int(np.count_nonzero(other)))
+                complete = both and ev_o in (0, int(np.count_nonzero(other)))
                 complete = complete and (ev_o == 0) != (ev == 0)
                 kind = "complete" if complete else "quasi-complete"
                 return Separation(kind, (int(j),), len(y) if complete else size)
@@ -131,13 +126,14 @@ def detect_separation(X: Array, y: Array, *, family: str = "logistic") -> Separa
     """
     from scipy import optimize  # on demand: seconds to import
 
-    quick = _screen_binary(X, y, family)
+    link = family_of(family).glm
+    quick = _screen_binary(X, y, link)
     if quick.found:
         return quick
     n, p = X.shape
     Xs = X / np.maximum(np.abs(X).max(axis=0), 1e-300)
     opts = {"presolve": True}
-    if family == "logistic":
+    if link.two_sided_separation:
         s = np.where(y > 0, 1.0, -1.0)
         A = s[:, None] * Xs
         A_eq = None
@@ -168,7 +164,7 @@ def detect_separation(X: Array, y: Array, *, family: str = "logistic") -> Separa
         return Separation("none")
     in_s = margins > thresh
     kind = "quasi-complete"
-    if family == "logistic":
+    if link.two_sided_separation:
         # Complete separation needs every margin positive at once: maximise the smallest.
         c = np.zeros(p + 1)
         c[-1] = -1.0
@@ -225,9 +221,9 @@ def _sparse_direction(
     return tuple(int(j) for j in np.flatnonzero(np.abs(b) > 1e-6 * big)) if big > 0 else ()
 
 
-def _separation_words(sep: Separation, names: list[str], family: str, *, counts: bool) -> str:
+def _separation_words(sep: Separation, names: list[str], link: GlmLink, *, counts: bool) -> str:
     cols = [names[j] for j in sep.columns if j != 0] or [names[j] for j in sep.columns]
-    what = "odds ratios" if family == "logistic" else ("rate ratios" if counts else "risk ratios")
+    what = link.ratio_words(counts=counts)
     who = ", ".join(cols)
     if sep.kind == "complete":
         return (
@@ -235,7 +231,7 @@ def _separation_words(sep: Separation, names: list[str], family: str, *, counts:
             f"{what} are infinite and the model cannot be fitted. Remove or merge {who}, "
             "or use penalised (Firth) regression."
         )
-    detail = "no events or only events" if family == "logistic" else "no events"
+    detail = "no events or only events" if link.two_sided_separation else "no events"
     return (
         f"Quasi-complete separation: {who} predict the outcome perfectly in {sep.rows} rows "
         f"(for example {detail} at one value), so their {what} run off to infinity. "
@@ -247,31 +243,10 @@ def _separation_words(sep: Separation, names: list[str], family: str, *, counts:
 # ------------------------------------------------------------------- the API
 
 
-def _outcome_problem(y: Array, family: str) -> str:
+def _outcome_problem(y: Array, link: GlmLink) -> str:
     if not np.all(np.isfinite(y)):
         return "The outcome has missing or infinite values: fit on complete cases only."
-    if family == "logistic":
-        # Sorting for the distinct values only when some value is neither 0 nor 1.
-        coded = bool(np.all((y == 0.0) | (y == 1.0)))
-        odd = np.zeros(0) if coded else np.setdiff1d(np.unique(y), [0.0, 1.0])
-        if odd.size:
-            shown = ", ".join(f"{v:g}" for v in odd[:3])
-            return f"The outcome must be coded 0/1 for a logistic model; found {shown}."
-        events = int(np.count_nonzero(y))
-        if events == 0:
-            return "No events: the outcome is 0 in every row, so there is nothing to model."
-        if events == len(y):
-            return "Every row is an event (the outcome is 1 in all rows), so there is nothing to model."
-    else:
-        if np.any(y < 0):
-            return "The outcome has negative values: a Poisson model needs counts or 0/1 outcomes."
-        if not np.any(y > 0):
-            return "No events: the outcome is 0 in every row, so there is nothing to model."
-        if np.ptp(y) == 0.0:
-            return (
-                f"All outcomes are the same ({y[0]:g} in every row), so there is nothing to model."
-            )
-    return ""
+    return link.outcome_problem(y)
 
 
 def fit_glm(
@@ -386,11 +361,13 @@ def fit_glm_path(
         X, cols = np.ascontiguousarray(X[:, cols]), None
     n = X.shape[0]
     p = X.shape[1] if cols is None else len(cols)
-    if family not in GLM_FAMILIES:
+    if family not in GLM_FAMILY_CODES:
         return Fit.failed(family, terms, n, f"Unknown model family {family!r}."), None
+    fam = family_of(family)
+    link = fam.glm
     off = None
     if offset is not None:
-        if family != "risk_ratio":
+        if not fam.takes_offset:
             return Fit.failed(
                 family, terms, n, "An offset is only used with the Poisson (rate ratio) model."
             ), None
@@ -403,7 +380,7 @@ def fit_glm_path(
                 "The offset must be a finite log person-time for every row (did you take the log of a zero time?).",
             ), None
     if not checked:
-        problem = _outcome_problem(y, family) or design_problem(X, names, skip=1)
+        problem = _outcome_problem(y, link) or design_problem(X, names, skip=1)
         if not problem and n <= p:
             problem = too_few_rows(n, p)
         if problem:
@@ -420,14 +397,14 @@ def fit_glm_path(
         scale=scale,
         cols=cols,
         reach=reach,
-        meat=family == "risk_ratio",
+        meat=link.robust,
         on_pass=on_pass,
     )
     if path.stop == "aliased":
         assert path.info is not None
         clauses = aliased_columns(path.info, names) or ["the columns are nearly collinear"]
         return Fit.failed(family, terms, n, rank_message(clauses)), None
-    extreme = path.mu_low < (EXTREME_MU if family == "logistic" else EXTREME_MU * float(np.mean(y)))
+    extreme = path.mu_low < link.extreme_floor(float(np.mean(y)))
     blank: frozenset[int] = frozenset()
     warns: list[str] = []
     if not path.converged or extreme:
@@ -435,7 +412,7 @@ def fit_glm_path(
         sep = detect_separation(Xm, y, family=family)
         if sep.found:
             words = _separation_words(
-                sep, names, family, counts=not bool(np.all((y == 0) | (y == 1)))
+                sep, names, link, counts=not bool(np.all((y == 0) | (y == 1)))
             )
             if sep.kind == "complete" or exposure_index in sep.columns or path.cov is None:
                 return Fit.failed(family, terms, n, words), None
@@ -449,12 +426,12 @@ def fit_glm_path(
             )
     assert path.cov is not None
     cov = path.cov
-    if family == "risk_ratio" and path.meat is not None:
+    if link.robust and path.meat is not None:
         # HC0 sandwich H⁻¹ (Σ rᵢ² xᵢxᵢ') H⁻¹, both parts from the last Newton
         # pass (the step left moves no linear predictor by more than ETA_TOL).
         cov = cov @ path.meat @ cov
-    binary = family == "risk_ratio" and bool(np.all((y == 0) | (y == 1)))
-    events = float(np.sum(y)) if family == "risk_ratio" else float(min(np.sum(y), n - np.sum(y)))
+    binary = bool(np.all((y == 0) | (y == 1)))
+    events = float(link.events(float(np.sum(y)), float(n)))
     warns.extend(glm_cautions(family, events, p, binary=binary, mu_high=path.mu_high))
     fit = fit_from_params(
         family,

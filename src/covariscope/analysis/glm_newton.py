@@ -16,8 +16,8 @@ from dataclasses import dataclass
 
 import numpy as np
 import numpy.typing as npt
-from scipy import special
 
+from covariscope.analysis.families import GlmLink, family_of
 from covariscope.analysis.fitting_common import (
     ALIAS_TOL,
     DIVERGE_SD,
@@ -72,17 +72,12 @@ class GlmPath:
     passes: int = 0
 
 
-def _start(family: str, first: Array, y: Array, off: Array | None, p: int) -> Array:
+def _start(link: GlmLink, first: Array, y: Array, off: Array | None, p: int) -> Array:
     b = np.zeros(p)
     x0 = first[0]
     if np.all(first == x0) and x0 != 0.0:
-        ybar = float(np.mean(y))
-        if family == "logistic":
-            ybar = min(max(ybar, 1e-6), 1 - 1e-6)
-            b[0] = math.log(ybar / (1 - ybar)) / x0
-        else:
-            denom = float(np.sum(np.exp(off))) if off is not None else float(len(y))
-            b[0] = math.log(max(float(np.sum(y)), 1e-10) / denom) / x0
+        denom = float(np.sum(np.exp(off))) if off is not None else float(len(y))
+        b[0] = link.start_intercept(float(np.mean(y)), float(np.sum(y)), denom) / x0
     return b
 
 
@@ -142,9 +137,10 @@ def newton_glm(
     """
     idx = np.arange(X.shape[1]) if cols is None else np.asarray(cols, dtype=np.intp)
     p = len(idx)
-    ylogy = float(np.sum(special.xlogy(y, y) - y)) if family == "risk_ratio" else 0.0
+    link = family_of(family).glm
+    ylogy = link.saturated(y)
     if start is None:
-        b = _start(family, X[:, idx[0]], y, offset, p)
+        b = _start(link, X[:, idx[0]], y, offset, p)
     else:
         b = np.array(start, dtype=np.float64)
     if scale is None or reach is None:

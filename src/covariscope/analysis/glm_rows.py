@@ -28,6 +28,7 @@ from dataclasses import dataclass
 import numpy as np
 import numpy.typing as npt
 
+from covariscope.analysis.families import GlmLink, family_of
 from covariscope.analysis.fits import Fit
 from covariscope.analysis.fitting_common import (
     ALIAS_TOL,
@@ -41,7 +42,6 @@ from covariscope.analysis.fitting_common import (
     rank_message,
     upper_cholesky,
 )
-from covariscope.analysis.glm import EXTREME_MU
 from covariscope.analysis.rows import (
     GlmSums,
     RowReducer,
@@ -82,14 +82,10 @@ class _Path:
     last: Array | None = None
 
 
-def _start(outcome: RowOutcome, family: str, p: int) -> Array:
+def _start(outcome: RowOutcome, link: GlmLink, p: int) -> Array:
     b = np.zeros(p)
-    if family == "logistic":
-        ybar = min(max(outcome.mean, 1e-6), 1 - 1e-6)
-        b[0] = math.log(ybar / (1 - ybar))
-    else:
-        denom = outcome.offset_exp_sum if outcome.offset_exp_sum > 0 else float(outcome.n)
-        b[0] = math.log(max(outcome.mean * outcome.n, 1e-10) / denom)
+    denom = outcome.offset_exp_sum if outcome.offset_exp_sum > 0 else float(outcome.n)
+    b[0] = link.start_intercept(outcome.mean, outcome.mean * outcome.n, denom)
     return b
 
 
@@ -150,7 +146,8 @@ def fit_glm_rows(
         The rows of the design (outcome last).
     columns : tuple of int
         Design columns of the model (the exposure first); an intercept is added.
-    family : "logistic" or "risk_ratio"
+    family : str
+        The code of a GLM family (:class:`~covariscope.analysis.families.Fitter` ``GLM``).
     outcome : RowOutcome
         Mean of the outcome and Σ exp(offset), for the start.
     column_names : names of [intercept, columns...].
@@ -177,7 +174,8 @@ def fit_glm_rows(
     1.3863
     """
     p = len(columns) + 1
-    b = _start(outcome, family, p) if start is None or np.shape(start) != (p,) else start
+    link = family_of(family).glm
+    b = _start(outcome, link, p) if start is None or np.shape(start) != (p,) else start
     path = _newton(reducer, columns, family, np.array(b, dtype=np.float64), scale, reach, max_iter)
     n = outcome.n
     if path.stop == "aliased":
@@ -188,9 +186,7 @@ def fit_glm_rows(
     if path.cov is None:
         return Fit.failed(family, terms, n, SINGULAR_INFORMATION), None, None
     s = path.sums
-    extreme = (
-        s.mu_low < EXTREME_MU if family == "logistic" else s.mu_low < EXTREME_MU * outcome.mean
-    )
+    extreme = s.mu_low < link.extreme_floor(outcome.mean)
     warns: list[str] = []
     if not path.converged:
         message = (
@@ -204,12 +200,12 @@ def fit_glm_rows(
             + NEEDS_ROWS
         )
     cov = path.cov
-    if family == "risk_ratio":
+    if link.robust:
         # HC0 sandwich, both parts at the last Newton point (as the in-memory fit).
         assert path.last is not None
         cov = _sandwich(reducer, columns, path.last, cov)
     total = outcome.mean * n
-    events = float(round(total if family == "risk_ratio" else min(total, n - total), 6))
+    events = float(round(link.events(total, n), 6))
     warns.extend(glm_cautions(family, events, p, binary=outcome.binary, mu_high=s.mu_high))
     fit = fit_from_params(
         family,

@@ -36,6 +36,7 @@ import numpy as np
 
 from covariscope.analysis.design import Design
 from covariscope.analysis.distributions import chi2_ppf, f_ppf, norm_ppf, t_ppf
+from covariscope.analysis.families import family_of
 from covariscope.analysis.fits import Fit
 
 __all__ = [
@@ -127,7 +128,7 @@ class CollinearityPicture:
 
 def _critical(fit: Fit, level: float) -> tuple[float, float]:
     """(critical value of the 2-d Wald region, two-sided quantile for one interval)."""
-    if fit.family == "linear" and fit.df_resid:
+    if family_of(fit.family).least_squares and fit.df_resid:
         df = fit.df_resid
         return (
             2.0 * float(f_ppf(level, 2, df)),

@@ -23,6 +23,7 @@ from dataclasses import dataclass
 import numpy as np
 import numpy.typing as npt
 
+from covariscope.analysis.families import GlmLink, family_of
 from covariscope.analysis.fitting_common import CHUNK_ROWS
 
 __all__ = ["BLOCK_CELLS", "GlmPass", "glm_pass"]
@@ -53,26 +54,6 @@ class GlmPass:
     mu_high: float
 
 
-def _block_sums(family: str, y: Array, eta: Array) -> tuple[float, Array, Array, float, float]:
-    """Deviance part, residual y − μ, Newton weight and extreme means of one block.
-
-    For the logistic family one e = exp(−|η|) serves all: log(1 + eᶯ) =
-    max(η, 0) + log1p(e), μ = 1/(1 + e) for η ≥ 0 and e/(1 + e) otherwise, and
-    μ(1 − μ) = e/(1 + e)², exact where 1 − μ rounds to zero.
-    """
-    if family == "logistic":
-        e = np.exp(-np.abs(eta))
-        dev = float(np.sum(np.log1p(e))) + float(np.sum(np.maximum(eta, 0.0))) - float(y @ eta)
-        r = 1.0 / (1.0 + e)
-        low = e * r  # min(μ, 1 − μ)
-        mu = np.where(eta >= 0.0, r, low)
-        w = low * r
-        return 2.0 * dev, y - mu, w, float(np.min(low)), float(np.max(mu))
-    mu = np.exp(np.minimum(eta, 700.0))
-    dev = 2.0 * (float(np.sum(mu)) - float(y @ eta))
-    return dev, y - mu, mu, float(np.min(mu)), float(np.max(mu))
-
-
 def glm_pass(
     X: Array,
     y: Array,
@@ -91,7 +72,8 @@ def glm_pass(
     ----------
     X : n × q float array (C or Fortran order).
     y : outcome (0/1 for "logistic"; counts or 0/1 for "risk_ratio").
-    family : "logistic" (binomial, logit link) or "risk_ratio" (Poisson, log link).
+    family : the code of a GLM family (its :class:`~covariscope.analysis.families.GlmLink`
+        gives the means, weights and deviance: binomial/logit, Poisson/log).
     beta : coefficients, one per column used.
     cols : columns of X that the model uses (default: all), in ``beta``'s order.
     offset : added to the linear predictor (Poisson log person-time).
@@ -126,8 +108,8 @@ def glm_pass(
             res.mu_low,
             res.mu_high,
         )
-    res = _pass_rows(X, y, family, beta, cols, offset, info, meat, 0, n)
-    if family == "logistic":
+    res = _pass_rows(X, y, family_of(family).glm, beta, cols, offset, info, meat, 0, n)
+    if not ylogy:
         return res
     return GlmPass(
         res.deviance + 2.0 * ylogy, res.score, res.info, res.meat, res.mu_low, res.mu_high
@@ -137,7 +119,7 @@ def glm_pass(
 def _pass_rows(
     X: Array,
     y: Array,
-    family: str,
+    link: GlmLink,
     beta: Array,
     cols: Index | None,
     offset: Array | None,
@@ -165,7 +147,7 @@ def _pass_rows(
         eta = Xc @ beta
         if offset is not None:
             eta += offset[s:e]
-        d, resid, w, lo, hi = _block_sums(family, y[s:e], eta)
+        d, resid, w, lo, hi = link.block_sums(y[s:e], eta)
         dev += d
         low, high = min(low, lo), max(high, hi)
         score += resid @ Xc

@@ -27,6 +27,7 @@ from typing import Any, Protocol, TypeVar, runtime_checkable
 import numpy as np
 import numpy.typing as npt
 
+from covariscope.analysis.families import GlmLink, family_of
 from covariscope.analysis.fitting_common import weighted_crossprod
 from covariscope.analysis.linear import LinearSummary, linear_summary, merge_summaries
 
@@ -39,6 +40,8 @@ __all__ = [
     "SandwichSums",
     "SummingReducer",
     "column_stats",
+    "fits_from_rows",
+    "glm_link",
     "glm_sums",
     "merge_column_stats",
     "merge_glm_sums",
@@ -189,21 +192,7 @@ def glm_sums(
     eta = X @ params
     if batch.offset is not None:
         eta = eta + batch.offset
-    if family == "logistic":
-        e = np.exp(-np.abs(eta))
-        r = 1.0 / (1.0 + e)
-        mu = np.where(eta >= 0.0, r, e * r)
-        w = e * r * r
-        dev = 2.0 * (
-            float(np.sum(np.log1p(e))) + float(np.sum(np.maximum(eta, 0.0))) - float(y @ eta)
-        )
-        low = float(np.min(np.minimum(mu, 1.0 - mu))) if len(y) else math.inf
-    else:
-        mu = np.exp(np.minimum(eta, 700.0))
-        w = mu
-        saturated = float(np.sum(y[y > 0] * np.log(y[y > 0]) - y[y > 0])) if ylogy else 0.0
-        dev = 2.0 * (float(np.sum(mu)) - float(y @ eta) + saturated)
-        low = float(np.min(mu)) if len(y) else math.inf
+    dev, mu, w, low = family_of(family).glm.batch_sums(y, eta, ylogy)
     return GlmSums(
         information=weighted_crossprod(X, w),
         score=X.T @ (y - mu),
@@ -270,18 +259,32 @@ def sandwich_pass(reducer: RowReducer, columns: tuple[int, ...], params: Array) 
     return result
 
 
+def fits_from_rows(family: str) -> bool:
+    """True when the family's models can be fitted from sums over rows left in
+    their source (a Cox model needs its rows in memory).
+
+    >>> fits_from_rows("logistic"), fits_from_rows("cox")
+    (True, False)
+    """
+    return family_of(family).row_sums
+
+
+def glm_link(family: str) -> GlmLink:
+    """The GLM parts of a family whose rows stay in their source (its SQL among them)."""
+    return family_of(family).glm
+
+
 def glm_pass(reducer: RowReducer, columns: tuple[int, ...], params: Array, family: str) -> GlmSums:
     """One reduction of :func:`glm_sums` over every row."""
+    saturated = family_of(family).glm.saturated_term
     if isinstance(reducer, SummingReducer):
-        return reducer.glm_sums(
-            columns, np.asarray(params, dtype=np.float64), family, family == "risk_ratio"
-        )
+        return reducer.glm_sums(columns, np.asarray(params, dtype=np.float64), family, saturated)
     fn = partial(
         glm_sums,
         columns=columns,
         params=np.asarray(params, dtype=np.float64),
         family=family,
-        ylogy=family == "risk_ratio",
+        ylogy=saturated,
     )
     result: GlmSums = reducer.reduce(fn, merge_glm_sums)
     return result

@@ -20,6 +20,7 @@ from __future__ import annotations
 
 from collections.abc import Mapping
 
+from covariscope.analysis.families import family_of
 from covariscope.analysis.verdict_groups import group_verdict
 from covariscope.analysis.verdict_terms import (
     LABELS,
@@ -40,7 +41,6 @@ from covariscope.analysis.verdict_wording import (
     scale_words,
     shift_clause,
 )
-from covariscope.vocabulary import NONCOLLAPSIBLE_FAMILIES, RATIO_FAMILIES
 
 __all__ = ["role_verdict"]
 
@@ -108,12 +108,12 @@ def _measures_exposure(f: Facts, n: Numbers, t: Mapping[str, float]) -> Verdict 
 
 def _review(f: Facts, n: Numbers, t: Mapping[str, float], family: str) -> Verdict | None:
     """A covariate the diagram calls harmless whose data shift the estimate."""
-    ratio = family in RATIO_FAMILIES
+    ratio = family_of(family).ratio
     shift = largest_shift(n, ratio)
     if shift is None or abs(shift[1]) < t["change_pct"]:
         return None
     if (
-        family in NONCOLLAPSIBLE_FAMILIES
+        family_of(family).noncollapsible
         and n.r2_exposure is not None
         and n.r2_exposure < NONCOLLAPSIBLE_R2
     ):
@@ -149,21 +149,17 @@ _REVIEW_WORDS = {
 }
 
 
-_MEASURE_WORD = {"logistic": "odds", "cox": "hazard"}
-_ARTICLE = {"logistic": "an", "cox": "a"}
-
-
 def _noncollapsible_note(n: Numbers, t: Mapping[str, float], family: str) -> str:
     ratio = True
     shift = largest_shift(n, ratio)
     if (
-        family in NONCOLLAPSIBLE_FAMILIES
+        family_of(family).noncollapsible
         and shift is not None
         and abs(shift[1]) >= t["change_pct"]
         and n.r2_exposure is not None
         and n.r2_exposure < NONCOLLAPSIBLE_R2
     ):
-        measure = _MEASURE_WORD[family]
+        measure = family_of(family).measure_word
         return (
             f"; the {pct(shift[1])} shift in the {measure} ratio when {COMPARISON_WORDS[shift[0]]} "
             f"comes with an R² of the exposure on it of only {num(n.r2_exposure, 2)} (under "
@@ -173,7 +169,7 @@ def _noncollapsible_note(n: Numbers, t: Mapping[str, float], family: str) -> str
 
 
 def _confounder(f: Facts, n: Numbers, t: Mapping[str, float], family: str) -> Verdict:
-    ratio = family in RATIO_FAMILIES
+    ratio = family_of(family).ratio
     if len(f.group) >= 2:
         return group_verdict(f, n, t, ratio=ratio)
     if not f.has_data or n.added is None:
@@ -194,10 +190,11 @@ def _confounder(f: Facts, n: Numbers, t: Mapping[str, float], family: str) -> Ve
             f"{guide(t, 'change_pct')} guide"
         )
     caution = ""
-    if family in NONCOLLAPSIBLE_FAMILIES:
-        measure = _MEASURE_WORD[family]
+    if family_of(family).noncollapsible:
+        measure = family_of(family).measure_word
+        article = "an" if measure[:1] in "aeiou" else "a"
         caution = (
-            f" (part of a change in {_ARTICLE[family]} {measure} ratio can be non-collapsibility rather than "
+            f" (part of a change in {article} {measure} ratio can be non-collapsibility rather than "
             "confounding)"
         )
     return _verdict(
@@ -209,7 +206,7 @@ def _confounder(f: Facts, n: Numbers, t: Mapping[str, float], family: str) -> Ve
 
 def role_verdict(f: Facts, n: Numbers, t: Mapping[str, float], family: str) -> Verdict:
     """The verdict for one covariate whose facts name nodes by their labels."""
-    ratio = family in RATIO_FAMILIES
+    ratio = family_of(family).ratio
 
     if not f.measured:
         return _unmeasured(f)

@@ -16,6 +16,7 @@ from collections.abc import Iterable, Mapping
 from typing import Any
 
 from covariscope.analysis.collinearity import AliasFinding
+from covariscope.analysis.families import family_of
 from covariscope.data.profile import ColumnProfile
 from covariscope.errors import DesignError
 from covariscope.model.diagram import Diagram
@@ -96,7 +97,7 @@ def check_question_columns(
             )
     outcome_col = cols.get("outcome")
     if (
-        family == "linear"
+        family_of(family).least_squares
         and outcome_col is not None
         and outcome_col in profiles
         and profiles[outcome_col].distinct == 1

@@ -29,6 +29,7 @@ from covariscope.analysis.evidence import (
     EvidenceTable,
     compute_evidence,
 )
+from covariscope.analysis.families import family_of
 from covariscope.analysis.fits import effect_measure
 from covariscope.analysis.graph import DiagramAnalysis
 from covariscope.analysis.linear import LinearSummary
@@ -564,7 +565,7 @@ def _whole_stage(
 
 
 def _check_crude(engine: EvidenceEngine, q: Question) -> None:
-    if q.family == "linear":
+    if family_of(q.family).least_squares:
         names = dict(q.names)
         check_crude_fit(engine.ols(()), names[q.exposure], names[q.outcome])
 
@@ -573,7 +574,7 @@ def _family_columns_message(project: Project, q: Question, messages: list[str]) 
     columns = {
         k: v
         for k, v in project.analysis.family_columns.get(q.family, {}).items()
-        if k != "offset" or q.family == "risk_ratio"  # others take no offset (said above)
+        if k != "offset" or family_of(q.family).takes_offset  # others take none (said above)
     }
     if columns:
         # The outcome node may be bound to another column than this family reads.

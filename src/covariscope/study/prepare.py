@@ -31,6 +31,7 @@ from covariscope.analysis.design import (
     spline_columns,
 )
 from covariscope.analysis.evidence import EvidenceCancelledError
+from covariscope.analysis.families import family_of
 from covariscope.analysis.linear import LinearSummary, linear_summary
 from covariscope.data.coerce import coerce_column
 from covariscope.data.profile import ColumnProfile, check_settings_columns, profile_column
@@ -112,7 +113,7 @@ def outcome_columns(
         "event": chosen.get("event"),
         "offset": chosen.get("offset"),
     }
-    if family == "cox":
+    if family_of(family).survival:
         cols["outcome"] = None
     return cols
 
@@ -134,21 +135,23 @@ def question_columns(
             f'The exposure "{diagram.node(exposure).label}" is not bound to a data column, so only the diagram is analysed; bind it to a column.'
         )
         return None
+    fam = family_of(family)
     cols = outcome_columns(project, family, diagram.node(outcome).column)
-    if cols["offset"] is not None and family != "risk_ratio":
+    if cols["offset"] is not None and not fam.takes_offset:
         messages.append(
             f'Only the risk/rate-ratio family takes an offset; the offset column "{cols["offset"]}" '
             f"set for the {family} family is not used. Remove it from the family's columns, or "
             "choose the risk/rate-ratio family for counts over time."
         )
         cols["offset"] = None
-    if family == "cox" and (cols["time"] is None or cols["event"] is None):
+    if fam.survival and (cols["time"] is None or cols["event"] is None):
         messages.append(
-            "The Cox family needs a time and an event column; set them for the project "
-            "(analysis.family_columns.cox), or choose another family. Only the diagram is analysed."
+            f"The {fam.term.short} family needs a time and an event column; set them for the "
+            f"project (analysis.family_columns.{fam.code.value}), or choose another family. "
+            "Only the diagram is analysed."
         )
         return None
-    if family != "cox" and cols["outcome"] is None:
+    if not fam.survival and cols["outcome"] is None:
         messages.append(
             f'The outcome "{diagram.node(outcome).label}" is not bound to a data column, so only the diagram is analysed; bind it to a column.'
         )

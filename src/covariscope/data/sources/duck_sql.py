@@ -31,6 +31,8 @@ from covariscope.analysis.rows import (
     RowBatch,
     SandwichSums,
     column_stats,
+    fits_from_rows,
+    glm_link,
 )
 from covariscope.data.coerce import coerce_column
 from covariscope.data.sources.base import DesignRequest, row_design
@@ -171,26 +173,7 @@ class SqlRows:
     ) -> GlmSums:
         """:func:`~covariscope.analysis.rows.glm_sums` as one aggregate query."""
         y, p = f"v{self.q - 1}", len(columns) + 1
-        eta = self._linear(columns, params)
-        if family == "logistic":
-            inner = (
-                "SELECT *, CASE WHEN eta >= 0 THEN r ELSE e * r END AS mu, e * r * r AS w, "
-                f"CASE WHEN e < 1e-5 THEN e - e * e / 2 + e * e * e / 3 ELSE ln(1 + e) END AS l1pe "
-                f"FROM (SELECT *, exp(-abs(eta)) AS e, 1.0 / (1.0 + exp(-abs(eta))) AS r FROM ({eta}))"
-            )
-            tail = [
-                f"2.0 * (sum(l1pe) + sum(greatest(eta, 0.0)) - sum({y} * eta))",
-                "MIN(least(mu, 1.0 - mu))",
-            ]
-        else:
-            inner = (
-                f"SELECT *, exp(least(eta, 700.0)) AS mu, exp(least(eta, 700.0)) AS w FROM ({eta})"
-            )
-            saturated = f"sum(CASE WHEN {y} > 0 THEN {y} * ln({y}) - {y} ELSE 0.0 END)"
-            tail = [
-                f"2.0 * (sum(mu) - sum({y} * eta) + {saturated if ylogy else '0.0'})",
-                "MIN(mu)",
-            ]
+        inner, tail = glm_link(family).sql_means(self._linear(columns, params), y, ylogy)
         x = ["1.0", *(f"v{c}" for c in columns)]
         aggregates = [*self._weighted(columns, "w"), *(f"sum({v} * ({y} - mu))" for v in x)]
         aggregates += [*tail, "MAX(mu)", "COUNT(*)"]
@@ -238,7 +221,7 @@ def _codable(use: ColumnUse, kind: str) -> bool:
 
 def sql_design(source: Any, request: DesignRequest, key: str) -> Design | None:
     """The design with its columns coded in SQL, or None when the general path must do it."""
-    if request.family == "cox":
+    if not fits_from_rows(request.family):
         return None
     types = source.column_types
     uses = {u.column: u for u in request.uses}
