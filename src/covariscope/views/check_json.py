@@ -23,7 +23,7 @@ from covariscope.views.model_code import model_code, model_code_json
 __all__ = ["study_to_json"]
 
 
-def _clean(value: Any) -> Any:
+def _clean(value: object) -> Any:
     """JSON-safe: NaN and infinities become null, tuples lists."""
     if isinstance(value, float | np.floating):
         v = float(value)
