@@ -7,7 +7,7 @@ import math
 from collections.abc import Mapping, Sequence
 from typing import Any
 
-from covariscope.vocabulary import RATIO_FAMILIES
+from covariscope.analysis.families import family_of
 
 __all__ = ["DASH", "fit_ok", "is_number", "number", "percent", "ratio_family", "term_names"]
 
@@ -41,7 +41,7 @@ def percent(value: Any, digits: int = 1) -> str:
 
 def ratio_family(family: str | None) -> bool:
     """True when the family's estimate is a ratio (shown on the exp scale)."""
-    return family in RATIO_FAMILIES
+    return family is not None and family_of(family).ratio
 
 
 def fit_ok(fit: Any) -> bool:
