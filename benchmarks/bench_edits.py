@@ -14,13 +14,24 @@ the linear study written as a CSV, against pandas alone reading that CSV
 (each in a fresh process), with the check's peak memory against the size of
 its design.
 
+Then the GUI storm (``--storm ROWS``, default 200,000; 0 leaves it out):
+the window, offscreen, opens a generated ROWS-row study saved as CSV and
+project; 200 random edits (node moves, ticks, arrows added and removed,
+family switches) are fired one per turn of the event loop without waiting
+for the analysis; the figures are the time to fire them, the time from the
+last edit until the window settles, and the longest the GUI thread stood
+still (a 10 ms heartbeat), and the settled window's result is compared with
+``covariscope check --json`` on the saved project (see benchmarks/gui_storm.py;
+``--hunt`` prints where the GUI thread spent its stalls).
+
 The last line is JSON: medians in seconds, keys ``move``, ``tick``,
 ``arrow``, ``bind``, ``family_back``, ``cold`` for ``linear_1e6`` and
-``logistic_2e5`` (the keys keep those names at any ``--n``), and the
-``check`` figures.
+``logistic_2e5`` (the keys keep those names at any ``--n``), the ``check``
+figures, and the storm's ``storm_settle``, ``storm_fire``, ``max_stall``.
 
-Run: ``python benchmarks/bench_edits.py`` (full size: 1e6 and 2e5 rows);
-``--n-linear 100000 --n-logistic 20000`` for a quick look.
+Run: ``python benchmarks/bench_edits.py`` (full size: 1e6 and 2e5 rows, a
+200,000-row storm); ``--n-linear 100000 --n-logistic 20000 --storm 20000``
+for a quick look; ``--storm-only`` for the storm alone.
 """
 
 from __future__ import annotations
@@ -219,6 +230,35 @@ def _process(cmd: list[str]) -> tuple[float, float]:
     return seconds, float(text) * 1024.0 if text else usage.ru_maxrss * 1024.0
 
 
+def storm_figures(rows: int, hunt: bool, watch: bool) -> dict[str, Any]:
+    """The GUI storm on a generated ``rows``-row linear study (see gui_storm.py)."""
+    from gui_storm import storm
+
+    with tempfile.TemporaryDirectory() as name:
+        folder = Path(name)
+        csv = folder / "storm.csv"
+        make_frame(rows, seed=3).to_csv(csv, index=False)
+        project = make_project("linear")
+        project.data = None
+        save_project(project, folder / "storm.json")
+        raw = json.loads((folder / "storm.json").read_text())
+        raw["data"] = {"path": "storm.csv", "sha256": file_sha256(csv)}
+        (folder / "storm.json").write_text(json.dumps(raw))
+        covariates = [f"c{j}" for j in range(K)]
+        figures = storm(folder / "storm.json", covariates, hunt=hunt, watch=watch)
+    print(
+        f"\nGUI storm, {rows:,} rows, 200 edits: fired in {figures['storm_fire']:.2f} s "
+        f"(the window's own handling {figures['storm_edit_handling']:.2f} s), settled "
+        f"{figures['storm_settle']:.2f} s after the last edit "
+        f"({figures['storm_settle'] / figures['storm_fire']:.1f}× the firing); longest GUI "
+        f"stall {1000 * figures['max_stall']:.0f} ms ({figures['stalls_over_100ms']} over "
+        f"100 ms); data work on the GUI thread: {figures['gui_data_work_calls']} calls "
+        "(-1: not counted, see --watch); "
+        f"equals check --json: {figures['storm_equals_check_json']}"
+    )
+    return figures
+
+
 def _print(name: str, figures: dict[str, Any]) -> None:
     cold = figures["cold"]
     print(f"\n{name}: cold run {cold:.3f} s")
@@ -236,8 +276,20 @@ def main() -> None:
     parser.add_argument("--n-logistic", type=int, default=200_000)
     parser.add_argument("--repeat", type=int, default=5)
     parser.add_argument("--no-check", action="store_true", help="skip the whole-process check")
+    parser.add_argument(
+        "--storm", type=int, default=200_000, help="rows of the GUI storm (0: none)"
+    )
+    parser.add_argument("--storm-only", action="store_true", help="only the GUI storm")
+    parser.add_argument("--hunt", action="store_true", help="show where the GUI thread stalls")
+    parser.add_argument(
+        "--watch", action="store_true", help="count data work on the GUI thread (slows it)"
+    )
     args = parser.parse_args()
     results: dict[str, Any] = {}
+    if args.storm_only:
+        results.update(storm_figures(args.storm, args.hunt, args.watch))
+        print(json.dumps(results))
+        return
     linear = make_frame(args.n_linear)
     results["linear_1e6"] = edit_times(linear, "linear", args.repeat)
     _print(f"linear, {args.n_linear:,} rows", results["linear_1e6"])
@@ -254,6 +306,9 @@ def main() -> None:
     logistic = make_frame(args.n_logistic, seed=2)
     results["logistic_2e5"] = edit_times(logistic, "logistic", args.repeat)
     _print(f"logistic, {args.n_logistic:,} rows", results["logistic_2e5"])
+    del logistic
+    if args.storm:
+        results.update(storm_figures(args.storm, args.hunt, args.watch))
     print(json.dumps(results))
 
 

@@ -15,15 +15,19 @@ import json
 import math
 import random
 from collections.abc import Callable
+from functools import partial
 from pathlib import Path
 from types import SimpleNamespace as Ns
 from typing import Any
 
+import networkx as nx
+import numpy as np
+import pandas as pd
 import pytest
 
-from covariscope.analysis.adjustment import ProposalReview
-from covariscope.analysis.fits import Fit
 from covariscope.model import Diagram, Node, Project
+from covariscope.model.project import DataRef
+from covariscope.study import StudyResult, run_study
 
 
 @pytest.fixture(autouse=True)
@@ -37,205 +41,179 @@ def _isolated_home(tmp_path_factory, monkeypatch):
     return home
 
 
-# -- Study results built by hand, for the report and report-content tests ----------------
+# -- Studies for the report and report-content tests ------------------------------------
 #
-# Study results for the report tests, built by hand with the documented fields.
-#
-# The report reads a study result by attribute only, so these stand-ins let the
-# layout be checked on shapes the demo does not have (a 40-node diagram with
-# long notes, no data at all, an unsufficient set).
+# A diagram of any size with every role in it, data simulated from the diagram
+# itself (a linear structural model: each arrow has weight 0.5, so the true
+# effects are known by construction), and the real pipeline run on them: the
+# page is checked on shapes the demo does not have (a 40-node diagram with long
+# notes, no data at all, a proposed set that is not sufficient).
 
-VERDICTS = (
-    ("adjust", "Adjust"),
-    ("keep_one_of", "Keep one of"),
-    ("exclude_measures_exposure", "Exclude — measures the exposure"),
-    ("exclude_pathway", "Exclude — on the pathway"),
-    ("exclude_descendant", "Exclude — descendant"),
-    ("exclude_collider", "Exclude — collider"),
-    ("optional_precision", "Optional — precision"),
-    ("avoid_instrument", "Avoid — instrument-like"),
-    ("consider_proxy", "Consider — proxy of a confounder"),
-    ("review", "Review — diagram and data disagree"),
-    ("unmeasured", "Unmeasured"),
+#: arrows of the first eight covariates ("x"/"y": into the exposure/outcome;
+#: "from x"/"from y": out of them)
+PATTERN = (
+    ("x", "y"),  # confounder, proposed
+    ("x", "y"),  # confounder left out of the proposed set: a backdoor path stays open
+    ("y",),  # outcome cause; covariate 2 also causes covariate 0, closely (a collinear pair)
+    ("from x", "y"),  # mediator
+    ("y",),  # outcome cause, not measured
+    ("from x", "from y"),  # descendant of the outcome
+    ("x", "y"),  # confounder, proposed
+    ("x",),  # exposure cause only (instrument-like); in the data it moves the outcome too
 )
-ROLES = (
-    "confounder",
-    "confounder",
-    "mediator",
-    "descendant_of_exposure",
-    "collider",
-    "precision",
-    "instrument",
-    "confounder_proxy",
-    "confounder",
-    "unrelated",
-    "descendant_of_outcome",
-)
+#: arrows of the covariates after the first eight, by i % 5: no more confounders
+MORE = (("y",), ("from x", "y"), ("from x", "from y"), ("x",), ())
+_ENDS = {"x": "shift", "y": "sbp"}
+NOTE_WORDS = [
+    "because",
+    "the",
+    "diagram",
+    "says",
+    "this",
+    "variable",
+    "opens",
+    "a",
+    "backdoor",
+    "path",
+    "and",
+    "data",
+    "agree",
+]
 
 
-def _fit(family: str, terms: tuple[str, ...], coef: float, se: float, n: int) -> Fit:
-    return Fit(family, terms, coef, se, (coef - 1.96 * se, coef + 1.96 * se), n)
+def _arrow(covariate: str, link: str) -> tuple[str, str]:
+    end = _ENDS[link[-1]]
+    return (end, covariate) if link.startswith("from") else (covariate, end)
 
 
 def make_project(n_covariates: int, note_chars: int = 0, *, seed: int = 3) -> Project:
+    """A project of ``n_covariates`` covariates with the roles of :data:`PATTERN`
+    (then :data:`MORE`); the even, measured ones among the first eight and the even,
+    measured outcome causes after them are proposed."""
     rng = random.Random(seed)
     d = Diagram()
     d.add_node(Node("shift", "Night-shift work", kind="exposure", x=0, y=200))
     d.add_node(Node("sbp", "Systolic blood pressure", kind="outcome", x=600, y=200))
-    words = [
-        "because",
-        "the",
-        "diagram",
-        "says",
-        "this",
-        "variable",
-        "opens",
-        "a",
-        "backdoor",
-        "path",
-        "and",
-        "data",
-        "agree",
-    ]
+    cols = max(1, math.ceil(math.sqrt(n_covariates)))
     for i in range(n_covariates):
         note = ""
         if note_chars:
-            text = []
+            text: list[str] = []
             while len(" ".join(text)) < note_chars:
-                text.append(rng.choice(words))
+                text.append(rng.choice(NOTE_WORDS))
             note = " ".join(text)[:note_chars]
-        cols = max(1, math.ceil(math.sqrt(n_covariates)))
         d.add_node(
             Node(
                 f"c{i}",
                 f"Covariate number {i}" if i % 3 else f"Cov {i}",
-                measured=i % 9 != 4,
+                measured=i % 8 != 4,
                 x=100 + (i % cols) * 400 / cols,
                 y=(i // cols) * 60 - 100 + (i % 2) * 20,
                 note=note,
             )
         )
-        d.add_arrow(f"c{i}", "sbp")
-        if i % 2 == 0:
-            d.add_arrow(f"c{i}", "shift")
+        for link in PATTERN[i] if i < len(PATTERN) else MORE[i % len(MORE)]:
+            d.add_arrow(*_arrow(f"c{i}", link))
+    if n_covariates >= 3:
+        d.add_arrow("c2", "c0")
     d.add_arrow("shift", "sbp")
-    if n_covariates >= 4:
-        d.add_proxy("c0", "c2")
+    if n_covariates >= 12:
+        d.add_proxy("c13", "c14")
     project = Project(d, path=Path("/studies/night_shift.covariscope.json"))
-    project.analysis.proposed = [f"c{i}" for i in range(0, n_covariates, 2)]
+    project.analysis.proposed = [
+        f"c{i}"
+        for i in range(0, n_covariates, 2)
+        if i % 8 != 4 and (i < len(PATTERN) or MORE[i % len(MORE)] == ("y",))
+    ]
     return project
 
 
-def make_result(project: Project, family: str = "linear", *, data: bool = True) -> Ns:
-    covs = [n.id for n in project.diagram.covariates]
-    roles = {c: Ns(role=ROLES[i % len(ROLES)], explanation="") for i, c in enumerate(covs)}
-    verdicts = {
-        c: Ns(
-            node=c,
-            code=VERDICTS[i % len(VERDICTS)][0],
-            label=VERDICTS[i % len(VERDICTS)][1],
-            reason="Because.",
-            group=(),
-            suggested=None,
-        )
-        for i, c in enumerate(covs)
-    }
-    proposed = tuple(project.analysis.proposed)
-    recommended = tuple(c for c in covs[:6] if roles[c].role == "confounder")
-    measure = {"linear": "mean difference", "logistic": "odds ratio"}[family]
-    evidence = Ns(
-        covariates={
-            c: Ns(
-                added=Ns(
-                    change_pct=12.345 - i, change_pct_ratio=8.04 + i, se_inflation_pct=3.25 * i
-                ),
-                dropped=None,
-                vif=1.0 + i / 7,
-            )
-            for i, c in enumerate(covs)
-            if project.diagram.node(c).measured
-        }
-    )
-    estimates = {
-        "crude": _fit(family, (), 0.6123 if family == "logistic" else 4.8361, 0.11, 2400),
-        "proposed": _fit(family, proposed, 0.4412 if family == "logistic" else 3.0219, 0.13, 2310),
-        "recommended": _fit(
-            family, recommended, 0.4012 if family == "logistic" else 2.9987, 0.12, 2310
-        ),
-        "full": _fit(family, tuple(covs), 0.39, 0.2, 2310),
-    }
-    return Ns(
-        exposure="shift",
-        outcome="sbp",
-        family=family,
-        effect_measure=measure,
-        diagram=Ns(
-            roles=roles,
-            identifiable=True,
-            minimal_sets=(recommended,),
-            review=ProposalReview(
-                proposed=tuple(sorted(proposed)),
-                sufficient=False,
-                open_paths=(("shift", "c1", "sbp"),),
-                open_paths_total=1,
-                open_paths_total_exact=True,
-                unnecessary=(),
-                harmful=("c4",) if len(covs) > 4 else (),
-                unmeasured_in_set=(),
-            ),
-        ),
-        proposed=proposed,
-        sample=Ns(
-            rows=2500,
-            used=2310,
-            missing_by_column={"c1": 120, "c3": 70},
-            lost_by_column={"c1": 120, "c3": 70},
-        )
-        if data
-        else None,
-        evidence=evidence if data else None,
-        verdicts=verdicts,
-        recommended=recommended,
-        estimates=estimates if data else {},
-        collinear_groups=(("c0", "c2"),) if len(covs) >= 4 else (),
-        evalue=Ns(estimate=2.1345, ci=1.55, conversion="standardised mean difference approximation")
-        if data
-        else None,
-        thresholds={
-            "change_pct": 10.0,
-            "se_inflation_pct": 20.0,
-            "vif": 10.0,
-            "r2": 0.9,
-            "condition_index": 30.0,
-        },
-        disagreements=tuple(
-            f"{c}: the diagram calls it unrelated but adding it moves the estimate 14.2%."
-            for c in covs[:3]
-        ),
-        messages=("Odds ratios can change on adjustment without confounding (non-collapsibility).",)
-        if family == "logistic"
-        else (),
-        data_name="cohort.csv" if data else None,
-        data_sha256="0123456789abcdef0123" if data else None,
-    )
+def _simulate(project: Project, rows: int, seed: int, close_pair: bool) -> pd.DataFrame:
+    """Every node drawn from its parents in the diagram (weight 0.5 each, unit
+    normal noise); with ``close_pair`` covariate 0 is nearly covariate 2 again;
+    covariate 7 also moves the outcome, which the diagram does not say."""
+    rng = np.random.default_rng(seed)
+    d = project.diagram
+    graph = nx.DiGraph(list(d.arrows))
+    graph.add_nodes_from(n.id for n in d.nodes)
+    if "c7" in graph:
+        graph.add_edge("c7", "sbp")  # in the data only
+    values: dict[str, np.ndarray] = {}
+    for node in nx.topological_sort(graph):
+        noise = rng.normal(size=rows)
+        weights = {p: (1.5 if (p, node) == ("c7", "sbp") else 0.5) for p in graph.pred[node]}
+        values[node] = sum((w * values[p] for p, w in weights.items()), noise)
+        if close_pair and node == "c0" and "c2" in values:
+            values[node] = values["c2"] + 0.15 * noise
+    frame = pd.DataFrame({n.id: values[n.id] for n in d.nodes if n.measured}).round(4)
+    frame["sbp_high"] = (values["sbp"] > np.median(values["sbp"])).astype(int)
+    order = rng.permutation(rows)
+    for column, lost in (("c1", order[:120]), ("c3", order[120:190])):
+        if column in frame:
+            frame.loc[lost, column] = np.nan
+    return frame
 
 
-@pytest.fixture
-def small_study():
+def bind_simulated_data(
+    project: Project, folder: Path, *, rows: int = 2500, seed: int = 11, close_pair: bool = True
+) -> Path:
+    """Write the simulated cohort to ``folder/cohort.csv`` and bind every
+    measured node to its column (``sbp_high``, the outcome split at its
+    median, is the outcome of the ratio families)."""
+    path = folder / "cohort.csv"
+    _simulate(project, rows, seed, close_pair).to_csv(path, index=False)
+    for node in project.diagram.nodes:
+        if node.measured:
+            project.diagram.update_node(node.id, column=node.id)
+    project.data = DataRef(str(path))
+    binary = {"outcome": "sbp_high"}
+    project.analysis.family_columns = {"logistic": dict(binary), "risk_ratio": dict(binary)}
+    return path
+
+
+@pytest.fixture(scope="session")
+def _study_folders(tmp_path_factory):
+    return lambda: tmp_path_factory.mktemp("study")
+
+
+def _result(
+    folders: Callable[[], Path],
+    project: Project,
+    family: str = "linear",
+    *,
+    data: bool = True,
+    close_pair: bool = True,
+) -> StudyResult:
+    if data:
+        bind_simulated_data(project, folders(), close_pair=close_pair)
+    return run_study(project, family=family)
+
+
+@pytest.fixture(scope="session")
+def small_study(_study_folders):
+    """8 covariates with notes of 120 characters: (StudyResult, Project)."""
     project = make_project(8, 120)
-    return make_result(project), project
+    return _result(_study_folders, project), project
+
+
+@pytest.fixture(scope="session")
+def big_study(_study_folders):
+    """40 nodes with notes of 2,000 characters: (StudyResult, Project).
+
+    Every independence claim is tested and no two confounders are collinear,
+    so the findings are few enough to be listed whole beside the long notes
+    (with the default claim limit and a collinear pair the letter page caps them).
+    """
+    project = make_project(38, 2000)
+    project.analysis.claim_limit = 1000
+    return _result(_study_folders, project, close_pair=False), project
 
 
 @pytest.fixture
-def big_study():
-    project = make_project(38, 2000)  # 40 nodes with exposure and outcome
-    return make_result(project), project
-
-
-@pytest.fixture
-def make():
-    """The stand-in builders: ``make.project(n, note_chars)``, ``make.result(project)``."""
-    return Ns(project=make_project, result=make_result)
+def make(_study_folders):
+    """``make.project(n, note_chars)``; ``make.result(project, family="linear",
+    data=True)`` binds simulated data to the project and runs the study."""
+    return Ns(project=make_project, result=partial(_result, _study_folders))
 
 
 def same_json(a: Any, b: Any) -> bool:

@@ -11,9 +11,10 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from covariscope.analysis import glm_newton
+from covariscope.analysis import column_fit, glm_newton
 from covariscope.analysis.column_fit import ColumnFit, base_fit, start_from
 from covariscope.analysis.design import TermSpec, make_design
+from covariscope.analysis.linear import linear_summary
 from covariscope.analysis.modification import effect_modification, modification_table
 from covariscope.analysis.splines import residual_confounding, residual_table
 
@@ -29,12 +30,15 @@ def _cohort(n: int = 4000, seed: int = 8) -> pd.DataFrame:
     yb = (rng.random(n) < 1 / (1 + np.exp(-lin))).astype(float)
     yr = (rng.random(n) < 0.15 * np.exp(0.3 * (lin - lin.max()))).astype(float)
     t = rng.exponential(1 / np.exp(0.5 * lin))
-    return pd.DataFrame({"x": x, "c": c, "w": w, "m": m, "yb": yb, "yr": yr, "t": t, "d": 1.0})
+    yl = lin + rng.normal(size=n)
+    return pd.DataFrame(
+        {"x": x, "c": c, "w": w, "m": m, "yb": yb, "yr": yr, "yl": yl, "t": t, "d": 1.0}
+    )
 
 
 def _design(family: str) -> Any:
     frame = _cohort()
-    outcome = {"logistic": "yb", "risk_ratio": "yr", "cox": None}[family]
+    outcome = {"linear": "yl", "logistic": "yb", "risk_ratio": "yr", "cox": None}[family]
     return make_design(
         frame,
         exposure=TermSpec("x", "continuous"),
@@ -120,3 +124,49 @@ def test_warm_started_checks_make_fewer_passes(passes: list[int]) -> None:
     # The base fit is paid once; the linear fit of the residual check, which
     # is the recommended model itself, then takes a single pass.
     assert passes[0] < cold
+
+
+def test_linear_checks_from_the_design_summary_equal_the_fits_of_the_stacked_rows() -> None:
+    """A linear model's modification and residual checks, with the design's summary
+    lending the cross-products, equal the fits of the whole model matrix; the
+    interaction model also equals statsmodels OLS on the same columns."""
+    import statsmodels.api as sm
+
+    design = _design("linear")
+    summary = linear_summary(design.values)
+    for node in ("m", "c", "w"):
+        plain = effect_modification(design, ["c", "w"], node)
+        summed = effect_modification(design, ["c", "w"], node, summary=summary)
+        for a, b in zip(plain.strata, summed.strata, strict=True):
+            assert b.coef == pytest.approx(a.coef, rel=1e-10)
+            assert b.se == pytest.approx(a.se, rel=1e-10)
+        assert summed.interaction_p == pytest.approx(plain.interaction_p, rel=1e-8, abs=1e-14)
+    for node in ("c", "w"):
+        raw = design.blocks[node].values[:, 0]
+        plain_r = residual_confounding(design, ["c", "w"], node, raw)
+        summed_r = residual_confounding(design, ["c", "w"], node, raw, summary=summary)
+        assert summed_r.linear == pytest.approx(plain_r.linear, rel=1e-10)
+        assert summed_r.spline == pytest.approx(plain_r.spline, rel=1e-10)
+    # statsmodels OLS of y on [1, x, c, w, m, x·m]: the stratum m = 1 is b_x + b_xm.
+    frame = _cohort()
+    X = sm.add_constant(frame[["x", "c", "w", "m"]].assign(xm=frame["x"] * frame["m"]))
+    ref = sm.OLS(frame["yl"], X).fit()
+    by_m = effect_modification(design, ["c", "w"], "m", summary=summary)
+    assert by_m.strata[0].coef == pytest.approx(ref.params["x"], rel=1e-9)
+    assert by_m.strata[0].se == pytest.approx(ref.bse["x"], rel=1e-9)
+    assert by_m.strata[1].coef == pytest.approx(ref.params["x"] + ref.params["xm"], rel=1e-9)
+
+
+def test_linear_checks_with_the_summary_build_no_model_matrix(
+    monkeypatch: pytest.MonkeyPatch,
+) -> None:
+    design = _design("linear")
+    summary = linear_summary(design.values)
+
+    def refuse(*args: Any, **kw: Any) -> Any:
+        raise AssertionError("the model's rows were copied")
+
+    monkeypatch.setattr(column_fit, "model_matrix", refuse)
+    table = modification_table(design, ["c", "w"], ["m", "c", "w"], summary=summary)
+    assert set(table) == {"m", "c", "w"}
+    assert residual_table(design, ["c", "w"], ["c", "w"], summary=summary)["c"].flagged

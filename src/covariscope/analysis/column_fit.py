@@ -17,8 +17,12 @@ import numpy as np
 
 from covariscope.analysis.design import Design
 from covariscope.analysis.families import Fitter, family_of
+from covariscope.analysis.linear import LinearSummary
 
-__all__ = ["ColumnFit", "base_fit", "fit_columns", "model_matrix", "start_from"]
+__all__ = ["ColumnFit", "base_fit", "fit_columns", "fit_extra", "model_matrix", "start_from"]
+
+#: rows per block when the extra columns are crossed with the design
+_BLOCK_ROWS = 65536
 
 
 @dataclass(frozen=True)
@@ -151,11 +155,74 @@ def fit_columns(
     return ColumnFit(coef, fit.cov, None, tuple(names), kept)
 
 
-def base_fit(design: Design, terms: Sequence[str]) -> ColumnFit | None:
+def fit_extra(
+    design: Design,
+    cols: Sequence[int],
+    extra: Sequence[np.ndarray],
+    names: list[str],
+    *,
+    start: np.ndarray | None = None,
+    summary: LinearSummary | None = None,
+) -> ColumnFit | str:
+    """Fit [the design's columns ``cols`` | ``extra`` columns] (exposure first), as `fit_columns`.
+
+    For a linear model, ``summary`` — the means and co-moments of the
+    design's values, outcome last (the evidence engine's one-pass summary) —
+    lends every cross-product of the design's columns, so only the extra
+    columns are read: one pass that crosses them with the model's columns
+    and the outcome, no copy of the model's rows.  The least-squares
+    solution is the same (Golub & Van Loan 2013, §6.1: the normal equations
+    need only these sums), to rounding.  Other families, or no summary,
+    build the model's matrix (`model_matrix`) and fit it.
+    """
+    if family_of(design.family).fitter is Fitter.LEAST_SQUARES and summary is not None:
+        return _linear_extra(design, list(cols), extra, summary)
+    return fit_columns(
+        design, model_matrix(design, cols, *extra), names, start=start, ones_first=True
+    )
+
+
+def _linear_extra(
+    design: Design, cols: list[int], extra: Sequence[np.ndarray], summary: LinearSummary
+) -> ColumnFit | str:
+    from covariscope.analysis.linear import solve_ols
+
+    n = design.n
+    E = np.column_stack([e.reshape(n, -1) for e in extra]) if extra else np.empty((n, 0))
+    y = design.values.shape[1] - 1
+    keep = [*cols, y]
+    p, k = len(cols), E.shape[1]
+    mean_e = E.mean(axis=0) if n else np.zeros(k)
+    cross = np.zeros((p + 1, k))
+    square = np.zeros((k, k))
+    if k:
+        mean_keep = summary.mean[keep]
+        for s in range(0, n, _BLOCK_ROWS):
+            block = E[s : s + _BLOCK_ROWS] - mean_e
+            cross += (design.values[s : s + _BLOCK_ROWS][:, keep] - mean_keep).T @ block
+            square += block.T @ block
+    q = p + k + 1
+    mean = np.concatenate([summary.mean[cols], mean_e, summary.mean[[y]]])
+    comoment = np.empty((q, q))
+    at = [*range(p), q - 1]
+    comoment[np.ix_(at, at)] = summary.comoment[np.ix_(keep, keep)]
+    comoment[np.ix_(at, range(p, p + k))] = cross
+    comoment[np.ix_(range(p, p + k), at)] = cross.T
+    comoment[p : p + k, p : p + k] = square
+    res = solve_ols(LinearSummary(n, mean, comoment), list(range(p + k)), q - 1)
+    if res is None or res.cov is None:
+        return "the model's columns are exactly collinear"
+    return ColumnFit(res.coef, res.cov, res.df_resid)
+
+
+def base_fit(
+    design: Design, terms: Sequence[str], *, summary: LinearSummary | None = None
+) -> ColumnFit | None:
     """The model exposure + ``terms`` fitted once, for the checks that extend
-    it to start from (None when it cannot be fitted: they then start cold)."""
+    it to start from (None when it cannot be fitted: they then start cold).
+    A linear model with the design's ``summary`` reads no row (`fit_extra`)."""
     model_terms = [t for t in design.blocks if t in set(terms)]
     cols = [*design.exposure_index, *(j for t in model_terms for j in design.blocks[t].index)]
     names = [design.column_names[j] for j in cols]
-    fitted = fit_columns(design, model_matrix(design, cols), names, ones_first=True)
+    fitted = fit_extra(design, cols, [], names, summary=summary)
     return None if isinstance(fitted, str) else fitted

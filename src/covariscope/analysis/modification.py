@@ -37,13 +37,13 @@ import numpy as np
 from covariscope.analysis.column_fit import (
     ColumnFit,
     base_fit,
-    fit_columns,
-    model_matrix,
+    fit_extra,
     start_from,
 )
 from covariscope.analysis.design import Design
 from covariscope.analysis.distributions import chi2_sf, f_sf, norm_ppf, t_ppf
 from covariscope.analysis.families import family_of
+from covariscope.analysis.linear import LinearSummary
 from covariscope.vocabulary import ModificationForm
 
 __all__ = [
@@ -174,6 +174,7 @@ def effect_modification(
     ratio_guide: float = 1.5,
     level: float = 0.95,
     near: ColumnFit | None = None,
+    summary: LinearSummary | None = None,
 ) -> Modification:
     """The exposure effect across levels of ``node`` in the model exposure + ``terms``.
 
@@ -187,6 +188,8 @@ def effect_modification(
     near : a fit of exposure + ``terms`` (`base_fit`) to start the iterative
         fit from, with the product terms at zero (saves passes over the rows;
         the result is the same)
+    summary : the design's means and co-moments, outcome last: a linear
+        model then reads only its product columns (`fit_extra`)
 
     Examples
     --------
@@ -209,11 +212,10 @@ def effect_modification(
     # a spline-entered modifier: its main effect is the spline, the product is linear in it
     moderated = block.values if block.raw is None else block.raw[:, None]
     products = moderated * x[:, None]
-    X = model_matrix(design, cols, products)
     k = products.shape[1]
     pnames = [f"{design.exposure_name}×{node}[{j}]" for j in range(k)]
     start = None if near is None else start_from(near, [*names, *pnames])
-    fitted = fit_columns(design, X, [*names, *pnames], start=start, ones_first=True)
+    fitted = fit_extra(design, cols, [products], [*names, *pnames], start=start, summary=summary)
     kind, strata_spec = _strata_values(design, node)
     nan = float("nan")
     if isinstance(fitted, str):
@@ -280,16 +282,18 @@ def modification_table(
     p_guide: float = 0.05,
     ratio_guide: float = 1.5,
     near: ColumnFit | None = None,
+    summary: LinearSummary | None = None,
     on_fit: Callable[[int, int], None] | None = None,
 ) -> dict[str, Modification]:
     """:func:`effect_modification` of every candidate with data, in the model exposure + ``terms``.
 
     A covariate whose column never varies, or that is not in the design, is
     left out.  Every fit starts from ``near``, the fit of exposure + ``terms``
-    (`base_fit`; fitted here when not given).  ``on_fit(k, n)`` is called
-    before each of the ``n`` models is fitted (the base fit first, when it
-    is fitted here); whatever it raises stops the table between two fits
-    (the window's cancel).
+    (`base_fit`; fitted here when not given).  With ``summary`` (the
+    design's means and co-moments) a linear model reads only its product
+    columns.  ``on_fit(k, n)`` is called before each of the ``n`` models is
+    fitted (the base fit first, when it is fitted here); whatever it raises
+    stops the table between two fits (the window's cancel).
 
     Examples
     --------
@@ -318,11 +322,17 @@ def modification_table(
 
     if near is None and wanted:
         starting(1)
-        near = base_fit(design, terms)
+        near = base_fit(design, terms, summary=summary)
     out: dict[str, Modification] = {}
     for k, c in enumerate(wanted, start=1 + fitted_here):
         starting(k)
         out[c] = effect_modification(
-            design, terms, c, p_guide=p_guide, ratio_guide=ratio_guide, near=near
+            design,
+            terms,
+            c,
+            p_guide=p_guide,
+            ratio_guide=ratio_guide,
+            near=near,
+            summary=summary,
         )
     return out

@@ -20,12 +20,12 @@ import numpy as np
 from covariscope.analysis.column_fit import (
     ColumnFit,
     base_fit,
-    fit_columns,
-    model_matrix,
+    fit_extra,
     start_from,
 )
 from covariscope.analysis.design import Design
 from covariscope.analysis.families import family_of
+from covariscope.analysis.linear import LinearSummary
 from covariscope.analysis.spline_basis import DEFAULT_KNOTS, spline_basis
 
 __all__ = ["ResidualCheck", "residual_confounding", "residual_table"]
@@ -58,6 +58,7 @@ def residual_confounding(
     knots: int = DEFAULT_KNOTS,
     change_guide: float = 10.0,
     near: ColumnFit | None = None,
+    summary: LinearSummary | None = None,
     on_fit: Callable[[], None] | None = None,
 ) -> ResidualCheck:
     """Compare the exposure estimate with ``node`` linear and as a spline.
@@ -71,6 +72,8 @@ def residual_confounding(
     knots, change_guide : the spline's knots; the guide past which it is flagged
     near : a fit of exposure + ``terms`` to start from (saves passes over the
         rows of an iterative fit; the result is the same)
+    summary : the design's means and co-moments, outcome last: a linear
+        model then reads only its own new columns (`fit_extra`)
     on_fit : called before each of the two fits (linear, then spline); what
         it raises stops the check between them
 
@@ -102,18 +105,14 @@ def residual_confounding(
     start = None if near is None else start_from(near, lin_names, given=same)
     if on_fit is not None:
         on_fit()
-    linear = fit_columns(
-        design, model_matrix(design, cols, raw), lin_names, start=start, ones_first=True
-    )
+    linear = fit_extra(design, cols, [raw], lin_names, start=start, summary=summary)
     if isinstance(linear, str):
         return ResidualCheck(node, knots, nan, nan, nan, False, linear)
     spl_names = [*names, *(f"{node}[spline {j + 1}]" for j in range(basis.shape[1]))]
     start = start_from(linear, spl_names, given=_as_spline(linear, node, raw, basis, spl_names))
     if on_fit is not None:
         on_fit()
-    spline = fit_columns(
-        design, model_matrix(design, cols, basis), spl_names, start=start, ones_first=True
-    )
+    spline = fit_extra(design, cols, [basis], spl_names, start=start, summary=summary)
     if isinstance(spline, str):
         return ResidualCheck(node, knots, nan, nan, nan, False, spline)
     # A multi-level exposure: the contrast whose estimate moves most is reported.
@@ -162,6 +161,7 @@ def residual_table(
     knots: Mapping[str, int] | None = None,
     change_guide: float = 10.0,
     near: ColumnFit | None = None,
+    summary: LinearSummary | None = None,
     on_fit: Callable[[int, int], None] | None = None,
 ) -> dict[str, ResidualCheck]:
     """:func:`residual_confounding` for every continuous confounder among ``terms``.
@@ -170,7 +170,8 @@ def residual_table(
     a binary or categorical covariate, or one whose column never varies, is
     left out.  Every fit starts from ``near``, the fit of exposure + ``terms``
     (`~covariscope.analysis.column_fit.base_fit`; fitted here when not given).
-    ``on_fit(k, n)`` is called before each of the ``n`` models is fitted (the
+    With ``summary`` (the design's means and co-moments) a linear model reads
+    only its own new columns.  ``on_fit(k, n)`` is called before each of the ``n`` models is fitted (the
     base fit first when it is fitted here, then two per confounder: linear,
     spline; a check that stops early skips its numbers); whatever it raises
     stops the table between two fits (the window's cancel).
@@ -207,7 +208,7 @@ def residual_table(
 
     if near is None and examined:
         starting(1)
-        near = base_fit(design, terms)
+        near = base_fit(design, terms, summary=summary)
     out: dict[str, ResidualCheck] = {}
     for i, c in enumerate(examined):
         block = design.blocks[c]
@@ -220,6 +221,7 @@ def residual_table(
             knots=(knots or {}).get(c) or DEFAULT_KNOTS,
             change_guide=change_guide,
             near=near,
+            summary=summary,
             on_fit=_numbered(1 + fitted_here + 2 * i, starting),
         )
     return out

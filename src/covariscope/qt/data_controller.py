@@ -2,17 +2,23 @@
 check, relocating a missing file, bindings, column types and reference
 levels, columns dropped onto the canvas, and the engine that reads the file.
 
-A file that fits is loaded into memory and profiled whole.  A file read
-where it lies (DuckDB, Dask: chosen in the project's settings, or
-automatically for a file too large for memory) is only opened in the
-background; its columns appear at once and their profiles arrive one by one
-(:class:`~covariscope.qt.profiling.ProfileRunner`), with progress and cancel.
+A file that fits is loaded into memory and profiled whole, in the
+background.  A file read where it lies (DuckDB, Dask: chosen in the
+project's settings, or automatically for a file too large for memory) is
+only opened in the background; its columns appear at once and their
+profiles arrive one by one (:class:`~covariscope.qt.profiling.ProfileRunner`),
+with progress and cancel.  Either way a column whose type or reference
+level changes is profiled again by that runner, off the GUI thread, and a
+settings change that touches no column's profile (the family, the
+thresholds) profiles nothing.
 """
 
 from __future__ import annotations
 
 import contextlib
 import os
+from collections.abc import Mapping
+from dataclasses import dataclass
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
@@ -35,6 +41,33 @@ if TYPE_CHECKING:
 __all__ = ["DataController"]
 
 
+@dataclass(frozen=True)
+class _Profiled:
+    """A table loaded into memory with the profiles made in the background,
+    and the (types, reference levels) they were made with."""
+
+    table: Any
+    profiles: dict[str, Any]
+    settings: tuple[dict[str, str], dict[str, Any]]
+
+
+class _TableProfiles:
+    """The profiles of a table in memory through the window's study cache, in
+    the form :class:`ProfileRunner` reads (it calls them off the GUI thread)."""
+
+    def __init__(self, cache: Any, table: Any) -> None:
+        self.cache, self.table = cache, table
+
+    def profiles(
+        self, columns: tuple[str, ...], types: Mapping[str, str], references: Mapping[str, Any]
+    ) -> dict[str, Any]:
+        from covariscope.study.prepare import table_profiles
+        from covariscope.study.source import TableSource
+
+        found = table_profiles(self.cache, TableSource(self.table), types, references)
+        return {c: found[c] for c in columns}
+
+
 class DataController(QObject):
     def __init__(self, window: MainWindow) -> None:
         super().__init__(window)
@@ -53,7 +86,9 @@ class DataController(QObject):
             lambda f, column: window.show_progress(f"Profiling {column}", f)
         )
         self.profiler.finished.connect(self._profiles_done)
-        self.profiler.failed.connect(self._failed)
+        self.profiler.failed.connect(self._profile_failed)
+        #: the columns the profiler has in hand
+        self._in_hand: tuple[str, ...] = ()
         #: column → (type setting, reference setting) its profile was made with
         self._profiled_with: dict[str, tuple[Any, Any]] = {}
         #: the engine and scheduler the data in hand were opened with
@@ -75,6 +110,7 @@ class DataController(QObject):
             return "Loading cancelled."
         if self.profiler.running:
             self.profiler.cancel()
+            self._forget_in_hand()
             done = len(self.profiles)
             return (
                 f"Profiling cancelled: {done} of {len(self.columns())} columns profiled. "
@@ -152,18 +188,22 @@ class DataController(QObject):
         table = load_table(path, progress=lambda f: progress(0.9 * f, ""), cancel=cancel)
         progress(0.9, "Profiling the columns")
         types, references = self._settings
+        profiles: dict[str, Any] = {}
         # A setting that does not fit is reported when the window profiles with the settings in force.
         with contextlib.suppress(CovariscopeError):
-            table_profiles(self.w.runner.cache, TableSource(table), types, references, cancel)
-        return table
+            profiles = table_profiles(
+                self.w.runner.cache, TableSource(table), types, references, cancel
+            )
+        return _Profiled(table, profiles, (types, references))
 
     def _failed(self, message: str) -> None:
         self.w.hide_progress()
         self.w.set_last_error(message)
         self.w.show_message(message)
 
-    def _loaded(self, table: Any) -> None:
+    def _loaded(self, loaded: Any) -> None:
         self.w.hide_progress()
+        table = loaded.table if isinstance(loaded, _Profiled) else loaded
         project = self.w.project
         recorded = project.data.sha256 if project.data else None
         if recorded and recorded != table.sha256:
@@ -185,6 +225,10 @@ class DataController(QObject):
         self.w.runner.table = table
         self.profiles = {}
         self._profiled_with = {}
+        if isinstance(loaded, _Profiled):
+            types, references = loaded.settings
+            self.profiles = dict(loaded.profiles)
+            self._profiled_with = {c: (types.get(c), references.get(c)) for c in loaded.profiles}
         self.reprofile()
         self.bind_matching()
         self.w.refresh_panels()
@@ -209,21 +253,21 @@ class DataController(QObject):
         self.w.refresh_panels()
         self.w.request_analysis()
 
-    def _reprofile_source(self, source: BatchSource) -> None:
-        """Profile again, in the background, the columns whose type or reference changed."""
-        a = self.w.project.analysis
-        wanted = {c: (a.column_types.get(c), a.reference_levels.get(c)) for c in source.columns}
-        stale = tuple(c for c in source.columns if self._profiled_with.get(c, ()) != wanted[c])
-        if not stale:
-            return
-        self._profiled_with.update({c: wanted[c] for c in stale})
-        self.w.show_progress("Profiling the columns", 0.0)
-        self.profiler.profile(source, stale, dict(a.column_types), dict(a.reference_levels))
+    def _forget_in_hand(self) -> None:
+        """The columns in hand keep their old profiles and are tried again next time."""
+        self._profiled_with = {
+            c: v for c, v in self._profiled_with.items() if c not in self._in_hand
+        }
+
+    def _profile_failed(self, message: str) -> None:
+        self._forget_in_hand()
+        self._failed(message)
 
     def reprofile(self) -> None:
-        """Profiles for the data panel, from the study cache: only a column whose
-        type or reference level changed is profiled again.  A change of engine
-        loads the data again with the engine now chosen."""
+        """Profile again, off the GUI thread, the columns whose type or reference
+        level changed (a table in memory reads the others from the study cache);
+        nothing when none did.  A change of engine loads the data again with the
+        engine now chosen."""
         if self.table is None:
             self.profiles = {}
             return
@@ -231,20 +275,18 @@ class DataController(QObject):
         if (a.engine, a.scheduler) != self._engine:
             self.start_load()
             return
-        if self.source is not None:
-            self._reprofile_source(self.source)
+        columns = self.columns()
+        wanted = {c: (a.column_types.get(c), a.reference_levels.get(c)) for c in columns}
+        stale = tuple(c for c in columns if self._profiled_with.get(c, ()) != wanted[c])
+        if not stale:
             return
-        from covariscope.study.prepare import table_profiles
-        from covariscope.study.source import TableSource
-
-        a = self.w.project.analysis
-        try:
-            self.profiles = table_profiles(
-                self.w.runner.cache, TableSource(self.table), a.column_types, a.reference_levels
-            )
-        except CovariscopeError as exc:
-            self.w.set_last_error(str(exc))
-            self.w.show_message(str(exc))
+        if self.profiler.running:  # the run in hand is cancelled: its columns go along
+            stale = tuple(dict.fromkeys((*self._in_hand, *stale)))
+        self._profiled_with.update({c: wanted[c] for c in stale})
+        self._in_hand = stale
+        source = self.source or _TableProfiles(self.w.runner.cache, self.table)
+        self.w.show_progress("Profiling the columns", 0.0)
+        self.profiler.profile(source, stale, dict(a.column_types), dict(a.reference_levels))
 
     def columns(self) -> list[str]:
         if self.source is not None:

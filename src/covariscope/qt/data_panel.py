@@ -118,6 +118,8 @@ class DataPanel(QWidget):
         layout.addWidget(self.unbound_label)
         self._rows: list[ColumnRow] = []
         self._node_ids: list[str] = []
+        #: what the panel shows now (refresh does nothing when it would not change)
+        self._shown: tuple[Any, ...] | None = None
 
     @property
     def rows(self) -> list[ColumnRow]:
@@ -132,8 +134,15 @@ class DataPanel(QWidget):
             columns = list(table.columns)
         else:
             columns = list(table.frame.columns)
-        self._rows = column_rows(project, columns, profiles)
-        self._node_ids = [n.id for n in project.diagram.nodes]
+        rows = column_rows(project, columns, profiles)
+        node_ids = [n.id for n in project.diagram.nodes]
+        unbound = unbound_summary(project, table is not None)
+        held = None if table is None else (id(table), str(table.path), table.rows, where)
+        shown = (rows, node_ids, held, repr(project.data), unbound)
+        if shown == self._shown:
+            return  # an edit this panel does not show (a tick, an arrow): nothing to redo
+        self._shown = shown
+        self._rows, self._node_ids = rows, node_ids
         if table is not None:
             self.file_label.setText(file_summary(table.path.name, table.rows, len(columns), where))
             self.file_label.setToolTip(str(table.path))
@@ -157,7 +166,7 @@ class DataPanel(QWidget):
                         item.setText("—")
                         item.setToolTip("Not bound to any node")
                     self.table.setItem(r, c, item)
-        self.unbound_label.setText(unbound_summary(project, table is not None))
+        self.unbound_label.setText(unbound)
         self._cap_columns()
         self._fit_width()
 

@@ -63,6 +63,8 @@ __all__ = ["MainWindow"]
 
 #: Node fields no analysis reads: editing them asks for none.
 LAYOUT_FIELDS = frozenset({"x", "y", "note"})
+#: Node fields no panel shows: editing them refreshes none.
+PLACE_FIELDS = frozenset({"x", "y"})
 
 
 class MainWindow(QMainWindow):
@@ -297,6 +299,8 @@ class MainWindow(QMainWindow):
 
     # -- reacting to the model -----------------------------------------------------------
     def _model_changed(self, event: Any) -> None:
+        if event.kind == "node_changed" and set(event.changes) <= PLACE_FIELDS:
+            return  # the canvas moves the node itself; no panel shows where it sits
         self.refresh_panels()
         if event.kind == "node_changed" and set(event.changes) <= LAYOUT_FIELDS:
             return  # where a node sits and what its note says change no number

@@ -36,8 +36,10 @@ from PySide6.QtGui import (
 from covariscope import __version__
 from covariscope.errors import CovariscopeError
 from covariscope.model.files import temporary_prefix
+from covariscope.model.project import Project
 from covariscope.report.layout import Fonts, PagePlan, TextItem, plan_appendix, plan_page
 from covariscope.report.sketch import draw_sketch
+from covariscope.study.result import StudyResult
 from covariscope.views.report_content import RationaleContent, build_content
 
 __all__ = [
@@ -177,8 +179,8 @@ def _page_layout(page: str) -> QPageLayout:
 
 
 def write_pdf(
-    result: Any,
-    project: Any,
+    result: StudyResult,
+    project: Project,
     path: Path | str,
     page: str = "a4",
     *,
@@ -194,8 +196,8 @@ def write_pdf(
 
 
 def _write_pdf(
-    result: Any,
-    project: Any,
+    result: StudyResult,
+    project: Project,
     path: Path | str,
     page: str,
     content: RationaleContent | None,
@@ -239,7 +241,9 @@ def _write_pdf(
     return path
 
 
-def print_rationale(printer: QPagedPaintDevice, result: Any, project: Any) -> PaintRecord:
+def print_rationale(
+    printer: QPagedPaintDevice, result: StudyResult, project: Project
+) -> PaintRecord:
     """Print the rationale on a QPrinter (set up by the print dialog)."""
     _application()
     return _paint_on(printer, build_content(result, project), None)

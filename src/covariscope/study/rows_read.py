@@ -21,9 +21,11 @@ from typing import Any
 
 from covariscope.analysis.design import Design
 from covariscope.analysis.evidence import EvidenceEngine, EvidenceTable
+from covariscope.analysis.families import Fitter, family_of
 from covariscope.analysis.fits import Fit
 from covariscope.analysis.graph import DiagramAnalysis
 from covariscope.analysis.joint_region import CollinearityPicture, collinearity_pictures
+from covariscope.analysis.linear import LinearSummary
 from covariscope.analysis.modification import Modification, modification_table
 from covariscope.analysis.splines import ResidualCheck, residual_table
 from covariscope.study.decide import Question
@@ -162,6 +164,7 @@ def _modification(
     terms: Sequence[str],
     candidates: Sequence[str],
     guides: tuple[float, float],
+    summary: LinearSummary | None,
     report: Progress | None = None,
 ) -> dict[str, Modification]:
     """:func:`~covariscope.analysis.modification.modification_table`, one entry
@@ -184,6 +187,7 @@ def _modification(
             missing,
             p_guide=guides[0],
             ratio_guide=guides[1],
+            summary=summary,
             on_fit=fit_reporter(run, report, "Checking effect modification", MODIFICATION_SPAN),
         ),
     )
@@ -198,6 +202,7 @@ def _residual(
     confounders: Sequence[str],
     knots: Mapping[str, int],
     guide: float,
+    summary: LinearSummary | None,
     report: Progress | None = None,
 ) -> dict[str, ResidualCheck]:
     """:func:`~covariscope.analysis.splines.residual_table`, one entry per
@@ -224,6 +229,7 @@ def _residual(
             missing,
             knots={c: knots[c] for c in missing if c in knots},
             change_guide=guide,
+            summary=summary,
             on_fit=fit_reporter(run, report, "Checking residual confounding", RESIDUAL_SPAN),
         ),
     )
@@ -260,10 +266,13 @@ def rows_read(
         return RowsRead(pictures)
     terms = recommended.terms
     guides = (thresholds["modification_p"], thresholds["modification_ratio"])
+    # A linear model's checks read only their own new columns: the design's
+    # cross-products come from the evidence engine's one-pass summary.
+    summary = engine.summary if family_of(design.family).fitter is Fitter.LEAST_SQUARES else None
     modification = (
         {}
         if design.multilevel
-        else _modification(run, spec, design, terms, evidence.candidates, guides, report)
+        else _modification(run, spec, design, terms, evidence.candidates, guides, summary, report)
     )
     confounders = [c for c in terms if c in da.roles and da.roles[c].role == "confounder"]
     residual = _residual(
@@ -274,6 +283,7 @@ def rows_read(
         confounders,
         dict(q.spline_knots),
         thresholds["change_pct"],
+        summary,
         report,
     )
     said = (_MULTILEVEL,) if design.multilevel else ()

@@ -7,8 +7,9 @@ The number formats live here, in :func:`format_number` and
 :func:`estimate_decimals`, so a script that reads ``covariscope check --json``
 can round the same way and find the printed value.
 
-The study result is read by attribute (see ``notes/STUDY_API.md``); fields
-that are missing or None are reported as "not available" rather than failing.
+It reads the typed :class:`~covariscope.study.StudyResult` and the
+:class:`~covariscope.model.Project` by attribute; what the result does not hold
+(no data, a model that could not be fitted) is said as "not available" or why.
 """
 
 from __future__ import annotations
@@ -19,17 +20,21 @@ import re
 from collections.abc import Iterable, Mapping, Sequence
 from dataclasses import dataclass
 from itertools import pairwise
-from typing import Any
 
 from covariscope import __version__
 from covariscope.analysis.adjustment import ProposalReview
 from covariscope.analysis.claim_wording import SHORT_CAUTION, summary_line
+from covariscope.analysis.contrasts import ExposureJoint
+from covariscope.analysis.fits import Contrast, Fit
 from covariscope.analysis.proposal_wording import (
     PROPOSED_SET,
     collider_openers,
     descendant_reasons,
     unnecessary_words,
 )
+from covariscope.model.diagram import Diagram, Node
+from covariscope.model.project import Project
+from covariscope.study.result import StudyResult
 from covariscope.views.modification import flagged_lines
 from covariscope.views.residual import flagged_residual_lines
 from covariscope.views.review import change_value, role_words
@@ -202,21 +207,13 @@ class RationaleContent:
     residual: tuple[str, ...] = ()
 
 
-def _get(obj: Any, name: str, default: Any = None) -> Any:
-    if obj is None:
-        return default
-    if isinstance(obj, Mapping):
-        return obj.get(name, default)
-    return getattr(obj, name, default)
-
-
-def _contrast_words(fit: Any, levels: tuple[str, ...]) -> str:
+def _contrast_words(fit: Fit | None, levels: tuple[str, ...]) -> str:
     """`` (high vs low)`` for a multi-level exposure's estimate, else nothing."""
-    contrast = _get(fit, "contrast", "") if fit is not None else ""
+    contrast = fit.contrast if fit is not None else ""
     return f" ({contrast} vs {levels[0]})" if contrast and levels else ""
 
 
-def _change_cell(change: float | None, joint: Any) -> str:
+def _change_cell(change: float | None, joint: ExposureJoint | None) -> str:
     """The change, naming the contrast that moved most for a multi-level exposure."""
     text = format_percent(change)
     if joint is None or change is None:
@@ -234,39 +231,35 @@ _ESTIMATE_TITLES = (
     ("recommended", "Recommended set"),
 )
 
+#: one estimate line of the page: its title, the fit or contrast it shows, and the rows used
+_Line = tuple[str, Fit | Contrast | None, int | None]
 
-def _estimate_lines(estimates: Mapping[str, Any]) -> list[tuple[str, Any, Any]]:
+
+def _estimate_lines(estimates: Mapping[str, Fit | None]) -> list[_Line]:
     """(title, fit or contrast, rows) of every estimate line: one per model, or
     for a multi-level exposure one per model and contrast."""
-    lines: list[tuple[str, Any, Any]] = []
+    lines: list[_Line] = []
     for key, title in _ESTIMATE_TITLES:
         fit = estimates.get(key)
-        n = _get(fit, "n") if fit is not None else None
-        contrasts = tuple(_get(fit, "contrasts", ()) or ()) if fit is not None else ()
-        if contrasts and _get(fit, "ok", True):
-            lines += [(f"{title}: {c.level}", c, n) for c in contrasts]
+        n = fit.n if fit is not None else None
+        if fit is not None and fit.contrasts and fit.ok:
+            lines += [(f"{title}: {c.level}", c, n) for c in fit.contrasts]
         else:
             lines.append((title, fit, n))
     return lines
 
 
-def _fit_numbers(fit: Any, ratio: bool) -> tuple[float | None, float | None, float | None]:
+def _fit_numbers(
+    fit: Fit | Contrast | None, ratio: bool
+) -> tuple[float | None, float | None, float | None]:
     """(estimate, lower, upper) on the scale shown: ratios for ratio families."""
-    if fit is None or not _get(fit, "ok", True):
+    if fit is None or (isinstance(fit, Fit) and not fit.ok) or not math.isfinite(fit.coef):
         return None, None, None
-    coef = _get(fit, "coef")
-    ci = _get(fit, "ci") or (None, None)
-    if coef is None or not math.isfinite(coef):
+    if not ratio:
+        return fit.coef, fit.ci[0], fit.ci[1]
+    if fit.ratio is None or fit.ratio_ci is None:
         return None, None, None
-    if ratio:
-        r = _get(fit, "ratio")
-        rci = _get(fit, "ratio_ci")
-        if r is None:
-            r = math.exp(coef)
-        if rci is None:
-            rci = tuple(math.exp(c) if c is not None and math.isfinite(c) else None for c in ci)
-        return r, rci[0], rci[1]
-    return coef, ci[0], ci[1]
+    return fit.ratio, fit.ratio_ci[0], fit.ratio_ci[1]
 
 
 def _path_text(
@@ -350,13 +343,13 @@ def _finding(text: str, label_of: Mapping[str, str]) -> str:
 
 
 def _page_messages(
-    result: Any, label_of: Mapping[str, str], *, shown_insufficient: bool
+    result: StudyResult, label_of: Mapping[str, str], *, shown_insufficient: bool
 ) -> tuple[str, ...]:
     """The engine's messages minus those the page already says in its own
     sections (the sample, an insufficient set, the cautions)."""
-    sample_message = _one_line(_get(_get(result, "sample"), "message", "") or "")
+    sample_message = _one_line(result.sample.message) if result.sample is not None else ""
     out: list[str] = []
-    for raw in _get(result, "messages", ()) or ():
+    for raw in result.messages:
         text = _one_line(raw)
         if not text or text == sample_message:
             continue  # the Data section gives rows used and lost
@@ -368,178 +361,117 @@ def _page_messages(
     return tuple(dict.fromkeys(out))
 
 
-def _checks_line(result: Any, label_of: Mapping[str, str]) -> str:
-    checks = _get(result, "diagram_checks")
+def _checks_line(result: StudyResult, label_of: Mapping[str, str]) -> str:
+    checks = result.diagram_checks
     if checks is None:
         return ""
     return f"{summary_line(checks, label_of, top=2, short=True)} {SHORT_CAUTION}"
 
 
-def build_content(result: Any, project: Any, *, today: _dt.date | None = None) -> RationaleContent:
-    """Build every string of the rationale page.
+# -- sections ------------------------------------------------------------------------------
 
-    Parameters
-    ----------
-    result : StudyResult
-        From :func:`covariscope.study.run_study` (read by attribute).
-    project : Project
-        The project the result was computed from: labels, notes, positions.
-    today : datetime.date, optional
-        The date printed; defaults to today.
 
-    Returns
-    -------
-    RationaleContent
+def _data_lines(result: StudyResult, diagram: Diagram) -> tuple[str, ...]:
+    """The Data section: the file, rows used, rows lost by column label."""
+    sample = result.sample
+    lines: list[str] = []
+    if result.data_name or sample is not None:
+        line = f"File: {result.data_name or 'unnamed'}"
+        if result.data_sha256:
+            line += f"  (SHA-256 {result.data_sha256[:12]})"
+        lines.append(line)
+    if sample is None:
+        return (*lines, "No data bound: the page shows what the diagram says only.")
+    rows, used = sample.rows, sample.used
+    lines.append(f"Rows used: {used:,} of {rows:,} in the file (complete cases).")
+    lost = {c: int(v) for c, v in (sample.lost_by_column or sample.missing_by_column).items() if v}
+    if rows - used <= 0:
+        return (*lines, "Rows lost: none.")
+    # people read the diagram's labels; a column no node is bound to keeps its name
+    label_of_column = {n.column: n.label for n in diagram.nodes if n.column}
+    detail = ", ".join(
+        f"{label_of_column.get(c, c)} {v:,}"
+        for c, v in sorted(lost.items(), key=lambda kv: (-kv[1], kv[0]))
+    )
+    text = f"Rows lost: {rows - used:,}"
+    return (*lines, text + (f", missing in {detail}." if detail else "."))
 
-    Examples
-    --------
-    >>> from types import SimpleNamespace as Ns
-    >>> from covariscope.model import Diagram, Node, Project
-    >>> d = Diagram()
-    >>> d.add_node(Node("x", "Shift work", kind="exposure"))
-    >>> d.add_node(Node("y", "Blood pressure", kind="outcome"))
-    >>> r = Ns(exposure="x", outcome="y", family="linear", effect_measure="mean difference")
-    >>> build_content(r, Project(d)).question
-    'Effect of Shift work on Blood pressure'
-    """
-    diagram = project.diagram
-    label_of = {n.id: n.label for n in diagram.nodes}
-    exposure = _get(result, "exposure")
-    outcome = _get(result, "outcome")
-    x_label = label_of.get(exposure, exposure or "?")
-    y_label = label_of.get(outcome, outcome or "?")
-    family = _get(result, "family") or "linear"
-    ratio = family_term(family).ratio
-    measure = _get(result, "effect_measure") or ("ratio" if ratio else "mean difference")
 
-    proposed = tuple(_get(result, "proposed", ()) or ())
-    recommended = tuple(_get(result, "recommended", ()) or ())
-    analysis = _get(result, "diagram")
-    roles = _get(analysis, "roles", {}) or {}
-    verdicts = _get(result, "verdicts", {}) or {}
-    evidence = _get(result, "evidence")
-    ev_covariates = _get(evidence, "covariates", {}) or {}
+def _insufficient_lines(
+    review: ProposalReview, result: StudyResult, diagram: Diagram, label_of: Mapping[str, str]
+) -> list[str]:
+    """Why the proposed set does not suffice: descendants named, then the open paths."""
+    role_of = {c: f.role for c, f in result.diagram.roles.items()}
+    chosen = _labels(result.proposed, label_of)
+    lines = [f"{PROPOSED_SET}: {chosen} — NOT sufficient:"]
+    lines += [f"{r[0].upper()}{r[1:]}." for r in descendant_reasons(review, role_of, label_of)]
     arrows = set(diagram.arrows)
+    lines += [f"Open path: {_path_text(p, arrows, label_of)}" for p in review.open_paths]
+    total, exact, listed = review.open_paths_total, review.open_paths_total_exact, review.open_paths
+    if not exact or total > len(listed):
+        count = f"{total:,}" if exact else f"at least {total:,}"
+        lines.append(f"Open paths in all: {count}; {len(listed)} are shown.")
+    return lines
 
-    # -- data -------------------------------------------------------------------------
-    data_lines: list[str] = []
-    name = _get(result, "data_name")
-    sha = _get(result, "data_sha256")
-    sample = _get(result, "sample")
-    if name or sample is not None:
-        line = f"File: {name or 'unnamed'}"
-        if sha:
-            line += f"  (SHA-256 {str(sha)[:12]})"
-        data_lines.append(line)
-    if sample is not None:
-        rows = int(_get(sample, "rows", 0) or 0)
-        used = int(_get(sample, "used", 0) or 0)
-        data_lines.append(f"Rows used: {used:,} of {rows:,} in the file (complete cases).")
-        lost = _get(sample, "lost_by_column") or _get(sample, "missing_by_column") or {}
-        lost = {c: int(v) for c, v in dict(lost).items() if v}
-        if rows - used > 0:
-            # people read the diagram's labels; a column no node is bound to keeps its name
-            label_of_column = {n.column: n.label for n in diagram.nodes if n.column}
-            detail = ", ".join(
-                f"{label_of_column.get(c, c)} {v:,}"
-                for c, v in sorted(lost.items(), key=lambda kv: (-kv[1], kv[0]))
-            )
-            text = f"Rows lost: {rows - used:,}"
-            data_lines.append(text + (f", missing in {detail}." if detail else "."))
-        else:
-            data_lines.append("Rows lost: none.")
-    else:
-        data_lines.append("No data bound: the page shows what the diagram says only.")
 
-    # -- adjustment set ---------------------------------------------------------------
-    adjustment: list[str] = []
-    review = _get(analysis, "review") or _get(analysis, "proposal")
-    sufficient = _get(review, "sufficient")
-    chosen = _labels(proposed, label_of)
-    role_of = {c: _get(f, "role") for c, f in roles.items()}
-    if sufficient is True:
-        adjustment.append(f"{PROPOSED_SET}: {chosen} — sufficient, the diagram says.")
-    elif sufficient is False:
-        typed = isinstance(review, ProposalReview)
-        reasons = descendant_reasons(review, role_of, label_of) if typed else ()
-        adjustment.append(f"{PROPOSED_SET}: {chosen} — NOT sufficient" + (":" if typed else "."))
-        adjustment.extend(f"{r[0].upper()}{r[1:]}." for r in reasons)
-        listed = tuple(_get(review, "open_paths", ()) or ())
-        for path in listed:
-            adjustment.append(f"Open path: {_path_text(path, arrows, label_of)}")
-        total = _get(review, "open_paths_total", len(listed))
-        exact = _get(review, "open_paths_total_exact", True)
-        if not exact or total > len(listed):
-            count = f"{total:,}" if exact else f"at least {total:,}"
-            adjustment.append(f"Open paths in all: {count}; {len(listed)} are shown.")
+def _adjustment_lines(
+    result: StudyResult, diagram: Diagram, label_of: Mapping[str, str]
+) -> tuple[str, ...]:
+    """The Adjustment set section: the proposed set judged, then the recommended one."""
+    review = result.diagram.review
+    if review.sufficient:
+        chosen = _labels(result.proposed, label_of)
+        lines = [f"{PROPOSED_SET}: {chosen} — sufficient, the diagram says."]
     else:
-        adjustment.append(f"{PROPOSED_SET}: {chosen}.")
-    if isinstance(review, ProposalReview) and review.unnecessary:
-        adjustment.append(f"Unnecessary in it: {unnecessary_words(review, label_of)}.")
-    if isinstance(review, ProposalReview):  # the descendants are named above
-        if openers := collider_openers(review):
-            adjustment.append(f"Opens a collider path: {_labels(openers, label_of)}.")
-    elif harmful := tuple(_get(review, "harmful", ()) or ()):
-        adjustment.append(f"Harmful in it: {_labels(harmful, label_of)}.")
-    if _get(analysis, "identifiable") is False:
-        adjustment.append(
+        lines = _insufficient_lines(review, result, diagram, label_of)
+    if review.unnecessary:
+        lines.append(f"Unnecessary in it: {unnecessary_words(review, label_of)}.")
+    if openers := collider_openers(review):  # the descendants are named above
+        lines.append(f"Opens a collider path: {_labels(openers, label_of)}.")
+    if not result.diagram.identifiable:
+        lines.append(
             "No set of measured covariates suffices: the effect is not identified by "
             "adjustment in this diagram."
         )
-    elif recommended or _get(result, "recommended") is not None:
-        adjustment.append(f"Recommended set: {_labels(recommended, label_of)}.")
+    else:
+        lines.append(f"Recommended set: {_labels(result.recommended, label_of)}.")
+    return tuple(lines)
 
-    # -- estimates --------------------------------------------------------------------
-    estimates = _get(result, "estimates", {}) or {}
-    wanted = _estimate_lines(estimates)
+
+def _estimate_rows(result: StudyResult, ratio: bool) -> tuple[tuple[EstimateRow, ...], int]:
+    """The estimate lines, formatted to the decimals the narrowest interval supports."""
+    wanted = _estimate_lines(result.estimates)
     numbers = [_fit_numbers(fit, ratio) for _, fit, _ in wanted]
     widths = [hi - lo for _, lo, hi in numbers if lo is not None and hi is not None]
     decimals = estimate_decimals(widths, ratio=ratio)
-    rows_out: list[EstimateRow] = []
+    rows: list[EstimateRow] = []
     for (title, fit, n), (est, lo, hi) in zip(wanted, numbers, strict=True):
         if est is None:
-            why = _one_line(_get(fit, "message", "") or "not estimated") if fit else "not estimated"
-            rows_out.append(EstimateRow(title, _NOT_AVAILABLE, why, ""))
+            why = fit.message if isinstance(fit, Fit) else ""
+            rows.append(EstimateRow(title, _NOT_AVAILABLE, _one_line(why or "not estimated"), ""))
         else:
-            rows_out.append(
-                EstimateRow(
-                    title,
-                    format_number(est, decimals),
-                    format_interval(lo, hi, decimals),
-                    f"{int(n):,}" if n is not None else "",
-                )
-            )
-    estimates_caption = f"Estimates: {measure} with 95% CI"
-    levels = tuple(_get(result, "exposure_levels", ()) or ())
-    if levels:
-        estimates_caption += f", each level vs {levels[0]}"
+            interval = format_interval(lo, hi, decimals)
+            count = f"{n:,}" if n is not None else ""
+            rows.append(EstimateRow(title, format_number(est, decimals), interval, count))
+    return tuple(rows), decimals
 
-    evalue = _get(result, "evalue")
-    if evalue is not None and _get(evalue, "estimate") is not None:
-        text = (
-            f"E-value: {format_number(_get(evalue, 'estimate'), 2)} for the recommended estimate"
-            f"{_contrast_words(estimates.get('recommended'), levels)}, "
-            f"{format_number(_get(evalue, 'ci'), 2)} for its CI limit nearer the null"
-        )
-        conversion = _get(evalue, "conversion")
-        evalue_text = text + (f" ({_one_line(conversion)})." if conversion else ".")
-    else:
-        evalue_text = "E-value: not available (no recommended estimate)."
 
-    # -- covariate table ----------------------------------------------------------------
-    change_header = "Change (ratio) %" if ratio else "Change %"
-    headers = (
-        "#",
-        "Covariate",
-        "Set",
-        "Role",
-        change_header,
-        "SE infl. %",
-        "VIF",
-        "Verdict",
-        "Note",
+def _evalue_text(result: StudyResult) -> str:
+    """The E-value line of the recommended estimate, or why there is none."""
+    evalue = result.evalue
+    if evalue is None:
+        return "E-value: not available (no recommended estimate)."
+    text = (
+        f"E-value: {format_number(evalue.estimate, 2)} for the recommended estimate"
+        f"{_contrast_words(result.estimates.get('recommended'), result.exposure_levels)}, "
+        f"{format_number(evalue.ci, 2)} for its CI limit nearer the null"
     )
-    table_caption = (
+    return text + (f" ({_one_line(evalue.conversion)})." if evalue.conversion else ".")
+
+
+def _table_caption(ratio: bool, levels: tuple[str, ...]) -> str:
+    """What the covariate table's set letters and change columns mean."""
+    return (
         "Set: P = in the proposed set, R = in the recommended set. Change and SE inflation: "
         "the covariate added alone to the crude model"
         + (
@@ -556,76 +488,85 @@ def build_content(result: Any, project: Any, *, today: _dt.date | None = None) -
             else ""
         )
     )
-    cov_rows: list[CovariateRow] = []
-    for number, node in enumerate(diagram.covariates, start=1):
-        facts = roles.get(node.id)
-        verdict = verdicts.get(node.id)
-        ev = ev_covariates.get(node.id)
-        added = _get(ev, "added")
-        change = change_value(added, family)
-        cov_rows.append(
-            CovariateRow(
-                node=node.id,
-                key=str(number),
-                label=node.label,
-                sets=" ".join(
-                    flag
-                    for flag, inside in (("P", node.id in proposed), ("R", node.id in recommended))
-                    if inside
-                ),
-                role=role_words(_get(facts, "role") if facts is not None else None),
-                change=_change_cell(change, _get(ev, "joint")) if ev is not None else "—",
-                se_inflation=format_percent(_get(added, "se_inflation_pct"))
-                if ev is not None
-                else "—",
-                vif=format_number(_get(ev, "vif"), 2) if ev is not None else "—",
-                verdict=_get(verdict, "label", "—") or "—",
-                verdict_code=_get(verdict, "code", "") or "",
-                note=_one_line(node.note),
-                proposed=node.id in proposed,
-                recommended=node.id in recommended,
-                measured=node.measured,
-            )
-        )
 
-    # -- findings -----------------------------------------------------------------------
-    collinearity: list[str] = []
-    for group in _get(result, "collinear_groups", ()) or ():
-        kept = [m for m in group if m in recommended]
-        if not kept:
-            kept = [
-                _get(verdicts.get(m), "suggested")
-                for m in group
-                if _get(verdicts.get(m), "suggested")
-            ][:1]
-        line = f"{_labels(group, label_of)}: "
-        line += f"kept {_labels(kept, label_of)}." if kept else "none kept."
-        collinearity.append(line)
-    disagreements = tuple(_finding(s, label_of) for s in (_get(result, "disagreements", ()) or ()))
-    messages = _page_messages(result, label_of, shown_insufficient=sufficient is False)
 
-    thresholds = dict(_get(result, "thresholds", {}) or {})
-    if not thresholds:
-        thresholds = dict(getattr(project.analysis, "thresholds", {}) or {})
-    parts = []
-    for key, words, suffix in (
-        ("change_pct", "change in estimate", "%"),
-        ("se_inflation_pct", "SE inflation", "%"),
-        ("vif", "VIF", ""),
-        ("r2", "R²", ""),
-        ("condition_index", "condition index", ""),
-        ("modification_p", "interaction p", ""),
-        ("modification_ratio", "ratio of stratum estimates", ""),
-    ):
-        if key in thresholds:
-            parts.append(f"{words} {thresholds[key]:g}{suffix}")
-    thresholds_text = (
-        "Thresholds used, as guides (rules of thumb, editable): " + ", ".join(parts) + "."
+def _covariate_row(result: StudyResult, node: Node, number: int) -> CovariateRow:
+    """One covariate's row: sets, role, the data's evidence and the verdict."""
+    facts = result.diagram.roles.get(node.id)
+    verdict = result.verdicts.get(node.id)
+    ev = result.evidence.covariates.get(node.id) if result.evidence is not None else None
+    proposed, recommended = node.id in result.proposed, node.id in result.recommended
+    if ev is None:
+        change = inflation = vif = "—"
+    else:
+        change = _change_cell(change_value(ev.added, result.family), ev.joint)
+        inflation = format_percent(ev.added.se_inflation_pct)
+        vif = format_number(ev.vif, 2)
+    return CovariateRow(
+        node=node.id,
+        key=str(number),
+        label=node.label,
+        sets=" ".join(flag for flag, inside in (("P", proposed), ("R", recommended)) if inside),
+        role=role_words(facts.role if facts is not None else None),
+        change=change,
+        se_inflation=inflation,
+        vif=vif,
+        verdict=(verdict.label if verdict is not None else "") or "—",
+        verdict_code=verdict.code if verdict is not None else "",
+        note=_one_line(node.note),
+        proposed=proposed,
+        recommended=recommended,
+        measured=node.measured,
     )
 
-    # -- diagram ------------------------------------------------------------------------
-    keys = {r.node: r.key for r in cov_rows}
-    sketch = DiagramSketch(
+
+def _collinearity_lines(result: StudyResult, label_of: Mapping[str, str]) -> tuple[str, ...]:
+    """One line per collinear group: which member the recommended set keeps."""
+    lines: list[str] = []
+    for group in result.collinear_groups:
+        kept = [m for m in group if m in result.recommended]
+        if not kept:
+            suggested = (result.verdicts[m].suggested for m in group if m in result.verdicts)
+            kept = [s for s in suggested if s][:1]
+        line = f"{_labels(group, label_of)}: "
+        line += f"kept {_labels(kept, label_of)}." if kept else "none kept."
+        lines.append(line)
+    return tuple(lines)
+
+
+_THRESHOLD_WORDS = (
+    ("change_pct", "change in estimate", "%"),
+    ("se_inflation_pct", "SE inflation", "%"),
+    ("vif", "VIF", ""),
+    ("r2", "R²", ""),
+    ("condition_index", "condition index", ""),
+    ("modification_p", "interaction p", ""),
+    ("modification_ratio", "ratio of stratum estimates", ""),
+)
+
+
+def _thresholds_text(result: StudyResult, project: Project) -> str:
+    """The guides the verdicts used (the project's when the result has none)."""
+    thresholds = dict(result.thresholds) or dict(project.analysis.thresholds)
+    parts = [
+        f"{words} {thresholds[key]:g}{suffix}"
+        for key, words, suffix in _THRESHOLD_WORDS
+        if key in thresholds
+    ]
+    return "Thresholds used, as guides (rules of thumb, editable): " + ", ".join(parts) + "."
+
+
+def _sketch(result: StudyResult, diagram: Diagram, keys: Mapping[str, str]) -> DiagramSketch:
+    """The diagram as drawn, each covariate keyed by its table row and named by role."""
+    roles = result.diagram.roles
+
+    def role(n: Node) -> str:
+        if n.kind != "covariate":
+            return n.kind
+        facts = roles.get(n.id)
+        return role_words(facts.role if facts is not None else None)
+
+    return DiagramSketch(
         nodes=tuple(
             SketchNode(
                 n.id,
@@ -635,8 +576,8 @@ def build_content(result: Any, project: Any, *, today: _dt.date | None = None) -
                 n.measured,
                 float(n.x),
                 float(n.y),
-                n.id in proposed,
-                role_words(_get(roles.get(n.id), "role")) if n.kind == "covariate" else n.kind,
+                n.id in result.proposed,
+                role(n),
             )
             for n in diagram.nodes
         ),
@@ -644,38 +585,88 @@ def build_content(result: Any, project: Any, *, today: _dt.date | None = None) -
         proxies=tuple(diagram.proxies),
     )
 
-    path = getattr(project, "path", None)
-    project_name = path.name if path is not None else "unsaved project"
-    date = (today or _dt.date.today()).isoformat()
-    footer = f"{date} · Covariscope {__version__} · project {project_name}"
 
+def build_content(
+    result: StudyResult, project: Project, *, today: _dt.date | None = None
+) -> RationaleContent:
+    """Build every string of the rationale page.
+
+    Parameters
+    ----------
+    result : StudyResult
+        From :func:`covariscope.study.run_study`.
+    project : Project
+        The project the result was computed from: labels, notes, positions.
+    today : datetime.date, optional
+        The date printed; defaults to today.
+
+    Returns
+    -------
+    RationaleContent
+
+    Examples
+    --------
+    >>> from covariscope.model import Diagram, Node, Project
+    >>> from covariscope.study import run_study
+    >>> d = Diagram()
+    >>> d.add_node(Node("x", "Shift work", kind="exposure"))
+    >>> d.add_node(Node("y", "Blood pressure", kind="outcome"))
+    >>> d.add_arrow("x", "y")
+    >>> project = Project(d)
+    >>> build_content(run_study(project), project).question
+    'Effect of Shift work on Blood pressure'
+    """
+    diagram = project.diagram
+    label_of = {n.id: n.label for n in diagram.nodes}
+    x_label = label_of.get(result.exposure, result.exposure or "?")
+    y_label = label_of.get(result.outcome, result.outcome or "?")
+    term = family_term(result.family)
+    ratio = term.ratio
+    measure = result.effect_measure or ("ratio" if ratio else "mean difference")
+    estimates, decimals = _estimate_rows(result, ratio)
+    levels = result.exposure_levels
+    caption = f"Estimates: {measure} with 95% CI" + (
+        f", each level vs {levels[0]}" if levels else ""
+    )
+    covariates = tuple(
+        _covariate_row(result, node, number)
+        for number, node in enumerate(diagram.covariates, start=1)
+    )
+    project_name = project.path.name if project.path is not None else "unsaved project"
+    date = (today or _dt.date.today()).isoformat()
     return RationaleContent(
         title="Adjustment rationale",
         question=f"Effect of {x_label} on {y_label}",
-        measure=f"Effect measure: {measure} · model family: {family_term(family).model}",
-        data=tuple(data_lines),
-        adjustment=tuple(adjustment),
-        estimates_caption=estimates_caption,
-        estimates=tuple(rows_out),
-        evalue=evalue_text,
-        covariate_headers=headers,
-        table_caption=table_caption,
-        covariates=tuple(cov_rows),
-        collinearity=tuple(collinearity),
-        disagreements=disagreements,
-        messages=messages,
-        thresholds=thresholds_text,
+        measure=f"Effect measure: {measure} · model family: {term.model}",
+        data=_data_lines(result, diagram),
+        adjustment=_adjustment_lines(result, diagram, label_of),
+        estimates_caption=caption,
+        estimates=estimates,
+        evalue=_evalue_text(result),
+        covariate_headers=_headers(ratio),
+        table_caption=_table_caption(ratio, levels),
+        covariates=covariates,
+        collinearity=_collinearity_lines(result, label_of),
+        disagreements=tuple(_finding(s, label_of) for s in result.disagreements),
+        messages=_page_messages(
+            result, label_of, shown_insufficient=not result.diagram.review.sufficient
+        ),
+        thresholds=_thresholds_text(result, project),
         cautions=CAUTIONS,
-        footer=footer,
-        diagram=sketch,
+        footer=f"{date} · Covariscope {__version__} · project {project_name}",
+        diagram=_sketch(result, diagram, {r.node: r.key for r in covariates}),
         decimals=decimals,
         ratio=ratio,
         exposure=x_label,
         outcome=y_label,
         project_name=project_name,
-        residual=tuple(
-            flagged_residual_lines(_get(result, "residual_confounding", {}) or {}, label_of)
-        ),
+        residual=tuple(flagged_residual_lines(result.residual_confounding, label_of)),
         diagram_checks=_checks_line(result, label_of),
-        modification=tuple(flagged_lines(_get(result, "modification", {}) or {}, label_of)),
+        modification=tuple(flagged_lines(result.modification, label_of)),
     )
+
+
+def _headers(ratio: bool) -> tuple[str, ...]:
+    """The covariate table's column titles."""
+    change = "Change (ratio) %" if ratio else "Change %"
+    return ("#", "Covariate", "Set", "Role", change, "SE infl. %", "VIF", "Verdict", "Note")

@@ -1,0 +1,258 @@
+"""The GUI storm of benchmarks/bench_edits.py (issue 9): the window, offscreen,
+on a generated study; 200 random edits fired one per turn of the event loop,
+never waiting for the analysis; then the time until the window settles, the
+longest the GUI thread stood still, and whether the settled window says what
+``covariscope check --json`` says on the saved project.
+
+With ``watch=True`` every entry into data work on the GUI thread is
+counted (a profile hook on that thread: it slows the thread, so the stall
+figures of such a run overstate).  With ``hunt=True`` a sampling thread records the GUI thread's stack whenever
+the heartbeat is late by more than 50 ms, and the stacks seen most are
+printed: where the GUI thread spends its stalls.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+import os
+import random
+import subprocess
+import sys
+import threading
+import time
+import traceback
+from collections import Counter
+from collections.abc import Callable
+from pathlib import Path
+from typing import Any
+
+os.environ.setdefault("QT_QPA_PLATFORM", "offscreen")
+
+#: how late the heartbeat must be before the hunter samples the GUI thread
+HUNT_LATE = 0.05
+
+
+class QuietPrompts:
+    """The window's questions answered without dialogs (the storm shows none)."""
+
+    def __init__(self) -> None:
+        self.said: list[tuple[str, str]] = []
+
+    def save_changes(self, name: str) -> str:
+        return "discard"
+
+    def yes_no(self, title: str, text: str) -> bool:
+        self.said.append((title, text))
+        return False
+
+    def warn(self, title: str, text: str) -> None:
+        self.said.append((title, text))
+
+    info = warn
+
+    def open_path(self, *args: Any) -> None:
+        return None
+
+    def save_path(self, *args: Any) -> None:
+        return None
+
+    def printer(self) -> None:
+        return None
+
+
+class StallHunter(threading.Thread):
+    """Samples the GUI thread's stack every few ms while its heartbeat is late."""
+
+    def __init__(self, log: Any, gui: int, every: float = 0.005) -> None:
+        super().__init__(daemon=True)
+        self.log, self.gui, self.every = log, gui, every
+        self.stacks: Counter[tuple[str, ...]] = Counter()
+        self.halt = threading.Event()
+
+    def run(self) -> None:
+        while not self.halt.wait(self.every):
+            last = self.log.last
+            if last is None or time.perf_counter() - last < HUNT_LATE:
+                continue
+            frame = sys._current_frames().get(self.gui)  # a sampler's one way in
+            if frame is None:
+                continue
+            stack = traceback.extract_stack(frame)
+            ours = [f for f in stack if "covariscope" in f.filename]
+            shown = (ours or stack)[-6:] + ([] if not ours or ours[-1] is stack[-1] else stack[-2:])
+            self.stacks[tuple(f"{Path(f.filename).name}:{f.lineno} {f.name}" for f in shown)] += 1
+
+    def report(self, top: int = 6) -> None:
+        total = sum(self.stacks.values())
+        if not total:
+            print("  no stall of 50 ms or more was sampled")
+            return
+        print(f"  GUI thread during stalls ({total} samples of {1000 * self.every:.0f} ms):")
+        for stack, n in self.stacks.most_common(top):
+            print(f"   {n:5d} × " + "\n           ← ".join(reversed(stack)))
+
+
+def _edit(w: Any, rng: random.Random, covariates: list[str]) -> None:
+    """One random edit: a node move, a tick, an arrow added or removed, a family switch."""
+    from covariscope.model.commands import AddArrow, RemoveArrow, SetProposed, UpdateNode
+    from covariscope.views.commands import SetSettings
+
+    p = w.project
+    d = p.diagram
+    node = rng.choice(covariates)
+    kind = rng.choice(["move", "move", "tick", "tick", "arrow", "arrow", "family"])
+    if kind == "move":
+        w.push(UpdateNode(p, node, x=rng.uniform(0, 900), y=rng.uniform(0, 500)))
+    elif kind == "tick":
+        w.push(SetProposed(p, sorted(set(p.proposed) ^ {node})))
+    elif kind == "arrow":
+        target = rng.choice(["x", "y", *covariates])
+        if d.has_arrow(node, target):
+            w.push(RemoveArrow(p, node, target))
+        elif target != node and not d.has_arrow(target, node):
+            w.push(AddArrow(p, node, target))  # a cycle is refused with a message
+    else:
+        family = "logistic" if p.analysis.family == "linear" else "linear"
+        w.push(SetSettings(p, f"Use the {family} family", family=family))
+
+
+def _settled(w: Any) -> bool:
+    return bool(
+        w.result is not None
+        and not w.runner.running
+        and not w.runner.pending
+        and not w.data.loading
+        and w.state_label.text() == "Analysis up to date"
+    )
+
+
+def _run_until(app: Any, done: Callable[[], bool], timeout: float) -> None:
+    """Serve the event loop until ``done()`` (checked every 5 ms)."""
+    from PySide6.QtCore import QEventLoop, QTimer
+
+    loop = QEventLoop()
+    poll = QTimer()
+    poll.setInterval(5)
+    poll.timeout.connect(lambda: loop.quit() if done() else None)
+    give_up = QTimer()
+    give_up.setSingleShot(True)
+    give_up.timeout.connect(loop.quit)
+    poll.start()
+    give_up.start(int(1000 * timeout))
+    loop.exec()
+    poll.stop()
+    give_up.stop()
+    if not done():
+        raise SystemExit(f"the window did not settle within {timeout:.0f} s")
+
+
+def _fire(app: Any, w: Any, edits: int, seed: int, covariates: list[str]) -> list[float]:
+    """Push ``edits`` random edits, one per turn of the event loop; each one's seconds."""
+    from PySide6.QtCore import QTimer
+
+    rng = random.Random(seed)
+    spent: list[float] = []
+    timer = QTimer()
+    timer.setInterval(0)
+
+    def one() -> None:
+        t0 = time.perf_counter()
+        _edit(w, rng, covariates)
+        spent.append(time.perf_counter() - t0)
+        if len(spent) == edits:
+            timer.stop()
+
+    timer.timeout.connect(one)
+    timer.start()
+    _run_until(app, lambda: len(spent) >= edits, timeout=600)
+    return spent
+
+
+def same_json(a: Any, b: Any) -> bool:
+    """Equal JSON, numbers to 1e-7 relative (a cached answer may come another way)."""
+    if isinstance(a, dict) and isinstance(b, dict):
+        return a.keys() == b.keys() and all(same_json(a[k], b[k]) for k in a)
+    if isinstance(a, list) and isinstance(b, list):
+        return len(a) == len(b) and all(same_json(x, y) for x, y in zip(a, b, strict=True))
+    if isinstance(a, float) and isinstance(b, float):
+        if math.isnan(a) or math.isnan(b):
+            return math.isnan(a) and math.isnan(b)
+        return math.isclose(a, b, rel_tol=1e-7, abs_tol=1e-10)
+    return json.dumps(a) == json.dumps(b)
+
+
+def _checked(path: Path) -> Any:
+    """``covariscope check --json`` on the saved project, in a fresh process."""
+    code = "import sys; from covariscope.cli import main; sys.exit(main())"
+    out = subprocess.run(
+        [sys.executable, "-c", code, "check", "--json", str(path)],
+        check=True,
+        capture_output=True,
+        text=True,
+    ).stdout
+    return json.loads(out)
+
+
+def storm(
+    project_path: Path,
+    covariates: list[str],
+    *,
+    edits: int = 200,
+    seed: int = 7,
+    hunt: bool = False,
+    watch: bool = False,
+) -> dict[str, Any]:
+    """Open ``project_path`` in the window, fire the storm, let it settle; the figures."""
+    from PySide6.QtCore import QStandardPaths
+
+    from covariscope.qt.app import application
+    from covariscope.qt.main_window import MainWindow
+    from covariscope.qt.stall_meter import StallMeter
+    from covariscope.views.check_json import study_to_json
+
+    app = application()
+    QStandardPaths.setTestModeEnabled(True)  # no recent-files list or layout of the user's
+    w = MainWindow(prompts=QuietPrompts())  # type: ignore[arg-type]
+    w.resize(1366, 768)
+    w.show()
+    t0 = time.perf_counter()
+    assert w.io.open(str(project_path))
+    _run_until(app, lambda: _settled(w), timeout=1800)
+    opened = time.perf_counter() - t0
+    meter = StallMeter(watch=watch)  # the watch's hook slows the GUI thread: off when timing
+    hunter = StallHunter(meter.log, threading.get_ident()) if hunt else None
+    meter.start()
+    if hunter is not None:
+        hunter.start()
+    t_fire = time.perf_counter()
+    spent = _fire(app, w, edits, seed, covariates)
+    t_fired = time.perf_counter()
+    _run_until(app, lambda: _settled(w), timeout=1800)
+    t_settled = time.perf_counter()
+    meter.stop()
+    if hunter is not None:
+        hunter.halt.set()
+        hunter.join()
+    assert w.io.save()
+    shown = json.loads(json.dumps(study_to_json(w.result, w.project), allow_nan=False))
+    equal = same_json(shown, _checked(project_path))
+    figures = {
+        "storm_open": opened,
+        "storm_fire": t_fired - t_fire,
+        "storm_edit_handling": sum(spent),
+        "storm_settle": t_settled - t_fired,
+        "max_stall": meter.log.longest,
+        "stalls_over_100ms": meter.log.over(0.1),
+        "gui_data_work_calls": meter.watch.total if meter.watch is not None else -1,
+        "storm_equals_check_json": equal,
+        "storm_family": w.project.analysis.family,
+    }
+    if meter.watch is not None and meter.watch.entries:
+        print("  data work on the GUI thread:", dict(meter.watch.entries.most_common(8)))
+    if hunter is not None:
+        hunter.report()
+    w.io.extra_modified = False
+    w.undo_stack.setClean()
+    w.close()
+    return figures

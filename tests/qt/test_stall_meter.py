@@ -1,0 +1,69 @@
+"""The stall meter: the gaps of a heartbeat, and the watch that counts data
+work on the thread it is installed on (issue 9: the GUI thread never does
+data work).  Times are fed by hand: no test here reads a clock."""
+
+from __future__ import annotations
+
+import threading
+from pathlib import Path
+
+import pandas as pd
+
+from covariscope.data.loading import LoadedTable
+from covariscope.qt.stall_meter import DataWorkWatch, StallLog, StallMeter
+from covariscope.study.prepare import table_profiles
+from covariscope.study.source import TableSource
+
+
+def test_stall_log_keeps_the_longest_gap_and_every_stall():
+    log = StallLog(beat=0.01, stall=0.05)
+    for t in (1.0, 1.01, 1.02, 1.32, 1.33, 1.40, 1.41):
+        log.tick(t)
+    assert log.beats == 7
+    assert log.longest == 1.32 - 1.02
+    assert [round(g, 2) for _, g in log.stalls] == [0.30, 0.07]
+    assert log.over(0.1) == 1
+    log.restart()
+    log.tick(5.0)
+    assert (log.beats, log.longest, log.stalls) == (1, 0.0, [])
+
+
+def _table() -> LoadedTable:
+    frame = pd.DataFrame({"a": [1.0, 2.0, None], "b": ["u", "v", "u"]})
+    return LoadedTable(frame, Path("t.csv"), "text", "3" * 64)
+
+
+def test_watch_counts_data_work_on_its_own_thread_only():
+    from covariscope.study.cache import StudyCache
+
+    table = _table()
+    watch = DataWorkWatch()
+    other = threading.Thread(
+        target=lambda: table_profiles(StudyCache(), TableSource(table), {}, {})
+    )
+    watch.install()
+    try:
+        other.start()
+        other.join()  # data work on another thread: not counted
+        rows = table.rows  # reading a loaded table (a frozen dataclass): not counted
+        table_profiles(StudyCache(), TableSource(table), {}, {})
+    finally:
+        watch.remove()
+    assert rows == 3
+    # one entry each; what they call in turn is not counted again
+    assert dict(watch.entries) == {
+        "covariscope.study.source.TableSource.__init__": 1,
+        "covariscope.study.cache.StudyCache.__init__": 1,
+        "covariscope.study.prepare.table_profiles": 1,
+    }
+    assert watch.total == 3
+
+
+def test_meter_beats_on_the_event_loop(qtbot):
+    meter = StallMeter(beat_ms=1)
+    meter.start()
+    qtbot.waitUntil(lambda: meter.log.beats >= 5)
+    meter.stop()
+    beats = meter.log.beats
+    qtbot.wait(20)
+    assert meter.log.beats == beats  # stopped
