@@ -2,8 +2,9 @@
 
 from __future__ import annotations
 
-from types import SimpleNamespace
+import pandas as pd
 
+from covariscope.data.profile import profile_table
 from covariscope.model.diagram import Node
 from covariscope.model.project import Project
 from covariscope.views.data_panel import (
@@ -49,24 +50,31 @@ def test_rows_show_overrides_and_bindings():
     p = _project()
     p.analysis.column_types["smoke"] = "categorical"
     p.analysis.reference_levels["smoke"] = "never"
-    prof = {
-        "smoke": SimpleNamespace(
-            type="binary", missing_pct=1.25, levels=("current", "never"), reference="current"
-        ),
-        "bmi_kg": SimpleNamespace(type="continuous", missing_pct=0.0, levels=(), reference=None),
-    }
+    # 80 rows, one smoking status missing: 1.25% (shown to one decimal, Python's rounding)
+    frame = pd.DataFrame(
+        {
+            "smoke": ["current", "never"] * 39 + ["never", None],
+            "bmi_kg": [21.5 + i / 10 for i in range(80)],
+        }
+    )
+    prof = profile_table(frame)
+    assert (prof["smoke"].type, prof["smoke"].reference) == ("binary", "current")
     rows = {r.name: r for r in column_rows(p, ["bmi_kg", "smoke"], prof)}
-    assert rows["smoke"].cells() == ("smoke", "categorical*", "1.2%", "", "never")
+    assert rows["smoke"].cells() == ("smoke", "categorical*", f"{1.25:.1f}%", "", "never")
+    assert rows["smoke"].cells()[2] == "1.2%"
     assert rows["bmi_kg"].bound_to == "bmi"
+    assert rows["bmi_kg"].cells() == ("bmi_kg", "continuous", "0.0%", "bmi", "")
+
+
+def test_a_column_not_profiled_yet_shows_dashes():
+    p = _project()
+    (row,) = column_rows(p, ["bmi_kg"], {})
+    assert row.cells() == ("bmi_kg", "—", "—", "bmi", "")
 
 
 def test_value_labels_name_the_levels_and_the_reference():
     """A Stata/SPSS column with value labels reads "north (1)", while the
     reference kept in the project stays the code."""
-    import pandas as pd
-
-    from covariscope.data.profile import profile_table
-
     frame = pd.DataFrame({"region": [1, 2, 3, 1, 2, 3, 1, 2] * 3})
     labels = {"region": {1: "north", 2: "south", 3: "east"}}
     profiles = profile_table(frame, {"region": "categorical"}, {}, value_labels=labels)

@@ -24,6 +24,7 @@ from typing import TYPE_CHECKING, Any
 
 from PySide6.QtCore import QObject
 
+from covariscope.data.profile import ColumnProfile
 from covariscope.data.sources.batched import BatchSource
 from covariscope.errors import CovariscopeError
 from covariscope.model.commands import Macro
@@ -73,7 +74,7 @@ class DataController(QObject):
         super().__init__(window)
         self.w = window
         self.table: Any = None
-        self.profiles: dict[str, Any] = {}
+        self.profiles: dict[str, ColumnProfile] = {}
         self.loader = LoadRunner(load=self._load_and_profile, parent=self)
         # The column settings a background load profiles with (read on the GUI thread).
         self._settings: tuple[dict[str, str], dict[str, Any]] = ({}, {})
@@ -243,7 +244,7 @@ class DataController(QObject):
         self.w.request_analysis()
         self.w.show_engine()
 
-    def _profiled(self, found: dict[str, Any]) -> None:
+    def _profiled(self, found: dict[str, ColumnProfile]) -> None:
         self.profiles = {**self.profiles, **found}
         self.w.data_panel.refresh(self.w.project, self.table, self.profiles)
 

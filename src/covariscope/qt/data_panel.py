@@ -3,6 +3,7 @@ diagram to make a bound node, bind/unbind/retype from a context menu."""
 
 from __future__ import annotations
 
+from collections.abc import Mapping
 from typing import Any
 
 from PySide6.QtCore import QMimeData, QPoint, Qt, Signal
@@ -19,7 +20,9 @@ from PySide6.QtWidgets import (
     QWidget,
 )
 
+from covariscope.data.profile import ColumnProfile
 from covariscope.data.sources.batched import BatchSource
+from covariscope.model.project import Project
 from covariscope.qt.tables import filling
 from covariscope.views.data_panel import (
     COLUMN_MIME,
@@ -125,7 +128,9 @@ class DataPanel(QWidget):
     def rows(self) -> list[ColumnRow]:
         return list(self._rows)
 
-    def refresh(self, project: Any, table: Any, profiles: Any) -> None:
+    def refresh(
+        self, project: Project, table: Any, profiles: Mapping[str, ColumnProfile] | None
+    ) -> None:
         """``table``: the loaded table, a source that reads the file where it lies, or None."""
         where = table.engine if isinstance(table, BatchSource) else None
         if table is None:

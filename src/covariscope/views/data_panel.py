@@ -5,9 +5,10 @@ from __future__ import annotations
 
 from collections.abc import Iterable, Mapping
 from dataclasses import dataclass
-from typing import Any
 
 from covariscope.data.loading import FORMAT_LABELS, SUPPORTED_SUFFIXES
+from covariscope.data.profile import ColumnProfile
+from covariscope.model.project import Project
 from covariscope.views.format import DASH, is_number
 from covariscope.vocabulary import ENGINE_TERMS, ColumnType, Engine
 
@@ -58,7 +59,7 @@ class ColumnRow:
     missing: str
     bound_to: str
     reference: str
-    levels: tuple[Any, ...]
+    levels: tuple[object, ...]
     #: as the user reads them: with the file's value labels where it has them
     reference_text: str = ""
     level_texts: tuple[str, ...] = ()
@@ -97,51 +98,57 @@ def engine_status(engine: str, resident: int | None) -> str:
 
 
 def column_rows(
-    project: Any, columns: Iterable[str], profiles: Mapping[str, Any] | None
+    project: Project, columns: Iterable[str], profiles: Mapping[str, ColumnProfile] | None
 ) -> list[ColumnRow]:
-    """One row per data column, in file order."""
+    """One row per data column, in file order; a column not profiled yet
+    shows dashes (its profile arrives later)."""
     profiles = profiles or {}
-    overrides = project.analysis.column_types
-    refs = project.analysis.reference_levels
     bound: dict[str, list[str]] = {}
     for node in project.diagram.nodes:
         if node.column:
             bound.setdefault(node.column, []).append(node.id)
-    rows = []
-    for name in columns:
-        prof = profiles.get(name)
-        ctype = overrides.get(name) or getattr(prof, "type", None) or DASH
-        missing = getattr(prof, "missing_pct", None)
-        ref = refs.get(name, getattr(prof, "reference", None))
-        levels = tuple(getattr(prof, "levels", ()) or ())
-        rows.append(
-            ColumnRow(
-                name=name,
-                type=str(ctype),
-                type_overridden=name in overrides,
-                missing=f"{missing:.1f}%" if is_number(missing) else DASH,
-                bound_to=", ".join(bound.get(name, [])),
-                reference="" if ref is None else str(ref),
-                levels=levels,
-                reference_text="" if ref is None else _level_text(prof, ref),
-                level_texts=tuple(_level_text(prof, v) for v in levels),
-            )
-        )
-    return rows
+    return [
+        _column_row(project, name, profiles.get(name), ", ".join(bound.get(name, [])))
+        for name in columns
+    ]
 
 
-def _level_text(profile: Any, level: Any) -> str:
+def _column_row(
+    project: Project, name: str, profile: ColumnProfile | None, bound_to: str
+) -> ColumnRow:
+    """One column's row: the project's type and reference where it sets them,
+    else the profile's."""
+    overrides = project.analysis.column_types
+    inferred = profile.type if profile is not None else None
+    ref = project.analysis.reference_levels.get(
+        name, profile.reference if profile is not None else None
+    )
+    levels = tuple(profile.levels) if profile is not None else ()
+    missing = profile.missing_pct if profile is not None else None
+    return ColumnRow(
+        name=name,
+        type=str(overrides.get(name) or inferred or DASH),
+        type_overridden=name in overrides,
+        missing=f"{missing:.1f}%" if is_number(missing) else DASH,
+        bound_to=bound_to,
+        reference="" if ref is None else str(ref),
+        levels=levels,
+        reference_text="" if ref is None else _level_text(profile, ref),
+        level_texts=tuple(_level_text(profile, v) for v in levels),
+    )
+
+
+def _level_text(profile: ColumnProfile | None, level: object) -> str:
     """A level with its value label where the file carries one (Stata, SPSS)."""
-    text = getattr(profile, "level_text", None)
-    return text(level) if callable(text) else str(level)
+    return profile.level_text(level) if profile is not None else str(level)
 
 
-def nodes_without_column(project: Any) -> list[str]:
+def nodes_without_column(project: Project) -> list[str]:
     """Measured nodes that have no column yet (unmeasured ones need none)."""
     return [n.id for n in project.diagram.nodes if n.measured and not n.column]
 
 
-def unbound_summary(project: Any, has_data: bool) -> str:
+def unbound_summary(project: Project, has_data: bool) -> str:
     """One line for the foot of the panel."""
     missing = nodes_without_column(project)
     if not project.diagram.nodes:
@@ -154,7 +161,7 @@ def unbound_summary(project: Any, has_data: bool) -> str:
     return f"Nodes without a column: {names}."
 
 
-def matching_bindings(project: Any, columns: Iterable[str]) -> dict[str, str]:
+def matching_bindings(project: Project, columns: Iterable[str]) -> dict[str, str]:
     """Node id → column for unbound nodes whose id (or label) names a column
     that no node is bound to yet: exact match first, then ignoring case."""
     columns = list(columns)

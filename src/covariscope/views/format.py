@@ -5,9 +5,10 @@ from __future__ import annotations
 
 import math
 from collections.abc import Mapping, Sequence
-from typing import Any
+from typing import TypeGuard
 
 from covariscope.analysis.families import family_of
+from covariscope.analysis.fits import Fit
 
 __all__ = ["DASH", "fit_ok", "is_number", "number", "percent", "ratio_family", "term_names"]
 
@@ -15,14 +16,14 @@ __all__ = ["DASH", "fit_ok", "is_number", "number", "percent", "ratio_family", "
 DASH = "—"
 
 
-def is_number(value: Any) -> bool:
+def is_number(value: object) -> TypeGuard[int | float]:
     """True for a finite int or float (not a bool)."""
     if isinstance(value, bool) or not isinstance(value, int | float):
         return False
     return math.isfinite(value)
 
 
-def number(value: Any, digits: int = 2) -> str:
+def number(value: object, digits: int = 2) -> str:
     """``1.23456`` → ``"1.23"``; missing or non-finite → a dash."""
     if not is_number(value):
         return DASH
@@ -31,7 +32,7 @@ def number(value: Any, digits: int = 2) -> str:
     return f"{value:.{digits}f}"
 
 
-def percent(value: Any, digits: int = 1) -> str:
+def percent(value: object, digits: int = 1) -> str:
     """A signed percentage without the sign of a zero: ``"+12.3"``, ``"-4.0"``."""
     if not is_number(value):
         return DASH
@@ -44,13 +45,9 @@ def ratio_family(family: str | None) -> bool:
     return family is not None and family_of(family).ratio
 
 
-def fit_ok(fit: Any) -> bool:
+def fit_ok(fit: Fit | None) -> bool:
     """True for a fitted model whose exposure estimate can be shown."""
-    return (
-        fit is not None
-        and bool(getattr(fit, "ok", False))
-        and is_number(getattr(fit, "coef", None))
-    )
+    return fit is not None and fit.ok and is_number(fit.coef)
 
 
 def term_names(

@@ -11,8 +11,10 @@ from __future__ import annotations
 
 from collections.abc import Mapping
 from dataclasses import dataclass
-from typing import Any
 
+from covariscope.data.profile import ColumnProfile
+from covariscope.model.project import Project
+from covariscope.study.result import StudyResult
 from covariscope.views.outcome_settings import blockers
 
 __all__ = ["SEVERITIES", "Message", "count_words", "window_messages"]
@@ -36,7 +38,11 @@ class Message:
 
 
 def window_messages(
-    project: Any, result: Any, profiles: Mapping[str, Any] | None, *, data_loaded: bool
+    project: Project,
+    result: StudyResult | None,
+    profiles: Mapping[str, ColumnProfile] | None,
+    *,
+    data_loaded: bool,
 ) -> list[Message]:
     """Every message for the window: problems first, then the disagreements,
     then the analysis's cautions, each once."""

@@ -6,9 +6,9 @@ and formats them, and says what a user's choice of form changes."""
 from __future__ import annotations
 
 from collections.abc import Mapping
-from typing import Any
 
 from covariscope.analysis.splines import ResidualCheck
+from covariscope.model.project import Project
 from covariscope.views.format import number, percent
 
 __all__ = [
@@ -59,7 +59,7 @@ def flagged_residual_lines(
     return [residual_line(r, names.get(c, c) or c) for c, r in checks.items() if r.flagged]
 
 
-def spline_knots_after(project: Any, column: str, knots: int) -> dict[str, int] | None:
+def spline_knots_after(project: Project, column: str, knots: int) -> dict[str, int] | None:
     """The project's spline choices once ``column`` takes ``knots`` (0: linear);
     None when nothing changes."""
     current = dict(project.analysis.spline_knots)
