@@ -16,13 +16,14 @@ from __future__ import annotations
 
 import keyword
 import re
-from collections.abc import Mapping
+from collections.abc import Callable, Mapping
 from dataclasses import dataclass
 from pathlib import PurePath
 from typing import Any
 
 from covariscope.analysis.families import family_of
 from covariscope.analysis.model_terms import ModelTerm
+from covariscope.model.project import Project
 from covariscope.study.prepare import outcome_columns
 from covariscope.study.result import StudyResult
 from covariscope.vocabulary import CONCEPT_TERMS, family_term
@@ -181,7 +182,7 @@ def _number(text: str) -> float | None:
         return None
 
 
-def _literal(value: Any) -> str:
+def _literal(value: object) -> str:
     """A reference level as a Python (and R) literal."""
     if isinstance(value, bool):
         return "True" if value else "False"
@@ -258,7 +259,7 @@ def _stata_term(t: Term) -> str:
 # -- the model --------------------------------------------------------------------------
 
 
-def _term(node_column: str, facts: ModelTerm | None, references: Mapping[str, Any]) -> Term:
+def _term(node_column: str, facts: ModelTerm | None, references: Mapping[str, object]) -> Term:
     if facts is None:
         return Term(node_column, "continuous")
     return Term(
@@ -271,7 +272,7 @@ def _term(node_column: str, facts: ModelTerm | None, references: Mapping[str, An
 
 
 def _model(
-    result: StudyResult, project: Any, members: tuple[str, ...], data_path: str | None
+    result: StudyResult, project: Project, members: tuple[str, ...], data_path: str | None
 ) -> _Model | None:
     columns = {n.id: n.column for n in project.diagram.nodes}
     x_col, y_col = columns.get(result.exposure), columns.get(result.outcome)
@@ -296,7 +297,7 @@ def _model(
     )
 
 
-def _rhs(m: _Model, term: Any) -> list[str]:
+def _rhs(m: _Model, term: Callable[[Term], str]) -> list[str]:
     return [term(m.exposure), *(term(t) for t in m.covariates)]
 
 
@@ -472,7 +473,7 @@ def _stata(m: _Model, head: str) -> str:
 
 
 def model_code(
-    result: StudyResult, project: Any, data_path: str | None = None
+    result: StudyResult, project: Project, data_path: str | None = None
 ) -> dict[str, ModelCode | None]:
     """The recommended and the proposed set's model as code, by set key; None
     for a set whose model was not fitted (no data, a member without data).

@@ -12,9 +12,10 @@ from __future__ import annotations
 from collections.abc import Mapping
 from dataclasses import dataclass
 from types import MappingProxyType
-from typing import Any
 
 from covariscope.analysis.families import FAMILIES, family_of
+from covariscope.data.profile import ColumnProfile
+from covariscope.model.project import Project
 
 __all__ = [
     "OUTCOME_FIELDS",
@@ -44,7 +45,7 @@ class Blocker:
     fix_label: str
 
 
-def outcome_column_in_use(project: Any, family: str | None = None) -> str | None:
+def outcome_column_in_use(project: Project, family: str | None = None) -> str | None:
     """The data column the family's model reads as its outcome (for Cox:
     the event column, the time being in ``family_columns``)."""
     family = family or project.analysis.family
@@ -58,13 +59,16 @@ def outcome_column_in_use(project: Any, family: str | None = None) -> str | None
     return chosen.get("outcome") or node_column
 
 
-def _column_type(project: Any, profiles: Mapping[str, Any] | None, column: str) -> str:
+def _column_type(
+    project: Project, profiles: Mapping[str, ColumnProfile] | None, column: str
+) -> str:
     saved = project.analysis.column_types.get(column)
-    return saved or str(getattr((profiles or {}).get(column), "type", "") or "")
+    profile = (profiles or {}).get(column)
+    return saved or (profile.type if profile is not None else "")
 
 
 def blockers(
-    project: Any, profiles: Mapping[str, Any] | None, *, data_loaded: bool
+    project: Project, profiles: Mapping[str, ColumnProfile] | None, *, data_loaded: bool
 ) -> list[Blocker]:
     """What keeps the analysis from using the data (empty: nothing)."""
     d = project.diagram
@@ -124,7 +128,7 @@ def blockers(
 
 
 def family_columns_after(
-    project: Any, family: str, chosen: Mapping[str, str | None]
+    project: Project, family: str, chosen: Mapping[str, str | None]
 ) -> dict[str, dict[str, str]]:
     """The project's ``family_columns`` once ``chosen`` (key → column, None:
     not set) is the choice for ``family``."""
