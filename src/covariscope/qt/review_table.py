@@ -22,6 +22,7 @@ from covariscope.analysis.adjustment import ProposalReview
 from covariscope.analysis.proposal_wording import sufficiency_sentence, unnecessary_words
 from covariscope.qt.keep_menu import add_keep_actions
 from covariscope.qt.tables import filling
+from covariscope.views.format import ratio_family
 from covariscope.views.keep_choice import KeepChoice, keep_choice, kept_words
 from covariscope.views.review import (
     MODIFICATION_CAUTION,
@@ -30,7 +31,7 @@ from covariscope.views.review import (
     review_rows,
     rows_to_csv,
 )
-from covariscope.vocabulary import RATIO_FAMILIES, ReviewColumn, column_tooltip
+from covariscope.vocabulary import ReviewColumn, column_tooltip
 
 __all__ = ["PathsPanel", "ReviewTable", "open_paths"]
 
@@ -102,7 +103,7 @@ class ReviewTable(QWidget):
         selected = self.selected_node()
         self._rows = review_rows(project, result)
         family = getattr(result, "family", None) or project.analysis.family
-        self.set_header_tips(ratio=family in RATIO_FAMILIES)
+        self.set_header_tips(ratio=ratio_family(family))
         self._keep = {
             row.node: choice
             for row in self._rows
