@@ -68,20 +68,18 @@ def demo(repeat: int) -> None:
     """The diagram-check stage of the demo study, on its analytic sample."""
     from pathlib import Path
 
-    from covariscope.analysis.graph import analyse_diagram
     from covariscope.data.loading import load_table
     from covariscope.data.sources.memory import MemorySource
     from covariscope.model.project import load_project
     from covariscope.study.checks import check_diagram
-    from covariscope.study.prepare import prepare_evidence
+    from covariscope.study.whole_source import prepare_evidence
 
     path = Path(__file__).resolve().parents[1] / "demo_data" / "demo_project.json"
     project = load_project(path)
     x, y = project.diagram.require_question()
     G = project.diagram.to_networkx()
     source = MemorySource(load_table(project.data.resolve(project.path)))  # type: ignore[union-attr]
-    analysis = analyse_diagram(G, x, y, project.proposed)
-    _, engine, _ = prepare_evidence(project, source, "linear", x, y, analysis, [])
+    _, engine, _ = prepare_evidence(project, source, "linear", x, y, [])
     assert engine is not None
     _ = engine.summary  # the evidence table computes it before the checks run
     wall = cpu = float("inf")

@@ -350,3 +350,19 @@ def test_collinear_members_the_diagram_needs_together_are_each_adjusted_for():
     # Interchangeable members (some member alone suffices) are still one to keep.
     keep = replace(f, group_needed=False, group_alone=("a", "b"))
     assert decide_verdict(keep, n).code == "keep_one_of"
+
+
+def test_a_collider_sentence_labels_only_the_paths_it_names() -> None:
+    from covariscope.analysis.verdict_wording import PATHS_NAMED, labelled
+
+    paths = tuple(("x", f"a{i}", "m", "b", "y") for i in range(400))
+    f = Facts("m", "collider", would_open=paths)
+    names = {"m": "Middle", "b": "Bee", "x": "Ex", "y": "Why"}
+    short = labelled(f, names)
+    assert len(short.would_open) == PATHS_NAMED
+    assert short.would_open[0] == ("Ex", "a0", "Middle", "Bee", "Why")
+    # the sentence is the same whether the facts hold 400 paths or the 3 it names
+    whole = decide_verdict(f, names=names).reason
+    assert whole == decide_verdict(Facts("m", "collider", would_open=paths[:3]), names=names).reason
+    assert "Ex – a2 – Middle – Bee – Why" in whole
+    assert "a3" not in whole

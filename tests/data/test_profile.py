@@ -81,7 +81,6 @@ def test_counts_ranges_and_levels(cohort):
     assert sbp.distinct == cohort["sbp"].nunique()
     assert profiles["diabetes"].levels == (0, 1)
     assert profiles["diabetes"].reference == 0
-    assert profiles["diabetes"].event_level == 1
     assert profiles["sex"].levels == ("female", "male")
     assert profiles["smoking"].levels == ("current", "former", "never")
     assert profiles["smoking"].reference == "current"
@@ -241,8 +240,8 @@ def test_stata_value_labels_name_the_levels_and_the_codes_stay(tmp_path):
     coded = coerce_column(table.frame["region"], "categorical", reference=3)
     assert coded.cat.categories.tolist() == [3, 1, 2]
     smoker = profiles["smoker"]
-    assert (smoker.type, smoker.levels, smoker.event_level) == ("binary", (0, 1), 1)
-    assert smoker.level_text(smoker.event_level) == "ever (1)"
+    assert (smoker.type, smoker.levels, smoker.reference) == ("binary", (0, 1), 0)
+    assert smoker.level_text(1) == "ever (1)"
     assert coerce_column(table.frame["smoker"], "binary").tolist() == frame["smoker"].tolist()
     sbp = profiles["sbp"]
     assert (sbp.levels, sbp.level_labels, sbp.level_text(1.5)) == ((), {}, "1.5")

@@ -246,7 +246,7 @@ def test_categorical_terms_and_reference_levels_are_coded_alike(
     duck = DuckSource(generated_file)
     try:
         for source in (MemorySource(load_table(generated_file)), duck, dask_source):
-            _, engine, _ = prepare_evidence(project, source, "logistic", "x", "o", None, [])  # type: ignore[arg-type]
+            _, engine, _ = prepare_evidence(project, source, "logistic", "x", "o", [])
             assert engine is not None
             names.append(engine.design.column_names)
     finally:

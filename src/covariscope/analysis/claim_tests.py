@@ -257,6 +257,8 @@ class DiagramChecks:
     omitted: int
     limit: int
     warnings: tuple[str, ...] = field(default=())
+    #: pairs not looked at: the listing of claims stopped at its search budget
+    unsearched: int = 0
 
     @property
     def tested(self) -> int:
@@ -393,7 +395,7 @@ def strength_of(d: ClaimData, response: str, predictor: str, t: DirectionTest) -
         if kp == "categorical":
             scale, kind = 1.0 / _sd(d, d.columns[response][0]), "standardised_difference"
         elif kr == "continuous" and kp == "continuous":
-            return _partial_r(t, d.n, len(d.columns[predictor]))
+            return _partial_r(t, d.n)
         else:
             scale = _sd(d, p_col) / _sd(d, d.columns[response][0])
             kind = "standardised_coefficient"
@@ -406,7 +408,7 @@ def strength_of(d: ClaimData, response: str, predictor: str, t: DirectionTest) -
     return Strength(math.exp(b * scale), kind, math.exp(lo), math.exp(hi), level)
 
 
-def _partial_r(t: DirectionTest, n: int, k: int) -> Strength:
+def _partial_r(t: DirectionTest, n: int) -> Strength:
     """Partial correlation from the t statistic, Fisher-z interval (Fisher 1924)."""
     df = t.coefficients.df_resid
     r = t.statistic / math.sqrt(t.statistic**2 + df)
@@ -522,5 +524,13 @@ def check_claims(
     )
     untestable = tuple(sorted([*claims.untestable, *unfit], key=lambda u: (u.a, u.b)))
     return DiagramChecks(
-        method, alpha, data.n, results, untestable, claims.omitted, claims.limit, stopped
+        method,
+        alpha,
+        data.n,
+        results,
+        untestable,
+        claims.omitted,
+        claims.limit,
+        stopped,
+        unsearched=claims.unsearched,
     )

@@ -9,7 +9,7 @@ it records that the covariate measures the exposure (or outcome).
 
 from __future__ import annotations
 
-from collections.abc import Iterable, Mapping
+from collections.abc import Mapping
 from dataclasses import dataclass, field
 
 import networkx as nx
@@ -56,10 +56,6 @@ class MergedDiagram:
     measures_exposure: frozenset[str]
     measures_outcome: frozenset[str]
     member_measured: Mapping[str, bool]
-
-    def constructs(self, ids: Iterable[str]) -> frozenset[str]:
-        """Constructs adjusted by holding any member among ``ids``."""
-        return frozenset(self.construct_of[i] for i in ids)
 
 
 def cycle_text(cycle: list[str]) -> str:

@@ -18,8 +18,8 @@ import networkx as nx
 from covariscope.analysis.adjustment import (
     ProposalReview,
     is_sufficient,
+    list_minimal_sets,
     minimal_adjustment_sets,
-    minimal_sets_on,
     review_on,
     review_proposal,
 )
@@ -50,7 +50,9 @@ __all__ = [
 class DiagramAnalysis:
     """Everything the graph criteria say about one diagram.
 
-    ``identifiable`` is False when no set of measured covariates suffices.
+    ``identifiable`` is False when no set of measured covariates suffices;
+    ``minimal_sets_complete`` is False when the listing of minimal sets
+    stopped at its budget (:data:`~covariscope.analysis.adjustment.MINIMAL_SETS_BUDGET`).
     """
 
     exposure: str
@@ -63,6 +65,7 @@ class DiagramAnalysis:
     groups: tuple[tuple[str, ...], ...]
     measures_exposure: frozenset[str]
     measures_outcome: frozenset[str]
+    minimal_sets_complete: bool = True
 
     def to_json(self) -> dict[str, Any]:
         """The plain-data form that ``covariscope check --json`` prints."""
@@ -115,13 +118,14 @@ def analyse_diagram(
     """
     md = merge_diagram(G, exposure, outcome)
     unadjusted = listing(md.graph, exposure, outcome, frozenset(), 500)
-    minimal = minimal_sets_on(md, exposure, outcome)
+    minimal = list_minimal_sets(md, exposure, outcome)
     return DiagramAnalysis(
         exposure=exposure,
         outcome=outcome,
         roles=roles_on(md, exposure, outcome, unadjusted),
-        minimal_sets=minimal,
-        identifiable=bool(minimal),
+        minimal_sets=minimal.sets,
+        minimal_sets_complete=minimal.complete,
+        identifiable=bool(minimal.sets),
         review=review_on(md, exposure, outcome, proposed),
         paths=unadjusted,
         groups=md.groups,

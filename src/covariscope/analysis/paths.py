@@ -11,6 +11,7 @@ from __future__ import annotations
 from collections import deque
 from collections.abc import Callable, Collection, Iterable, Iterator
 from dataclasses import dataclass
+from functools import cached_property
 
 import networkx as nx
 
@@ -20,9 +21,11 @@ from covariscope.errors import DiagramError
 __all__ = [
     "COUNT_BUDGET",
     "SEARCH_BUDGET",
+    "WALK_BUDGET",
     "PathListing",
     "PathSearch",
     "PathStatus",
+    "WalkBudget",
     "backdoor_paths",
     "given_constructs",
 ]
@@ -45,15 +48,36 @@ class PathStatus:
     blocked_by : tuple of str
         Non-colliders in the set, and colliders neither in the set nor with a
         descendant in it.
-    explanation : str
-        One plain sentence.
     """
 
     nodes: tuple[str, ...]
     open: bool
     colliders: tuple[str, ...]
     blocked_by: tuple[str, ...]
-    explanation: str
+
+    @cached_property
+    def explanation(self) -> str:
+        """One plain sentence, built when first read (a listing holds hundreds
+        of paths and few are ever put in words)."""
+        if self.open and not self.colliders:
+            return "Open: it has no collider and nothing on it is adjusted for."
+        if self.open:
+            return (
+                f"Open: the collider {', '.join(self.colliders)} is adjusted for or has an "
+                "adjusted descendant, which opens it, and nothing else on it is adjusted for."
+            )
+        coll = set(self.colliders)
+        blocked_nc = [v for v in self.blocked_by if v not in coll]
+        blocked_c = [v for v in self.blocked_by if v in coll]
+        parts = []
+        if blocked_nc:
+            parts.append(f"adjusting for {', '.join(blocked_nc)}")
+        if blocked_c:
+            parts.append(
+                f"the collider {', '.join(blocked_c)}, which is not adjusted for and has "
+                "no adjusted descendant"
+            )
+        return f"Blocked by {' and by '.join(parts)}."
 
 
 @dataclass(frozen=True)
@@ -71,12 +95,18 @@ class PathListing:
         Whether more paths exist than are listed.
     total_exact : bool
         False when counting stopped at its work budget.
+    walk_stopped : bool
+        True when the walk that lists the paths stopped at its work budget
+        (:data:`WALK_BUDGET`) before it had listed ``cap`` of them: every path
+        listed is real and ``total`` still counts them all (or is a lower
+        bound), but fewer are listed than there are.
     """
 
     paths: tuple[PathStatus, ...]
     total: int
     truncated: bool
     total_exact: bool = True
+    walk_stopped: bool = False
 
     def total_text(self) -> str:
         """The total in words: ``"12"`` or ``"at least 3,400,000"``."""
@@ -89,10 +119,48 @@ class PathListing:
 COUNT_BUDGET = 10_000
 
 #: Default work budget of a search for one open path of a kind: paths examined.
-#: Every branch of the walk ends in a path, so each costs a few reachability
-#: checks; common practice, chosen to stay well under a second on a dense
-#: 80-node diagram.
+#: Branches that end in no path are bounded by :data:`WALK_BUDGET` instead;
+#: common practice, chosen to stay well under a second on a dense 80-node
+#: diagram.
 SEARCH_BUDGET = 2_000
+
+#: Default work budget of the path walks of one result (one listing, or the
+#: searches of every covariate of one stage together): reachability searches
+#: made, each at most one pass over the diagram's arrows.  A walk that keeps
+#: to open paths can go down branches that end in no path at all (below a
+#: collider that blocks every way on), so the path budgets alone do not bound
+#: it: a ladder of k rungs under such a collider takes 2**k of them.  Common
+#: practice, chosen to stay near a second on a dense 150-node diagram.
+WALK_BUDGET = 20_000
+
+
+class WalkBudget:
+    """Reachability searches that path walks may still make.
+
+    One object may be shared by several walks (the searches of every
+    covariate of one stage), so that their work together stays bounded;
+    ``ran_out`` tells a walk that stopped because of it.
+
+    Examples
+    --------
+    >>> b = WalkBudget(1)
+    >>> b.take(), b.take(), b.ran_out
+    (True, False, True)
+    """
+
+    def __init__(self, steps: int | None = WALK_BUDGET) -> None:
+        self.left = steps
+        self.ran_out = False
+
+    def take(self) -> bool:
+        """Spend one step: False, and ``ran_out`` set, once none is left."""
+        if self.left is None:
+            return True
+        if self.left <= 0:
+            self.ran_out = True
+            return False
+        self.left -= 1
+        return True
 
 
 @dataclass(frozen=True)
@@ -216,13 +284,17 @@ def _walk(
     Y: str,
     allow: Callable[[str, str, str], bool] | None = None,
     nodes_ok: Collection[str] | None = None,
+    budget: WalkBudget | None = None,
 ) -> Iterator[tuple[str, ...]]:
     """Depth-first backdoor paths X … Y in sorted-neighbour order.
 
     ``allow(prev, v, nxt)`` may refuse passing through interior node v;
     ``nodes_ok`` restricts the nodes a path may visit.  Branches from which
-    Y can no longer be reached are cut, so every leaf is a path.
+    Y can no longer be reached are cut, so without ``allow`` every leaf is a
+    path; with it a branch may still end in none.  Each reachability check
+    spends one step of ``budget``; the walk ends when it runs out.
     """
+    steps = budget if budget is not None else WalkBudget(None)
     path = [X]
     on_path = {X}
     # Neighbours are sorted only where the walk goes (sorting them all would
@@ -236,6 +308,8 @@ def _walk(
         if v not in sorted_adj:
             sorted_adj[v] = sorted(adj[v])
         for w in sorted_adj[v]:
+            if steps.ran_out:
+                return
             if w in on_path or not ok(w):
                 continue
             if allow is not None and not allow(path[-2], v, w):
@@ -243,7 +317,7 @@ def _walk(
             if w == Y:
                 yield (*path, Y)
                 continue
-            if not _reaches(adj, w, Y, on_path, nodes_ok):
+            if not steps.take() or not _reaches(adj, w, Y, on_path, nodes_ok):
                 continue
             path.append(w)
             on_path.add(w)
@@ -252,12 +326,14 @@ def _walk(
             on_path.discard(w)
 
     for p in sorted(M.predecessors(X)):
+        if steps.ran_out:
+            return
         if not ok(p):
             continue
         if p == Y:
             yield (X, Y)
             continue
-        if not _reaches(adj, p, Y, on_path, nodes_ok):
+        if not steps.take() or not _reaches(adj, p, Y, on_path, nodes_ok):
             continue
         path.append(p)
         on_path.add(p)
@@ -407,30 +483,11 @@ def path_status(
     interior = nodes[1:-1]
     blocked_nc = tuple(v for v in interior if v not in coll and v in Z)
     blocked_c = tuple(v for v in colliders if v not in anZ)
-    is_open = not blocked_nc and not blocked_c
-    if is_open and not colliders:
-        text = "Open: it has no collider and nothing on it is adjusted for."
-    elif is_open:
-        text = (
-            f"Open: the collider {', '.join(colliders)} is adjusted for or has an adjusted "
-            "descendant, which opens it, and nothing else on it is adjusted for."
-        )
-    else:
-        parts = []
-        if blocked_nc:
-            parts.append(f"adjusting for {', '.join(blocked_nc)}")
-        if blocked_c:
-            parts.append(
-                f"the collider {', '.join(blocked_c)}, which is not adjusted for and has "
-                "no adjusted descendant"
-            )
-        text = f"Blocked by {' and by '.join(parts)}."
     return PathStatus(
         nodes=nodes,
-        open=is_open,
+        open=not blocked_nc and not blocked_c,
         colliders=colliders,
         blocked_by=blocked_nc + blocked_c,
-        explanation=text,
     )
 
 
@@ -443,8 +500,13 @@ def listing(
     *,
     only_open: bool = False,
     count_budget: int | None = COUNT_BUDGET,
+    walk_budget: int | None = WALK_BUDGET,
 ) -> PathListing:
-    """Backdoor paths on a merged graph (see :func:`backdoor_paths`)."""
+    """Backdoor paths on a merged graph (see :func:`backdoor_paths`).
+
+    ``walk_budget`` bounds the reachability searches of the walk that lists
+    them (:data:`WALK_BUDGET`; None: no bound).
+    """
     if cap < 0:
         raise ValueError("cap must be zero or more")
     if count_budget is not None and count_budget < 1:
@@ -463,25 +525,31 @@ def listing(
         nodes_ok = ancestors_of(M, {X, Y} | Z)
     found: list[tuple[str, ...]] = []
     truncated = False
-    for p in _walk(M, adj, X, Y, allow, nodes_ok):
+    walk = WalkBudget(walk_budget)
+    for p in _walk(M, adj, X, Y, allow, nodes_ok, walk):
         if len(found) == cap:
             truncated = True
             break
         found.append(p)
     found.sort(key=lambda p: (len(p), p))
     exact = True
-    if not truncated:
+    stopped = walk.ran_out and not truncated
+    if not truncated and not stopped:
         total = len(found)
     else:
         if only_open:
             total, exact = count_backdoor_paths(M, X, Y, Z, anZ, budget=count_budget)
         else:
             total, exact = count_backdoor_paths(M, X, Y, budget=count_budget)
-        if not exact:
-            # The walk already met one path beyond the cap.
-            total = max(total, cap + 1)
+        # The walk already met the paths it listed (and, past the cap, one more).
+        total = max(total, cap + 1 if truncated else len(found))
+        if stopped and exact and total == len(found):
+            stopped = False  # the walk had listed them all
+        truncated = truncated or stopped
     statuses = tuple(path_status(M, p, Z, anZ) for p in found)
-    return PathListing(paths=statuses, total=total, truncated=truncated, total_exact=exact)
+    return PathListing(
+        paths=statuses, total=total, truncated=truncated, total_exact=exact, walk_stopped=stopped
+    )
 
 
 def open_path_with_collider(
@@ -493,15 +561,19 @@ def open_path_with_collider(
     adj: _Adjacency | None = None,
     *,
     budget: int | None = SEARCH_BUDGET,
+    walk: WalkBudget | None = None,
 ) -> PathSearch:
     """A backdoor path open given Z with a collider in ``wanted``.
 
     Open paths are walked in a fixed order; with a ``budget`` at most that
-    many are examined, and a search that stops there without a find says so
-    (``complete`` False).  ``adj`` is ``skeleton(M)`` when the caller asks
-    many times of one graph.
+    many are examined, and the walk makes at most the reachability searches
+    ``walk`` has left (a new :data:`WALK_BUDGET` when None; pass one object
+    to many searches to bound them together).  A search that stops at either
+    budget without a find says so (``complete`` False).  ``adj`` is
+    ``skeleton(M)`` when the caller asks many times of one graph.
     """
     adj = skeleton(M) if adj is None else adj
+    walk = WalkBudget() if walk is None else walk
     anZ = ancestors_of(M, Z)
     nodes_ok = ancestors_of(M, {X, Y} | Z)
 
@@ -509,12 +581,12 @@ def open_path_with_collider(
         collider = M.has_edge(prev, v) and M.has_edge(nxt, v)
         return v in anZ if collider else v not in Z
 
-    for seen, p in enumerate(_walk(M, adj, X, Y, allow, nodes_ok)):
+    for seen, p in enumerate(_walk(M, adj, X, Y, allow, nodes_ok, walk)):
         if budget is not None and seen >= budget:
             return PathSearch(None, complete=False)
         if any(c in wanted for c in path_colliders(M, p)):
             return PathSearch(p)
-    return PathSearch(None)
+    return PathSearch(None, complete=not walk.ran_out)
 
 
 def backdoor_paths(

@@ -12,6 +12,7 @@ from covariscope.analysis.adjustment import without_exposure_arrows
 from covariscope.analysis.constructs import MergedDiagram, merge_diagram
 from covariscope.analysis.paths import (
     PathListing,
+    WalkBudget,
     ancestors_of,
     descendants_of,
     listing,
@@ -48,7 +49,8 @@ class RoleFacts:
     on_paths: tuple[tuple[int, bool], ...]
     explanation: str
     #: the search for a backdoor path that adjusting for it alone opens stopped
-    #: at its work budget without a find (its role then comes from the later rules)
+    #: at its work budget without a find (its role then comes from the later
+    #: rules): its own path budget, or the walk budget all covariates share
     search_stopped: bool = False
 
 
@@ -164,10 +166,13 @@ _EXPLAIN = {
 }
 
 
-def _opens_path(M: nx.DiGraph, X: str, Y: str, c: str, adj: Any, unsearched: set[str]) -> bool:
+def _opens_path(
+    M: nx.DiGraph, X: str, Y: str, c: str, adj: Any, unsearched: set[str], walk: WalkBudget
+) -> bool:
     """Whether adjusting for ``c`` alone opens a backdoor path blocked at a
-    collider (``c`` joins ``unsearched`` when the search stopped at its budget)."""
-    search = open_path_with_collider(M, X, Y, frozenset({c}), ancestors_of(M, {c}), adj)
+    collider (``c`` joins ``unsearched`` when the search stopped at its budget;
+    ``walk`` is the walk budget every covariate's search draws on)."""
+    search = open_path_with_collider(M, X, Y, frozenset({c}), ancestors_of(M, {c}), adj, walk=walk)
     if not search.complete:
         unsearched.add(c)
     return search.path is not None
@@ -194,6 +199,9 @@ def roles_on(md: MergedDiagram, X: str, Y: str, unadjusted: PathListing) -> dict
     confounding = confounding_nodes(M, X, Y)
     through = _paths_through(unadjusted)
     unsearched: set[str] = set()
+    walk = WalkBudget()  # shared: the searches of all covariates together stay bounded
+    # each role's sentence is built once per diagram, not once per covariate
+    explain = {role: text.format(x=X, y=Y) for role, text in _EXPLAIN.items()}
     out: dict[str, RoleFacts] = {}
     for c, members in md.members.items():
         if c in (X, Y):
@@ -212,7 +220,7 @@ def roles_on(md: MergedDiagram, X: str, Y: str, unadjusted: PathListing) -> dict
             linked_x
             and linked_y_gx
             and c in may_collide
-            and _opens_path(M, X, Y, c, adj, unsearched)
+            and _opens_path(M, X, Y, c, adj, unsearched, walk)
         ):
             role = "collider"
         elif linked_x and not linked_y_gx:
@@ -232,7 +240,7 @@ def roles_on(md: MergedDiagram, X: str, Y: str, unadjusted: PathListing) -> dict
             descendant_of_outcome=c in desc_y,
             group=members if len(members) > 1 else (),
             on_paths=tuple(through.get(c, ())),
-            explanation=_EXPLAIN[role].format(x=X, y=Y),
+            explanation=explain[role],
             search_stopped=c in unsearched,
         )
         for m in members:

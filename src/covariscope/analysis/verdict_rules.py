@@ -31,6 +31,7 @@ from covariscope.analysis.verdict_terms import (
 )
 from covariscope.analysis.verdict_wording import (
     COMPARISON_WORDS,
+    PATHS_NAMED,
     estimate_words,
     format_set,
     guide,
@@ -53,7 +54,7 @@ def _unmeasured(f: Facts) -> Verdict:
     role_words = {
         "confounder": "it is a confounder, so adjusting for it would have closed "
         + (
-            ", ".join(path_words(p) for p in f.would_close[:3])
+            ", ".join(path_words(p) for p in f.would_close[:PATHS_NAMED])
             if f.would_close
             else "the backdoor paths it lies on"
         ),
@@ -239,13 +240,13 @@ def role_verdict(f: Facts, n: Numbers, t: Mapping[str, float], family: str) -> V
     if f.role == "collider":
         if f.in_proposed and f.opened_paths:
             opened = "; in the proposed set it opens " + ", ".join(
-                path_words(p) for p in f.opened_paths[:3]
+                path_words(p) for p in f.opened_paths[:PATHS_NAMED]
             )
         elif f.in_proposed:
             opened = "; the other members of the proposed set keep those paths blocked, so it is at best unneeded"
         elif f.would_open:
             opened = "; adjusting for it would open " + ", ".join(
-                path_words(p) for p in f.would_open[:3]
+                path_words(p) for p in f.would_open[:PATHS_NAMED]
             )
         else:
             opened = ""

@@ -14,6 +14,7 @@ from covariscope.analysis.verdict_terms import Facts, Numbers
 
 __all__ = [
     "COMPARISON_WORDS",
+    "PATHS_NAMED",
     "estimate_words",
     "format_set",
     "guide",
@@ -45,6 +46,10 @@ def format_set(members: Iterable[str]) -> str:
     return "{" + ", ".join(items) + "}" if items else "the empty set"
 
 
+#: Paths a verdict sentence names (the first of those the facts hold).
+PATHS_NAMED = 3
+
+
 def path_words(nodes: Sequence[str]) -> str:
     """A path as its node names joined by dashes."""
     return " – ".join(nodes)
@@ -56,7 +61,11 @@ def _label(node: str, names: Mapping[str, str]) -> str:
 
 
 def labelled(f: Facts, names: Mapping[str, str]) -> Facts:
-    """The facts with every node named by its label, for the sentence only."""
+    """The facts with every node named by its label, for the sentence only.
+
+    Of each list of paths only the :data:`PATHS_NAMED` a sentence names are
+    kept and labelled: a collider's facts can hold hundreds of paths.
+    """
 
     def one(node: str) -> str:
         return _label(node, names)
@@ -64,8 +73,8 @@ def labelled(f: Facts, names: Mapping[str, str]) -> Facts:
     def many(nodes: Iterable[str]) -> tuple[str, ...]:
         return tuple(one(n) for n in nodes)
 
-    def paths(ps: Iterable[Sequence[str]]) -> tuple[tuple[str, ...], ...]:
-        return tuple(many(p) for p in ps)
+    def paths(ps: Sequence[Sequence[str]]) -> tuple[tuple[str, ...], ...]:
+        return tuple(many(p) for p in ps[:PATHS_NAMED])
 
     return replace(
         f,

@@ -146,14 +146,6 @@ class ColumnProfile:
         label = self.level_labels.get(level_key(level))
         return f"{label} ({level})" if label is not None else str(level)
 
-    @property
-    def event_level(self) -> Any:
-        """For a binary column, the level coded 1 (the non-reference level)."""
-        if self.type != "binary":
-            return None
-        others = [v for v in self.levels if v != self.reference]
-        return others[0] if others else None
-
 
 def profile_table(
     frame: pd.DataFrame,

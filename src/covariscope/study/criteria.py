@@ -13,7 +13,7 @@ from typing import Any
 
 import networkx as nx
 
-from covariscope.analysis.adjustment import ProposalReview, minimal_sets_on, review_on
+from covariscope.analysis.adjustment import ProposalReview, list_minimal_sets, review_on
 from covariscope.analysis.constructs import MergedDiagram, merge_diagram
 from covariscope.analysis.graph import DiagramAnalysis
 from covariscope.analysis.paths import PathListing, listing
@@ -38,6 +38,8 @@ class GraphCriteria:
     roles: dict[str, RoleFacts]
     minimal_sets: tuple[tuple[str, ...], ...]
     paths: PathListing
+    #: False when the listing of minimal sets stopped at its budget
+    minimal_sets_complete: bool = True
 
     def with_review(self, review: ProposalReview) -> DiagramAnalysis:
         """The whole diagram analysis, given a proposal's review."""
@@ -47,6 +49,7 @@ class GraphCriteria:
             outcome=self.outcome,
             roles=self.roles,
             minimal_sets=self.minimal_sets,
+            minimal_sets_complete=self.minimal_sets_complete,
             identifiable=bool(self.minimal_sets),
             review=review,
             paths=self.paths,
@@ -78,6 +81,7 @@ def graph_criteria(diagram: Diagram, exposure: str, outcome: str) -> GraphCriter
     G = diagram.to_networkx()
     md = merge_diagram(G, exposure, outcome)
     unadjusted = listing(md.graph, exposure, outcome, frozenset(), PATH_CAP)
+    minimal = list_minimal_sets(md, exposure, outcome)
     return GraphCriteria(
         key=structure_key(diagram, exposure, outcome),
         graph=G,
@@ -85,7 +89,8 @@ def graph_criteria(diagram: Diagram, exposure: str, outcome: str) -> GraphCriter
         exposure=exposure,
         outcome=outcome,
         roles=roles_on(md, exposure, outcome, unadjusted),
-        minimal_sets=minimal_sets_on(md, exposure, outcome),
+        minimal_sets=minimal.sets,
+        minimal_sets_complete=minimal.complete,
         paths=unadjusted,
     )
 

@@ -239,6 +239,22 @@ def _recommend(
 def _stopped_searches(da: DiagramAnalysis, label: Mapping[str, str]) -> list[str]:
     """What the graph searches that stopped at their work budget could not say."""
     out: list[str] = []
+    if not da.minimal_sets_complete:
+        out.append(
+            f"The listing of minimal sufficient sets stopped at {len(da.minimal_sets)} sets, its "
+            "budget (the diagram has very many): the recommended set is chosen among those "
+            "listed, and a set not listed may serve as well."
+        )
+    if da.review.open_paths_stopped:
+        out.append(
+            f"The listing of the backdoor paths the proposed set leaves open stopped at its work "
+            f"budget: {len(da.review.open_paths)} of {da.review.open_paths_text()} are listed."
+        )
+    if da.paths.walk_stopped:
+        out.append(
+            f"The listing of backdoor paths stopped at its work budget after {len(da.paths.paths)} "
+            f"of {da.paths.total_text()}, so the paths named beside each role are not all of them."
+        )
     if da.review.unsearched:
         out.append(
             f"The search for backdoor paths that {format_set(label[m] for m in da.review.unsearched)} "

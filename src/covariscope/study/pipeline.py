@@ -479,12 +479,19 @@ def _checks(
 
 
 def _checks_message(checks: DiagramChecks) -> list[str]:
-    if not checks.omitted:
-        return []
-    return [
-        f"The diagram implies {checks.tested + checks.omitted} independence claims; "
-        f"only {checks.limit} were tested (raise the limit in the analysis settings)."
-    ]
+    out: list[str] = []
+    if checks.omitted:
+        out.append(
+            f"The diagram implies {checks.tested + checks.omitted} independence claims; "
+            f"only {checks.limit} were tested (raise the limit in the analysis settings)."
+        )
+    if checks.unsearched:
+        out.append(
+            f"The listing of independence claims stopped at its search budget: "
+            f"{checks.unsearched:,} pairs of variables with data were not looked at (pairs with "
+            "the exposure or the outcome came first), so the diagram claims more than was tested."
+        )
+    return out
 
 
 def _data_or_none(
@@ -538,7 +545,7 @@ def _whole_stage(
         messages: list[str] = []
         try:
             sample, engine, bound = prepare_evidence(
-                project, source, q.family, q.exposure, q.outcome, da, messages
+                project, source, q.family, q.exposure, q.outcome, messages
             )
         except DesignError:
             raise  # no number could mean anything: the study stops, saying why

@@ -339,7 +339,7 @@ def _rows(source: ColumnSource, sample: CompleteCases, column: str) -> pd.Series
     return series if sample.complete else series[sample.keep]
 
 
-def _spec_of(column: str, profile: ColumnProfile, knots: int = 0) -> tuple[str, Any]:
+def _spec_of(profile: ColumnProfile, knots: int = 0) -> tuple[str, Any]:
     # A numeric term has no reference level: its slot holds its spline knots (0: linear).
     if profile.type in ("continuous", "count"):
         return profile.type, int(knots)
@@ -461,12 +461,12 @@ def _spec(
         rows=rows_key(source, sample),
         family=family,
         exposure=exposure,
-        exposure_spec=(x_col, *_spec_of(x_col, profiles[x_col])),
+        exposure_spec=(x_col, *_spec_of(profiles[x_col])),
         outcome_spec=tuple(
             (k, c, profiles[c].type if c else None) for k, c in bindings.outcome_columns
         ),
         terms=tuple(
-            (node, col, *_spec_of(col, profiles[col], knots.get(col, 0))) for node, col in usable
+            (node, col, *_spec_of(profiles[col], knots.get(col, 0))) for node, col in usable
         ),
     )
 
@@ -481,10 +481,10 @@ def _identity(
     knots: Mapping[str, int],
 ) -> tuple[Any, ...]:
     x_col = bindings.exposure_column
-    x_spec = ("exposure", x_col, *_spec_of(x_col, profiles[x_col]))
+    x_spec = ("exposure", x_col, *_spec_of(profiles[x_col]))
     ids: list[Any] = [(x_spec, name) for name in design.exposure_columns]
     for node, col in usable:
-        spec = (col, *_spec_of(col, profiles[col], knots.get(col, 0)))
+        spec = (col, *_spec_of(profiles[col], knots.get(col, 0)))
         ids += [(spec, name) for name in design.blocks[node].columns]
     if design.y is not None:
         y_spec = tuple((k, c, profiles[c].type if c else None) for k, c in bindings.outcome_columns)

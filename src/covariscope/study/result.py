@@ -96,10 +96,6 @@ class StudyResult:
             )
         )
 
-    def pictures_of(self, node: str) -> tuple[CollinearityPicture, ...]:
-        """The collinearity pictures that hold ``node``."""
-        return tuple(p for p in self.pictures if node in p.members)
-
     @property
     def has_data(self) -> bool:
         return self.evidence is not None

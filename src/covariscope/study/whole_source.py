@@ -12,7 +12,6 @@ from typing import Any
 
 from covariscope.analysis.design import TERM_TYPES, TermSpec
 from covariscope.analysis.evidence import EvidenceEngine
-from covariscope.analysis.graph import DiagramAnalysis
 from covariscope.data.profile import ColumnProfile
 from covariscope.data.sample import AnalyticSample
 from covariscope.data.sources.base import DataSource, DesignRequest
@@ -30,7 +29,6 @@ def prepare_evidence(
     family: str,
     exposure: str,
     outcome: str,
-    analysis: DiagramAnalysis,
     messages: list[str],
 ) -> tuple[AnalyticSample | None, EvidenceEngine | None, list[str]]:
     """Analytic sample and evidence engine, or (None, None, ...) with a message."""

@@ -135,6 +135,7 @@ def _checks_json(result: StudyResult) -> dict[str, Any] | None:
         "tested": checks.tested,
         "failed": checks.failed,
         "untestable": untestable,
+        "unsearched": checks.unsearched,
         "claims": claims,
     }
 
@@ -204,6 +205,9 @@ def study_to_json(
     review = result.diagram.review
     for key, value in result.diagram.to_json().items():
         out[key] = value
+        if key == "minimal_sets":
+            # False when the listing stopped at its budget: more sets exist.
+            out["minimal_sets_complete"] = result.diagram.minimal_sets_complete
         if key == "open_paths":
             # ``open_paths`` lists at most 500; the count says how many there are.
             out["open_paths_total"] = review.open_paths_total

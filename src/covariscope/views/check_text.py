@@ -155,6 +155,8 @@ def format_study_text(result: StudyResult) -> str:
     da = result.diagram
     sets = "; ".join(named(s) for s in da.minimal_sets) or "none (not identified by adjustment)"
     lines.append(f"Minimal sufficient sets: {sets}")
+    if not da.minimal_sets_complete:
+        lines.append(f"    the first {len(da.minimal_sets)} listed; more exist (see the messages)")
     roles = {c: r.role for c, r in da.roles.items()}
     lines.append(
         f"{PROPOSED_SET}: {named(result.proposed)} — "
