@@ -4,8 +4,9 @@ A family names its words (the vocabulary's :class:`~covariscope.vocabulary.Famil
 the outcome columns it reads, the checks on them, the fitter that estimates it,
 the cautions its evidence carries and how other programs write the same model.
 The rest of the program asks the family object and never compares family codes:
-adding a family is its own module and one line of
-:mod:`covariscope.analysis.families.registry`.
+adding a family is its words in :mod:`covariscope.vocabulary` and its own module
+in this package, named by its code and exporting ``FAMILY``
+(:mod:`covariscope.analysis.families.registry` reads it).
 """
 
 from __future__ import annotations
@@ -96,8 +97,6 @@ class GlmLink:
     saturated_term: bool = False
     #: what the events-per-parameter caution counts
     events_word: str = "events"
-    #: how the standard error is computed, in the trade's words
-    se_words: str = ""
 
     def block_sums(self, y: Array, eta: Array) -> tuple[float, Array, Array, float, float]:
         """Deviance part, residual y − μ, Newton weight, smallest and largest μ of one block."""

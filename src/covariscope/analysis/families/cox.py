@@ -18,7 +18,7 @@ from covariscope.analysis.families.base import (
 from covariscope.errors import DataError
 from covariscope.vocabulary import Family
 
-__all__ = ["COX"]
+__all__ = ["FAMILY"]
 
 
 class _Cox(ModelFamily):
@@ -44,7 +44,7 @@ class _Cox(ModelFamily):
 
 #: Cox regression by partial likelihood (Cox 1972), ties by Efron's method
 #: (Efron 1977); no intercept, and the rows must be in memory.
-COX = _Cox(
+FAMILY = _Cox(
     code=Family.COX,
     fields=(
         OutcomeField("time", "Time column", "Follow-up time to the event or to censoring."),
