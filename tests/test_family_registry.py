@@ -121,6 +121,8 @@ def test_each_family_is_complete():
         # a GLM needs its link; the others have none
         assert (f.link is not None) == (f.fitter is Fitter.GLM), f.code
         assert f.crude_params == (2 if f.intercept else 1)
+        # only the least-squares and GLM fitters have a row-sum path
+        assert f.row_sums == (f.fitter is not Fitter.COX), f.code
         assert set(f.outcome_types) <= {"binary", "count", "continuous"}
         if f.outcome_types:
             assert f.outcome_need, f.code

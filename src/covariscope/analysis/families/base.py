@@ -153,7 +153,9 @@ class ModelFamily:
     ``outcome_types`` the column types its outcome may have (empty: any);
     ``outcome_need`` the words for that requirement; ``count_outcome`` True
     when a whole-number outcome is a count (rate ratio); ``cautions`` the
-    sentences every evidence table of the family carries.
+    sentences every evidence table of the family carries; ``memory_reason``
+    why its fitter needs the rows in memory (empty: sums over rows left in
+    their source suffice).
     """
 
     code: Family
@@ -165,6 +167,7 @@ class ModelFamily:
     count_outcome: bool = False
     cautions: tuple[str, ...] = ()
     link: GlmLink | None = None
+    memory_reason: str = ""
 
     # -- words ------------------------------------------------------------------
 
@@ -225,7 +228,7 @@ class ModelFamily:
     @property
     def row_sums(self) -> bool:
         """True when its models can be fitted from sums over rows left in their source."""
-        return self.fitter is not Fitter.COX
+        return not self.memory_reason
 
     @property
     def glm(self) -> GlmLink:

@@ -53,6 +53,7 @@ FAMILY = _Cox(
         ),
     ),
     fitter=Fitter.COX,
+    memory_reason="the risk sets are sums over rows sorted by time",
     recipe=CodeRecipe(
         python=(
             "smf.phreg({formula}, data=data,\n"
