@@ -13,6 +13,7 @@ from pathlib import Path
 from typing import Any, TypeGuard
 
 import numpy as np
+import pandas as pd
 from matplotlib.backends.backend_qtagg import FigureCanvasQTAgg
 from matplotlib.figure import Figure
 from PySide6.QtCore import Qt, Signal
@@ -94,7 +95,9 @@ def _table(headers: tuple[str, ...]) -> QTableWidget:
     return t
 
 
-def _analysed_rows(sample: Any, frame: Any, s: NodeDiagnostics) -> Any:
+def _analysed_rows(
+    sample: CompleteCases | AnalyticSample | None, frame: pd.DataFrame | None, s: NodeDiagnostics
+) -> pd.DataFrame | None:
     """The rows the models used (the analytic sample) when it holds both
     columns of the plot, so the picture shows what the numbers came from;
     else the loaded file."""
