@@ -311,3 +311,24 @@ def test_a_count_across_two_hubs_stops_at_its_budget(monkeypatch: pytest.MonkeyP
     assert exact.total_exact
     # reference: plain enumeration with networkx.all_simple_paths
     assert exact.total == len(reference_open_paths(small, set())) == 12
+
+
+def test_a_proposal_too_large_for_the_pair_check_says_so() -> None:
+    from covariscope.analysis.adjustment import PAIR_CHECK_LIMIT
+
+    def proposal(extra: int) -> nx.DiGraph:
+        G = nx.DiGraph([("c", "x"), ("c", "y"), ("x", "y")])
+        G.add_edges_from((f"p{i}", "y") for i in range(extra))
+        return _kinds(G)
+
+    many = PAIR_CHECK_LIMIT + 1
+    big = review_proposal(proposal(many), "x", "y", ["c", *(f"p{i}" for i in range(many))])
+    assert len(big.unnecessary) == many
+    assert not big.not_together_checked
+    # every precision covariate may go, one at a time or all together: one
+    # group is the conservative answer, and the flag says it was not checked
+    assert big.not_together == (big.unnecessary,)
+    small = review_proposal(proposal(3), "x", "y", ["c", "p0", "p1", "p2"])
+    assert small.not_together_checked
+    assert small.not_together == ()
+    assert reference_sufficient(proposal(3), {"c"})

@@ -108,3 +108,14 @@ def test_claims_past_their_budget_are_counted_in_messages_and_json() -> None:
     out = study_to_json(result)
     jsonschema.validate(out, _schema())
     assert out["diagram_checks"]["unsearched"] == checks.unsearched
+
+
+def test_a_proposal_too_large_for_the_pair_check_is_said_in_the_messages() -> None:
+    extra = [f"p{i}" for i in range(41)]
+    nodes = ["x", "y", "c", *extra]
+    arrows = [("c", "x"), ("c", "y"), ("x", "y"), *((p, "y") for p in extra)]
+    project = _project(nodes, arrows)
+    project.analysis.proposed = ["c", *extra]
+    result = run_study(project)
+    assert not result.diagram.review.not_together_checked
+    assert any("drop them one at a time" in m for m in result.messages)

@@ -21,6 +21,7 @@ from covariscope.analysis.separation import d_connected_closure, minimal_d_separ
 
 __all__ = [
     "MINIMAL_SETS_BUDGET",
+    "PAIR_CHECK_LIMIT",
     "MinimalSets",
     "ProposalReview",
     "is_sufficient",
@@ -72,6 +73,10 @@ class ProposalReview:
         or the :data:`~covariscope.analysis.paths.WALK_BUDGET` the searches of
         all members share) without a find: not marked harmful, but not shown
         harmless either.
+    not_together_checked : bool
+        False when ``unnecessary`` held more members than the pairwise check
+        takes (:data:`PAIR_CHECK_LIMIT`): they are then all one group of
+        ``not_together`` (drop them one at a time), unchecked.
     open_paths_stopped : bool
         True when the walk that lists the open paths stopped at its work
         budget (:data:`~covariscope.analysis.paths.WALK_BUDGET`) before
@@ -90,6 +95,7 @@ class ProposalReview:
     not_together: tuple[tuple[str, ...], ...] = ()
     unsearched: tuple[str, ...] = ()
     open_paths_stopped: bool = False
+    not_together_checked: bool = True
 
     def open_paths_text(self) -> str:
         """The number of open paths in words: ``"3"`` or ``"at least 10,001"``."""
@@ -380,12 +386,14 @@ def review_on(md: MergedDiagram, X: str, Y: str, proposed: Iterable[str]) -> Pro
         unmeasured_in_set=unmeasured,
         unsearched=tuple(unsearched),
         open_paths_stopped=opened.walk_stopped,
+        not_together_checked=len(unnecessary) <= PAIR_CHECK_LIMIT,
     )
 
 
-#: Above this many unnecessary members the pairwise check is skipped and they
-#: are all reported as one group (a proposal that large is read by hand anyway).
-_PAIR_CHECK_LIMIT = 40
+#: Above this many unnecessary members the pairwise check (quadratic in them,
+#: each pair a d-separation search) is skipped and they are all reported as one
+#: group, which is never wrong (a proposal that large is read by hand anyway).
+PAIR_CHECK_LIMIT = 40
 
 
 def _not_together(
@@ -401,7 +409,7 @@ def _not_together(
     """
     if len(unnecessary) < 2:
         return ()
-    if len(unnecessary) > _PAIR_CHECK_LIMIT:
+    if len(unnecessary) > PAIR_CHECK_LIMIT:
         return (tuple(unnecessary),)
 
     def suffices_without(dropped: Collection[str]) -> bool:

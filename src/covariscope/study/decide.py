@@ -255,6 +255,12 @@ def _stopped_searches(da: DiagramAnalysis, label: Mapping[str, str]) -> list[str
             f"The listing of backdoor paths stopped at its work budget after {len(da.paths.paths)} "
             f"of {da.paths.total_text()}, so the paths named beside each role are not all of them."
         )
+    if not da.review.not_together_checked:
+        out.append(
+            f"The proposed set holds {len(da.review.unnecessary)} unnecessary covariates, more "
+            "than the check of which may be dropped together takes: drop them one at a time, "
+            "checking the set after each."
+        )
     if da.review.unsearched:
         out.append(
             f"The search for backdoor paths that {format_set(label[m] for m in da.review.unsearched)} "
