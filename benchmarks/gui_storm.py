@@ -8,7 +8,10 @@ With ``watch=True`` every entry into data work on the GUI thread is
 counted (a profile hook on that thread: it slows the thread, so the stall
 figures of such a run overstate).  With ``hunt=True`` a sampling thread records the GUI thread's stack whenever
 the heartbeat is late by more than 50 ms, and the stacks seen most are
-printed: where the GUI thread spends its stalls.
+printed: where the GUI thread spends its stalls; and the window's main
+slots are timed (longest and total).  When the slots are short and the
+sampler saw little, the stalls were spent waiting for the interpreter lock
+or the CPU, not in the window's own code.
 """
 
 from __future__ import annotations
@@ -91,6 +94,55 @@ class StallHunter(threading.Thread):
         print(f"  GUI thread during stalls ({total} samples of {1000 * self.every:.0f} ms):")
         for stack, n in self.stacks.most_common(top):
             print(f"   {n:5d} × " + "\n           ← ".join(reversed(stack)))
+
+
+#: the window's slots timed by ``hunt`` (class attributes, patched before the window exists)
+TIMED_SLOTS = (
+    "_analysis_done",
+    "_model_changed",
+    "_project_changed",
+    "request_analysis",
+    "refresh_panels",
+    "show_progress",
+    "show_engine",
+)
+
+
+class SlotClock:
+    """Timestamps around the window's slots: the longest and total time of each."""
+
+    def __init__(self) -> None:
+        self.longest: Counter[str] = Counter()
+        self.total: Counter[str] = Counter()
+        self.calls: Counter[str] = Counter()
+
+    def wrap(self, cls: Any, names: tuple[str, ...]) -> Callable[[], None]:
+        """Time ``names`` of ``cls``; the returned call puts them back."""
+        originals = {n: getattr(cls, n) for n in names}
+        for name, fn in originals.items():
+            setattr(cls, name, self._timed(name, fn))
+        return lambda: [setattr(cls, n, fn) for n, fn in originals.items()] and None
+
+    def _timed(self, name: str, fn: Callable[..., Any]) -> Callable[..., Any]:
+        def timed(*args: Any, **kwargs: Any) -> Any:
+            t0 = time.perf_counter()
+            try:
+                return fn(*args, **kwargs)
+            finally:
+                spent = time.perf_counter() - t0
+                self.longest[name] = max(self.longest[name], spent)
+                self.total[name] += spent
+                self.calls[name] += 1
+
+        return timed
+
+    def report(self) -> None:
+        print("  window slots (longest / total over calls):")
+        for name, longest in self.longest.most_common():
+            print(
+                f"   {name:<18} {1000 * longest:7.1f} ms / {self.total[name]:6.2f} s "
+                f"over {self.calls[name]} calls"
+            )
 
 
 def _edit(w: Any, rng: random.Random, covariates: list[str]) -> None:
@@ -213,6 +265,8 @@ def storm(
 
     app = application()
     QStandardPaths.setTestModeEnabled(True)  # no recent-files list or layout of the user's
+    clock = SlotClock() if hunt else None
+    restore = clock.wrap(MainWindow, TIMED_SLOTS) if clock is not None else None
     w = MainWindow(prompts=QuietPrompts())  # type: ignore[arg-type]
     w.resize(1366, 768)
     w.show()
@@ -248,11 +302,21 @@ def storm(
         "storm_equals_check_json": equal,
         "storm_family": w.project.analysis.family,
     }
+    over = [(start - t_fire, gap) for start, gap in meter.log.stalls if gap >= 0.1]
+    if over:
+        print(
+            "  stalls of 100 ms or more (seconds after the first edit: length):",
+            ", ".join(f"{at:.2f}: {1000 * gap:.0f} ms" for at, gap in over),
+            f"(edits fired until {t_fired - t_fire:.2f})",
+        )
     if meter.watch is not None and meter.watch.entries:
         print("  data work on the GUI thread:", dict(meter.watch.entries.most_common(8)))
-    if hunter is not None:
+    if hunter is not None and clock is not None:
         hunter.report()
+        clock.report()
     w.io.extra_modified = False
     w.undo_stack.setClean()
     w.close()
+    if restore is not None:
+        restore()
     return figures

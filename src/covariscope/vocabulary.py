@@ -42,8 +42,6 @@ __all__ = [
     "ENGINE_TERMS",
     "FAMILY_TERMS",
     "KIND_TERMS",
-    "NONCOLLAPSIBLE_FAMILIES",
-    "RATIO_FAMILIES",
     "REVIEW_COLUMN_TERMS",
     "ROLE_TERMS",
     "STRENGTH_TERMS",
@@ -362,15 +360,6 @@ FAMILY_TERMS: Mapping[Family, FamilyTerm] = MappingProxyType(
             noncollapsible=True,
         ),
     }
-)
-
-
-#: Families whose exposure coefficient is a log ratio (shown on the ratio scale).
-RATIO_FAMILIES: frozenset[str] = frozenset(f.value for f, t in FAMILY_TERMS.items() if t.ratio)
-
-#: Families whose measure can change on adjustment without confounding.
-NONCOLLAPSIBLE_FAMILIES: frozenset[str] = frozenset(
-    f.value for f, t in FAMILY_TERMS.items() if t.noncollapsible
 )
 
 

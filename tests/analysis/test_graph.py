@@ -13,7 +13,6 @@ from covariscope.analysis.graph import (
     backdoor_paths,
     classify_covariates,
     is_sufficient,
-    merge_cycle,
     merge_diagram,
     minimal_adjustment_sets,
     review_proposal,
@@ -221,11 +220,8 @@ def test_proxy_of_exposure_is_reported_not_merged() -> None:
     assert analysis.roles["pay"].role == "descendant_of_exposure"
 
 
-def test_merge_cycle_names_the_cycle() -> None:
+def test_merge_names_the_cycle() -> None:
     G = diagram([("a", "c"), ("c", "b"), ("x", "y")])
-    assert merge_cycle(G, "a", "b") == ["a|b", "c", "a|b"]
-    assert merge_cycle(G, "a", "c") is None
-    assert merge_cycle(G, "a", "x") is None  # measures the exposure: never merged
     G.graph["proxies"] = [("a", "b")]
     with pytest.raises(CycleError, match="a\\|b → c → a\\|b") as err:
         merge_diagram(G, "x", "y")

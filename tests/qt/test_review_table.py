@@ -170,3 +170,33 @@ def test_keep_another_member_from_the_table(qtbot, window, demo, wait_for_analys
     assert w.strip.texts()["recommended"] == strip_before
     w.actions_.redo.trigger()
     assert w.project.analysis.keep_choices[choice.key] == other
+
+
+def test_edits_update_the_panels_in_place(qtbot, window, demo, wait_for_analysis, monkeypatch):
+    """A tick changes its own cell in the same item; a node move rebuilds no
+    panel; a new result redraws only the links of nodes whose words changed."""
+    from covariscope.model.commands import UpdateNode
+
+    w = window
+    w.io.open(str(demo / "demo_project.json"))
+    wait_for_analysis(qtbot, w)
+    row = w.review.row_of("family_hist")
+    item = w.review.table.item(row, CHECK)
+    label = w.review.table.item(row, 0)
+    w.review.set_checked("family_hist", True)
+    assert w.review.table.item(row, CHECK) is item  # the same item, its box changed
+    assert w.review.table.item(row, 0) is label
+    assert item.checkState() == Qt.CheckState.Checked
+    filled: list[str] = []
+    monkeypatch.setattr(w.review, "_cell", lambda *a: filled.append("review"))
+    monkeypatch.setattr(w.data_panel, "_fit_width", lambda: filled.append("data"))
+    w.push(UpdateNode(w.project, "age", x=12.0, y=34.0))
+    w.review.refresh(w.project, w.result)  # the same rows again: nothing is rewritten
+    assert filled == []
+    wait_for_analysis(qtbot, w)
+    redrawn: list[object] = []
+    for arrow in w.scene.arrows.values():
+        monkeypatch.setattr(arrow, "update_geometry", lambda a=arrow: redrawn.append(a))
+    notes = w.scene.roles, w.scene.verdicts
+    w.scene.set_annotations(*notes)  # the same words: no link moves
+    assert redrawn == []

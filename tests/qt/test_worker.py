@@ -69,6 +69,35 @@ def test_progress_only_from_the_current_run(qtbot, runner):
     qtbot.waitSignal(r.finished, timeout=5000).wait()
 
 
+def test_progress_lines_of_one_stage_are_thinned(qtbot, qapp):
+    # a stage's lines reach the window a few times a second, a new stage's
+    # first line at once (a clock set by hand: no test reads the real one)
+    project = Project()
+    now = [100.0]
+
+    def run(project, table, progress, cancel):
+        for k in range(1, 6):
+            progress(k / 10, f"Fitting model {k} of 5")
+        progress(0.6, "Checking effect modification: model 1 of 3")
+        now[0] += 1.0
+        progress(0.7, "Checking effect modification: model 2 of 3")
+        progress(0.8, "Checking effect modification: model 3 of 3")
+        return "ok"
+
+    r = AnalysisRunner(lambda: project, run=run, debounce_ms=0)
+    r.clock = lambda: now[0]
+    lines: list[str] = []
+    r.progress.connect(lambda _f, text: lines.append(text))
+    with qtbot.waitSignal(r.finished, timeout=5000):
+        r.run_now()
+    assert lines == [
+        "Fitting model 1 of 5",
+        "Checking effect modification: model 1 of 3",
+        "Checking effect modification: model 2 of 3",
+    ]
+    assert r.shutdown()
+
+
 def test_requests_are_debounced(qtbot, qapp):
     project = Project()
     calls = []

@@ -20,7 +20,6 @@ from covariscope.vocabulary import group_key
 __all__ = [
     "MergedDiagram",
     "cycle_text",
-    "merge_cycle",
     "merge_diagram",
     "merge_every_link",
 ]
@@ -116,9 +115,9 @@ def _build(
     return M, construct_of, members, meas_x, meas_y
 
 
-def _endpoints(G: nx.DiGraph, *ids: str | None) -> frozenset[str]:
+def _endpoints(G: nx.DiGraph, *ids: str) -> frozenset[str]:
     kinds = {n for n, k in G.nodes(data="kind") if k in _ENDPOINT_KINDS}
-    return frozenset(kinds | {i for i in ids if i is not None})
+    return frozenset(kinds | set(ids))
 
 
 def _find_cycle(M: nx.DiGraph) -> list[str] | None:
@@ -199,38 +198,6 @@ def merge_diagram(G: nx.DiGraph, exposure: str, outcome: str) -> MergedDiagram:
         measures_outcome=frozenset(meas_y),
         member_measured={str(n): bool(m) for n, m in G.nodes(data="measured", default=True)},
     )
-
-
-def merge_cycle(
-    G: nx.DiGraph,
-    a: str,
-    b: str,
-    *,
-    exposure: str | None = None,
-    outcome: str | None = None,
-) -> list[str] | None:
-    """The cycle that a new proxy link ``a ~ b`` would close, or None.
-
-    The link is merged only when both ends are covariates (nodes whose
-    ``kind`` is exposure or outcome, or the ids given as ``exposure`` /
-    ``outcome``, are never merged).  The cycle is given over construct ids
-    of the merged graph, first id repeated at the end.
-
-    Examples
-    --------
-    >>> import networkx as nx
-    >>> G = nx.DiGraph([("a", "c"), ("c", "b")])
-    >>> merge_cycle(G, "a", "b")
-    ['a|b', 'c', 'a|b']
-    >>> merge_cycle(G, "a", "c") is None
-    True
-    """
-    pairs = [*_proxy_pairs(G), (a, b)]
-    for node in (a, b):
-        if node not in G:
-            raise DiagramError(f'"{node}" is not a node of the diagram.')
-    M, *_ = _build(G, pairs, _endpoints(G, exposure, outcome))
-    return _find_cycle(M)
 
 
 def merge_every_link(G: nx.DiGraph) -> tuple[nx.DiGraph, dict[str, str]] | None:

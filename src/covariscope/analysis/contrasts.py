@@ -2,7 +2,7 @@
 
 A categorical exposure with k + 1 levels enters every comparison model as a
 block of k treatment contrasts against its reference level.  For each
-covariate, :func:`contrast_evidence` compares every contrast with and
+covariate, :func:`joint_summary` compares every contrast with and
 without the covariate (change in estimate and SE inflation, DESIGN §2) and
 gathers a joint summary: the contrast that moved most and by how much, the
 exposure block's generalized VIF (Fox & Monette 1992) in crude + C and in

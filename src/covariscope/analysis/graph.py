@@ -23,7 +23,7 @@ from covariscope.analysis.adjustment import (
     review_on,
     review_proposal,
 )
-from covariscope.analysis.constructs import MergedDiagram, merge_cycle, merge_diagram
+from covariscope.analysis.constructs import MergedDiagram, merge_diagram
 from covariscope.analysis.paths import PathListing, PathStatus, backdoor_paths, listing
 from covariscope.analysis.roles import ROLES, RoleFacts, classify_covariates, roles_on
 
@@ -39,7 +39,6 @@ __all__ = [
     "backdoor_paths",
     "classify_covariates",
     "is_sufficient",
-    "merge_cycle",
     "merge_diagram",
     "minimal_adjustment_sets",
     "review_proposal",

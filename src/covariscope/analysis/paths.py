@@ -113,10 +113,13 @@ class PathListing:
         return f"{self.total:,}" if self.total_exact else f"at least {self.total:,}"
 
 
-#: Default work budget of the path counter: frontier states handled, summed
-#: over the arrows.  At most about a quarter of a second on a dense 40-node
-#: diagram (benchmarks/bench_graph.py), so re-analysis after an edit stays quick.
-COUNT_BUDGET = 10_000
+#: Default work budget of the path counter: frontier entries handled, summed
+#: over the arrows (a state costs one entry per node on its frontier, plus one,
+#: so the budget follows the time spent: counting states alone let a dense
+#: 150-node diagram, whose frontiers hold 45 nodes, take 2 s).  About half a
+#: second on a dense 150-node diagram on a loaded machine; a complete 9-node
+#: diagram is still counted exactly.
+COUNT_BUDGET = 100_000
 
 #: Default work budget of a search for one open path of a kind: paths examined.
 #: Branches that end in no path are bounded by :data:`WALK_BUDGET` instead;
@@ -355,7 +358,8 @@ def count_backdoor_paths(
     Returns ``(count, exact)``.  Counting simple paths is #P-hard (Valiant
     1979, *SIAM J. Comput.* 8:410), and on dense diagrams the number of
     frontier states grows into the millions.  With a ``budget``, at most
-    about ``budget`` states are handled in all: what is left of it is shared
+    about ``budget`` frontier entries (each state: one per frontier node,
+    plus one) are handled in all: what is left of it is shared
     evenly by the arrows still to come, and the states of largest count are
     carried from one arrow to the next; when any are dropped, ``exact`` is
     False and ``count`` is a lower bound, because every path counted is a
@@ -417,7 +421,7 @@ def count_backdoor_paths(
     exact = True
     spent = 0
     for i, (a, b) in enumerate(edges):
-        spent += len(states)
+        spent += sum(len(k) + 1 for k in states)
         out: dict[tuple[Entry, ...], int] = {}
         for key, cnt in states.items():
             st = {e[0]: e for e in key}
@@ -463,7 +467,10 @@ def count_backdoor_paths(
                 k = tuple(sorted(e for w, e in c.items() if w not in leave.get(i, ())))
                 out[k] = out.get(k, 0) + cnt
         # What is left of the budget is shared evenly by the arrows to come.
-        per_arrow = None if budget is None else max(1, (budget - spent) // (len(edges) - i))
+        per_arrow = None
+        if budget is not None:
+            width = 1 + max((len(k) for k in out), default=0)
+            per_arrow = max(1, max(0, budget - spent) // (len(edges) - i) // width)
         if per_arrow is not None and len(out) > per_arrow:
             # Keep the states that stand for the most partial paths, ties by
             # key so the bound does not depend on dictionary order.
@@ -619,8 +626,8 @@ def backdoor_paths(
     cap : int
         Most paths listed.
     count_budget : int or None
-        Work budget of the count (frontier states carried over all arrows);
-        None counts exactly however long it takes.
+        Work budget of the count (frontier entries handled over all arrows,
+        :data:`COUNT_BUDGET`); None counts exactly however long it takes.
 
     Returns
     -------

@@ -50,6 +50,7 @@ __all__ = [
     "merge_glm_sums_many",
     "merge_sandwich_sums",
     "reduce_column_stats",
+    "rows_in_memory_words",
     "sandwich_pass",
     "sandwich_sums",
 ]
@@ -313,6 +314,17 @@ def fits_from_rows(family: str) -> bool:
     (True, False)
     """
     return family_of(family).row_sums
+
+
+def rows_in_memory_words(family: str) -> str:
+    """Why the family's models read every row into memory ("" when they need not)."""
+    fam = family_of(family)
+    if fam.row_sums:
+        return ""
+    return (
+        f"{fam.term.short} models need every row of the analytic sample in memory "
+        f"({fam.memory_reason})"
+    )
 
 
 def glm_link(family: str) -> GlmLink:

@@ -44,7 +44,6 @@ __all__ = [
     "TIES",
     "CoxPath",
     "CoxSample",
-    "cox_partial_likelihood",
     "fit_cox",
     "fit_cox_sample",
     "newton_cox",
@@ -75,20 +74,6 @@ class CoxPath:
     converged: bool
     loglik: float
     stop: str = ""
-
-
-def cox_partial_likelihood(
-    X: Array, time: Array, event: Array, beta: Array, *, ties: str = "efron"
-) -> float:
-    """Log partial likelihood of a Cox model at ``beta``.
-
-    >>> import numpy as np
-    >>> X = np.array([[0.0], [1.0], [0.0], [1.0]])
-    >>> round(cox_partial_likelihood(X, np.array([1, 2, 3, 4.0]), np.ones(4), np.zeros(1)), 4)
-    -3.1781
-    """
-    X = np.asarray(X, dtype=np.float64).reshape(len(time), -1)
-    return CoxSample(X, np.asarray(time, float), np.asarray(event, float), ties).loglik(beta)
 
 
 def newton_cox(

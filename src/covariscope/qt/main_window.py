@@ -326,9 +326,14 @@ class MainWindow(QMainWindow):
             self._set_state("Waiting for the data")
             return
         self._set_state("Out of date — updating…")
-        self.review.setProperty("stale", True)
-        self.review.style().polish(self.review.table)
+        self._mark_review_stale(True)
         self.runner.request()
+
+    def _mark_review_stale(self, stale: bool) -> None:
+        """Grey the review table while an analysis is due (restyled only on a change)."""
+        if self.review.property("stale") is not stale:
+            self.review.setProperty("stale", stale)
+            self.review.style().polish(self.review.table)
 
     def refresh_panels(self) -> None:
         self.data_panel.refresh(self.project, self.data.table, self.data.profiles)
@@ -351,8 +356,7 @@ class MainWindow(QMainWindow):
     def _analysis_done(self, _generation: int, result: Any) -> None:
         self.hide_progress()
         self.result = result
-        self.review.setProperty("stale", False)
-        self.review.style().polish(self.review.table)
+        self._mark_review_stale(False)
         self.refresh_panels()
         notes = canvas_annotations(result)
         self.scene.set_annotations(notes.roles, notes.verdicts)

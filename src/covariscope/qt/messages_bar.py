@@ -58,8 +58,12 @@ class MessagesBar(QWidget):
         layout.addLayout(top)
         layout.addWidget(self.list)
         self.messages: list[Message] = []
+        self._filled = False
 
     def refresh(self, messages: list[Message]) -> None:
+        if self._filled and list(messages) == self.messages:
+            return  # the same lines: no restyling, no new list
+        self._filled = True
         self.messages = list(messages)
         self.counts.setText(count_words(self.messages))
         problems = [m for m in self.messages if m.severity == "problem"]

@@ -22,6 +22,7 @@ from covariscope.analysis.adjustment import ProposalReview
 from covariscope.analysis.proposal_wording import sufficiency_sentence, unnecessary_words
 from covariscope.qt.keep_menu import add_keep_actions
 from covariscope.qt.tables import filling
+from covariscope.views.format import ratio_family
 from covariscope.views.keep_choice import KeepChoice, keep_choice, kept_words
 from covariscope.views.review import (
     MODIFICATION_CAUTION,
@@ -30,7 +31,7 @@ from covariscope.views.review import (
     review_rows,
     rows_to_csv,
 )
-from covariscope.vocabulary import RATIO_FAMILIES, ReviewColumn, column_tooltip
+from covariscope.vocabulary import ReviewColumn, column_tooltip
 
 __all__ = ["PathsPanel", "ReviewTable", "open_paths"]
 
@@ -74,6 +75,8 @@ class ReviewTable(QWidget):
         layout.addWidget(self.detail)
         self._rows: list[ReviewRow] = []
         self._keep: dict[str, KeepChoice] = {}
+        #: what the table shows now (a refresh that would change nothing does nothing)
+        self._shown: tuple[Any, ...] | None = None
         self._filling = False
         self.table.setContextMenuPolicy(Qt.ContextMenuPolicy.CustomContextMenu)
         self.table.customContextMenuRequested.connect(self._context_menu)
@@ -100,12 +103,16 @@ class ReviewTable(QWidget):
         selected = self.selected_node()
         self._rows = review_rows(project, result)
         family = getattr(result, "family", None) or project.analysis.family
-        self.set_header_tips(ratio=family in RATIO_FAMILIES)
+        self.set_header_tips(ratio=ratio_family(family))
         self._keep = {
             row.node: choice
             for row in self._rows
             if (choice := keep_choice(project, result, row.node)) is not None
         }
+        shown = (self._rows, {n: kept_words(k) for n, k in self._keep.items()})
+        if shown == self._shown:
+            return  # nothing this table shows changed (a move, a note)
+        self._shown = shown
         self._filling = True
         try:
             with filling(self.table):
@@ -115,32 +122,7 @@ class ReviewTable(QWidget):
                         if c == _VERDICT and row.node in self._keep:
                             kept = kept_words(self._keep[row.node])
                             text = f"{text}: {kept}" if kept else text
-                        item = QTableWidgetItem("" if c == _CHECK else text)
-                        item.setData(Qt.ItemDataRole.UserRole, row.node)
-                        if c == _VERDICT:
-                            item.setToolTip(row.reason or row.verdict)
-                        elif c == _VERDICT - 1:
-                            item.setToolTip(MODIFICATION_CAUTION)
-                        elif c == 0:
-                            item.setToolTip(row.detail)
-                        if 2 <= c <= 5:
-                            item.setTextAlignment(
-                                Qt.AlignmentFlag.AlignRight | Qt.AlignmentFlag.AlignVCenter
-                            )
-                        if c == _CHECK:
-                            flags = Qt.ItemFlag.ItemIsEnabled | Qt.ItemFlag.ItemIsSelectable
-                            if row.measured:
-                                flags |= Qt.ItemFlag.ItemIsUserCheckable
-                            item.setFlags(flags)
-                            item.setCheckState(
-                                Qt.CheckState.Checked if row.proposed else Qt.CheckState.Unchecked
-                            )
-                            item.setToolTip(
-                                "Tick to put it in the proposed adjustment set"
-                                if row.measured
-                                else "Unmeasured: cannot be adjusted for"
-                            )
-                        self.table.setItem(r, c, item)
+                        self._cell(r, c, row, text)
         finally:
             self._filling = False
         if selected:
@@ -148,6 +130,39 @@ class ReviewTable(QWidget):
         # the same row may stay selected, which emits no selection change, so
         # the full-reason line is refreshed here in any case
         self._show_detail()
+
+    def _cell(self, r: int, c: int, row: ReviewRow, text: str) -> None:
+        """Show ``text`` in cell (r, c), changing the item there in place."""
+        item = self.table.item(r, c)
+        if item is None:
+            item = QTableWidgetItem()
+            if 2 <= c <= 5:
+                item.setTextAlignment(Qt.AlignmentFlag.AlignRight | Qt.AlignmentFlag.AlignVCenter)
+            if c == _VERDICT - 1:
+                item.setToolTip(MODIFICATION_CAUTION)
+            self.table.setItem(r, c, item)
+        if item.data(Qt.ItemDataRole.UserRole) != row.node:
+            item.setData(Qt.ItemDataRole.UserRole, row.node)
+        shown = "" if c == _CHECK else text
+        if item.text() != shown:
+            item.setText(shown)
+        tip = {_VERDICT: row.reason or row.verdict, 0: row.detail}.get(c)
+        if c == _CHECK:
+            tip = (
+                "Tick to put it in the proposed adjustment set"
+                if row.measured
+                else "Unmeasured: cannot be adjusted for"
+            )
+            flags = Qt.ItemFlag.ItemIsEnabled | Qt.ItemFlag.ItemIsSelectable
+            if row.measured:
+                flags |= Qt.ItemFlag.ItemIsUserCheckable
+            if item.flags() != flags:
+                item.setFlags(flags)
+            state = Qt.CheckState.Checked if row.proposed else Qt.CheckState.Unchecked
+            if item.data(Qt.ItemDataRole.CheckStateRole) is None or item.checkState() != state:
+                item.setCheckState(state)
+        if tip is not None and item.toolTip() != tip:
+            item.setToolTip(tip)
 
     def selected_node(self) -> str | None:
         rows = {i.row() for i in self.table.selectedItems()}
@@ -205,6 +220,7 @@ class ReviewTable(QWidget):
         row = self._rows[item.row()]
         checked = item.checkState() == Qt.CheckState.Checked
         if checked != row.proposed:
+            self._shown = None  # the box shows the click, the project may refuse it: redo
             self.proposed_toggled.emit(row.node, checked)
 
     def _show_detail(self) -> str | None:

@@ -14,7 +14,9 @@ cancellation.
 from __future__ import annotations
 
 import copy
+import math
 import threading
+import time
 import traceback
 from collections.abc import Callable
 from typing import Any
@@ -104,8 +106,22 @@ class _Token:
         return self._event.is_set()
 
 
+#: digits dropped: what stays names the stage of a progress line ("Fitting model of")
+_NO_DIGITS = str.maketrans("", "", "0123456789")
+
+
 class _Runner(QObject):
-    """Shared machinery: generations, cancel tokens, one private pool."""
+    """Shared machinery: generations, cancel tokens, one private pool.
+
+    ``progress_every`` (seconds) thins the progress lines a job sends to the
+    GUI thread: a line within that time of the last one sent, and of the
+    same stage (the same words but for the numbers), is dropped, so a
+    thousand passes over the rows cost the GUI thread a few updates a second.
+    """
+
+    progress_every = 0.0
+    #: the clock ``progress_every`` reads (seconds)
+    clock: Callable[[], float] = staticmethod(time.monotonic)
 
     def __init__(self, parent: QObject | None = None, threads: int = 2) -> None:
         super().__init__(parent)
@@ -141,7 +157,15 @@ class _Runner(QObject):
         self._token = token
         bridge = self._bridge
 
+        every, clock = self.progress_every, self.clock
+        sent: list[Any] = [-math.inf, None]  # when the last line was sent, and its stage
+
         def progress(fraction: float, text: str = "") -> None:
+            if every:
+                now, stage = clock(), str(text).translate(_NO_DIGITS)
+                if now - sent[0] < every and stage == sent[1]:
+                    return
+                sent[:] = [now, stage]
             bridge.progress.emit(generation, float(fraction), str(text))
 
         self._running = True
@@ -176,6 +200,9 @@ class AnalysisRunner(_Runner):
     finished = Signal(int, object)
     failed = Signal(int, str)
     discarded = Signal(int)
+
+    #: at most about 20 progress lines a second of one stage reach the window
+    progress_every = 0.05
 
     def __init__(
         self,

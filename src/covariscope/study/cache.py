@@ -156,12 +156,6 @@ class StudyCache:
                     found[item] = value
         return {item: found[item] for item in keys if item in found}
 
-    def peek(self, stage: str, key: Hashable) -> Any:
-        """The stored result or None, without counting or reordering."""
-        with self._lock:
-            hit = self._entries.get((stage, key))
-            return None if hit is None else hit[0]
-
     def put(self, stage: str, key: Hashable, value: object, size: int) -> None:
         """Store a result (the first stored wins when two threads raced)."""
         full = (stage, key)

@@ -13,6 +13,7 @@ from covariscope.analysis.claim_wording import (
     untestable_words,
 )
 from covariscope.analysis.collinearity import CollinearityReport
+from covariscope.analysis.families import family_of
 from covariscope.analysis.fits import Fit
 from covariscope.analysis.proposal_wording import (
     PROPOSED_SET,
@@ -28,7 +29,6 @@ from covariscope.vocabulary import (
     CAUTIONS,
     CHANGE_SIGN,
     CHANGE_SIGN_RATIO,
-    RATIO_FAMILIES,
     REVIEW_COLUMN_TERMS,
     ROLE_TERMS,
     VERDICT_TERMS,
@@ -122,7 +122,7 @@ def format_study_text(result: StudyResult) -> str:
             change = change_read(
                 e.added.change_pct if e.added.change_defined else None,
                 e.added.change_pct_ratio,
-                ratio=result.family in RATIO_FAMILIES,
+                ratio=family_of(result.family).ratio,
             )
             se = e.added.se_inflation_pct
             vif = e.vif  # of the covariate in the full model; none when it is not a candidate
@@ -131,7 +131,7 @@ def format_study_text(result: StudyResult) -> str:
             f"{verdict_label(v.code):<{verdict_w}} {_fmt(change, '+.1f'):>9} "
             f"{_fmt(se, '+.1f'):>10} {_fmt(vif, '.2f'):>7}"
         )
-    ratio = result.family in RATIO_FAMILIES
+    ratio = family_of(result.family).ratio
     lines.append(
         "change % and SE infl %: the covariate added alone to the crude model; "
         "VIF: the covariate in the full model (– when it is not a candidate)."

@@ -7,8 +7,8 @@ import math
 from collections.abc import Mapping, Sequence
 from typing import TypeGuard
 
+from covariscope.analysis.families import family_of
 from covariscope.analysis.fits import Fit
-from covariscope.vocabulary import RATIO_FAMILIES
 
 __all__ = ["DASH", "fit_ok", "is_number", "number", "percent", "ratio_family", "term_names"]
 
@@ -42,7 +42,7 @@ def percent(value: object, digits: int = 1) -> str:
 
 def ratio_family(family: str | None) -> bool:
     """True when the family's estimate is a ratio (shown on the exp scale)."""
-    return family in RATIO_FAMILIES
+    return family is not None and family_of(family).ratio
 
 
 def fit_ok(fit: Fit | None) -> bool:

@@ -13,6 +13,7 @@ from __future__ import annotations
 from collections.abc import Mapping
 from dataclasses import dataclass
 
+from covariscope.analysis.families import family_of
 from covariscope.analysis.joint_region import CollinearityPicture
 from covariscope.views.format import number
 
@@ -74,7 +75,7 @@ def picture_views(
         names = [labels.get(m, m) for m in pic.members]
         pair = next(p for p in pic.pairs if node in p.members)
         i, j = (pic.members.index(m) for m in pair.members)
-        log_scale = pic.family != "linear"
+        log_scale = family_of(pic.family).ratio
         own = [
             (("−" if pic.scale[k] < 0 else "") + names[k], b, lo, hi)
             for k, (b, _, lo, hi) in enumerate(pic.total.own)

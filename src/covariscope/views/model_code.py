@@ -16,12 +16,14 @@ from __future__ import annotations
 
 import keyword
 import re
-from collections.abc import Mapping
+from collections.abc import Callable, Mapping
 from dataclasses import dataclass
 from pathlib import PurePath
 from typing import Any
 
+from covariscope.analysis.families import family_of
 from covariscope.analysis.model_terms import ModelTerm
+from covariscope.model.project import Project
 from covariscope.study.prepare import outcome_columns
 from covariscope.study.result import StudyResult
 from covariscope.vocabulary import CONCEPT_TERMS, family_term
@@ -180,7 +182,7 @@ def _number(text: str) -> float | None:
         return None
 
 
-def _literal(value: Any) -> str:
+def _literal(value: object) -> str:
     """A reference level as a Python (and R) literal."""
     if isinstance(value, bool):
         return "True" if value else "False"
@@ -257,7 +259,7 @@ def _stata_term(t: Term) -> str:
 # -- the model --------------------------------------------------------------------------
 
 
-def _term(node_column: str, facts: ModelTerm | None, references: Mapping[str, Any]) -> Term:
+def _term(node_column: str, facts: ModelTerm | None, references: Mapping[str, object]) -> Term:
     if facts is None:
         return Term(node_column, "continuous")
     return Term(
@@ -270,7 +272,7 @@ def _term(node_column: str, facts: ModelTerm | None, references: Mapping[str, An
 
 
 def _model(
-    result: StudyResult, project: Any, members: tuple[str, ...], data_path: str | None
+    result: StudyResult, project: Project, members: tuple[str, ...], data_path: str | None
 ) -> _Model | None:
     columns = {n.id: n.column for n in project.diagram.nodes}
     x_col, y_col = columns.get(result.exposure), columns.get(result.outcome)
@@ -295,7 +297,7 @@ def _model(
     )
 
 
-def _rhs(m: _Model, term: Any) -> list[str]:
+def _rhs(m: _Model, term: Callable[[Term], str]) -> list[str]:
     return [term(m.exposure), *(term(t) for t in m.covariates)]
 
 
@@ -304,7 +306,7 @@ def _formula(m: _Model) -> str:
     rhs = _rhs(m, _r_term)
     if m.offset:
         rhs.append(f"offset({r_name(m.offset)})")
-    if m.family == "cox":
+    if family_of(m.family).survival:
         lhs = f"Surv({r_name(m.time or '?')}, {r_name(m.event or '?')})"
     else:
         lhs = r_name(m.outcome or "?")
@@ -352,24 +354,11 @@ def _python(m: _Model, head: str) -> str:
         "# the analytic sample: complete cases on every candidate column",
         f"data = data.dropna(subset=[{', '.join(_py_str(c) for c in m.sample)}]).copy()",
     ]
-    lhs = py_name((m.time if m.family == "cox" else m.outcome) or "?")
+    recipe = family_of(m.family).recipe
+    lhs = py_name((m.time if family_of(m.family).survival else m.outcome) or "?")
     formula = repr(f"{lhs} ~ {rhs}")  # single quotes: Q("…") names read as written
-    if m.family == "linear":
-        fit = f"smf.ols({formula}, data=data).fit()"
-    elif m.family == "logistic":
-        fit = f"smf.logit({formula}, data=data).fit(disp=0)"
-    elif m.family == "risk_ratio":
-        offset = f", offset=data[{_py_str(m.offset)}]" if m.offset else ""
-        fit = (
-            f"smf.glm({formula}, data=data,\n"
-            f'              family=sm.families.Poisson(){offset}).fit(cov_type="HC0")'
-        )
-    else:
-        status = _py_str(m.event or "?")
-        fit = (
-            f"smf.phreg({formula}, data=data,\n"
-            f'               status=data[{status}].to_numpy(), ties="efron").fit()'
-        )
+    offset = recipe.python_offset.format(column=_py_str(m.offset)) if m.offset else ""
+    fit = recipe.python.format(formula=formula, offset=offset, status=_py_str(m.event or "?"))
     lines += [
         f"fit = {fit}",
         "print(fit.summary())",
@@ -379,7 +368,7 @@ def _python(m: _Model, head: str) -> str:
         "estimate, se = np.asarray(fit.params)[rows], np.asarray(fit.bse)[rows]",
         "print(estimate, se)",
     ]
-    if family_term(m.family).ratio:
+    if family_of(m.family).ratio:
         lines.append("print(np.exp(estimate))  # on the ratio scale")
     return "\n".join(lines) + "\n"
 
@@ -420,24 +409,9 @@ def _r(m: _Model, head: str) -> str:
         "# the analytic sample: complete cases on every candidate column",
         f"d <- d[complete.cases(d[, c({', '.join(_py_str(c) for c in m.sample)})]), ]",
     ]
-    if m.family == "linear":
-        lines += [f"fit <- lm({formula}, data = d)", "s <- coef(summary(fit))"]
-    elif m.family == "logistic":
-        lines += [f"fit <- glm({formula}, family = binomial, data = d)", "s <- coef(summary(fit))"]
-    elif m.family == "risk_ratio":
-        lines += [
-            f'fit <- glm({formula}, family = poisson(link = "log"), data = d)',
-            "# robust (HC0 sandwich) standard errors",
-            's <- lmtest::coeftest(fit, vcov. = sandwich::vcovHC(fit, type = "HC0"))',
-        ]
-    else:
-        lines += [
-            "library(survival)",
-            f'fit <- coxph({formula}, data = d, ties = "efron")',
-            "s <- coef(summary(fit))",
-        ]
+    lines += [line.format(formula=formula) for line in family_of(m.family).recipe.r]
     lines.append(f"s[{pick}, , drop = FALSE]  # the exposure's coefficient(s) and SE")
-    if family_term(m.family).ratio:
+    if family_of(m.family).ratio:
         lines.append(f"exp(s[{pick}, 1])  # on the ratio scale")
     return "\n".join(lines) + "\n"
 
@@ -482,23 +456,16 @@ def _stata(m: _Model, head: str) -> str:
             name = stata_name(t.column)
             lines.append(f"mkspline {name}_s = {name}, cubic knots({knots})")
     rhs = " ".join(_stata_term(t) for t in (m.exposure, *m.covariates))
-    y = stata_name(m.outcome or "?")
-    offset = f" offset({stata_name(m.offset)})" if m.offset else ""
-    if m.family == "linear":
-        lines.append(f"regress {y} {rhs}")
-    elif m.family == "logistic":
-        lines.append(f"logit {y} {rhs}")
-    elif m.family == "risk_ratio":
-        lines += [
-            "* vce(robust) scales the sandwich by n/(n-1) (from memory), so its SE is",
-            "* a little larger than the HC0 one Covariscope shows",
-            f"poisson {y} {rhs},{offset} vce(robust) irr",
-        ]
-    else:
-        lines += [
-            f"stset {stata_name(m.time or '?')}, failure({stata_name(m.event or '?')})",
-            f"stcox {rhs}, efron nohr",
-        ]
+    recipe = family_of(m.family).recipe
+    offset = recipe.stata_offset.format(column=stata_name(m.offset)) if m.offset else ""
+    fill = {
+        "y": stata_name(m.outcome or "?"),
+        "rhs": rhs,
+        "offset": offset,
+        "time": stata_name(m.time or "?"),
+        "event": stata_name(m.event or "?"),
+    }
+    lines += [line.format(**fill) for line in recipe.stata]
     return "\n".join(lines) + "\n"
 
 
@@ -506,7 +473,7 @@ def _stata(m: _Model, head: str) -> str:
 
 
 def model_code(
-    result: StudyResult, project: Any, data_path: str | None = None
+    result: StudyResult, project: Project, data_path: str | None = None
 ) -> dict[str, ModelCode | None]:
     """The recommended and the proposed set's model as code, by set key; None
     for a set whose model was not fitted (no data, a member without data).

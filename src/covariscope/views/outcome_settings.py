@@ -11,9 +11,11 @@ from __future__ import annotations
 
 from collections.abc import Mapping
 from dataclasses import dataclass
-from typing import Any
+from types import MappingProxyType
 
-from covariscope.vocabulary import Family, family_term
+from covariscope.analysis.families import FAMILIES, family_of
+from covariscope.data.profile import ColumnProfile
+from covariscope.model.project import Project
 
 __all__ = [
     "OUTCOME_FIELDS",
@@ -24,38 +26,9 @@ __all__ = [
 ]
 
 #: per family, the outcome settings it reads (key, label, explanation)
-OUTCOME_FIELDS: Mapping[str, tuple[tuple[str, str, str], ...]] = {
-    Family.LINEAR: (
-        (
-            "outcome",
-            "Outcome column",
-            "The measured outcome; empty: the column bound to the outcome node.",
-        ),
-    ),
-    Family.LOGISTIC: (
-        (
-            "outcome",
-            "Binary outcome column",
-            "A yes/no column (0/1) the logistic model reads; empty: the outcome node's column.",
-        ),
-    ),
-    Family.RISK_RATIO: (
-        (
-            "outcome",
-            "Binary or count outcome column",
-            "A yes/no or count column; empty: the outcome node's column.",
-        ),
-        (
-            "offset",
-            "Offset column (optional)",
-            "The log of person-time for a rate ratio; empty: no offset.",
-        ),
-    ),
-    Family.COX: (
-        ("time", "Time column", "Follow-up time to the event or to censoring."),
-        ("event", "Event column", "1 when the event happened, 0 when the time was censored."),
-    ),
-}
+OUTCOME_FIELDS: Mapping[str, tuple[tuple[str, str, str], ...]] = MappingProxyType(
+    {f.code.value: tuple((o.key, o.label, o.explanation) for o in f.fields) for f in FAMILIES}
+)
 
 #: what the fix offered with a blocker does
 FIX_OUTCOME_COLUMNS = "outcome_columns"
@@ -72,26 +45,30 @@ class Blocker:
     fix_label: str
 
 
-def outcome_column_in_use(project: Any, family: str | None = None) -> str | None:
+def outcome_column_in_use(project: Project, family: str | None = None) -> str | None:
     """The data column the family's model reads as its outcome (for Cox:
     the event column, the time being in ``family_columns``)."""
     family = family or project.analysis.family
     chosen = project.analysis.family_columns.get(family, {})
-    if family == Family.COX:
-        event: str | None = chosen.get("event")
-        return event
+    fam = family_of(family)
+    if fam.survival:
+        column: str | None = chosen.get(fam.outcome_key)
+        return column
     outcome = project.diagram.outcome
     node_column = outcome.column if outcome is not None else None
     return chosen.get("outcome") or node_column
 
 
-def _column_type(project: Any, profiles: Mapping[str, Any] | None, column: str) -> str:
+def _column_type(
+    project: Project, profiles: Mapping[str, ColumnProfile] | None, column: str
+) -> str:
     saved = project.analysis.column_types.get(column)
-    return saved or str(getattr((profiles or {}).get(column), "type", "") or "")
+    profile = (profiles or {}).get(column)
+    return saved or (profile.type if profile is not None else "")
 
 
 def blockers(
-    project: Any, profiles: Mapping[str, Any] | None, *, data_loaded: bool
+    project: Project, profiles: Mapping[str, ColumnProfile] | None, *, data_loaded: bool
 ) -> list[Blocker]:
     """What keeps the analysis from using the data (empty: nothing)."""
     d = project.diagram
@@ -100,7 +77,8 @@ def blockers(
     if not data_loaded:
         return []
     family = project.analysis.family
-    model = family_term(family).model
+    fam = family_of(family)
+    model = fam.term.model
     out: list[Blocker] = []
     if d.exposure.column is None:
         out.append(
@@ -112,8 +90,8 @@ def blockers(
             )
         )
     chosen = project.analysis.family_columns.get(family, {})
-    if family == Family.COX:
-        lacking = [w for w in ("time", "event") if not chosen.get(w)]
+    if fam.survival:
+        lacking = [w for w in fam.keys if w != "offset" and not chosen.get(w)]
         if lacking:
             out.append(
                 Blocker(
@@ -134,11 +112,10 @@ def blockers(
                 "Bind a column…",
             )
         )
-    elif family in (Family.LOGISTIC, Family.RISK_RATIO):
+    elif fam.outcome_types:
         kind = _column_type(project, profiles, column)
-        allowed = ("binary",) if family == Family.LOGISTIC else ("binary", "count")
-        if kind and kind not in allowed:
-            need = "a yes/no (binary)" if family == Family.LOGISTIC else "a yes/no or count"
+        if kind and kind not in fam.outcome_types:
+            need = fam.outcome_need
             out.append(
                 Blocker(
                     f"The {model} needs {need} outcome, but the column {column} is {kind}; "
@@ -151,7 +128,7 @@ def blockers(
 
 
 def family_columns_after(
-    project: Any, family: str, chosen: Mapping[str, str | None]
+    project: Project, family: str, chosen: Mapping[str, str | None]
 ) -> dict[str, dict[str, str]]:
     """The project's ``family_columns`` once ``chosen`` (key → column, None:
     not set) is the choice for ``family``."""

@@ -1,5 +1,9 @@
 """Model families: one object per family, looked up by its code.
 
+Each family is the ``FAMILY`` of the module named by its code
+(:mod:`~covariscope.analysis.families.linear`, ``logistic``, ``risk_ratio``,
+``cox``); the registry lists them in the vocabulary's order.
+
 >>> family_of("logistic").ratio, family_of("linear").least_squares
 (True, True)
 >>> [f.code.value for f in FAMILIES]

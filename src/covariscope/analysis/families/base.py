@@ -4,8 +4,9 @@ A family names its words (the vocabulary's :class:`~covariscope.vocabulary.Famil
 the outcome columns it reads, the checks on them, the fitter that estimates it,
 the cautions its evidence carries and how other programs write the same model.
 The rest of the program asks the family object and never compares family codes:
-adding a family is its own module and one line of
-:mod:`covariscope.analysis.families.registry`.
+adding a family is its words in :mod:`covariscope.vocabulary` and its own module
+in this package, named by its code and exporting ``FAMILY``
+(:mod:`covariscope.analysis.families.registry` reads it).
 """
 
 from __future__ import annotations
@@ -96,8 +97,6 @@ class GlmLink:
     saturated_term: bool = False
     #: what the events-per-parameter caution counts
     events_word: str = "events"
-    #: how the standard error is computed, in the trade's words
-    se_words: str = ""
 
     def block_sums(self, y: Array, eta: Array) -> tuple[float, Array, Array, float, float]:
         """Deviance part, residual y − μ, Newton weight, smallest and largest μ of one block."""
@@ -154,7 +153,9 @@ class ModelFamily:
     ``outcome_types`` the column types its outcome may have (empty: any);
     ``outcome_need`` the words for that requirement; ``count_outcome`` True
     when a whole-number outcome is a count (rate ratio); ``cautions`` the
-    sentences every evidence table of the family carries.
+    sentences every evidence table of the family carries; ``memory_reason``
+    why its fitter needs the rows in memory (empty: sums over rows left in
+    their source suffice).
     """
 
     code: Family
@@ -166,6 +167,7 @@ class ModelFamily:
     count_outcome: bool = False
     cautions: tuple[str, ...] = ()
     link: GlmLink | None = None
+    memory_reason: str = ""
 
     # -- words ------------------------------------------------------------------
 
@@ -226,7 +228,7 @@ class ModelFamily:
     @property
     def row_sums(self) -> bool:
         """True when its models can be fitted from sums over rows left in their source."""
-        return self.fitter is not Fitter.COX
+        return not self.memory_reason
 
     @property
     def glm(self) -> GlmLink:

@@ -18,7 +18,7 @@ from covariscope.analysis.families.base import (
 from covariscope.errors import DataError
 from covariscope.vocabulary import Family
 
-__all__ = ["COX"]
+__all__ = ["FAMILY"]
 
 
 class _Cox(ModelFamily):
@@ -44,7 +44,7 @@ class _Cox(ModelFamily):
 
 #: Cox regression by partial likelihood (Cox 1972), ties by Efron's method
 #: (Efron 1977); no intercept, and the rows must be in memory.
-COX = _Cox(
+FAMILY = _Cox(
     code=Family.COX,
     fields=(
         OutcomeField("time", "Time column", "Follow-up time to the event or to censoring."),
@@ -53,6 +53,7 @@ COX = _Cox(
         ),
     ),
     fitter=Fitter.COX,
+    memory_reason="the risk sets are sums over rows sorted by time",
     recipe=CodeRecipe(
         python=(
             "smf.phreg({formula}, data=data,\n"

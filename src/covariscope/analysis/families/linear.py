@@ -5,11 +5,11 @@ from __future__ import annotations
 from covariscope.analysis.families.base import CodeRecipe, Fitter, ModelFamily, OutcomeField
 from covariscope.vocabulary import Family
 
-__all__ = ["LINEAR"]
+__all__ = ["FAMILY"]
 
 #: Linear regression by ordinary least squares, from the cached cross-product
 #: matrix; t intervals and F tests on the residual degrees of freedom.
-LINEAR = ModelFamily(
+FAMILY = ModelFamily(
     code=Family.LINEAR,
     fields=(
         OutcomeField(

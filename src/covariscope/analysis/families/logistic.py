@@ -19,7 +19,7 @@ from covariscope.analysis.families.base import (
 from covariscope.errors import DataError
 from covariscope.vocabulary import Family
 
-__all__ = ["LOGISTIC", "LogitLink"]
+__all__ = ["FAMILY", "LogitLink"]
 
 
 class LogitLink(GlmLink):
@@ -28,7 +28,6 @@ class LogitLink(GlmLink):
 
     two_sided_separation = True
     events_word = "outcomes in the rarer class"
-    se_words = "binomial, logit link; model-based SE (observed information)"
 
     def block_sums(self, y: Array, eta: Array) -> tuple[float, Array, Array, float, float]:
         """One e = exp(−|η|) serves all: log(1 + eᶯ) = max(η, 0) + log1p(e),
@@ -131,7 +130,7 @@ class _Logistic(ModelFamily):
 
 
 #: Logistic regression by Newton–Raphson on the binomial likelihood.
-LOGISTIC = _Logistic(
+FAMILY = _Logistic(
     code=Family.LOGISTIC,
     fields=(
         OutcomeField(

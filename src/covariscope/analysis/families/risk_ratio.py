@@ -21,7 +21,7 @@ from covariscope.analysis.families.base import (
 from covariscope.errors import DataError
 from covariscope.vocabulary import Family
 
-__all__ = ["RISK_RATIO", "PoissonLink"]
+__all__ = ["FAMILY", "PoissonLink"]
 
 
 class PoissonLink(GlmLink):
@@ -30,7 +30,6 @@ class PoissonLink(GlmLink):
 
     robust = True
     saturated_term = True
-    se_words = "Poisson, log link; robust HC0 sandwich SE (Zou 2004)"
 
     def block_sums(self, y: Array, eta: Array) -> tuple[float, Array, Array, float, float]:
         """μ = exp(η) (η capped at 700), the weight μ, deviance 2(Σμ − y'η)."""
@@ -125,7 +124,7 @@ def _negative(column: str) -> DataError:
 
 
 #: Log-link Poisson regression with robust standard errors (Zou 2004).
-RISK_RATIO = _RiskRatio(
+FAMILY = _RiskRatio(
     code=Family.RISK_RATIO,
     fields=(
         OutcomeField(

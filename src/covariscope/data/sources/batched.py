@@ -23,7 +23,7 @@ import numpy as np
 import pandas as pd
 
 from covariscope.analysis.design import Design, TermCoding, plan_term
-from covariscope.analysis.rows import RowBatch, fits_from_rows
+from covariscope.analysis.rows import RowBatch, fits_from_rows, rows_in_memory_words
 from covariscope.data.loading import file_sha256
 from covariscope.data.profile import LEVEL_TYPES, ColumnProfile, match_level, profile_table
 from covariscope.data.sample import AnalyticSample, check_known, no_rows_error, summary_text
@@ -265,12 +265,13 @@ class BatchSource(ABC):
         return self._sample
 
     def design(self, request: DesignRequest, messages: list[str]) -> Design:
-        """The design, its sums read from the source; Cox models read the rows into memory."""
+        """The design, its sums read from the source; a family that needs its rows
+        in memory (Cox) reads them."""
         needed = tuple(dict.fromkeys(u.column for u in request.uses))
         if not fits_from_rows(request.family):
             messages.append(
-                "Cox models need every row of the analytic sample in memory (the risk sets are "
-                f"sums over rows sorted by time); {self.engine} read them into memory for this study."
+                f"{rows_in_memory_words(request.family)}; {self.engine} read them into memory "
+                "for this study."
             )
             return frame_design(
                 self.reduce_frames(needed, _identity, _concat, complete=True), request

@@ -292,11 +292,27 @@ class DiagramScene(QGraphicsScene):
 
     # -- analysis overlays -----------------------------------------------------------
     def set_annotations(self, roles: dict[str, str], verdicts: dict[str, tuple[str, str]]) -> None:
-        """Show each covariate's role and verdict; empty dicts clear them."""
+        """Show each covariate's role and verdict; empty dicts clear them.
+        Only the nodes whose words changed, and their links, are redrawn."""
+        changed = {
+            n
+            for n in self.nodes
+            if (roles.get(n), verdicts.get(n)) != (self.roles.get(n), self.verdicts.get(n))
+        }
         self.roles, self.verdicts = dict(roles), dict(verdicts)
-        for node_id, item in self.nodes.items():
-            item.set_annotation(self.roles.get(node_id), self.verdicts.get(node_id))
-        self._update_links()
+        for node_id in changed:
+            self.nodes[node_id].set_annotation(self.roles.get(node_id), self.verdicts.get(node_id))
+        if changed:
+            self._update_links_of(changed)
+
+    def _update_links_of(self, nodes: set[str]) -> None:
+        for store in (self.arrows, self.proxies):
+            for pair, item in store.items():
+                if nodes.intersection(pair):
+                    item.update_geometry()
+        hint = self.suggestion
+        if hint is not None and nodes.intersection(hint.pair) and shiboken6.isValid(hint):
+            hint.update_geometry()
 
     def highlight_path(self, path: list[str] | None) -> None:
         """Highlight a path's nodes and links; None clears.  A measure group
