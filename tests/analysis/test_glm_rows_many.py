@@ -61,7 +61,7 @@ def test_models_fitted_together_equal_the_models_fitted_alone(family: str) -> No
     together = Batches(values)
     many = fit_glm_rows_many(together, models, family, outcome=outcome)
     alone_reads = 0
-    for m, (fit, params, cov) in zip(models, many, strict=True):
+    for m, (fit, params, _) in zip(models, many, strict=True):
         alone = Batches(values)
         ref, ref_params, _ = fit_glm_rows(
             alone,
@@ -74,8 +74,10 @@ def test_models_fitted_together_equal_the_models_fitted_alone(family: str) -> No
             reach=m.reach,
         )
         alone_reads += alone.reads
-        assert fit.ok and ref.ok
-        assert params is not None and ref_params is not None
+        assert fit.ok
+        assert ref.ok
+        assert params is not None
+        assert ref_params is not None
         np.testing.assert_allclose(params, ref_params, rtol=1e-12, atol=1e-14)
         assert fit.se == pytest.approx(ref.se, rel=1e-12)
     assert together.reads < alone_reads / 2
