@@ -258,7 +258,7 @@ def storm(
     """Open ``project_path`` in the window, fire the storm, let it settle; the figures."""
     from PySide6.QtCore import QStandardPaths
 
-    from covariscope.qt.app import application
+    from covariscope.qt.app import application, start_warmup
     from covariscope.qt.main_window import MainWindow
     from covariscope.qt.stall_meter import StallMeter
     from covariscope.views.check_json import study_to_json
@@ -270,6 +270,7 @@ def storm(
     w = MainWindow(prompts=QuietPrompts())  # type: ignore[arg-type]
     w.resize(1366, 768)
     w.show()
+    start_warmup()  # as the program's own start does (qt.app.start_window)
     t0 = time.perf_counter()
     assert w.io.open(str(project_path))
     _run_until(app, lambda: _settled(w), timeout=1800)

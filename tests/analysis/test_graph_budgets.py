@@ -269,3 +269,45 @@ def test_claims_below_the_budget_are_the_same_as_unbounded(seed: int) -> None:
     # each claim is a true d-separation (networkx)
     for c in got.claims:
         assert nx.is_d_separator(G, {c.a}, {c.b}, set(c.given))
+
+
+# -- the path count ------------------------------------------------------------
+
+
+def _hubs(spokes: int) -> nx.DiGraph:
+    """x ← s_i → y for every spoke, and a tail t2 → t1 → t0 → x: exactly
+    ``spokes`` backdoor paths.  The counter's arrow order starts from the
+    tail's end, which takes all arrows into y first: every spoke is then on
+    the frontier at once."""
+    G = nx.DiGraph([("x", "y"), ("t2", "t1"), ("t1", "t0"), ("t0", "x")])
+    for i in range(spokes):
+        G.add_edges_from([(f"s{i}", "x"), (f"s{i}", "y")])
+    return _kinds(G)
+
+
+def test_a_count_across_two_hubs_stops_at_its_budget(monkeypatch: pytest.MonkeyPatch) -> None:
+    from covariscope.analysis import paths
+    from covariscope.analysis.graph import backdoor_paths
+
+    # the counter sorts each new state's frontier entries: count them
+    handled = [0]
+
+    def counted(items, **kwargs):  # type: ignore[no-untyped-def]
+        out = sorted(items, **kwargs)
+        handled[0] += len(out)
+        return out
+
+    monkeypatch.setattr(paths, "sorted", counted, raising=False)
+    # once spent, the count stops outright: carrying one state per arrow
+    # would still cost 3,000 frontier entries on each of 6,000 arrows
+    got = backdoor_paths(_hubs(3000), "x", "y", cap=10)
+    assert handled[0] < 4 * paths.COUNT_BUDGET + 50_000
+    monkeypatch.undo()
+    assert got.truncated
+    assert not got.total_exact
+    assert 10 < got.total <= 3000
+    small = _hubs(12)
+    exact = backdoor_paths(small, "x", "y", cap=5)
+    assert exact.total_exact
+    # reference: plain enumeration with networkx.all_simple_paths
+    assert exact.total == len(reference_open_paths(small, set())) == 12

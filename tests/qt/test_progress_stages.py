@@ -51,6 +51,9 @@ def test_progress_label_names_both_tables(qtbot, window, demo, wait_for_analysis
     assert all(t.endswith(" of 11") for t in modification)
     assert all(t.endswith(" of 5") for t in residual)
     assert shown.index(modification[-1]) < shown.index(residual[0])
+    claims = [t for t in shown if t.startswith("Checking the diagram against the data: claim")]
+    assert claims[0].startswith("Checking the diagram against the data: claim 1 of ")
+    assert shown.index(residual[-1]) < shown.index(claims[0])
 
 
 def test_cancel_stops_effect_modification_between_two_fits(qtbot, window, demo):

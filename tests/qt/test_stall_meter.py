@@ -67,3 +67,17 @@ def test_meter_beats_on_the_event_loop(qtbot):
     beats = meter.log.beats
     qtbot.wait(20)
     assert meter.log.beats == beats  # stopped
+
+
+def test_the_window_start_warms_the_slow_imports_in_the_background():
+    import sys
+
+    from covariscope.qt.app import WARM_MODULES, start_warmup, warm_imports
+
+    # a module that is not installed is left to fail where it is used
+    assert warm_imports(("covariscope.no_such_module", "json")) == ["json"]
+    thread = start_warmup()
+    assert thread.daemon
+    thread.join(120)
+    assert not thread.is_alive()
+    assert all(name in sys.modules for name in WARM_MODULES)

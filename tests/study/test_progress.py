@@ -51,8 +51,10 @@ def _study() -> tuple[object, LoadedTable]:
     return project, LoadedTable(frame, Path("progress.csv"), "text", "2" * 64)
 
 
-def _models(said: list[tuple[float, str]], words: str) -> list[tuple[int, int]]:
-    pattern = re.compile(rf"{words}: model (\d+) of (\d+)$")
+def _models(
+    said: list[tuple[float, str]], words: str, unit: str = "model"
+) -> list[tuple[int, int]]:
+    pattern = re.compile(rf"{words}: {unit} (\d+) of (\d+)$")
     return [
         (int(m.group(1)), int(m.group(2))) for _, t in said if (m := pattern.match(t)) is not None
     ]
@@ -104,3 +106,29 @@ def test_cancel_stops_the_table_between_two_fits(words):
     assert said[-1].startswith(f"{words}: model 2 of")  # model 3 never started
     stage = "modification" if "modification" in words else "residual"
     assert not cache.entries(stage)  # nothing half-done is kept
+
+
+def test_diagram_checks_announce_each_claim_and_a_cancel_keeps_no_partial_checks():
+    # c1..c3 and m each cause x and y and nothing else: every pair of them is a
+    # claim of independence the data are asked about
+    project, table = _study()
+    said: list[tuple[float, str]] = []
+    fresh = run_study(project, table=table, progress=lambda f, t: said.append((f, t)))
+    assert fresh.diagram_checks is not None
+    claims = _models(said, "Checking the diagram against the data", unit="claim")
+    n = fresh.diagram_checks.tested
+    assert n >= 6
+    assert claims == [(k, n) for k in range(1, n + 1)]
+    cache = StudyCache()
+    stop = [False]
+
+    def progress(fraction: float, text: str) -> None:
+        if text.endswith(f"claim 2 of {n}"):
+            stop[0] = True  # a newer edit arrives while claim 2 is tested
+
+    with pytest.raises(EvidenceCancelledError):
+        run_study(project, table=table, cache=cache, progress=progress, cancel=lambda: stop[0])
+    again = run_study(project, table=table, cache=cache)  # the same diagram, not cancelled
+    assert again.diagram_checks is not None
+    assert again.diagram_checks.tested == n
+    assert not again.diagram_checks.warnings

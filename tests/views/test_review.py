@@ -10,6 +10,8 @@ from covariscope.model.project import Project
 from covariscope.views.format import DASH, number, percent
 from covariscope.views.review import (
     REVIEW_COLUMNS,
+    open_paths,
+    paths_summary,
     proposed_after_toggle,
     review_rows,
     role_words,
@@ -62,3 +64,32 @@ def test_csv_has_a_row_per_covariate(demo_study):
     table = list(csv.reader(io.StringIO(text)))
     assert table[0][1 : 1 + len(REVIEW_COLUMNS)] == list(REVIEW_COLUMNS)
     assert {r[0] for r in table[1:]} == set(js["covariates"])
+
+
+def _labels(project):
+    return {n.id: n.label for n in project.diagram.nodes}
+
+
+def test_paths_summary_says_why_a_set_falls_short(make):
+    project = make.project(3)  # covariate 1, a confounder, is not proposed
+    result = make.result(project, data=False)
+    assert open_paths(result) == [("shift", "c1", "sbp")]
+    text = paths_summary(result, _labels(project))
+    assert text.startswith("The proposed set is not sufficient")
+    assert text.endswith(" Choose a path to see it on the diagram.")
+
+
+def test_paths_summary_names_what_a_sufficient_set_can_do_without(make):
+    project = make.project(3)
+    project.analysis.proposed = ["c0", "c1", "c2"]  # covariate 0 closes covariate 2's path
+    result = make.result(project, data=False)
+    assert open_paths(result) == []
+    assert paths_summary(result, _labels(project)) == (
+        "The proposed set is sufficient: it closes every backdoor path. "
+        "Unnecessary in it: Covariate number 2."
+    )
+
+
+def test_paths_before_an_analysis():
+    assert open_paths(None) == []
+    assert paths_summary(None, {}) == "No analysis yet."

@@ -454,6 +454,15 @@ def _test_claim(fits: _Fits, claim: Claim) -> ClaimOutcome:
     return reported, strength_of(d, sr, sp, st)
 
 
+def _announced(
+    on_claim: Callable[[int, int], None] | None, k: int, n: int, fits: _Fits, claim: Claim
+) -> ClaimOutcome:
+    """Claim ``k`` of ``n`` tested, after ``on_claim`` heard of it."""
+    if on_claim is not None:
+        on_claim(k, n)
+    return _test_claim(fits, claim)
+
+
 def check_claims(
     claims: ClaimSet,
     data: ClaimData,
@@ -462,6 +471,7 @@ def check_claims(
     alpha: float = 0.05,
     cancel: Callable[[], bool] | None = None,
     memo: ClaimMemo | None = None,
+    on_claim: Callable[[int, int], None] | None = None,
 ) -> DiagramChecks:
     """Test every claim and adjust the p-values for multiplicity.
 
@@ -484,6 +494,10 @@ def check_claims(
         separating set (the caller's cache: a diagram edit retests only the
         claims it changed).  The multiplicity correction always runs on the
         whole set.
+    on_claim : callable, optional
+        ``on_claim(k, n)`` is called before claim ``k`` of ``n`` is tested
+        (not for an answer ``memo`` kept); what it raises stops the run
+        between two claims.
 
     Examples
     --------
@@ -502,15 +516,13 @@ def check_claims(
     done: list[tuple[Claim, DirectionTest, Strength]] = []
     unfit: list[Untestable] = []
     stopped: tuple[str, ...] = ()
-    for claim in claims.claims:
+    total = len(claims.claims)
+    for k, claim in enumerate(claims.claims, start=1):
         if cancel is not None and cancel():
-            stopped = (f"Stopped after {len(done)} of {len(claims.claims)} claims.",)
+            stopped = (f"Stopped after {len(done)} of {total} claims.",)
             break
-        outcome = (
-            _test_claim(fits, claim)
-            if memo is None
-            else memo(claim, partial(_test_claim, fits, claim))
-        )
+        test = partial(_announced, on_claim, k, total, fits, claim)
+        outcome = test() if memo is None else memo(claim, test)
         if isinstance(outcome, str):
             unfit.append(Untestable(claim.a, claim.b, "no_fit", detail=outcome))
         else:

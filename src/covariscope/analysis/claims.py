@@ -221,7 +221,9 @@ def implied_claims(
         with_data.setdefault(construct_of[node], []).append(node)
     claims: list[Claim] = []
     untestable: list[Untestable] = []
-    ancestors = {v: nx.ancestors(M, v) for v in M} if memo is not None else {}
+    # only the constructs with data are ever one of a pair (all of them: one
+    # search per node of a 20,000-node diagram would cost its square)
+    ancestors = {c: nx.ancestors(M, c) for c in with_data} if memo is not None else {}
     ends = frozenset((exposure, outcome))
     searched = unsearched = 0
     for a, b in _pairs(nodes, ends):

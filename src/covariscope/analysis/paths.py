@@ -361,10 +361,10 @@ def count_backdoor_paths(
     about ``budget`` frontier entries (each state: one per frontier node,
     plus one) are handled in all: what is left of it is shared
     evenly by the arrows still to come, and the states of largest count are
-    carried from one arrow to the next; when any are dropped, ``exact`` is
-    False and ``count`` is a lower bound, because every path counted is a
-    real path and each path is counted once, through its one sequence of
-    states.
+    carried from one arrow to the next; once it is spent the count stops.
+    When any state is dropped, ``exact`` is False and ``count`` is a lower
+    bound, because every path counted is a real path and each path is
+    counted once, through its one sequence of states.
 
     Counted without listing them, by frontier-based dynamic programming over
     the arrows (Knuth's SIMPATH, *The Art of Computer Programming* 4A,
@@ -422,6 +422,11 @@ def count_backdoor_paths(
     spent = 0
     for i, (a, b) in enumerate(edges):
         spent += sum(len(k) + 1 for k in states)
+        if budget is not None and spent > budget:
+            # Spent: the paths completed so far are the lower bound.  (Carrying
+            # even one state per arrow would cost the frontier's width each time,
+            # and a hub joined to a thousand nodes makes it a thousand wide.)
+            return accepted, False
         out: dict[tuple[Entry, ...], int] = {}
         for key, cnt in states.items():
             st = {e[0]: e for e in key}

@@ -29,6 +29,7 @@ from PySide6.QtWidgets import (
 )
 
 from covariscope.qt.tables import filling
+from covariscope.study.result import StudyResult
 from covariscope.views.claims import ClaimRow, claims_view
 from covariscope.vocabulary import CORRECTION_TERMS
 
@@ -117,7 +118,7 @@ class ClaimsPanel(QWidget):
     def rows(self) -> tuple[ClaimRow, ...]:
         return self._rows
 
-    def refresh(self, result: Any) -> None:
+    def refresh(self, result: StudyResult | None) -> None:
         """Show the claims of a study result (None: no analysis yet).
 
         The same result again changes nothing, so a chosen claim and its

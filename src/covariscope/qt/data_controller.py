@@ -25,6 +25,7 @@ from typing import TYPE_CHECKING, Any
 from PySide6.QtCore import QObject
 
 from covariscope.data.profile import ColumnProfile
+from covariscope.data.sample import AnalyticSample
 from covariscope.data.sources.batched import BatchSource
 from covariscope.errors import CovariscopeError
 from covariscope.model.commands import Macro
@@ -32,6 +33,7 @@ from covariscope.model.project import DataRef
 from covariscope.qt.profiling import ProfileRunner
 from covariscope.qt.project_io import DATA_FILTER
 from covariscope.qt.worker import LoadRunner
+from covariscope.study.result import StudyResult
 from covariscope.views.commands import SetData, SetSettings, bind_column
 from covariscope.views.data_panel import matching_bindings
 from covariscope.vocabulary import ENGINE_TERMS, Engine
@@ -294,13 +296,13 @@ class DataController(QObject):
             return list(self.source.columns)
         return [str(c) for c in self.table.frame.columns] if self.table is not None else []
 
-    def plot_frame(self, result: Any) -> Any:
+    def plot_frame(self, result: StudyResult | None) -> Any:
         """The rows the diagnostics plots draw: every loaded row, or, for a file
         read where it lies, the analytic sample's random sample of rows."""
         if self.source is None:
             return self.table.frame if self.table is not None else None
-        sample = getattr(result, "sample", None)
-        return sample.frame if sample is not None else None
+        sample = result.sample if result is not None else None
+        return sample.frame if isinstance(sample, AnalyticSample) else None
 
     def edit_engine(self) -> None:
         """Ask which engine reads the data (saved in the project, one undo step)."""

@@ -8,10 +8,12 @@ the exposure's or outcome's shows its distribution, the model family
 
 from __future__ import annotations
 
+from collections.abc import Mapping
 from pathlib import Path
-from typing import Any
+from typing import Any, TypeGuard
 
 import numpy as np
+import pandas as pd
 from matplotlib.backends.backend_qtagg import FigureCanvasQTAgg
 from matplotlib.figure import Figure
 from PySide6.QtCore import Qt, Signal
@@ -38,9 +40,13 @@ from PySide6.QtWidgets import (
     QWidget,
 )
 
+from covariscope.data.profile import ColumnProfile
+from covariscope.data.sample import AnalyticSample, CompleteCases
+from covariscope.model.project import Project
 from covariscope.qt.joint_plot import draw_picture
 from covariscope.qt.modification_plot import draw_modification
 from covariscope.qt.tables import filling
+from covariscope.study.result import StudyResult
 from covariscope.views.diagnostics import (
     DIAGNOSTIC_CAUTION,
     EndpointDiagnostics,
@@ -52,6 +58,9 @@ from covariscope.views.format import ratio_family
 from covariscope.views.keep_choice import KeepChoice, keep_choice
 from covariscope.views.residual import FORM_CHOICES
 from covariscope.vocabulary import FAMILY_TERMS
+
+#: the column profiles a dialog reads (None before the data are profiled)
+Profiles = Mapping[str, ColumnProfile] | None
 
 __all__ = ["FAMILY_LABELS", "CovariateDialog", "EndpointDialog", "NodeDialog"]
 
@@ -86,7 +95,9 @@ def _table(headers: tuple[str, ...]) -> QTableWidget:
     return t
 
 
-def _analysed_rows(sample: Any, frame: Any, s: NodeDiagnostics) -> Any:
+def _analysed_rows(
+    sample: CompleteCases | AnalyticSample | None, frame: pd.DataFrame | None, s: NodeDiagnostics
+) -> pd.DataFrame | None:
     """The rows the models used (the analytic sample) when it holds both
     columns of the plot, so the picture shows what the numbers came from;
     else the loaded file."""
@@ -222,7 +233,9 @@ class NodeDialog(QDialog):
         self.save_note()
         super().closeEvent(event)
 
-    def refresh(self, project: Any, result: Any, profiles: Any, frame: Any) -> None:
+    def refresh(
+        self, project: Project, result: StudyResult | None, profiles: Profiles, frame: Any
+    ) -> None:
         raise NotImplementedError
 
 
@@ -386,7 +399,9 @@ class CovariateDialog(NodeDialog):
         room = screen.availableGeometry()
         self.resize(min(1000, room.width() - 40), min(820, room.height() - 60))
 
-    def refresh(self, project: Any, result: Any, profiles: Any, frame: Any) -> None:
+    def refresh(
+        self, project: Project, result: StudyResult | None, profiles: Profiles, frame: Any
+    ) -> None:
         s = node_diagnostics(project, result, self.node_id, profiles)
         self.state = s
         self.setWindowTitle(s.title)
@@ -406,7 +421,7 @@ class CovariateDialog(NodeDialog):
         )
         _fill(self.figures, list(s.figures), fit=False)
         measure = f"Estimates: {s.effect_measure}" if s.effect_measure else ""
-        sample = getattr(result, "sample", None)
+        sample = result.sample if result is not None else None
         if measure and sample is not None:
             measure += f"; the same {sample.used:,} rows in every model."
         self.messages.setText(measure)
@@ -415,15 +430,9 @@ class CovariateDialog(NodeDialog):
         self.form_box.setVisible(s.knots is not None)
         if s.knots is not None:
             self.form.setCurrentIndex(max(self.form.findData(s.knots), 0))
-        self._plot_estimates(s, getattr(result, "family", project.analysis.family))
+        self._plot_estimates(s, result.family if result is not None else project.analysis.family)
         rows = _analysed_rows(sample, frame, s)
-        of_rows = (
-            sample.used
-            if sample is not None
-            and getattr(sample, "frame_is_sample", False)
-            and rows is sample.frame
-            else None
-        )
+        of_rows = sample.used if _holds_a_random_sample(sample, rows) else None
         self._plot_data(s, project, profiles, rows, of_rows)
         self._plot_joint(s)
         self._plot_modification(s)
@@ -533,8 +542,8 @@ class CovariateDialog(NodeDialog):
     def _plot_data(
         self,
         s: NodeDiagnostics,
-        project: Any,
-        profiles: Any,
+        project: Project,
+        profiles: Profiles,
         frame: Any,
         of_rows: int | None = None,
     ) -> None:
@@ -560,9 +569,7 @@ class CovariateDialog(NodeDialog):
             data = data.sample(
                 _MAX_POINTS, random_state=0
             )  # a fixed seed: the same picture each time
-        x_type = project.analysis.column_types.get(xcol) or getattr(
-            (profiles or {}).get(xcol), "type", ""
-        )
+        x_type = _column_type(project, profiles, xcol)
         x_cat = x_type in ("binary", "categorical")
         x_name = s.exposure_label or xcol
         if s.categorical and not x_cat:
@@ -661,7 +668,9 @@ class EndpointDialog(NodeDialog):
         layout.addWidget(self.caution)
         layout.addWidget(self.buttons)
 
-    def refresh(self, project: Any, result: Any, profiles: Any, frame: Any) -> None:
+    def refresh(
+        self, project: Project, result: StudyResult | None, profiles: Profiles, frame: Any
+    ) -> None:
         s = endpoint_diagnostics(project, result, self.node_id, profiles)
         self.state = s
         self.setWindowTitle(s.title)
@@ -678,9 +687,7 @@ class EndpointDialog(NodeDialog):
             ax.set_axis_off()
         else:
             values = frame[s.column].dropna()
-            kind = project.analysis.column_types.get(s.column) or getattr(
-                (profiles or {}).get(s.column), "type", ""
-            )
+            kind = _column_type(project, profiles, s.column)
             if kind in ("binary", "categorical") or values.nunique() <= 10:
                 counts = values.value_counts().sort_index()
                 ax.bar(
@@ -695,24 +702,36 @@ class EndpointDialog(NodeDialog):
                 ax.set_ylabel("rows")
             ax.set_xlabel(s.column)
             title = f"Distribution of {s.label}"
-            sample = getattr(result, "sample", None)
-            # only a sample read from a source that keeps its rows holds a random sample
-            if (
-                sample is not None
-                and getattr(sample, "frame_is_sample", False)
-                and frame is sample.frame
-            ):
+            sample = result.sample if result is not None else None
+            if _holds_a_random_sample(sample, frame):
                 title += f"\nrandom sample of {len(values):,} of {sample.used:,} rows"
             ax.set_title(title, fontsize=10)
         self.canvas.draw_idle()
 
 
-def _reference_of(project: Any, profiles: Any, column: str) -> Any:
+def _holds_a_random_sample(
+    sample: CompleteCases | AnalyticSample | None, frame: Any
+) -> TypeGuard[AnalyticSample]:
+    """True when ``frame`` is the analytic sample's random sample of rows (only
+    a sample read from a source that keeps its rows where they lie holds one)."""
+    return isinstance(sample, AnalyticSample) and sample.frame_is_sample and frame is sample.frame
+
+
+def _column_type(project: Project, profiles: Profiles, column: str) -> str:
+    """The type the project sets for ``column``, else the profile's ("" unknown)."""
+    profile = (profiles or {}).get(column)
+    return project.analysis.column_types.get(column) or (profile.type if profile else "")
+
+
+def _reference_of(project: Project, profiles: Profiles, column: str) -> Any:
     saved = project.analysis.reference_levels.get(column)
-    return saved if saved is not None else getattr((profiles or {}).get(column), "reference", None)
+    if saved is not None:
+        return saved
+    profile = (profiles or {}).get(column)
+    return profile.reference if profile is not None else None
 
 
-def _reference_first(project: Any, profiles: Any, column: str, values: Any) -> list[Any]:
+def _reference_first(project: Project, profiles: Profiles, column: str, values: Any) -> list[Any]:
     """The levels in the order the models compare them: the reference level
     first, then the others as sorted text."""
     levels = sorted(values.unique(), key=str)
@@ -725,8 +744,8 @@ def _boxes(
     ax: Any,
     groups: list[Any],
     levels: list[Any],
-    project: Any,
-    profiles: Any,
+    project: Project,
+    profiles: Profiles,
     column: str,
     all_values: Any,
 ) -> None:

@@ -2,10 +2,9 @@
 
 from __future__ import annotations
 
-from typing import Any
-
 from PySide6.QtWidgets import QFrame, QHBoxLayout, QLabel, QVBoxLayout, QWidget
 
+from covariscope.study.result import StudyResult
 from covariscope.views.estimates import estimate_cells, evalue_text
 
 __all__ = ["EstimatesStrip"]
@@ -51,8 +50,8 @@ class EstimatesStrip(QWidget):
         layout.addWidget(self.evalue)
         layout.addStretch(1)
 
-    def refresh(self, result: Any) -> None:
-        measure = getattr(result, "effect_measure", None) if result is not None else None
+    def refresh(self, result: StudyResult | None) -> None:
+        measure = result.effect_measure if result is not None else None
         self.measure.setText(f"Effect measure:\n{measure}" if measure else "Effect measure:\n—")
         for cell in estimate_cells(result):
             widget = self.cells[cell.key]

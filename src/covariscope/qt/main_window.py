@@ -48,6 +48,7 @@ from covariscope.qt.settings_dialogs import ThresholdsDialog
 from covariscope.qt.tables import selected_text
 from covariscope.qt.undo import push
 from covariscope.qt.worker import AnalysisRunner
+from covariscope.study.result import StudyResult
 from covariscope.views.commands import SetSettings
 from covariscope.views.diagnostics import node_labels
 from covariscope.views.diagram import canvas_annotations
@@ -82,7 +83,7 @@ class MainWindow(QMainWindow):
         self.project = Project()
         self.undo_stack = QUndoStack(self)
         self.prompts = prompts or Prompts(self)
-        self.result: Any = None
+        self.result: StudyResult | None = None
         self.selected_ids: list[str] = []
         self.dialogs: dict[str, NodeDialog] = {}
         self.runner = AnalysisRunner(
@@ -353,7 +354,7 @@ class MainWindow(QMainWindow):
             )
         )
 
-    def _analysis_done(self, _generation: int, result: Any) -> None:
+    def _analysis_done(self, _generation: int, result: StudyResult) -> None:
         self.hide_progress()
         self.result = result
         self._mark_review_stale(False)
@@ -362,7 +363,7 @@ class MainWindow(QMainWindow):
         self.scene.set_annotations(notes.roles, notes.verdicts)
         for dialog in self.dialogs.values():
             self._refresh_dialog(dialog)
-        sample = getattr(result, "sample", None)
+        sample = result.sample
         if sample is not None:
             self.rows_label.setText(f"{sample.used:,} of {sample.rows:,} rows used")
         elif self.data.table is not None:
@@ -371,14 +372,11 @@ class MainWindow(QMainWindow):
             self.rows_label.setText("No data loaded")
         self._set_state("Analysis up to date")
         self.show_engine()
-        recomputed = getattr(result, "recomputed", None)
-        if recomputed is not None:
-            # a tooltip, not a status message: a long message would widen the window
-            self.state_label.setToolTip(
-                recompute_summary(recomputed, result.models_fitted, result.seconds)
-            )
-        msgs = getattr(result, "messages", ())
-        self.error_label.setToolTip("\n".join(msgs))
+        # a tooltip, not a status message: a long message would widen the window
+        self.state_label.setToolTip(
+            recompute_summary(result.recomputed, result.models_fitted, result.seconds)
+        )
+        self.error_label.setToolTip("\n".join(result.messages))
 
     def _analysis_failed(self, _generation: int, message: str) -> None:
         self.hide_progress()

@@ -4,7 +4,6 @@ a binary outcome for the logistic and risk-ratio models, an offset)."""
 from __future__ import annotations
 
 from collections.abc import Sequence
-from typing import Any
 
 from PySide6.QtWidgets import (
     QComboBox,
@@ -16,6 +15,7 @@ from PySide6.QtWidgets import (
     QWidget,
 )
 
+from covariscope.model.project import Project
 from covariscope.views.outcome_settings import OUTCOME_FIELDS
 from covariscope.vocabulary import family_term
 
@@ -28,7 +28,9 @@ class OutcomeColumnsDialog(QDialog):
     """One chooser per setting the project's family reads; :meth:`values`
     gives key → column (None: not set)."""
 
-    def __init__(self, project: Any, columns: Sequence[str], parent: QWidget | None = None) -> None:
+    def __init__(
+        self, project: Project, columns: Sequence[str], parent: QWidget | None = None
+    ) -> None:
         super().__init__(parent)
         family = project.analysis.family
         self.setWindowTitle("Outcome columns")

@@ -15,6 +15,7 @@ from covariscope.model.files import check_output_path
 
 if TYPE_CHECKING:
     from covariscope.qt.main_window import MainWindow
+    from covariscope.study.result import StudyResult
 
 __all__ = [
     "export_diagram",
@@ -101,19 +102,20 @@ def export_review_csv(w: MainWindow, path: str | None = None) -> bool:
     return True
 
 
-def _ready(w: MainWindow) -> bool:
+def _ready(w: MainWindow) -> StudyResult | None:
+    """The finished analysis the rationale reads, or None (the user is told why)."""
     if w.result is None:
         w.prompts.warn(
             "No analysis yet",
             "The rationale needs a finished analysis: mark an exposure and an outcome, bind "
             "the data and wait for the status bar to say the analysis is up to date.",
         )
-        return False
-    return True
+    return w.result
 
 
 def print_rationale(w: MainWindow) -> bool:
-    if not _ready(w):
+    result = _ready(w)
+    if result is None:
         return False
     try:
         from covariscope.report.painter import paint_rationale
@@ -133,7 +135,7 @@ def print_rationale(w: MainWindow) -> bool:
     try:
         page = QRectF(printer.pageLayout().paintRectPixels(printer.resolution()))
         page.moveTo(0, 0)
-        paint_rationale(painter, page, build_content(w.result, w.project))
+        paint_rationale(painter, page, build_content(result, w.project))
     finally:
         painter.end()
     w.show_message("Sent the rationale to the printer.")
@@ -141,7 +143,8 @@ def print_rationale(w: MainWindow) -> bool:
 
 
 def save_rationale_pdf(w: MainWindow, path: str | None = None) -> bool:
-    if not _ready(w):
+    result = _ready(w)
+    if result is None:
         return False
     target = Path(path) if path else _ask(w, "pdf", "Save the rationale as PDF", "_rationale")
     if target is None:
@@ -155,7 +158,7 @@ def save_rationale_pdf(w: MainWindow, path: str | None = None) -> bool:
     if target is None:
         return False
     try:
-        written = write_pdf(w.result, w.project, target)
+        written = write_pdf(result, w.project, target)
     except (CovariscopeError, OSError) as exc:
         w.prompts.warn("Could not write the PDF", str(exc))
         return False
@@ -165,10 +168,12 @@ def save_rationale_pdf(w: MainWindow, path: str | None = None) -> bool:
 
 def export_dialog_plots(w: MainWindow, node_id: str) -> list[Path]:
     """Save the plots of ``node_id``'s diagnostics dialog as images (one file per plot)."""
+    from covariscope.qt.diagnostics import CovariateDialog
+
     dialog = w.dialogs.get(node_id)
-    save = getattr(dialog, "save_plots", None)
-    if save is None:
+    if not isinstance(dialog, CovariateDialog):  # only a covariate's dialog has plots to save
         return []
+    save = dialog.save_plots
     target = _ask(w, "png", "Save the diagnostics plots", f"-{node_id}")
     if target is None:
         return []

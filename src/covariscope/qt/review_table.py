@@ -18,22 +18,24 @@ from PySide6.QtWidgets import (
     QWidget,
 )
 
-from covariscope.analysis.adjustment import ProposalReview
-from covariscope.analysis.proposal_wording import sufficiency_sentence, unnecessary_words
+from covariscope.model.project import Project
 from covariscope.qt.keep_menu import add_keep_actions
 from covariscope.qt.tables import filling
+from covariscope.study.result import StudyResult
 from covariscope.views.format import ratio_family
 from covariscope.views.keep_choice import KeepChoice, keep_choice, kept_words
 from covariscope.views.review import (
     MODIFICATION_CAUTION,
     REVIEW_COLUMNS,
     ReviewRow,
+    open_paths,
+    paths_summary,
     review_rows,
     rows_to_csv,
 )
 from covariscope.vocabulary import ReviewColumn, column_tooltip
 
-__all__ = ["PathsPanel", "ReviewTable", "open_paths"]
+__all__ = ["PathsPanel", "ReviewTable"]
 
 _CHECK = len(REVIEW_COLUMNS) - 1
 _VERDICT = _CHECK - 1
@@ -99,10 +101,10 @@ class ReviewTable(QWidget):
     def rows(self) -> list[ReviewRow]:
         return list(self._rows)
 
-    def refresh(self, project: Any, result: Any) -> None:
+    def refresh(self, project: Project, result: StudyResult | None) -> None:
         selected = self.selected_node()
         self._rows = review_rows(project, result)
-        family = getattr(result, "family", None) or project.analysis.family
+        family = (result.family if result is not None else "") or project.analysis.family
         self.set_header_tips(ratio=ratio_family(family))
         self._keep = {
             row.node: choice
@@ -237,31 +239,6 @@ class ReviewTable(QWidget):
             self.node_selected.emit(node)
 
 
-def _review_of(result: Any) -> Any:
-    diagram = getattr(result, "diagram", None)
-    return getattr(diagram, "review", None) or getattr(diagram, "proposal", None)
-
-
-def open_paths(result: Any) -> list[tuple[str, ...]]:
-    """Backdoor paths the proposed set leaves open (node sequences)."""
-    proposal = _review_of(result)
-    out = []
-    for p in getattr(proposal, "open_paths", ()) or ():
-        nodes = getattr(p, "nodes", p)
-        out.append(tuple(nodes))
-    return out
-
-
-def _insufficient_words(
-    result: Any, review: ProposalReview, labels: dict[str, str], listed: bool
-) -> str:
-    """Why the proposed set falls short, in the engine's words, with a hint
-    to pick a listed path."""
-    roles = {c: f.role for c, f in result.diagram.roles.items()}
-    text = f"The proposed set is {sufficiency_sentence(review, roles, labels)}."
-    return text + (" Choose a path to see it on the diagram." if listed else "")
-
-
 class PathsPanel(QWidget):
     """Open backdoor paths under the proposed set; choosing one highlights it."""
 
@@ -282,17 +259,25 @@ class PathsPanel(QWidget):
         layout.addWidget(self.summary)
         layout.addWidget(self.list, 1)
         self._paths: list[tuple[str, ...]] = []
+        #: the result and labels shown now
+        self._shown: tuple[Any, dict[str, str]] | None = None
 
     @property
     def paths(self) -> list[tuple[str, ...]]:
         return list(self._paths)
 
-    def refresh(self, result: Any, labels: dict[str, str] | None = None) -> None:
-        """Show the open paths, each variable named by ``labels`` (id → label)."""
+    def refresh(self, result: StudyResult | None, labels: dict[str, str] | None = None) -> None:
+        """Show the open paths, each variable named by ``labels`` (id → label).
+
+        The same result with the same labels changes nothing, so a chosen
+        path stays highlighted while the diagram is only rearranged."""
         labels = labels or {}
+        if self._shown is not None and self._shown[0] is result and self._shown[1] == labels:
+            return
+        self._shown = (result, dict(labels))
         self.list.blockSignals(True)
         self.list.clear()
-        self._paths = open_paths(result) if result is not None else []
+        self._paths = open_paths(result)
         for path in self._paths:
             parts = [" | ".join(labels.get(m, m) for m in n.split("|")) for n in path]
             item = QListWidgetItem(" — ".join(parts))
@@ -300,28 +285,7 @@ class PathsPanel(QWidget):
             item.setData(Qt.ItemDataRole.UserRole, path)
             self.list.addItem(item)
         self.list.blockSignals(False)
-        proposal = _review_of(result)
-        if result is None:
-            self.summary.setText("No analysis yet.")
-        elif not self._paths and getattr(proposal, "sufficient", False):
-            text = "The proposed set is sufficient: it closes every backdoor path."
-            if isinstance(proposal, ProposalReview) and proposal.unnecessary:
-                text += f" Unnecessary in it: {unnecessary_words(proposal, labels)}."
-            self.summary.setText(text)
-        elif isinstance(proposal, ProposalReview) and not proposal.sufficient:
-            self.summary.setText(_insufficient_words(result, proposal, labels, bool(self._paths)))
-        elif not self._paths:
-            self.summary.setText("No open backdoor paths are listed.")
-        else:
-            n = len(self._paths)
-            total = getattr(proposal, "open_paths_total", n)
-            exact = getattr(proposal, "open_paths_total_exact", True)
-            if exact and total == n:
-                head = f"{n} backdoor path{'s' if n != 1 else ''} left open by the proposed set."
-            else:
-                count = f"{total:,}" if exact else f"At least {total:,}"
-                head = f"{count} backdoor paths left open by the proposed set; {n} are listed."
-            self.summary.setText(f"{head} Choose one to see it on the diagram.")
+        self.summary.setText(paths_summary(result, labels))
         self._fit_summary()
         self.path_chosen.emit(None)
 

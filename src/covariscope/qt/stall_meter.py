@@ -139,6 +139,7 @@ class DataWorkWatch:
     entries: Counter[str] = field(default_factory=Counter)
     _depth: int = 0
     _thread: int | None = None
+    _before: Any = None
 
     @property
     def total(self) -> int:
@@ -172,16 +173,18 @@ class DataWorkWatch:
             self._depth -= 1
 
     def install(self) -> None:
-        """Start counting on the calling thread."""
+        """Start counting on the calling thread (in place of its profile function)."""
         self._thread = threading.get_ident()
         self._depth = 0
+        self._before = sys.getprofile()
         sys.setprofile(self.hook)
 
     def remove(self) -> None:
-        """Stop counting (call it on the thread it was installed on)."""
+        """Stop counting and give the thread back the profile function it had
+        (call it on the thread it was installed on)."""
         if self._thread == threading.get_ident():
-            sys.setprofile(None)
-        self._thread = None
+            sys.setprofile(self._before)
+        self._thread, self._before = None, None
 
 
 class StallMeter(QObject):

@@ -55,13 +55,15 @@ def check_diagram(
     cancel: Callable[[], bool] | None = None,
     memo: ClaimMemo | None = None,
     separators: SeparatorMemo | None = None,
+    on_claim: Callable[[int, int], None] | None = None,
 ) -> DiagramChecks:
     """Every claim of the diagram among the nodes with data, tested and corrected.
 
     ``memo`` keeps each claim's test across runs (see
     :func:`~covariscope.analysis.claim_tests.check_claims`), ``separators``
     each pair's separating set (see
-    :func:`~covariscope.analysis.claims.implied_claims`).
+    :func:`~covariscope.analysis.claims.implied_claims`); ``on_claim(k, n)``
+    hears of each claim tested.
     """
     data = design_claim_data(engine.design, engine.summary, outcome)
     claims = implied_claims(
@@ -73,7 +75,12 @@ def check_diagram(
         memo=separators,
     )
     return check_claims(
-        claims, data, method=project.analysis.claim_correction, cancel=cancel, memo=memo
+        claims,
+        data,
+        method=project.analysis.claim_correction,
+        cancel=cancel,
+        memo=memo,
+        on_claim=on_claim,
     )
 
 

@@ -11,10 +11,13 @@ from collections.abc import Callable, Mapping, Sequence
 
 import networkx as nx
 
-from covariscope.analysis.graph import DiagramAnalysis, backdoor_paths, is_sufficient
+from covariscope.analysis.constructs import merge_diagram
+from covariscope.analysis.graph import DiagramAnalysis, is_sufficient
+from covariscope.analysis.paths import ancestors_of, given_constructs, listing, path_status
 from covariscope.analysis.recommend import MemberRanking, rank_members
 
 __all__ = [
+    "PATH_CAP",
     "group_why",
     "needed_together",
     "opened_paths",
@@ -24,15 +27,27 @@ __all__ = [
     "would_open",
 ]
 
+#: Open paths listed when naming those a collider in the proposed set opens.
+PATH_CAP = 500
+
 
 def opened_paths(
     G: nx.DiGraph, x: str, y: str, proposed: Sequence[str], node: str
 ) -> tuple[tuple[str, ...], ...]:
-    """Backdoor paths open given the proposed set but closed without ``node``."""
-    with_open = {p.nodes for p in backdoor_paths(G, x, y, proposed).paths if p.open}
-    rest = [p for p in proposed if p != node]
-    without_open = {p.nodes for p in backdoor_paths(G, x, y, rest).paths if p.open}
-    return tuple(sorted(with_open - without_open))
+    """Backdoor paths open given the proposed set but closed without ``node``.
+
+    The open paths are listed once (capped, under the walk's work budget)
+    and each is read again without ``node``; no second listing.
+    """
+    md = merge_diagram(G, x, y)
+    M = md.graph
+    given = given_constructs(md, proposed, x, y)
+    rest = given_constructs(md, [p for p in proposed if p != node], x, y)
+    an_rest = ancestors_of(M, rest)
+    opened = listing(M, x, y, given, PATH_CAP, only_open=True)
+    return tuple(
+        sorted(p.nodes for p in opened.paths if not path_status(M, p.nodes, rest, an_rest).open)
+    )
 
 
 def would_close(da: DiagramAnalysis, node: str) -> tuple[tuple[str, ...], ...]:

@@ -56,7 +56,14 @@ from covariscope.study.prepare import (
     sufficient_statistics,
 )
 from covariscope.study.result import ESTIMATE_KEYS, Progress, StudyResult
-from covariscope.study.rows_read import MODIFICATION_SPAN, RowsRead, reads_key, rows_read
+from covariscope.study.rows_read import (
+    CHECKS_SPAN,
+    MODIFICATION_SPAN,
+    RowsRead,
+    fit_reporter,
+    reads_key,
+    rows_read,
+)
 from covariscope.study.source import ColumnSource, source_of
 from covariscope.study.whole_source import prepare_evidence
 from covariscope.vocabulary import CAUTION_BRIEF, DEFAULT_THRESHOLDS
@@ -445,7 +452,8 @@ def _checks(
     engine = data.engine
     if engine is None:
         return None
-    report(0.96, "Checking the diagram against the data")
+    words = "Checking the diagram against the data"
+    report(CHECKS_SPAN[0], words)
     G = criteria.graph
     design = engine.design
 
@@ -470,9 +478,11 @@ def _checks(
             q.exposure,
             q.outcome,
             engine,
-            cancel=run.cancel,
+            # a cancel raises between two claims (on_claim, memo) rather than
+            # stopping with the claims so far, which would be kept as the answer
             memo=memo,
             separators=separator,
+            on_claim=fit_reporter(run, report, words, CHECKS_SPAN, unit="claim"),
         ),
     )
     return checks

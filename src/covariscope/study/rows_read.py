@@ -44,6 +44,8 @@ __all__ = [
 #: the share of the progress bar each table's fits take (after the evidence)
 MODIFICATION_SPAN = (0.80, 0.88)
 RESIDUAL_SPAN = (0.88, 0.95)
+#: and the diagram's independence claims tested on the data, last
+CHECKS_SPAN = (0.95, 1.0)
 
 #: what the stages say when the rows stay where they lie
 _NOT_IN_MEMORY = (
@@ -101,10 +103,14 @@ def reads_key(spec: DesignSpec | None, design: Design, nodes: Iterable[str]) -> 
 
 
 def fit_reporter(
-    run: Run, report: Progress | None, words: str, span: tuple[float, float]
+    run: Run,
+    report: Progress | None,
+    words: str,
+    span: tuple[float, float],
+    unit: str = "model",
 ) -> Callable[[int, int], None]:
     """The ``on_fit(k, n)`` of a table of fits: stops between two fits when
-    the run was cancelled, and says "<words>: model k of n" across ``span``
+    the run was cancelled, and says "<words>: <unit> k of n" across ``span``
     of the progress bar.
 
     Examples
@@ -121,7 +127,7 @@ def fit_reporter(
     def on_fit(k: int, n: int) -> None:
         run.check()
         if report is not None:
-            report(low + (high - low) * (k - 1) / max(n, 1), f"{words}: model {k} of {n}")
+            report(low + (high - low) * (k - 1) / max(n, 1), f"{words}: {unit} {k} of {n}")
 
     return on_fit
 

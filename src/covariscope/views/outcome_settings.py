@@ -33,7 +33,6 @@ OUTCOME_FIELDS: Mapping[str, tuple[tuple[str, str, str], ...]] = MappingProxyTyp
 #: what the fix offered with a blocker does
 FIX_OUTCOME_COLUMNS = "outcome_columns"
 FIX_BIND = "bind"
-FIX_LOAD = "load"
 
 
 @dataclass(frozen=True)

@@ -6,11 +6,13 @@ from __future__ import annotations
 
 import csv
 import io
+from collections.abc import Mapping
 from dataclasses import dataclass
 
 from covariscope.analysis.contrasts import ExposureJoint
 from covariscope.analysis.evidence import Comparison
 from covariscope.analysis.modification import Modification
+from covariscope.analysis.proposal_wording import sufficiency_sentence, unnecessary_words
 from covariscope.model.project import Project
 from covariscope.study.result import StudyResult
 from covariscope.views.format import DASH, is_number, number, percent, ratio_family
@@ -23,6 +25,8 @@ __all__ = [
     "change_value",
     "joint_text",
     "modifier_text",
+    "open_paths",
+    "paths_summary",
     "proposed_after_toggle",
     "review_rows",
     "rows_to_csv",
@@ -213,3 +217,25 @@ def rows_to_csv(rows: list[ReviewRow]) -> str:
         cells = ["" if c == DASH else c for c in cells]
         writer.writerow([row.node, *cells, row.verdict_code, row.reason])
     return out.getvalue()
+
+
+def open_paths(result: StudyResult | None) -> list[tuple[str, ...]]:
+    """Backdoor paths the proposed set leaves open (node sequences); none
+    before an analysis."""
+    return [tuple(p) for p in result.diagram.review.open_paths] if result is not None else []
+
+
+def paths_summary(result: StudyResult | None, labels: Mapping[str, str]) -> str:
+    """The line above the list of open backdoor paths: that the proposed set
+    suffices (and what it can do without), or why it does not."""
+    if result is None:
+        return "No analysis yet."
+    review = result.diagram.review
+    if not review.sufficient:
+        roles = {c: f.role for c, f in result.diagram.roles.items()}
+        text = f"The proposed set is {sufficiency_sentence(review, roles, labels)}."
+        return text + (" Choose a path to see it on the diagram." if review.open_paths else "")
+    text = "The proposed set is sufficient: it closes every backdoor path."
+    if review.unnecessary:
+        text += f" Unnecessary in it: {unnecessary_words(review, labels)}."
+    return text

@@ -86,16 +86,9 @@ class Annotations:
         )
 
 
-def verdict_text(verdict: Any) -> str | None:
-    """The badge text of a verdict given as ``(code, label)``, as plain text,
-    or as an object with a ``label`` attribute."""
-    if not verdict:
-        return None
-    if isinstance(verdict, str):
-        return verdict
-    if isinstance(verdict, tuple | list):
-        return str(verdict[1] if len(verdict) > 1 else verdict[0])
-    return str(getattr(verdict, "label", verdict))
+def verdict_text(verdict: tuple[str, str] | None) -> str | None:
+    """The badge text of a verdict given as ``(code, label)``: its label."""
+    return verdict[1] if verdict else None
 
 
 @dataclass(frozen=True)
