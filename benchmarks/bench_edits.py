@@ -252,11 +252,14 @@ def storm_figures(rows: int, hunt: bool, watch: bool) -> dict[str, Any]:
         f"{figures['storm_settle']:.2f} s after the last edit "
         f"({figures['storm_settle'] / figures['storm_fire']:.1f}× the firing); longest GUI "
         f"stall {1000 * figures['max_stall']:.0f} ms ({figures['stalls_over_100ms']} over "
-        f"100 ms); data work on the GUI thread: {figures['gui_data_work_calls']} calls "
-        "(-1: not counted, see --watch); "
+        f"100 ms); data work on the GUI thread: {_work_calls(figures['gui_data_work_calls'])}; "
         f"equals check --json: {figures['storm_equals_check_json']}"
     )
     return figures
+
+
+def _work_calls(count: int) -> str:
+    return "not counted (--watch counts it)" if count < 0 else f"{count} calls"
 
 
 def _print(name: str, figures: dict[str, Any]) -> None:

@@ -54,7 +54,7 @@ def counted(method):
             passes["seconds"] += time.perf_counter() - began
     return run
 
-for name in ("column_stats", "glm_sums", "sandwich_sums"):
+for name in ("column_stats", "glm_sums", "sandwich_sums", "reduce"):
     setattr(SqlRows, name, counted(getattr(SqlRows, name)))
 out = io.StringIO()
 with contextlib.redirect_stdout(out):
@@ -140,7 +140,7 @@ def _passes(r: dict[str, float], rows: int, full: int) -> None:
     if not r.get("passes"):
         return
     each = r["pass_seconds"] / r["passes"]
-    line = f"   {'':9s} {int(r['passes'])} aggregate passes, {each:.2f} s each"
+    line = f"   {'':9s} {int(r['passes'])} reads of the rows (aggregate queries or streamed), {each:.2f} s each"
     if full > rows:
         line += (
             f"; at {full:,} rows (passes scale with rows): about "

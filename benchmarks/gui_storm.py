@@ -9,19 +9,22 @@ counted (a profile hook on that thread: it slows the thread, so the stall
 figures of such a run overstate).  With ``hunt=True`` a sampling thread records the GUI thread's stack whenever
 the heartbeat is late by more than 50 ms, and the stacks seen most are
 printed: where the GUI thread spends its stalls; and the window's main
-slots are timed (longest and total).  When the slots are short and the
-sampler saw little, the stalls were spent waiting for the interpreter lock
-or the CPU, not in the window's own code.
+slots are timed (longest and total); and every thread's stack is dumped
+(by faulthandler's watchdog, which needs no interpreter lock) whenever the
+GUI thread is 150 ms late.  When the slots are short and the sampler saw
+little, the dumps show what held the interpreter lock meanwhile.
 """
 
 from __future__ import annotations
 
+import faulthandler
 import json
 import math
 import os
 import random
 import subprocess
 import sys
+import tempfile
 import threading
 import time
 import traceback
@@ -143,6 +146,52 @@ class SlotClock:
                 f"   {name:<18} {1000 * longest:7.1f} ms / {self.total[name]:6.2f} s "
                 f"over {self.calls[name]} calls"
             )
+
+
+class LockWatch:
+    """Every thread's stack when the GUI thread misses its beat by 150 ms.
+
+    ``faulthandler.dump_traceback_later`` is armed again on every beat of
+    the GUI thread; its watchdog runs without the interpreter lock, so it
+    also sees the stalls the sampler cannot (the GUI thread waiting for the
+    lock while a worker holds it: an import, a long NumPy call)."""
+
+    def __init__(self, late: float = 0.15) -> None:
+        from PySide6.QtCore import QTimer
+
+        self.late = late
+        # open from start() to the end of report(): no one block holds it
+        self.file = tempfile.TemporaryFile("w+")  # noqa: SIM115
+        self.timer = QTimer()
+        self.timer.setInterval(10)
+        self.timer.timeout.connect(self._arm)
+
+    def _arm(self) -> None:
+        faulthandler.dump_traceback_later(self.late, file=self.file)
+
+    def start(self) -> None:
+        self._arm()
+        self.timer.start()
+
+    def stop(self) -> None:
+        self.timer.stop()
+        faulthandler.cancel_dump_traceback_later()
+
+    def report(self) -> None:
+        self.file.seek(0)
+        dumps = self.file.read().split("Timeout (")[1:]
+        print(f"  stacks when the GUI thread was {1000 * self.late:.0f} ms late ({len(dumps)}):")
+        for dump in dumps:
+            for thread in dump.split("\n\n"):
+                frames = [
+                    line.strip()
+                    for line in thread.splitlines()
+                    if line.strip().startswith("File") and "frozen" not in line
+                ]
+                if frames:
+                    print("   " + "\n      ← ".join(f[5:][:110] for f in frames[:3]))
+            print("   --")
+        self.file.close()
 
 
 def _edit(w: Any, rng: random.Random, covariates: list[str]) -> None:
@@ -277,9 +326,12 @@ def storm(
     opened = time.perf_counter() - t0
     meter = StallMeter(watch=watch)  # the watch's hook slows the GUI thread: off when timing
     hunter = StallHunter(meter.log, threading.get_ident()) if hunt else None
+    lock_watch = LockWatch() if hunt else None
     meter.start()
     if hunter is not None:
         hunter.start()
+    if lock_watch is not None:
+        lock_watch.start()
     t_fire = time.perf_counter()
     spent = _fire(app, w, edits, seed, covariates)
     t_fired = time.perf_counter()
@@ -289,6 +341,8 @@ def storm(
     if hunter is not None:
         hunter.halt.set()
         hunter.join()
+    if lock_watch is not None:
+        lock_watch.stop()
     assert w.io.save()
     shown = json.loads(json.dumps(study_to_json(w.result, w.project), allow_nan=False))
     equal = same_json(shown, _checked(project_path))
@@ -312,9 +366,10 @@ def storm(
         )
     if meter.watch is not None and meter.watch.entries:
         print("  data work on the GUI thread:", dict(meter.watch.entries.most_common(8)))
-    if hunter is not None and clock is not None:
+    if hunter is not None and clock is not None and lock_watch is not None:
         hunter.report()
         clock.report()
+        lock_watch.report()
     w.io.extra_modified = False
     w.undo_stack.setClean()
     w.close()

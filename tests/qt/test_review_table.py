@@ -200,3 +200,19 @@ def test_edits_update_the_panels_in_place(qtbot, window, demo, wait_for_analysis
     notes = w.scene.roles, w.scene.verdicts
     w.scene.set_annotations(*notes)  # the same words: no link moves
     assert redrawn == []
+
+
+def test_a_chosen_path_stays_lit_until_the_next_result(qtbot, window, demo, wait_for_analysis):
+    from covariscope.model.commands import SetProposed
+
+    w = window
+    w.io.open(str(demo / "demo_project.json"))
+    wait_for_analysis(qtbot, w)
+    assert w.paths.paths
+    w.paths.choose(0)
+    lit = {n for n, item in w.scene.nodes.items() if item.highlighted}
+    assert lit
+    w.push(SetProposed(w.project, [*w.project.proposed, "family_hist"]))
+    assert {n for n, item in w.scene.nodes.items() if item.highlighted} == lit
+    wait_for_analysis(qtbot, w)  # a new result: the paths are listed again, none chosen
+    assert not any(item.highlighted for item in w.scene.nodes.values())

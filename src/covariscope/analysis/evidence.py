@@ -234,6 +234,76 @@ class EvidenceEngine:
                 self._fits[key] = hit
             return hit[0]
 
+    def fit_many(
+        self, plan: Sequence[Sequence[str]], on_pass: Callable[[], None] | None = None
+    ) -> None:
+        """Fit the models of ``plan`` together where that saves reads of the rows.
+
+        With the rows left in their source, every read is a full scan, so the
+        Newton steps of the models not yet fitted share each read
+        (:func:`~covariscope.analysis.glm_rows.fit_glm_rows_many`); each starts
+        where :meth:`fit` would start it, and ends where it would end.  Other
+        designs are left to :meth:`fit` (their passes are cheap already).
+        """
+        design = self.design
+        if design.rows is None or self.model_family.fitter is not Fitter.GLM:
+            return
+        from covariscope.analysis.glm_rows import RowModel, RowOutcome, fit_glm_rows_many
+
+        stats = design.row_stats
+        assert stats is not None
+        with self._lock:
+            todo: list[tuple[frozenset[str], tuple[str, ...], RowModel]] = []
+            for terms in plan:
+                key = frozenset(terms)
+                if key in self._fits or key in {k for k, _, _ in todo}:
+                    continue
+                ordered = self.ordered(terms)
+                if any(t not in self._order for t in terms):
+                    continue
+                cols = self.columns(ordered)
+                names = [design.column_names[c] for c in cols]
+                if self._precheck(ordered, len(cols) + 1):
+                    continue
+                todo.append(
+                    (
+                        key,
+                        ordered,
+                        RowModel(
+                            tuple(cols),
+                            ["(intercept)", *names],
+                            ordered,
+                            np.concatenate([[0.0], self._column_sd()[cols]]),
+                            self._reach()[[0, *(c + 1 for c in cols)]],
+                            self._warm_start(ordered, names, True),
+                        ),
+                    )
+                )
+            if len(todo) < 2:
+                return
+            outcome = RowOutcome(
+                mean=float(stats.summary.mean[-1]),
+                offset_exp_sum=stats.offset_exp_sum,
+                n=design.n,
+                binary=stats.outcome_not_binary == 0,
+            )
+            try:
+                results = fit_glm_rows_many(
+                    design.rows,
+                    [m for _, _, m in todo],
+                    self.family,
+                    outcome=outcome,
+                    on_pass=on_pass,
+                )
+            except (ArithmeticError, ValueError, np.linalg.LinAlgError):
+                return  # each model is then fitted alone, and says what went wrong
+            for (key, _, _), (fit, params, cov) in zip(todo, results, strict=True):
+                if cov is not None and fit.ok and fit.converged:
+                    self._glm_cov[key] = cov
+                if self._record is not None:
+                    self._record("fit", False)
+                self._fits[key] = (self._named(fit), params)
+
     def _named(self, fit: Fit) -> Fit:
         """A multi-level exposure's fit with its contrasts named (see :meth:`Fit.with_contrasts`)."""
         design = self.design
@@ -845,9 +915,17 @@ def compute_evidence(
     plan += [tuple(t for t in cands if t != c) for c in cands]
     plan += [tuple(v) for v in sets.values()]
     total = len(plan)
+    # Models that start from the same fitted neighbour (crude + C from the
+    # crude model, full − C from the full model) can share their reads of the rows.
+    together = {1: 1 + len(added_nodes), 2 + len(added_nodes): 2 + len(added_nodes) + len(cands)}
     for done, terms in enumerate(plan):
         if cancel is not None and cancel():
             raise EvidenceCancelledError("The evidence computation was cancelled.")
+        if done in together:
+            engine.fit_many(
+                plan[done : together[done]],
+                on_pass=_pass_hook(done + 1, total, cancel, pass_progress),
+            )
         engine.fit(terms, on_pass=_pass_hook(done + 1, total, cancel, pass_progress))
         if progress is not None:
             progress(done + 1, total)

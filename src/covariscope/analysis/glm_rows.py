@@ -23,6 +23,7 @@ is not run; the fit says so instead.
 from __future__ import annotations
 
 import math
+from collections.abc import Callable
 from dataclasses import dataclass
 
 import numpy as np
@@ -46,10 +47,11 @@ from covariscope.analysis.rows import (
     GlmSums,
     RowReducer,
     glm_pass,
+    glm_pass_many,
     sandwich_pass,
 )
 
-__all__ = ["RowOutcome", "fit_glm_rows"]
+__all__ = ["RowModel", "RowOutcome", "fit_glm_rows", "fit_glm_rows_many"]
 
 Array = npt.NDArray[np.float64]
 
@@ -177,6 +179,18 @@ def fit_glm_rows(
     link = family_of(family).glm
     b = _start(outcome, link, p) if start is None or np.shape(start) != (p,) else start
     path = _newton(reducer, columns, family, np.array(b, dtype=np.float64), scale, reach, max_iter)
+    return _finish(
+        reducer, RowModel(columns, column_names, terms, scale, reach), family, outcome, path
+    )
+
+
+def _finish(
+    reducer: RowReducer, model: RowModel, family: str, outcome: RowOutcome, path: _Path
+) -> tuple[Fit, Array | None, Array | None]:
+    """The fit a Newton path ends in: its failure, cautions and standard errors."""
+    link = family_of(family).glm
+    columns, column_names, terms = model.columns, model.column_names, model.terms
+    p = len(columns) + 1
     n = outcome.n
     if path.stop == "aliased":
         clauses = aliased_columns(path.sums.information, column_names) or [
@@ -221,6 +235,116 @@ def fit_glm_rows(
         warnings=warns,
     )
     return fit, path.params, path.cov
+
+
+@dataclass(frozen=True, eq=False)
+class RowModel:
+    """One model of a batch: its design columns (exposure first), the names of
+    [intercept, columns...], its terms, and the scales of `fit_glm_rows`."""
+
+    columns: tuple[int, ...]
+    column_names: list[str]
+    terms: tuple[str, ...]
+    scale: Array
+    reach: Array
+    start: Array | None = None
+
+
+class _Walk:
+    """One model's Newton–Raphson walk, advanced a pass at a time: the same
+    steps, step halving and stopping rule as `_newton`, so that a batch of
+    walks ends where the models fitted one by one would."""
+
+    def __init__(self, model: RowModel, b: Array, max_iter: int) -> None:
+        self.model, self.b, self.max_iter = model, b, max_iter
+        self.s: GlmSums | None = None
+        self.cov: Array | None = None
+        self.delta = np.zeros_like(b)
+        self.it, self.t, self.tries = 0, 1.0, 0
+        self.path: _Path | None = None
+
+    def point(self) -> Array:
+        """Where the next pass is wanted: the start, or the proposed step."""
+        return self.b if self.s is None else self.b + self.t * self.delta
+
+    def take(self, new: GlmSums) -> None:
+        """The sums at :meth:`point`."""
+        s = self.s
+        if s is None:
+            self.s = new
+            self._step()
+            return
+        if math.isfinite(new.deviance) and new.deviance <= s.deviance + 1e-12 * abs(s.deviance):
+            self.b, self.s = self.b + self.t * self.delta, new
+            if np.any(np.abs(self.b[1:]) * self.model.scale[1:] > DIVERGE_SD):
+                self.path = _Path(self.b, self.cov, self.it, False, new, "diverging")
+            elif self.it == self.max_iter:
+                self.path = _Path(self.b, self.cov, self.max_iter, False, new)
+            else:
+                self._step()
+            return
+        self.tries += 1
+        self.t *= 0.5
+        if self.tries == 40:
+            self.path = _Path(self.b, self.cov, self.it, False, s, "no_progress")
+
+    def _step(self) -> None:
+        s = self.s
+        assert s is not None
+        self.it += 1
+        H = s.information
+        c = upper_cholesky(H)
+        if self.it == 1 and (c is None or np.min(np.diag(c) ** 2 / np.diag(H)) < ALIAS_TOL):
+            self.path = _Path(self.b, None, self.it, False, s, "aliased")
+            return
+        if c is None:
+            self.path = _Path(self.b, None, self.it, False, s, "singular")
+            return
+        self.cov = inverse_from_cholesky(c)
+        self.delta = self.cov @ s.score
+        if newton_done(self.delta, self.cov, self.model.reach):
+            self.path = _Path(self.b + self.delta, self.cov, self.it, True, s, last=self.b)
+        self.t, self.tries = 1.0, 0
+
+
+def fit_glm_rows_many(
+    reducer: RowReducer,
+    models: list[RowModel],
+    family: str,
+    *,
+    outcome: RowOutcome,
+    max_iter: int = 50,
+    on_pass: Callable[[], None] | None = None,
+) -> list[tuple[Fit, Array | None, Array | None]]:
+    """`fit_glm_rows` of several models, their Newton steps sharing each read of the rows.
+
+    Each round reads the rows once (:func:`~covariscope.analysis.rows.glm_pass_many`)
+    for the sums every unfinished model needs next; a model's walk is the one
+    it takes alone, so each result is the one `fit_glm_rows` gives, to the
+    rounding of the sums.  ``on_pass`` is called after every round (what it
+    raises stops the fits).
+    """
+    link = family_of(family).glm
+    walks = []
+    for m in models:
+        p = len(m.columns) + 1
+        start = m.start if m.start is not None and np.shape(m.start) == (p,) else None
+        b = _start(outcome, link, p) if start is None else start
+        walks.append(_Walk(m, np.array(b, dtype=np.float64), max_iter))
+    while True:
+        going = [w for w in walks if w.path is None]
+        if not going:
+            break
+        sums = glm_pass_many(reducer, [(w.model.columns, w.point()) for w in going], family)
+        for w, s in zip(going, sums, strict=True):
+            w.take(s)
+        if on_pass is not None:
+            on_pass()
+    out = []
+    for w in walks:
+        assert w.path is not None
+        out.append(_finish(reducer, w.model, family, outcome, w.path))
+    return out
 
 
 def _sandwich(reducer: RowReducer, columns: tuple[int, ...], params: Array, cov: Array) -> Array:

@@ -20,7 +20,7 @@ numbers as one pass over all rows, to rounding.
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from functools import partial
 from typing import Any, Protocol, TypeVar, runtime_checkable
 
@@ -42,9 +42,12 @@ __all__ = [
     "column_stats",
     "fits_from_rows",
     "glm_link",
+    "glm_pass_many",
     "glm_sums",
+    "glm_sums_many",
     "merge_column_stats",
     "merge_glm_sums",
+    "merge_glm_sums_many",
     "merge_sandwich_sums",
     "reduce_column_stats",
     "rows_in_memory_words",
@@ -189,10 +192,15 @@ def glm_sums(
     saturated term Σ y log y − y of the Poisson deviance.
     """
     X = _intercept_design(batch.values, columns)
-    y = batch.values[:, -1]
+    return _sums_of(X, batch.values[:, -1], batch.offset, params, family, ylogy)
+
+
+def _sums_of(
+    X: Array, y: Array, offset: Array | None, params: Array, family: str, ylogy: bool
+) -> GlmSums:
     eta = X @ params
-    if batch.offset is not None:
-        eta = eta + batch.offset
+    if offset is not None:
+        eta = eta + offset
     dev, mu, w, low = family_of(family).glm.batch_sums(y, eta, ylogy)
     return GlmSums(
         information=weighted_crossprod(X, w),
@@ -203,6 +211,44 @@ def glm_sums(
         mu_high=float(np.max(mu)) if len(y) else -math.inf,
         rows=len(y),
     )
+
+
+def glm_sums_many(
+    batch: RowBatch,
+    *,
+    models: tuple[tuple[tuple[int, ...], Array], ...],
+    family: str,
+    ylogy: bool,
+) -> tuple[GlmSums, ...]:
+    """:func:`glm_sums` of several models (their columns and coefficients) on one batch.
+
+    The batch's columns are coded into [1 | every column any model uses]
+    once; a model that uses most of them is evaluated on that matrix with
+    zero coefficients for the others (its sums are then sub-blocks), a
+    narrow one on its own columns.
+    """
+    union = sorted({c for cols, _ in models for c in cols})
+    X = _intercept_design(batch.values, tuple(union))
+    y = batch.values[:, -1]
+    at = {c: j + 1 for j, c in enumerate(union)}
+    out = []
+    for cols, params in models:
+        idx = [0, *(at[c] for c in cols)]
+        if 2 * len(idx) >= X.shape[1]:
+            wide = np.zeros(X.shape[1])
+            wide[idx] = params
+            full = _sums_of(X, y, batch.offset, wide, family, ylogy)
+            out.append(
+                replace(full, information=full.information[np.ix_(idx, idx)], score=full.score[idx])
+            )
+        else:
+            out.append(_sums_of(X[:, idx], y, batch.offset, params, family, ylogy))
+    return tuple(out)
+
+
+def merge_glm_sums_many(a: tuple[GlmSums, ...], b: tuple[GlmSums, ...]) -> tuple[GlmSums, ...]:
+    """:func:`merge_glm_sums` model by model."""
+    return tuple(merge_glm_sums(x, y) for x, y in zip(a, b, strict=True))
 
 
 def merge_glm_sums(a: GlmSums, b: GlmSums) -> GlmSums:
@@ -300,3 +346,24 @@ def glm_pass(reducer: RowReducer, columns: tuple[int, ...], params: Array, famil
     )
     result: GlmSums = reducer.reduce(fn, merge_glm_sums)
     return result
+
+
+def glm_pass_many(
+    reducer: RowReducer, models: list[tuple[tuple[int, ...], Array]], family: str
+) -> list[GlmSums]:
+    """:func:`glm_sums` of several models in one read of the rows.
+
+    The rows are streamed to the sums (:meth:`RowReducer.reduce`) even from a
+    source that sums in its own engine: one read that serves every model
+    costs less than an aggregate query per model once the models are wide
+    (such a query forms each cross-product of a wide model as an expression
+    of its own).
+    """
+    fn = partial(
+        glm_sums_many,
+        models=tuple((cols, np.asarray(b, dtype=np.float64)) for cols, b in models),
+        family=family,
+        ylogy=family_of(family).glm.saturated_term,
+    )
+    result: tuple[GlmSums, ...] = reducer.reduce(fn, merge_glm_sums_many)
+    return list(result)

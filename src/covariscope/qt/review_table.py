@@ -259,14 +259,22 @@ class PathsPanel(QWidget):
         layout.addWidget(self.summary)
         layout.addWidget(self.list, 1)
         self._paths: list[tuple[str, ...]] = []
+        #: the result and labels shown now
+        self._shown: tuple[Any, dict[str, str]] | None = None
 
     @property
     def paths(self) -> list[tuple[str, ...]]:
         return list(self._paths)
 
     def refresh(self, result: StudyResult | None, labels: dict[str, str] | None = None) -> None:
-        """Show the open paths, each variable named by ``labels`` (id → label)."""
+        """Show the open paths, each variable named by ``labels`` (id → label).
+
+        The same result with the same labels changes nothing, so a chosen
+        path stays highlighted while the diagram is only rearranged."""
         labels = labels or {}
+        if self._shown is not None and self._shown[0] is result and self._shown[1] == labels:
+            return
+        self._shown = (result, dict(labels))
         self.list.blockSignals(True)
         self.list.clear()
         self._paths = open_paths(result)
