@@ -10,9 +10,8 @@ from __future__ import annotations
 
 from collections.abc import Mapping
 from pathlib import Path
-from typing import Any, TypeGuard
+from typing import Any
 
-import numpy as np
 import pandas as pd
 from matplotlib.backends.backend_qtagg import FigureCanvasQTAgg
 from matplotlib.figure import Figure
@@ -41,8 +40,8 @@ from PySide6.QtWidgets import (
 )
 
 from covariscope.data.profile import ColumnProfile
-from covariscope.data.sample import AnalyticSample, CompleteCases
 from covariscope.model.project import Project
+from covariscope.qt.diagnostic_plots import draw_data, draw_distribution, draw_estimates
 from covariscope.qt.joint_plot import draw_picture
 from covariscope.qt.modification_plot import draw_modification
 from covariscope.qt.tables import filling
@@ -54,8 +53,14 @@ from covariscope.views.diagnostics import (
     endpoint_diagnostics,
     node_diagnostics,
 )
-from covariscope.views.format import ratio_family
 from covariscope.views.keep_choice import KeepChoice, keep_choice
+from covariscope.views.plots import (
+    analysed_rows,
+    data_picture,
+    distribution_picture,
+    estimates_picture,
+    holds_a_random_sample,
+)
 from covariscope.views.residual import FORM_CHOICES
 from covariscope.vocabulary import FAMILY_TERMS
 
@@ -80,7 +85,6 @@ _MODEL_TIPS = {
     4: "Inflation of the exposure estimate's standard error, this model against the same "
     "model without the covariate.",
 }
-_MAX_POINTS = 3000
 
 
 def _table(headers: tuple[str, ...]) -> QTableWidget:
@@ -93,50 +97,6 @@ def _table(headers: tuple[str, ...]) -> QTableWidget:
     t.horizontalHeader().setStretchLastSection(True)
     t.setFocusPolicy(Qt.FocusPolicy.NoFocus)
     return t
-
-
-def _analysed_rows(
-    sample: CompleteCases | AnalyticSample | None, frame: pd.DataFrame | None, s: NodeDiagnostics
-) -> pd.DataFrame | None:
-    """The rows the models used (the analytic sample) when it holds both
-    columns of the plot, so the picture shows what the numbers came from;
-    else the loaded file."""
-    wanted = {s.exposure_column, s.column}
-    if sample is None or frame is None or None in wanted or not wanted <= set(sample.columns):
-        return frame
-    return sample.rows_of(frame)
-
-
-#: A multi-level exposure's contrasts in the estimates plot: marker and colour (never colour alone)
-_CONTRAST_STYLES = (("s", "#0072B2"), ("o", "#D55E00"), ("^", "#009E73"), ("D", "#CC79A7"))
-
-
-def _forest(ax: Any, points: list[tuple[tuple[str, float, float, float], str]]) -> None:
-    """Estimates with their CIs, one line per model; a multi-level exposure's
-    contrasts share a model's line, offset, each with its own marker and a legend."""
-    models = list(dict.fromkeys(p[0] for p, _ in points))
-    contrasts = list(dict.fromkeys(c for _, c in points))
-    ys = {m: len(models) - 1 - i for i, m in enumerate(models)}
-    step = 0.6 / max(len(contrasts), 1)
-    for k, contrast in enumerate(contrasts):
-        mine = [p for p, c in points if c == contrast]
-        offset = (k - (len(contrasts) - 1) / 2) * step if len(contrasts) > 1 else 0.0
-        est = np.array([p[1] for p in mine])
-        lo = np.array([p[2] for p in mine])
-        hi = np.array([p[3] for p in mine])
-        marker, colour = _CONTRAST_STYLES[k % len(_CONTRAST_STYLES)]
-        ax.errorbar(
-            est,
-            [ys[p[0]] + offset for p in mine],
-            xerr=[est - lo, hi - est],
-            fmt=marker,
-            color=colour,
-            capsize=3,
-            label=contrast or None,
-        )
-    ax.set_yticks(list(ys.values()), list(ys))
-    if len(contrasts) > 1:
-        ax.legend(fontsize=7, loc="best")
 
 
 def _fill(
@@ -431,8 +391,8 @@ class CovariateDialog(NodeDialog):
         if s.knots is not None:
             self.form.setCurrentIndex(max(self.form.findData(s.knots), 0))
         self._plot_estimates(s, result.family if result is not None else project.analysis.family)
-        rows = _analysed_rows(sample, frame, s)
-        of_rows = sample.used if _holds_a_random_sample(sample, rows) else None
+        rows = analysed_rows(sample, frame, s)
+        of_rows = sample.used if holds_a_random_sample(sample, rows) else None
         self._plot_data(s, project, profiles, rows, of_rows)
         self._plot_joint(s)
         self._plot_modification(s)
@@ -521,22 +481,7 @@ class CovariateDialog(NodeDialog):
             self.keep_chosen.emit(self.keep.key, self.keep_member.itemData(index))
 
     def _plot_estimates(self, s: NodeDiagnostics, family: str) -> None:
-        fig = self.estimate_figure
-        fig.clear()
-        ax = fig.add_subplot()
-        points = [m.point for m in s.models if m.point is not None]
-        if not points:
-            ax.text(
-                0.5, 0.5, "No fitted models yet", ha="center", va="center", transform=ax.transAxes
-            )
-            ax.set_axis_off()
-        else:
-            _forest(ax, [(m.point, m.contrast) for m in s.models if m.point is not None])
-            ax.axvline(1.0 if ratio_family(family) else 0.0, color="#5A5A5A", lw=0.8, ls="--")
-            if ratio_family(family):
-                ax.set_xscale("log")
-            ax.set_xlabel(f"{s.effect_measure or 'coefficient'} with 95% CI")
-            ax.set_title("Exposure estimate across the models", fontsize=10)
+        draw_estimates(self.estimate_figure, estimates_picture(s, family))
         self.estimate_canvas.draw_idle()
 
     def _plot_data(
@@ -544,87 +489,11 @@ class CovariateDialog(NodeDialog):
         s: NodeDiagnostics,
         project: Project,
         profiles: Profiles,
-        frame: Any,
+        frame: pd.DataFrame | None,
         of_rows: int | None = None,
     ) -> None:
         """``of_rows``: the analytic sample's size when ``frame`` holds only a random sample of it."""
-        fig = self.data_figure
-        fig.clear()
-        ax = fig.add_subplot()
-        xcol, ccol = s.exposure_column, s.column
-        if frame is None or not xcol or not ccol or xcol not in frame or ccol not in frame:
-            ax.text(
-                0.5,
-                0.5,
-                "Bind the exposure and this covariate\nto data to see them together",
-                ha="center",
-                va="center",
-                transform=ax.transAxes,
-            )
-            ax.set_axis_off()
-            self.data_canvas.draw_idle()
-            return
-        data = frame[[xcol, ccol]].dropna()
-        if len(data) > _MAX_POINTS:
-            data = data.sample(
-                _MAX_POINTS, random_state=0
-            )  # a fixed seed: the same picture each time
-        x_type = _column_type(project, profiles, xcol)
-        x_cat = x_type in ("binary", "categorical")
-        x_name = s.exposure_label or xcol
-        if s.categorical and not x_cat:
-            levels = _reference_first(project, profiles, ccol, data[ccol])
-            _boxes(
-                ax,
-                [data.loc[data[ccol] == lv, xcol] for lv in levels],
-                levels,
-                project,
-                profiles,
-                ccol,
-                frame[[xcol, ccol]].dropna()[ccol],
-            )
-            ax.set_xlabel(s.label)
-            ax.set_ylabel(x_name)
-        elif x_cat and not s.categorical:
-            levels = _reference_first(project, profiles, xcol, data[xcol])
-            _boxes(
-                ax,
-                [data.loc[data[xcol] == lv, ccol] for lv in levels],
-                levels,
-                project,
-                profiles,
-                xcol,
-                frame[[xcol, ccol]].dropna()[xcol],
-            )
-            ax.set_xlabel(x_name)
-            ax.set_ylabel(s.label)
-        elif x_cat and s.categorical:
-            table = data.groupby([ccol, xcol]).size().unstack(fill_value=0)
-            shares = table.div(table.sum(axis=1), axis=0)
-            bottom = np.zeros(len(shares))
-            for i, col in enumerate(shares.columns):
-                ax.bar(
-                    [str(v) for v in shares.index],
-                    shares[col],
-                    bottom=bottom,
-                    label=f"{x_name} = {col}",
-                    color=["#56B4E9", "#E69F00", "#009E73", "#CC79A7"][i % 4],
-                    hatch=["", "//", "..", "xx"][i % 4],
-                    edgecolor="white",
-                )
-                bottom += shares[col].to_numpy()
-            ax.set_xlabel(s.label)
-            ax.set_ylabel(f"share by {x_name}")
-            ax.legend(fontsize=8)
-        else:
-            ax.scatter(data[ccol], data[xcol], s=6, alpha=0.35, color="#0072B2", edgecolors="none")
-            ax.set_xlabel(s.label)
-            ax.set_ylabel(x_name)
-        title = f"{s.label} against the exposure"
-        every = of_rows or len(frame[[xcol, ccol]].dropna())
-        if len(data) < every:
-            title += f"\nrandom sample of {len(data):,} of {every:,} rows"
-        ax.set_title(title, fontsize=10)
+        draw_data(self.data_figure, data_picture(s, project, profiles, frame, of_rows))
         self.data_canvas.draw_idle()
 
 
@@ -679,92 +548,6 @@ class EndpointDialog(NodeDialog):
         self.missing.setText(s.missing)
         self.lines.setText("\n".join(s.lines))
         self.set_note(s.note)
-        fig = self.figure
-        fig.clear()
-        ax = fig.add_subplot()
-        if frame is None or not s.column or s.column not in frame:
-            ax.text(0.5, 0.5, "No data bound", ha="center", va="center", transform=ax.transAxes)
-            ax.set_axis_off()
-        else:
-            values = frame[s.column].dropna()
-            kind = _column_type(project, profiles, s.column)
-            if kind in ("binary", "categorical") or values.nunique() <= 10:
-                counts = values.value_counts().sort_index()
-                ax.bar(
-                    [str(v) for v in counts.index],
-                    counts.to_numpy(),
-                    color="#56B4E9",
-                    edgecolor="#0072B2",
-                )
-                ax.set_ylabel("rows")
-            else:
-                ax.hist(values.to_numpy(dtype=float), bins=40, color="#56B4E9", edgecolor="#0072B2")
-                ax.set_ylabel("rows")
-            ax.set_xlabel(s.column)
-            title = f"Distribution of {s.label}"
-            sample = result.sample if result is not None else None
-            if _holds_a_random_sample(sample, frame):
-                title += f"\nrandom sample of {len(values):,} of {sample.used:,} rows"
-            ax.set_title(title, fontsize=10)
+        sample = result.sample if result is not None else None
+        draw_distribution(self.figure, distribution_picture(s, project, profiles, frame, sample))
         self.canvas.draw_idle()
-
-
-def _holds_a_random_sample(
-    sample: CompleteCases | AnalyticSample | None, frame: Any
-) -> TypeGuard[AnalyticSample]:
-    """True when ``frame`` is the analytic sample's random sample of rows (only
-    a sample read from a source that keeps its rows where they lie holds one)."""
-    return isinstance(sample, AnalyticSample) and sample.frame_is_sample and frame is sample.frame
-
-
-def _column_type(project: Project, profiles: Profiles, column: str) -> str:
-    """The type the project sets for ``column``, else the profile's ("" unknown)."""
-    profile = (profiles or {}).get(column)
-    return project.analysis.column_types.get(column) or (profile.type if profile else "")
-
-
-def _reference_of(project: Project, profiles: Profiles, column: str) -> Any:
-    saved = project.analysis.reference_levels.get(column)
-    if saved is not None:
-        return saved
-    profile = (profiles or {}).get(column)
-    return profile.reference if profile is not None else None
-
-
-def _reference_first(project: Project, profiles: Profiles, column: str, values: Any) -> list[Any]:
-    """The levels in the order the models compare them: the reference level
-    first, then the others as sorted text."""
-    levels = sorted(values.unique(), key=str)
-    ref = _reference_of(project, profiles, column)
-    first = [lv for lv in levels if ref is not None and str(lv) == str(ref)]
-    return first + [lv for lv in levels if lv not in first]
-
-
-def _boxes(
-    ax: Any,
-    groups: list[Any],
-    levels: list[Any],
-    project: Project,
-    profiles: Profiles,
-    column: str,
-    all_values: Any,
-) -> None:
-    """Box plots by level in our palette, each level named with its row count
-    (of every complete row, not just those plotted) and the reference marked."""
-    ref = _reference_of(project, profiles, column)
-    counts = all_values.astype(str).value_counts()
-    labels = []
-    for lv in levels:
-        mark = "\n(reference)" if ref is not None and str(lv) == str(ref) else ""
-        labels.append(f"{lv}{mark}\nn = {int(counts.get(str(lv), 0)):,}")
-    ax.boxplot(
-        groups,
-        tick_labels=labels,
-        patch_artist=True,
-        boxprops={"facecolor": "#56B4E9", "edgecolor": "#0072B2"},
-        medianprops={"color": "#000000", "linewidth": 1.6},
-        whiskerprops={"color": "#0072B2"},
-        capprops={"color": "#0072B2"},
-        flierprops={"marker": ".", "markersize": 3, "markeredgecolor": "#0072B2"},
-    )
-    ax.tick_params(axis="x", labelsize=8)
