@@ -177,6 +177,12 @@ def main() -> None:
         help="families of the large-file runs, comma-separated (default: linear,logistic)",
     )
     parser.add_argument("--no-medium", action="store_true", help="skip the medium-file runs")
+    parser.add_argument(
+        "--medium-families",
+        default="linear,logistic",
+        help="families of the medium-file runs, comma-separated (default: linear,logistic)",
+    )
+    parser.add_argument("--no-large", action="store_true", help="skip the large-file runs")
     parser.add_argument("--folder", type=Path, default=None, help="where to write the files")
     parser.add_argument("--keep", action="store_true", help="keep the generated files")
     parser.add_argument(
@@ -221,7 +227,7 @@ def main() -> None:
             return done[rows, engine, family]
 
         print("\n1. Large file, DuckDB")
-        for family in args.large_families.split(","):
+        for family in [] if args.no_large else args.large_families.split(","):
             rows = sizes[("large", family)]
             frame = rows * (k + 3) * 8
             r = measured(rows, "duckdb", family)
@@ -233,7 +239,7 @@ def main() -> None:
         if args.no_medium:
             return
         print("\n2. Medium file: DuckDB and Dask (2 local workers) against in memory")
-        for family in ("linear", "logistic"):
+        for family in args.medium_families.split(","):
             rows = sizes[("medium", family)]
             base = measured(rows, "memory", family)
             print(
