@@ -20,28 +20,26 @@ def _mime(raw: bytes) -> QMimeData:
 GOOD = {"nodes": [{"id": "a", "x": 1.0, "y": 2.0}, {"id": "b"}], "arrows": [["a", "b"]]}
 
 
+# every bad payload the model refuses is in tests/model/test_selection.py;
+# these check that the clipboard wrapper hands the bytes over unchanged
 @pytest.mark.parametrize(
     "raw",
     [
         b"[" * 100_000 + b"]" * 100_000,  # nested past any recursion limit
-        json.dumps(
-            {"nodes": [{"id": "a", "note": [[[[[[[[[[[[[[[[[[[[1]]]]]]]]]]]]]]]]]]]]}]}
-        ).encode(),
-        b'{"nodes": [{"id": "a", "x": NaN}]}',
-        b'{"nodes": [{"id": "a", "x": 1e400}]}',
-        b'{"nodes": [{"id": "a", "x": ' + b"9" * 5000 + b"}]}",
         b'{"nodes": [{"id": "a", "id": "b"}]}',
-        b'{"nodes": [{"x": 1}]}',  # no id
-        b'{"nodes": ["a"]}',
-        b'{"nodes": [{"id": "a"}, {"id": "b"}], "arrows": [["a"]]}',
         b'{"nodes": [{"id": "a"}, {"id": "b"}], "arrows": [["a", "b"], ["b", "a"]]}',  # cycle
-        b'{"nodes": [{"id": "a", "kind": "boss"}]}',
-        b"\xff\xfe not text",
         b"",
     ],
 )
 def test_a_bad_payload_is_no_selection(qapp, raw):
     assert selection_from_mime(_mime(raw)) is None
+
+
+def test_other_clipboard_content_is_no_selection(qapp):
+    mime = QMimeData()
+    mime.setText("a\nb")
+    assert selection_from_mime(mime) is None
+    assert selection_from_mime(None) is None
 
 
 def test_a_good_payload_comes_back_checked(qapp):

@@ -41,6 +41,12 @@ from covariscope.model.commands import (
 from covariscope.model.diagram import DiagramEvent, Node
 from covariscope.model.layout import layered_layout
 from covariscope.model.project import Project, ProjectEvent
+from covariscope.model.selection import (
+    PASTE_OFFSET,
+    Selection,
+    copied_selection,
+    paste_command,
+)
 from covariscope.qt.canvas import menus
 from covariscope.qt.canvas.items import (
     ArrowItem,
@@ -59,7 +65,6 @@ __all__ = ["COLUMN_MIME", "DiagramScene", "column_from_mime"]
 #: Drag-and-drop type of a dataset column (the column name, UTF-8).
 COLUMN_MIME = "application/x-covariscope-column"
 
-_PASTE_OFFSET = 32.0
 #: how far a proxy link moves aside when an arrow joins the same two nodes
 _PROXY_SHIFT = 9.0
 
@@ -220,62 +225,18 @@ class DiagramScene(QGraphicsScene):
         if text is not None and node_id in self.nodes:
             self.rename_node(node_id, text)
 
-    def copy_selection(self) -> dict[str, Any]:
+    def copy_selection(self) -> Selection:
         """The selected nodes with the arrows and proxy links among them."""
-        ids = self.selected_node_ids()
-        chosen = set(ids)
-        d = self.project.diagram
-        every = {n["id"]: n for n in d.to_dict()["nodes"]}
-        return {
-            "format": "covariscope-selection",
-            "nodes": [every[i] for i in ids],
-            "arrows": [[a, b] for a, b in d.arrows if a in chosen and b in chosen],
-            "proxies": [[a, b] for a, b in d.proxies if a in chosen and b in chosen],
-        }
+        return copied_selection(self.project.diagram, self.selected_node_ids())
 
-    def paste(self, clip: dict[str, Any], offset: tuple[float, float] | None = None) -> list[str]:
+    def paste(self, clip: Selection, offset: tuple[float, float] | None = None) -> list[str]:
         """Add copies of copied nodes (fresh ids, shifted) with their links, as
-        one undo step; returns the new ids.  A copied exposure or outcome
-        comes in as a covariate when the diagram already has one."""
-        if not clip or not clip.get("nodes"):
+        one undo step, and select them; returns the new ids (see
+        :func:`~covariscope.model.selection.paste_command`)."""
+        pasted = paste_command(self.project, clip, offset or (PASTE_OFFSET, PASTE_OFFSET))
+        if pasted is None or not self.push(pasted.command):
             return []
-        dx, dy = offset if offset is not None else (_PASTE_OFFSET, _PASTE_OFFSET)
-        d = self.project.diagram
-        taken = set(d.node_ids)
-        kinds_held = {n.kind for n in d.nodes}
-        renamed: dict[str, str] = {}
-        steps: list[Command] = []
-        for raw in clip["nodes"]:
-            new_id = d.fresh_id(raw["id"])
-            stem, n = new_id, 2
-            while new_id in taken:
-                new_id, n = f"{stem}_{n}", n + 1
-            taken.add(new_id)
-            renamed[raw["id"]] = new_id
-            kind = raw.get("kind", "covariate")
-            if kind in kinds_held:
-                kind = "covariate"
-            kinds_held.add(kind)
-            node = Node(
-                new_id,
-                label=raw.get("label", new_id),
-                kind=kind,
-                measured=raw.get("measured", True),
-                column=raw.get("column"),
-                x=float(raw.get("x", 0.0)) + dx,
-                y=float(raw.get("y", 0.0)) + dy,
-                note=raw.get("note", ""),
-            )
-            steps.append(AddNode(self.project, node))
-        for a, b in clip.get("arrows", []):
-            if a in renamed and b in renamed:
-                steps.append(AddArrow(self.project, renamed[a], renamed[b]))
-        for a, b in clip.get("proxies", []):
-            if a in renamed and b in renamed:
-                steps.append(AddProxy(self.project, renamed[a], renamed[b]))
-        if not self.push(Macro(f"Paste {len(renamed)} nodes", steps)):
-            return []
-        new_ids = list(renamed.values())
+        new_ids = list(pasted.ids)
         self.select_ids(new_ids)
         return new_ids
 
