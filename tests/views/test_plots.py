@@ -22,11 +22,15 @@ from covariscope.views.plots import (
     ScatterPicture,
     SharesPicture,
     analysed_rows,
+    covariate_heading,
     data_picture,
     distribution_picture,
+    endpoint_heading,
+    estimates_caption,
     estimates_picture,
     holds_a_random_sample,
     reference_first,
+    sample_picture,
 )
 
 
@@ -207,3 +211,32 @@ def test_endpoint_distribution_counts_or_histogram(project):
     assert (len(histogram.values), histogram.bins) == (500, 40)
     assert (histogram.x_label, histogram.y_label) == ("dust", "rows")
     assert distribution_picture(exposure, project, None, None) == PlotMessage("No data bound")
+
+
+def test_the_dialog_picture_reads_the_analytic_sample(demo_study, demo_folder):
+    project, result, js = demo_study
+    s = node_diagnostics(project, result, "income")
+    frame = pd.read_csv(demo_folder / "demo_cohort.csv")
+    picture = sample_picture(s, project, None, frame, result.sample)
+    assert isinstance(picture, ScatterPicture)
+    assert len(picture.x) == js["sample"]["used"]
+    assert "random sample" not in picture.title
+    # before an analysis there is no sample: every complete row of the file
+    everything = sample_picture(s, project, None, frame, None)
+    assert isinstance(everything, ScatterPicture)
+    assert len(everything.x) == len(frame[["dust", "income"]].dropna())
+
+
+def test_headings_and_the_models_caption(demo_study):
+    project, result, js = demo_study
+    s = node_diagnostics(project, result, "income")
+    assert covariate_heading(s) == "Income — covariate (column income)"
+    unbound = node_diagnostics(project, result, "early_life")
+    assert covariate_heading(unbound).endswith("— covariate (no column)")
+    used = js["sample"]["used"]
+    assert estimates_caption(s, result.sample) == (
+        f"Estimates: {result.effect_measure}; the same {used:,} rows in every model."
+    )
+    assert estimates_caption(node_diagnostics(project, None, "income"), None) == ""
+    outcome = endpoint_diagnostics(project, result, "lungfn")
+    assert endpoint_heading(outcome) == f"{outcome.title} (column lungfn)"

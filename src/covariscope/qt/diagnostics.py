@@ -12,7 +12,6 @@ from collections.abc import Mapping
 from pathlib import Path
 from typing import Any
 
-import pandas as pd
 from matplotlib.backends.backend_qtagg import FigureCanvasQTAgg
 from matplotlib.figure import Figure
 from PySide6.QtCore import Qt, Signal
@@ -55,11 +54,12 @@ from covariscope.views.diagnostics import (
 )
 from covariscope.views.keep_choice import KeepChoice, keep_choice
 from covariscope.views.plots import (
-    analysed_rows,
-    data_picture,
+    covariate_heading,
     distribution_picture,
+    endpoint_heading,
+    estimates_caption,
     estimates_picture,
-    holds_a_random_sample,
+    sample_picture,
 )
 from covariscope.views.residual import FORM_CHOICES
 from covariscope.vocabulary import FAMILY_TERMS
@@ -365,9 +365,7 @@ class CovariateDialog(NodeDialog):
         s = node_diagnostics(project, result, self.node_id, profiles)
         self.state = s
         self.setWindowTitle(s.title)
-        self.heading.setText(
-            f"{s.label} — covariate" + (f" (column {s.column})" if s.column else " (no column)")
-        )
+        self.heading.setText(covariate_heading(s))
         self.verdict.setText(f"<b>Role:</b> {s.role}<br><b>Verdict:</b> {s.verdict}<br>{s.reason}")
         self.checks.setText(
             "<ul style='margin-left:-20px'>"
@@ -380,20 +378,16 @@ class CovariateDialog(NodeDialog):
             most=5,
         )
         _fill(self.figures, list(s.figures), fit=False)
-        measure = f"Estimates: {s.effect_measure}" if s.effect_measure else ""
         sample = result.sample if result is not None else None
-        if measure and sample is not None:
-            measure += f"; the same {sample.used:,} rows in every model."
-        self.messages.setText(measure)
+        self.messages.setText(estimates_caption(s, sample))
         self.set_note(s.note)
         self._show_keep(keep_choice(project, result, self.node_id))
         self.form_box.setVisible(s.knots is not None)
         if s.knots is not None:
             self.form.setCurrentIndex(max(self.form.findData(s.knots), 0))
         self._plot_estimates(s, result.family if result is not None else project.analysis.family)
-        rows = analysed_rows(sample, frame, s)
-        of_rows = sample.used if holds_a_random_sample(sample, rows) else None
-        self._plot_data(s, project, profiles, rows, of_rows)
+        draw_data(self.data_figure, sample_picture(s, project, profiles, frame, sample))
+        self.data_canvas.draw_idle()
         self._plot_joint(s)
         self._plot_modification(s)
 
@@ -484,18 +478,6 @@ class CovariateDialog(NodeDialog):
         draw_estimates(self.estimate_figure, estimates_picture(s, family))
         self.estimate_canvas.draw_idle()
 
-    def _plot_data(
-        self,
-        s: NodeDiagnostics,
-        project: Project,
-        profiles: Profiles,
-        frame: pd.DataFrame | None,
-        of_rows: int | None = None,
-    ) -> None:
-        """``of_rows``: the analytic sample's size when ``frame`` holds only a random sample of it."""
-        draw_data(self.data_figure, data_picture(s, project, profiles, frame, of_rows))
-        self.data_canvas.draw_idle()
-
 
 class EndpointDialog(NodeDialog):
     """The exposure's or outcome's distribution, family and missing data."""
@@ -543,7 +525,7 @@ class EndpointDialog(NodeDialog):
         s = endpoint_diagnostics(project, result, self.node_id, profiles)
         self.state = s
         self.setWindowTitle(s.title)
-        self.heading.setText(s.title + (f" (column {s.column})" if s.column else ""))
+        self.heading.setText(endpoint_heading(s))
         self.family.setCurrentIndex(max(self.family.findData(s.family), 0))
         self.missing.setText(s.missing)
         self.lines.setText("\n".join(s.lines))

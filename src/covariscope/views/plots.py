@@ -37,11 +37,15 @@ __all__ = [
     "SharesPicture",
     "analysed_rows",
     "column_type",
+    "covariate_heading",
     "data_picture",
     "distribution_picture",
+    "endpoint_heading",
+    "estimates_caption",
     "estimates_picture",
     "holds_a_random_sample",
     "reference_first",
+    "sample_picture",
 ]
 
 #: the most rows the covariate-against-exposure plot draws (a random sample past it)
@@ -274,6 +278,21 @@ def _shares(
     )
 
 
+def sample_picture(
+    s: NodeDiagnostics,
+    project: Project,
+    profiles: Profiles,
+    frame: pd.DataFrame | None,
+    sample: CompleteCases | AnalyticSample | None,
+) -> DataPicture:
+    """The covariate against the exposure in the rows the models used: the
+    analytic sample's rows of ``frame`` (counted against the whole analytic
+    sample when ``frame`` holds only a random sample of it)."""
+    rows = analysed_rows(sample, frame, s)
+    of_rows = sample.used if holds_a_random_sample(sample, rows) else None
+    return data_picture(s, project, profiles, rows, of_rows)
+
+
 def data_picture(
     s: NodeDiagnostics,
     project: Project,
@@ -334,3 +353,24 @@ def distribution_picture(
             title,
         )
     return HistogramPicture(values.to_numpy(dtype=float), 40, s.column, "rows", title)
+
+
+def covariate_heading(s: NodeDiagnostics) -> str:
+    """The covariate dialog's heading: its label and the column it reads."""
+    column = f" (column {s.column})" if s.column else " (no column)"
+    return f"{s.label} — covariate{column}"
+
+
+def endpoint_heading(s: EndpointDiagnostics) -> str:
+    """The exposure's or outcome's dialog heading, with the column it reads."""
+    return s.title + (f" (column {s.column})" if s.column else "")
+
+
+def estimates_caption(s: NodeDiagnostics, sample: CompleteCases | AnalyticSample | None) -> str:
+    """Under the comparison models: the effect measure and the rows every model used."""
+    if not s.effect_measure:
+        return ""
+    caption = f"Estimates: {s.effect_measure}"
+    if sample is not None:
+        caption += f"; the same {sample.used:,} rows in every model."
+    return caption
