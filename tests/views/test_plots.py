@@ -240,3 +240,27 @@ def test_headings_and_the_models_caption(demo_study):
     assert estimates_caption(node_diagnostics(project, None, "income"), None) == ""
     outcome = endpoint_diagnostics(project, result, "lungfn")
     assert endpoint_heading(outcome) == f"{outcome.title} (column lungfn)"
+
+
+def test_modification_strata_are_named_with_their_rows():
+    from covariscope.views.modification import ModificationView
+
+    points = (("never", 1.2, 0.9, 1.6, 1200), ("current", 2.0, 1.4, 2.9, 15300))
+    view = ModificationView("Smoking", points, True, "risk ratio", "")
+    assert view.tick_labels == ("never\nn = 1,200", "current\nn = 15,300")
+    assert view.null == 1.0
+    difference = ModificationView("Smoking", points, False, "mean difference", "")
+    assert difference.null == 0.0
+
+
+def test_the_demo_modification_picture_matches_its_points(demo_study):
+    project, result, _ = demo_study
+    views = [node_diagnostics(project, result, n).modification for n in result.modification]
+    shown = [v for v in views if v is not None]
+    assert shown, "the demo examines effect modification for some covariate"
+    for view in shown:
+        assert len(view.tick_labels) == len(view.points)
+        assert all(
+            label.endswith(f"n = {p[4]:,}")
+            for label, p in zip(view.tick_labels, view.points, strict=True)
+        )

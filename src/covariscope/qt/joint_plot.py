@@ -8,7 +8,7 @@ from __future__ import annotations
 import numpy as np
 from matplotlib.figure import Figure
 
-from covariscope.views.joint_picture import PictureView
+from covariscope.views.joint_picture import INTERVALS_TITLE, NO_GROUP, PictureView
 
 __all__ = ["draw_picture"]
 
@@ -25,7 +25,7 @@ def draw_picture(fig: Figure, view: PictureView | None) -> None:
         ax.text(
             0.5,
             0.5,
-            "This covariate is in no collinear group,\nso there is no joint region to draw.",
+            NO_GROUP,
             ha="center",
             va="center",
             transform=ax.transAxes,
@@ -63,5 +63,5 @@ def draw_picture(fig: Figure, view: PictureView | None) -> None:
     intervals.set_yticks(ys, [i[0] for i in view.intervals], fontsize=8)
     intervals.axvline(0.0, color="#BBBBBB", lw=0.6)
     intervals.set_xlabel(view.interval_label, fontsize=8)
-    intervals.set_title("Each one's interval and their sum's", fontsize=9)
+    intervals.set_title(INTERVALS_TITLE, fontsize=9)
     intervals.tick_params(labelsize=7)

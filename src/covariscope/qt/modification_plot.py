@@ -7,7 +7,7 @@ from __future__ import annotations
 import numpy as np
 from matplotlib.figure import Figure
 
-from covariscope.views.modification import ModificationView
+from covariscope.views.modification import NOT_EXAMINED, ModificationView
 
 __all__ = ["draw_modification"]
 
@@ -20,8 +20,7 @@ def draw_modification(fig: Figure, view: ModificationView | None) -> None:
         ax.text(
             0.5,
             0.5,
-            "Effect modification is examined for the candidate covariates\n"
-            "once the recommended model is fitted.",
+            NOT_EXAMINED,
             ha="center",
             va="center",
             transform=ax.transAxes,
@@ -33,8 +32,8 @@ def draw_modification(fig: Figure, view: ModificationView | None) -> None:
     lo = np.array([p[2] for p in view.points])
     hi = np.array([p[3] for p in view.points])
     ax.errorbar(est, ys, xerr=[est - lo, hi - est], fmt="D", color="#009E73", capsize=4)
-    ax.set_yticks(ys, [f"{p[0]}\nn = {p[4]:,}" for p in view.points], fontsize=8)
-    ax.axvline(1.0 if view.ratio else 0.0, color="#5A5A5A", lw=0.8, ls="--")
+    ax.set_yticks(ys, list(view.tick_labels), fontsize=8)
+    ax.axvline(view.null, color="#5A5A5A", lw=0.8, ls="--")
     if view.ratio:
         ax.set_xscale("log")
     ax.set_xlabel(view.axis_label, fontsize=8)

@@ -17,7 +17,12 @@ from covariscope.analysis.families import family_of
 from covariscope.analysis.joint_region import CollinearityPicture
 from covariscope.views.format import number
 
-__all__ = ["PictureView", "picture_views"]
+__all__ = ["INTERVALS_TITLE", "NO_GROUP", "PictureView", "picture_views"]
+
+#: What the collinearity plot says for a covariate in no collinear group.
+NO_GROUP = "This covariate is in no collinear group,\nso there is no joint region to draw."
+#: The title over the intervals beside the joint region.
+INTERVALS_TITLE = "Each one's interval and their sum's"
 
 
 @dataclass(frozen=True)

@@ -13,6 +13,7 @@ from covariscope.views.format import is_number, number
 
 __all__ = [
     "NOT_CONFOUNDING",
+    "NOT_EXAMINED",
     "ModificationView",
     "flagged_lines",
     "modification_line",
@@ -23,6 +24,12 @@ __all__ = [
 NOT_CONFOUNDING = (
     "Modification is not confounding: it changes no verdict, and it is no reason to "
     "adjust for the covariate or not to."
+)
+
+#: What the plot says for a covariate whose modification was not examined.
+NOT_EXAMINED = (
+    "Effect modification is examined for the candidate covariates\n"
+    "once the recommended model is fitted."
 )
 
 
@@ -36,6 +43,16 @@ class ModificationView:
     ratio: bool
     axis_label: str
     summary: str
+
+    @property
+    def tick_labels(self) -> tuple[str, ...]:
+        """Each stratum named with its rows, top line first as the points are."""
+        return tuple(f"{p[0]}\nn = {p[4]:,}" for p in self.points)
+
+    @property
+    def null(self) -> float:
+        """The no-effect line: 1 for a ratio, 0 for a difference."""
+        return 1.0 if self.ratio else 0.0
 
 
 def _p(p: float) -> str:
