@@ -264,3 +264,12 @@ def test_the_demo_modification_picture_matches_its_points(demo_study):
             label.endswith(f"n = {p[4]:,}")
             for label, p in zip(view.tick_labels, view.points, strict=True)
         )
+
+
+def test_each_plot_is_saved_beside_the_chosen_file():
+    from pathlib import Path
+
+    from covariscope.views.plots import plot_path
+
+    assert plot_path(Path("/out/age.svg"), "data") == Path("/out/age-data.svg")
+    assert plot_path(Path("/out/age"), "estimates") == Path("/out/age-estimates.png")

@@ -59,6 +59,7 @@ from covariscope.views.plots import (
     endpoint_heading,
     estimates_caption,
     estimates_picture,
+    plot_path,
     sample_picture,
 )
 from covariscope.views.residual import FORM_CHOICES
@@ -439,7 +440,6 @@ class CovariateDialog(NodeDialog):
 
     def save_plots(self, target: Path) -> list[Path]:
         """Write each shown plot beside ``target``: ``<stem>-<plot><suffix>`` (PNG by default)."""
-        suffix = target.suffix or ".png"
         plots = [("estimates", self.estimate_figure, True), ("data", self.data_figure, True)]
         plots.append(("collinearity", self.joint_figure, self.plots.isTabEnabled(self._joint_tab)))
         plots.append(
@@ -452,7 +452,7 @@ class CovariateDialog(NodeDialog):
         written = []
         for name, figure, shown in plots:
             if shown:
-                path = target.with_name(f"{target.stem}-{name}{suffix}")
+                path = plot_path(target, name)
                 figure.savefig(path, dpi=150)
                 written.append(path)
         return written

@@ -13,6 +13,7 @@ from __future__ import annotations
 
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
+from pathlib import Path
 from typing import TypeGuard
 
 import numpy as np
@@ -44,6 +45,7 @@ __all__ = [
     "estimates_caption",
     "estimates_picture",
     "holds_a_random_sample",
+    "plot_path",
     "reference_first",
     "sample_picture",
 ]
@@ -374,3 +376,9 @@ def estimates_caption(s: NodeDiagnostics, sample: CompleteCases | AnalyticSample
     if sample is not None:
         caption += f"; the same {sample.used:,} rows in every model."
     return caption
+
+
+def plot_path(target: Path, plot: str) -> Path:
+    """Where one plot of a dialog is saved when the user chose ``target``:
+    beside it, ``<stem>-<plot><suffix>`` (PNG when ``target`` names no type)."""
+    return target.with_name(f"{target.stem}-{plot}{target.suffix or '.png'}")
