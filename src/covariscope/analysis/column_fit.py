@@ -10,7 +10,7 @@ over the rows instead of five or six."""
 
 from __future__ import annotations
 
-from collections.abc import Mapping, Sequence
+from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass
 
 import numpy as np
@@ -19,7 +19,15 @@ from covariscope.analysis.design import Design
 from covariscope.analysis.families import Fitter, family_of
 from covariscope.analysis.linear import LinearSummary
 
-__all__ = ["ColumnFit", "base_fit", "fit_columns", "fit_extra", "model_matrix", "start_from"]
+__all__ = [
+    "ColumnFit",
+    "base_fit",
+    "fit_columns",
+    "fit_extra",
+    "model_matrix",
+    "near_or_base",
+    "start_from",
+]
 
 #: rows per block when the extra columns are crossed with the design
 _BLOCK_ROWS = 65536
@@ -226,3 +234,32 @@ def base_fit(
     names = [design.column_names[j] for j in cols]
     fitted = fit_extra(design, cols, [], names, summary=summary)
     return None if isinstance(fitted, str) else fitted
+
+
+def near_or_base(
+    design: Design,
+    terms: Sequence[str],
+    near: ColumnFit | None,
+    count: int,
+    on_fit: Callable[[int, int], None] | None,
+    *,
+    summary: LinearSummary | None = None,
+) -> tuple[ColumnFit | None, Callable[[int], None], int]:
+    """The fit a table of ``count`` models starts from, and how it numbers its fits.
+
+    ``near`` when given; otherwise the base fit (`base_fit`), fitted here as
+    fit 1 of the table when there is anything to fit.  Returns the start, a
+    call ``announce(k)`` that passes ``(k, total)`` to ``on_fit``, and the
+    number of the table's first own fit.
+    """
+    fitted_here = near is None and count > 0
+    total = count + fitted_here
+
+    def announce(k: int) -> None:
+        if on_fit is not None:
+            on_fit(k, total)
+
+    if fitted_here:
+        announce(1)
+        near = base_fit(design, terms, summary=summary)
+    return near, announce, 1 + fitted_here

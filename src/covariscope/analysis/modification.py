@@ -36,8 +36,8 @@ import numpy as np
 
 from covariscope.analysis.column_fit import (
     ColumnFit,
-    base_fit,
     fit_extra,
+    near_or_base,
     start_from,
 )
 from covariscope.analysis.design import Design
@@ -313,19 +313,10 @@ def modification_table(
     if any(t not in design.blocks for t in terms):
         return {}
     wanted = [c for c in candidates if c in design.blocks and c not in design.constant]
-    fitted_here = near is None and bool(wanted)
-    total = len(wanted) + fitted_here
-
-    def starting(k: int) -> None:
-        if on_fit is not None:
-            on_fit(k, total)
-
-    if near is None and wanted:
-        starting(1)
-        near = base_fit(design, terms, summary=summary)
+    near, announce, first = near_or_base(design, terms, near, len(wanted), on_fit, summary=summary)
     out: dict[str, Modification] = {}
-    for k, c in enumerate(wanted, start=1 + fitted_here):
-        starting(k)
+    for k, c in enumerate(wanted, start=first):
+        announce(k)
         out[c] = effect_modification(
             design,
             terms,

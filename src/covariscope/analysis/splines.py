@@ -19,8 +19,8 @@ import numpy as np
 
 from covariscope.analysis.column_fit import (
     ColumnFit,
-    base_fit,
     fit_extra,
+    near_or_base,
     start_from,
 )
 from covariscope.analysis.design import Design
@@ -171,10 +171,11 @@ def residual_table(
     left out.  Every fit starts from ``near``, the fit of exposure + ``terms``
     (`~covariscope.analysis.column_fit.base_fit`; fitted here when not given).
     With ``summary`` (the design's means and co-moments) a linear model reads
-    only its own new columns.  ``on_fit(k, n)`` is called before each of the ``n`` models is fitted (the
-    base fit first when it is fitted here, then two per confounder: linear,
-    spline; a check that stops early skips its numbers); whatever it raises
-    stops the table between two fits (the window's cancel).
+    only its own new columns.  ``on_fit(k, n)`` is called before each of the
+    ``n`` models is fitted (the base fit first when it is fitted here, then two
+    per confounder: linear, spline; a check that stops early skips its
+    numbers); whatever it raises stops the table between two fits (the
+    window's cancel).
 
     Examples
     --------
@@ -199,16 +200,9 @@ def residual_table(
         and not design.blocks[c].levels
         and c not in design.constant
     ]
-    fitted_here = near is None and bool(examined)
-    total = 2 * len(examined) + fitted_here
-
-    def starting(k: int) -> None:
-        if on_fit is not None:
-            on_fit(k, total)
-
-    if near is None and examined:
-        starting(1)
-        near = base_fit(design, terms, summary=summary)
+    near, announce, first = near_or_base(
+        design, terms, near, 2 * len(examined), on_fit, summary=summary
+    )
     out: dict[str, ResidualCheck] = {}
     for i, c in enumerate(examined):
         block = design.blocks[c]
@@ -222,7 +216,7 @@ def residual_table(
             change_guide=change_guide,
             near=near,
             summary=summary,
-            on_fit=_numbered(1 + fitted_here + 2 * i, starting),
+            on_fit=_numbered(first + 2 * i, announce),
         )
     return out
 
