@@ -176,14 +176,22 @@ def test_both_categorical_get_stacked_shares(project):
     frame["dust"] = (frame["dust"] > 0).astype(int)
     picture = data_picture(s, project, None, frame)
     assert isinstance(picture, SharesPicture)
-    assert picture.categories == ("current", "former", "never")
+    # Both in the order the models compare them, reference first (as the boxes):
+    # smoking's reference is "never" in the demo project.
+    assert picture.categories == ("never", "current", "former")
     name = s.exposure_label
-    assert [label for label, _ in picture.stacks] == [f"{name} = 0", f"{name} = 1"]
+    assert [label for label, _ in picture.stacks] == ["0", "1"]
+    assert picture.legend_title == name
     totals = np.sum([shares for _, shares in picture.stacks], axis=0)
     assert np.allclose(totals, 1.0)
     current = frame[frame["smoke"] == "current"]
-    assert picture.stacks[1][1][0] == pytest.approx(current["dust"].mean())
+    assert picture.stacks[1][1][1] == pytest.approx(current["dust"].mean())
     assert picture.y_label == f"share by {name}"
+    project.update_settings(reference_levels={**project.analysis.reference_levels, "dust": "1"})
+    flipped = data_picture(s, project, None, frame)
+    assert isinstance(flipped, SharesPicture)
+    assert [label for label, _ in flipped.stacks] == ["1", "0"]
+    assert flipped.stacks[0][1] == picture.stacks[1][1]
 
 
 def test_unbound_covariate_gets_a_sentence(project):

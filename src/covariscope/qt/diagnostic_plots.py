@@ -98,7 +98,20 @@ def _shares(ax: Axes, picture: SharesPicture) -> None:
             edgecolor="white",
         )
         bottom += np.array(shares)
-    ax.legend(fontsize=8)
+    # The legend (the exposure's levels, under its name) sits in a band above
+    # the bars, which end at a share of 1, so that it never covers them.
+    columns = max(min(len(picture.stacks), 4), 1)
+    lines = 1 + -(-len(picture.stacks) // columns)
+    ax.set_ylim(0.0, 1.0 + 0.1 * lines)
+    ax.set_yticks([0.0, 0.25, 0.5, 0.75, 1.0])
+    ax.legend(
+        fontsize=8,
+        title=picture.legend_title,
+        title_fontsize=8,
+        loc="upper center",
+        ncol=columns,
+        frameon=False,
+    )
 
 
 def draw_data(fig: Figure, picture: DataPicture) -> None:

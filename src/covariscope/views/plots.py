@@ -116,11 +116,13 @@ class SharesPicture:
     """Stacked shares of the exposure's levels within each covariate level."""
 
     categories: tuple[str, ...]
-    #: (legend label, share in each category) per exposure level
+    #: (exposure level, share in each category) per exposure level
     stacks: tuple[tuple[str, tuple[float, ...]], ...]
     x_label: str
     y_label: str
     title: str
+    #: what the levels in the legend are levels of (the exposure)
+    legend_title: str = ""
 
 
 @dataclass(frozen=True)
@@ -268,15 +270,31 @@ def _boxes(
 
 
 def _shares(
-    data: pd.DataFrame, xcol: str, ccol: str, s: NodeDiagnostics, x_name: str, title: str
+    data: pd.DataFrame,
+    xcol: str,
+    ccol: str,
+    s: NodeDiagnostics,
+    x_name: str,
+    context: tuple[Project, Profiles, str],
 ) -> SharesPicture:
+    """The exposure's levels stacked within each covariate level, both in the
+    order the models compare them (reference first), as the boxes are."""
+    project, profiles, title = context
     table = data.groupby([ccol, xcol]).size().unstack(fill_value=0)
-    shares = table.div(table.sum(axis=1), axis=0)
-    stacks = tuple(
-        (f"{x_name} = {col}", tuple(float(v) for v in shares[col])) for col in shares.columns
+    table = table.reindex(
+        index=reference_first(project, profiles, ccol, data[ccol]),
+        columns=reference_first(project, profiles, xcol, data[xcol]),
+        fill_value=0,
     )
+    shares = table.div(table.sum(axis=1), axis=0)
+    stacks = tuple((str(col), tuple(float(v) for v in shares[col])) for col in shares.columns)
     return SharesPicture(
-        tuple(str(v) for v in shares.index), stacks, s.label, f"share by {x_name}", title
+        tuple(str(v) for v in shares.index),
+        stacks,
+        s.label,
+        f"share by {x_name}",
+        title,
+        legend_title=x_name,
     )
 
 
@@ -325,7 +343,7 @@ def data_picture(
     if x_cat and not s.categorical:
         return _boxes(data, complete, xcol, ccol, (x_name, s.label), context)
     if x_cat and s.categorical:
-        return _shares(data, xcol, ccol, s, x_name, title)
+        return _shares(data, xcol, ccol, s, x_name, context)
     return ScatterPicture(data[ccol].to_numpy(), data[xcol].to_numpy(), s.label, x_name, title)
 
 
