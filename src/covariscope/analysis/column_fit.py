@@ -29,9 +29,6 @@ __all__ = [
     "start_from",
 ]
 
-#: rows per block when the extra columns are crossed with the design
-_BLOCK_ROWS = 65536
-
 
 @dataclass(frozen=True)
 class ColumnFit:
@@ -193,7 +190,7 @@ def fit_extra(
 def _linear_extra(
     design: Design, cols: list[int], extra: Sequence[np.ndarray], summary: LinearSummary
 ) -> ColumnFit | str:
-    from covariscope.analysis.linear import solve_ols
+    from covariscope.analysis.linear import centred_cross, solve_ols
 
     n = design.n
     E = np.column_stack([e.reshape(n, -1) for e in extra]) if extra else np.empty((n, 0))
@@ -201,14 +198,13 @@ def _linear_extra(
     keep = [*cols, y]
     p, k = len(cols), E.shape[1]
     mean_e = E.mean(axis=0) if n else np.zeros(k)
-    cross = np.zeros((p + 1, k))
-    square = np.zeros((k, k))
-    if k:
-        mean_keep = summary.mean[keep]
-        for s in range(0, n, _BLOCK_ROWS):
-            block = E[s : s + _BLOCK_ROWS] - mean_e
-            cross += (design.values[s : s + _BLOCK_ROWS][:, keep] - mean_keep).T @ block
-            square += block.T @ block
+    centred = E - mean_e
+    cross = (
+        centred_cross(design.values, summary.mean[keep], centred, keep)
+        if k
+        else np.zeros((p + 1, 0))
+    )
+    square = centred.T @ centred
     q = p + k + 1
     mean = np.concatenate([summary.mean[cols], mean_e, summary.mean[[y]]])
     comoment = np.empty((q, q))

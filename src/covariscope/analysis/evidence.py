@@ -36,7 +36,7 @@ from covariscope.analysis.collinearity import (
     vif,
 )
 from covariscope.analysis.contrasts import ExposureJoint, joint_summary
-from covariscope.analysis.design import Design, constant_message
+from covariscope.analysis.design import Block, Design, constant_message
 from covariscope.analysis.distributions import t_ppf
 from covariscope.analysis.families import Fitter, family_of
 from covariscope.analysis.fits import Fit
@@ -256,11 +256,11 @@ class EvidenceEngine:
             todo: list[tuple[frozenset[str], tuple[str, ...], RowModel]] = []
             for terms in plan:
                 key = frozenset(terms)
-                if key in self._fits or key in {k for k, _, _ in todo}:
+                if key in self._fits or any(key == k for k, _, _ in todo):
                     continue
-                ordered = self.ordered(terms)
                 if any(t not in self._order for t in terms):
-                    continue
+                    continue  # fit() says what is unbound
+                ordered = self.ordered(terms)
                 cols = self.columns(ordered)
                 names = [design.column_names[c] for c in cols]
                 if self._precheck(ordered, len(cols) + 1):
@@ -853,6 +853,48 @@ def _pass_hook(
     return hook
 
 
+def _fit_plan(
+    engine: EvidenceEngine,
+    plan: Sequence[tuple[str, ...]],
+    together: dict[int, int],
+    cancel: CancelCallback | None,
+    progress: ProgressCallback | None,
+    pass_progress: PassCallback | None,
+) -> None:
+    """Fit the models of ``plan`` in order; ``together`` maps the first index
+    of a group that may share its reads of the rows to the index past it."""
+    total = len(plan)
+    for done, terms in enumerate(plan):
+        if cancel is not None and cancel():
+            raise EvidenceCancelledError("The evidence computation was cancelled.")
+        if done in together:
+            engine.fit_many(
+                plan[done : together[done]],
+                on_pass=_pass_hook(done + 1, total, cancel, pass_progress),
+            )
+        engine.fit(terms, on_pass=_pass_hook(done + 1, total, cancel, pass_progress))
+        if progress is not None:
+            progress(done + 1, total)
+
+
+def _vif_figures(
+    summary: LinearSummary, block: Block, full_vif: np.ndarray, vif_cols: list[int]
+) -> tuple[float | None, float | None, float | None, float | None, float | None]:
+    """(VIF, tolerance, auxiliary R², GVIF, GVIF^(1/(2 df))) of a covariate in the
+    full model; a block of several columns reads its GVIF^(1/df) as its VIF.
+    Tolerance, auxiliary R² and the GVIF root are None when the block is
+    degenerate (a VIF of 0 or NaN: not available)."""
+    if block.df == 1:
+        v = g = float(full_vif[vif_cols.index(block.index[0])])
+    else:
+        others = [j for j in vif_cols if j not in block.index]
+        g = gvif(summary, list(block.index), others)
+        v = g ** (1.0 / block.df)
+    if not (math.isfinite(v) and v > 0):
+        return v, None, None, g, None
+    return v, 1.0 / v, 1.0 - 1.0 / v, g, g ** (1.0 / (2 * block.df))
+
+
 def compute_evidence(
     engine: EvidenceEngine,
     *,
@@ -914,21 +956,10 @@ def compute_evidence(
     plan: list[tuple[str, ...]] = [(), *[(c,) for c in added_nodes], cands]
     plan += [tuple(t for t in cands if t != c) for c in cands]
     plan += [tuple(v) for v in sets.values()]
-    total = len(plan)
     # Models that start from the same fitted neighbour (crude + C from the
     # crude model, full − C from the full model) can share their reads of the rows.
     together = {1: 1 + len(added_nodes), 2 + len(added_nodes): 2 + len(added_nodes) + len(cands)}
-    for done, terms in enumerate(plan):
-        if cancel is not None and cancel():
-            raise EvidenceCancelledError("The evidence computation was cancelled.")
-        if done in together:
-            engine.fit_many(
-                plan[done : together[done]],
-                on_pass=_pass_hook(done + 1, total, cancel, pass_progress),
-            )
-        engine.fit(terms, on_pass=_pass_hook(done + 1, total, cancel, pass_progress))
-        if progress is not None:
-            progress(done + 1, total)
+    _fit_plan(engine, plan, together, cancel, progress, pass_progress)
 
     summary = engine.summary
     crude = engine.fit(())
@@ -966,17 +997,7 @@ def compute_evidence(
             parts = None if c in constant else _se_parts(engine, cands, rest)
             dropped_cmp = compare(full, without, near_zero=near_zero, se_ratio_parts=parts)
         if c in cands and c not in constant and full_vif is not None:
-            if block.df == 1:
-                v = g = float(full_vif[vif_cols.index(block.index[0])])
-            else:
-                others = [j for j in vif_cols if j not in block.index]
-                g = gvif(summary, list(block.index), others)
-                v = g ** (1.0 / block.df)
-            if g is not None and v is not None and math.isfinite(v) and v > 0:
-                # (a VIF of 0 or NaN comes from a degenerate block: not available)
-                g_root = g ** (1.0 / (2 * block.df))
-                tol = 1.0 / v
-                aux = 1.0 - tol
+            v, tol, aux, g, g_root = _vif_figures(summary, block, full_vif, vif_cols)
         joint = None
         if design.multilevel:
             g_added = 1.0 if c in constant else gvif(summary, x_cols, list(block.index))

@@ -34,6 +34,7 @@ __all__ = [
     "ALIAS_TOLERANCE",
     "LinearSummary",
     "OLSResult",
+    "centred_cross",
     "cholesky_lower",
     "inverse_lower",
     "is_rank_deficient",
@@ -164,6 +165,32 @@ class OLSResult:
         """Confidence limits of the slopes from the t distribution."""
         t = float(t_ppf(0.5 + level / 2.0, self.df_resid))
         return self.coef - t * self.se, self.coef + t * self.se
+
+
+def centred_cross(
+    values: np.ndarray,
+    mean: np.ndarray,
+    centred: np.ndarray,
+    cols: Sequence[int] | None = None,
+    *,
+    chunk_rows: int = 65536,
+) -> np.ndarray:
+    """Σ_r (values_r[cols] − mean)ᵀ centred_r: co-moments of ``values``' columns
+    (``mean`` their means) with columns already centred (n × k), block by block,
+    so that no centred copy of ``values`` is made.  Returns len(mean) × k.
+
+    >>> v = np.array([[1.0, 2.0], [3.0, 6.0], [5.0, 7.0]])
+    >>> o = np.array([[-1.0], [0.0], [1.0]])
+    >>> centred_cross(v, v.mean(axis=0), o).ravel().tolist()
+    [4.0, 5.0]
+    """
+    out = np.zeros((len(mean), centred.shape[1]))
+    for s in range(0, len(values), chunk_rows):
+        block = values[s : s + chunk_rows]
+        if cols is not None:
+            block = block[:, cols]
+        out += (block - mean).T @ centred[s : s + chunk_rows]
+    return out
 
 
 def cholesky_lower(a: np.ndarray) -> np.ndarray | None:

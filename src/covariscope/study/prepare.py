@@ -32,7 +32,7 @@ from covariscope.analysis.design import (
 )
 from covariscope.analysis.evidence import EvidenceCancelledError
 from covariscope.analysis.families import family_of
-from covariscope.analysis.linear import LinearSummary, linear_summary
+from covariscope.analysis.linear import LinearSummary, centred_cross, linear_summary
 from covariscope.data.coerce import coerce_column
 from covariscope.data.profile import ColumnProfile, check_settings_columns, profile_column
 from covariscope.data.sample import CompleteCases, complete_cases
@@ -592,22 +592,9 @@ def _extend(
     values = design.values
     for j in fresh:
         mean[j] = float(values[:, j].mean())
-    for j in fresh:
-        centred = values[:, j] - mean[j]
-        row = (
-            (values - mean).T @ centred
-            if q * len(values) < 4_000_000
-            else _chunked(values, mean, centred)
-        )
-        comoment[j, :] = row
-        comoment[:, j] = row
+    if fresh:
+        # one pass crosses every new column with the whole design
+        rows = centred_cross(values, mean, values[:, fresh] - mean[fresh])
+        comoment[:, fresh] = rows
+        comoment[fresh, :] = rows.T
     return LinearSummary(design.n, mean, comoment)
-
-
-def _chunked(
-    values: np.ndarray, mean: np.ndarray, centred: np.ndarray, rows: int = 65536
-) -> np.ndarray:
-    out = np.zeros(values.shape[1])
-    for s in range(0, len(values), rows):
-        out += (values[s : s + rows] - mean).T @ centred[s : s + rows]
-    return out
