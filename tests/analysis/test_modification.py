@@ -220,3 +220,25 @@ def test_reri_of_a_published_rate_table() -> None:
     assert mod.reri == pytest.approx((601.6 - expected_under_additivity) / 11.3, rel=1e-8)
     # the stratum rate ratios of smoking: 122.6 / 11.3 without asbestos, 601.6 / 58.4 with it
     assert [s.ratio for s in mod.strata] == pytest.approx([122.6 / 11.3, 601.6 / 58.4], rel=1e-8)
+
+
+@pytest.mark.parametrize("values", ["whole numbers", "continuous"])
+def test_quartile_strata_count_rows_nearest_each_quartile_lower_on_a_tie(values: str) -> None:
+    # Reference: the direct count, argmin of the n × 3 distances (numpy takes the
+    # first of equal minima); whole numbers put many rows exactly between two quartiles.
+    rng = np.random.default_rng(3)
+    n = 3000
+    m = rng.integers(0, 9, n).astype(float) if values == "whole numbers" else rng.normal(size=n)
+    x = rng.normal(size=n)
+    frame = pd.DataFrame({"x": x, "m": m, "y": x + m + rng.normal(size=n)})
+    design = make_design(
+        frame,
+        exposure=TermSpec("x", "continuous"),
+        covariates={"m": TermSpec("m", "continuous")},
+        outcome="y",
+        family="linear",
+    )
+    q = np.quantile(m, [0.25, 0.5, 0.75])
+    nearest = np.argmin(np.abs(m[:, None] - q[None, :]), axis=1)
+    expected = [int((nearest == k).sum()) for k in range(3)]
+    assert [s.n for s in effect_modification(design, [], "m").strata] == expected

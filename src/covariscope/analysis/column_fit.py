@@ -27,6 +27,7 @@ __all__ = [
     "model_matrix",
     "near_or_base",
     "start_from",
+    "takes_start",
 ]
 
 
@@ -180,11 +181,17 @@ def fit_extra(
     need only these sums), to rounding.  Other families, or no summary,
     build the model's matrix (`model_matrix`) and fit it.
     """
-    if family_of(design.family).fitter is Fitter.LEAST_SQUARES and summary is not None:
+    if summary is not None and not takes_start(design, summary):
         return _linear_extra(design, list(cols), extra, summary)
     return fit_columns(
         design, model_matrix(design, cols, *extra), names, start=start, ones_first=True
     )
+
+
+def takes_start(design: Design, summary: LinearSummary | None) -> bool:
+    """Whether `fit_extra` on this design reads its ``start``: not for a linear
+    model with the design's summary, solved from sums in one step."""
+    return not (family_of(design.family).fitter is Fitter.LEAST_SQUARES and summary is not None)
 
 
 def _linear_extra(

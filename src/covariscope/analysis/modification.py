@@ -134,26 +134,38 @@ def _wald(b: np.ndarray, V: np.ndarray, df_resid: int | None) -> tuple[float, fl
     return chi2, float(chi2_sf(chi2, k))
 
 
-def _strata_values(
-    design: Design, node: str
-) -> tuple[str, list[tuple[str, np.ndarray, np.ndarray]]]:
-    """(kind, [(label, weights on the product columns, row mask)]) for the covariate."""
+def _strata_values(design: Design, node: str) -> tuple[str, list[tuple[str, np.ndarray, int]]]:
+    """(kind, [(label, weights on the product columns, rows in the stratum)]) for the covariate.
+
+    A continuous covariate's rows are counted at the quartile nearest to
+    each (the lower one on a tie).
+    """
     block = design.blocks[node]
     m = block.values
     if block.levels:
-        rest = m.sum(axis=1) == 0
+        rest = int(np.count_nonzero(m.sum(axis=1) == 0))
         out = [(f"{block.levels[0]} (reference)", np.zeros(block.df), rest)]
         for j, text in enumerate(block.levels[1:]):
-            out.append((text, np.eye(block.df)[j], m[:, j] == 1))
+            out.append((text, np.eye(block.df)[j], int(np.count_nonzero(m[:, j] == 1))))
         return "levels", out
     col = m[:, 0] if block.raw is None else block.raw
     q = np.quantile(col, [0.25, 0.5, 0.75])
-    nearest = np.argmin(np.abs(col[:, None] - q[None, :]), axis=1)
     labels = ("25th percentile", "median", "75th percentile")
     return "quartiles", [
-        (f"{name} ({v:.3g})", np.array([v]), nearest == k)
-        for k, (name, v) in enumerate(zip(labels, q, strict=True))
+        (f"{name} ({v:.3g})", np.array([v]), count)
+        for name, v, count in zip(labels, q, _nearest_counts(col, q), strict=True)
     ]
+
+
+def _nearest_counts(col: np.ndarray, q: np.ndarray) -> tuple[int, int, int]:
+    """How many values lie nearest each of three points, the first point
+    winning a tie (as ``argmin`` of the distances would count them), with no
+    n × 3 array of distances."""
+    d0, d1, d2 = (np.abs(col - v) for v in q)
+    first = (d0 <= d1) & (d0 <= d2)
+    second = ~first & (d1 <= d2)
+    n0, n1 = int(np.count_nonzero(first)), int(np.count_nonzero(second))
+    return n0, n1, len(col) - n0 - n1
 
 
 def _spread(coefs: np.ndarray, ratio: bool) -> float:
@@ -243,7 +255,7 @@ def effect_modification(
                 b,
                 se,
                 ci,
-                int(rows.sum()),
+                rows,
                 math.exp(b) if ratio else None,
                 (math.exp(ci[0]), math.exp(ci[1])) if ratio else None,
             )

@@ -22,6 +22,7 @@ from covariscope.analysis.column_fit import (
     fit_extra,
     near_or_base,
     start_from,
+    takes_start,
 )
 from covariscope.analysis.design import Design
 from covariscope.analysis.families import family_of
@@ -109,7 +110,9 @@ def residual_confounding(
     if isinstance(linear, str):
         return ResidualCheck(node, knots, nan, nan, nan, False, linear)
     spl_names = [*names, *(f"{node}[spline {j + 1}]" for j in range(basis.shape[1]))]
-    start = start_from(linear, spl_names, given=_as_spline(linear, node, raw, basis, spl_names))
+    start = None
+    if takes_start(design, summary):  # a start costs a least-squares pass over the rows
+        start = start_from(linear, spl_names, given=_as_spline(linear, node, raw, basis, spl_names))
     if on_fit is not None:
         on_fit()
     spline = fit_extra(design, cols, [basis], spl_names, start=start, summary=summary)

@@ -11,7 +11,7 @@ the sentences), and nothing else; sentences are built here once per result.
 from __future__ import annotations
 
 import math
-from collections.abc import Callable, Mapping
+from collections.abc import Callable, Iterable, Mapping
 from dataclasses import dataclass
 
 import networkx as nx
@@ -43,7 +43,7 @@ from covariscope.study.facts import (
     would_open,
 )
 from covariscope.study.result import ESTIMATE_KEYS
-from covariscope.vocabulary import group_key
+from covariscope.vocabulary import Role, group_key, role_label
 
 __all__ = ["Decisions", "Question", "decide"]
 
@@ -236,6 +236,18 @@ def _recommend(
     return rec
 
 
+#: Most names a message lists before it counts the rest.
+NAMES_LISTED = 10
+
+
+def _some(names: Iterable[str]) -> str:
+    """``{a, b}``, or the first :data:`NAMES_LISTED` and how many more."""
+    items = list(names)
+    if len(items) <= NAMES_LISTED:
+        return format_set(items)
+    return f"{format_set(items[:NAMES_LISTED])} and {len(items) - NAMES_LISTED:,} more"
+
+
 def _stopped_searches(da: DiagramAnalysis, label: Mapping[str, str]) -> list[str]:
     """What the graph searches that stopped at their work budget could not say."""
     out: list[str] = []
@@ -266,6 +278,15 @@ def _stopped_searches(da: DiagramAnalysis, label: Mapping[str, str]) -> list[str
             f"The search for backdoor paths that {format_set(label[m] for m in da.review.unsearched)} "
             "would open in the proposed set stopped at its work budget (the diagram has very many "
             "paths): they are not marked harmful, but that is not shown either; check them by eye."
+        )
+    unsettled = [c for c, f in da.roles.items() if f.confounding_stopped]
+    if unsettled:
+        out.append(
+            f"The search for backdoor paths without a collider stopped at its work budget (the "
+            f"diagram has very many) before it could show that "
+            f"{_some(label[c] for c in unsettled)} lie on one: each lies on a chain of "
+            f"arrows from a common cause of the exposure and the outcome, so each is taken to "
+            f"be a {role_label(Role.CONFOUNDER)}; check them by eye."
         )
     stopped = [c for c, f in da.roles.items() if f.search_stopped]
     if stopped:
