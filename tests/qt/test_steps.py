@@ -13,7 +13,8 @@ def test_steps_run_one_per_turn_of_the_loop(qtbot):
     chain = StepChain()
     done: list[int] = []
     chain.start([lambda: done.append(1), lambda: done.append(2), lambda: done.append(3)])
-    assert done == [1] and chain.pending
+    assert done == [1]
+    assert chain.pending
     QApplication.processEvents()
     assert done == [1, 2]
     qtbot.waitUntil(lambda: not chain.pending)
@@ -30,7 +31,8 @@ def test_a_new_start_drops_the_steps_not_yet_run(qtbot):
     chain.start([lambda: done.append("c1"), lambda: done.append("c2")])
     chain.stop()
     QApplication.processEvents()
-    assert done[-1] == "c1" and not chain.pending
+    assert done[-1] == "c1"
+    assert not chain.pending
     chain.start([lambda: done.append("d1"), lambda: done.append("d2")])
     chain.finish()
     assert done[-2:] == ["d1", "d2"]
