@@ -37,7 +37,7 @@ from covariscope.qt.data_controller import DataController
 from covariscope.qt.data_panel import DataPanel
 from covariscope.qt.diagnostics import CovariateDialog, EndpointDialog, NodeDialog
 from covariscope.qt.estimates_strip import EstimatesStrip
-from covariscope.qt.geometry import restore_layout, save_layout, window_size
+from covariscope.qt.geometry import HeightShare, restore_layout, save_layout, window_size
 from covariscope.qt.glossary import GlossaryWindow
 from covariscope.qt.legend import LegendPanel
 from covariscope.qt.messages_bar import MessagesBar
@@ -66,6 +66,8 @@ __all__ = ["MainWindow"]
 LAYOUT_FIELDS = frozenset({"x", "y", "note"})
 #: Node fields no panel shows: editing them refreshes none.
 PLACE_FIELDS = frozenset({"x", "y"})
+#: The review table's share of the window's height (the main output), kept on resizes.
+REVIEW_SHARE = 0.4
 
 
 class MainWindow(QMainWindow):
@@ -153,6 +155,7 @@ class MainWindow(QMainWindow):
         self.resizeDocks(
             [self.docks["data"], self.docks["paths"]], [420, 150], Qt.Orientation.Vertical
         )
+        self.review_share = HeightShare(self, self.docks["review"], REVIEW_SHARE)
         self._size_review()
         self._fitted = False
         self._layout_settled = False
@@ -213,7 +216,8 @@ class MainWindow(QMainWindow):
         """The review table is the main output: give it a good share of the height."""
         if not shiboken6.isValid(self):
             return
-        review_height = max(260, int(self.height() * 0.4))
+        review_height = max(260, int(self.height() * REVIEW_SHARE))
+        self.review_share.share = review_height / max(self.height(), 1)
         self.resizeDocks([self.docks["review"]], [review_height], Qt.Orientation.Vertical)
         self.resizeDocks([self.docks["data"]], [450], Qt.Orientation.Horizontal)
 
@@ -698,6 +702,8 @@ class MainWindow(QMainWindow):
             self._layout_settled = True
             if not self._restored:
                 QTimer.singleShot(0, self._size_review)
+            else:  # the share the user left it at
+                QTimer.singleShot(0, self.review_share.remember)
         self._fit_soon()
 
     def _fit_soon(self) -> None:
