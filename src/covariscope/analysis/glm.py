@@ -51,6 +51,7 @@ __all__ = [
     "detect_separation",
     "fit_glm",
     "fit_glm_path",
+    "glm_fit_from_path",
     "information_and_score",
     "newton_glm",
 ]
@@ -400,6 +401,38 @@ def fit_glm_path(
         meat=link.robust,
         on_pass=on_pass,
     )
+    return glm_fit_from_path(
+        X,
+        y,
+        family,
+        path,
+        column_names=names,
+        terms=terms,
+        exposure_index=exposure_index,
+        cols=cols,
+    )
+
+
+def glm_fit_from_path(
+    X: Array,
+    y: Array,
+    family: str,
+    path: GlmPath,
+    *,
+    column_names: list[str],
+    terms: tuple[str, ...],
+    exposure_index: int,
+    cols: npt.NDArray[np.intp] | None = None,
+) -> tuple[Fit, GlmPath | None]:
+    """The :class:`Fit` a Newton path of :func:`fit_glm_path` ends in: an
+    aliased design named, separation found and worded, the sandwich formed
+    for a robust family, the cautions added.  Shared by the models fitted
+    one at a time and the models fitted in lockstep
+    (:mod:`covariscope.analysis.glm_batch`)."""
+    names = column_names
+    n = X.shape[0]
+    p = X.shape[1] if cols is None else len(cols)
+    link = family_of(family).glm
     if path.stop == "aliased":
         assert path.info is not None
         clauses = aliased_columns(path.info, names) or ["the columns are nearly collinear"]

@@ -102,6 +102,12 @@ class GlmLink:
         """Deviance part, residual y − μ, Newton weight, smallest and largest μ of one block."""
         raise NotImplementedError
 
+    def columns_sums(self, y: Array, eta: Array) -> tuple[Array, Array, Array, Array, Array]:
+        """:meth:`block_sums` of several models at once: ``eta`` holds one
+        column per model; the deviance parts, smallest and largest μ come
+        one per column."""
+        raise NotImplementedError
+
     def batch_sums(
         self, y: Array, eta: Array, saturated: bool
     ) -> tuple[float, Array, Array, float]:

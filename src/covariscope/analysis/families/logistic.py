@@ -41,6 +41,16 @@ class LogitLink(GlmLink):
         w = low * r
         return 2.0 * dev, y - mu, w, float(np.min(low)), float(np.max(mu))
 
+    def columns_sums(self, y: Array, eta: Array) -> tuple[Array, Array, Array, Array, Array]:
+        """:meth:`block_sums` column by column (one column of η per model)."""
+        e = np.exp(-np.abs(eta))
+        dev = np.log1p(e).sum(axis=0) + np.maximum(eta, 0.0).sum(axis=0) - y @ eta
+        r = 1.0 / (1.0 + e)
+        low = e * r
+        mu = np.where(eta >= 0.0, r, low)
+        w = low * r
+        return 2.0 * dev, y[:, None] - mu, w, low.min(axis=0), mu.max(axis=0)
+
     def batch_sums(
         self, y: Array, eta: Array, saturated: bool
     ) -> tuple[float, Array, Array, float]:

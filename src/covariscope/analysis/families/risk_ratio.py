@@ -37,6 +37,12 @@ class PoissonLink(GlmLink):
         dev = 2.0 * (float(np.sum(mu)) - float(y @ eta))
         return dev, y - mu, mu, float(np.min(mu)), float(np.max(mu))
 
+    def columns_sums(self, y: Array, eta: Array) -> tuple[Array, Array, Array, Array, Array]:
+        """:meth:`block_sums` column by column (one column of η per model)."""
+        mu = np.exp(np.minimum(eta, 700.0))
+        dev = 2.0 * (mu.sum(axis=0) - y @ eta)
+        return dev, y[:, None] - mu, mu, mu.min(axis=0), mu.max(axis=0)
+
     def batch_sums(
         self, y: Array, eta: Array, saturated: bool
     ) -> tuple[float, Array, Array, float]:
