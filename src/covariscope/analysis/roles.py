@@ -276,12 +276,27 @@ _EXPLAIN = {
 
 
 def _opens_path(
-    M: nx.DiGraph, X: str, Y: str, c: str, adj: Any, unsearched: set[str], walk: WalkBudget
+    M: nx.DiGraph,
+    X: str,
+    Y: str,
+    c: str,
+    adj: Any,
+    an_ends: set[str],
+    unsearched: set[str],
+    walk: WalkBudget,
 ) -> bool:
     """Whether adjusting for ``c`` alone opens a backdoor path blocked at a
     collider (``c`` joins ``unsearched`` when the search stopped at its budget;
-    ``walk`` is the walk budget every covariate's search draws on)."""
-    search = open_path_with_collider(M, X, Y, frozenset({c}), ancestors_of(M, {c}), adj, walk=walk)
+    ``walk`` is the walk budget every covariate's search draws on, ``an_ends``
+    the ancestors of X and Y).  Finding ``c``'s ancestors is one pass over
+    the diagram, so it costs one step of ``walk`` too."""
+    if not walk.take():
+        unsearched.add(c)
+        return False
+    an_c = ancestors_of(M, {c})
+    search = open_path_with_collider(
+        M, X, Y, frozenset({c}), an_c, adj, walk=walk, an_given=an_c, nodes_ok=an_ends | an_c
+    )
     if not search.complete:
         unsearched.add(c)
     return search.path is not None
@@ -305,6 +320,7 @@ def roles_on(md: MergedDiagram, X: str, Y: str, unadjusted: PathListing) -> dict
     linked_y_gx_all = descendants_of(Gx, ancestors_of(Gx, {Y}))
     may_collide = _below_colliders(Gx, X)
     adj = skeleton(M)
+    an_ends = ancestors_of(M, {X, Y})
     found = confounding_nodes(M, X, Y, CONFOUNDING_BUDGET)
     # unsettled ones are taken to be confounders: every confounder is among them
     confounding = found.nodes | found.unsettled
@@ -331,7 +347,7 @@ def roles_on(md: MergedDiagram, X: str, Y: str, unadjusted: PathListing) -> dict
             linked_x
             and linked_y_gx
             and c in may_collide
-            and _opens_path(M, X, Y, c, adj, unsearched, walk)
+            and _opens_path(M, X, Y, c, adj, an_ends, unsearched, walk)
         ):
             role = "collider"
         elif linked_x and not linked_y_gx:
