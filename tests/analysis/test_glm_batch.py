@@ -12,7 +12,7 @@ import pytest
 import statsmodels.api as sm
 
 from covariscope.analysis import evidence as evidence_module
-from covariscope.analysis import glm_newton
+from covariscope.analysis import glm_batch, glm_newton
 from covariscope.analysis.design import TermSpec, make_design
 from covariscope.analysis.evidence import EvidenceEngine, compute_evidence
 from covariscope.analysis.families import family_of
@@ -36,7 +36,12 @@ def _cohort(family: str, n: int = 4000, seed: int = 11) -> pd.DataFrame:
 
 
 @pytest.mark.parametrize("offset", [False, True])
-def test_batch_sums_equal_the_one_model_pass(offset: bool) -> None:
+@pytest.mark.parametrize("by_pairs", [False, True])
+def test_batch_sums_equal_the_one_model_pass(
+    offset: bool, by_pairs: bool, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    # both ways of forming the informations: column-pair products, or one per model
+    monkeypatch.setattr(glm_batch, "_pairs_pay", lambda pairs, widths: by_pairs)
     frame = _cohort("risk_ratio")
     rng = np.random.default_rng(3)
     X = np.asfortranarray(

@@ -316,7 +316,7 @@ class EvidenceEngine:
     ) -> None:
         """:meth:`fit_many` for rows in memory: the models' Newton steps share
         each read of the rows (:func:`~covariscope.analysis.glm_batch.newton_paths_many`)."""
-        from covariscope.analysis.glm import glm_fit_from_path
+        from covariscope.analysis.glm import OutcomeFacts, glm_fit_from_path
         from covariscope.analysis.glm_batch import BatchModel, newton_paths_many
         from covariscope.analysis.glm_newton import walk_inputs
 
@@ -365,6 +365,7 @@ class EvidenceEngine:
                 meat=self.model_family.glm.robust,
                 on_pass=None if on_pass is None else lambda k: on_pass(where[k]),
             )
+            facts = OutcomeFacts.of(design.y)
             for (key, ordered, names, model), path in zip(todo, paths, strict=True):
                 if path is None:
                     continue  # fit() fits it alone and says what went wrong
@@ -378,6 +379,7 @@ class EvidenceEngine:
                         terms=ordered,
                         exposure_index=1,
                         cols=model.cols,
+                        outcome=facts,
                     )
                 except (ArithmeticError, ValueError, np.linalg.LinAlgError):
                     continue  # fit() fits it alone and says what went wrong

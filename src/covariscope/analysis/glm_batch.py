@@ -30,7 +30,7 @@ from dataclasses import dataclass
 import numpy as np
 import numpy.typing as npt
 
-from covariscope.analysis.families import GlmLink, family_of
+from covariscope.analysis.families import GlmLink, Scratch, family_of
 from covariscope.analysis.glm_newton import GlmPath, PassRequest, Walk, newton_walk
 from covariscope.analysis.passes import GlmPass
 
@@ -98,8 +98,13 @@ class _Pairs:
 
     def matrix(self, cols: Index, sums: Array) -> Array:
         """The model's p × p matrix from the pair sums."""
-        c = [int(v) for v in cols]
-        at = np.array([[self.position[(min(a, b), max(a, b))] for b in c] for a in c])
+        c = np.asarray(cols)
+        lo = np.minimum.outer(c, c).ravel().tolist()
+        hi = np.maximum.outer(c, c).ravel().tolist()
+        position = self.position
+        at = np.fromiter(
+            (position[pair] for pair in zip(lo, hi, strict=True)), np.intp, len(lo)
+        ).reshape(len(c), len(c))
         picked: Array = sums[at]
         return picked
 
@@ -133,21 +138,30 @@ def batch_pass(
         B[cols, r] = req.beta
     info_at = [r for r, (_, req) in enumerate(requests) if req.info]
     meat_at = [r for r, (_, req) in enumerate(requests) if req.meat]
+    asked = [(r, False) for r in info_at] + [(r, True) for r in meat_at]
     pairs = _Pairs.of([requests[r][0] for r in sorted({*info_at, *meat_at})])
+    if not _pairs_pay(pairs.size, [len(requests[r][0]) for r, _ in asked]):
+        pairs = _Pairs.of([])
     dev = np.zeros(m)
     score = np.zeros((q, m))
     low = np.full(m, np.inf)
     high = np.full(m, -np.inf)
-    sums = np.zeros((pairs.size, len(info_at) + len(meat_at)))
+    sums = np.zeros((pairs.size, len(asked)))
+    direct = {a: np.zeros((len(requests[a[0]][0]),) * 2) for a in asked} if not pairs.size else {}
     rows = SCORE_ROWS if not pairs.size else max(256, min(SCORE_ROWS, PAIR_CELLS // pairs.size))
-    products = np.empty((pairs.size, min(rows, n)))
+    rows = min(rows, n)
+    scratch = Scratch()
+    products = np.empty((pairs.size, rows))
+    weights = np.empty((rows, len(asked)))
+    eta_rows = np.empty((rows, m))
     for s in range(0, n, rows):
         e = min(s + rows, n)
         block = X[s:e]
-        eta = block @ B
+        eta = eta_rows[: e - s]
+        np.matmul(block, B, out=eta)
         if offset is not None:
             eta += offset[s:e, None]
-        d, resid, w, lo, hi = link.columns_sums(y[s:e], eta)
+        d, resid, w, lo, hi = link.columns_sums(y[s:e], eta, scratch)
         dev += d
         np.minimum(low, lo, out=low)
         np.maximum(high, hi, out=high)
@@ -155,15 +169,47 @@ def batch_pass(
         if pairs.size:
             k = products[:, : e - s]
             pairs.fill(block.T, k)
-            weights = np.concatenate([w[:, info_at], resid[:, meat_at] ** 2], axis=1)
-            sums += k @ weights
+            wk = weights[: e - s]
+            for j, (r, is_meat) in enumerate(asked):
+                if is_meat:
+                    np.square(resid[:, r], out=wk[:, j])
+                else:
+                    wk[:, j] = w[:, r]
+            sums += k @ wk
+        for (r, is_meat), acc in direct.items():
+            Z = block[:, requests[r][0]]
+            Z *= (resid[:, r] if is_meat else np.sqrt(w[:, r]))[:, None]
+            acc += Z.T @ Z
     out: list[GlmPass] = []
+    column = {a: j for j, a in enumerate(asked)}
+
+    def formed(r: int, is_meat: bool) -> Array:
+        if direct:
+            return direct[(r, is_meat)]
+        return pairs.matrix(requests[r][0], sums[:, column[(r, is_meat)]])
+
     for r, (cols, req) in enumerate(requests):
-        info = pairs.matrix(cols, sums[:, info_at.index(r)]) if req.info else None
-        meat = pairs.matrix(cols, sums[:, len(info_at) + meat_at.index(r)]) if req.meat else None
+        info = formed(r, False) if req.info else None
+        meat = formed(r, True) if req.meat else None
         deviance = float(dev[r]) + (2.0 * ylogy if ylogy else 0.0)
         out.append(GlmPass(deviance, score[cols, r], info, meat, float(low[r]), float(high[r])))
     return out
+
+
+def _pairs_pay(pairs: int, widths: list[int]) -> bool:
+    """Whether the column-pair products beat one product per model.
+
+    Per row, the pair products cost one multiplication per pair and then
+    about 0.07 of one per pair and model in the matrix product; forming each
+    model's √w·X and its cross product directly costs about two per column
+    and a tenth per column squared (measured with benchmarks/bench_iterative.py
+    on this project's machines; a guide, not a published figure).
+    """
+    if not widths:
+        return False
+    by_pairs = pairs * (1.0 + 0.07 * len(widths))
+    by_model = sum(2.0 * p + 0.1 * p * p for p in widths)
+    return by_pairs < by_model
 
 
 def newton_paths_many(
