@@ -211,7 +211,7 @@ def _linear_extra(
         if k
         else np.zeros((p + 1, 0))
     )
-    square = centred.T @ centred
+    square = np.dot(centred.T, centred)  # np.dot, not @: fitting_common's docstring
     q = p + k + 1
     mean = np.concatenate([summary.mean[cols], mean_e, summary.mean[[y]]])
     comoment = np.empty((q, q))
