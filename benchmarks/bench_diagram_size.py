@@ -20,10 +20,14 @@ quadratic one near 4.  Shapes of the extra nodes:
   below, the lowest causing the exposure and the top a collider on the way
   to the outcome (2**(N/2) branches with no open path: the walk budget);
 - ``sets``: N/2 backdoor paths side by side, each closed by either of two
-  covariates (2**(N/2) minimal sets: the minimal-set budget).
+  covariates (2**(N/2) minimal sets: the minimal-set budget);
+- ``proxies``: N/2 confounders, each measured twice (a proxy link between
+  the two measures, one causing the exposure and the other the outcome):
+  N/2 measure groups, each a collinear group whose members are checked
+  against the backdoor criterion.
 
 Half of the extra nodes are marked unmeasured (a fifth for ``dense``; none
-for ``ladder`` and ``sets``, whose point needs them measured).  The straightforward approach
+for ``ladder``, ``sets`` and ``proxies``, whose point needs them measured).  The straightforward approach
 this is measured against is the same engine at half the size: the ratio is
 the point.  Timings on a shared machine vary; run it alone.
 """
@@ -45,7 +49,7 @@ from covariscope.model.project import load_project
 from covariscope.study import run_study
 
 DEMO = Path(__file__).resolve().parent.parent / "demo_data"
-SHAPES = ("fan", "chain", "random", "confounders", "dense", "ladder", "sets")
+SHAPES = ("fan", "chain", "random", "confounders", "dense", "ladder", "sets", "proxies")
 
 
 def _extra_arrows(ids: list[str], shape: str, rng: random.Random) -> list[dict[str, str]]:
@@ -75,13 +79,16 @@ def _extra_arrows(ids: list[str], shape: str, rng: random.Random) -> list[dict[s
         for k in range(len(ids) // 2):
             a, b = ids[2 * k], ids[2 * k + 1]
             arrows += [(b, a), (a, "dust"), (b, "lungfn")]
+    elif shape == "proxies":
+        for k in range(len(ids) // 2):
+            arrows += [(ids[2 * k], "dust"), (ids[2 * k + 1], "lungfn")]
     return [{"from": a, "to": b} for a, b in arrows]
 
 
 def _measured(shape: str, k: int) -> bool:
     if shape == "dense":
         return k % 5 != 0
-    return shape in ("ladder", "sets") or k % 2 == 0
+    return shape in ("ladder", "sets", "proxies") or k % 2 == 0
 
 
 def make_project(folder: Path, n_extra: int, shape: str, seed: int = 3) -> Path:
@@ -103,6 +110,9 @@ def make_project(folder: Path, n_extra: int, shape: str, seed: int = 3) -> Path:
     ]
     ids = ids[:n_extra]
     data["diagram"]["arrows"] += _extra_arrows(ids, shape, random.Random(seed))
+    if shape == "proxies":
+        pairs = zip(ids[::2], ids[1::2], strict=False)
+        data["diagram"].setdefault("proxies", []).extend({"a": a, "b": b} for a, b in pairs)
     path = folder / f"{shape}_{n_extra}.json"
     path.write_text(json.dumps(data))
     return path

@@ -117,43 +117,65 @@ def engine_table(frame: pd.DataFrame, family: str) -> Callable[[], Any]:
 
 
 def pass_counts(frame: pd.DataFrame, family: str) -> dict[str, Any]:
-    """Passes over the rows per model of one table: fresh (information formed)
-    and score-only, by model group (crude, crude + C, full, full − C)."""
-    from covariscope.analysis import glm_newton
+    """Passes over the rows per model of one table, fresh (information formed)
+    and score-only, by model group (crude, crude + C, full, full − C), and the
+    reads of the rows: models fitted in lockstep share each read."""
+    from covariscope.analysis import glm, glm_batch, glm_newton
     from covariscope.analysis.design import TermSpec, make_design
     from covariscope.analysis.evidence import EvidenceEngine, compute_evidence
 
-    seen: list[tuple[bool, int]] = []
-    real = glm_newton.glm_pass
+    flags: list[bool] = []  # the information flag of each pass, in the order reported
+    reads = 0
+    single, batch = glm_newton.glm_pass, glm_batch.batch_pass
 
-    def counting(*args: Any, **kw: Any) -> Any:
-        cols = kw.get("cols")
-        seen.append((bool(kw.get("info", True)), args[0].shape[1] if cols is None else len(cols)))
-        return real(*args, **kw)
+    def one(*args: Any, **kw: Any) -> Any:
+        nonlocal reads
+        reads += 1
+        flags.append(bool(kw.get("info", True)))
+        return single(*args, **kw)
 
-    per_model: list[list[tuple[bool, int]]] = []
+    def many(X: Any, y: Any, link: Any, requests: Any, **kw: Any) -> Any:
+        nonlocal reads
+        reads += 1
+        flags.extend(bool(req.info) for _, req in requests)
+        return batch(X, y, link, requests, **kw)
 
-    def progress(done: int, total: int) -> None:
-        per_model.append(list(seen))
-        seen.clear()
+    step = glm.information_and_score
+
+    def first_step(*args: Any, **kw: Any) -> Any:
+        # the one pass that starts every crude + C model: a read, no model's own pass
+        out = step(*args, **kw)
+        flags.pop()
+        return out
+
+    per_model: dict[int, list[bool]] = {}
+
+    def passed(model: int, total: int, passes: int) -> None:
+        per_model.setdefault(model, []).append(flags.pop(0))
 
     covs = {c: TermSpec(c, "continuous") for c in NODES}
     design = make_design(
         frame, exposure=TermSpec("x", "continuous"), covariates=covs, family=family, outcome="y"
     )
-    glm_newton.glm_pass = counting  # type: ignore[assignment]
+    glm_newton.glm_pass, glm_batch.batch_pass = one, many  # type: ignore[assignment]
+    glm.information_and_score = first_step  # type: ignore[assignment]
     try:
-        compute_evidence(EvidenceEngine(design), candidates=NODES, added=NODES, progress=progress)
+        compute_evidence(
+            EvidenceEngine(design), candidates=NODES, added=NODES, pass_progress=passed
+        )
     finally:
-        glm_newton.glm_pass = real  # type: ignore[assignment]
-    groups = {"crude": per_model[:1], "crude+C": per_model[1 : K + 1]}
-    groups |= {"full": per_model[K + 1 : K + 2], "full-C": per_model[K + 2 :]}
+        glm_newton.glm_pass, glm_batch.batch_pass = single, batch  # type: ignore[assignment]
+        glm.information_and_score = step  # type: ignore[assignment]
+    models = [per_model.get(k, []) for k in range(1, 2 * K + 3)]
+    groups = {"crude": models[:1], "crude+C": models[1 : K + 1]}
+    groups |= {"full": models[K + 1 : K + 2], "full-C": models[K + 2 :]}
     out: dict[str, Any] = {}
-    for name, models in groups.items():
-        fresh = sum(1 for m in models for info, _ in m if info)
-        score = sum(1 for m in models for info, _ in m if not info)
-        out[name] = {"models": len(models), "fresh": fresh, "score_only": score}
-    out["fresh_per_model"] = sum(g["fresh"] for g in out.values()) / len(per_model)
+    for name, group in groups.items():
+        fresh = sum(1 for m in group for info in m if info)
+        score = sum(1 for m in group for info in m if not info)
+        out[name] = {"models": len(group), "fresh": fresh, "score_only": score}
+    out["fresh_per_model"] = sum(g["fresh"] for g in out.values()) / len(models)
+    out["reads_of_the_rows"] = reads
     return out
 
 

@@ -12,7 +12,10 @@ printed: where the GUI thread spends its stalls; and the window's main
 slots are timed (longest and total); and every thread's stack is dumped
 (by faulthandler's watchdog, which needs no interpreter lock) whenever the
 GUI thread is 150 ms late.  When the slots are short and the sampler saw
-little, the dumps show what held the interpreter lock meanwhile.
+little, the dumps show what held the interpreter lock meanwhile.  And each
+stall of 100 ms or more is split (Linux, :class:`SchedClock`) into the GUI
+thread's own work, its wait for a CPU (a loaded machine) and the rest,
+blocked (the interpreter lock).
 """
 
 from __future__ import annotations
@@ -194,6 +197,63 @@ class LockWatch:
         self.file.close()
 
 
+class SchedClock:
+    """Where the GUI thread's time went during each stall (Linux only).
+
+    Every 10 ms the GUI thread reads its own ``/proc/self/task/TID/schedstat``:
+    time on a CPU and time runnable but waiting for one (ns).  A stall is then
+    split into its own work (on CPU), the machine's load (waiting for a CPU:
+    other processes, or our other threads) and the rest, blocked: waiting for
+    the interpreter lock (a thread that waits for the GIL sleeps).  A stall
+    that is mostly "waiting for a CPU" is the loaded machine, not the program.
+    """
+
+    def __init__(self) -> None:
+        from PySide6.QtCore import QTimer
+
+        self.path = Path(f"/proc/self/task/{threading.get_native_id()}/schedstat")
+        self.samples: list[tuple[float, int, int]] = []
+        self.timer = QTimer()
+        self.timer.setInterval(10)
+        self.timer.timeout.connect(self._sample)
+
+    def _sample(self) -> None:
+        try:
+            cpu, wait = self.path.read_text().split()[:2]
+        except (OSError, ValueError):
+            return
+        self.samples.append((time.perf_counter(), int(cpu), int(wait)))
+
+    def start(self) -> None:
+        self._sample()
+        self.timer.start()
+
+    def stop(self) -> None:
+        self.timer.stop()
+        self._sample()
+
+    def split(self, start: float, gap: float) -> tuple[float, float, float] | None:
+        """(on CPU, waiting for a CPU, blocked) seconds between the samples around a stall."""
+        before = [s for s in self.samples if s[0] <= start + 1e-4]
+        after = [s for s in self.samples if s[0] >= start + gap - 1e-4]
+        if not before or not after:
+            return None
+        (t0, c0, w0), (t1, c1, w1) = before[-1], after[0]
+        cpu, wait = (c1 - c0) / 1e9, (w1 - w0) / 1e9
+        return cpu, wait, max(0.0, (t1 - t0) - cpu - wait)
+
+    def report(self, stalls: list[tuple[float, float]], origin: float) -> None:
+        print("  stalls of 100 ms or more: GUI thread on CPU / waiting for a CPU / blocked (GIL):")
+        for start, gap in stalls:
+            parts = self.split(start, gap)
+            if parts is not None:
+                cpu, wait, blocked = (1000 * x for x in parts)
+                print(
+                    f"   at {start - origin:6.2f} s, {1000 * gap:4.0f} ms: {cpu:4.0f} / "
+                    f"{wait:4.0f} / {blocked:4.0f} ms"
+                )
+
+
 def _edit(w: Any, rng: random.Random, covariates: list[str]) -> None:
     """One random edit: a node move, a tick, an arrow added or removed, a family switch."""
     from covariscope.model.commands import AddArrow, RemoveArrow, SetProposed, UpdateNode
@@ -327,11 +387,14 @@ def storm(
     meter = StallMeter(watch=watch)  # the watch's hook slows the GUI thread: off when timing
     hunter = StallHunter(meter.log, threading.get_ident()) if hunt else None
     lock_watch = LockWatch() if hunt else None
+    sched = SchedClock() if hunt else None
     meter.start()
     if hunter is not None:
         hunter.start()
     if lock_watch is not None:
         lock_watch.start()
+    if sched is not None:
+        sched.start()
     t_fire = time.perf_counter()
     spent = _fire(app, w, edits, seed, covariates)
     t_fired = time.perf_counter()
@@ -343,6 +406,8 @@ def storm(
         hunter.join()
     if lock_watch is not None:
         lock_watch.stop()
+    if sched is not None:
+        sched.stop()
     assert w.io.save()
     shown = json.loads(json.dumps(study_to_json(w.result, w.project), allow_nan=False))
     equal = same_json(shown, _checked(project_path))
@@ -370,6 +435,8 @@ def storm(
         hunter.report()
         clock.report()
         lock_watch.report()
+    if sched is not None:
+        sched.report([(a, g) for a, g in meter.log.stalls if g >= 0.1], t_fire)
     w.io.extra_modified = False
     w.undo_stack.setClean()
     w.close()

@@ -284,6 +284,7 @@ def test_check_json_keys() -> None:
         "exposure",
         "outcome",
         "roles",
+        "roles_unsettled",
         "minimal_sets",
         "identifiable",
         "proposed",

@@ -366,3 +366,33 @@ def test_a_collider_sentence_labels_only_the_paths_it_names() -> None:
     assert whole == decide_verdict(Facts("m", "collider", would_open=paths[:3]), names=names).reason
     assert "Ex – a2 – Middle – Bee – Why" in whole
     assert "a3" not in whole
+
+
+def test_a_large_set_is_named_in_part_and_counted():
+    from covariscope.analysis.verdict_wording import MEMBERS_NAMED
+
+    big = tuple(f"c{i:03d}" for i in range(300))
+    names = {c: f"Cov {c}" for c in big}
+    keep = Facts(
+        "b",
+        "confounder",
+        group=("a", "b"),
+        group_alone=("a", "b"),
+        set_members=("a", *big),
+    )
+    v = decide_verdict(keep, CALM, names=names)
+    assert v.code == "keep_one_of"
+    shown = ", ".join(f"Cov c{i:03d}" for i in range(MEMBERS_NAMED))
+    assert f"each member alone gives a sufficient set with {{{shown}}} and 288 more" in v.reason
+    assert "Cov c299" not in v.reason
+    lost = Facts("u", "confounder", measured=False, sufficient_without=True, set_members=big)
+    w = decide_verdict(lost, names=names)
+    assert f"{{{shown}}} and 288 more is sufficient without it" in w.reason
+    proxy = Facts("p", "confounder_proxy", stands_for=big)
+    assert (
+        f"since {shown} and 288 more, the confounder"
+        in decide_verdict(proxy, CALM, names=names).reason
+    )
+    # a set of MEMBERS_NAMED or fewer is named whole, as before
+    small = replace(keep, set_members=("a", *big[:MEMBERS_NAMED]))
+    assert f"with {{{shown}}};" in decide_verdict(small, CALM, names=names).reason

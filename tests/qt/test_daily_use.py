@@ -384,3 +384,58 @@ def test_review_table_shows_most_rows_at_1366x768(
     w.undo_stack.setClean()
     w.close()
     assert shown >= 9, shown
+
+
+def _rows_shown(table) -> int:
+    return sum(
+        1
+        for r in range(table.rowCount())
+        if table.visualRect(table.model().index(r, 0)).bottom() <= table.viewport().height()
+    )
+
+
+def _settle_layout(qtbot):
+    for _ in range(5):  # the docks take their share after the resize, in turns of the loop
+        QApplication.processEvents()
+        qtbot.wait(10)
+
+
+@pytest.mark.parametrize("opening", ["large", "maximised"])
+def test_review_table_keeps_its_share_when_the_window_is_resized(
+    qtbot, demo, wait_for_analysis, fake_prompts, shots, opening
+):
+    from covariscope.qt.main_window import REVIEW_SHARE, MainWindow
+
+    w = MainWindow(prompts=fake_prompts(), debounce_ms=20)
+    qtbot.addWidget(w)
+    if opening == "large":
+        w.resize(1920, 1080)
+        w.show()
+    else:
+        w.showMaximized()
+    assert w.io.open(str(demo / "demo_project.json"))
+    wait_for_analysis(qtbot, w)
+    _settle_layout(qtbot)
+    if opening == "maximised":
+        w.showNormal()
+        _settle_layout(qtbot)
+    w.resize(1366, 768)
+    _settle_layout(qtbot)
+    review = w.docks["review"]
+    share = review.height() / w.height()
+    w.grab().save(str(shots / f"window_{opening}_then_1366x768.png"))
+    try:
+        assert _rows_shown(w.review.table) >= 9
+        assert abs(share - REVIEW_SHARE) < 0.03, share
+        assert w.view.height() >= 200  # and the diagram keeps a workable height
+        # a separator the user drags sets the share that later resizes keep
+        w.resizeDocks([review], [round(0.3 * w.height())], Qt.Orientation.Vertical)
+        _settle_layout(qtbot)
+        QTest.mouseRelease(w, Qt.MouseButton.LeftButton, pos=w.rect().center())
+        _settle_layout(qtbot)
+        w.resize(1600, 1000)
+        _settle_layout(qtbot)
+        assert abs(review.height() / w.height() - 0.3) < 0.03
+    finally:
+        w.undo_stack.setClean()
+        w.close()

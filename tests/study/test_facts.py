@@ -12,6 +12,7 @@ import random
 import networkx as nx
 import pytest
 
+from covariscope.analysis.constructs import merge_diagram
 from covariscope.study.facts import opened_paths
 
 
@@ -54,4 +55,19 @@ def test_opened_paths_match_enumeration(seed: int) -> None:
     paths = [tuple(p) for p in nx.all_simple_paths(G.to_undirected(), x, y) if G.has_edge(p[1], x)]
     for node in sorted(z):
         want = sorted(p for p in paths if _open(G, p, z) and not _open(G, p, z - {node}))
-        assert list(opened_paths(G, x, y, sorted(z), node)) == want, (seed, node)
+        got = opened_paths(merge_diagram(G, x, y), x, y, sorted(z), sorted(z))
+        assert list(got[node]) == want, (seed, node)
+
+
+@pytest.mark.parametrize("seed", range(40))
+def test_stands_for_matches_networkx_ancestors(seed: int) -> None:
+    from covariscope.analysis.graph import analyse_diagram
+    from covariscope.study.facts import stands_for
+
+    G, x, y = _random(seed)
+    da = analyse_diagram(G, x, y)
+    confounders = {c for c, f in da.roles.items() if f.role == "confounder"}
+    got = stands_for(G, da, list(G))
+    for node in G:
+        # outside reference: networkx.ancestors
+        assert got[node] == tuple(sorted(confounders & nx.ancestors(G, node))), (seed, node)

@@ -6,12 +6,14 @@ from __future__ import annotations
 
 import itertools
 import json
+import random
 from importlib import resources
 from pathlib import Path
 
 import jsonschema
 import numpy as np
 import pandas as pd
+import pytest
 
 from covariscope.analysis.claims import CLAIM_SEARCH_BUDGET
 from covariscope.data.loading import LoadedTable
@@ -119,3 +121,32 @@ def test_a_proposal_too_large_for_the_pair_check_is_said_in_the_messages() -> No
     result = run_study(project)
     assert not result.diagram.review.not_together_checked
     assert any("drop them one at a time" in m for m in result.messages)
+
+
+def test_confounders_left_unsettled_are_said_in_messages_text_and_json(
+    monkeypatch: pytest.MonkeyPatch,
+) -> None:
+    from covariscope.analysis import roles
+
+    # three causes each among the earlier nodes; every fifth causes x, every seventh y
+    rng = random.Random(3)
+    ids = [f"n{i:02d}" for i in range(60)]
+    arrows = [("x", "y")]
+    for j in range(1, len(ids)):
+        arrows += [(ids[i], ids[j]) for i in rng.sample(range(j), min(j, 3))]
+    arrows += [(i, "x") for i in ids[::5]] + [(i, "y") for i in ids[::7]]
+    project = _project(["x", "y", *ids], arrows)
+    assert run_study(project).diagram.roles_unsettled == ()
+    monkeypatch.setattr(roles, "CONFOUNDING_BUDGET", 100)
+    result = run_study(project)
+    unsettled = result.diagram.roles_unsettled
+    assert unsettled
+    assert all(result.diagram.roles[c].role == "confounder" for c in unsettled)
+    said = " ".join(result.messages)
+    assert "search for backdoor paths without a collider stopped at its work budget" in said
+    assert "taken to be a confounder" in said
+    text = format_study_text(result)
+    assert f"roles of {len(unsettled)} covariate(s) not settled" in text
+    out = study_to_json(result)
+    jsonschema.validate(out, _schema())
+    assert out["roles_unsettled"] == list(unsettled)

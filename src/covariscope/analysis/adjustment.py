@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import itertools
+from collections import Counter
 from collections.abc import Collection, Iterable
 from dataclasses import dataclass
 
@@ -16,12 +17,14 @@ from covariscope.analysis.paths import (
     given_constructs,
     listing,
     open_path_with_collider,
+    skeleton,
 )
 from covariscope.analysis.separation import d_connected_closure, minimal_d_separator
 
 __all__ = [
     "MINIMAL_SETS_BUDGET",
     "PAIR_CHECK_LIMIT",
+    "Backdoor",
     "MinimalSets",
     "ProposalReview",
     "is_sufficient",
@@ -110,8 +113,8 @@ def without_exposure_arrows(M: nx.DiGraph, X: str) -> nx.DiGraph:
     return H
 
 
-def sufficient_on(M: nx.DiGraph, X: str, Y: str, Z: Collection[str]) -> bool:
-    """Backdoor criterion for constructs Z on a merged graph.
+class Backdoor:
+    """The backdoor criterion on one merged diagram, asked of many sets.
 
     X and Y are d-separated given Z exactly when they are separated in the
     moral graph of the ancestors of X, Y and Z (Lauritzen SL, Dawid AP,
@@ -120,13 +123,53 @@ def sufficient_on(M: nx.DiGraph, X: str, Y: str, Z: Collection[str]) -> bool:
     :func:`~covariscope.analysis.separation.d_connected_closure` searches in
     linear time.  (networkx's ``is_d_separator`` gives the same answer but
     took 20 s a call on a 140-node diagram of stacked rungs.)
+
+    The graph without the exposure's arrows out and the exposure's
+    descendants are built once, so each question costs one linear search,
+    not a merge and a copy of the diagram as well; each answer is kept per
+    set of constructs, so two members of one measure group, which adjust the
+    same construct, cost one search.  The caller owns the object (one per
+    stage run; it is not shared between threads).
+
+    Examples
+    --------
+    >>> G = nx.DiGraph([("a", "x"), ("a", "m"), ("b", "m"), ("b", "y"), ("x", "y")])
+    >>> check = Backdoor(merge_diagram(G, "x", "y"), "x", "y")
+    >>> check.suffices([]), check.suffices(["m"]), check.suffices(["m", "a"])
+    (True, False, True)
+    >>> check.searches
+    3
     """
-    given = set(Z)
-    if given & descendants_of(M, {X}) - {X}:
-        return False
-    Gx = without_exposure_arrows(M, X)
-    within = ancestors_of(Gx, {X, Y} | given)
-    return Y not in d_connected_closure(Gx, [X], within, given)
+
+    def __init__(self, md: MergedDiagram, X: str, Y: str) -> None:
+        self.merged = md
+        self.exposure, self.outcome = X, Y
+        self._gx = without_exposure_arrows(md.graph, X)
+        self._below_x = descendants_of(md.graph, {X}) - {X}
+        self._known: dict[frozenset[str], bool] = {}
+        #: searches made (answers kept are not searched again)
+        self.searches = 0
+
+    def suffices(self, members: Iterable[str]) -> bool:
+        """Whether adjusting for ``members`` (node ids) meets the criterion."""
+        return self.suffices_constructs(
+            given_constructs(self.merged, members, self.exposure, self.outcome)
+        )
+
+    def suffices_constructs(self, Z: frozenset[str]) -> bool:
+        """Whether adjusting for the constructs ``Z`` meets the criterion."""
+        known = self._known.get(Z)
+        if known is not None:
+            return known
+        self.searches += 1
+        if Z & self._below_x:
+            answer = False
+        else:
+            X, Y = self.exposure, self.outcome
+            within = ancestors_of(self._gx, {X, Y} | Z)
+            answer = Y not in d_connected_closure(self._gx, [X], within, Z)
+        self._known[Z] = answer
+        return answer
 
 
 def is_sufficient(G: nx.DiGraph, exposure: str, outcome: str, adjustment: Iterable[str]) -> bool:
@@ -134,7 +177,8 @@ def is_sufficient(G: nx.DiGraph, exposure: str, outcome: str, adjustment: Iterab
 
     The set holds no descendant of the exposure X, and X is d-separated from
     the outcome Y given the set once the arrows out of X are removed.  A set
-    that holds any member of a measure group adjusts the whole group.
+    that holds any member of a measure group adjusts the whole group.  (To
+    ask of many sets, merge once and use :class:`Backdoor`.)
 
     References
     ----------
@@ -151,9 +195,7 @@ def is_sufficient(G: nx.DiGraph, exposure: str, outcome: str, adjustment: Iterab
     >>> is_sufficient(G, "x", "y", ["m"])
     False
     """
-    md = merge_diagram(G, exposure, outcome)
-    Z = given_constructs(md, adjustment, exposure, outcome)
-    return sufficient_on(md.graph, exposure, outcome, Z)
+    return Backdoor(merge_diagram(G, exposure, outcome), exposure, outcome).suffices(adjustment)
 
 
 def _moral_stars(M: nx.DiGraph, A: set[str]) -> dict[object, set[object]]:
@@ -344,40 +386,24 @@ def minimal_adjustment_sets(
     return list_minimal_sets(md, exposure, outcome, budget).sets
 
 
-def review_on(md: MergedDiagram, X: str, Y: str, proposed: Iterable[str]) -> ProposalReview:
-    """Review of a proposed set on an already merged diagram."""
+def review_on(
+    md: MergedDiagram, X: str, Y: str, proposed: Iterable[str], check: Backdoor | None = None
+) -> ProposalReview:
+    """Review of a proposed set on an already merged diagram (``check``: the
+    caller's :class:`Backdoor` for it, when it has one)."""
     M = md.graph
+    check = Backdoor(md, X, Y) if check is None else check
     members = tuple(sorted(set(proposed)))
     Z = given_constructs(md, members, X, Y)
     descendants = nx.descendants(M, X)
-    sufficient = sufficient_on(M, X, Y, Z)
     opened = listing(M, X, Y, Z, 500, only_open=True)
-    harmful: list[str] = []
-    unnecessary: list[str] = []
-    unsearched: list[str] = []
-    walk = WalkBudget()  # shared: the searches of all members together stay bounded
-    for m in members:
-        c = md.construct_of[m]
-        rest = given_constructs(md, [n for n in members if n != m], X, Y)
-        if c in descendants:
-            harmful.append(m)
-            continue
-        if c not in rest:
-            wanted = ancestors_of(M, {c}) - ancestors_of(M, rest)
-            search = open_path_with_collider(M, X, Y, Z, wanted, walk=walk)
-            if search.path is not None:
-                harmful.append(m)
-                continue
-            if not search.complete:
-                unsearched.append(m)
-        if sufficient_on(M, X, Y, rest):
-            unnecessary.append(m)
+    harmful, unnecessary, unsearched = _members_review(md, X, Y, members, Z, check)
     unmeasured = tuple(m for m in members if not md_measured(md, m))
     return ProposalReview(
         exposure_descendants=tuple(m for m in members if md.construct_of[m] in descendants),
-        not_together=_not_together(md, X, Y, members, unnecessary),
+        not_together=_not_together(check, members, unnecessary),
         proposed=members,
-        sufficient=sufficient,
+        sufficient=check.suffices_constructs(Z),
         open_paths=tuple(p.nodes for p in opened.paths),
         open_paths_total=opened.total,
         open_paths_total_exact=opened.total_exact,
@@ -390,6 +416,54 @@ def review_on(md: MergedDiagram, X: str, Y: str, proposed: Iterable[str]) -> Pro
     )
 
 
+def _members_review(
+    md: MergedDiagram,
+    X: str,
+    Y: str,
+    members: tuple[str, ...],
+    Z: frozenset[str],
+    check: Backdoor,
+) -> tuple[list[str], list[str], list[str]]:
+    """(harmful, unnecessary, unsearched) members of a proposal.
+
+    The skeleton and the ancestors of X, Y and Z are built once for every
+    member's search; each member's own ancestors cost one step of the walk
+    budget the searches share, and once it is spent no member searches.
+    """
+    M = md.graph
+    descendants = nx.descendants(M, X)
+    adj = skeleton(M)
+    an_given = ancestors_of(M, Z)
+    nodes_ok = ancestors_of(M, {X, Y} | Z)
+    per_construct = Counter(md.construct_of[m] for m in members)
+    harmful: list[str] = []
+    unnecessary: list[str] = []
+    unsearched: list[str] = []
+    walk = WalkBudget()  # shared: the searches of all members together stay bounded
+    for m in members:
+        c = md.construct_of[m]
+        rest = Z - {c} if per_construct[c] == 1 else Z
+        if c in descendants:
+            harmful.append(m)
+            continue
+        if c not in rest:
+            if not walk.take():
+                unsearched.append(m)
+            else:
+                wanted = ancestors_of(M, {c}) - ancestors_of(M, rest)
+                search = open_path_with_collider(
+                    M, X, Y, Z, wanted, adj, walk=walk, an_given=an_given, nodes_ok=nodes_ok
+                )
+                if search.path is not None:
+                    harmful.append(m)
+                    continue
+                if not search.complete:
+                    unsearched.append(m)
+        if check.suffices_constructs(rest):
+            unnecessary.append(m)
+    return harmful, unnecessary, unsearched
+
+
 #: Above this many unnecessary members the pairwise check (quadratic in them,
 #: each pair a d-separation search) is skipped and they are all reported as one
 #: group, which is never wrong (a proposal that large is read by hand anyway).
@@ -397,7 +471,7 @@ PAIR_CHECK_LIMIT = 40
 
 
 def _not_together(
-    md: MergedDiagram, X: str, Y: str, members: tuple[str, ...], unnecessary: list[str]
+    check: Backdoor, members: tuple[str, ...], unnecessary: list[str]
 ) -> tuple[tuple[str, ...], ...]:
     """Groups of unnecessary members that cannot all be dropped at once.
 
@@ -413,8 +487,7 @@ def _not_together(
         return (tuple(unnecessary),)
 
     def suffices_without(dropped: Collection[str]) -> bool:
-        kept = [n for n in members if n not in dropped]
-        return sufficient_on(md.graph, X, Y, given_constructs(md, kept, X, Y))
+        return check.suffices([n for n in members if n not in dropped])
 
     if suffices_without(unnecessary):
         return ()

@@ -206,7 +206,7 @@ def _linear_extra(
     p, k = len(cols), E.shape[1]
     mean_e = E.mean(axis=0) if n else np.zeros(k)
     centred = E - mean_e
-    square = centred.T @ centred
+    square = np.dot(centred.T, centred)  # np.dot, not @: fitting_common's docstring
     del centred  # the cross-products centre E a block at a time: one centred copy, not two at once
     cross = (
         centred_cross(design.values, summary.mean[keep], E, keep, centre=mean_e)

@@ -235,7 +235,7 @@ class EvidenceEngine:
             return hit[0]
 
     def fit_many(
-        self, plan: Sequence[Sequence[str]], on_pass: Callable[[], None] | None = None
+        self, plan: Sequence[Sequence[str]], on_pass: Callable[[int], None] | None = None
     ) -> None:
         """Fit the models of ``plan`` together where that saves reads of the rows.
 
@@ -244,9 +244,16 @@ class EvidenceEngine:
         (:func:`~covariscope.analysis.glm_rows.fit_glm_rows_many`); each starts
         where :meth:`fit` would start it, and ends where it would end.  Other
         designs are left to :meth:`fit` (their passes are cheap already).
+        With the rows in memory, the models' passes are made together as well
+        (:func:`~covariscope.analysis.glm_batch.newton_paths_many`).
+        ``on_pass`` is called with a model's position in ``plan`` after each
+        pass that served it.
         """
         design = self.design
-        if design.rows is None or self.model_family.fitter is not Fitter.GLM:
+        if self.model_family.fitter is not Fitter.GLM:
+            return
+        if design.rows is None:
+            self._fit_many_memory(plan, on_pass)
             return
         from covariscope.analysis.glm_rows import RowModel, RowOutcome, fit_glm_rows_many
 
@@ -293,7 +300,7 @@ class EvidenceEngine:
                     [m for _, _, m in todo],
                     self.family,
                     outcome=outcome,
-                    on_pass=on_pass,
+                    on_pass=None if on_pass is None else lambda: on_pass(0),
                 )
             except (ArithmeticError, ValueError, np.linalg.LinAlgError):
                 return  # each model is then fitted alone, and says what went wrong
@@ -303,6 +310,84 @@ class EvidenceEngine:
                 if self._record is not None:
                     self._record("fit", False)
                 self._fits[key] = (self._named(fit), params)
+
+    def _fit_many_memory(
+        self, plan: Sequence[Sequence[str]], on_pass: Callable[[int], None] | None
+    ) -> None:
+        """:meth:`fit_many` for rows in memory: the models' Newton steps share
+        each read of the rows (:func:`~covariscope.analysis.glm_batch.newton_paths_many`)."""
+        from covariscope.analysis.glm import OutcomeFacts, glm_fit_from_path
+        from covariscope.analysis.glm_batch import BatchModel, newton_paths_many
+        from covariscope.analysis.glm_newton import walk_inputs
+
+        design = self.design
+        assert design.y is not None  # make_design requires an outcome here
+        full = self._intercept_matrix()
+        with self._lock:
+            todo: list[tuple[frozenset[str], tuple[str, ...], list[str], BatchModel]] = []
+            where: list[int] = []
+            for position, terms in enumerate(plan):
+                key = frozenset(terms)
+                if key in self._fits or any(key == k for k, _, _, _ in todo):
+                    continue
+                if any(t not in self._order for t in terms):
+                    continue  # fit() says what is unbound
+                ordered = self.ordered(terms)
+                cols = self.columns(ordered)
+                if self._precheck(ordered, len(cols) + 1):
+                    continue
+                names = ["(intercept)", *(design.column_names[c] for c in cols)]
+                idx = np.array([0, *(c + 1 for c in cols)], dtype=np.intp)
+                start = self._warm_start(ordered, names[1:], True)
+                if start is not None and start.shape != (len(idx),):
+                    start = None
+                scale = np.concatenate([[0.0], self._column_sd()[cols]])
+                b, scale, reach = walk_inputs(
+                    full,
+                    design.y,
+                    self.family,
+                    idx,
+                    design.offset,
+                    start,
+                    scale,
+                    self._reach()[idx],
+                )
+                todo.append((key, ordered, names, BatchModel(idx, b, scale, reach)))
+                where.append(position)
+            if len(todo) < 2:
+                return
+            paths = newton_paths_many(
+                full,
+                design.y,
+                self.family,
+                [m for _, _, _, m in todo],
+                offset=design.offset,
+                meat=self.model_family.glm.robust,
+                on_pass=None if on_pass is None else lambda k: on_pass(where[k]),
+            )
+            facts = OutcomeFacts.of(design.y)
+            for (key, ordered, names, model), path in zip(todo, paths, strict=True):
+                if path is None:
+                    continue  # fit() fits it alone and says what went wrong
+                try:
+                    fit, kept = glm_fit_from_path(
+                        full,
+                        design.y,
+                        self.family,
+                        path,
+                        column_names=names,
+                        terms=ordered,
+                        exposure_index=1,
+                        cols=model.cols,
+                        outcome=facts,
+                    )
+                except (ArithmeticError, ValueError, np.linalg.LinAlgError):
+                    continue  # fit() fits it alone and says what went wrong
+                if kept is not None and kept.cov is not None and fit.ok and fit.converged:
+                    self._glm_cov[key] = kept.cov
+                if self._record is not None:
+                    self._record("fit", False)
+                self._fits[key] = (self._named(fit), None if kept is None else kept.params)
 
     def _named(self, fit: Fit) -> Fit:
         """A multi-level exposure's fit with its contrasts named (see :meth:`Fit.with_contrasts`)."""
@@ -853,6 +938,19 @@ def _pass_hook(
     return hook
 
 
+def _group_hook(hooks: list[Callable[[], None] | None]) -> Callable[[int], None] | None:
+    """The pass hook of a group of models fitted together: model k's own hook."""
+    if all(h is None for h in hooks):
+        return None
+
+    def hook(k: int) -> None:
+        own = hooks[k]
+        if own is not None:
+            own()
+
+    return hook
+
+
 def _fit_plan(
     engine: EvidenceEngine,
     plan: Sequence[tuple[str, ...]],
@@ -868,10 +966,11 @@ def _fit_plan(
         if cancel is not None and cancel():
             raise EvidenceCancelledError("The evidence computation was cancelled.")
         if done in together:
-            engine.fit_many(
-                plan[done : together[done]],
-                on_pass=_pass_hook(done + 1, total, cancel, pass_progress),
-            )
+            hooks = [
+                _pass_hook(model, total, cancel, pass_progress)
+                for model in range(done + 1, together[done] + 1)
+            ]
+            engine.fit_many(plan[done : together[done]], on_pass=_group_hook(hooks))
         engine.fit(terms, on_pass=_pass_hook(done + 1, total, cancel, pass_progress))
         if progress is not None:
             progress(done + 1, total)

@@ -47,10 +47,12 @@ from covariscope.analysis.glm_newton import GlmPath, information_and_score, newt
 __all__ = [
     "GLM_FAMILY_CODES",
     "GlmPath",
+    "OutcomeFacts",
     "Separation",
     "detect_separation",
     "fit_glm",
     "fit_glm_path",
+    "glm_fit_from_path",
     "information_and_score",
     "newton_glm",
 ]
@@ -400,20 +402,68 @@ def fit_glm_path(
         meat=link.robust,
         on_pass=on_pass,
     )
+    return glm_fit_from_path(
+        X,
+        y,
+        family,
+        path,
+        column_names=names,
+        terms=terms,
+        exposure_index=exposure_index,
+        cols=cols,
+    )
+
+
+@dataclass(frozen=True)
+class OutcomeFacts:
+    """What a fit's cautions read of the outcome: its mean, total and whether it is 0/1."""
+
+    mean: float
+    total: float
+    binary: bool
+
+    @classmethod
+    def of(cls, y: Array) -> OutcomeFacts:
+        """The facts of the outcome column ``y`` (one read)."""
+        total = float(np.sum(y))
+        return cls(total / max(len(y), 1), total, bool(np.all((y == 0) | (y == 1))))
+
+
+def glm_fit_from_path(
+    X: Array,
+    y: Array,
+    family: str,
+    path: GlmPath,
+    *,
+    column_names: list[str],
+    terms: tuple[str, ...],
+    exposure_index: int,
+    cols: npt.NDArray[np.intp] | None = None,
+    outcome: OutcomeFacts | None = None,
+) -> tuple[Fit, GlmPath | None]:
+    """The :class:`Fit` a Newton path of :func:`fit_glm_path` ends in: an
+    aliased design named, separation found and worded, the sandwich formed
+    for a robust family, the cautions added.  Shared by the models fitted
+    one at a time and the models fitted in lockstep
+    (:mod:`covariscope.analysis.glm_batch`), which read the ``outcome``'s
+    facts once for all."""
+    names = column_names
+    facts = OutcomeFacts.of(y) if outcome is None else outcome
+    n = X.shape[0]
+    p = X.shape[1] if cols is None else len(cols)
+    link = family_of(family).glm
     if path.stop == "aliased":
         assert path.info is not None
         clauses = aliased_columns(path.info, names) or ["the columns are nearly collinear"]
         return Fit.failed(family, terms, n, rank_message(clauses)), None
-    extreme = path.mu_low < link.extreme_floor(float(np.mean(y)))
+    extreme = path.mu_low < link.extreme_floor(facts.mean)
     blank: frozenset[int] = frozenset()
     warns: list[str] = []
     if not path.converged or extreme:
         Xm = X if cols is None else X[:, cols]
         sep = detect_separation(Xm, y, family=family)
         if sep.found:
-            words = _separation_words(
-                sep, names, link, counts=not bool(np.all((y == 0) | (y == 1)))
-            )
+            words = _separation_words(sep, names, link, counts=not facts.binary)
             if sep.kind == "complete" or exposure_index in sep.columns or path.cov is None:
                 return Fit.failed(family, terms, n, words), None
             blank = frozenset(sep.columns) - {0}
@@ -430,8 +480,8 @@ def fit_glm_path(
         # HC0 sandwich H⁻¹ (Σ rᵢ² xᵢxᵢ') H⁻¹, both parts from the last Newton
         # pass (the step left moves no linear predictor by more than ETA_TOL).
         cov = cov @ path.meat @ cov
-    binary = bool(np.all((y == 0) | (y == 1)))
-    events = float(link.events(float(np.sum(y)), float(n)))
+    binary = facts.binary
+    events = float(link.events(facts.total, float(n)))
     warns.extend(glm_cautions(family, events, p, binary=binary, mu_high=path.mu_high))
     fit = fit_from_params(
         family,

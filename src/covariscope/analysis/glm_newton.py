@@ -11,7 +11,7 @@ turns out to be the last, when the step before it was already small.
 from __future__ import annotations
 
 import math
-from collections.abc import Callable
+from collections.abc import Callable, Generator
 from dataclasses import dataclass
 
 import numpy as np
@@ -28,7 +28,15 @@ from covariscope.analysis.fitting_common import (
 )
 from covariscope.analysis.passes import GlmPass, glm_pass
 
-__all__ = ["GlmPath", "information_and_score", "newton_glm"]
+__all__ = [
+    "GlmPath",
+    "PassRequest",
+    "Walk",
+    "information_and_score",
+    "newton_glm",
+    "newton_walk",
+    "walk_inputs",
+]
 
 Array = npt.NDArray[np.float64]
 Index = npt.NDArray[np.intp]
@@ -102,6 +110,21 @@ def _aliased(c: Array | None, H: Array) -> bool:
     return c is None or float(np.min(np.diag(c) ** 2 / np.diag(H))) < ALIAS_TOL
 
 
+@dataclass(frozen=True)
+class PassRequest:
+    """What a Newton walk asks of the next pass over the rows: the sums at
+    ``beta``, with the information when ``info`` and the sandwich's middle
+    term when ``meat``."""
+
+    beta: Array
+    info: bool
+    meat: bool
+
+
+#: A Newton walk: yields the passes it needs, is sent their sums, returns where it ended.
+Walk = Generator[PassRequest, GlmPass, GlmPath]
+
+
 def newton_glm(
     X: Array,
     y: Array,
@@ -127,7 +150,8 @@ def newton_glm(
     infinity; ``reach`` (each column's largest |value|) enters the stopping
     rule; both are computed when not given.  ``meat`` asks for the sandwich's
     middle term at the last Newton point; ``on_pass`` is called after every
-    pass over the rows (progress, cancellation).
+    pass over the rows (progress, cancellation).  The steps themselves are
+    :func:`newton_walk`'s; this function makes its passes one at a time.
 
     >>> import numpy as np
     >>> X = np.column_stack([np.ones(6), [0, 0, 1, 1, 0, 1.0]])
@@ -136,39 +160,76 @@ def newton_glm(
     (True, 1.3863)
     """
     idx = np.arange(X.shape[1]) if cols is None else np.asarray(cols, dtype=np.intp)
-    p = len(idx)
-    link = family_of(family).glm
-    ylogy = link.saturated(y)
-    if start is None:
-        b = _start(link, X[:, idx[0]], y, offset, p)
-    else:
-        b = np.array(start, dtype=np.float64)
-    if scale is None or reach is None:
-        # The model's own columns, read in place when it uses them all.
-        Xm = X if cols is None else X[:, idx]
-        scale = _column_sd(Xm) if scale is None else scale
-        reach = np.maximum(Xm.max(axis=0), -Xm.min(axis=0)) if reach is None else reach
-    passes = 0
-
-    def run(beta: Array, info: bool, want_meat: bool) -> GlmPass:
-        nonlocal passes
-        passes += 1
-        out = glm_pass(
+    b, scale, reach = walk_inputs(X, y, family, idx, offset, start, scale, reach)
+    ylogy = family_of(family).glm.saturated(y)
+    walk = newton_walk(b, scale, reach, meat=meat, max_iter=max_iter)
+    request = next(walk)
+    while True:
+        sums = glm_pass(
             X,
             y,
             family,
-            beta,
+            request.beta,
             cols=None if cols is None else idx,
             offset=offset,
-            info=info,
-            meat=want_meat,
+            info=request.info,
+            meat=request.meat,
             ylogy=ylogy,
         )
         if on_pass is not None:
             on_pass()
-        return out
+        try:
+            request = walk.send(sums)
+        except StopIteration as done:
+            path: GlmPath = done.value
+            return path
 
-    P = run(b, True, False)
+
+def walk_inputs(
+    X: Array,
+    y: Array,
+    family: str,
+    idx: Index,
+    offset: Array | None,
+    start: Array | None,
+    scale: Array | None,
+    reach: Array | None,
+) -> tuple[Array, Array, Array]:
+    """The start, column SDs and column reaches a Newton walk of the model
+    ``idx`` (columns of X) needs; the given ones are kept."""
+    if start is None:
+        b = _start(family_of(family).glm, X[:, idx[0]], y, offset, len(idx))
+    else:
+        b = np.array(start, dtype=np.float64)
+    if scale is None or reach is None:
+        # The model's own columns, read in place when it uses them all.
+        Xm = X if len(idx) == X.shape[1] and np.all(idx == np.arange(X.shape[1])) else X[:, idx]
+        scale = _column_sd(Xm) if scale is None else scale
+        reach = np.maximum(Xm.max(axis=0), -Xm.min(axis=0)) if reach is None else reach
+    return b, scale, reach
+
+
+def newton_walk(
+    b: Array, scale: Array, reach: Array, *, meat: bool = False, max_iter: int = 50
+) -> Walk:
+    """The Newton–Raphson steps from ``b``, as a generator of the passes they need.
+
+    Each ``yield`` asks for one pass (:class:`PassRequest`) and receives its
+    sums (:class:`~covariscope.analysis.passes.GlmPass`); the generator
+    returns the :class:`GlmPath`.  Whoever drives it decides how the passes
+    are made: one model at a time (:func:`newton_glm`), or several models
+    whose passes share their reads of the rows
+    (:mod:`covariscope.analysis.glm_batch`), with the same steps either way.
+    """
+    passes = 0
+
+    def ask(beta: Array, info: bool, want_meat: bool) -> Generator[PassRequest, GlmPass, GlmPass]:
+        nonlocal passes
+        passes += 1
+        got = yield PassRequest(beta, info, want_meat)
+        return got
+
+    P = yield from ask(b, True, False)
     cov: Array | None = None
     last_moved: float | None = None
     for it in range(1, max_iter + 1):
@@ -187,7 +248,7 @@ def newton_glm(
         delta = cov @ P.score
         if newton_done(delta, cov, reach):
             if meat and P.meat is None:
-                P = run(b, False, True)
+                P = yield from ask(b, False, True)
             return GlmPath(
                 b + delta,
                 cov,
@@ -201,9 +262,10 @@ def newton_glm(
             )
         moved = float(reach @ np.abs(delta))
         if _chord_pays(moved, last_moved):
-            chord = _chord(run, b + delta, cov, reach, P.deviance, moved)
+            chord = yield from _chord(ask, b + delta, cov, reach, P.deviance, moved)
             if chord is not None:
-                b, P = chord, run(chord, True, meat)
+                b = chord
+                P = yield from ask(chord, True, meat)
                 last_moved = None
                 continue
         rate = FIRST_RATE if not last_moved else moved / last_moved**2
@@ -212,7 +274,7 @@ def newton_glm(
         t = 1.0
         for _ in range(40):
             b_new = b + t * delta
-            P_new = run(b_new, t == 1.0, near and t == 1.0)
+            P_new = yield from ask(b_new, t == 1.0, near and t == 1.0)
             dev_new = P_new.deviance
             if math.isfinite(dev_new) and dev_new <= P.deviance + 1e-12 * abs(P.deviance):
                 break
@@ -222,7 +284,7 @@ def newton_glm(
                 b, cov, it, False, P.deviance, P.mu_low, P.mu_high, "no_progress", passes=passes
             )
         if P_new.info is None:
-            P_new = run(b_new, True, near)
+            P_new = yield from ask(b_new, True, near)
         b, P = b_new, P_new
         if np.any(np.abs(b[1:]) * scale[1:] > DIVERGE_SD):
             return GlmPath(
@@ -247,13 +309,13 @@ def _chord_pays(moved: float, last_moved: float | None) -> bool:
 
 
 def _chord(
-    run: Callable[[Array, bool, bool], GlmPass],
+    ask: Callable[[Array, bool, bool], Generator[PassRequest, GlmPass, GlmPass]],
     b: Array,
     cov: Array,
     reach: Array,
     deviance: float,
     dist: float,
-) -> Array | None:
+) -> Generator[PassRequest, GlmPass, Array | None]:
     """Chord steps b ← b + V g(b) (V the inverse information in hand) by
     score-only passes; None when the deviance rises (fall back to Newton).
 
@@ -265,7 +327,7 @@ def _chord(
     """
     last = math.inf
     for _ in range(CHORD_STEPS):
-        P = run(b, False, False)
+        P = yield from ask(b, False, False)
         if not math.isfinite(P.deviance) or P.deviance > deviance + 1e-12 * abs(deviance):
             return None
         step = cov @ P.score

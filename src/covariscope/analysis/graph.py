@@ -66,12 +66,19 @@ class DiagramAnalysis:
     measures_outcome: frozenset[str]
     minimal_sets_complete: bool = True
 
+    @property
+    def roles_unsettled(self) -> tuple[str, ...]:
+        """Covariates whose role a search left unsettled at its work budget
+        (the confounder rule, or the collider rule); the messages say which."""
+        return tuple(k for k, v in self.roles.items() if v.confounding_stopped or v.search_stopped)
+
     def to_json(self) -> dict[str, Any]:
         """The plain-data form that ``covariscope check --json`` prints."""
         return {
             "exposure": self.exposure,
             "outcome": self.outcome,
             "roles": {k: v.role for k, v in self.roles.items()},
+            "roles_unsettled": list(self.roles_unsettled),
             "minimal_sets": [list(s) for s in self.minimal_sets],
             "identifiable": self.identifiable,
             "proposed": list(self.review.proposed),

@@ -127,7 +127,7 @@ def linear_summary(values: np.ndarray, *, chunk_rows: int = 16384) -> LinearSumm
         chunk = values[start : start + rows]
         z = buf[: chunk.shape[0]]
         np.subtract(chunk, shift, out=z[:, :q])
-        acc += z.T @ z
+        acc += np.dot(z.T, z)  # np.dot, not @: fitting_common's docstring
     sums = acc[:q, q]
     comoment = acc[:q, :q] - np.outer(sums, sums) / n
     comoment = (comoment + comoment.T) / 2.0
@@ -198,7 +198,7 @@ def centred_cross(
             block = block[:, cols]  # already a copy: centred where it lies
             block -= mean
         other = centred[s : s + chunk_rows]
-        out += block.T @ (other if centre is None else other - centre)
+        out += np.dot(block.T, other if centre is None else other - centre)
     return out
 
 

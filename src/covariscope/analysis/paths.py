@@ -574,6 +574,8 @@ def open_path_with_collider(
     *,
     budget: int | None = SEARCH_BUDGET,
     walk: WalkBudget | None = None,
+    an_given: Collection[str] | None = None,
+    nodes_ok: Collection[str] | None = None,
 ) -> PathSearch:
     """A backdoor path open given Z with a collider in ``wanted``.
 
@@ -581,13 +583,15 @@ def open_path_with_collider(
     many are examined, and the walk makes at most the reachability searches
     ``walk`` has left (a new :data:`WALK_BUDGET` when None; pass one object
     to many searches to bound them together).  A search that stops at either
-    budget without a find says so (``complete`` False).  ``adj`` is
-    ``skeleton(M)`` when the caller asks many times of one graph.
+    budget without a find says so (``complete`` False).  When the caller
+    asks many times of one graph, it passes what it has already built:
+    ``adj`` is ``skeleton(M)``, ``an_given`` the ancestors of Z (Z
+    included) and ``nodes_ok`` those of X, Y and Z.
     """
     adj = skeleton(M) if adj is None else adj
     walk = WalkBudget() if walk is None else walk
-    anZ = ancestors_of(M, Z)
-    nodes_ok = ancestors_of(M, {X, Y} | Z)
+    anZ = ancestors_of(M, Z) if an_given is None else an_given
+    nodes_ok = ancestors_of(M, {X, Y} | Z) if nodes_ok is None else nodes_ok
 
     def allow(prev: str, v: str, nxt: str) -> bool:
         collider = M.has_edge(prev, v) and M.has_edge(nxt, v)

@@ -19,7 +19,13 @@ from __future__ import annotations
 from collections.abc import Iterable, Mapping
 
 from covariscope.analysis.verdict_terms import LABELS, Facts, Numbers, Verdict
-from covariscope.analysis.verdict_wording import format_set, guide, num, shift_clause
+from covariscope.analysis.verdict_wording import (
+    format_set,
+    guide,
+    members_words,
+    num,
+    shift_clause,
+)
 
 __all__ = ["collinear_groups", "group_verdict"]
 
@@ -30,7 +36,7 @@ def _needed_together(f: Facts, n: Numbers, t: Mapping[str, float], ratio: bool) 
     backdoor path open."""
     others = [m for m in f.group if m != f.node]
     rest = [m for m in f.set_members if m not in f.group]
-    beside = f" with {format_set(rest)}" if rest else ""
+    beside = f" with {members_words(rest)}" if rest else ""
     numbers = [f.group_why] if f.group_why else []
     if n.aux_r2 is not None:
         numbers.append(
@@ -77,7 +83,7 @@ def group_verdict(f: Facts, n: Numbers, t: Mapping[str, float], *, ratio: bool =
         return _needed_together(f, n, t, ratio)
     others = [m for m in f.group if m != f.node]
     rest = [m for m in f.set_members if m not in f.group]
-    beside = f" with {format_set(rest)}" if rest else ""
+    beside = f" with {members_words(rest)}" if rest else ""
     lacking = [m for m in f.group if m not in f.group_alone]
     if not f.group_alone:
         alone = f"no single member alone gives a sufficient set{beside}"

@@ -33,9 +33,10 @@ from covariscope.analysis.verdict_wording import (
     COMPARISON_WORDS,
     PATHS_NAMED,
     estimate_words,
-    format_set,
     guide,
     largest_shift,
+    members_words,
+    names_words,
     num,
     path_words,
     pct,
@@ -70,10 +71,10 @@ def _unmeasured(f: Facts) -> Verdict:
     if f.sufficient_without is None:
         tail = "no measured adjustment set is known"
     elif f.sufficient_without:
-        tail = f"the {f.set_name} set {format_set(f.set_members)} is sufficient without it"
+        tail = f"the {f.set_name} set {members_words(f.set_members)} is sufficient without it"
     else:
         tail = (
-            f"the {f.set_name} set {format_set(f.set_members)} is not sufficient without it, "
+            f"the {f.set_name} set {members_words(f.set_members)} is not sufficient without it, "
             "so confounding may remain (see the E-value)"
         )
     return _verdict(f, "unmeasured", f"Not measured: {what}; {tail}.")
@@ -290,12 +291,12 @@ def role_verdict(f: Facts, n: Numbers, t: Mapping[str, float], family: str) -> V
     if f.role == "confounder_proxy":
         if f.stands_for_adjusted:
             advice = (
-                f"unnecessary here, since {', '.join(f.stands_for_adjusted)}, the confounder it "
+                f"unnecessary here, since {names_words(f.stands_for_adjusted)}, the confounder it "
                 f"stands for, is in the {f.set_name} set"
             )
         elif f.stands_for:
             advice = (
-                f"worth adjusting for, since {', '.join(f.stands_for)}, the confounder it stands "
+                f"worth adjusting for, since {names_words(f.stands_for)}, the confounder it stands "
                 "for, is not measured or not adjusted for"
             )
         else:

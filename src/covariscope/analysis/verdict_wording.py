@@ -14,12 +14,15 @@ from covariscope.analysis.verdict_terms import Facts, Numbers
 
 __all__ = [
     "COMPARISON_WORDS",
+    "MEMBERS_NAMED",
     "PATHS_NAMED",
     "estimate_words",
     "format_set",
     "guide",
     "labelled",
     "largest_shift",
+    "members_words",
+    "names_words",
     "num",
     "path_words",
     "pct",
@@ -49,6 +52,34 @@ def format_set(members: Iterable[str]) -> str:
 #: Paths a verdict sentence names (the first of those the facts hold).
 PATHS_NAMED = 3
 
+#: Members of a set a verdict sentence names; the rest are counted.  Every
+#: covariate's sentence may name the set in use, so naming all of a set of
+#: hundreds made the sentences grow as the square of the diagram (2 MB of
+#: reasons on a 616-node diagram).  Common practice: the set itself is shown
+#: in full once, beside the sentences.
+MEMBERS_NAMED = 12
+
+
+def names_words(names: Sequence[str]) -> str:
+    """Names joined by commas; past :data:`MEMBERS_NAMED`, the rest counted.
+
+    >>> names_words(["age", "sex"])
+    'age, sex'
+    >>> names_words([f"v{i}" for i in range(14)])
+    'v0, v1, v2, v3, v4, v5, v6, v7, v8, v9, v10, v11 and 2 more'
+    """
+    if len(names) <= MEMBERS_NAMED:
+        return ", ".join(names)
+    return f"{', '.join(names[:MEMBERS_NAMED])} and {len(names) - MEMBERS_NAMED:,} more"
+
+
+def members_words(members: Sequence[str]) -> str:
+    """A set as :func:`format_set` writes it; past :data:`MEMBERS_NAMED`
+    members, the rest counted: ``{a, …, l} and 290 more``."""
+    if len(members) <= MEMBERS_NAMED:
+        return format_set(members)
+    return f"{format_set(members[:MEMBERS_NAMED])} and {len(members) - MEMBERS_NAMED:,} more"
+
 
 def path_words(nodes: Sequence[str]) -> str:
     """A path as its node names joined by dashes."""
@@ -57,6 +88,8 @@ def path_words(nodes: Sequence[str]) -> str:
 
 def _label(node: str, names: Mapping[str, str]) -> str:
     """A node's label; a measure group ("a|b") by its members' labels."""
+    if "|" not in node:
+        return names.get(node, node) or node
     return " | ".join(names.get(m, m) or m for m in node.split("|"))
 
 

@@ -37,7 +37,7 @@ from covariscope.qt.data_controller import DataController
 from covariscope.qt.data_panel import DataPanel
 from covariscope.qt.diagnostics import CovariateDialog, EndpointDialog, NodeDialog
 from covariscope.qt.estimates_strip import EstimatesStrip
-from covariscope.qt.geometry import restore_layout, save_layout, window_size
+from covariscope.qt.geometry import HeightShare, restore_layout, save_layout, window_size
 from covariscope.qt.glossary import GlossaryWindow
 from covariscope.qt.legend import LegendPanel
 from covariscope.qt.messages_bar import MessagesBar
@@ -45,6 +45,7 @@ from covariscope.qt.outcome_dialog import OutcomeColumnsDialog
 from covariscope.qt.project_io import ProjectIO, Prompts
 from covariscope.qt.review_table import PathsPanel, ReviewTable
 from covariscope.qt.settings_dialogs import ThresholdsDialog
+from covariscope.qt.steps import StepChain
 from covariscope.qt.tables import selected_text
 from covariscope.qt.undo import push
 from covariscope.qt.worker import AnalysisRunner
@@ -66,6 +67,8 @@ __all__ = ["MainWindow"]
 LAYOUT_FIELDS = frozenset({"x", "y", "note"})
 #: Node fields no panel shows: editing them refreshes none.
 PLACE_FIELDS = frozenset({"x", "y"})
+#: The review table's share of the window's height (the main output), kept on resizes.
+REVIEW_SHARE = 0.4
 
 
 class MainWindow(QMainWindow):
@@ -92,6 +95,7 @@ class MainWindow(QMainWindow):
         self.runner.started.connect(lambda _g: self._set_state("Analysing…"))
         self.runner.progress.connect(lambda f, t: self.show_progress(t or "Analysing", f))
         self.runner.finished.connect(self._analysis_done)
+        self.showing = StepChain(self)
         self.runner.failed.connect(self._analysis_failed)
         self.io = ProjectIO(self)
         self.data = DataController(self)
@@ -153,6 +157,7 @@ class MainWindow(QMainWindow):
         self.resizeDocks(
             [self.docks["data"], self.docks["paths"]], [420, 150], Qt.Orientation.Vertical
         )
+        self.review_share = HeightShare(self, self.docks["review"], REVIEW_SHARE)
         self._size_review()
         self._fitted = False
         self._layout_settled = False
@@ -213,7 +218,8 @@ class MainWindow(QMainWindow):
         """The review table is the main output: give it a good share of the height."""
         if not shiboken6.isValid(self):
             return
-        review_height = max(260, int(self.height() * 0.4))
+        review_height = max(260, int(self.height() * REVIEW_SHARE))
+        self.review_share.share = review_height / max(self.height(), 1)
         self.resizeDocks([self.docks["review"]], [review_height], Qt.Orientation.Vertical)
         self.resizeDocks([self.docks["data"]], [450], Qt.Orientation.Horizontal)
 
@@ -238,6 +244,7 @@ class MainWindow(QMainWindow):
         for dialog in list(self.dialogs.values()):
             dialog.close()
         self.dialogs.clear()
+        self.showing.stop()
         self.runner.cancel()
         self.data.forget()
         self.undo_stack.clear()
@@ -355,21 +362,46 @@ class MainWindow(QMainWindow):
         )
 
     def _analysis_done(self, _generation: int, result: StudyResult) -> None:
+        """Show a new result: panels, canvas and dialogs in short steps, one
+        per turn of the event loop (so the window keeps answering), the state
+        last (tests and users read "up to date" once all of it shows)."""
         self.hide_progress()
         self.result = result
+        dialogs = [lambda d=d: self._refresh_open_dialog(d) for d in list(self.dialogs.values())]
+        self.showing.start(
+            [
+                self._show_review,
+                lambda: self.claims.refresh(self.result),
+                self._show_panels,
+                self._show_annotations,
+                *dialogs,
+                self._show_state,
+            ]
+        )
+
+    def _show_review(self) -> None:
         self._mark_review_stale(False)
-        self.refresh_panels()
-        notes = canvas_annotations(result)
-        self.scene.set_annotations(notes.roles, notes.verdicts)
-        for dialog in self.dialogs.values():
-            self._refresh_dialog(dialog)
-        sample = result.sample
+        self.review.refresh(self.project, self.result)
+        sample = self.result.sample if self.result is not None else None
         if sample is not None:
             self.rows_label.setText(f"{sample.used:,} of {sample.rows:,} rows used")
         elif self.data.table is not None:
             self.rows_label.setText("Diagram only: see the messages above the diagram")
         else:
             self.rows_label.setText("No data loaded")
+
+    def _show_panels(self) -> None:
+        self.refresh_panels()
+
+    def _show_annotations(self) -> None:
+        if self.result is not None:
+            notes = canvas_annotations(self.result)
+            self.scene.set_annotations(notes.roles, notes.verdicts)
+
+    def _show_state(self) -> None:
+        result = self.result
+        if result is None or self.runner.running or self.runner.pending:
+            return  # an edit came in meanwhile: its own state stands
         self._set_state("Analysis up to date")
         self.show_engine()
         # a tooltip, not a status message: a long message would widen the window
@@ -379,6 +411,7 @@ class MainWindow(QMainWindow):
         self.error_label.setToolTip("\n".join(result.messages))
 
     def _analysis_failed(self, _generation: int, message: str) -> None:
+        self.showing.stop()
         self.hide_progress()
         self._set_state("Analysis failed")
         self.set_last_error(message)
@@ -575,6 +608,10 @@ class MainWindow(QMainWindow):
         dialog.raise_()
         return dialog
 
+    def _refresh_open_dialog(self, dialog: NodeDialog) -> None:
+        if shiboken6.isValid(dialog) and self.dialogs.get(dialog.node_id) is dialog:
+            self._refresh_dialog(dialog)
+
     def _refresh_dialog(self, dialog: NodeDialog) -> None:
         if dialog.node_id not in self.project.diagram:
             dialog.close()
@@ -698,6 +735,8 @@ class MainWindow(QMainWindow):
             self._layout_settled = True
             if not self._restored:
                 QTimer.singleShot(0, self._size_review)
+            else:  # the share the user left it at
+                QTimer.singleShot(0, self.review_share.remember)
         self._fit_soon()
 
     def _fit_soon(self) -> None:
@@ -729,6 +768,7 @@ class MainWindow(QMainWindow):
         for dialog in list(self.dialogs.values()):
             dialog.close()
         save_layout(self)
+        self.showing.stop()
         self.runner.shutdown(30_000)
         self.data.loader.shutdown(30_000)
         self.data.profiler.shutdown(30_000)

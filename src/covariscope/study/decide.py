@@ -11,16 +11,18 @@ the sentences), and nothing else; sentences are built here once per result.
 from __future__ import annotations
 
 import math
-from collections.abc import Callable, Mapping
+from collections.abc import Callable, Iterable, Mapping
 from dataclasses import dataclass
 
 import networkx as nx
 
+from covariscope.analysis.adjustment import Backdoor
+from covariscope.analysis.constructs import MergedDiagram, merge_diagram
 from covariscope.analysis.contrasts import headline_estimates
 from covariscope.analysis.evalue import EValue, evalue_for_fit
 from covariscope.analysis.evidence import Comparison, EvidenceEngine, EvidenceTable, compare
 from covariscope.analysis.fits import Fit
-from covariscope.analysis.graph import DiagramAnalysis, is_sufficient
+from covariscope.analysis.graph import DiagramAnalysis
 from covariscope.analysis.proposal_wording import sufficiency_sentence
 from covariscope.analysis.recommend import Recommendation, pair_r2, recommend_set
 from covariscope.analysis.verdicts import (
@@ -43,7 +45,7 @@ from covariscope.study.facts import (
     would_open,
 )
 from covariscope.study.result import ESTIMATE_KEYS
-from covariscope.vocabulary import group_key
+from covariscope.vocabulary import Role, group_key, role_label
 
 __all__ = ["Decisions", "Question", "decide"]
 
@@ -236,6 +238,18 @@ def _recommend(
     return rec
 
 
+#: Most names a message lists before it counts the rest.
+NAMES_LISTED = 10
+
+
+def _some(names: Iterable[str]) -> str:
+    """``{a, b}``, or the first :data:`NAMES_LISTED` and how many more."""
+    items = list(names)
+    if len(items) <= NAMES_LISTED:
+        return format_set(items)
+    return f"{format_set(items[:NAMES_LISTED])} and {len(items) - NAMES_LISTED:,} more"
+
+
 def _stopped_searches(da: DiagramAnalysis, label: Mapping[str, str]) -> list[str]:
     """What the graph searches that stopped at their work budget could not say."""
     out: list[str] = []
@@ -267,6 +281,15 @@ def _stopped_searches(da: DiagramAnalysis, label: Mapping[str, str]) -> list[str
             "would open in the proposed set stopped at its work budget (the diagram has very many "
             "paths): they are not marked harmful, but that is not shown either; check them by eye."
         )
+    unsettled = [c for c, f in da.roles.items() if f.confounding_stopped]
+    if unsettled:
+        out.append(
+            f"The search for backdoor paths without a collider stopped at its work budget (the "
+            f"diagram has very many) before it could show that "
+            f"{_some(label[c] for c in unsettled)} lie on one: each lies on a chain of "
+            f"arrows from a common cause of the exposure and the outcome, so each is taken to "
+            f"be a {role_label(Role.CONFOUNDER)}; check them by eye."
+        )
     stopped = [c for c, f in da.roles.items() if f.search_stopped]
     if stopped:
         out.append(
@@ -295,10 +318,18 @@ class _Context:
     # looked up once per covariate: built once, not once per covariate
     names: dict[str, str]
     measured: dict[str, bool]
+    #: the backdoor criterion on this diagram, merged once for every question
+    check: Backdoor
+    #: the paths each collider in the proposed set opens (one listing for all)
+    opened: dict[str, tuple[tuple[str, ...], ...]]
+    #: what each confounder proxy stands for (one pass for all)
+    stands: dict[str, tuple[str, ...]]
+    #: members of each group that alone, with the rest, suffice (asked once per group)
+    alone: dict[tuple[str, ...], tuple[str, ...]]
 
 
 def _group_facts(
-    ctx: _Context, graph: nx.DiGraph, c: str
+    ctx: _Context, c: str
 ) -> tuple[tuple[str, ...], tuple[str, ...], bool, str, str | None, str]:
     """(group, members alone sufficient, needed?, why grouped, suggested member, why)."""
     q, da = ctx.q, ctx.da
@@ -315,7 +346,9 @@ def _group_facts(
     if not group:
         return (), (), False, "", None, ""
     rest = [m for m in ctx.base if m not in group]
-    alone = tuple(m for m in group if is_sufficient(graph, q.exposure, q.outcome, [*rest, m]))
+    if group not in ctx.alone:
+        ctx.alone[group] = tuple(m for m in group if ctx.check.suffices([*rest, m]))
+    alone = ctx.alone[group]
     why = group_why(group, da.groups, ctx.r2_pairs, ctx.flagged, r2_guide, label)
     estimate_of, se_of = _fit_lookup(ctx.engine if ctx.evidence is not None else None)
     suggested, suggested_why = suggest_member(
@@ -342,12 +375,12 @@ def _first_contrast(ctx: _Context) -> str:
     return f"{design.exposure_levels[1]} vs {design.exposure_levels[0]}"
 
 
-def _verdict(ctx: _Context, graph: nx.DiGraph, c: str) -> Verdict:
+def _verdict(ctx: _Context, c: str) -> Verdict:
     q, da, evidence = ctx.q, ctx.da, ctx.evidence
     role = da.roles[c].role
     measured = ctx.measured
-    group, alone, is_needed, why, suggested, suggested_why = _group_facts(ctx, graph, c)
-    stands = stands_for(graph, da, c) if role == "confounder_proxy" else ()
+    group, alone, is_needed, why, suggested, suggested_why = _group_facts(ctx, c)
+    stands = ctx.stands.get(c, ())
     f = Facts(
         node=c,
         role=role,
@@ -362,11 +395,7 @@ def _verdict(ctx: _Context, graph: nx.DiGraph, c: str) -> Verdict:
         group_why=why,
         suggested=suggested,
         suggested_why=suggested_why,
-        opened_paths=(
-            opened_paths(graph, q.exposure, q.outcome, q.proposed, c)
-            if role == "collider" and c in q.proposed
-            else ()
-        ),
+        opened_paths=ctx.opened.get(c, ()),
         would_open=would_open(da, c) if role == "collider" else (),
         stands_for=stands,
         stands_for_adjusted=tuple(s for s in stands if measured[s] and s in ctx.base),
@@ -406,8 +435,15 @@ def decide(
     da: DiagramAnalysis,
     evidence: EvidenceTable | None,
     engine: EvidenceEngine | None,
+    merged: MergedDiagram | None = None,
 ) -> Decisions:
-    """Collinear groups, the recommended set, one verdict per covariate, the estimates."""
+    """Collinear groups, the recommended set, one verdict per covariate, the estimates.
+
+    ``merged`` is the diagram with its measure groups merged, when the caller
+    has it (it is merged here otherwise, once).
+    """
+    md = merge_diagram(graph, q.exposure, q.outcome) if merged is None else merged
+    check = Backdoor(md, q.exposure, q.outcome)
     messages: list[str] = []
     groups, r2_pairs, flagged = _groups(q, da, evidence, engine)
     rec = _recommend(q, da, groups, evidence, engine, messages)
@@ -415,7 +451,9 @@ def decide(
     base = tuple(recommended) if rec.members is not None else q.proposed
     # Members the diagram needs whichever other is kept are adjusted for, with a
     # caution; the rest of their group (two or more) is still one to keep one of.
-    needed = {g: needed_together(graph, q.exposure, q.outcome, g, list(base)) for g in groups}
+    needed = {g: needed_together(check, g, list(base)) for g in groups}
+    colliders = [c for c in q.proposed if c in da.roles and da.roles[c].role == "collider"]
+    proxies = [c for c, f in da.roles.items() if f.role == "confounder_proxy"]
     ctx = _Context(
         q=q,
         da=da,
@@ -434,8 +472,12 @@ def decide(
         ),
         names=dict(q.names),
         measured=dict(q.measured),
+        check=check,
+        opened=opened_paths(md, q.exposure, q.outcome, q.proposed, colliders) if colliders else {},
+        stands=stands_for(graph, da, proxies),
+        alone={},
     )
-    verdicts = {c: _verdict(ctx, graph, c) for c in da.roles}
+    verdicts = {c: _verdict(ctx, c) for c in da.roles}
     estimates: dict[str, Fit | None] = dict.fromkeys(ESTIMATE_KEYS)
     ev_value: EValue | None = None
     if evidence is not None and engine is not None:

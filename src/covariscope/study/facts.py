@@ -7,12 +7,13 @@ why confounders form a collinear group and which member to keep.
 from __future__ import annotations
 
 import math
-from collections.abc import Callable, Mapping, Sequence
+from collections.abc import Callable, Iterable, Mapping, Sequence
 
 import networkx as nx
 
-from covariscope.analysis.constructs import merge_diagram
-from covariscope.analysis.graph import DiagramAnalysis, is_sufficient
+from covariscope.analysis.adjustment import Backdoor
+from covariscope.analysis.constructs import MergedDiagram
+from covariscope.analysis.graph import DiagramAnalysis
 from covariscope.analysis.paths import ancestors_of, given_constructs, listing, path_status
 from covariscope.analysis.recommend import MemberRanking, rank_members
 
@@ -32,22 +33,26 @@ PATH_CAP = 500
 
 
 def opened_paths(
-    G: nx.DiGraph, x: str, y: str, proposed: Sequence[str], node: str
-) -> tuple[tuple[str, ...], ...]:
-    """Backdoor paths open given the proposed set but closed without ``node``.
+    md: MergedDiagram, x: str, y: str, proposed: Sequence[str], nodes: Iterable[str]
+) -> dict[str, tuple[tuple[str, ...], ...]]:
+    """For each of ``nodes``: the backdoor paths open given the proposed set
+    but closed without that node.
 
-    The open paths are listed once (capped, under the walk's work budget)
-    and each is read again without ``node``; no second listing.
+    The open paths are listed once for all the nodes (capped, under the
+    walk's work budget) and each is read again without each node; no
+    listing per node.
     """
-    md = merge_diagram(G, x, y)
     M = md.graph
     given = given_constructs(md, proposed, x, y)
-    rest = given_constructs(md, [p for p in proposed if p != node], x, y)
-    an_rest = ancestors_of(M, rest)
     opened = listing(M, x, y, given, PATH_CAP, only_open=True)
-    return tuple(
-        sorted(p.nodes for p in opened.paths if not path_status(M, p.nodes, rest, an_rest).open)
-    )
+    out: dict[str, tuple[tuple[str, ...], ...]] = {}
+    for node in nodes:
+        rest = given_constructs(md, [p for p in proposed if p != node], x, y)
+        an_rest = ancestors_of(M, rest)
+        out[node] = tuple(
+            sorted(p.nodes for p in opened.paths if not path_status(M, p.nodes, rest, an_rest).open)
+        )
+    return out
 
 
 def would_close(da: DiagramAnalysis, node: str) -> tuple[tuple[str, ...], ...]:
@@ -116,34 +121,51 @@ def group_why(
     return reasons[0] if reasons else ""
 
 
-def needed_together(
-    G: nx.DiGraph, x: str, y: str, group: Sequence[str], base: Sequence[str]
-) -> tuple[str, ...]:
+def needed_together(check: Backdoor, group: Sequence[str], base: Sequence[str]) -> tuple[str, ...]:
     """Members of a collinear group that the diagram needs whichever other is kept.
 
     Empty when some member alone, with the rest of ``base`` (the adjustment
     set in use), gives a sufficient set (then one of them is to be kept), or
     when the rest with the whole group is not sufficient either.  Otherwise
     the members whose removal, with every other member kept, leaves the set
-    insufficient.
+    insufficient.  ``check`` is the caller's criterion for the diagram.
     """
     rest = [m for m in base if m not in group]
-    if any(is_sufficient(G, x, y, [*rest, m]) for m in group):
+    if any(check.suffices([*rest, m]) for m in group):
         return ()
-    if not is_sufficient(G, x, y, [*rest, *group]):
+    if not check.suffices([*rest, *group]):
         return ()
-    return tuple(
-        m for m in group if not is_sufficient(G, x, y, [*rest, *(o for o in group if o != m)])
-    )
+    return tuple(m for m in group if not check.suffices([*rest, *(o for o in group if o != m)]))
 
 
-def stands_for(G: nx.DiGraph, da: DiagramAnalysis, node: str) -> tuple[str, ...]:
-    """The confounders among ``node``'s ancestors (what a confounder proxy stands for)."""
-    return tuple(
-        sorted(
-            a for a in nx.ancestors(G, node) if a in da.roles and da.roles[a].role == "confounder"
-        )
-    )
+def stands_for(
+    G: nx.DiGraph, da: DiagramAnalysis, nodes: Iterable[str]
+) -> dict[str, tuple[str, ...]]:
+    """For each of ``nodes``: the confounders among its ancestors (what a
+    confounder proxy stands for).
+
+    One pass over the diagram in causal order, each node carrying the set of
+    confounders above it as a bit mask: one search for all the nodes, not
+    one per node.
+    """
+    confounders = sorted(c for c, f in da.roles.items() if f.role == "confounder" and c in G)
+    bit = {c: 1 << i for i, c in enumerate(confounders)}
+    above: dict[str, int] = {}
+    for v in nx.topological_sort(G):
+        mask = 0
+        for p in G.pred[v]:
+            mask |= above[p] | bit.get(p, 0)
+        above[v] = mask
+    out: dict[str, tuple[str, ...]] = {}
+    for node in nodes:
+        mask = above.get(node, 0)
+        found: list[str] = []
+        while mask:  # the set bits only: the cost of the answer, not of every confounder
+            low = mask & -mask
+            found.append(confounders[low.bit_length() - 1])
+            mask ^= low
+        out[node] = tuple(found)
+    return out
 
 
 def suggest_member(

@@ -388,7 +388,7 @@ def run_study(
     decisions: Decisions = run.get(
         "verdicts",
         (criteria.key, q, data.key),
-        lambda: decide(q, criteria.graph, da, data.evidence, data.engine),
+        lambda: decide(q, criteria.graph, da, data.evidence, data.engine, criteria.merged),
     )
     read = _rows_read(run, q, da, data, decisions, report)
     checks = _checks(run, project, q, criteria, data, report)

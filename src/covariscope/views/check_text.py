@@ -131,6 +131,12 @@ def format_study_text(result: StudyResult) -> str:
             f"{verdict_label(v.code):<{verdict_w}} {_fmt(change, '+.1f'):>9} "
             f"{_fmt(se, '+.1f'):>10} {_fmt(vif, '.2f'):>7}"
         )
+    unsettled = result.diagram.roles_unsettled
+    if unsettled:
+        lines.append(
+            f"roles of {len(unsettled):,} covariate(s) not settled: a search stopped at its "
+            "work budget (see the messages)"
+        )
     ratio = family_of(result.family).ratio
     lines.append(
         "change % and SE infl %: the covariate added alone to the crude model; "

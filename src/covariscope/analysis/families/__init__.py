@@ -21,6 +21,7 @@ from covariscope.analysis.families.base import (
     GlmLink,
     ModelFamily,
     OutcomeField,
+    Scratch,
 )
 from covariscope.analysis.families.registry import FAMILIES
 from covariscope.errors import DataError
@@ -34,6 +35,7 @@ __all__ = [
     "GlmLink",
     "ModelFamily",
     "OutcomeField",
+    "Scratch",
     "family_of",
 ]
 

@@ -11,8 +11,10 @@ in this package, named by its code and exporting ``FAMILY``
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 from enum import Enum
+from typing import Any
 
 import numpy as np
 import numpy.typing as npt
@@ -27,6 +29,7 @@ __all__ = [
     "GlmLink",
     "ModelFamily",
     "OutcomeField",
+    "Scratch",
     "single_value_error",
 ]
 
@@ -79,6 +82,28 @@ class CodeRecipe:
     stata_offset: str = ""
 
 
+class Scratch:
+    """Work arrays reused from block to block of a pass.
+
+    A fresh array of a few megabytes is mapped from the system on every
+    allocation and its pages faulted in on first touch, which costs more than
+    the arithmetic done in it; a pass asks for its arrays by name and gets the
+    same memory each block.
+    """
+
+    def __init__(self) -> None:
+        self._arrays: dict[str, npt.NDArray[Any]] = {}
+
+    def get(self, name: str, shape: tuple[int, ...], dtype: type = np.float64) -> npt.NDArray[Any]:
+        """An uninitialised array of ``shape`` (a view of the memory kept under ``name``)."""
+        size = math.prod(shape)
+        kept = self._arrays.get(name)
+        if kept is None or kept.size < size or kept.dtype != dtype:
+            kept = np.empty(max(size, 1), dtype=dtype)
+            self._arrays[name] = kept
+        return kept[:size].reshape(shape)
+
+
 class GlmLink:
     """The parts of a generalised linear model that depend on its likelihood.
 
@@ -100,6 +125,15 @@ class GlmLink:
 
     def block_sums(self, y: Array, eta: Array) -> tuple[float, Array, Array, float, float]:
         """Deviance part, residual y − μ, Newton weight, smallest and largest μ of one block."""
+        raise NotImplementedError
+
+    def columns_sums(
+        self, y: Array, eta: Array, scratch: Scratch
+    ) -> tuple[Array, Array, Array, Array, Array]:
+        """:meth:`block_sums` of several models at once: ``eta`` holds one
+        column per model; the deviance parts, smallest and largest μ come
+        one per column.  The residuals and weights are arrays of ``scratch``,
+        valid until its next use."""
         raise NotImplementedError
 
     def batch_sums(

@@ -14,6 +14,7 @@ from covariscope.analysis.families.base import (
     GlmLink,
     ModelFamily,
     OutcomeField,
+    Scratch,
     single_value_error,
 )
 from covariscope.errors import DataError
@@ -40,6 +41,50 @@ class LogitLink(GlmLink):
         mu = np.where(eta >= 0.0, r, low)
         w = low * r
         return 2.0 * dev, y - mu, w, float(np.min(low)), float(np.max(mu))
+
+    def columns_sums(
+        self, y: Array, eta: Array, scratch: Scratch
+    ) -> tuple[Array, Array, Array, Array, Array]:
+        """:meth:`block_sums` column by column (one column of η per model),
+        in ``scratch``'s arrays.
+
+        With e = exp(−|η|) and r = 1/(1 + e): min(μ, 1 − μ) = e·r, w = e·r²
+        and μ = e·r where η < 0, 1 − e·r elsewhere.  The sums over rows are
+        products with a vector of ones (one BLAS call each); Σ max(η, 0) =
+        (Σ η + Σ |η|)/2; and as μ rises with η, the smallest min(μ, 1 − μ)
+        and the largest μ come from the largest |η| and η.
+        """
+        shape = eta.shape
+        ones = scratch.get("ones", (shape[0],))
+        ones.fill(1.0)
+        a = scratch.get("a", shape)
+        np.abs(eta, out=a)
+        dev = 0.5 * (ones @ eta + ones @ a) - y @ eta
+        far = a.max(axis=0)
+        top = eta.max(axis=0)
+        e = a  # |η| is no longer needed
+        np.negative(a, out=e)
+        np.exp(e, out=e)
+        work = scratch.get("work", shape)
+        np.log1p(e, out=work)
+        dev += ones @ work
+        r = scratch.get("r", shape)
+        np.add(e, 1.0, out=r)
+        np.reciprocal(r, out=r)
+        np.multiply(e, r, out=e)  # e·r = min(μ, 1 − μ)
+        w = scratch.get("w", shape)
+        np.multiply(e, r, out=w)
+        # y − μ = (y − [η ≥ 0]) + sign(η)·e·r, the sign bit deciding (−0 included);
+        # the bracket is −1, 0 or 1 exactly, so a small residual keeps its digits
+        np.signbit(eta, out=work)  # 1.0 where η < 0
+        np.add(work, y[:, None] - 1.0, out=work)
+        resid = r
+        np.copysign(e, eta, out=resid)
+        np.add(resid, work, out=resid)
+        ef, et = np.exp(-far), np.exp(-np.abs(top))
+        low = ef / (1.0 + ef)
+        high = np.where(top >= 0.0, 1.0 / (1.0 + et), et / (1.0 + et))
+        return 2.0 * dev, resid, w, low, high
 
     def batch_sums(
         self, y: Array, eta: Array, saturated: bool

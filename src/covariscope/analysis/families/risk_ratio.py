@@ -16,6 +16,7 @@ from covariscope.analysis.families.base import (
     GlmLink,
     ModelFamily,
     OutcomeField,
+    Scratch,
     single_value_error,
 )
 from covariscope.errors import DataError
@@ -36,6 +37,18 @@ class PoissonLink(GlmLink):
         mu = np.exp(np.minimum(eta, 700.0))
         dev = 2.0 * (float(np.sum(mu)) - float(y @ eta))
         return dev, y - mu, mu, float(np.min(mu)), float(np.max(mu))
+
+    def columns_sums(
+        self, y: Array, eta: Array, scratch: Scratch
+    ) -> tuple[Array, Array, Array, Array, Array]:
+        """:meth:`block_sums` column by column (one column of η per model), in ``scratch``'s arrays."""
+        mu = scratch.get("mu", eta.shape)
+        np.minimum(eta, 700.0, out=mu)
+        np.exp(mu, out=mu)
+        dev = 2.0 * (mu.sum(axis=0) - y @ eta)
+        resid = scratch.get("resid", eta.shape)
+        np.subtract(y[:, None], mu, out=resid)
+        return dev, resid, mu, mu.min(axis=0), mu.max(axis=0)
 
     def batch_sums(
         self, y: Array, eta: Array, saturated: bool

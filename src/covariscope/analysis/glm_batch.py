@@ -1,0 +1,264 @@
+"""Several logistic or Poisson models fitted in lockstep, their passes sharing each read of the rows.
+
+The evidence table fits families of nearly equal models: every "crude + C"
+model, every "full − C" model.  Fitted one after another, each Newton step of
+each model is a pass of its own over the rows, and the information
+X'diag(w)X of a model of twenty-odd columns is a product whose narrow shape
+keeps the processor far below its speed.  Here each model's Newton walk
+(:func:`~covariscope.analysis.glm_newton.newton_walk`: the same start, steps,
+step halving and stopping rule as when it is fitted alone) asks for its next
+pass, and one read of the rows answers every model's request:
+
+* the linear predictors of all models are one product X B (B: one column of
+  coefficients per model, zero for the columns a model lacks);
+* their scores are one product X'R (R: one column of residuals per model);
+* their informations are one product K'W, where row i of K holds the
+  products x_ij x_ik (j ≤ k) of the column pairs the models use and W holds
+  each model's weights; the sandwich's middle terms are the same product
+  with the squared residuals.  K is formed block by block, once for all
+  models, and never kept.
+
+The sums equal :func:`~covariscope.analysis.passes.glm_pass`'s up to the order
+of the additions, so each model ends where it ends when fitted alone.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable, Sequence
+from dataclasses import dataclass
+
+import numpy as np
+import numpy.typing as npt
+
+from covariscope.analysis.families import GlmLink, Scratch, family_of
+from covariscope.analysis.glm_newton import GlmPath, PassRequest, Walk, newton_walk
+from covariscope.analysis.passes import GlmPass
+
+__all__ = ["BatchModel", "batch_pass", "newton_paths_many"]
+
+Array = npt.NDArray[np.float64]
+Index = npt.NDArray[np.intp]
+
+#: Cells of the block of column-pair products (pairs × rows) formed at a time:
+#: large enough that its product with the weights runs at the processor's
+#: speed, small enough to stay near the cache (measured best between 2^19
+#: and 2^20 on the benchmark of benchmarks/bench_iterative.py).
+PAIR_CELLS = 1 << 20
+
+#: Rows per block when no information is asked for (scores only).
+SCORE_ROWS = 16384
+
+
+@dataclass(frozen=True)
+class BatchModel:
+    """One model of a lockstep fit: its columns of X (in its parameters'
+    order) and what its Newton walk starts from."""
+
+    cols: Index
+    start: Array
+    scale: Array
+    reach: Array
+
+
+@dataclass(frozen=True)
+class _Pairs:
+    """The column pairs (j ≤ k) some model's information needs, grouped by j."""
+
+    groups: tuple[tuple[int, slice | Index, int], ...]
+    position: dict[tuple[int, int], int]
+    size: int
+
+    @classmethod
+    def of(cls, models: Sequence[Index]) -> _Pairs:
+        wanted: set[tuple[int, int]] = set()
+        for cols in models:
+            c = np.asarray(cols)
+            a, b = np.triu_indices(len(c))
+            lo, hi = np.minimum(c[a], c[b]), np.maximum(c[a], c[b])
+            wanted.update(zip(lo.tolist(), hi.tolist(), strict=True))
+        position: dict[tuple[int, int], int] = {}
+        groups: list[tuple[int, slice | Index, int]] = []
+        for j in sorted({j for j, _ in wanted}):
+            ks = sorted(k for jj, k in wanted if jj == j)
+            offset = len(position)
+            for k in ks:
+                position[(j, k)] = len(position)
+            contiguous = ks[-1] - ks[0] + 1 == len(ks)
+            picks: slice | Index = (
+                slice(ks[0], ks[-1] + 1) if contiguous else np.array(ks, dtype=np.intp)
+            )
+            groups.append((j, picks, offset))
+        return cls(tuple(groups), position, len(position))
+
+    def fill(self, rows_t: Array, out: Array) -> None:
+        """Row p of ``out`` = column j times column k of the block (``rows_t`` = block transposed)."""
+        for j, picks, offset in self.groups:
+            k = rows_t[picks]
+            np.multiply(rows_t[j], k, out=out[offset : offset + len(k)])
+
+    def matrix(self, cols: Index, sums: Array) -> Array:
+        """The model's p × p matrix from the pair sums."""
+        c = np.asarray(cols)
+        lo = np.minimum.outer(c, c).ravel().tolist()
+        hi = np.maximum.outer(c, c).ravel().tolist()
+        position = self.position
+        at = np.fromiter(
+            (position[pair] for pair in zip(lo, hi, strict=True)), np.intp, len(lo)
+        ).reshape(len(c), len(c))
+        picked: Array = sums[at]
+        return picked
+
+
+def batch_pass(
+    X: Array,
+    y: Array,
+    link: GlmLink,
+    requests: Sequence[tuple[Index, PassRequest]],
+    *,
+    offset: Array | None = None,
+    ylogy: float = 0.0,
+) -> list[GlmPass]:
+    """The sums of :func:`~covariscope.analysis.passes.glm_pass` for several
+    models (their columns of X and requests) in one read of the rows.
+
+    >>> import numpy as np
+    >>> from covariscope.analysis.families import family_of
+    >>> from covariscope.analysis.glm_newton import PassRequest
+    >>> X = np.column_stack([np.ones(4), [0, 1, 0, 1.0]])
+    >>> y = np.array([0, 1, 1, 1.0])
+    >>> ask = PassRequest(np.zeros(2), True, False)
+    >>> one, = batch_pass(X, y, family_of("logistic").glm, [(np.array([0, 1]), ask)])
+    >>> one.info.tolist(), one.score.tolist()
+    ([[1.0, 0.5], [0.5, 0.5]], [1.0, 1.0])
+    """
+    n, q = X.shape
+    m = len(requests)
+    B = np.zeros((q, m))
+    for r, (cols, req) in enumerate(requests):
+        B[cols, r] = req.beta
+    info_at = [r for r, (_, req) in enumerate(requests) if req.info]
+    meat_at = [r for r, (_, req) in enumerate(requests) if req.meat]
+    asked = [(r, False) for r in info_at] + [(r, True) for r in meat_at]
+    pairs = _Pairs.of([requests[r][0] for r in sorted({*info_at, *meat_at})])
+    if not _pairs_pay(pairs.size, [len(requests[r][0]) for r, _ in asked]):
+        pairs = _Pairs.of([])
+    dev = np.zeros(m)
+    score = np.zeros((q, m))
+    low = np.full(m, np.inf)
+    high = np.full(m, -np.inf)
+    sums = np.zeros((pairs.size, len(asked)))
+    direct = {a: np.zeros((len(requests[a[0]][0]),) * 2) for a in asked} if not pairs.size else {}
+    rows = SCORE_ROWS if not pairs.size else max(256, min(SCORE_ROWS, PAIR_CELLS // pairs.size))
+    rows = min(rows, n)
+    scratch = Scratch()
+    products = np.empty((pairs.size, rows))
+    weights = np.empty((rows, len(asked)))
+    eta_rows = np.empty((rows, m))
+    for s in range(0, n, rows):
+        e = min(s + rows, n)
+        block = X[s:e]
+        eta = eta_rows[: e - s]
+        np.matmul(block, B, out=eta)
+        if offset is not None:
+            eta += offset[s:e, None]
+        d, resid, w, lo, hi = link.columns_sums(y[s:e], eta, scratch)
+        dev += d
+        np.minimum(low, lo, out=low)
+        np.maximum(high, hi, out=high)
+        score += block.T @ resid
+        if pairs.size:
+            k = products[:, : e - s]
+            pairs.fill(block.T, k)
+            wk = weights[: e - s]
+            for j, (r, is_meat) in enumerate(asked):
+                if is_meat:
+                    np.square(resid[:, r], out=wk[:, j])
+                else:
+                    wk[:, j] = w[:, r]
+            sums += k @ wk
+        for (r, is_meat), acc in direct.items():
+            Z = block[:, requests[r][0]]
+            Z *= (resid[:, r] if is_meat else np.sqrt(w[:, r]))[:, None]
+            acc += Z.T @ Z
+    out: list[GlmPass] = []
+    column = {a: j for j, a in enumerate(asked)}
+
+    def formed(r: int, is_meat: bool) -> Array:
+        if direct:
+            return direct[(r, is_meat)]
+        return pairs.matrix(requests[r][0], sums[:, column[(r, is_meat)]])
+
+    for r, (cols, req) in enumerate(requests):
+        info = formed(r, False) if req.info else None
+        meat = formed(r, True) if req.meat else None
+        deviance = float(dev[r]) + (2.0 * ylogy if ylogy else 0.0)
+        out.append(GlmPass(deviance, score[cols, r], info, meat, float(low[r]), float(high[r])))
+    return out
+
+
+def _pairs_pay(pairs: int, widths: list[int]) -> bool:
+    """Whether the column-pair products beat one product per model.
+
+    Per row, the pair products cost one multiplication per pair and then
+    about 0.07 of one per pair and model in the matrix product; forming each
+    model's √w·X and its cross product directly costs about two per column
+    and a tenth per column squared (measured with benchmarks/bench_iterative.py
+    on this project's machines; a guide, not a published figure).
+    """
+    if not widths:
+        return False
+    by_pairs = pairs * (1.0 + 0.07 * len(widths))
+    by_model = sum(2.0 * p + 0.1 * p * p for p in widths)
+    return by_pairs < by_model
+
+
+def newton_paths_many(
+    X: Array,
+    y: Array,
+    family: str,
+    models: Sequence[BatchModel],
+    *,
+    offset: Array | None = None,
+    meat: bool = False,
+    max_iter: int = 50,
+    on_pass: Callable[[int], None] | None = None,
+) -> list[GlmPath | None]:
+    """Each model's :func:`~covariscope.analysis.glm_newton.newton_walk`, the
+    passes of all unfinished models made together, round by round.
+
+    A model whose walk raises an arithmetic or linear-algebra error gets
+    None (its caller fits it alone, which reports the problem); the others
+    go on unchanged.  ``on_pass`` is called after every round with each model
+    (its position in ``models``) that the round served; an exception it
+    raises (cancellation) stops every walk.
+    """
+    link = family_of(family).glm
+    ylogy = link.saturated(y)
+    walks: dict[int, Walk] = {}
+    pending: dict[int, PassRequest] = {}
+    paths: list[GlmPath | None] = [None] * len(models)
+    for k, model in enumerate(models):
+        walks[k] = newton_walk(model.start, model.scale, model.reach, meat=meat, max_iter=max_iter)
+        pending[k] = next(walks[k])
+    while pending:
+        keys = list(pending)
+        answers = batch_pass(
+            X,
+            y,
+            link,
+            [(models[k].cols, pending[k]) for k in keys],
+            offset=offset,
+            ylogy=ylogy,
+        )
+        if on_pass is not None:
+            for k in keys:
+                on_pass(k)
+        for k, answer in zip(keys, answers, strict=True):
+            try:
+                pending[k] = walks[k].send(answer)
+            except StopIteration as stop:
+                paths[k] = stop.value
+                del pending[k]
+            except (ArithmeticError, ValueError, np.linalg.LinAlgError):
+                del pending[k]
+    return paths
