@@ -219,7 +219,7 @@ def _fit(kind: str, y: np.ndarray, X: np.ndarray, start: np.ndarray | None) -> G
         return None
     dispersion = 1.0
     if kind == "count":
-        mu = np.exp(X @ params)
+        mu = np.exp(np.dot(X, params))  # np.dot, not @: fitting_common's docstring
         dof = max(len(y) - X.shape[1], 1)
         dispersion = float(np.sum((y - mu) ** 2 / mu) / dof)
     return GlmFit(float(res.llf), params, bse, dispersion)

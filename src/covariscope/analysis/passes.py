@@ -144,17 +144,17 @@ def _pass_rows(
         # (basic slicing then fancy indexing: ten times faster than np.take
         # on a Fortran-ordered block)
         Xc = X[s:e] if cols is None else X[s:e][:, cols]
-        eta = Xc @ beta
+        eta = np.dot(Xc, beta)  # np.dot, not @: fitting_common's docstring
         if offset is not None:
             eta += offset[s:e]
         d, resid, w, lo, hi = link.block_sums(y[s:e], eta)
         dev += d
         low, high = min(low, lo), max(high, hi)
-        score += resid @ Xc
+        score += np.dot(resid, Xc)
         if H is not None:
             Z = Xc * np.sqrt(w)[:, None]
-            H += Z.T @ Z
+            H += np.dot(Z.T, Z)
         if M is not None:
             R = Xc * resid[:, None]
-            M += R.T @ R
+            M += np.dot(R.T, R)
     return GlmPass(dev, score, H, M, low, high)

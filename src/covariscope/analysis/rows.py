@@ -198,13 +198,13 @@ def glm_sums(
 def _sums_of(
     X: Array, y: Array, offset: Array | None, params: Array, family: str, ylogy: bool
 ) -> GlmSums:
-    eta = X @ params
+    eta = np.dot(X, params)  # np.dot, not @: fitting_common's docstring
     if offset is not None:
         eta = eta + offset
     dev, mu, w, low = family_of(family).glm.batch_sums(y, eta, ylogy)
     return GlmSums(
         information=weighted_crossprod(X, w),
-        score=X.T @ (y - mu),
+        score=np.dot(X.T, y - mu),
         deviance=dev,
         weight_sum=float(np.sum(w)),
         mu_low=low,
@@ -275,7 +275,7 @@ def sandwich_sums(batch: RowBatch, *, columns: tuple[int, ...], params: Array) -
     """Middle term of the robust (HC0) covariance of a log-link Poisson fit (Zou 2004)."""
     X = _intercept_design(batch.values, columns)
     y = batch.values[:, -1]
-    eta = X @ params
+    eta = np.dot(X, params)
     if batch.offset is not None:
         eta = eta + batch.offset
     mu = np.exp(np.minimum(eta, 700.0))

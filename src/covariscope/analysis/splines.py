@@ -16,6 +16,7 @@ from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass
 
 import numpy as np
+import scipy.linalg
 
 from covariscope.analysis.column_fit import (
     ColumnFit,
@@ -148,7 +149,11 @@ def _as_spline(
     starts where the linear fit ended."""
     b = near_value(linear, node)
     design = np.column_stack([np.ones(len(raw)), basis])
-    c = np.linalg.lstsq(design, raw, rcond=None)[0]
+    # least squares through scipy's QR, which lets go of the interpreter lock
+    # (np.linalg.lstsq on the n rows holds it: see fitting_common); the small
+    # triangular system then gives the same minimum-norm answer
+    q, r = scipy.linalg.qr(design, mode="economic")
+    c = np.linalg.lstsq(r, np.dot(q.T, raw), rcond=None)[0]
     given = {"(intercept)": b * float(c[0])}
     given.update(
         {name: b * float(v) for name, v in zip(names[-basis.shape[1] :], c[1:], strict=True)}

@@ -23,6 +23,7 @@ from typing import Any
 
 import pandas as pd
 
+from covariscope.data.heap import release_freed_memory
 from covariscope.data.progress import LoadCancelledError, Steps
 from covariscope.data.readers import (
     ReadResult,
@@ -216,6 +217,7 @@ def load_table(
     notes.extend(result.notes)
     notes.extend(result.left_out)
     frame = _checked_frame(target, result, notes)
+    release_freed_memory()  # what the reader's chunks held, so the peak is not the data twice
     steps.finish()
     return LoadedTable(
         frame=frame,
