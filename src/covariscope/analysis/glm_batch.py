@@ -152,14 +152,14 @@ def batch_pass(
         e = min(s + rows, n)
         block = X[s:e]
         eta = eta_rows[: e - s]
-        np.matmul(block, B, out=eta)
+        np.dot(block, B, out=eta)
         if offset is not None:
             eta += offset[s:e, None]
         d, resid, w, lo, hi = link.columns_sums(y[s:e], eta, scratch)
         dev += d
         np.minimum(low, lo, out=low)
         np.maximum(high, hi, out=high)
-        score += block.T @ resid
+        score += np.dot(block.T, resid)
         wk = weights[: e - s]
         for j, (r, is_meat) in enumerate(asked):
             if is_meat:
@@ -169,9 +169,9 @@ def batch_pass(
         if pairs.size:
             k = products[:, : e - s]
             pairs.fill(block.T, k)
-            sums += k @ wk
+            sums += np.dot(k, wk)
         for j, a, picks in own_work:
-            own[a] += block.T @ (block[:, picks] * wk[:, j, None])
+            own[a] += np.dot(block.T, block[:, picks] * wk[:, j, None])
     out: list[GlmPass] = []
     column = {a: j for j, a in enumerate(asked)}
 
