@@ -10,7 +10,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from covariscope.data.heap import release_freed_memory
+from covariscope.data.heap import prefer_small_pages, release_freed_memory
 
 
 def _resident() -> int:
@@ -32,3 +32,15 @@ def test_freed_small_blocks_are_handed_back() -> None:
     after = _resident()
     assert (before - after) * os.sysconf("SC_PAGE_SIZE") > 60e6
     assert keep.sum() == 12_000
+
+
+def test_numpy_stops_advising_huge_pages() -> None:
+    import importlib
+
+    module = importlib.import_module("numpy._core.multiarray")
+    before = module._get_madvise_hugepage()
+    try:
+        assert prefer_small_pages()
+        assert module._get_madvise_hugepage() is False
+    finally:
+        module._set_madvise_hugepage(before)
