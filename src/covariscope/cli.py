@@ -175,10 +175,12 @@ class TerminalProgress:
 
 
 def _run(args: argparse.Namespace) -> tuple[Any, Any]:
+    from covariscope.data.heap import prefer_small_pages
     from covariscope.data.sources.choose import open_source
     from covariscope.model.project import load_project
     from covariscope.study import run_study
 
+    prefer_small_pages()  # one analysis, then the process ends (see data.heap)
     project = load_project(args.project)
     project.diagram.require_question()
     engine = args.engine or project.analysis.engine

@@ -68,3 +68,50 @@ def test_members_of_one_measure_group_cost_one_search() -> None:
     assert check.searches == 1
     assert not check.suffices([])
     assert check.searches == 2
+
+
+@pytest.mark.parametrize("seed", range(80))
+def test_removable_members_match_one_networkx_check_each(seed: int) -> None:
+    G, x, y = _random(seed)
+    check = Backdoor(merge_diagram(G, x, y), x, y)
+    rng = random.Random(seed)
+    below = nx.descendants(G, x)
+    others = sorted(set(G) - {x, y} - below)
+    for _ in range(12):
+        z = set(rng.sample(others, rng.randint(0, len(others))))
+        if not reference_sufficient(G, x, y, z):
+            with pytest.raises(ValueError, match="sufficient"):
+                check.removable(frozenset(z))
+            continue
+        want = {c for c in z if reference_sufficient(G, x, y, z - {c})}
+        assert check.removable(frozenset(z)) == want, (seed, z)
+
+
+def _reference_open(G: nx.DiGraph, p: list[str], z: set[str]) -> bool:
+    anz = set(z).union(*(nx.ancestors(G, v) for v in z)) if z else set()
+    for i in range(1, len(p) - 1):
+        collider = G.has_edge(p[i - 1], p[i]) and G.has_edge(p[i + 1], p[i])
+        if (p[i] not in anz) if collider else (p[i] in z):
+            return False
+    return True
+
+
+@pytest.mark.parametrize("seed", range(60))
+def test_review_of_a_large_proposal_matches_networkx(seed: int) -> None:
+    from covariscope.analysis.adjustment import review_proposal
+
+    G, x, y = _random(seed)
+    rng = random.Random(seed + 1000)
+    others = sorted(set(G) - {x, y})
+    z = set(rng.sample(others, rng.randint(len(others) // 2, len(others))))
+    paths = [p for p in nx.all_simple_paths(G.to_undirected(), x, y) if G.has_edge(p[1], x)]
+    harmful = {
+        m
+        for m in z
+        if m in nx.descendants(G, x)
+        or any(_reference_open(G, p, z) and not _reference_open(G, p, z - {m}) for p in paths)
+    }
+    review = review_proposal(G, x, y, z)
+    assert set(review.harmful) == harmful, seed
+    want = {m for m in z - harmful if reference_sufficient(G, x, y, z - {m})}
+    assert set(review.unnecessary) == want, seed

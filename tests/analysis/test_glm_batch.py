@@ -36,12 +36,12 @@ def _cohort(family: str, n: int = 4000, seed: int = 11) -> pd.DataFrame:
 
 
 @pytest.mark.parametrize("offset", [False, True])
-@pytest.mark.parametrize("by_pairs", [False, True])
+@pytest.mark.parametrize("shared_by", [1, 2, 99])
 def test_batch_sums_equal_the_one_model_pass(
-    offset: bool, by_pairs: bool, monkeypatch: pytest.MonkeyPatch
+    offset: bool, shared_by: int, monkeypatch: pytest.MonkeyPatch
 ) -> None:
-    # both ways of forming the informations: column-pair products, or one per model
-    monkeypatch.setattr(glm_batch, "_pairs_pay", lambda pairs, widths: by_pairs)
+    # every way of forming the informations: all pairs shared, some, none
+    monkeypatch.setattr(glm_batch, "SHARED_BY", shared_by)
     frame = _cohort("risk_ratio")
     rng = np.random.default_rng(3)
     X = np.asfortranarray(

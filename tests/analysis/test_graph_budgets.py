@@ -332,3 +332,24 @@ def test_a_proposal_too_large_for_the_pair_check_says_so() -> None:
     assert small.not_together_checked
     assert small.not_together == ()
     assert reference_sufficient(proposal(3), {"c"})
+
+
+def test_a_member_whose_search_stopped_is_shown_harmful_when_the_set_suffices_without_it() -> None:
+    # the walk runs out in the 22-rung ladder before it meets z1 → m ← z2; but
+    # {d, m} is not sufficient and {d} is (networkx), so m opens a path
+    G = dead_end_ladder(22, with_m=True)
+    assert not reference_sufficient(G, {"d", "m"})
+    assert reference_sufficient(G, {"d"})
+    review = review_proposal(G, "x", "y", ["d", "m"])
+    assert review.harmful == ("m",)
+    assert review.unsearched == ("d",)  # its search stopped too; d is a cause of y
+    assert not review.sufficient
+    # with one more member the set without m is still not sufficient: m
+    # stays unsearched, neither harmful nor unnecessary
+    G.add_edges_from([("e", "x"), ("e", "y")])
+    G.nodes["e"].update(kind="covariate", measured=True)
+    assert not reference_sufficient(G, {"d"})
+    review = review_proposal(G, "x", "y", ["d", "m"])
+    assert review.unsearched == ("d", "m")
+    assert review.harmful == ()
+    assert review.unnecessary == ()

@@ -6,7 +6,7 @@ import numpy as np
 import pytest
 import statsmodels.api as sm
 
-from covariscope.analysis.linear import linear_summary, merge_summaries, solve_ols
+from covariscope.analysis.linear import centred_cross, linear_summary, merge_summaries, solve_ols
 
 
 @pytest.fixture(scope="module")
@@ -101,3 +101,20 @@ def test_exact_collinearity_is_refused():
     a = rng.normal(size=30)
     v = np.column_stack([a, 2 * a + 1, rng.normal(size=30)])
     assert solve_ols(linear_summary(v), [0, 1], 2) is None
+
+
+def test_centred_cross_centres_raw_columns_on_the_way_to_the_same_bits() -> None:
+    # Reference: the plain product of explicitly centred arrays, block by block as
+    # centred_cross sums them (the same additions in the same order, so equal bits).
+    rng = np.random.default_rng(11)
+    values = np.asfortranarray(rng.normal(size=(1000, 5)) * [1.0, 1e3, 1e-3, 5.0, 2.0])
+    extra = rng.normal(size=(1000, 2)) + 7.0
+    mean, centre = values.mean(axis=0), extra.mean(axis=0)
+    cols = [0, 2, 4]
+    expected = np.zeros((3, 2))
+    for s in range(0, 1000, 300):
+        expected += (values[s : s + 300, cols] - mean[cols]).T @ (extra[s : s + 300] - centre)
+    got = centred_cross(values, mean[cols], extra, cols, chunk_rows=300, centre=centre)
+    np.testing.assert_array_equal(got, expected)
+    centred = centred_cross(values, mean[cols], extra - centre, cols, chunk_rows=300)
+    np.testing.assert_array_equal(got, centred)

@@ -21,11 +21,14 @@ from covariscope.analysis import (
     claim_fits,
     column_fit,
     fitting_common,
+    glm_batch,
     linear,
     passes,
     rows,
     splines,
 )
+from covariscope.analysis.families.logistic import LogitLink
+from covariscope.analysis.families.risk_ratio import PoissonLink
 
 #: every function that multiplies matrices with one row per observation
 ROW_FUNCTIONS = [
@@ -37,6 +40,9 @@ ROW_FUNCTIONS = [
     (rows, "sandwich_sums"),
     (column_fit, "_linear_extra"),
     (claim_fits, "_fit"),
+    (glm_batch, "batch_pass"),
+    (LogitLink, "columns_sums"),
+    (PoissonLink, "columns_sums"),
 ]
 
 

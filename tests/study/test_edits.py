@@ -319,3 +319,17 @@ def test_binding_a_candidate_computes_its_own_modification_only(rerun):
     assert cache.count("modification").misses == 1
     assert cache.count("modification").hits == len(before.modification)
     assert cache.count("residual").misses == 0
+
+
+def test_the_cache_holds_one_copy_of_the_outcome_and_no_mask_for_a_complete_column(warm):
+    # Memory, not speed: the outcome the design was built from is the design's
+    # own column, and a column with no missing value keeps no byte per row.
+    _, source, cache = warm
+    (_, design), *_ = cache.entries("design")
+    (_, outcomes), *_ = cache.entries("outcomes")
+    assert np.shares_memory(outcomes.y, design.values)
+    for (_, column), mask in cache.entries("missing"):
+        missing = source.table.frame[column].isna().to_numpy()
+        np.testing.assert_array_equal(mask, missing)
+        if not missing.any():
+            assert mask.strides == (0,)

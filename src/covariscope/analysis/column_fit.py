@@ -200,18 +200,19 @@ def _linear_extra(
     from covariscope.analysis.linear import centred_cross, solve_ols
 
     n = design.n
-    E = np.column_stack([e.reshape(n, -1) for e in extra]) if extra else np.empty((n, 0))
+    E = _side_by_side(extra, n)
     y = design.values.shape[1] - 1
     keep = [*cols, y]
     p, k = len(cols), E.shape[1]
     mean_e = E.mean(axis=0) if n else np.zeros(k)
     centred = E - mean_e
+    square = np.dot(centred.T, centred)  # np.dot, not @: fitting_common's docstring
+    del centred  # the cross-products centre E a block at a time: one centred copy, not two at once
     cross = (
-        centred_cross(design.values, summary.mean[keep], centred, keep)
+        centred_cross(design.values, summary.mean[keep], E, keep, centre=mean_e)
         if k
         else np.zeros((p + 1, 0))
     )
-    square = np.dot(centred.T, centred)  # np.dot, not @: fitting_common's docstring
     q = p + k + 1
     mean = np.concatenate([summary.mean[cols], mean_e, summary.mean[[y]]])
     comoment = np.empty((q, q))
@@ -224,6 +225,14 @@ def _linear_extra(
     if res is None or res.cov is None:
         return "the model's columns are exactly collinear"
     return ColumnFit(res.coef, res.cov, res.df_resid)
+
+
+def _side_by_side(extra: Sequence[np.ndarray], n: int) -> np.ndarray:
+    """The extra columns as one row-major n × k array; a single one that is
+    already so (a spline basis) is used as it is, not copied."""
+    if len(extra) == 1 and extra[0].ndim == 2 and extra[0].flags.c_contiguous:
+        return extra[0]
+    return np.column_stack([e.reshape(n, -1) for e in extra]) if extra else np.empty((n, 0))
 
 
 def base_fit(

@@ -60,6 +60,14 @@ class BatchModel:
     reach: Array
 
 
+def _pairs_of(cols: Index) -> set[tuple[int, int]]:
+    """The column pairs (j ≤ k) of a model's p × p matrix."""
+    c = np.asarray(cols)
+    a, b = np.triu_indices(len(c))
+    lo, hi = np.minimum(c[a], c[b]), np.maximum(c[a], c[b])
+    return set(zip(lo.tolist(), hi.tolist(), strict=True))
+
+
 @dataclass(frozen=True)
 class _Pairs:
     """The column pairs (j ≤ k) some model's information needs, grouped by j."""
@@ -69,13 +77,7 @@ class _Pairs:
     size: int
 
     @classmethod
-    def of(cls, models: Sequence[Index]) -> _Pairs:
-        wanted: set[tuple[int, int]] = set()
-        for cols in models:
-            c = np.asarray(cols)
-            a, b = np.triu_indices(len(c))
-            lo, hi = np.minimum(c[a], c[b]), np.maximum(c[a], c[b])
-            wanted.update(zip(lo.tolist(), hi.tolist(), strict=True))
+    def of(cls, wanted: set[tuple[int, int]]) -> _Pairs:
         position: dict[tuple[int, int], int] = {}
         groups: list[tuple[int, slice | Index, int]] = []
         for j in sorted({j for j, _ in wanted}):
@@ -95,18 +97,6 @@ class _Pairs:
         for j, picks, offset in self.groups:
             k = rows_t[picks]
             np.multiply(rows_t[j], k, out=out[offset : offset + len(k)])
-
-    def matrix(self, cols: Index, sums: Array) -> Array:
-        """The model's p × p matrix from the pair sums."""
-        c = np.asarray(cols)
-        lo = np.minimum.outer(c, c).ravel().tolist()
-        hi = np.maximum.outer(c, c).ravel().tolist()
-        position = self.position
-        at = np.fromiter(
-            (position[pair] for pair in zip(lo, hi, strict=True)), np.intp, len(lo)
-        ).reshape(len(c), len(c))
-        picked: Array = sums[at]
-        return picked
 
 
 def batch_pass(
@@ -139,15 +129,19 @@ def batch_pass(
     info_at = [r for r, (_, req) in enumerate(requests) if req.info]
     meat_at = [r for r, (_, req) in enumerate(requests) if req.meat]
     asked = [(r, False) for r in info_at] + [(r, True) for r in meat_at]
-    pairs = _Pairs.of([requests[r][0] for r in sorted({*info_at, *meat_at})])
-    if not _pairs_pay(pairs.size, [len(requests[r][0]) for r, _ in asked]):
-        pairs = _Pairs.of([])
+    plan = _MatrixPlan.of([requests[r][0] for r in sorted({*info_at, *meat_at})])
+    pairs = plan.shared
     dev = np.zeros(m)
     score = np.zeros((q, m))
     low = np.full(m, np.inf)
     high = np.full(m, -np.inf)
     sums = np.zeros((pairs.size, len(asked)))
-    direct = {a: np.zeros((len(requests[a[0]][0]),) * 2) for a in asked} if not pairs.size else {}
+    own = {a: np.zeros((q, len(plan.own_columns(requests[a[0]][0])))) for a in asked}
+    own_work = [
+        (j, a, picks)
+        for j, a in enumerate(asked)
+        if len(picks := plan.own_columns(requests[a[0]][0]))
+    ]
     rows = SCORE_ROWS if not pairs.size else max(256, min(SCORE_ROWS, PAIR_CELLS // pairs.size))
     rows = min(rows, n)
     scratch = Scratch()
@@ -158,35 +152,31 @@ def batch_pass(
         e = min(s + rows, n)
         block = X[s:e]
         eta = eta_rows[: e - s]
-        np.matmul(block, B, out=eta)
+        np.dot(block, B, out=eta)
         if offset is not None:
             eta += offset[s:e, None]
         d, resid, w, lo, hi = link.columns_sums(y[s:e], eta, scratch)
         dev += d
         np.minimum(low, lo, out=low)
         np.maximum(high, hi, out=high)
-        score += block.T @ resid
+        score += np.dot(block.T, resid)
+        wk = weights[: e - s]
+        for j, (r, is_meat) in enumerate(asked):
+            if is_meat:
+                np.square(resid[:, r], out=wk[:, j])
+            else:
+                wk[:, j] = w[:, r]
         if pairs.size:
             k = products[:, : e - s]
             pairs.fill(block.T, k)
-            wk = weights[: e - s]
-            for j, (r, is_meat) in enumerate(asked):
-                if is_meat:
-                    np.square(resid[:, r], out=wk[:, j])
-                else:
-                    wk[:, j] = w[:, r]
-            sums += k @ wk
-        for (r, is_meat), acc in direct.items():
-            Z = block[:, requests[r][0]]
-            Z *= (resid[:, r] if is_meat else np.sqrt(w[:, r]))[:, None]
-            acc += Z.T @ Z
+            sums += np.dot(k, wk)
+        for j, a, picks in own_work:
+            own[a] += np.dot(block.T, block[:, picks] * wk[:, j, None])
     out: list[GlmPass] = []
     column = {a: j for j, a in enumerate(asked)}
 
     def formed(r: int, is_meat: bool) -> Array:
-        if direct:
-            return direct[(r, is_meat)]
-        return pairs.matrix(requests[r][0], sums[:, column[(r, is_meat)]])
+        return plan.matrix(requests[r][0], sums[:, column[(r, is_meat)]], own[(r, is_meat)])
 
     for r, (cols, req) in enumerate(requests):
         info = formed(r, False) if req.info else None
@@ -196,20 +186,57 @@ def batch_pass(
     return out
 
 
-def _pairs_pay(pairs: int, widths: list[int]) -> bool:
-    """Whether the column-pair products beat one product per model.
+#: Fewest models sharing a column pair for the pair products to pay: their
+#: matrix product then beats forming the pair for each model (measured with
+#: benchmarks/bench_iterative.py; a guide, not a published figure).
+SHARED_BY = 3
 
-    Per row, the pair products cost one multiplication per pair and then
-    about 0.07 of one per pair and model in the matrix product; forming each
-    model's √w·X and its cross product directly costs about two per column
-    and a tenth per column squared (measured with benchmarks/bench_iterative.py
-    on this project's machines; a guide, not a published figure).
+
+@dataclass(frozen=True)
+class _MatrixPlan:
+    """How a round forms its models' informations (and sandwich meats).
+
+    Column pairs that at least `SHARED_BY` models use are summed once for
+    all as pair products (:class:`_Pairs`); each model's other pairs come from
+    a product of the block with its own few columns weighted, X'(X_O ⊙ w),
+    which holds every pair (j, k) with k among those columns.
     """
-    if not widths:
-        return False
-    by_pairs = pairs * (1.0 + 0.07 * len(widths))
-    by_model = sum(2.0 * p + 0.1 * p * p for p in widths)
-    return by_pairs < by_model
+
+    shared: _Pairs
+    own: dict[tuple[int, ...], Index]
+
+    @classmethod
+    def of(cls, models: Sequence[Index]) -> _MatrixPlan:
+        each = [_pairs_of(cols) for cols in models]
+        uses: dict[tuple[int, int], int] = {}
+        for pairs in each:
+            for pair in pairs:
+                uses[pair] = uses.get(pair, 0) + 1
+        shared = {pair for pair, count in uses.items() if count >= SHARED_BY}
+        own = {
+            tuple(int(v) for v in cols): np.array(
+                sorted({hi for _, hi in pairs - shared}), dtype=np.intp
+            )
+            for cols, pairs in zip(models, each, strict=True)
+        }
+        return cls(_Pairs.of(shared), own)
+
+    def own_columns(self, cols: Index) -> Index:
+        """The columns whose weighted products the model forms itself."""
+        return self.own[tuple(int(v) for v in cols)]
+
+    def matrix(self, cols: Index, sums: Array, own: Array) -> Array:
+        """The model's p × p matrix from the shared pair sums and its own products."""
+        c = [int(v) for v in cols]
+        picks = {k: i for i, k in enumerate(self.own_columns(cols).tolist())}
+        position = self.shared.position
+        out = np.empty((len(c), len(c)))
+        for i, a in enumerate(c):
+            for j in range(i, len(c)):
+                lo, hi = min(a, c[j]), max(a, c[j])
+                at = position.get((lo, hi))
+                out[i, j] = out[j, i] = sums[at] if at is not None else own[lo, picks[hi]]
+        return out
 
 
 def newton_paths_many(

@@ -174,10 +174,15 @@ def centred_cross(
     cols: Sequence[int] | None = None,
     *,
     chunk_rows: int = 65536,
+    centre: np.ndarray | None = None,
 ) -> np.ndarray:
     """Σ_r (values_r[cols] − mean)ᵀ centred_r: co-moments of ``values``' columns
     (``mean`` their means) with columns already centred (n × k), block by block,
     so that no centred copy of ``values`` is made.  Returns len(mean) × k.
+
+    With ``centre`` (k means), ``centred`` holds the columns as they are and
+    each block of them is centred on the way (the same numbers, without a
+    centred copy of those columns either).
 
     >>> v = np.array([[1.0, 2.0], [3.0, 6.0], [5.0, 7.0]])
     >>> o = np.array([[-1.0], [0.0], [1.0]])
@@ -187,9 +192,13 @@ def centred_cross(
     out = np.zeros((len(mean), centred.shape[1]))
     for s in range(0, len(values), chunk_rows):
         block = values[s : s + chunk_rows]
-        if cols is not None:
-            block = block[:, cols]
-        out += np.dot((block - mean).T, centred[s : s + chunk_rows])
+        if cols is None:
+            block = block - mean
+        else:
+            block = block[:, cols]  # already a copy: centred where it lies
+            block -= mean
+        other = centred[s : s + chunk_rows]
+        out += np.dot(block.T, other if centre is None else other - centre)
     return out
 
 

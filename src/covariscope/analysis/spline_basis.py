@@ -30,6 +30,8 @@ KNOT_QUANTILES: dict[int, tuple[float, ...]] = {
 
 #: Knots of the spline the residual-confounding check tries when the project names none.
 DEFAULT_KNOTS = 4
+#: Rows of the unconstrained basis built at a time.
+_BLOCK_ROWS = 1 << 16
 
 
 def knot_positions(x: np.ndarray, knots: int) -> np.ndarray:
@@ -69,21 +71,25 @@ def spline_basis(x: np.ndarray, knots: int) -> np.ndarray:
 
 
 def _free_basis(x: np.ndarray, knots: np.ndarray) -> np.ndarray:
-    """The unconstrained basis (n × k, row-major), column by column, with the
-    operations of patsy's ``_get_free_crs_dmatrix`` in the same order."""
-    below, above, curve_below, curve_above, j = _base_functions(x, knots)
-    j1 = j + 1
+    """The unconstrained basis (n × k, row-major), with the operations of
+    patsy's ``_get_free_crs_dmatrix`` in the same order, a block of rows at a
+    time (a value's row depends on that value alone): the temporaries are the
+    size of a block, not of the column."""
     k = knots.size
     identity = np.identity(k)
     second = _natural_second_derivatives(knots)
     free = np.empty((x.size, k))
-    for c in range(k):
-        free[:, c] = (
-            below * identity[j, c]
-            + above * identity[j1, c]
-            + curve_below * second[j, c]
-            + curve_above * second[j1, c]
-        )
+    for at in range(0, x.size, _BLOCK_ROWS):
+        rows = slice(at, at + _BLOCK_ROWS)
+        below, above, curve_below, curve_above, j = _base_functions(x[rows], knots)
+        j1 = j + 1
+        for c in range(k):
+            free[rows, c] = (
+                below * identity[j, c]
+                + above * identity[j1, c]
+                + curve_below * second[j, c]
+                + curve_above * second[j1, c]
+            )
     return free
 
 

@@ -15,14 +15,18 @@ from __future__ import annotations
 import codecs
 import os
 import stat
+import threading
 from collections import defaultdict
 from collections.abc import Callable, Mapping
+from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
 import pandas as pd
 
+from covariscope.data import scan as scan_module
+from covariscope.data.heap import release_freed_memory
 from covariscope.data.progress import LoadCancelledError, Steps
 from covariscope.data.readers import (
     ReadResult,
@@ -32,7 +36,7 @@ from covariscope.data.readers import (
     read_statistical,
 )
 from covariscope.data.scan import FileScan, scan_file
-from covariscope.data.text import DELIMITER_NAMES, detect_layout, read_delimited
+from covariscope.data.text import DELIMITER_NAMES, TextLayout, detect_layout, read_delimited
 from covariscope.errors import DataError
 
 __all__ = [
@@ -72,6 +76,8 @@ SUPPORTED_SUFFIXES = {
     ".sas7bdat": "sas",
     ".xpt": "sas_transport",
 }
+#: Text files from this size on are parsed while their scan runs beside (see `_read_text`).
+PARALLEL_SCAN_BYTES = 16 * 2**20
 _ENCODING_LABELS = {
     "utf-8": "UTF-8",
     "utf-8-sig": "UTF-8 with byte-order mark",
@@ -192,20 +198,15 @@ def load_table(
     delimiter: str | None = None
     encoding: str | None = None
     if kind == "text":
-        steps.begin(0.0, 0.3)
-        scan = scan_file(target, steps, text=True)
-        _refuse_zero_bytes(target, scan)
+        scan, layout, (frame, names) = _read_text(target, steps)
         encoding = scan.encoding
         assert encoding is not None
-        layout = detect_layout(scan.head, encoding, target.suffix.lower())
         delimiter = layout.delimiter
         notes.append(
             f"Read as {DELIMITER_NAMES[delimiter]}-separated text, "
             f"encoding {_ENCODING_LABELS[encoding]}."
         )
         notes.extend(layout.notes)
-        steps.begin(0.3, 1.0)
-        frame, names = read_delimited(target, encoding, layout, scan.size, steps)
         result = ReadResult(frame, names)
     else:
         steps.begin(0.0, 0.1)
@@ -216,6 +217,7 @@ def load_table(
     notes.extend(result.notes)
     notes.extend(result.left_out)
     frame = _checked_frame(target, result, notes)
+    release_freed_memory()  # what the reader's chunks held, so the peak is not the data twice
     steps.finish()
     return LoadedTable(
         frame=frame,
@@ -228,6 +230,83 @@ def load_table(
         value_labels=result.value_labels,
         left_out=(*result.left_out,),
     )
+
+
+def _read_text(
+    path: Path, steps: Steps
+) -> tuple[FileScan, TextLayout, tuple[pd.DataFrame, list[str]]]:
+    """The scan (hash, encoding, zero bytes), the layout and the parsed text.
+
+    The scan must see every byte before the encoding is known, and the
+    parser needs the encoding.  A large file whose first bytes are UTF-8 (or
+    carry a byte-order mark) is parsed in that encoding while the scan runs
+    beside it, on another thread (hashing and parsing let go of the
+    interpreter lock); the parse is kept only when the scan agrees, and what
+    the scan refuses (zero bytes) is refused first, as in the plain order.
+    """
+    size = path.stat().st_size
+    guess = _likely_encoding(path) if size >= PARALLEL_SCAN_BYTES else None
+    if guess is not None:
+        read = _read_beside_scan(path, guess, size, steps)
+        if read is not None:
+            return read
+    steps.begin(0.0, 0.3)
+    scan = scan_file(path, steps, text=True)
+    _refuse_zero_bytes(path, scan)
+    assert scan.encoding is not None
+    layout = detect_layout(scan.head, scan.encoding, path.suffix.lower())
+    steps.begin(0.3, 1.0)
+    return scan, layout, read_delimited(path, scan.encoding, layout, scan.size, steps)
+
+
+def _read_beside_scan(
+    path: Path, encoding: str, size: int, steps: Steps
+) -> tuple[FileScan, TextLayout, tuple[pd.DataFrame, list[str]]] | None:
+    """Parse in ``encoding`` while the scan runs; None when the scan finds
+    another encoding (the caller then reads the file in the plain order)."""
+    stop = threading.Event()
+    with ThreadPoolExecutor(max_workers=1, thread_name_prefix="covariscope-scan") as pool:
+        scanning = pool.submit(scan_file, path, Steps(None, stop.is_set), text=True)
+        parsed: tuple[pd.DataFrame, list[str]] | None = None
+        failure: DataError | None = None
+        try:
+            # the same bytes as the scan's head: its first block's first 64 KiB
+            head = _read_head(path, min(scan_module.BLOCK_SIZE, 65536))
+            layout = detect_layout(head, encoding, path.suffix.lower())
+            steps.begin(0.0, 1.0)
+            parsed = read_delimited(path, encoding, layout, size, steps)
+        except LoadCancelledError:
+            stop.set()
+            raise
+        except DataError as exc:  # said only if the scan finds nothing to say first
+            failure = exc
+        except BaseException:
+            stop.set()
+            raise
+        scan = scanning.result()
+    _refuse_zero_bytes(path, scan)
+    if scan.encoding != encoding:
+        return None
+    if failure is not None:
+        raise failure
+    assert parsed is not None
+    return scan, layout, parsed
+
+
+def _likely_encoding(path: Path) -> str | None:
+    """The encoding the scan will most likely choose, judged from the first
+    64 KiB: a byte-order mark's, or UTF-8 when they decode; None when they
+    hold a zero byte or do not decode (the plain order then decides)."""
+    head = _read_head(path, 65536)
+    if head.startswith(codecs.BOM_UTF8):
+        return "utf-8-sig"
+    if b"\x00" in head:
+        return None
+    try:
+        codecs.getincrementaldecoder("utf-8")().decode(head)
+    except UnicodeDecodeError:
+        return None
+    return "utf-8"
 
 
 def detect_format(path: Path, head: bytes) -> tuple[str, list[str]]:
@@ -343,10 +422,10 @@ def _refuse_zero_bytes(path: Path, scan: FileScan) -> None:
         )
 
 
-def _read_head(path: Path) -> bytes:
+def _read_head(path: Path, size: int = 64) -> bytes:
     try:
         with open(path, "rb") as handle:
-            return handle.read(64)
+            return handle.read(size)
     except OSError as exc:
         raise DataError(
             f"The data file {path.name} cannot be read ({exc.strerror}). Check that it is "

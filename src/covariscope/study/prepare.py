@@ -34,6 +34,7 @@ from covariscope.analysis.evidence import EvidenceCancelledError
 from covariscope.analysis.families import family_of
 from covariscope.analysis.linear import LinearSummary, centred_cross, linear_summary
 from covariscope.data.coerce import coerce_column
+from covariscope.data.heap import release_freed_memory
 from covariscope.data.profile import ColumnProfile, check_settings_columns, profile_column
 from covariscope.data.sample import CompleteCases, complete_cases
 from covariscope.model.project import Project
@@ -536,7 +537,11 @@ def _design(
             builder.add(node, col, term(col, kind, ref, f"covariate {node}"))
             run.cache.replace("term", (base, col, kind, ref), builder.written(node))
         digest = hashlib.sha256(repr(key).encode()).hexdigest()
-        return builder.build(family=family, exposure_node=exposure, outcomes=outcomes, key=digest)
+        built = builder.build(family=family, exposure_node=exposure, outcomes=outcomes, key=digest)
+        if built.y is not None:  # one copy of the outcome too: the design's column
+            run.cache.replace("outcomes", (base, family, y_spec), replace(outcomes, y=built.y))
+        release_freed_memory()  # the coding's temporaries, before the models' own
+        return built
 
     design: Design = run.get("design", key, build)
     return design

@@ -28,6 +28,7 @@ from covariscope.analysis.joint_region import CollinearityPicture, collinearity_
 from covariscope.analysis.linear import LinearSummary
 from covariscope.analysis.modification import Modification, modification_table
 from covariscope.analysis.splines import ResidualCheck, residual_table
+from covariscope.data.heap import release_freed_memory
 from covariscope.study.decide import Question
 from covariscope.study.prepare import DesignSpec, Run
 from covariscope.study.result import Progress
@@ -275,12 +276,14 @@ def rows_read(
     # A linear model's checks read only their own new columns: the design's
     # cross-products come from the evidence engine's one-pass summary.
     summary = engine.summary if family_of(design.family).fitter is Fitter.LEAST_SQUARES else None
+    release_freed_memory()  # the evidence table's temporaries, before these tables' own
     modification = (
         {}
         if design.multilevel
         else _modification(run, spec, design, terms, evidence.candidates, guides, summary, report)
     )
     confounders = [c for c in terms if c in da.roles and da.roles[c].role == "confounder"]
+    release_freed_memory()
     residual = _residual(
         run,
         spec,

@@ -91,7 +91,11 @@ class TableSource:
         return self.table.frame[column]
 
     def missing(self, column: str) -> np.ndarray:
-        return np.asarray(self.table.frame[column].isna().to_numpy(), dtype=bool)
+        mask = np.asarray(self.table.frame[column].isna().to_numpy(), dtype=bool)
+        if mask.any():
+            return mask
+        # a complete column (the usual case) keeps no byte per row in the cache
+        return np.broadcast_to(np.False_, mask.shape)
 
     def value_labels(self, column: str) -> Mapping[Any, str] | None:
         return self.table.value_labels.get(column)

@@ -50,7 +50,8 @@ class LogitLink(GlmLink):
 
         With e = exp(−|η|) and r = 1/(1 + e): min(μ, 1 − μ) = e·r, w = e·r²
         and μ = e·r where η < 0, 1 − e·r elsewhere.  The sums over rows are
-        products with a vector of ones (one BLAS call each); Σ max(η, 0) =
+        products with a vector of ones (one BLAS call each, through ``np.dot``,
+        which lets go of the interpreter lock); Σ max(η, 0) =
         (Σ η + Σ |η|)/2; and as μ rises with η, the smallest min(μ, 1 − μ)
         and the largest μ come from the largest |η| and η.
         """
@@ -59,7 +60,7 @@ class LogitLink(GlmLink):
         ones.fill(1.0)
         a = scratch.get("a", shape)
         np.abs(eta, out=a)
-        dev = 0.5 * (ones @ eta + ones @ a) - y @ eta
+        dev = 0.5 * (np.dot(ones, eta) + np.dot(ones, a)) - np.dot(y, eta)
         far = a.max(axis=0)
         top = eta.max(axis=0)
         e = a  # |η| is no longer needed
@@ -67,7 +68,7 @@ class LogitLink(GlmLink):
         np.exp(e, out=e)
         work = scratch.get("work", shape)
         np.log1p(e, out=work)
-        dev += ones @ work
+        dev += np.dot(ones, work)
         r = scratch.get("r", shape)
         np.add(e, 1.0, out=r)
         np.reciprocal(r, out=r)

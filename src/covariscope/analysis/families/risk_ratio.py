@@ -45,7 +45,7 @@ class PoissonLink(GlmLink):
         mu = scratch.get("mu", eta.shape)
         np.minimum(eta, 700.0, out=mu)
         np.exp(mu, out=mu)
-        dev = 2.0 * (mu.sum(axis=0) - y @ eta)
+        dev = 2.0 * (mu.sum(axis=0) - np.dot(y, eta))
         resid = scratch.get("resid", eta.shape)
         np.subtract(y[:, None], mu, out=resid)
         return dev, resid, mu, mu.min(axis=0), mu.max(axis=0)
