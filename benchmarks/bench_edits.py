@@ -270,7 +270,8 @@ def storm_figures(rows: int, hunt: bool, watch: bool) -> dict[str, Any]:
         f"{figures['storm_settle']:.2f} s after the last edit "
         f"({figures['storm_settle'] / figures['storm_fire']:.1f}× the firing); longest GUI "
         f"stall {1000 * figures['max_stall']:.0f} ms ({figures['stalls_over_100ms']} over "
-        f"100 ms); data work on the GUI thread: {_work_calls(figures['gui_data_work_calls'])}; "
+        f"100 ms, {figures['stalls_over_50ms']} over 50 ms; while opening: "
+        f"{1000 * figures['open_max_stall']:.0f} ms); data work on the GUI thread: {_work_calls(figures['gui_data_work_calls'])}; "
         f"equals check --json: {figures['storm_equals_check_json']}"
     )
     return figures

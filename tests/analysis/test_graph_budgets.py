@@ -353,3 +353,26 @@ def test_a_member_whose_search_stopped_is_shown_harmful_when_the_set_suffices_wi
     assert review.unsearched == ("d", "m")
     assert review.harmful == ()
     assert review.unnecessary == ()
+
+
+def test_a_path_longer_than_the_recursion_limit_is_walked() -> None:
+    import sys
+
+    # x ← c0 ← c1 … ← c(n-1) → y ← x: one backdoor path of n + 2 nodes
+    n = sys.getrecursionlimit() + 500
+    G = nx.DiGraph([("x", "y"), ("c0", "x"), (f"c{n - 1}", "y")])
+    G.add_edges_from((f"c{i + 1}", f"c{i}") for i in range(n - 1))
+    G = _kinds(G)
+    got = backdoor_paths_of(G)
+    # reference: networkx.all_simple_paths on the skeleton (the one path)
+    ref = [tuple(p) for p in nx.all_simple_paths(G.to_undirected(), "x", "y") if p[1] != "y"]
+    assert got == ref
+    assert len(got[0]) == n + 2
+    review = review_proposal(G, "x", "y", [])
+    assert review.open_paths == tuple(ref)
+    assert classify_covariates(G, "x", "y")["c0"].role == "confounder"
+
+
+def backdoor_paths_of(G: nx.DiGraph) -> list[tuple[str, ...]]:
+    md = merge_diagram(G, "x", "y")
+    return [p.nodes for p in listing(md.graph, "x", "y", frozenset(), 10).paths]

@@ -139,3 +139,21 @@ def test_saved_choice_beats_the_confounding_default():
         estimate_of=estimate_of,
     )
     assert r.members == ("noisy",)
+
+
+def test_a_set_that_departs_from_a_saved_choice_loses_a_tie():
+    from covariscope.analysis.recommend import recommend_set
+
+    # neither set holds the saved choice a; (b, x) holds another member of its group
+    rec = recommend_set(
+        [("b", "x"), ("y", "z")], groups=[("a", "b", "c")], keep_choices={"a|b|c": "a"}
+    )
+    assert rec.members == ("y", "z")
+    assert "keeps the saved choice" in rec.reason
+    # a member in two groups counts in each (groups may overlap)
+    two = recommend_set(
+        [("b", "x"), ("d", "e")],
+        groups=[("a", "b"), ("b", "c")],
+        keep_choices={"a|b": "a", "b|c": "c"},
+    )
+    assert two.members == ("d", "e")

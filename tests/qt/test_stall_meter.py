@@ -4,6 +4,7 @@ data work).  Times are fed by hand: no test here reads a clock."""
 
 from __future__ import annotations
 
+import gc
 import threading
 from pathlib import Path
 
@@ -81,3 +82,20 @@ def test_the_window_start_warms_the_slow_imports_in_the_background():
     thread.join(120)
     assert not thread.is_alive()
     assert all(name in sys.modules for name in WARM_MODULES)
+    gc.unfreeze()  # the other tests' objects go back to the collector
+
+
+def test_the_warm_up_pauses_the_collector_then_freezes_what_start_up_made(monkeypatch):
+    from covariscope.qt import app
+
+    seen: list[bool] = []
+    monkeypatch.setattr(app, "warm_imports", lambda modules: seen.append(gc.isenabled()) or [])
+    before = gc.get_freeze_count()
+    try:
+        app.warm_up(("json",))
+        assert seen == [False]  # no full collection in the middle of the imports
+        assert gc.isenabled()
+        assert gc.get_freeze_count() > before
+    finally:
+        gc.unfreeze()
+        gc.enable()

@@ -71,3 +71,17 @@ def test_stands_for_matches_networkx_ancestors(seed: int) -> None:
     for node in G:
         # outside reference: networkx.ancestors
         assert got[node] == tuple(sorted(confounders & nx.ancestors(G, node))), (seed, node)
+
+
+def test_a_measure_group_stays_adjusted_through_its_other_member() -> None:
+    # x ← a → m1|m2 ← b → y: the group is a collider; DESIGN §2: a set that
+    # holds any member adjusts the construct
+    G = nx.DiGraph([("a", "x"), ("a", "m1"), ("b", "m2"), ("b", "y"), ("x", "y")])
+    for v in G:
+        G.nodes[v]["kind"] = {"x": "exposure", "y": "outcome"}.get(v, "covariate")
+    G.graph["proxies"] = [("m1", "m2")]
+    md = merge_diagram(G, "x", "y")
+    both = opened_paths(md, "x", "y", ["m1", "m2"], ["m1", "m2", "a"])
+    assert both == {"m1": (), "m2": (), "a": ()}
+    one = opened_paths(md, "x", "y", ["m1"], ["m1"])
+    assert one == {"m1": (("x", "a", "m1|m2", "b", "y"),)}

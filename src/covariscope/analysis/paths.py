@@ -307,26 +307,12 @@ def _walk(
     def ok(w: str) -> bool:
         return nodes_ok is None or w in nodes_ok
 
-    def extend(v: str) -> Iterator[tuple[str, ...]]:
-        if v not in sorted_adj:
-            sorted_adj[v] = sorted(adj[v])
-        for w in sorted_adj[v]:
-            if steps.ran_out:
-                return
-            if w in on_path or not ok(w):
-                continue
-            if allow is not None and not allow(path[-2], v, w):
-                continue
-            if w == Y:
-                yield (*path, Y)
-                continue
-            if not steps.take() or not _reaches(adj, w, Y, on_path, nodes_ok):
-                continue
-            path.append(w)
-            on_path.add(w)
-            yield from extend(w)
-            path.pop()
-            on_path.discard(w)
+    def enter(w: str) -> Iterator[str]:
+        path.append(w)
+        on_path.add(w)
+        if w not in sorted_adj:
+            sorted_adj[w] = sorted(adj[w])
+        return iter(sorted_adj[w])
 
     for p in sorted(M.predecessors(X)):
         if steps.ran_out:
@@ -338,11 +324,27 @@ def _walk(
             continue
         if not steps.take() or not _reaches(adj, p, Y, on_path, nodes_ok):
             continue
-        path.append(p)
-        on_path.add(p)
-        yield from extend(p)
-        path.pop()
-        on_path.discard(p)
+        # depth first with a stack of neighbour iterators, not recursion: a
+        # path may be longer than Python's recursion limit
+        stack = [enter(p)]
+        while stack:
+            w = next(stack[-1], None)
+            if w is None:
+                stack.pop()
+                on_path.discard(path.pop())
+                continue
+            if steps.ran_out:
+                return
+            if w in on_path or not ok(w):
+                continue
+            if allow is not None and not allow(path[-2], path[-1], w):
+                continue
+            if w == Y:
+                yield (*path, Y)
+                continue
+            if not steps.take() or not _reaches(adj, w, Y, on_path, nodes_ok):
+                continue
+            stack.append(enter(w))
 
 
 def count_backdoor_paths(

@@ -18,6 +18,7 @@ reproducible.
 from __future__ import annotations
 
 import math
+from collections import Counter
 from collections.abc import Callable, Iterable, Mapping, Sequence
 from dataclasses import dataclass
 from typing import Any
@@ -50,20 +51,36 @@ class Recommendation:
     reason: str
 
 
-def _clashes(members: Sequence[str], groups: Iterable[Sequence[str]]) -> int:
-    return sum(max(0, len(set(g) & set(members)) - 1) for g in groups)
+class _GroupIndex:
+    """Which collinear group each member belongs to, built once, so that
+    scoring a set costs its own size, not the size of every group."""
 
+    def __init__(self, groups: Iterable[Sequence[str]], choices: Mapping[str, str]) -> None:
+        self.groups = [tuple(g) for g in groups]
+        self.groups_of: dict[str, list[int]] = {}
+        for i, g in enumerate(self.groups):
+            for m in set(g):
+                self.groups_of.setdefault(m, []).append(i)
+        self.chosen = [choices.get(group_key(g)) for g in self.groups]
 
-def _against_choice(
-    members: Sequence[str], groups: Iterable[Sequence[str]], choices: Mapping[str, str]
-) -> int:
-    count = 0
-    for g in groups:
-        chosen = choices.get(group_key(g))
-        if chosen is None:
-            continue
-        count += sum(1 for m in members if m in g and m != chosen)
-    return count
+    def clashes(self, members: Sequence[str]) -> int:
+        """Members beyond the first of each group the set draws on."""
+        drawn = Counter(i for m in set(members) for i in self.groups_of.get(m, ()))
+        return sum(n - 1 for n in drawn.values())
+
+    def against_choice(self, members: Sequence[str]) -> int:
+        """Members of a group with a saved choice that are not the choice."""
+        count = 0
+        for m in members:
+            for i in self.groups_of.get(m, ()):
+                if self.chosen[i] is not None and m != self.chosen[i]:
+                    count += 1
+        return count
+
+    def touched(self, members: Sequence[str]) -> set[str]:
+        """Every member of the groups the set draws on."""
+        drawn = {i for m in members for i in self.groups_of.get(m, ())}
+        return {m for i in drawn for m in self.groups[i]}
 
 
 def _finite(value: float | None) -> float | None:
@@ -88,9 +105,14 @@ def shortfall(
     >>> shortfall(("c",), [("a", "b")], est)[0]
     0.0
     """
+    return _shortfall(members, _GroupIndex(groups, {}), estimate_of)
+
+
+def _shortfall(
+    members: Sequence[str], index: _GroupIndex, estimate_of: EstimateOf | None
+) -> tuple[float, float | None, float | None]:
     members = tuple(sorted(members))
-    touched = {m for g in groups if set(g) & set(members) for m in g}
-    whole = tuple(sorted(set(members) | touched))
+    whole = tuple(sorted(set(members) | index.touched(members)))
     if whole == members:
         return 0.0, None, None
     if estimate_of is None:
@@ -267,17 +289,18 @@ def recommend_set(
             None,
             "No set of measured covariates is sufficient in this diagram, so none is recommended.",
         )
+    index = _GroupIndex(group_list, choices)  # once: each set then costs its own size
     scored = []
     for raw in minimal_sets:
         members = tuple(sorted(raw))
         se = se_of(members) if se_of is not None else None
         se_key = se if se is not None and math.isfinite(se) else math.inf
-        gap = shortfall(members, group_list, estimate_of)
+        gap = _shortfall(members, index, estimate_of)
         key = (
             -len(wanted & set(members)),
             len(set(members) - wanted),
-            _clashes(members, group_list),
-            _against_choice(members, group_list, choices),
+            index.clashes(members),
+            index.against_choice(members),
             _tie_key(gap[0], gap[2]),
             se_key,
             members,

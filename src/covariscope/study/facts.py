@@ -7,6 +7,7 @@ why confounders form a collinear group and which member to keep.
 from __future__ import annotations
 
 import math
+from collections import Counter
 from collections.abc import Callable, Iterable, Mapping, Sequence
 
 import networkx as nx
@@ -14,7 +15,7 @@ import networkx as nx
 from covariscope.analysis.adjustment import Backdoor
 from covariscope.analysis.constructs import MergedDiagram
 from covariscope.analysis.graph import DiagramAnalysis
-from covariscope.analysis.paths import ancestors_of, given_constructs, listing, path_status
+from covariscope.analysis.paths import given_constructs, listing
 from covariscope.analysis.recommend import MemberRanking, rank_members
 
 __all__ = [
@@ -39,20 +40,44 @@ def opened_paths(
     but closed without that node.
 
     The open paths are listed once for all the nodes (capped, under the
-    walk's work budget) and each is read again without each node; no
-    listing per node.
+    walk's work budget).  A path open given the set closes without one
+    member exactly when one of its colliders has that member's construct as
+    its only adjusted descendant (its non-colliders are not adjusted, or it
+    would not be open); which adjusted construct, if only one, lies at or
+    below each node is found in one pass over the diagram, not one search
+    per node.
     """
     M = md.graph
     given = given_constructs(md, proposed, x, y)
     opened = listing(M, x, y, given, PATH_CAP, only_open=True)
+    sole = _sole_adjusted_below(M, given)
+    shared = Counter(md.construct_of[p] for p in proposed)
+    closing: dict[str, list[tuple[str, ...]]] = {}
+    for path in opened.paths:
+        for c in {sole[k] for k in path.colliders if sole.get(k) is not None}:
+            closing.setdefault(str(c), []).append(path.nodes)
     out: dict[str, tuple[tuple[str, ...], ...]] = {}
     for node in nodes:
-        rest = given_constructs(md, [p for p in proposed if p != node], x, y)
-        an_rest = ancestors_of(M, rest)
-        out[node] = tuple(
-            sorted(p.nodes for p in opened.paths if not path_status(M, p.nodes, rest, an_rest).open)
-        )
+        c = md.construct_of[node]
+        # a member whose construct another member also adjusts closes nothing
+        found = closing.get(c, []) if node in proposed and shared[c] == 1 else []
+        out[node] = tuple(sorted(found))
     return out
+
+
+def _sole_adjusted_below(M: nx.DiGraph, given: frozenset[str]) -> dict[str, str | None]:
+    """For each node: the one construct of ``given`` at or below it, or None
+    when there is none or more than one (sets of at most two carried up the
+    diagram, effects first: linear)."""
+    below: dict[str, frozenset[str]] = {}
+    for v in reversed(list(nx.topological_sort(M))):
+        found = {v} if v in given else set()
+        for w in M.succ[v]:
+            if len(found) >= 2:
+                break
+            found |= below[w]
+        below[v] = frozenset(sorted(found)[:2])
+    return {v: next(iter(b)) if len(b) == 1 else None for v, b in below.items()}
 
 
 def would_close(da: DiagramAnalysis, node: str) -> tuple[tuple[str, ...], ...]:
