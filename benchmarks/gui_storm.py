@@ -21,6 +21,7 @@ blocked (the interpreter lock).
 from __future__ import annotations
 
 import faulthandler
+import gc
 import json
 import math
 import os
@@ -260,6 +261,39 @@ class SchedClock:
                 )
 
 
+class GcClock:
+    """The cyclic garbage collector's passes of 20 ms or more (it holds the
+    interpreter lock throughout): when, how long, on which thread."""
+
+    def __init__(self) -> None:
+        self.started: dict[int, float] = {}
+        self.passes: list[tuple[float, float, int, str]] = []
+
+    def __call__(self, phase: str, info: dict[str, int]) -> None:
+        now = time.perf_counter()
+        if phase == "start":
+            self.started[threading.get_ident()] = now
+            return
+        began = self.started.pop(threading.get_ident(), now)
+        if now - began >= 0.02:
+            name = threading.current_thread().name
+            self.passes.append((began, now - began, info["generation"], name))
+
+    def install(self) -> None:
+        gc.callbacks.append(self)
+
+    def remove(self) -> None:
+        gc.callbacks.remove(self)
+
+    def report(self, origin: float) -> None:
+        print(f"  garbage collector passes of 20 ms or more: {len(self.passes)}")
+        for began, spent, generation, name in self.passes:
+            print(
+                f"   at {began - origin:6.2f} s: generation {generation}, "
+                f"{1000 * spent:.0f} ms on {name}"
+            )
+
+
 def _edit(w: Any, rng: random.Random, covariates: list[str]) -> None:
     """One random edit: a node move, a tick, an arrow added or removed, a family switch."""
     from covariscope.model.commands import AddArrow, RemoveArrow, SetProposed, UpdateNode
@@ -385,6 +419,8 @@ def storm(
     w = MainWindow(prompts=QuietPrompts())  # type: ignore[arg-type]
     w.resize(1366, 768)
     w.show()
+    gc_clock = GcClock()
+    gc_clock.install()
     opening = StallMeter()  # the stalls while the file loads and the first analysis runs
     sched = SchedClock() if SchedClock.available() else None  # cheap: on in every run
     if sched is not None:
@@ -446,6 +482,8 @@ def storm(
         hunter.report()
         clock.report()
         lock_watch.report()
+    gc_clock.remove()
+    gc_clock.report(t_fire)
     if sched is not None:
         print("  while opening:", end="")
         sched.report([(a, g) for a, g in opening.log.stalls if g >= 0.1], t_fire)

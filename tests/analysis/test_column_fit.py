@@ -12,7 +12,7 @@ import pandas as pd
 import pytest
 
 from covariscope.analysis import column_fit, glm_newton
-from covariscope.analysis.column_fit import ColumnFit, base_fit, start_from
+from covariscope.analysis.column_fit import ColumnFit, RowsBuffer, base_fit, fit_extra, start_from
 from covariscope.analysis.design import TermSpec, make_design
 from covariscope.analysis.linear import linear_summary
 from covariscope.analysis.modification import effect_modification, modification_table
@@ -170,3 +170,32 @@ def test_linear_checks_with_the_summary_build_no_model_matrix(
     table = modification_table(design, ["c", "w"], ["m", "c", "w"], summary=summary)
     assert set(table) == {"m", "c", "w"}
     assert residual_table(design, ["c", "w"], ["c", "w"], summary=summary)["c"].flagged
+
+
+def test_models_fitted_in_one_rows_buffer_equal_those_fitted_in_fresh_memory() -> None:
+    # Reference: the same fits, each model's matrix in memory of its own (the
+    # plain path); the buffer's matrices are written over one another.
+    rng = np.random.default_rng(21)
+    n = 2000
+    frame = pd.DataFrame(rng.normal(size=(n, 4)), columns=["x", "a", "b", "c"])
+    frame["y"] = (rng.random(n) < 1 / (1 + np.exp(-(frame.x + frame.a)))).astype(float)
+    design = make_design(
+        frame,
+        exposure=TermSpec("x", "continuous"),
+        covariates={t: TermSpec(t, "continuous") for t in "abc"},
+        outcome="y",
+        family="logistic",
+    )
+    rows = RowsBuffer()
+    extra = [rng.normal(size=n), rng.normal(size=(n, 2))]
+    models = [([0, 1], [extra[0]]), ([0, 1, 2, 3], [extra[1]]), ([0, 2], [])]
+    for cols, more in models:
+        names = [design.column_names[c] for c in cols] + [
+            f"e{j}" for j in range(sum(1 if e.ndim == 1 else e.shape[1] for e in more))
+        ]
+        plain = fit_extra(design, cols, more, names)
+        reused = fit_extra(design, cols, more, names, rows=rows)
+        assert not isinstance(plain, str)
+        assert not isinstance(reused, str)
+        np.testing.assert_array_equal(reused.coef, plain.coef)
+        np.testing.assert_array_equal(reused.cov, plain.cov)

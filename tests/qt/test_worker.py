@@ -3,6 +3,7 @@ result is discarded, never shown as current."""
 
 from __future__ import annotations
 
+import sys
 import threading
 
 import pytest
@@ -145,3 +146,20 @@ def test_load_can_be_cancelled(qtbot, qapp):
     assert loads.shutdown()
     qapp.processEvents()
     assert got == []  # a cancelled load reports nothing as current
+
+
+@pytest.mark.skipif(not sys.platform.startswith("linux"), reason="per-thread nice is Linux's")
+def test_background_work_runs_below_the_gui_threads_priority(qtbot):
+    import os
+
+    from covariscope.qt.worker import BACKGROUND_NICE
+
+    gui = os.getpriority(os.PRIO_PROCESS, 0)
+    seen: list[int] = []
+    r = LoadRunner(load=lambda path, progress, cancel: os.getpriority(os.PRIO_PROCESS, 0))
+    r.loaded.connect(seen.append)
+    r.load("any")
+    qtbot.waitUntil(lambda: bool(seen), timeout=5000)
+    assert seen == [min(19, gui + BACKGROUND_NICE)]
+    assert os.getpriority(os.PRIO_PROCESS, 0) == gui  # the GUI thread keeps its own
+    r.shutdown()

@@ -21,6 +21,7 @@ from covariscope.analysis.linear import LinearSummary
 
 __all__ = [
     "ColumnFit",
+    "RowsBuffer",
     "base_fit",
     "fit_columns",
     "fit_extra",
@@ -74,10 +75,40 @@ def start_from(
     return np.array([*head, *(known.get(n, given.get(n, 0.0)) for n in names)], dtype=float)
 
 
-def model_matrix(design: Design, cols: Sequence[int], *extra: np.ndarray) -> np.ndarray:
+class RowsBuffer:
+    """Memory that the models of one table fill in turn (`model_matrix`).
+
+    Each model's matrix of the rows is written over the one before, which
+    its fit has let go of, instead of into new pages from the system for
+    every model (at 300,000 rows × 20 columns, 50 MB faulted in afresh per
+    model).  The table that fits the models owns it; it is not shared
+    between threads.
+
+    >>> rows = RowsBuffer()
+    >>> a = rows.matrix(4, 3); b = rows.matrix(4, 2)
+    >>> np.shares_memory(a, b), b.flags.f_contiguous
+    (True, True)
+    """
+
+    def __init__(self) -> None:
+        self._memory: np.ndarray | None = None
+
+    def matrix(self, n: int, width: int) -> np.ndarray:
+        """An uninitialised n × width Fortran-ordered array in the buffer's memory."""
+        size = n * width
+        if self._memory is None or self._memory.size < size:
+            self._memory = None  # let the smaller one go before the larger is made
+            self._memory = np.empty(size)
+        return self._memory[:size].reshape((n, width), order="F")
+
+
+def model_matrix(
+    design: Design, cols: Sequence[int], *extra: np.ndarray, into: RowsBuffer | None = None
+) -> np.ndarray:
     """[1 | the design's columns ``cols`` | ``extra`` columns], Fortran-ordered,
     in one allocation (no intermediate copies of the rows), for `fit_columns`
-    with ``ones_first=True``.
+    with ``ones_first=True``; in ``into``'s memory when given (the matrix is
+    then valid until the buffer's next matrix).
 
     >>> import pandas as pd
     >>> from covariscope.analysis.design import TermSpec, make_design
@@ -89,7 +120,8 @@ def model_matrix(design: Design, cols: Sequence[int], *extra: np.ndarray) -> np.
     """
     n = design.n
     widths = [1 if e.ndim == 1 else e.shape[1] for e in extra]
-    out = np.empty((n, 1 + len(cols) + sum(widths)), order="F")
+    width = 1 + len(cols) + sum(widths)
+    out = np.empty((n, width), order="F") if into is None else into.matrix(n, width)
     out[:, 0] = 1.0
     for i, c in enumerate(cols):
         out[:, 1 + i] = design.values[:, c]
@@ -169,6 +201,7 @@ def fit_extra(
     *,
     start: np.ndarray | None = None,
     summary: LinearSummary | None = None,
+    rows: RowsBuffer | None = None,
 ) -> ColumnFit | str:
     """Fit [the design's columns ``cols`` | ``extra`` columns] (exposure first), as `fit_columns`.
 
@@ -179,12 +212,13 @@ def fit_extra(
     and the outcome, no copy of the model's rows.  The least-squares
     solution is the same (Golub & Van Loan 2013, §6.1: the normal equations
     need only these sums), to rounding.  Other families, or no summary,
-    build the model's matrix (`model_matrix`) and fit it.
+    build the model's matrix (`model_matrix`, in ``rows`` when given) and
+    fit it.
     """
     if summary is not None and not takes_start(design, summary):
         return _linear_extra(design, list(cols), extra, summary)
     return fit_columns(
-        design, model_matrix(design, cols, *extra), names, start=start, ones_first=True
+        design, model_matrix(design, cols, *extra, into=rows), names, start=start, ones_first=True
     )
 
 

@@ -36,6 +36,7 @@ import numpy as np
 
 from covariscope.analysis.column_fit import (
     ColumnFit,
+    RowsBuffer,
     fit_extra,
     near_or_base,
     start_from,
@@ -187,6 +188,7 @@ def effect_modification(
     level: float = 0.95,
     near: ColumnFit | None = None,
     summary: LinearSummary | None = None,
+    rows: RowsBuffer | None = None,
 ) -> Modification:
     """The exposure effect across levels of ``node`` in the model exposure + ``terms``.
 
@@ -202,6 +204,8 @@ def effect_modification(
         the result is the same)
     summary : the design's means and co-moments, outcome last: a linear
         model then reads only its product columns (`fit_extra`)
+    rows : memory for the model's matrix of the rows, reused from model to
+        model of a table (`RowsBuffer`)
 
     Examples
     --------
@@ -227,7 +231,9 @@ def effect_modification(
     k = products.shape[1]
     pnames = [f"{design.exposure_name}×{node}[{j}]" for j in range(k)]
     start = None if near is None else start_from(near, [*names, *pnames])
-    fitted = fit_extra(design, cols, [products], [*names, *pnames], start=start, summary=summary)
+    fitted = fit_extra(
+        design, cols, [products], [*names, *pnames], start=start, summary=summary, rows=rows
+    )
     kind, strata_spec = _strata_values(design, node)
     nan = float("nan")
     if isinstance(fitted, str):
@@ -242,7 +248,7 @@ def effect_modification(
         else float(norm_ppf(0.5 + level / 2.0))
     )
     strata = []
-    for label, weights, rows in strata_spec:
+    for label, weights, count in strata_spec:
         a = np.zeros(len(fitted.coef))
         a[0] = 1.0
         a[p_idx] = weights
@@ -255,7 +261,7 @@ def effect_modification(
                 b,
                 se,
                 ci,
-                rows,
+                count,
                 math.exp(b) if ratio else None,
                 (math.exp(ci[0]), math.exp(ci[1])) if ratio else None,
             )
@@ -327,6 +333,7 @@ def modification_table(
     wanted = [c for c in candidates if c in design.blocks and c not in design.constant]
     near, announce, first = near_or_base(design, terms, near, len(wanted), on_fit, summary=summary)
     out: dict[str, Modification] = {}
+    rows = RowsBuffer()
     for k, c in enumerate(wanted, start=first):
         announce(k)
         out[c] = effect_modification(
@@ -337,5 +344,6 @@ def modification_table(
             ratio_guide=ratio_guide,
             near=near,
             summary=summary,
+            rows=rows,
         )
     return out

@@ -20,6 +20,7 @@ import scipy.linalg
 
 from covariscope.analysis.column_fit import (
     ColumnFit,
+    RowsBuffer,
     fit_extra,
     near_or_base,
     start_from,
@@ -62,6 +63,7 @@ def residual_confounding(
     near: ColumnFit | None = None,
     summary: LinearSummary | None = None,
     on_fit: Callable[[], None] | None = None,
+    rows: RowsBuffer | None = None,
 ) -> ResidualCheck:
     """Compare the exposure estimate with ``node`` linear and as a spline.
 
@@ -78,6 +80,8 @@ def residual_confounding(
         model then reads only its own new columns (`fit_extra`)
     on_fit : called before each of the two fits (linear, then spline); what
         it raises stops the check between them
+    rows : memory for the models' matrices of the rows, reused from model to
+        model (`RowsBuffer`)
 
     Examples
     --------
@@ -107,7 +111,7 @@ def residual_confounding(
     start = None if near is None else start_from(near, lin_names, given=same)
     if on_fit is not None:
         on_fit()
-    linear = fit_extra(design, cols, [raw], lin_names, start=start, summary=summary)
+    linear = fit_extra(design, cols, [raw], lin_names, start=start, summary=summary, rows=rows)
     if isinstance(linear, str):
         return ResidualCheck(node, knots, nan, nan, nan, False, linear)
     spl_names = [*names, *(f"{node}[spline {j + 1}]" for j in range(basis.shape[1]))]
@@ -116,7 +120,7 @@ def residual_confounding(
         start = start_from(linear, spl_names, given=_as_spline(linear, node, raw, basis, spl_names))
     if on_fit is not None:
         on_fit()
-    spline = fit_extra(design, cols, [basis], spl_names, start=start, summary=summary)
+    spline = fit_extra(design, cols, [basis], spl_names, start=start, summary=summary, rows=rows)
     if isinstance(spline, str):
         return ResidualCheck(node, knots, nan, nan, nan, False, spline)
     # A multi-level exposure: the contrast whose estimate moves most is reported.
@@ -212,6 +216,7 @@ def residual_table(
         design, terms, near, 2 * len(examined), on_fit, summary=summary
     )
     out: dict[str, ResidualCheck] = {}
+    rows = RowsBuffer()
     for i, c in enumerate(examined):
         block = design.blocks[c]
         raw = block.raw if block.raw is not None else block.values[:, 0]
@@ -225,6 +230,7 @@ def residual_table(
             near=near,
             summary=summary,
             on_fit=_numbered(first + 2 * i, announce),
+            rows=rows,
         )
     return out
 
