@@ -201,19 +201,22 @@ class LockWatch:
 class SchedClock:
     """Where the GUI thread's time went during each stall (Linux only).
 
-    Every 10 ms the GUI thread reads its own ``/proc/self/task/TID/schedstat``:
-    time on a CPU and time runnable but waiting for one (ns).  A stall is then
-    split into its own work (on CPU), the machine's load (waiting for a CPU:
-    other processes, or our other threads) and the rest, blocked: waiting for
-    the interpreter lock (a thread that waits for the GIL sleeps).  A stall
-    that is mostly "waiting for a CPU" is the loaded machine, not the program.
+    Every 10 ms the GUI thread reads ``/proc/self/task/TID/schedstat`` of
+    every thread of the process: time on a CPU and time runnable but waiting
+    for one (ns).  A stall of the GUI thread is then split into its own work
+    (on CPU), the machine's load (waiting for a CPU) and the rest, blocked:
+    waiting for the interpreter lock (a thread that waits for it sleeps).
+    Beside it, the other thread that ran or wanted to run most meanwhile: a
+    blocked stall whose other thread mostly *waited for a CPU* was the lock
+    held by a thread the machine had preempted - the loaded machine again,
+    not a long call.
     """
 
     def __init__(self) -> None:
         from PySide6.QtCore import Qt, QTimer
 
-        self.path = Path(f"/proc/self/task/{threading.get_native_id()}/schedstat")
-        self.samples: list[tuple[float, int, int]] = []
+        self.gui = threading.get_native_id()
+        self.samples: list[tuple[float, dict[int, tuple[int, int]]]] = []
         self.timer = QTimer()
         self.timer.setTimerType(Qt.TimerType.PreciseTimer)
         self.timer.setInterval(10)
@@ -225,11 +228,15 @@ class SchedClock:
         return Path(f"/proc/self/task/{threading.get_native_id()}/schedstat").exists()
 
     def _sample(self) -> None:
-        try:
-            cpu, wait = self.path.read_text().split()[:2]
-        except (OSError, ValueError):
-            return
-        self.samples.append((time.perf_counter(), int(cpu), int(wait)))
+        now = time.perf_counter()
+        threads: dict[int, tuple[int, int]] = {}
+        for task in Path("/proc/self/task").iterdir():
+            try:
+                cpu, wait = (task / "schedstat").read_text().split()[:2]
+            except (OSError, ValueError):
+                continue  # a thread that just ended
+            threads[int(task.name)] = (int(cpu), int(wait))
+        self.samples.append((now, threads))
 
     def start(self) -> None:
         self._sample()
@@ -239,25 +246,36 @@ class SchedClock:
         self.timer.stop()
         self._sample()
 
-    def split(self, start: float, gap: float) -> tuple[float, float, float] | None:
-        """(on CPU, waiting for a CPU, blocked) seconds between the samples around a stall."""
+    def split(self, start: float, gap: float) -> tuple[float, ...] | None:
+        """GUI thread (on CPU, waiting for a CPU, blocked) and the busiest other
+        thread (on CPU, waiting for a CPU), seconds, between the samples around a stall."""
         before = [s for s in self.samples if s[0] <= start + 1e-4]
         after = [s for s in self.samples if s[0] >= start + gap - 1e-4]
-        if not before or not after:
+        if not before or not after or self.gui not in before[-1][1]:
             return None
-        (t0, c0, w0), (t1, c1, w1) = before[-1], after[0]
-        cpu, wait = (c1 - c0) / 1e9, (w1 - w0) / 1e9
-        return cpu, wait, max(0.0, (t1 - t0) - cpu - wait)
+        (t0, was), (t1, now) = before[-1], after[0]
+        moved = {
+            tid: ((now[tid][0] - c) / 1e9, (now[tid][1] - w) / 1e9)
+            for tid, (c, w) in was.items()
+            if tid in now
+        }
+        cpu, wait = moved.get(self.gui, (0.0, 0.0))
+        others = [v for tid, v in moved.items() if tid != self.gui]
+        busiest = max(others, key=sum, default=(0.0, 0.0))
+        return cpu, wait, max(0.0, (t1 - t0) - cpu - wait), *busiest
 
     def report(self, stalls: list[tuple[float, float]], origin: float) -> None:
-        print(" stalls of 100 ms or more: GUI thread on CPU / waiting for a CPU / blocked (GIL):")
+        print(
+            " stalls of 100 ms or more: GUI thread on CPU / waiting for a CPU / blocked"
+            " (GIL) | busiest other thread on CPU / waiting for a CPU:"
+        )
         for start, gap in stalls:
             parts = self.split(start, gap)
             if parts is not None:
-                cpu, wait, blocked = (1000 * x for x in parts)
+                cpu, wait, blocked, other_cpu, other_wait = (1000 * x for x in parts)
                 print(
                     f"   at {start - origin:6.2f} s, {1000 * gap:4.0f} ms: {cpu:4.0f} / "
-                    f"{wait:4.0f} / {blocked:4.0f} ms"
+                    f"{wait:4.0f} / {blocked:4.0f} ms | {other_cpu:4.0f} / {other_wait:4.0f} ms"
                 )
 
 
