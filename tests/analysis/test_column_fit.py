@@ -199,3 +199,28 @@ def test_models_fitted_in_one_rows_buffer_equal_those_fitted_in_fresh_memory() -
         assert not isinstance(reused, str)
         np.testing.assert_array_equal(reused.coef, plain.coef)
         np.testing.assert_array_equal(reused.cov, plain.cov)
+
+
+def test_a_consumed_extra_column_gives_the_same_linear_fit_to_the_last_bit() -> None:
+    # Reference: the same model with the extra columns left as they are (centred
+    # in a copy); consumed, they are centred where they lie.
+    rng = np.random.default_rng(8)
+    n = 3000
+    frame = pd.DataFrame(rng.normal(size=(n, 3)), columns=["x", "a", "y"])
+    design = make_design(
+        frame,
+        exposure=TermSpec("x", "continuous"),
+        covariates={"a": TermSpec("a", "continuous")},
+        outcome="y",
+        family="linear",
+    )
+    summary = linear_summary(design.values)
+    basis = np.ascontiguousarray(rng.normal(size=(n, 3)) + 5.0)
+    names = ["x", "a", "s1", "s2", "s3"]
+    kept = fit_extra(design, [0, 1], [basis.copy()], names, summary=summary)
+    eaten = fit_extra(design, [0, 1], [basis], names, summary=summary, consume=True)
+    assert not isinstance(kept, str)
+    assert not isinstance(eaten, str)
+    np.testing.assert_array_equal(eaten.coef, kept.coef)
+    np.testing.assert_array_equal(eaten.cov, kept.cov)
+    assert abs(basis.mean()) < 1e-9  # it was centred where it lay

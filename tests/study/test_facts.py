@@ -85,3 +85,64 @@ def test_a_measure_group_stays_adjusted_through_its_other_member() -> None:
     assert both == {"m1": (), "m2": (), "a": ()}
     one = opened_paths(md, "x", "y", ["m1"], ["m1"])
     assert one == {"m1": (("x", "a", "m1|m2", "b", "y"),)}
+
+
+def _reference_sufficient(G: nx.DiGraph, x: str, y: str, z: set[str]) -> bool:
+    """The backdoor criterion on networkx.is_d_separator."""
+    if z & nx.descendants(G, x):
+        return False
+    H = G.copy()
+    H.remove_edges_from(list(G.out_edges(x)))
+    return bool(nx.is_d_separator(H, {x}, {y}, z))
+
+
+@pytest.mark.parametrize("seed", range(40))
+def test_needed_together_matches_its_definition_on_networkx(seed: int) -> None:
+    from covariscope.analysis.adjustment import Backdoor
+    from covariscope.study.facts import SetInUse, needed_together
+
+    G, x, y = _random(seed)
+    rng = random.Random(seed)
+    others = sorted(v for v in G if v not in (x, y) and v not in nx.descendants(G, x))
+    if len(others) < 2:
+        return
+    in_use = SetInUse(
+        Backdoor(merge_diagram(G, x, y), x, y), rng.sample(others, rng.randint(0, len(others)))
+    )
+    for group in itertools.combinations(others, 2):
+        rest = set(in_use.members) - set(group)
+        if any(_reference_sufficient(G, x, y, rest | {m}) for m in group):
+            want: tuple[str, ...] = ()
+        elif not _reference_sufficient(G, x, y, rest | set(group)):
+            want = ()
+        else:
+            want = tuple(
+                m for m in group if not _reference_sufficient(G, x, y, rest | set(group) - {m})
+            )
+        assert needed_together(in_use, group) == want, (seed, group)
+        assert in_use.without(group) == frozenset(rest)
+
+
+def test_group_reasons_name_the_proxy_link_the_highest_r2_and_the_dimension() -> None:
+    from covariscope.study.facts import GroupReasons
+
+    reasons = GroupReasons(
+        [("a", "b"), ("p", "q")],
+        {("a", "c"): 0.95, ("b", "c"): 0.5, ("a", "b"): 0.92, ("p", "z"): 0.99},
+        [("b", "c", "w")],
+        0.9,
+        {"a": "Area", "b": "Income", "c": "Class"},
+    )
+    assert reasons.why(("a", "b", "c"), member="c") == (
+        "a proxy link joins them, its R² with Area is 0.95 against the guide 0.9 and they "
+        "share a dimension with a high condition index"
+    )
+    assert reasons.why(("a", "b", "c")) == (
+        "a proxy link joins them, the Area–Class R² is 0.95 against the guide 0.9 and they "
+        "share a dimension with a high condition index"
+    )
+    assert (
+        reasons.why(("a", "b"))
+        == "a proxy link joins them and their R² is 0.92 against the guide 0.9"
+    )
+    assert reasons.why(("a", "p")) == ""

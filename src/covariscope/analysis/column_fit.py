@@ -202,6 +202,7 @@ def fit_extra(
     start: np.ndarray | None = None,
     summary: LinearSummary | None = None,
     rows: RowsBuffer | None = None,
+    consume: bool = False,
 ) -> ColumnFit | str:
     """Fit [the design's columns ``cols`` | ``extra`` columns] (exposure first), as `fit_columns`.
 
@@ -213,10 +214,11 @@ def fit_extra(
     solution is the same (Golub & Van Loan 2013, §6.1: the normal equations
     need only these sums), to rounding.  Other families, or no summary,
     build the model's matrix (`model_matrix`, in ``rows`` when given) and
-    fit it.
+    fit it.  With ``consume`` the caller is done with ``extra``: a linear
+    model may centre those columns where they lie instead of in a copy.
     """
     if summary is not None and not takes_start(design, summary):
-        return _linear_extra(design, list(cols), extra, summary)
+        return _linear_extra(design, list(cols), extra, summary, consume=consume)
     return fit_columns(
         design, model_matrix(design, cols, *extra, into=rows), names, start=start, ones_first=True
     )
@@ -229,21 +231,32 @@ def takes_start(design: Design, summary: LinearSummary | None) -> bool:
 
 
 def _linear_extra(
-    design: Design, cols: list[int], extra: Sequence[np.ndarray], summary: LinearSummary
+    design: Design,
+    cols: list[int],
+    extra: Sequence[np.ndarray],
+    summary: LinearSummary,
+    *,
+    consume: bool = False,
 ) -> ColumnFit | str:
     from covariscope.analysis.linear import centred_cross, solve_ols
 
     n = design.n
-    E = _side_by_side(extra, n)
+    E, own = _side_by_side(extra, n)
     y = design.values.shape[1] - 1
     keep = [*cols, y]
     p, k = len(cols), E.shape[1]
     mean_e = E.mean(axis=0) if n else np.zeros(k)
-    centred = E - mean_e
-    square = np.dot(centred.T, centred)  # np.dot, not @: fitting_common's docstring
-    del centred  # the cross-products centre E a block at a time: one centred copy, not two at once
+    if own or consume:  # centred where they lie: the same numbers, no second copy
+        E -= mean_e
+        square = np.dot(E.T, E)  # np.dot, not @: fitting_common's docstring
+        centre = None
+    else:
+        centred = E - mean_e
+        square = np.dot(centred.T, centred)
+        del centred  # the cross-products centre E a block at a time: not two copies at once
+        centre = mean_e
     cross = (
-        centred_cross(design.values, summary.mean[keep], E, keep, centre=mean_e)
+        centred_cross(design.values, summary.mean[keep], E, keep, centre=centre)
         if k
         else np.zeros((p + 1, 0))
     )
@@ -261,12 +274,15 @@ def _linear_extra(
     return ColumnFit(res.coef, res.cov, res.df_resid)
 
 
-def _side_by_side(extra: Sequence[np.ndarray], n: int) -> np.ndarray:
-    """The extra columns as one row-major n × k array; a single one that is
-    already so (a spline basis) is used as it is, not copied."""
+def _side_by_side(extra: Sequence[np.ndarray], n: int) -> tuple[np.ndarray, bool]:
+    """The extra columns as one row-major n × k array, and whether it is a
+    copy of this call's own; a single one that is already so (a spline basis)
+    is used as it is, not copied."""
     if len(extra) == 1 and extra[0].ndim == 2 and extra[0].flags.c_contiguous:
-        return extra[0]
-    return np.column_stack([e.reshape(n, -1) for e in extra]) if extra else np.empty((n, 0))
+        return extra[0], False
+    if not extra:
+        return np.empty((n, 0)), True
+    return np.column_stack([e.reshape(n, -1) for e in extra]), True
 
 
 def base_fit(

@@ -55,6 +55,9 @@ __all__ = [
     "reri",
 ]
 
+#: Rows counted at a time when strata are counted at the quartiles.
+_COUNT_ROWS = 1 << 16
+
 
 @dataclass(frozen=True)
 class Stratum:
@@ -160,12 +163,14 @@ def _strata_values(design: Design, node: str) -> tuple[str, list[tuple[str, np.n
 
 def _nearest_counts(col: np.ndarray, q: np.ndarray) -> tuple[int, int, int]:
     """How many values lie nearest each of three points, the first point
-    winning a tie (as ``argmin`` of the distances would count them), with no
-    n × 3 array of distances."""
-    d0, d1, d2 = (np.abs(col - v) for v in q)
-    first = (d0 <= d1) & (d0 <= d2)
-    second = ~first & (d1 <= d2)
-    n0, n1 = int(np.count_nonzero(first)), int(np.count_nonzero(second))
+    winning a tie (as ``argmin`` of the distances would count them), a block
+    of rows at a time: no n × 3 array of distances, nor three n-long ones."""
+    n0 = n1 = 0
+    for at in range(0, len(col), _COUNT_ROWS):
+        d0, d1, d2 = (np.abs(col[at : at + _COUNT_ROWS] - v) for v in q)
+        first = (d0 <= d1) & (d0 <= d2)
+        n0 += int(np.count_nonzero(first))
+        n1 += int(np.count_nonzero(~first & (d1 <= d2)))
     return n0, n1, len(col) - n0 - n1
 
 
@@ -232,8 +237,16 @@ def effect_modification(
     pnames = [f"{design.exposure_name}×{node}[{j}]" for j in range(k)]
     start = None if near is None else start_from(near, [*names, *pnames])
     fitted = fit_extra(
-        design, cols, [products], [*names, *pnames], start=start, summary=summary, rows=rows
+        design,
+        cols,
+        [products],
+        [*names, *pnames],
+        start=start,
+        summary=summary,
+        rows=rows,
+        consume=True,
     )
+    del products  # before the strata are counted: one column's worth less at the peak
     kind, strata_spec = _strata_values(design, node)
     nan = float("nan")
     if isinstance(fitted, str):

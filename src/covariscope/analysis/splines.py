@@ -120,7 +120,11 @@ def residual_confounding(
         start = start_from(linear, spl_names, given=_as_spline(linear, node, raw, basis, spl_names))
     if on_fit is not None:
         on_fit()
-    spline = fit_extra(design, cols, [basis], spl_names, start=start, summary=summary, rows=rows)
+    # the basis is not read again: a linear model may centre it where it lies
+    spline = fit_extra(
+        design, cols, [basis], spl_names, start=start, summary=summary, rows=rows, consume=True
+    )
+    del basis
     if isinstance(spline, str):
         return ResidualCheck(node, knots, nan, nan, nan, False, spline)
     # A multi-level exposure: the contrast whose estimate moves most is reported.

@@ -16,6 +16,7 @@ __all__ = [
     "COMPARISON_WORDS",
     "MEMBERS_NAMED",
     "PATHS_NAMED",
+    "Labels",
     "estimate_words",
     "format_set",
     "guide",
@@ -93,18 +94,51 @@ def _label(node: str, names: Mapping[str, str]) -> str:
     return " | ".join(names.get(m, m) or m for m in node.split("|"))
 
 
-def labelled(f: Facts, names: Mapping[str, str]) -> Facts:
+class Labels:
+    """The labels the sentences of one result use.
+
+    Every covariate's facts may hold the set in use (hundreds of members);
+    a set met again as the same object is labelled once per result, not
+    once per covariate.
+
+    Examples
+    --------
+    >>> labels = Labels({"a": "Age"})
+    >>> members = tuple("abcdefghijklmn")
+    >>> labels.many(members)[:2], labels.many(members) is labels.many(members)
+    (('Age', 'b'), True)
+    """
+
+    def __init__(self, names: Mapping[str, str]) -> None:
+        self.names = names
+        self._sets: dict[int, tuple[Sequence[str], tuple[str, ...]]] = {}
+
+    def one(self, node: str) -> str:
+        """A node's label (a measure group by its members' labels)."""
+        return _label(node, self.names)
+
+    def many(self, nodes: Sequence[str]) -> tuple[str, ...]:
+        """Labels of several nodes; a long sequence is labelled once."""
+        if len(nodes) <= MEMBERS_NAMED:
+            return tuple(self.one(n) for n in nodes)
+        kept = self._sets.get(id(nodes))
+        if kept is not None and kept[0] is nodes:
+            return kept[1]
+        out = tuple(self.one(n) for n in nodes)
+        self._sets[id(nodes)] = (nodes, out)  # the sequence is kept, so its id stays its own
+        return out
+
+
+def labelled(f: Facts, names: Mapping[str, str] | Labels) -> Facts:
     """The facts with every node named by its label, for the sentence only.
 
     Of each list of paths only the :data:`PATHS_NAMED` a sentence names are
     kept and labelled: a collider's facts can hold hundreds of paths.
+    ``names`` may be the result's :class:`Labels`, which label the set in
+    use once for every covariate.
     """
-
-    def one(node: str) -> str:
-        return _label(node, names)
-
-    def many(nodes: Iterable[str]) -> tuple[str, ...]:
-        return tuple(one(n) for n in nodes)
+    labels = names if isinstance(names, Labels) else Labels(names)
+    one, many = labels.one, labels.many
 
     def paths(ps: Sequence[Sequence[str]]) -> tuple[tuple[str, ...], ...]:
         return tuple(many(p) for p in ps[:PATHS_NAMED])

@@ -34,7 +34,7 @@ from covariscope.analysis.verdict_terms import (
     Shift,
     Verdict,
 )
-from covariscope.analysis.verdict_wording import format_set, labelled
+from covariscope.analysis.verdict_wording import Labels, format_set, labelled
 from covariscope.vocabulary import DEFAULT_THRESHOLDS
 
 __all__ = [
@@ -57,7 +57,7 @@ def decide_verdict(
     *,
     family: str = "linear",
     thresholds: Mapping[str, float] | None = None,
-    names: Mapping[str, str] | None = None,
+    names: Mapping[str, str] | Labels | None = None,
 ) -> Verdict:
     """The verdict for one covariate.
 
@@ -76,7 +76,9 @@ def decide_verdict(
     ``not_needed`` (unrelated), ``avoid_instrument`` or ``consider_proxy``.
 
     ``names`` maps node ids to the labels the sentence uses (ids where a node
-    has none); the verdict's ``node``, ``group`` and ``suggested`` stay ids.
+    has none), or is the result's :class:`~covariscope.analysis.verdict_wording.Labels`
+    shared by every covariate; the verdict's ``node``, ``group`` and
+    ``suggested`` stay ids.
 
     Examples
     --------

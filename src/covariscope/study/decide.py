@@ -25,6 +25,7 @@ from covariscope.analysis.fits import Fit
 from covariscope.analysis.graph import DiagramAnalysis
 from covariscope.analysis.proposal_wording import sufficiency_sentence
 from covariscope.analysis.recommend import Recommendation, pair_r2, recommend_set
+from covariscope.analysis.verdict_wording import Labels
 from covariscope.analysis.verdicts import (
     Facts,
     Numbers,
@@ -36,7 +37,8 @@ from covariscope.analysis.verdicts import (
 )
 from covariscope.study.degenerate import aliased_pairs
 from covariscope.study.facts import (
-    group_why,
+    GroupReasons,
+    SetInUse,
     needed_together,
     opened_paths,
     stands_for,
@@ -318,38 +320,50 @@ class _Context:
     # looked up once per covariate: built once, not once per covariate
     names: dict[str, str]
     measured: dict[str, bool]
-    #: the backdoor criterion on this diagram, merged once for every question
-    check: Backdoor
+    #: the set in use and the criterion on this diagram, merged once for every question
+    in_use: SetInUse
+    #: why confounders group together, indexed once
+    reasons: GroupReasons
+    #: each covariate's collinear group (the first that holds it)
+    group_of: dict[str, tuple[str, ...]]
+    #: the sentences' labels: the set in use labelled once
+    labels: Labels
     #: the paths each collider in the proposed set opens (one listing for all)
     opened: dict[str, tuple[tuple[str, ...], ...]]
     #: what each confounder proxy stands for (one pass for all)
     stands: dict[str, tuple[str, ...]]
-    #: members of each group that alone, with the rest, suffice (asked once per group)
-    alone: dict[tuple[str, ...], tuple[str, ...]]
+    #: the facts of each group to keep one of, the same for every member (once per group)
+    kept: dict[tuple[str, ...], tuple[tuple[str, ...], str, str | None, str]]
 
 
 def _group_facts(
     ctx: _Context, c: str
 ) -> tuple[tuple[str, ...], tuple[str, ...], bool, str, str | None, str]:
     """(group, members alone sufficient, needed?, why grouped, suggested member, why)."""
-    q, da = ctx.q, ctx.da
-    label = ctx.names
-    r2_guide = q.threshold["r2"]
-    group = next((g for g in ctx.groups if c in g), ())
+    group = ctx.group_of.get(c, ())
     is_needed = bool(group) and c in ctx.needed[group]
     if group and not is_needed and ctx.needed[group]:
         remainder = tuple(m for m in group if m not in ctx.needed[group])
         group = remainder if len(remainder) >= 2 else group
     if is_needed:
-        why = group_why(group, da.groups, ctx.r2_pairs, ctx.flagged, r2_guide, label, member=c)
-        return group, (), True, why, None, ""
+        return group, (), True, ctx.reasons.why(group, member=c), None, ""
     if not group:
         return (), (), False, "", None, ""
+    if group not in ctx.kept:
+        ctx.kept[group] = _keep_one_facts(ctx, group)
+    alone, why, suggested, suggested_why = ctx.kept[group]
+    return group, alone, False, why, suggested, suggested_why
+
+
+def _keep_one_facts(
+    ctx: _Context, group: tuple[str, ...]
+) -> tuple[tuple[str, ...], str, str | None, str]:
+    """(members alone sufficient, why grouped, suggested member, why) of a
+    group to keep one of: the same for each of its members."""
+    q = ctx.q
+    rest_constructs = ctx.in_use.without(group)
+    alone = tuple(m for m in group if ctx.in_use.suffices(rest_constructs, [m]))
     rest = [m for m in ctx.base if m not in group]
-    if group not in ctx.alone:
-        ctx.alone[group] = tuple(m for m in group if ctx.check.suffices([*rest, m]))
-    alone = ctx.alone[group]
-    why = group_why(group, da.groups, ctx.r2_pairs, ctx.flagged, r2_guide, label)
     estimate_of, se_of = _fit_lookup(ctx.engine if ctx.evidence is not None else None)
     suggested, suggested_why = suggest_member(
         group,
@@ -360,10 +374,10 @@ def _group_facts(
         rest=rest,
         estimate_of=estimate_of,
         se_of=se_of,
-        names=label,
+        names=ctx.names,
         contrast=_first_contrast(ctx),
     )
-    return group, alone, False, why, suggested, suggested_why
+    return alone, ctx.reasons.why(group), suggested, suggested_why
 
 
 def _first_contrast(ctx: _Context) -> str:
@@ -410,7 +424,7 @@ def _verdict(ctx: _Context, c: str) -> Verdict:
         _numbers(evidence, c, _reference(ctx)),
         family=q.family,
         thresholds=q.threshold,
-        names=ctx.names,
+        names=ctx.labels,
     )
     if (
         evidence is None
@@ -451,7 +465,8 @@ def decide(
     base = tuple(recommended) if rec.members is not None else q.proposed
     # Members the diagram needs whichever other is kept are adjusted for, with a
     # caution; the rest of their group (two or more) is still one to keep one of.
-    needed = {g: needed_together(check, g, list(base)) for g in groups}
+    in_use = SetInUse(check, base)
+    needed = {g: needed_together(in_use, g) for g in groups}
     colliders = [c for c in q.proposed if c in da.roles and da.roles[c].role == "collider"]
     proxies = [c for c, f in da.roles.items() if f.role == "confounder_proxy"]
     ctx = _Context(
@@ -472,10 +487,13 @@ def decide(
         ),
         names=dict(q.names),
         measured=dict(q.measured),
-        check=check,
+        in_use=in_use,
+        reasons=GroupReasons(da.groups, r2_pairs, flagged, q.threshold["r2"], dict(q.names)),
+        group_of={m: g for g in reversed(groups) for m in g},
+        labels=Labels(dict(q.names)),
         opened=opened_paths(md, q.exposure, q.outcome, q.proposed, colliders) if colliders else {},
         stands=stands_for(graph, da, proxies),
-        alone={},
+        kept={},
     )
     verdicts = {c: _verdict(ctx, c) for c in da.roles}
     estimates: dict[str, Fit | None] = dict.fromkeys(ESTIMATE_KEYS)

@@ -20,7 +20,8 @@ from covariscope.analysis.recommend import MemberRanking, rank_members
 
 __all__ = [
     "PATH_CAP",
-    "group_why",
+    "GroupReasons",
+    "SetInUse",
     "needed_together",
     "opened_paths",
     "stands_for",
@@ -103,64 +104,111 @@ def would_open(da: DiagramAnalysis, node: str) -> tuple[tuple[str, ...], ...]:
     )
 
 
-def group_why(
-    group: Sequence[str],
-    proxy_groups: Sequence[Sequence[str]],
-    r2_pairs: Mapping[tuple[str, str], float],
-    flagged: Sequence[Sequence[str]],
-    r2_guide: float,
-    names: Mapping[str, str],
-    member: str | None = None,
-) -> str:
-    """Why confounders form a collinear group, as a clause naming the numbers.
+class GroupReasons:
+    """What makes confounders a collinear group, indexed once per result by
+    member, so that each covariate's clause costs its group's size, not the
+    number of proxy groups and R² pairs in the study.
 
-    With ``member``, an R² that involves that member is named first, so the
-    clause speaks of the covariate whose verdict it explains.
+    ``proxy_groups`` are the measure groups, ``r2_pairs`` the R² of each
+    pair of terms, ``flagged`` the variables of each dimension with a high
+    condition index, ``r2_guide`` the R² guide, ``names`` the labels.
     """
-    members = set(group)
-    reasons: list[str] = []
-    if any(len(members & set(g)) >= 2 for g in proxy_groups):
-        reasons.append("a proxy link joins them")
-    high = sorted(
-        (
-            (member in (a, b), r2, a, b)
-            for (a, b), r2 in r2_pairs.items()
-            if {a, b} <= members and r2 >= r2_guide
-        ),
-        reverse=True,
-    )
-    if high:
-        own, r2, a, b = high[0]
-        if len(members) == 2:
-            who = "their R²"
-        elif own:
-            other = b if a == member else a
-            who = f"its R² with {names.get(other, other)}"
-        else:
-            who = f"the {names.get(a, a)}–{names.get(b, b)} R²"
-        reasons.append(f"{who} is {r2:.3g} against the guide {r2_guide:g}")
-    if any(len(members & set(d)) >= 2 for d in flagged):
-        reasons.append("they share a dimension with a high condition index")
-    if len(reasons) > 1:
-        return ", ".join(reasons[:-1]) + " and " + reasons[-1]
-    return reasons[0] if reasons else ""
+
+    def __init__(
+        self,
+        proxy_groups: Sequence[Sequence[str]],
+        r2_pairs: Mapping[tuple[str, str], float],
+        flagged: Sequence[Sequence[str]],
+        r2_guide: float,
+        names: Mapping[str, str],
+    ) -> None:
+        self.proxy_group_of = {m: i for i, g in enumerate(proxy_groups) for m in g}
+        self.pairs_of: dict[str, list[tuple[str, str, float]]] = {}
+        for (a, b), r2 in r2_pairs.items():
+            if r2 >= r2_guide:
+                self.pairs_of.setdefault(a, []).append((a, b, r2))
+        self.flagged = [set(d) for d in flagged]
+        self.r2_guide = r2_guide
+        self.names = names
+
+    def why(self, group: Sequence[str], member: str | None = None) -> str:
+        """Why the members of ``group`` form a collinear group, as a clause
+        naming the numbers.  With ``member``, an R² that involves that
+        member is named first, so the clause speaks of the covariate whose
+        verdict it explains."""
+        members = set(group)
+        names = self.names
+        reasons: list[str] = []
+        proxies = [self.proxy_group_of[m] for m in members if m in self.proxy_group_of]
+        if len(proxies) > len(set(proxies)):
+            reasons.append("a proxy link joins them")
+        high = sorted(
+            (
+                (member in (a, b), r2, a, b)
+                for m in members
+                for a, b, r2 in self.pairs_of.get(m, ())
+                if b in members
+            ),
+            reverse=True,
+        )
+        if high:
+            own, r2, a, b = high[0]
+            if len(members) == 2:
+                who = "their R²"
+            elif own:
+                other = b if a == member else a
+                who = f"its R² with {names.get(other, other)}"
+            else:
+                who = f"the {names.get(a, a)}–{names.get(b, b)} R²"
+            reasons.append(f"{who} is {r2:.3g} against the guide {self.r2_guide:g}")
+        if any(len(members & d) >= 2 for d in self.flagged):
+            reasons.append("they share a dimension with a high condition index")
+        if len(reasons) > 1:
+            return ", ".join(reasons[:-1]) + " and " + reasons[-1]
+        return reasons[0] if reasons else ""
 
 
-def needed_together(check: Backdoor, group: Sequence[str], base: Sequence[str]) -> tuple[str, ...]:
+class SetInUse:
+    """The adjustment set in use, as constructs, for the questions asked of
+    each collinear group (built once per result): the set without a group's
+    members is one set difference, not a new reading of every member.
+
+    ``check`` is the criterion for the diagram, ``members`` the set.
+    """
+
+    def __init__(self, check: Backdoor, members: Sequence[str]) -> None:
+        self.check = check
+        self.members = tuple(members)
+        self._of = check.merged.construct_of
+        self._held = set(self.members)
+        self._counts = Counter(self._of[m] for m in self.members)
+        self._constructs = frozenset(self._counts)
+
+    def without(self, group: Sequence[str]) -> frozenset[str]:
+        """Constructs the set adjusts once the members of ``group`` are out."""
+        dropped = Counter(self._of[m] for m in set(group) if m in self._held)
+        gone = {c for c, k in dropped.items() if k == self._counts[c]}
+        return self._constructs - gone if gone else self._constructs
+
+    def suffices(self, rest: frozenset[str], members: Iterable[str]) -> bool:
+        """Whether ``rest`` (constructs) with ``members`` meets the criterion."""
+        return self.check.suffices_constructs(rest | {self._of[m] for m in members})
+
+
+def needed_together(in_use: SetInUse, group: Sequence[str]) -> tuple[str, ...]:
     """Members of a collinear group that the diagram needs whichever other is kept.
 
-    Empty when some member alone, with the rest of ``base`` (the adjustment
-    set in use), gives a sufficient set (then one of them is to be kept), or
-    when the rest with the whole group is not sufficient either.  Otherwise
-    the members whose removal, with every other member kept, leaves the set
-    insufficient.  ``check`` is the caller's criterion for the diagram.
+    Empty when some member alone, with the rest of the set in use, gives a
+    sufficient set (then one of them is to be kept), or when the rest with
+    the whole group is not sufficient either.  Otherwise the members whose
+    removal, with every other member kept, leaves the set insufficient.
     """
-    rest = [m for m in base if m not in group]
-    if any(check.suffices([*rest, m]) for m in group):
+    rest = in_use.without(group)
+    if any(in_use.suffices(rest, [m]) for m in group):
         return ()
-    if not check.suffices([*rest, *group]):
+    if not in_use.suffices(rest, group):
         return ()
-    return tuple(m for m in group if not check.suffices([*rest, *(o for o in group if o != m)]))
+    return tuple(m for m in group if not in_use.suffices(rest, [o for o in group if o != m]))
 
 
 def stands_for(
