@@ -261,17 +261,8 @@ class EvidenceEngine:
         assert stats is not None
         with self._lock:
             todo: list[tuple[frozenset[str], tuple[str, ...], RowModel]] = []
-            for terms in plan:
-                key = frozenset(terms)
-                if key in self._fits or any(key == k for k, _, _ in todo):
-                    continue
-                if any(t not in self._order for t in terms):
-                    continue  # fit() says what is unbound
-                ordered = self.ordered(terms)
-                cols = self.columns(ordered)
+            for _, key, ordered, cols in self._unfitted(plan):
                 names = [design.column_names[c] for c in cols]
-                if self._precheck(ordered, len(cols) + 1):
-                    continue
                 todo.append(
                     (
                         key,
@@ -311,6 +302,27 @@ class EvidenceEngine:
                     self._record("fit", False)
                 self._fits[key] = (self._named(fit), params)
 
+    def _unfitted(
+        self, plan: Sequence[Sequence[str]]
+    ) -> list[tuple[int, frozenset[str], tuple[str, ...], list[int]]]:
+        """The models of ``plan`` that :meth:`fit_many` fits: (position in
+        ``plan``, key, ordered terms, design columns) of each model not yet
+        fitted, each once.  A model with an unbound term or a problem that
+        :meth:`_precheck` finds is left to :meth:`fit`, which says what it is."""
+        out: list[tuple[int, frozenset[str], tuple[str, ...], list[int]]] = []
+        seen: set[frozenset[str]] = set()
+        for position, terms in enumerate(plan):
+            key = frozenset(terms)
+            if key in self._fits or key in seen or any(t not in self._order for t in terms):
+                continue
+            ordered = self.ordered(terms)
+            cols = self.columns(ordered)
+            if self._precheck(ordered, len(cols) + 1):
+                continue
+            seen.add(key)
+            out.append((position, key, ordered, cols))
+        return out
+
     def _fit_many_memory(
         self, plan: Sequence[Sequence[str]], on_pass: Callable[[int], None] | None
     ) -> None:
@@ -326,16 +338,7 @@ class EvidenceEngine:
         with self._lock:
             todo: list[tuple[frozenset[str], tuple[str, ...], list[str], BatchModel]] = []
             where: list[int] = []
-            for position, terms in enumerate(plan):
-                key = frozenset(terms)
-                if key in self._fits or any(key == k for k, _, _, _ in todo):
-                    continue
-                if any(t not in self._order for t in terms):
-                    continue  # fit() says what is unbound
-                ordered = self.ordered(terms)
-                cols = self.columns(ordered)
-                if self._precheck(ordered, len(cols) + 1):
-                    continue
+            for position, key, ordered, cols in self._unfitted(plan):
                 names = ["(intercept)", *(design.column_names[c] for c in cols)]
                 idx = np.array([0, *(c + 1 for c in cols)], dtype=np.intp)
                 start = self._warm_start(ordered, names[1:], True)

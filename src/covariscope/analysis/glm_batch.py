@@ -136,12 +136,9 @@ def batch_pass(
     low = np.full(m, np.inf)
     high = np.full(m, -np.inf)
     sums = np.zeros((pairs.size, len(asked)))
-    own = {a: np.zeros((q, len(plan.own_columns(requests[a[0]][0])))) for a in asked}
-    own_work = [
-        (j, a, picks)
-        for j, a in enumerate(asked)
-        if len(picks := plan.own_columns(requests[a[0]][0]))
-    ]
+    own_work = [(j, a, plan.own_columns(requests[a[0]][0])) for j, a in enumerate(asked)]
+    own = {a: np.zeros((q, len(picks))) for _, a, picks in own_work}
+    own_work = [work for work in own_work if len(work[2])]
     rows = SCORE_ROWS if not pairs.size else max(256, min(SCORE_ROWS, PAIR_CELLS // pairs.size))
     rows = min(rows, n)
     scratch = Scratch()
