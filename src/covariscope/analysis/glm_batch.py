@@ -134,6 +134,7 @@ class _Round:
     pairs: _Pairs
     asked: list[tuple[int, bool]]
     own_work: list[tuple[int, tuple[int, bool], Index]]
+    cols: list[Index]
 
     def rows(self, start: int, stop: int) -> _Sums:
         """The sums over rows start .. stop − 1, block by block, in work arrays of its own."""
@@ -147,7 +148,11 @@ class _Round:
             np.zeros((pairs.size, len(asked))),
             {a: np.zeros((q, len(picks))) for _, a, picks in self.own_work},
         )
-        own_work = [work for work in self.own_work if len(work[2])]
+        own_work = [
+            (j, a, picks, None if 2 * len(self.cols[a[0]]) >= q else self.cols[a[0]])
+            for j, a, picks in self.own_work
+            if len(picks)
+        ]
         rows = SCORE_ROWS if not pairs.size else max(256, min(SCORE_ROWS, PAIR_CELLS // pairs.size))
         rows = max(1, min(rows, stop - start))
         scratch = Scratch()
@@ -176,8 +181,12 @@ class _Round:
                 k = products[:, : e - s]
                 pairs.fill(block.T, k)
                 out.sums += np.dot(k, wk)
-            for j, a, picks in own_work:
-                out.own[a] += np.dot(block.T, block[:, picks] * wk[:, j, None])
+            for j, a, picks, cols in own_work:
+                weighted = block[:, picks] * wk[:, j, None]
+                if cols is None:
+                    out.own[a] += np.dot(block.T, weighted)
+                else:  # a narrow model: only its own columns' rows of X'(X_O ⊙ w)
+                    out.own[a][cols] += np.dot(block[:, cols].T, weighted)
         return out
 
 
@@ -213,7 +222,8 @@ def batch_pass(
     asked = [(r, False) for r in info_at] + [(r, True) for r in meat_at]
     plan = _MatrixPlan.of([requests[r][0] for r in sorted({*info_at, *meat_at})])
     own_work = [(j, a, plan.own_columns(requests[a[0]][0])) for j, a in enumerate(asked)]
-    round_ = _Round(X, y, link, B, offset, plan.shared, asked, own_work)
+    models = [cols for cols, _ in requests]
+    round_ = _Round(X, y, link, B, offset, plan.shared, asked, own_work, models)
     parts = in_ranges(n, round_.rows)
     total = parts[0]
     for part in parts[1:]:
