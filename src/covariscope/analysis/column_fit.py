@@ -264,7 +264,7 @@ def _linear_extra(
 
     n = design.n
     E, own = _side_by_side(extra, n)
-    y = design.values.shape[1] - 1
+    y = design.outcome_index
     keep = [*cols, y]
     p, k = len(cols), E.shape[1]
     mean_e = E.mean(axis=0) if n else np.zeros(k)
