@@ -19,7 +19,7 @@ import pytest
 from covariscope.data.loading import LoadedTable, load_table
 from covariscope.model.project import load_project, project_from_dict
 from covariscope.study import run_study
-from covariscope.study.cache import StudyCache
+from covariscope.study.cache import StageCount, StudyCache
 from covariscope.study.source import TableSource
 from covariscope.views.check_json import study_to_json
 
@@ -201,11 +201,19 @@ def test_binding_a_column_reads_only_that_column(warm, rerun):
     run_study(project, table=source, cache=cache)
     cache.reset_counts()
     source.read.clear()
+    (_, narrow), *_ = cache.entries("design")
     project.diagram.update_node(node.id, column=column)
     rerun(project, source, cache)
     assert set(source.read) == {column}
     assert cache.count("rows").misses == 0  # the cross-products were extended, not recomputed
     assert cache.count("term").misses == 1
+    # The design grew in place: only the new term's columns were written, the
+    # others are the narrower design's own (neither copied nor read again).
+    *_, (_, wide) = cache.entries("design")
+    assert cache.count("column") == StageCount(
+        hits=narrow.values.shape[1], misses=wide.blocks[node.id].df
+    )
+    assert wide.values[:, : narrow.values.shape[1]].ctypes.data == narrow.values.ctypes.data
 
 
 def _has_missing(source, column) -> bool:
@@ -333,3 +341,34 @@ def test_the_cache_holds_one_copy_of_the_outcome_and_no_mask_for_a_complete_colu
         np.testing.assert_array_equal(mask, missing)
         if not missing.any():
             assert mask.strides == (0,)
+
+
+def _fits(result) -> dict[str, object]:
+    ev = result.evidence
+    fits = {"crude": ev.crude, "full": ev.full, **{f"set {k}": f for k, f in ev.sets.items()}}
+    fits |= {f"dropped {k}": f for k, f in ev.dropped_fits.items()}
+    return fits
+
+
+def test_a_grown_design_gives_a_cold_run_s_fits_to_1e_12():
+    # Binding p1 grows the design in place (its column after the outcome's) and
+    # extends the cross-products; every linear fit must equal the fit of a design
+    # built whole from the same rows, to rounding (the sums are added in another order).
+    project, table = _generated()
+    project.diagram.update_node("p1", column=None)
+    cache = StudyCache()
+    run_study(project, table=table, cache=cache)
+    project.diagram.update_node("p1", column="p1")
+    grown = run_study(project, table=table, cache=cache)
+    *_, (_, design) = cache.entries("design")
+    assert design.outcome_index < design.blocks["p1"].index[0]  # it did grow
+    cold = run_study(project, table=table, cache=StudyCache())
+    assert _fits(grown).keys() == _fits(cold).keys()
+    for name, fit in _fits(grown).items():
+        other = _fits(cold)[name]
+        assert fit.terms == other.terms, name
+        for a, b in ((fit.coef, other.coef), (fit.se, other.se), (fit.resid_sd, other.resid_sd)):
+            assert a == pytest.approx(b, rel=1e-12), name
+        assert fit.term_coefs.keys() == other.term_coefs.keys(), name
+        for k, v in fit.term_coefs.items():
+            np.testing.assert_allclose(v, other.term_coefs[k], rtol=1e-12, atol=1e-14)

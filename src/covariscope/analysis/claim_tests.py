@@ -184,12 +184,13 @@ def design_claim_data(
             types[node] = "binary"
     names = list(design.column_names)
     if design.y is not None and outcome is not None:
-        columns[outcome] = (design.values.shape[1] - 1,)
+        columns[outcome] = (design.outcome_index,)
         types[outcome] = _outcome_type(design, design.y)
-        names.append(outcome)
+        # by position: a grown design names its outcome's column ""
+        names[design.outcome_index : design.outcome_index + 1] = [outcome]
     elif design.row_stats is not None and outcome is not None:
         # Rows in their source: the outcome is the summary's last column.
-        columns[outcome] = (design.values.shape[1] - 1,)
+        columns[outcome] = (design.outcome_index,)
         stats = design.row_stats
         binary = stats.outcome_not_binary == 0
         types[outcome] = (

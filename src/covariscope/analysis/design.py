@@ -11,6 +11,7 @@ model takes its columns as views.  Categorical terms become treatment
 from __future__ import annotations
 
 import hashlib
+import threading
 from collections.abc import Callable, Mapping
 from dataclasses import dataclass, field
 from typing import Any
@@ -27,6 +28,7 @@ __all__ = [
     "TERM_TYPES",
     "Block",
     "CodedTerm",
+    "ColumnStore",
     "Design",
     "DesignBuilder",
     "Outcomes",
@@ -84,13 +86,54 @@ class Block:
         return len(self.columns)
 
 
+class ColumnStore:
+    """A column-major array with room for more columns, shared by the designs of one sample.
+
+    A design is a prefix of the store's columns.  A wider design of the
+    same rows (one more covariate bound) writes its new columns into the
+    room after the last design's and is again a prefix, so the columns
+    already written are neither copied nor read again.  A column, once
+    handed out, is never written again: a design that other threads still
+    read keeps its numbers.
+
+    Examples
+    --------
+    >>> store = ColumnStore(3, 4)
+    >>> store.take(0, 2), store.take(2, 1), store.take(2, 1), store.take(3, 2)
+    (True, True, False, False)
+    """
+
+    def __init__(self, n: int, capacity: int) -> None:
+        self.array: np.ndarray = np.empty((n, capacity), dtype=np.float64, order="F")
+        self._used = 0
+        self._lock = threading.Lock()
+
+    @property
+    def capacity(self) -> int:
+        """Columns the store can hold."""
+        return int(self.array.shape[1])
+
+    def take(self, start: int, k: int) -> bool:
+        """Hand out columns ``start … start + k − 1``: True only when they follow the
+        last columns handed out and fit (so a design ending at ``start`` may grow)."""
+        with self._lock:
+            if start != self._used or start + k > self.capacity:
+                return False
+            self._used = start + k
+            return True
+
+
 @dataclass(frozen=True, eq=False)
 class Design:
     """Numbers for every comparison model of one analytic sample.
 
     ``values`` is n × q: the exposure (column 0), the covariate columns of
-    each block in order, then the outcome when there is one.  ``key`` is a
-    digest of the numbers and the specification; results are cached by it.
+    each block, and the outcome when there is one — last, except in a
+    least-squares design grown from a narrower one (see
+    :mod:`covariscope.analysis.design_growth`), whose later covariate columns
+    follow the outcome: :attr:`outcome_index` says where it is, and each
+    block's ``index`` where its columns are.  ``key`` names the
+    specification; results are cached by it.
     """
 
     family: str
@@ -105,6 +148,8 @@ class Design:
     n: int
     key: str
     messages: tuple[str, ...] = ()
+    #: the name of each column of :attr:`values`, by position (a grown design
+    #: names its outcome's column ""; the others stop before the outcome)
     column_names: tuple[str, ...] = field(default=())
     #: covariate nodes whose column(s) take one value in every row
     constant: tuple[str, ...] = ()
@@ -121,6 +166,15 @@ class Design:
     #: a categorical exposure's levels as text, the reference first, then one
     #: per exposure column; empty for a continuous or binary exposure
     exposure_levels: tuple[str, ...] = ()
+    #: the column of :attr:`values` that holds the outcome (None: the last one)
+    outcome_at: int | None = None
+    #: the array ``values`` is a prefix of, with room for more columns (None: no room)
+    store: ColumnStore | None = None
+
+    @property
+    def outcome_index(self) -> int:
+        """The column of :attr:`values` (and of the summary) that holds the outcome."""
+        return int(self.values.shape[1] - 1) if self.outcome_at is None else self.outcome_at
 
     @property
     def exposure(self) -> np.ndarray:
@@ -638,7 +692,9 @@ class DesignBuilder:
 
     ``width`` bounds the number of exposure and covariate columns (a
     categorical term may turn out narrower on the analytic sample than its
-    levels in the file); the outcome column follows them.
+    levels in the file); the outcome column follows them.  ``spare`` more
+    columns are left as room for a wider design of the same rows (see
+    :class:`ColumnStore`; untouched, they take no memory).
 
     Examples
     --------
@@ -650,9 +706,10 @@ class DesignBuilder:
     (('x', 'z'), True)
     """
 
-    def __init__(self, n: int, *, width: int, outcome: bool) -> None:
+    def __init__(self, n: int, *, width: int, outcome: bool, spare: int = 0) -> None:
         self.n = n
-        self._values = np.empty((n, width + int(outcome)), dtype=np.float64, order="F")
+        self._store = ColumnStore(n, width + int(outcome) + spare)
+        self._values = self._store.array
         self._names: list[str] = []
         self._spans: dict[str, tuple[tuple[str, ...], tuple[int, ...]]] = {}
         self._columns: dict[str, str] = {}
@@ -708,6 +765,7 @@ class DesignBuilder:
         values = self._values[:, : q + (1 if y is not None else 0)]
         if y is not None:
             values[:, q] = y
+        self._store.take(0, values.shape[1])
         spans = self._spans
         constant = tuple(
             node for node, (_, idx) in spans.items() if any(_is_constant(values[:, j]) for j in idx)
@@ -742,6 +800,7 @@ class DesignBuilder:
             constant=constant,
             exposure_width=self._width(),
             exposure_levels=self._exposure.levels if self._width() > 1 and self._exposure else (),
+            store=self._store if self._store.capacity > values.shape[1] else None,
         )
 
     def _width(self) -> int:

@@ -405,7 +405,7 @@ class EvidenceEngine:
         k = frozenset(terms)
         with self._lock:
             if k not in self._ols:
-                outcome = self.design.values.shape[1] - 1
+                outcome = self.design.outcome_index
                 self._ols[k] = solve_ols(self.summary, self.columns(list(terms)), outcome)
             return self._ols[k]
 

@@ -14,7 +14,7 @@ from __future__ import annotations
 import hashlib
 from collections.abc import Callable, Mapping
 from dataclasses import dataclass, replace
-from typing import Any
+from typing import Any, cast
 
 import numpy as np
 import pandas as pd
@@ -30,6 +30,7 @@ from covariscope.analysis.design import (
     outcome_values,
     spline_columns,
 )
+from covariscope.analysis.design_growth import can_grow, grow_design
 from covariscope.analysis.evidence import EvidenceCancelledError
 from covariscope.analysis.families import family_of
 from covariscope.analysis.linear import LinearSummary, centred_cross, linear_summary
@@ -481,15 +482,21 @@ def _identity(
     profiles: Mapping[str, ColumnProfile],
     knots: Mapping[str, int],
 ) -> tuple[Any, ...]:
+    # One name per column of the design, by position (a grown design's outcome
+    # comes before the covariates bound after it).
     x_col = bindings.exposure_column
     x_spec = ("exposure", x_col, *_spec_of(profiles[x_col]))
-    ids: list[Any] = [(x_spec, name) for name in design.exposure_columns]
+    ids: list[Any] = [None] * design.values.shape[1]
+    for j, name in zip(design.exposure_index, design.exposure_columns, strict=True):
+        ids[j] = (x_spec, name)
     for node, col in usable:
         spec = (col, *_spec_of(profiles[col], knots.get(col, 0)))
-        ids += [(spec, name) for name in design.blocks[node].columns]
+        block = design.blocks[node]
+        for j, name in zip(block.index, block.columns, strict=True):
+            ids[j] = (spec, name)
     if design.y is not None:
         y_spec = tuple((k, c, profiles[c].type if c else None) for k, c in bindings.outcome_columns)
-        ids.append((("outcome", y_spec), ""))
+        ids[design.outcome_index] = (("outcome", y_spec), "")
     return (rows_key(source, sample), tuple(ids))
 
 
@@ -509,13 +516,17 @@ def _design(
     cols = bindings.outcomes
     key = (base, family, exposure, x_spec, specs, y_spec)
 
-    def build() -> Design:
-        def term(col: str, kind: str, ref: Any, what: str) -> CodedTerm:
-            t: CodedTerm = run.get(
-                "term", (base, col, kind, ref), lambda: _code(source, sample, col, kind, ref, what)
-            )
-            return t
+    def term(col: str, kind: str, ref: Any, what: str) -> CodedTerm:
+        t: CodedTerm = run.get(
+            "term", (base, col, kind, ref), lambda: _code(source, sample, col, kind, ref, what)
+        )
+        return t
 
+    def build() -> Design:
+        digest = hashlib.sha256(repr(key).encode()).hexdigest()
+        grown = _grown(run, key, spec, term, digest)
+        if grown is not None:
+            return grown
         outcomes: Outcomes = run.get(
             "outcomes",
             (base, family, y_spec),
@@ -526,7 +537,11 @@ def _design(
         width = _width(profiles[x_col]) + sum(
             _width(profiles[col], knots.get(col, 0)) for _, col in usable
         )
-        builder = DesignBuilder(sample.used, width=width, outcome=outcomes.y is not None)
+        # Room for a few more columns: binding a covariate grows the design in place.
+        spare = max(_SPARE, width // 2) if family_of(family).least_squares else 0
+        builder = DesignBuilder(
+            sample.used, width=width, outcome=outcomes.y is not None, spare=spare
+        )
         builder.add_exposure(x_term)
         # Each cached term becomes a view of the design as soon as it is written:
         # one copy of the numbers, even while the design is being filled.
@@ -536,15 +551,60 @@ def _design(
         for node, col, kind, ref in specs:
             builder.add(node, col, term(col, kind, ref, f"covariate {node}"))
             run.cache.replace("term", (base, col, kind, ref), builder.written(node))
-        digest = hashlib.sha256(repr(key).encode()).hexdigest()
         built = builder.build(family=family, exposure_node=exposure, outcomes=outcomes, key=digest)
         if built.y is not None:  # one copy of the outcome too: the design's column
             run.cache.replace("outcomes", (base, family, y_spec), replace(outcomes, y=built.y))
+        for _ in range(built.values.shape[1]):
+            run.cache.record("column", False)  # every column written anew
         release_freed_memory()  # the coding's temporaries, before the models' own
         return built
 
     design: Design = run.get("design", key, build)
     return design
+
+
+#: spare columns a least-squares design keeps for covariates bound later (at least)
+_SPARE = 8
+
+
+def _grown(
+    run: Run,
+    key: tuple[Any, ...],
+    spec: DesignSpec,
+    term: Callable[[str, str, Any, str], CodedTerm],
+    digest: str,
+) -> Design | None:
+    """The design grown in place from the widest earlier design of the same rows
+    whose terms it holds (one more covariate bound): only the new terms are
+    coded and written.  None when there is no such design or it has no room."""
+    specs = spec.terms
+    wanted = set(specs)
+    best: tuple[int, Design] | None = None
+    for found, old in run.cache.entries("design"):
+        old_key = cast(tuple[Any, ...], found)  # the keys _design gives
+        if old_key[:4] != key[:4] or old_key[5] != key[5] or not set(old_key[4]) < wanted:
+            continue
+        if best is None or len(old_key[4]) > best[0]:
+            best = (len(old_key[4]), old)
+    if best is None:
+        return None
+    old_design = best[1]
+    fresh = [t for t in specs if t[0] not in old_design.blocks]
+    if not fresh or not can_grow(old_design, len(fresh)):
+        return None
+    added = {
+        node: (col, term(col, kind, ref, f"covariate {node}")) for node, col, kind, ref in fresh
+    }
+    grown = grow_design(old_design, [t[0] for t in specs], added, digest)
+    if grown is not None:
+        # the columns kept in place (hits) and the only ones written (misses)
+        for j in range(grown.values.shape[1]):
+            run.cache.record("column", j < old_design.values.shape[1])
+        for node, col, kind, ref in fresh:
+            block = grown.blocks[node]
+            view = CodedTerm(block.columns, block.values, block.levels, block.raw)
+            run.cache.replace("term", (spec.rows, col, kind, ref), view)
+    return grown
 
 
 def _width(profile: ColumnProfile, knots: int = 0) -> int:
