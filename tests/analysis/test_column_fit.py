@@ -122,8 +122,34 @@ def test_warm_started_checks_make_fewer_passes(passes: list[int]) -> None:
     modification_table(design, ["c", "w"], cold_nodes, near=near)
     residual_table(design, ["c", "w"], ["c", "w"], near=near)
     # The base fit is paid once; the linear fit of the residual check, which
-    # is the recommended model itself, then takes a single pass.
+    # is the recommended model itself, is then not fitted again.
     assert passes[0] < cold
+
+
+@pytest.mark.parametrize("family", ["logistic", "cox"])
+def test_the_residual_checks_linear_model_is_the_recommended_fit_not_a_new_one(
+    family: str, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    from covariscope.analysis import splines
+
+    design = _design(family)
+    near = base_fit(design, ["c", "w"])
+    assert near is not None
+    fitted: list[list[str]] = []
+    real = splines.fit_extra
+
+    def counting(*args: Any, **kw: Any) -> Any:
+        fitted.append(list(args[3]))
+        return real(*args, **kw)
+
+    monkeypatch.setattr(splines, "fit_extra", counting)
+    warm = residual_confounding(design, ["c", "w"], "c", design.blocks["c"].values[:, 0], near=near)
+    assert len(fitted) == 1  # only the spline model
+    assert fitted[0][-1].startswith("c[spline")
+    cold = residual_confounding(design, ["c", "w"], "c", design.blocks["c"].values[:, 0])
+    assert len(fitted) == 3  # without a neighbour both models are fitted
+    assert warm.linear == pytest.approx(cold.linear, rel=1e-8)
+    assert warm.spline == pytest.approx(cold.spline, rel=1e-8)
 
 
 def test_linear_checks_from_the_design_summary_equal_the_fits_of_the_stacked_rows() -> None:

@@ -27,6 +27,7 @@ __all__ = [
     "fit_extra",
     "model_matrix",
     "near_or_base",
+    "reordered",
     "start_from",
     "takes_start",
 ]
@@ -73,6 +74,27 @@ def start_from(
     given = dict(given or {})
     head = [float(near.params[0]) + given.pop("(intercept)", 0.0)] if extra else []
     return np.array([*head, *(known.get(n, given.get(n, 0.0)) for n in names)], dtype=float)
+
+
+def reordered(near: ColumnFit, names: Sequence[str]) -> ColumnFit | None:
+    """``near`` itself when ``names`` are its columns in another order (the same
+    model: its coefficients and covariance permuted, no fit), else None.
+
+    Only an iterative fit (one that kept its parameters) is given back: a
+    linear model is solved from sums and costs nothing to solve again.
+
+    >>> near = ColumnFit(np.array([1.0, 2.0]), np.diag([0.1, 0.2]), None, ("x", "z"),
+    ...                  np.array([-1.0, 1.0, 2.0]))
+    >>> again = reordered(near, ["z", "x"])
+    >>> again.coef.tolist(), again.params.tolist(), np.diag(again.cov).tolist()
+    ([2.0, 1.0], [-1.0, 2.0, 1.0], [0.2, 0.1])
+    """
+    if near.params is None or sorted(near.names) != sorted(names) or len(set(names)) < len(names):
+        return None
+    idx = [near.names.index(name) for name in names]
+    head = len(near.params) - len(near.names)
+    params = np.concatenate([near.params[:head], near.params[head:][idx]])
+    return ColumnFit(near.coef[idx], near.cov[np.ix_(idx, idx)], None, tuple(names), params)
 
 
 class RowsBuffer:

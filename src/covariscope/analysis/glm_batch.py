@@ -33,6 +33,7 @@ import numpy.typing as npt
 from covariscope.analysis.families import GlmLink, Scratch, family_of
 from covariscope.analysis.glm_newton import GlmPath, PassRequest, Walk, newton_walk
 from covariscope.analysis.passes import GlmPass
+from covariscope.analysis.row_threads import in_ranges
 
 __all__ = ["BatchModel", "batch_pass", "newton_paths_many"]
 
@@ -99,6 +100,96 @@ class _Pairs:
             np.multiply(rows_t[j], k, out=out[offset : offset + len(k)])
 
 
+@dataclass
+class _Sums:
+    """What a round sums over a range of rows, for every model asked."""
+
+    dev: Array
+    score: Array
+    low: Array
+    high: Array
+    sums: Array
+    own: dict[tuple[int, bool], Array]
+
+    def add(self, other: _Sums) -> None:
+        """Add another range's sums to these."""
+        self.dev += other.dev
+        self.score += other.score
+        np.minimum(self.low, other.low, out=self.low)
+        np.maximum(self.high, other.high, out=self.high)
+        self.sums += other.sums
+        for a, value in other.own.items():
+            self.own[a] += value
+
+
+@dataclass(frozen=True)
+class _Round:
+    """One round's requests, summed over any range of rows."""
+
+    X: Array
+    y: Array
+    link: GlmLink
+    B: Array
+    offset: Array | None
+    pairs: _Pairs
+    asked: list[tuple[int, bool]]
+    own_work: list[tuple[int, tuple[int, bool], Index]]
+    cols: list[Index]
+
+    def rows(self, start: int, stop: int) -> _Sums:
+        """The sums over rows start .. stop − 1, block by block, in work arrays of its own."""
+        X, B, pairs, asked = self.X, self.B, self.pairs, self.asked
+        q, m = B.shape
+        out = _Sums(
+            np.zeros(m),
+            np.zeros((q, m)),
+            np.full(m, np.inf),
+            np.full(m, -np.inf),
+            np.zeros((pairs.size, len(asked))),
+            {a: np.zeros((q, len(picks))) for _, a, picks in self.own_work},
+        )
+        own_work = [
+            (j, a, picks, None if 2 * len(self.cols[a[0]]) >= q else self.cols[a[0]])
+            for j, a, picks in self.own_work
+            if len(picks)
+        ]
+        rows = SCORE_ROWS if not pairs.size else max(256, min(SCORE_ROWS, PAIR_CELLS // pairs.size))
+        rows = max(1, min(rows, stop - start))
+        scratch = Scratch()
+        products = np.empty((pairs.size, rows))
+        weights = np.empty((rows, len(asked)))
+        eta_rows = np.empty((rows, m))
+        for s in range(start, stop, rows):
+            e = min(s + rows, stop)
+            block = X[s:e]
+            eta = eta_rows[: e - s]
+            np.dot(block, B, out=eta)
+            if self.offset is not None:
+                eta += self.offset[s:e, None]
+            d, resid, w, lo, hi = self.link.columns_sums(self.y[s:e], eta, scratch)
+            out.dev += d
+            np.minimum(out.low, lo, out=out.low)
+            np.maximum(out.high, hi, out=out.high)
+            out.score += np.dot(block.T, resid)
+            wk = weights[: e - s]
+            for j, (r, is_meat) in enumerate(asked):
+                if is_meat:
+                    np.square(resid[:, r], out=wk[:, j])
+                else:
+                    wk[:, j] = w[:, r]
+            if pairs.size:
+                k = products[:, : e - s]
+                pairs.fill(block.T, k)
+                out.sums += np.dot(k, wk)
+            for j, a, picks, cols in own_work:
+                weighted = block[:, picks] * wk[:, j, None]
+                if cols is None:
+                    out.own[a] += np.dot(block.T, weighted)
+                else:  # a narrow model: only its own columns' rows of X'(X_O ⊙ w)
+                    out.own[a][cols] += np.dot(block[:, cols].T, weighted)
+        return out
+
+
 def batch_pass(
     X: Array,
     y: Array,
@@ -130,56 +221,35 @@ def batch_pass(
     meat_at = [r for r, (_, req) in enumerate(requests) if req.meat]
     asked = [(r, False) for r in info_at] + [(r, True) for r in meat_at]
     plan = _MatrixPlan.of([requests[r][0] for r in sorted({*info_at, *meat_at})])
-    pairs = plan.shared
-    dev = np.zeros(m)
-    score = np.zeros((q, m))
-    low = np.full(m, np.inf)
-    high = np.full(m, -np.inf)
-    sums = np.zeros((pairs.size, len(asked)))
     own_work = [(j, a, plan.own_columns(requests[a[0]][0])) for j, a in enumerate(asked)]
-    own = {a: np.zeros((q, len(picks))) for _, a, picks in own_work}
-    own_work = [work for work in own_work if len(work[2])]
-    rows = SCORE_ROWS if not pairs.size else max(256, min(SCORE_ROWS, PAIR_CELLS // pairs.size))
-    rows = min(rows, n)
-    scratch = Scratch()
-    products = np.empty((pairs.size, rows))
-    weights = np.empty((rows, len(asked)))
-    eta_rows = np.empty((rows, m))
-    for s in range(0, n, rows):
-        e = min(s + rows, n)
-        block = X[s:e]
-        eta = eta_rows[: e - s]
-        np.dot(block, B, out=eta)
-        if offset is not None:
-            eta += offset[s:e, None]
-        d, resid, w, lo, hi = link.columns_sums(y[s:e], eta, scratch)
-        dev += d
-        np.minimum(low, lo, out=low)
-        np.maximum(high, hi, out=high)
-        score += np.dot(block.T, resid)
-        wk = weights[: e - s]
-        for j, (r, is_meat) in enumerate(asked):
-            if is_meat:
-                np.square(resid[:, r], out=wk[:, j])
-            else:
-                wk[:, j] = w[:, r]
-        if pairs.size:
-            k = products[:, : e - s]
-            pairs.fill(block.T, k)
-            sums += np.dot(k, wk)
-        for j, a, picks in own_work:
-            own[a] += np.dot(block.T, block[:, picks] * wk[:, j, None])
+    models = [cols for cols, _ in requests]
+    round_ = _Round(X, y, link, B, offset, plan.shared, asked, own_work, models)
+    parts = in_ranges(n, round_.rows)
+    total = parts[0]
+    for part in parts[1:]:
+        total.add(part)
     out: list[GlmPass] = []
     column = {a: j for j, a in enumerate(asked)}
 
     def formed(r: int, is_meat: bool) -> Array:
-        return plan.matrix(requests[r][0], sums[:, column[(r, is_meat)]], own[(r, is_meat)])
+        return plan.matrix(
+            requests[r][0], total.sums[:, column[(r, is_meat)]], total.own[(r, is_meat)]
+        )
 
     for r, (cols, req) in enumerate(requests):
         info = formed(r, False) if req.info else None
         meat = formed(r, True) if req.meat else None
-        deviance = float(dev[r]) + (2.0 * ylogy if ylogy else 0.0)
-        out.append(GlmPass(deviance, score[cols, r], info, meat, float(low[r]), float(high[r])))
+        deviance = float(total.dev[r]) + (2.0 * ylogy if ylogy else 0.0)
+        out.append(
+            GlmPass(
+                deviance,
+                total.score[cols, r],
+                info,
+                meat,
+                float(total.low[r]),
+                float(total.high[r]),
+            )
+        )
     return out
 
 

@@ -5,8 +5,8 @@ A Newton (IRLS) step of a logistic or log-link Poisson model at coefficients
 robust (sandwich) standard errors of the Poisson model need X' diag((y − μ)²) X
 as well.  `glm_pass` computes all of them in one read of the rows, block by
 block, so that each block of X is fetched from memory once and used while it
-is in the processor cache (the cores are used by BLAS itself, never by
-Python threads around it).  A model that uses only some columns of a wider
+is in the processor cache; a long pass is cut into ranges of rows summed on
+threads of their own (:mod:`covariscope.analysis.row_threads`).  A model that uses only some columns of a wider
 matrix names them (``cols``) and is never copied as a whole.
 
 This function is the seam for other data sources: a source that cannot hold
@@ -25,6 +25,7 @@ import numpy.typing as npt
 
 from covariscope.analysis.families import GlmLink, family_of
 from covariscope.analysis.fitting_common import CHUNK_ROWS
+from covariscope.analysis.row_threads import in_ranges
 
 __all__ = ["BLOCK_CELLS", "GlmPass", "glm_pass"]
 
@@ -108,11 +109,34 @@ def glm_pass(
             res.mu_low,
             res.mu_high,
         )
-    res = _pass_rows(X, y, family_of(family).glm, beta, cols, offset, info, meat, 0, n)
+    link = family_of(family).glm
+
+    def rows(start: int, stop: int) -> GlmPass:
+        return _pass_rows(X, y, link, beta, cols, offset, info, meat, start, stop)
+
+    parts = in_ranges(n, rows)
+    res = parts[0] if len(parts) == 1 else _added(parts)
     if not ylogy:
         return res
     return GlmPass(
         res.deviance + 2.0 * ylogy, res.score, res.info, res.meat, res.mu_low, res.mu_high
+    )
+
+
+def _added(parts: list[GlmPass]) -> GlmPass:
+    """The sums of several ranges' passes."""
+
+    def total(values: list[Array | None]) -> Array | None:
+        held = [v for v in values if v is not None]
+        return np.sum(held, axis=0) if held else None
+
+    return GlmPass(
+        math.fsum(part.deviance for part in parts),
+        np.sum([part.score for part in parts], axis=0),
+        total([part.info for part in parts]),
+        total([part.meat for part in parts]),
+        min(part.mu_low for part in parts),
+        max(part.mu_high for part in parts),
     )
 
 

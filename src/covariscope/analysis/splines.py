@@ -23,6 +23,7 @@ from covariscope.analysis.column_fit import (
     RowsBuffer,
     fit_extra,
     near_or_base,
+    reordered,
     start_from,
     takes_start,
 )
@@ -111,7 +112,12 @@ def residual_confounding(
     start = None if near is None else start_from(near, lin_names, given=same)
     if on_fit is not None:
         on_fit()
-    linear = fit_extra(design, cols, [raw], lin_names, start=start, summary=summary, rows=rows)
+    # A node that enters linearly makes the linear model the one ``near`` already
+    # is, its columns in another order: no need to fit it again.
+    same_model = None if block.raw is not None or near is None else reordered(near, lin_names)
+    linear = same_model or fit_extra(
+        design, cols, [raw], lin_names, start=start, summary=summary, rows=rows
+    )
     if isinstance(linear, str):
         return ResidualCheck(node, knots, nan, nan, nan, False, linear)
     spl_names = [*names, *(f"{node}[spline {j + 1}]" for j in range(basis.shape[1]))]
