@@ -269,7 +269,7 @@ def _linear_extra(
     *,
     consume: bool = False,
 ) -> ColumnFit | str:
-    from covariscope.analysis.linear import centred_cross, solve_ols
+    from covariscope.analysis.linear import centred_products, solve_ols
 
     n = design.n
     E, own = _side_by_side(extra, n)
@@ -279,15 +279,13 @@ def _linear_extra(
     mean_e = E.mean(axis=0) if n else np.zeros(k)
     if own or consume:  # centred where they lie: the same numbers, no second copy
         E -= mean_e
-        square = np.dot(E.T, E)  # np.dot, not @: fitting_common's docstring
-        centre = None
-    else:
-        centred = E - mean_e
-        square = np.dot(centred.T, centred)
-        del centred  # the cross-products centre E a block at a time: not two copies at once
-        centre = mean_e
+    else:  # the caller's own columns, kept (no caller of the analysis does so)
+        E = E - mean_e
+    square = np.dot(E.T, E)  # np.dot, not @: fitting_common's docstring
+    # one product with the design's columns as they lie (see centred_products)
+    sd = np.sqrt(np.diag(summary.comoment)[keep] / max(n, 1))
     cross = (
-        centred_cross(design.values, summary.mean[keep], E, keep, centre=centre)
+        centred_products(design.values, summary.mean[keep], sd, E, keep)
         if k
         else np.zeros((p + 1, 0))
     )

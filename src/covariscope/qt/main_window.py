@@ -88,6 +88,8 @@ class MainWindow(QMainWindow):
         self.prompts = prompts or Prompts(self)
         self.result: StudyResult | None = None
         self.selected_ids: list[str] = []
+        #: while an edit is pushed: what its events asked for ("refresh", "analyse")
+        self._held: set[str] | None = None
         self.dialogs: dict[str, NodeDialog] = {}
         self.runner = AnalysisRunner(
             lambda: self.project, run=run, debounce_ms=debounce_ms, parent=self
@@ -298,8 +300,38 @@ class MainWindow(QMainWindow):
         return self.io.open(str(write_demo(demo_folder())))
 
     def push(self, command: Command) -> bool:
-        """Apply an edit through the undo stack; a refused edit shows its message."""
-        return push(self.undo_stack, command, self._refused)
+        """Apply an edit through the undo stack; a refused edit shows its message.
+
+        The panels are refreshed, and an analysis asked for, once for the
+        whole edit: a macro (the columns bound when data load, a paste, a
+        deletion with its arrows) sends one model event per part, and a
+        refresh of every panel per event held the GUI thread 40 ms and more.
+        """
+        if self._held is not None:  # an edit pushed while another is applied
+            return push(self.undo_stack, command, self._refused)
+        self._held = set()
+        try:
+            return push(self.undo_stack, command, self._refused)
+        finally:
+            held, self._held = self._held, None
+            if "refresh" in held:
+                self.refresh_panels()
+            if "analyse" in held:
+                self.request_analysis()
+
+    def _refresh_soon(self) -> None:
+        """Refresh the panels now, or once the edit being pushed is applied."""
+        if self._held is None:
+            self.refresh_panels()
+        else:
+            self._held.add("refresh")
+
+    def _analyse_soon(self) -> None:
+        """Ask for an analysis now, or once the edit being pushed is applied."""
+        if self._held is None:
+            self.request_analysis()
+        else:
+            self._held.add("analyse")
 
     def _refused(self, message: str) -> None:
         self.show_message(message)
@@ -309,21 +341,21 @@ class MainWindow(QMainWindow):
     def _model_changed(self, event: Any) -> None:
         if event.kind == "node_changed" and set(event.changes) <= PLACE_FIELDS:
             return  # the canvas moves the node itself; no panel shows where it sits
-        self.refresh_panels()
+        self._refresh_soon()
         if event.kind == "node_changed" and set(event.changes) <= LAYOUT_FIELDS:
             return  # where a node sits and what its note says change no number
-        self.request_analysis()
+        self._analyse_soon()
 
     def _project_changed(self, event: Any) -> None:
         if event.kind == "settings":
             self.data.reprofile()
             self.actions_.sync_family(self.project.analysis.family)
-        self.refresh_panels()
+        self._refresh_soon()
         table = self.data.table
         moved = table is not None and self.project.data_path() != Path(table.path)
         if event.kind == "data" and moved:
             self.data.forget()
-        self.request_analysis()
+        self._analyse_soon()
 
     def request_analysis(self) -> None:
         if self.project.diagram.exposure is None or self.project.diagram.outcome is None:

@@ -94,6 +94,12 @@ class ProjectIO(QObject):
         self.autosave_timer.setInterval(AUTOSAVE_MS)
         self.autosave_timer.timeout.connect(self.autosave)
         self.autosave_timer.start()
+        #: recent files not yet written to the settings (see add_recent)
+        self._recent_unsaved: list[str] | None = None
+        self._recent_writer = QTimer(self)
+        self._recent_writer.setSingleShot(True)
+        self._recent_writer.setInterval(0)
+        self._recent_writer.timeout.connect(self.write_recent)
         window.undo_stack.cleanChanged.connect(lambda _clean: self.update_title())
 
     # -- state ---------------------------------------------------------------------
@@ -192,17 +198,36 @@ class ProjectIO(QObject):
 
     # -- recent files ---------------------------------------------------------------
     def recent_files(self) -> list[str]:
+        if self._recent_unsaved is not None:
+            return list(self._recent_unsaved)
         value: Any = QSettings().value("recent_files", [])
         if isinstance(value, str):
             value = [value]
         return [str(v) for v in (value or [])]
 
     def add_recent(self, path: str) -> None:
+        """Put ``path`` at the head of the recent files; written in the next
+        turn of the event loop.
+
+        Writing the settings file syncs it to disk twice (``fdatasync``) and
+        PySide keeps the interpreter lock meanwhile: on a busy disk that
+        held the GUI thread for tens of milliseconds in the same turn as
+        opening the project (measured in benchmarks/gui_storm.py).
+        """
         files = [path, *[p for p in self.recent_files() if p != path]][:MAX_RECENT]
-        QSettings().setValue("recent_files", files)
+        self._recent_unsaved = files
+        self._recent_writer.start()
         self.recent_changed.emit()
 
+    def write_recent(self) -> None:
+        """Write the recent files not yet written (at once; on close too)."""
+        self._recent_writer.stop()
+        files, self._recent_unsaved = self._recent_unsaved, None
+        if files is not None:
+            QSettings().setValue("recent_files", files)
+
     def forget_recent(self, path: str) -> None:
+        self.write_recent()
         QSettings().setValue("recent_files", [p for p in self.recent_files() if p != path])
         self.recent_changed.emit()
 
@@ -251,6 +276,8 @@ class ProjectIO(QObject):
         return recovered
 
     def shutdown(self) -> None:
-        """A clean close: stop autosaving and remove this window's recovery file."""
+        """A clean close: stop autosaving, write the recent files, remove this
+        window's recovery file."""
         self.autosave_timer.stop()
+        self.write_recent()
         recovery.discard(recovery.recovery_path(recovery_folder()))
