@@ -9,11 +9,13 @@ memory): the basis has ``k − 1`` columns, which VIF and GVIF treat as one term
 
 :func:`spline_basis` performs patsy's arithmetic step for step, so its basis
 equals ``patsy.cr(..., constraints="center")`` to the last bit (the tests
-compare them), but it never holds the unconstrained basis whole: it builds it
-a block of rows at a time, once for the centring constraint and once for the
-product with the constraint's null space, instead of twice in full through
-``n × k`` temporaries.  At a million rows it is two to three times faster than
-patsy and needs little more memory than the basis it returns.
+compare them), without patsy's ``n × k`` temporaries: the unconstrained basis
+is built once, a block of rows at a time, into one ``n × k`` buffer while its
+column means (the centring constraint) are summed, and the constrained basis
+is then written over that same buffer, block after block (each block's
+product is taken before its rows are overwritten, and it only ever covers
+rows already read).  It needs the memory of one column more than the basis
+it returns, which lives in that buffer.
 """
 
 from __future__ import annotations
@@ -73,10 +75,10 @@ def spline_basis(x: np.ndarray, knots: int) -> np.ndarray:
 
 
 class _FreeBasis:
-    """The unconstrained basis (n × k), a block of rows at a time, with the
-    operations of patsy's ``_get_free_crs_dmatrix`` in the same order (a
-    value's row depends on that value alone); never held whole, so the
-    spline costs the memory of its constrained basis and of one block."""
+    """The unconstrained basis (n × k), built a block of rows at a time with
+    the operations of patsy's ``_get_free_crs_dmatrix`` in the same order (a
+    value's row depends on that value alone) into one n × k buffer, which
+    the constrained basis then overwrites (`times`)."""
 
     def __init__(self, x: np.ndarray, knots: np.ndarray) -> None:
         self.x = x
@@ -85,14 +87,17 @@ class _FreeBasis:
         # is gathered from a contiguous copy of F's column, and the identity's
         # entries (exactly 1.0 or 0.0) are j == c: the same numbers, faster
         self.second = [np.ascontiguousarray(col) for col in _natural_second_derivatives(knots).T]
+        self.memory = np.empty(x.size * knots.size)
+        self.built = False
 
     def rows(self, at: int) -> np.ndarray:
-        """Rows ``at`` onwards, one block of them (row-major)."""
+        """Rows ``at`` onwards, one block of them (row-major), built into the buffer."""
         below, above, curve_below, curve_above, j = _base_functions(
             self.x[at : at + _BLOCK_ROWS], self.knots
         )
         j1 = j + 1
-        block = np.empty((len(j), self.knots.size))
+        k = self.knots.size
+        block = self.memory[at * k : (at + len(j)) * k].reshape((len(j), k))
         for c, second in enumerate(self.second):
             block[:, c] = (
                 below * (j == c)
@@ -103,21 +108,29 @@ class _FreeBasis:
         return block
 
     def column_means(self) -> np.ndarray:
-        """``free.mean(axis=0)`` to the last bit: numpy adds a row-major array's
-        rows one after another down axis 0, so the running sum is carried into
-        each block as its first row."""
+        """``free.mean(axis=0)`` to the last bit, building the basis on the way:
+        numpy adds a row-major array's rows one after another down axis 0, so
+        the running sum is carried into each block as its first row."""
         total = np.add.reduce(self.rows(0), axis=0)
         for at in range(_BLOCK_ROWS, self.x.size, _BLOCK_ROWS):
             total = np.add.reduce(np.vstack((total, self.rows(at))), axis=0)
+        self.built = True
         return np.asarray(total / self.x.size)
 
     def times(self, right: np.ndarray) -> np.ndarray:
-        """``free @ right`` (n × m, row-major), a block of rows at a time."""
-        out = np.empty((self.x.size, right.shape[1]))
-        for at in range(0, self.x.size, _BLOCK_ROWS):
-            block = self.rows(at)
-            out[at : at + len(block)] = np.dot(block, right)
-        return out
+        """``free @ right`` (n × m, row-major, m ≤ k), a block of rows at a
+        time, written over the buffer: block ``[a, b)``'s product fills
+        entries ``[a·m, b·m)``, which hold only rows before ``b`` of the
+        unconstrained basis, all of them read by then.  The buffer is
+        spent: the basis is built once."""
+        assert self.built, "column_means builds the basis first"
+        n, k, m = self.x.size, self.knots.size, right.shape[1]
+        for at in range(0, n, _BLOCK_ROWS):
+            stop = min(at + _BLOCK_ROWS, n)
+            block = self.memory[at * k : stop * k].reshape((stop - at, k))
+            self.memory[at * m : stop * m] = np.dot(block, right).ravel()
+        self.built = False
+        return self.memory[: n * m].reshape((n, m))
 
 
 def _base_functions(
