@@ -6,7 +6,13 @@ import numpy as np
 import pytest
 import statsmodels.api as sm
 
-from covariscope.analysis.linear import centred_cross, linear_summary, merge_summaries, solve_ols
+from covariscope.analysis.linear import (
+    centred_cross,
+    centred_products,
+    linear_summary,
+    merge_summaries,
+    solve_ols,
+)
 
 
 @pytest.fixture(scope="module")
@@ -118,3 +124,33 @@ def test_centred_cross_centres_raw_columns_on_the_way_to_the_same_bits() -> None
     np.testing.assert_array_equal(got, expected)
     centred = centred_cross(values, mean[cols], extra - centre, cols, chunk_rows=300)
     np.testing.assert_array_equal(got, centred)
+
+
+def test_centred_products_read_the_design_as_it_lies_and_keep_every_digit() -> None:
+    # Reference: each co-moment summed exactly (math.fsum) over explicitly centred
+    # columns.  The column 1e8 + N(0, 1) would lose eight digits to its mean in a
+    # product of raw values: it must be crossed centred.
+    import math
+
+    rng = np.random.default_rng(12)
+    n = 4000
+    values = np.asfortranarray(
+        np.column_stack(
+            [
+                rng.normal(size=n),
+                3.0 * rng.normal(size=n) + 2.0,
+                rng.normal(size=n) + 1e8,
+                (rng.random(n) > 0.3).astype(float),
+            ]
+        )
+    )
+    extra = 0.5 * values[:, [0, 2]] + rng.normal(size=(n, 2)) + [4.0, -1.0]
+    centred = extra - extra.mean(axis=0)
+    mean, sd = values.mean(axis=0), values.std(axis=0)
+    cols = [3, 0, 2]
+    got = centred_products(values, mean[cols], sd[cols], centred, cols)
+    for i, c in enumerate(cols):
+        for j in range(2):
+            exact = math.fsum((values[:, c] - mean[c]) * centred[:, j])
+            scale = n * sd[c] * centred[:, j].std()
+            assert got[i, j] == pytest.approx(exact, abs=1e-13 * scale), (c, j)

@@ -34,6 +34,7 @@ from covariscope.analysis.families.risk_ratio import PoissonLink
 ROW_FUNCTIONS = [
     (passes, "_pass_rows"),
     (linear, "centred_cross"),
+    (linear, "centred_products"),
     (linear, "linear_summary"),
     (fitting_common, "_crossprod_rows"),
     (rows, "_sums_of"),

@@ -95,3 +95,23 @@ def test_no_rows_left_names_the_columns_responsible():
         message
     )
     assert "'w'" not in message
+
+
+def test_a_sample_widened_by_complete_columns_equals_one_counted_afresh():
+    # Reference: complete_cases counting every mask, the complete ones included.
+    import numpy as np
+
+    from covariscope.data.sample import complete_cases, with_complete_columns
+
+    rng = np.random.default_rng(4)
+    masks = {c: rng.random(500) < p for c, p in (("y", 0.05), ("x", 0.1), ("a", 0.0))}
+    masks["b"] = np.zeros(500, dtype=bool)
+    narrow = complete_cases({c: masks[c] for c in ("y", "x", "a")}, 500)
+    for columns in (("y", "x", "a", "b"), ("y", "x", "b"), ("b", "y", "x")):
+        wide = with_complete_columns(narrow, columns)
+        fresh = complete_cases({c: masks[c] for c in columns}, 500)
+        np.testing.assert_array_equal(wide.keep, fresh.keep)
+        assert (wide.columns, wide.used, wide.message) == (fresh.columns, fresh.used, fresh.message)
+        assert wide.missing_by_column == fresh.missing_by_column
+        assert wide.lost_by_column == fresh.lost_by_column
+        assert wide.lost_to_several == fresh.lost_to_several

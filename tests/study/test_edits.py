@@ -207,6 +207,9 @@ def test_binding_a_column_reads_only_that_column(warm, rerun):
     assert set(source.read) == {column}
     assert cache.count("rows").misses == 0  # the cross-products were extended, not recomputed
     assert cache.count("term").misses == 1
+    # A column that misses no value (its profile says so) drops no row: the
+    # sample is the earlier one, and no missing-value mask is read at all.
+    assert cache.count("missing").misses == 0
     # The design grew in place: only the new term's columns were written, the
     # others are the narrower design's own (neither copied nor read again).
     *_, (_, wide) = cache.entries("design")
@@ -372,3 +375,22 @@ def test_a_grown_design_gives_a_cold_run_s_fits_to_1e_12():
         assert fit.term_coefs.keys() == other.term_coefs.keys(), name
         for k, v in fit.term_coefs.items():
             np.testing.assert_allclose(v, other.term_coefs[k], rtol=1e-12, atol=1e-14)
+
+
+def test_binding_a_column_with_missing_values_shrinks_the_sample_and_rebuilds_the_design(
+    rerun,
+):
+    # The rows change, so no earlier number of the others can be kept: every
+    # column is read and written again, and the answer is a fresh run's.
+    project, table = _generated()
+    source = LoggingSource(table)
+    project.diagram.update_node("c3", column=None)
+    cache = StudyCache()
+    before = run_study(project, table=source, cache=cache)
+    cache.reset_counts()
+    project.diagram.update_node("c3", column="c3")
+    after = rerun(project, source, cache)
+    assert after.sample.used == before.sample.used - 40
+    assert cache.count("missing").misses == 1  # the new column's mask; the others' are kept
+    assert cache.count("column").hits == 0
+    assert cache.count("rows").misses == 1  # the cross-products of the new rows

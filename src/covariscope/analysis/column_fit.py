@@ -17,12 +17,14 @@ import numpy as np
 
 from covariscope.analysis.design import Design
 from covariscope.analysis.families import Fitter, family_of
+from covariscope.analysis.fits import Fit
 from covariscope.analysis.linear import LinearSummary
 
 __all__ = [
     "ColumnFit",
     "RowsBuffer",
     "base_fit",
+    "column_fit_of",
     "fit_columns",
     "fit_extra",
     "model_matrix",
@@ -207,6 +209,13 @@ def fit_columns(
             offset=design.offset,
             start=start,
         )
+    return column_fit_of(fit, params, names)
+
+
+def column_fit_of(fit: Fit, params: np.ndarray | None, names: Sequence[str]) -> ColumnFit | str:
+    """The :class:`ColumnFit` of an iterative model's :class:`Fit` (columns
+    ``names``, exposure first; ``params`` every fitted parameter), or the
+    reason it could not be fitted."""
     if not fit.ok or fit.cov is None:
         return fit.message or "the model could not be fitted"
     coef = np.array([fit.coefficient(n) for n in names], dtype=float)
@@ -260,7 +269,7 @@ def _linear_extra(
     *,
     consume: bool = False,
 ) -> ColumnFit | str:
-    from covariscope.analysis.linear import centred_cross, solve_ols
+    from covariscope.analysis.linear import centred_products, solve_ols
 
     n = design.n
     E, own = _side_by_side(extra, n)
@@ -270,15 +279,13 @@ def _linear_extra(
     mean_e = E.mean(axis=0) if n else np.zeros(k)
     if own or consume:  # centred where they lie: the same numbers, no second copy
         E -= mean_e
-        square = np.dot(E.T, E)  # np.dot, not @: fitting_common's docstring
-        centre = None
-    else:
-        centred = E - mean_e
-        square = np.dot(centred.T, centred)
-        del centred  # the cross-products centre E a block at a time: not two copies at once
-        centre = mean_e
+    else:  # the caller's own columns, kept (no caller of the analysis does so)
+        E = E - mean_e
+    square = np.dot(E.T, E)  # np.dot, not @: fitting_common's docstring
+    # one product with the design's columns as they lie (see centred_products)
+    sd = np.sqrt(np.diag(summary.comoment)[keep] / max(n, 1))
     cross = (
-        centred_cross(design.values, summary.mean[keep], E, keep, centre=centre)
+        centred_products(design.values, summary.mean[keep], sd, E, keep)
         if k
         else np.zeros((p + 1, 0))
     )

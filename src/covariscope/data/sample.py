@@ -25,6 +25,7 @@ __all__ = [
     "complete_cases",
     "no_rows_error",
     "summary_text",
+    "with_complete_columns",
 ]
 
 
@@ -106,6 +107,33 @@ def complete_cases(missing: Mapping[str, np.ndarray], rows: int) -> CompleteCase
         lost_by_column=lost_by_column,
         lost_to_several=lost_to_several,
         message=summary_text(rows, used, lost_by_column, lost_to_several, len(chosen)),
+    )
+
+
+def with_complete_columns(sample: CompleteCases, columns: Sequence[str]) -> CompleteCases:
+    """The complete cases on ``columns`` — those of ``sample``, some added or
+    left out, where each one added or left out misses no value — without a
+    pass over any row: a column that misses nothing drops no row, so the
+    rows kept and every other count stay.
+
+    Examples
+    --------
+    >>> cc = complete_cases({"y": np.array([False, True]), "x": np.array([False, False])}, 2)
+    >>> wider = with_complete_columns(cc, ["y", "x", "z"])
+    >>> wider.keep is cc.keep, wider.missing_by_column, wider.lost_by_column
+    (True, {'y': 1, 'x': 0, 'z': 0}, {'y': 1, 'x': 0, 'z': 0})
+    """
+    chosen = tuple(dict.fromkeys(columns))
+    lost = {c: sample.lost_by_column.get(c, 0) for c in chosen}
+    return CompleteCases(
+        keep=sample.keep,
+        rows=sample.rows,
+        used=sample.used,
+        columns=chosen,
+        missing_by_column={c: sample.missing_by_column.get(c, 0) for c in chosen},
+        lost_by_column=lost,
+        lost_to_several=sample.lost_to_several,
+        message=summary_text(sample.rows, sample.used, lost, sample.lost_to_several, len(chosen)),
     )
 
 

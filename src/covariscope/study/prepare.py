@@ -33,11 +33,11 @@ from covariscope.analysis.design import (
 from covariscope.analysis.design_growth import can_grow, grow_design
 from covariscope.analysis.evidence import EvidenceCancelledError
 from covariscope.analysis.families import family_of
-from covariscope.analysis.linear import LinearSummary, centred_cross, linear_summary
+from covariscope.analysis.linear import LinearSummary, centred_products, linear_summary
 from covariscope.data.coerce import coerce_column
 from covariscope.data.heap import release_freed_memory
 from covariscope.data.profile import ColumnProfile, check_settings_columns, profile_column
-from covariscope.data.sample import CompleteCases, complete_cases
+from covariscope.data.sample import CompleteCases, complete_cases, with_complete_columns
 from covariscope.model.project import Project
 from covariscope.study.cache import StudyCache
 from covariscope.study.degenerate import check_question_columns, usable_covariates
@@ -314,12 +314,43 @@ def _hashable(value: Any) -> Any:
     return value
 
 
-def _sample(run: Run, source: ColumnSource, columns: tuple[str, ...]) -> CompleteCases:
-    masks = {c: _missing(run, source, c) for c in columns}
-    sample: CompleteCases = run.get(
-        "sample", (source.digest, columns), lambda: complete_cases(masks, source.rows)
-    )
+def _sample(
+    run: Run,
+    source: ColumnSource,
+    columns: tuple[str, ...],
+    profiles: Mapping[str, ColumnProfile],
+) -> CompleteCases:
+    def compute() -> CompleteCases:
+        wider = _wider_sample(run, source, columns, profiles)
+        if wider is not None:
+            return wider
+        masks = {c: _missing(run, source, c) for c in columns}
+        return complete_cases(masks, source.rows)
+
+    sample: CompleteCases = run.get("sample", (source.digest, columns), compute)
     return sample
+
+
+def _wider_sample(
+    run: Run,
+    source: ColumnSource,
+    columns: tuple[str, ...],
+    profiles: Mapping[str, ColumnProfile],
+) -> CompleteCases | None:
+    """An earlier sample whose columns differ from ``columns`` only by columns
+    that miss no value (a new one's profile says so): the same rows, with no
+    pass over any mask."""
+    chosen = set(columns)
+    for found, earlier in reversed(run.cache.entries("sample")):
+        digest, cols = cast(tuple[str, tuple[str, ...]], found)
+        if digest != source.digest:
+            continue
+        added, dropped = chosen - set(cols), set(cols) - chosen
+        if all(profiles[c].missing == 0 for c in added) and not any(
+            earlier.missing_by_column[c] for c in dropped
+        ):
+            return with_complete_columns(earlier, columns)
+    return None
 
 
 def _missing(run: Run, source: ColumnSource, column: str) -> np.ndarray:
@@ -434,7 +465,7 @@ def prepare_design(
     columns = tuple(
         dict.fromkeys([*outcome_cols, bindings.exposure_column, *(c for _, c in usable)])
     )
-    sample = _sample(run, source, columns)
+    sample = _sample(run, source, columns, profiles)
     knots = {c: k for c, k in project.analysis.spline_knots.items() if k}
     spec = _spec(source, sample, family, exposure, bindings, usable, profiles, knots)
     design = _design(run, source, sample, spec, bindings, usable, profiles, knots)
@@ -654,12 +685,16 @@ def _extend(
     pos = [where[ids[j]] for j in known]
     mean[known] = old.mean[pos]
     comoment[np.ix_(known, known)] = old.comoment[np.ix_(pos, pos)]
-    values = design.values
-    for j in fresh:
-        mean[j] = float(values[:, j].mean())
     if fresh:
-        # one pass crosses every new column with the whole design
-        rows = centred_cross(values, mean, values[:, fresh] - mean[fresh])
+        # one pass crosses the new columns with the whole design, as it lies
+        values = design.values
+        centred = values[:, fresh]  # a copy: centred where it lies
+        mean[fresh] = centred.mean(axis=0)
+        centred -= mean[fresh]
+        sd = np.full(q, np.inf)  # the new columns' own squares are replaced below
+        sd[known] = np.sqrt(np.diag(old.comoment)[pos] / max(design.n, 1))
+        rows = centred_products(values, mean, sd, centred)
+        rows[fresh] = np.dot(centred.T, centred)
         comoment[:, fresh] = rows
         comoment[fresh, :] = rows.T
     return LinearSummary(design.n, mean, comoment)
