@@ -17,12 +17,14 @@ import numpy as np
 
 from covariscope.analysis.design import Design
 from covariscope.analysis.families import Fitter, family_of
+from covariscope.analysis.fits import Fit
 from covariscope.analysis.linear import LinearSummary
 
 __all__ = [
     "ColumnFit",
     "RowsBuffer",
     "base_fit",
+    "column_fit_of",
     "fit_columns",
     "fit_extra",
     "model_matrix",
@@ -207,6 +209,13 @@ def fit_columns(
             offset=design.offset,
             start=start,
         )
+    return column_fit_of(fit, params, names)
+
+
+def column_fit_of(fit: Fit, params: np.ndarray | None, names: Sequence[str]) -> ColumnFit | str:
+    """The :class:`ColumnFit` of an iterative model's :class:`Fit` (columns
+    ``names``, exposure first; ``params`` every fitted parameter), or the
+    reason it could not be fitted."""
     if not fit.ok or fit.cov is None:
         return fit.message or "the model could not be fitted"
     coef = np.array([fit.coefficient(n) for n in names], dtype=float)

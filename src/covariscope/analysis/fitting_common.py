@@ -42,6 +42,7 @@ __all__ = [
     "inverse_from_cholesky",
     "newton_done",
     "rank_message",
+    "spread_problem",
     "too_few_rows",
     "upper_cholesky",
     "weighted_crossprod",
@@ -198,6 +199,12 @@ def design_problem(X: Array, names: list[str], *, skip: int) -> str:
     # when it holds a NaN or an infinity, and zero when the column is constant.
     with np.errstate(invalid="ignore"):  # inf − inf is NaN, as wanted
         spread = np.ptp(X, axis=0)
+    return spread_problem(spread, X[0], names, skip=skip)
+
+
+def spread_problem(spread: Array, first: Array, names: list[str], *, skip: int) -> str:
+    """`design_problem` from each column's range (max − min) and first row:
+    the models of a table that share columns read the rows once for all."""
     bad = ~np.isfinite(spread)
     if bad.any():
         cols = ", ".join(names[j] for j in np.flatnonzero(bad))
@@ -205,7 +212,7 @@ def design_problem(X: Array, names: list[str], *, skip: int) -> str:
     const = np.flatnonzero(spread == 0.0)
     const = const[const >= skip]
     if const.size:
-        cols = ", ".join(f"{names[j]} (always {X[0, j]:g})" for j in const)
+        cols = ", ".join(f"{names[j]} (always {first[j]:g})" for j in const)
         return (
             f"Constant column: {cols} has the same value in every row of the analytic "
             "sample, so its effect cannot be estimated. Remove it from the model."

@@ -55,6 +55,7 @@ __all__ = [
     "glm_fit_from_path",
     "information_and_score",
     "newton_glm",
+    "outcome_problem",
 ]
 
 Array = npt.NDArray[np.float64]
@@ -243,6 +244,11 @@ def _separation_words(sep: Separation, names: list[str], link: GlmLink, *, count
 
 
 # ------------------------------------------------------------------- the API
+
+
+def outcome_problem(y: Array, family: str) -> str:
+    """A plain message when ``y`` cannot be the outcome of a ``family`` model, or ""."""
+    return _outcome_problem(y, family_of(family).glm)
 
 
 def _outcome_problem(y: Array, link: GlmLink) -> str:

@@ -46,6 +46,12 @@ Index = npt.NDArray[np.intp]
 #: and 2^20 on the benchmark of benchmarks/bench_iterative.py).
 PAIR_CELLS = 1 << 20
 
+#: A model with fewer than 1/NARROW of X's columns forms its own products
+#: from its own columns alone (a copy of them per block); a wider one from
+#: every column of the block, which a matrix product does faster than the
+#: copy (measured on the benchmark of benchmarks/bench_iterative.py).
+NARROW = 2
+
 #: Rows per block when no information is asked for (scores only).
 SCORE_ROWS = 16384
 
@@ -149,7 +155,7 @@ class _Round:
             {a: np.zeros((q, len(picks))) for _, a, picks in self.own_work},
         )
         own_work = [
-            (j, a, picks, None if 2 * len(self.cols[a[0]]) >= q else self.cols[a[0]])
+            (j, a, picks, None if NARROW * len(self.cols[a[0]]) >= q else self.cols[a[0]])
             for j, a, picks in self.own_work
             if len(picks)
         ]
@@ -316,6 +322,7 @@ def newton_paths_many(
     meat: bool = False,
     max_iter: int = 50,
     on_pass: Callable[[int], None] | None = None,
+    on_round: Callable[[Sequence[int]], None] | None = None,
 ) -> list[GlmPath | None]:
     """Each model's :func:`~covariscope.analysis.glm_newton.newton_walk`, the
     passes of all unfinished models made together, round by round.
@@ -324,7 +331,8 @@ def newton_paths_many(
     None (its caller fits it alone, which reports the problem); the others
     go on unchanged.  ``on_pass`` is called after every round with each model
     (its position in ``models``) that the round served; an exception it
-    raises (cancellation) stops every walk.
+    raises (cancellation) stops every walk.  ``on_round`` is called after
+    every round with the models it served, all at once.
     """
     link = family_of(family).glm
     ylogy = link.saturated(y)
@@ -347,6 +355,8 @@ def newton_paths_many(
         if on_pass is not None:
             for k in keys:
                 on_pass(k)
+        if on_round is not None:
+            on_round(keys)
         for k, answer in zip(keys, answers, strict=True):
             try:
                 pending[k] = walks[k].send(answer)

@@ -37,10 +37,10 @@ import numpy as np
 from covariscope.analysis.column_fit import (
     ColumnFit,
     RowsBuffer,
-    fit_extra,
     near_or_base,
     start_from,
 )
+from covariscope.analysis.column_tables import ExtraModel, fit_extra_many, fit_model
 from covariscope.analysis.design import Design
 from covariscope.analysis.distributions import chi2_sf, f_sf, norm_ppf, t_ppf
 from covariscope.analysis.families import family_of
@@ -225,28 +225,49 @@ def effect_modification(
     >>> [round(s.coef) for s in mod.strata], mod.flagged
     ([1, 3], True)
     """
+    model, k = _modification_model(design, terms, node, near)
+    # the products live only inside the fit: gone before the strata are counted
+    fitted = fit_model(design, model, summary=summary, rows=rows, consume=True)
+    return _modification_result(
+        design, node, fitted, list(model.names[:-k]), k, p_guide, ratio_guide, level
+    )
+
+
+def _modification_model(
+    design: Design, terms: Sequence[str], node: str, near: ColumnFit | None
+) -> tuple[ExtraModel, int]:
+    """The interaction model of ``node`` (exposure + ``terms`` + node + the
+    exposure's products with it), and how many product columns it has."""
     model_terms = [t for t in design.blocks if t in set(terms) | {node}]
     cols = [0] + [j for t in model_terms for j in design.blocks[t].index]
     names = [design.column_names[j] for j in cols]
+    block = design.blocks[node]
+    k = block.values.shape[1] if block.raw is None else 1
+    pnames = [f"{design.exposure_name}×{node}[{j}]" for j in range(k)]
+
+    def prepare() -> tuple[list[np.ndarray], np.ndarray | None]:
+        x = design.values[:, 0]
+        # a spline-entered modifier: its main effect is the spline, the product is linear in it
+        moderated = block.values if block.raw is None else block.raw[:, None]
+        start = None if near is None else start_from(near, [*names, *pnames])
+        return [moderated * x[:, None]], start
+
+    return ExtraModel(tuple(cols), (*names, *pnames), prepare), k
+
+
+def _modification_result(
+    design: Design,
+    node: str,
+    fitted: ColumnFit | str,
+    names: list[str],
+    k: int,
+    p_guide: float,
+    ratio_guide: float,
+    level: float,
+) -> Modification:
+    """The strata, interaction test and flag of ``node``'s fitted interaction model."""
     x = design.values[:, 0]
     block = design.blocks[node]
-    # a spline-entered modifier: its main effect is the spline, the product is linear in it
-    moderated = block.values if block.raw is None else block.raw[:, None]
-    products = moderated * x[:, None]
-    k = products.shape[1]
-    pnames = [f"{design.exposure_name}×{node}[{j}]" for j in range(k)]
-    start = None if near is None else start_from(near, [*names, *pnames])
-    fitted = fit_extra(
-        design,
-        cols,
-        [products],
-        [*names, *pnames],
-        start=start,
-        summary=summary,
-        rows=rows,
-        consume=True,
-    )
-    del products  # before the strata are counted: one column's worth less at the peak
     kind, strata_spec = _strata_values(design, node)
     nan = float("nan")
     if isinstance(fitted, str):
@@ -345,18 +366,17 @@ def modification_table(
         return {}
     wanted = [c for c in candidates if c in design.blocks and c not in design.constant]
     near, announce, first = near_or_base(design, terms, near, len(wanted), on_fit, summary=summary)
-    out: dict[str, Modification] = {}
-    rows = RowsBuffer()
-    for k, c in enumerate(wanted, start=first):
-        announce(k)
-        out[c] = effect_modification(
-            design,
-            terms,
-            c,
-            p_guide=p_guide,
-            ratio_guide=ratio_guide,
-            near=near,
-            summary=summary,
-            rows=rows,
+    models = [_modification_model(design, terms, c, near) for c in wanted]
+    fits = fit_extra_many(
+        design,
+        [model for model, _ in models],
+        summary=summary,
+        announce=lambda k: announce(first + k),
+        consume=True,
+    )
+    return {
+        c: _modification_result(
+            design, c, fitted, list(model.names[:-k]), k, p_guide, ratio_guide, 0.95
         )
-    return out
+        for c, (model, k), fitted in zip(wanted, models, fits, strict=True)
+    }

@@ -27,6 +27,7 @@ from covariscope.analysis.column_fit import (
     start_from,
     takes_start,
 )
+from covariscope.analysis.column_tables import ExtraModel, Prepared, fit_extra_many
 from covariscope.analysis.design import Design
 from covariscope.analysis.families import family_of
 from covariscope.analysis.linear import LinearSummary
@@ -131,12 +132,28 @@ def residual_confounding(
         design, cols, [basis], spl_names, start=start, summary=summary, rows=rows, consume=True
     )
     del basis
+    return _compared(
+        node, knots, linear, spline, design.exposure_width, design.family, change_guide
+    )
+
+
+def _compared(
+    node: str,
+    knots: int,
+    linear: ColumnFit,
+    spline: ColumnFit | str,
+    exposure_width: int,
+    family: str,
+    change_guide: float,
+) -> ResidualCheck:
+    """The check from the linear and the spline model's fits."""
     if isinstance(spline, str):
+        nan = float("nan")
         return ResidualCheck(node, knots, nan, nan, nan, False, spline)
     # A multi-level exposure: the contrast whose estimate moves most is reported.
-    pairs = [(float(linear.coef[j]), float(spline.coef[j])) for j in range(design.exposure_width)]
+    pairs = [(float(linear.coef[j]), float(spline.coef[j])) for j in range(exposure_width)]
     b_lin, b_spl, change = max(
-        ((a, b, _change(a, b, design.family)) for a, b in pairs), key=lambda t: abs(t[2])
+        ((a, b, _change(a, b, family)) for a, b in pairs), key=lambda t: abs(t[2])
     )
     return ResidualCheck(node, knots, b_lin, b_spl, change, bool(abs(change) >= change_guide))
 
@@ -227,22 +244,104 @@ def residual_table(
     )
     out: dict[str, ResidualCheck] = {}
     rows = RowsBuffer()
+    # Nodes whose linear model is ``near`` itself: their spline models are
+    # fitted together (`fit_extra_many`); the others one at a time.
+    together: list[tuple[int, str, _SplineModel]] = []
     for i, c in enumerate(examined):
         block = design.blocks[c]
         raw = block.raw if block.raw is not None else block.values[:, 0]
+        count = (knots or {}).get(c) or DEFAULT_KNOTS
+        plan = _spline_model(design, terms, c, raw, count, near, summary)
+        if plan is not None:
+            together.append((i, c, plan))
+            continue
         out[c] = residual_confounding(
             design,
             terms,
             c,
             raw,
-            knots=(knots or {}).get(c) or DEFAULT_KNOTS,
+            knots=count,
             change_guide=change_guide,
             near=near,
             summary=summary,
             on_fit=_numbered(first + 2 * i, announce),
             rows=rows,
         )
-    return out
+    fits = fit_extra_many(
+        design,
+        [plan.model for _, _, plan in together],
+        summary=summary,
+        announce=lambda k: announce(first + 2 * together[k][0] + 1),
+        consume=True,
+    )
+    for (_, c, plan), fitted in zip(together, fits, strict=True):
+        out[c] = plan.result(fitted, change_guide)
+    return {c: out[c] for c in examined}
+
+
+@dataclass(frozen=True)
+class _SplineModel:
+    """A residual check whose linear model is already fitted: the spline model to fit."""
+
+    node: str
+    knots: int
+    linear: ColumnFit
+    model: ExtraModel
+    exposure_width: int
+    family: str
+
+    def result(self, spline: ColumnFit | str, change_guide: float) -> ResidualCheck:
+        """The check, once the spline model is fitted."""
+        return _compared(
+            self.node,
+            self.knots,
+            self.linear,
+            spline,
+            self.exposure_width,
+            self.family,
+            change_guide,
+        )
+
+
+def _spline_model(
+    design: Design,
+    terms: Sequence[str],
+    node: str,
+    raw: np.ndarray,
+    knots: int,
+    near: ColumnFit | None,
+    summary: LinearSummary | None,
+) -> _SplineModel | None:
+    """The spline model of ``node``'s check when its linear model is ``near``
+    itself (a node that enters linearly, an iterative fit), else None."""
+    block = design.blocks[node]
+    if block.raw is not None or near is None or not takes_start(design, summary):
+        return None
+    others = [t for t in design.blocks if t in set(terms) and t != node]
+    cols = [*design.exposure_index, *(j for t in others for j in design.blocks[t].index)]
+    names = [design.column_names[j] for j in cols]
+    linear = reordered(near, [*names, node])
+    if linear is None:
+        return None
+    fitted_linear = linear
+    spl_names = [*names, *(f"{node}[spline {j + 1}]" for j in range(knots - 1))]
+
+    def prepare() -> Prepared:
+        try:
+            basis = spline_basis(raw, knots)
+        except ValueError as exc:
+            return str(exc)
+        given = _as_spline(fitted_linear, node, raw, basis, spl_names)
+        return [basis], start_from(fitted_linear, spl_names, given=given)
+
+    return _SplineModel(
+        node,
+        knots,
+        linear,
+        ExtraModel(tuple(cols), tuple(spl_names), prepare),
+        design.exposure_width,
+        design.family,
+    )
 
 
 def _numbered(first: int, starting: Callable[[int], None]) -> Callable[[], None]:
