@@ -45,6 +45,7 @@ from covariscope.analysis.design import Design
 from covariscope.analysis.distributions import chi2_sf, f_sf, norm_ppf, t_ppf
 from covariscope.analysis.families import family_of
 from covariscope.analysis.linear import LinearSummary
+from covariscope.analysis.quantiles import quantiles
 from covariscope.vocabulary import ModificationForm
 
 __all__ = [
@@ -153,7 +154,7 @@ def _strata_values(design: Design, node: str) -> tuple[str, list[tuple[str, np.n
             out.append((text, np.eye(block.df)[j], int(np.count_nonzero(m[:, j] == 1))))
         return "levels", out
     col = m[:, 0] if block.raw is None else block.raw
-    q = np.quantile(col, [0.25, 0.5, 0.75])
+    q = quantiles(col, [0.25, 0.5, 0.75])  # numpy.quantile's, found with less work
     labels = ("25th percentile", "median", "75th percentile")
     return "quartiles", [
         (f"{name} ({v:.3g})", np.array([v]), count)
