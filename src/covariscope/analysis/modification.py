@@ -45,6 +45,7 @@ from covariscope.analysis.design import Design
 from covariscope.analysis.distributions import chi2_sf, f_sf, norm_ppf, t_ppf
 from covariscope.analysis.families import family_of
 from covariscope.analysis.linear import LinearSummary
+from covariscope.analysis.quantiles import quantiles
 from covariscope.vocabulary import ModificationForm
 
 __all__ = [
@@ -153,7 +154,7 @@ def _strata_values(design: Design, node: str) -> tuple[str, list[tuple[str, np.n
             out.append((text, np.eye(block.df)[j], int(np.count_nonzero(m[:, j] == 1))))
         return "levels", out
     col = m[:, 0] if block.raw is None else block.raw
-    q = np.quantile(col, [0.25, 0.5, 0.75])
+    q = quantiles(col, [0.25, 0.5, 0.75])  # numpy.quantile's, found with less work
     labels = ("25th percentile", "median", "75th percentile")
     return "quartiles", [
         (f"{name} ({v:.3g})", np.array([v]), count)
@@ -303,8 +304,8 @@ def _modification_result(
     stat, p = _wald(fitted.coef[p_idx], fitted.cov[np.ix_(p_idx, p_idx)], fitted.df_resid)
     spread = _spread(np.array([s.coef for s in strata]), ratio)
     r = r_ci = None
-    binary_x = bool(np.isin(x, (0.0, 1.0)).all())
-    if ratio and binary_x and block.df == 1 and block.levels:
+    # (a ratio measure only: the test reads the exposure's every row)
+    if ratio and block.df == 1 and block.levels and bool(np.isin(x, (0.0, 1.0)).all()):
         m_idx = names.index(block.columns[0])
         idx = [0, m_idx, p_idx[0]]
         r, _, r_ci = reri(

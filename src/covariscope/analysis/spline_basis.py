@@ -22,6 +22,8 @@ from __future__ import annotations
 
 import numpy as np
 
+from covariscope.analysis.quantiles import quantiles
+
 __all__ = ["DEFAULT_KNOTS", "KNOT_QUANTILES", "knot_positions", "spline_basis"]
 #: Knot quantiles by number of knots (Harrell 2015, Table 2.3).
 KNOT_QUANTILES: dict[int, tuple[float, ...]] = {
@@ -46,7 +48,7 @@ def knot_positions(x: np.ndarray, knots: int) -> np.ndarray:
     """
     if knots not in KNOT_QUANTILES:
         raise ValueError(f"a spline takes 3 to 7 knots, not {knots}")
-    return np.asarray(np.quantile(x, KNOT_QUANTILES[knots]), dtype=float)
+    return quantiles(np.asarray(x), KNOT_QUANTILES[knots])  # numpy.quantile's numbers
 
 
 def spline_basis(x: np.ndarray, knots: int) -> np.ndarray:
