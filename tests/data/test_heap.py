@@ -44,3 +44,16 @@ def test_numpy_stops_advising_huge_pages() -> None:
         assert module._get_madvise_hugepage() is False
     finally:
         module._set_madvise_hugepage(before)
+
+
+@pytest.mark.skipif(not sys.platform.startswith("linux"), reason="malloc_trim is glibc's")
+def test_trimming_runs_no_child_process(monkeypatch) -> None:
+    # It runs after every analysis step that frees memory (twice per edit):
+    # finding the C library must not start `ldconfig` (ctypes.util.find_library does).
+    import subprocess
+
+    def refuse(*args: object, **kwargs: object) -> None:
+        raise AssertionError("a child process was started")
+
+    monkeypatch.setattr(subprocess.Popen, "__init__", refuse)
+    assert isinstance(release_freed_memory(), bool)

@@ -233,13 +233,33 @@ def centred_products(
     [4.0, 5.0]
     """
     picked = list(range(values.shape[1])) if cols is None else list(cols)
-    # the whole design in one product (a block of a column-major array's rows
-    # is several times slower to multiply); np.dot, not @: fitting_common
-    out = np.dot(values.T, centred)[picked] - np.outer(mean, centred.sum(axis=0))
+    out = np.empty((len(picked), centred.shape[1]))
+    # Each run of adjacent columns in one product: a column-major array's
+    # columns are read in place (a block of its rows, or columns gathered from
+    # here and there, would be copied first); np.dot, not @: fitting_common.
+    for start, stop, at in _runs(picked):
+        out[at : at + stop - start] = np.dot(values[:, start:stop].T, centred)
+    out -= np.outer(mean, centred.sum(axis=0))
     far = np.flatnonzero(np.abs(mean) > FAR * sd)
     if len(far):
         out[far] = centred_cross(values, mean[far], centred, [picked[j] for j in far])
     return np.asarray(out)
+
+
+def _runs(cols: Sequence[int]) -> list[tuple[int, int, int]]:
+    """(start, stop, position in ``cols``) of each run of consecutive columns.
+
+    >>> _runs([3, 4, 5, 0, 9, 10])
+    [(3, 6, 0), (0, 1, 3), (9, 11, 4)]
+    """
+    runs: list[tuple[int, int, int]] = []
+    for at, c in enumerate(cols):
+        if runs and runs[-1][1] == c:
+            start, _, first = runs[-1]
+            runs[-1] = (start, c + 1, first)
+        else:
+            runs.append((c, c + 1, at))
+    return runs
 
 
 def cholesky_lower(a: np.ndarray) -> np.ndarray | None:

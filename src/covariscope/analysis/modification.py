@@ -304,8 +304,8 @@ def _modification_result(
     stat, p = _wald(fitted.coef[p_idx], fitted.cov[np.ix_(p_idx, p_idx)], fitted.df_resid)
     spread = _spread(np.array([s.coef for s in strata]), ratio)
     r = r_ci = None
-    binary_x = bool(np.isin(x, (0.0, 1.0)).all())
-    if ratio and binary_x and block.df == 1 and block.levels:
+    # (a ratio measure only: the test reads the exposure's every row)
+    if ratio and block.df == 1 and block.levels and bool(np.isin(x, (0.0, 1.0)).all()):
         m_idx = names.index(block.columns[0])
         idx = [0, m_idx, p_idx[0]]
         r, _, r_ci = reri(
