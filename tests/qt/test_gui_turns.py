@@ -4,7 +4,7 @@ the same turn (issue 9: "the GUI thread never does data work")."""
 
 from __future__ import annotations
 
-from PySide6.QtCore import QSettings
+from PySide6.QtCore import QEvent, QObject, QSettings
 
 from .conftest import wait_for_analysis
 
@@ -48,4 +48,65 @@ def test_opening_writes_the_recent_files_in_a_later_turn(qtbot, window, demo):
     assert w.io.recent_files()[0] == opened
     qtbot.waitUntil(lambda: opened in (QSettings().value("recent_files", []) or []))
     assert w.io.recent_files()[0] == opened
+    wait_for_analysis(qtbot, w)
+
+
+class _Paints(QObject):
+    """Counts the paint events a widget receives."""
+
+    def __init__(self) -> None:
+        super().__init__()
+        self.count = 0
+
+    def eventFilter(self, watched: QObject, event: QEvent) -> bool:
+        if event.type() == QEvent.Type.Paint:
+            self.count += 1
+        return False
+
+
+def test_progress_is_painted_with_the_window_not_at_once(qtbot, window):
+    w = window
+    w.show_progress("Loading data", 0.0)
+    qtbot.wait(20)
+    paints = _Paints()
+    w.progress.installEventFilter(paints)
+    for k in range(1, 6):
+        w.show_progress(f"Fitting model {k} of 5", k / 5)
+    assert paints.count == 0  # QProgressBar.setValue alone repaints synchronously
+    assert w.progress.value() == 1000
+    qtbot.waitUntil(lambda: paints.count > 0)  # and it is painted later all the same
+    w.progress.removeEventFilter(paints)
+
+
+def test_opening_shows_the_canvas_first_and_the_panels_in_later_turns(
+    qtbot, window, demo, monkeypatch
+):
+    w = window
+    assert w.io.open(str(demo / "demo_project.json"))
+    refreshed: list[str] = []
+    for name, panel in (("data", w.data_panel), ("review", w.review)):
+        refresh = panel.refresh
+        monkeypatch.setattr(
+            panel, "refresh", lambda *a, _f=refresh, _n=name: refreshed.append(_n) or _f(*a)
+        )
+    assert w.io.open(str(demo / "demo_project.json"))
+    assert refreshed == []  # no panel refreshed in the opening turn
+    assert w.showing.pending
+    qtbot.waitUntil(lambda: {"data", "review"} <= set(refreshed))
+    wait_for_analysis(qtbot, w)
+
+
+def test_an_arrow_keeps_its_bounds_in_step_with_its_ends(qtbot, window, demo):
+    from covariscope.model.commands import UpdateNode
+
+    w = window
+    assert w.io.open(str(demo / "demo_project.json"))
+    links = [i for i in w.scene.items() if hasattr(i, "pair")]
+    assert links
+    link = links[0]
+    before = link.boundingRect()
+    node = w.project.diagram.node(link.pair[0])
+    assert w.push(UpdateNode(w.project, node.id, x=node.x + 200, y=node.y + 150))
+    assert link.boundingRect() != before
+    assert link.boundingRect() == link.shape().boundingRect().adjusted(-6, -6, 6, 6)
     wait_for_analysis(qtbot, w)

@@ -8,6 +8,7 @@ panel logic in :mod:`covariscope.views`.
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from pathlib import Path
 from typing import Any
 
@@ -273,6 +274,7 @@ class MainWindow(QMainWindow):
             view.addActions(self.actions_.canvas_only)
         if self.view is not None:
             self.centre_layout.removeWidget(self.view)
+            self.view.hide()  # not painted again before it is deleted
             self.view.deleteLater()
         old_scene = self.scene
         self.scene, self.view = scene, view
@@ -285,7 +287,6 @@ class MainWindow(QMainWindow):
             self.actions_.sync_family(project.analysis.family)
             self.actions_.sync_mode("select")
         self.set_last_error("")
-        self.refresh_panels()
         self.io.update_title()
         if project.data is not None:
             self.data.start_load()
@@ -293,6 +294,10 @@ class MainWindow(QMainWindow):
         if len(project.diagram):
             view.fit_to_window(readable=True)
             self._fit_soon()
+        # the panels in the next turn: the new canvas is painted first, and
+        # neither turn holds the GUI thread for long (a result that comes
+        # first refreshes them itself and drops this step)
+        self.showing.start(self.panel_steps(), now=False)
 
     def open_demo(self) -> bool:
         from covariscope.model.demo import demo_folder, write_demo
@@ -376,22 +381,33 @@ class MainWindow(QMainWindow):
             self.review.style().polish(self.review.table)
 
     def refresh_panels(self) -> None:
-        self.data_panel.refresh(self.project, self.data.table, self.data.profiles)
-        self.review.refresh(self.project, self.result)
+        for step in self.panel_steps():
+            step()
+
+    def panel_steps(self) -> list[Callable[[], None]]:
+        """The refresh of each panel, as steps a :class:`StepChain` can run one
+        per turn (each panel's layout and paint then fall in its own turn)."""
+        return [
+            lambda: self.data_panel.refresh(self.project, self.data.table, self.data.profiles),
+            lambda: self.review.refresh(self.project, self.result),
+            self._refresh_side_panels,
+            lambda: self.messages_bar.refresh(
+                window_messages(
+                    self.project,
+                    self.result,
+                    self.data.profiles,
+                    data_loaded=self.data.table is not None,
+                )
+            ),
+        ]
+
+    def _refresh_side_panels(self) -> None:
         self.paths.refresh(self.result, node_labels(self.project))
         self.claims.sync_settings(
             self.project.analysis.claim_correction, self.project.analysis.claim_limit
         )
         self.claims.refresh(self.result)
         self.strip.refresh(self.result)
-        self.messages_bar.refresh(
-            window_messages(
-                self.project,
-                self.result,
-                self.data.profiles,
-                data_loaded=self.data.table is not None,
-            )
-        )
 
     def _analysis_done(self, _generation: int, result: StudyResult) -> None:
         """Show a new result: panels, canvas and dialogs in short steps, one
@@ -404,7 +420,7 @@ class MainWindow(QMainWindow):
             [
                 self._show_review,
                 lambda: self.claims.refresh(self.result),
-                self._show_panels,
+                *self.panel_steps(),
                 self._show_annotations,
                 *dialogs,
                 self._show_state,
@@ -421,9 +437,6 @@ class MainWindow(QMainWindow):
             self.rows_label.setText("Diagram only: see the messages above the diagram")
         else:
             self.rows_label.setText("No data loaded")
-
-    def _show_panels(self) -> None:
-        self.refresh_panels()
 
     def _show_annotations(self) -> None:
         if self.result is not None:
@@ -735,7 +748,12 @@ class MainWindow(QMainWindow):
     def show_progress(self, text: str, fraction: float) -> None:
         self.progress_label.setText(text)
         self.progress.setFormat("%p%")
+        # QProgressBar.setValue repaints the bar at once, through the style
+        # sheet (10-20 ms the first time it shows); with updates off for the
+        # call, the bar is painted with the rest of the window instead
+        self.progress.setUpdatesEnabled(False)
         self.progress.setValue(int(1000 * max(0.0, min(1.0, fraction))))
+        self.progress.setUpdatesEnabled(True)
         self.progress_label.show()
         self.progress.show()
         self.cancel_button.show()

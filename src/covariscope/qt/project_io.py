@@ -94,8 +94,8 @@ class ProjectIO(QObject):
         self.autosave_timer.setInterval(AUTOSAVE_MS)
         self.autosave_timer.timeout.connect(self.autosave)
         self.autosave_timer.start()
-        #: recent files not yet written to the settings (see add_recent)
-        self._recent_unsaved: list[str] | None = None
+        #: the recent file not yet written to the settings (see add_recent)
+        self._recent_head: str | None = None
         self._recent_writer = QTimer(self)
         self._recent_writer.setSingleShot(True)
         self._recent_writer.setInterval(0)
@@ -198,32 +198,35 @@ class ProjectIO(QObject):
 
     # -- recent files ---------------------------------------------------------------
     def recent_files(self) -> list[str]:
-        if self._recent_unsaved is not None:
-            return list(self._recent_unsaved)
         value: Any = QSettings().value("recent_files", [])
         if isinstance(value, str):
             value = [value]
-        return [str(v) for v in (value or [])]
+        stored = [str(v) for v in (value or [])]
+        if self._recent_head is None:
+            return stored
+        head = self._recent_head
+        return [head, *[p for p in stored if p != head]][:MAX_RECENT]
 
     def add_recent(self, path: str) -> None:
-        """Put ``path`` at the head of the recent files; written in the next
-        turn of the event loop.
+        """Put ``path`` at the head of the recent files; the settings are read
+        and written in the next turn of the event loop.
 
-        Writing the settings file syncs it to disk twice (``fdatasync``) and
-        PySide keeps the interpreter lock meanwhile: on a busy disk that
-        held the GUI thread for tens of milliseconds in the same turn as
-        opening the project (measured in benchmarks/gui_storm.py).
+        Reading the settings file costs 10 ms and more the first time, and
+        writing it syncs it to disk twice (``fdatasync``) while PySide keeps
+        the interpreter lock: on a busy disk that held the GUI thread for
+        tens of milliseconds in the same turn as opening the project
+        (measured in benchmarks/gui_storm.py).
         """
-        files = [path, *[p for p in self.recent_files() if p != path]][:MAX_RECENT]
-        self._recent_unsaved = files
+        self._recent_head = path
         self._recent_writer.start()
         self.recent_changed.emit()
 
     def write_recent(self) -> None:
-        """Write the recent files not yet written (at once; on close too)."""
+        """Write the recent file not yet written (at once; on close too)."""
         self._recent_writer.stop()
-        files, self._recent_unsaved = self._recent_unsaved, None
-        if files is not None:
+        if self._recent_head is not None:
+            files = self.recent_files()
+            self._recent_head = None
             QSettings().setValue("recent_files", files)
 
     def forget_recent(self, path: str) -> None:

@@ -47,10 +47,14 @@ class StepChain(QObject):
         """Steps are still to run."""
         return bool(self._steps)
 
-    def start(self, steps: Sequence[Callable[[], object]]) -> None:
-        """Run the first step now and the others in the next turns of the loop."""
+    def start(self, steps: Sequence[Callable[[], object]], *, now: bool = True) -> None:
+        """Run the first step now (``now=False``: in the next turn) and the
+        others in the turns after it."""
         self._steps = list(steps)
-        self._next()
+        if now:
+            self._next()
+        elif self._steps:
+            self._timer.start()
 
     def finish(self) -> None:
         """Run every step still pending, now."""

@@ -146,6 +146,7 @@ class _LinkItem(QGraphicsItem):
         self.p1 = QPointF()
         self.p2 = QPointF()
         self._shape = QPainterPath()
+        self._bounds = QRectF()
         self.setFlags(QGraphicsItem.GraphicsItemFlag.ItemIsSelectable)
         self.setZValue(1)
         self.update_geometry()
@@ -160,6 +161,9 @@ class _LinkItem(QGraphicsItem):
             normal = QPointF(-d.y() / length, d.x() / length) * self.shift
             self.p1, self.p2 = self.p1 + normal, self.p2 + normal
         self._shape = arrow_shape(self.p1, self.p2, 12.0)
+        # kept: Qt asks for it on every paint and index update, and the
+        # bounds of a stroked path are measured anew on each call
+        self._bounds = self._shape.boundingRect().adjusted(-6, -6, 6, 6)
         self.update()
 
     def set_shift(self, shift: float) -> None:
@@ -173,7 +177,7 @@ class _LinkItem(QGraphicsItem):
             self.update()
 
     def boundingRect(self) -> QRectF:
-        return self._shape.boundingRect().adjusted(-6, -6, 6, 6)
+        return self._bounds
 
     def shape(self) -> QPainterPath:
         return self._shape
