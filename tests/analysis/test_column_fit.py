@@ -250,3 +250,31 @@ def test_a_consumed_extra_column_gives_the_same_linear_fit_to_the_last_bit() -> 
     np.testing.assert_array_equal(eaten.coef, kept.coef)
     np.testing.assert_array_equal(eaten.cov, kept.cov)
     assert abs(basis.mean()) < 1e-9  # it was centred where it lay
+
+
+@pytest.mark.parametrize("family", ["logistic", "risk_ratio", "cox"])
+def test_the_evidence_tables_own_fit_is_the_checks_start(family: str) -> None:
+    from covariscope.analysis.evidence import EvidenceEngine
+
+    design = _design(family)
+    engine = EvidenceEngine(design)
+    assert engine.column_fit(["c", "w"]) is None  # not fitted yet
+    engine.fit(["w", "c"])
+    near = engine.column_fit(["c", "w"])
+    base = base_fit(design, ["c", "w"])
+    assert near is not None
+    assert base is not None
+    assert near.names == base.names
+    np.testing.assert_allclose(near.coef, base.coef, rtol=1e-8)
+    np.testing.assert_allclose(near.cov, base.cov, rtol=1e-7)
+    assert near.params is not None
+    assert base.params is not None
+    np.testing.assert_allclose(near.params, base.params, rtol=1e-8, atol=1e-10)
+
+
+def test_a_linear_evidence_table_lends_no_start() -> None:
+    from covariscope.analysis.evidence import EvidenceEngine
+
+    engine = EvidenceEngine(_design("linear"))
+    engine.fit(["c", "w"])
+    assert engine.column_fit(["c", "w"]) is None

@@ -96,3 +96,19 @@ def test_planted_modifier_is_flagged_and_the_confounder_is_not():
     assert view is not None
     assert NOT_CONFOUNDING in view.summary
     assert [p[4] for p in view.points] == [s.n for s in mod["m"].strata]
+
+
+def test_the_checks_start_from_the_evidence_tables_fit_not_a_fit_of_their_own(monkeypatch):
+    from covariscope.analysis import column_fit
+
+    made: list[object] = []
+    real = column_fit.base_fit
+
+    def counting(*args, **kw):
+        made.append(args)
+        return real(*args, **kw)
+
+    monkeypatch.setattr(column_fit, "base_fit", counting)
+    _, result, _ = _study()
+    assert result.modification["m"].flagged  # the checks ran
+    assert made == []

@@ -35,6 +35,7 @@ from covariscope.analysis.collinearity import (
     gvif,
     vif,
 )
+from covariscope.analysis.column_fit import ColumnFit
 from covariscope.analysis.contrasts import ExposureJoint, joint_summary
 from covariscope.analysis.design import Block, Design, constant_message
 from covariscope.analysis.distributions import t_ppf
@@ -202,6 +203,23 @@ class EvidenceEngine:
             self._ols.update(ols)
             self._glm_cov.update(cov)
         return len(fits)
+
+    def column_fit(self, terms: Sequence[str]) -> ColumnFit | None:
+        """The fitted model exposure + ``terms`` as the checks that extend it
+        start from (:func:`~covariscope.analysis.column_fit.base_fit`'s
+        columns and form), when an iterative fit of it is at hand; None
+        otherwise (a linear model, or one not fitted or failed)."""
+        with self._lock:
+            hit = self._fits.get(frozenset(terms))
+        if hit is None or hit[1] is None or not hit[0].ok:
+            return None
+        fit, params = hit
+        names = [self.design.column_names[c] for c in self.columns(terms)]
+        cov = fit.covariance(tuple(names))
+        coef = [fit.coefficient(name) for name in names]
+        if cov is None or any(b is None or not math.isfinite(b) for b in coef):
+            return None
+        return ColumnFit(np.array(coef, dtype=float), cov, None, tuple(names), params)
 
     def aliased(self, terms: Sequence[str] | None = None) -> tuple[AliasFinding, ...]:
         """Exact linear combinations among the exposure and ``terms`` (default: every term)."""

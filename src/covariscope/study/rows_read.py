@@ -19,6 +19,7 @@ from dataclasses import dataclass, field
 from functools import partial
 from typing import Any
 
+from covariscope.analysis.column_fit import ColumnFit
 from covariscope.analysis.design import Design
 from covariscope.analysis.evidence import EvidenceEngine, EvidenceTable
 from covariscope.analysis.families import Fitter, family_of
@@ -172,6 +173,7 @@ def _modification(
     candidates: Sequence[str],
     guides: tuple[float, float],
     summary: LinearSummary | None,
+    near: ColumnFit | None,
     report: Progress | None = None,
 ) -> dict[str, Modification]:
     """:func:`~covariscope.analysis.modification.modification_table`, one entry
@@ -194,6 +196,7 @@ def _modification(
             missing,
             p_guide=guides[0],
             ratio_guide=guides[1],
+            near=near,
             summary=summary,
             on_fit=fit_reporter(run, report, "Checking effect modification", MODIFICATION_SPAN),
         ),
@@ -210,6 +213,7 @@ def _residual(
     knots: Mapping[str, int],
     guide: float,
     summary: LinearSummary | None,
+    near: ColumnFit | None,
     report: Progress | None = None,
 ) -> dict[str, ResidualCheck]:
     """:func:`~covariscope.analysis.splines.residual_table`, one entry per
@@ -236,6 +240,7 @@ def _residual(
             missing,
             knots={c: knots[c] for c in missing if c in knots},
             change_guide=guide,
+            near=near,
             summary=summary,
             on_fit=fit_reporter(run, report, "Checking residual confounding", RESIDUAL_SPAN),
         ),
@@ -276,11 +281,15 @@ def rows_read(
     # A linear model's checks read only their own new columns: the design's
     # cross-products come from the evidence engine's one-pass summary.
     summary = engine.summary if family_of(design.family).fitter is Fitter.LEAST_SQUARES else None
+    # An iterative model's checks start from the evidence table's own fit of it.
+    near = engine.column_fit(terms)
     release_freed_memory()  # the evidence table's temporaries, before these tables' own
     modification = (
         {}
         if design.multilevel
-        else _modification(run, spec, design, terms, evidence.candidates, guides, summary, report)
+        else _modification(
+            run, spec, design, terms, evidence.candidates, guides, summary, near, report
+        )
     )
     confounders = [c for c in terms if c in da.roles and da.roles[c].role == "confounder"]
     release_freed_memory()
@@ -293,6 +302,7 @@ def rows_read(
         dict(q.spline_knots),
         thresholds["change_pct"],
         summary,
+        near,
         report,
     )
     said = (_MULTILEVEL,) if design.multilevel else ()
