@@ -264,6 +264,18 @@ class SchedClock:
         busiest = max(others, key=sum, default=(0.0, 0.0))
         return cpu, wait, max(0.0, (t1 - t0) - cpu - wait), *busiest
 
+    def causes(self, stalls: list[tuple[float, float]]) -> dict[str, int]:
+        """How many of ``stalls`` went mostly to the GUI thread's own work, to
+        waiting for a CPU (the machine's load) or to being blocked (the
+        interpreter lock held by another thread)."""
+        names = ("own work", "waiting for a CPU", "interpreter lock")
+        found: Counter[str] = Counter()
+        for start, gap in stalls:
+            parts = self.split(start, gap)
+            if parts is not None:
+                found[names[max(range(3), key=lambda k: parts[k])]] += 1
+        return {name: found[name] for name in names}
+
     def report(self, stalls: list[tuple[float, float]], origin: float) -> None:
         print(
             " stalls of 100 ms or more: GUI thread on CPU / waiting for a CPU / blocked"
@@ -503,6 +515,12 @@ def storm(
     gc_clock.remove()
     gc_clock.report(t_fire)
     if sched is not None:
+        long_open = [(a, g) for a, g in opening.log.stalls if g >= 0.1]
+        long_storm = [(a, g) for a, g in meter.log.stalls if g >= 0.1]
+        figures["open_stalls_over_100ms_by_cause"] = sched.causes(long_open)
+        figures["storm_stalls_over_100ms_by_cause"] = sched.causes(long_storm)
+        print("  stalls of 100 ms or more by main cause, opening:", sched.causes(long_open))
+        print("  stalls of 100 ms or more by main cause, storm:", sched.causes(long_storm))
         print("  while opening:", end="")
         sched.report([(a, g) for a, g in opening.log.stalls if g >= 0.1], t_fire)
         print("  during the storm:", end="")
