@@ -488,3 +488,49 @@ def test_column_type_does_not_depend_on_chunks(tmp_path, monkeypatch):
     assert chunked["v"].tolist() == whole["v"].astype(str).tolist()
     assert chunked["k"].tolist() == whole["k"].tolist()
     assert chunked["k"].dtype == np.int64
+
+
+def test_a_chunk_of_nothing_but_missing_values_agrees_with_any_other(tmp_path, monkeypatch):
+    """A run of empty cells as long as a chunk is no second kind of value: the
+    column is read once, as pandas reads it in one piece (the reference)."""
+    monkeypatch.setattr(text, "CHUNK_ROWS", 50)
+    words = ("low", "mid", "high")
+    lines = [
+        f"{i},{'' if 50 <= i < 100 else words[i % 3]},{'' if 100 <= i < 150 else i % 2 == 1}\n"
+        for i in range(200)
+    ]
+    path = tmp_path / "gaps.csv"
+    path.write_text("k,t,b\n" + "".join(lines), encoding="utf-8")
+    reads = []
+    read_chunks = text._read_chunks
+
+    def counted(*args, **kwargs):
+        reads.append(kwargs.get("usecols"))
+        return read_chunks(*args, **kwargs)
+
+    monkeypatch.setattr(text, "_read_chunks", counted)
+    frame = load_table(path).frame
+    whole = pd.read_csv(path)
+    assert reads == [None]  # no column read again as text
+    for column in ("t", "b"):
+        assert frame[column].isna().tolist() == whole[column].isna().tolist()
+        assert frame[column].dropna().tolist() == whole[column].dropna().tolist()
+    assert frame["k"].dtype == np.int64
+
+
+def test_numbers_in_one_chunk_and_text_in_another_are_read_again_as_text(tmp_path, monkeypatch):
+    monkeypatch.setattr(text, "CHUNK_ROWS", 50)
+    lines = [f"{i},{i if i < 150 else 'x' + str(i)}\n" for i in range(200)]
+    path = tmp_path / "late_words.csv"
+    path.write_text("k,v\n" + "".join(lines), encoding="utf-8")
+    reads = []
+    read_chunks = text._read_chunks
+
+    def counted(*args, **kwargs):
+        reads.append(kwargs.get("usecols"))
+        return read_chunks(*args, **kwargs)
+
+    monkeypatch.setattr(text, "_read_chunks", counted)
+    frame = load_table(path).frame
+    assert reads == [None, [1]]
+    assert frame["v"].tolist() == pd.read_csv(path)["v"].astype(str).tolist()

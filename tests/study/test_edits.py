@@ -22,6 +22,7 @@ from covariscope.study import run_study
 from covariscope.study.cache import StageCount, StudyCache
 from covariscope.study.source import TableSource
 from covariscope.views.check_json import study_to_json
+from covariscope.views.recompute import recompute_summary
 
 DEMO = Path(__file__).resolve().parents[2] / "demo_data"
 
@@ -203,8 +204,11 @@ def test_binding_a_column_reads_only_that_column(warm, rerun):
     source.read.clear()
     (_, narrow), *_ = cache.entries("design")
     project.diagram.update_node(node.id, column=column)
-    rerun(project, source, cache)
+    after = rerun(project, source, cache)
     assert set(source.read) == {column}
+    said = recompute_summary(after.recomputed, 0, 0.0)
+    assert "the cross-products of new or recoded columns" in said
+    assert "every row" not in said
     assert cache.count("rows").misses == 0  # the cross-products were extended, not recomputed
     assert cache.count("term").misses == 1
     # A column that misses no value (its profile says so) drops no row: the
@@ -394,3 +398,5 @@ def test_binding_a_column_with_missing_values_shrinks_the_sample_and_rebuilds_th
     assert cache.count("missing").misses == 1  # the new column's mask; the others' are kept
     assert cache.count("column").hits == 0
     assert cache.count("rows").misses == 1  # the cross-products of the new rows
+    # and the status bar says every row was read again
+    assert "the cross-products of every row" in recompute_summary(after.recomputed, 0, 0.0)

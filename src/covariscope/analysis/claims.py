@@ -147,14 +147,31 @@ def _separator(M: nx.DiGraph, ca: str, cb: str, allowed: set[str]) -> frozenset[
 
 
 def _ancestral_key(
-    M: nx.DiGraph, ancestors: Mapping[str, set[str]], ca: str, cb: str, allowed: set[str]
+    closed: Mapping[str, tuple[frozenset[str], frozenset[tuple[str, str]]]],
+    ca: str,
+    cb: str,
+    allowed: set[str],
 ) -> Hashable:
     """What a minimal separator of ``ca`` and ``cb`` depends on: the subgraph
     induced by their ancestors (themselves included) and the allowed nodes in it
-    (van der Zander & Liśkiewicz's search looks no further)."""
-    A = ancestors[ca] | ancestors[cb] | {ca, cb}
-    edges = frozenset((u, v) for v in A for u in M.pred[v] if u in A)
-    return (ca, cb, frozenset(A), edges, frozenset(allowed & A))
+    (van der Zander & Liśkiewicz's search looks no further).  ``closed`` holds
+    each construct's ancestral set and the arrows into it (`_closed`): a
+    union of two ancestral sets is induced by the union of their arrows."""
+    (nodes_a, edges_a), (nodes_b, edges_b) = closed[ca], closed[cb]
+    A = nodes_a | nodes_b
+    return (ca, cb, A, edges_a | edges_b, frozenset(allowed & A))
+
+
+def _closed(
+    M: nx.DiGraph, ancestors: Mapping[str, set[str]]
+) -> dict[str, tuple[frozenset[str], frozenset[tuple[str, str]]]]:
+    """Each construct's ancestral set (itself included) and every arrow into
+    it (an ancestral set holds each of its members' parents)."""
+    out = {}
+    for c, above in ancestors.items():
+        A = frozenset(above | {c})
+        out[c] = (A, frozenset((u, v) for v in A for u in M.pred[v]))
+    return out
 
 
 def _priority(claim: Claim, ends: frozenset[str]) -> tuple[int, int, str, str]:
@@ -224,6 +241,7 @@ def implied_claims(
     # only the constructs with data are ever one of a pair (all of them: one
     # search per node of a 20,000-node diagram would cost its square)
     ancestors = {c: nx.ancestors(M, c) for c in with_data} if memo is not None else {}
+    closed = _closed(M, ancestors)
     ends = frozenset((exposure, outcome))
     searched = unsearched = 0
     for a, b in _pairs(nodes, ends):
@@ -239,18 +257,17 @@ def implied_claims(
         searched += 1
         allowed = set(with_data) - {ca, cb}
         find = partial(_separator, M, ca, cb, allowed)
-        found = (
-            find() if memo is None else memo(_ancestral_key(M, ancestors, ca, cb, allowed), find)
-        )
+        found = find() if memo is None else memo(_ancestral_key(closed, ca, cb, allowed), find)
         if found is None:
             needs = _needs(M, ca, cb, with_data, construct_of)
             untestable.append(Untestable(a, b, "unmeasured", needs))
             continue
         given = tuple(sorted(m for c in found for m in with_data[c]))
+        # an arrow u → v is possible unless v already reaches u (a cycle)
         arrows = tuple(
             (u, v)
             for u, v, cu, cv in ((a, b, ca, cb), (b, a, cb, ca))
-            if not nx.has_path(M, cv, cu)
+            if not (cv in ancestors[cu] if ancestors else nx.has_path(M, cv, cu))
         )
         claims.append(Claim(a, b, given, arrows))
     kept = sorted(claims, key=lambda c: _priority(c, ends))[: max(limit, 0)]

@@ -289,19 +289,41 @@ def profile_column(
 def _distinct_for_rules(series: pd.Series, present: pd.Series) -> int:
     """Distinct present values, exact except that a column of numbers that are not
     all whole reports 3 for "three or more" (the type rules ask no more of it)."""
-    numeric = pd.api.types.is_numeric_dtype(series.dtype) and not (
-        pd.api.types.is_bool_dtype(series.dtype) or isinstance(series.dtype, pd.CategoricalDtype)
-    )
-    if not numeric or len(present) == 0:
+    if not _plain_numbers(series.dtype) or len(present) == 0:
         return int(present.nunique())
     values = present.to_numpy(dtype=np.float64)
-    if bool(np.all(values == np.round(values))):
+    if _all_whole(values):
         return int(present.nunique())
     other = values != values[0]
     if not other.any():
         return 1
     second = values[int(np.argmax(other))]
     return 2 if bool(np.all(~other | (values == second))) else 3
+
+
+#: Values a whole-number test looks at first: most columns of measurements
+#: are told apart from whole numbers there, without a pass over every row.
+_WHOLE_HEAD = 1024
+
+
+def _all_whole(values: np.ndarray) -> bool:
+    """``np.all(values == np.round(values))``, the same answer, found on the
+    first values when one of them is not whole.
+
+    >>> _all_whole(np.array([1.0, 2.0, 3.0])), _all_whole(np.r_[np.ones(5000), 0.5])
+    (True, False)
+    """
+    head = values[:_WHOLE_HEAD]
+    if not np.all(head == np.round(head)):
+        return False
+    return bool(np.all(values == np.round(values)))
+
+
+def _plain_numbers(dtype: Any) -> bool:
+    """A numeric column that is neither booleans nor categories."""
+    return bool(pd.api.types.is_numeric_dtype(dtype)) and not (
+        pd.api.types.is_bool_dtype(dtype) or isinstance(dtype, pd.CategoricalDtype)
+    )
 
 
 def _only_ones(levels: tuple[Any, ...]) -> bool:
@@ -425,7 +447,7 @@ def _infer_numbers(name: str, values: pd.Series, distinct: int) -> str:
     values = values.dropna()
     if distinct == 2 or (distinct == 1 and bool(values.isin([0.0, 1.0]).all())):
         return "binary"
-    whole = bool(np.all(np.isfinite(values)) and np.all(values == np.round(values)))
+    whole = bool(np.all(np.isfinite(values))) and _all_whole(values.to_numpy())
     if not whole or distinct < 2:
         return "continuous"
     low, high = float(values.min()), float(values.max())
@@ -445,8 +467,8 @@ def _looks_like_dates(series: pd.Series, present: pd.Series) -> bool:
         return True
     if not is_textual(series) or len(present) == 0:
         return False
-    sample = present.astype("str").str.strip()
-    sample = sample.iloc[: min(len(sample), 2000)]
+    # the first 2000 values only, cut before the text is stripped (not after)
+    sample = present.iloc[: min(len(present), 2000)].astype("str").str.strip()
     return bool(sample.str.match(_DATE_TEXT).all())
 
 
@@ -476,6 +498,13 @@ def _range(series: pd.Series, present: pd.Series, kind: str) -> tuple[Any, Any]:
     if is_textual(series):
         # The extremes of the distinct values are the extremes of the column.
         present = pd.Series(present.unique()).astype("str")
+    elif _plain_numbers(series.dtype):
+        # numbers with nothing missing: numpy's extremes, without the filled copy
+        # pandas makes; a zero (which may be -0.0) is left to pandas
+        values = present.to_numpy(dtype=np.float64)
+        low, high = values.min(), values.max()
+        if low != 0 and high != 0:
+            return float(low), float(high)
     numbers, bad = parse_numbers(present)
     if bool(bad.any()) or bool(numbers.isna().all()):
         return None, None

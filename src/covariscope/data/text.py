@@ -144,18 +144,22 @@ def read_delimited(
 
 
 def _mixed_kinds(parts: list[pd.Series]) -> bool:
-    """True when chunks disagree: numbers in one, text (or booleans) in another."""
-    kinds = set()
-    for part in parts:
-        if not part.notna().any():
-            continue
-        if pd.api.types.is_bool_dtype(part.dtype):
-            kinds.add("bool")
-        elif pd.api.types.is_numeric_dtype(part.dtype):
-            kinds.add("number")
-        else:
-            kinds.add("text")
-    return len(kinds) > 1
+    """True when chunks disagree: numbers in one, text (or booleans) in another.
+
+    A chunk holding nothing but missing values agrees with any other; when
+    every chunk is of one kind (the usual case) no value is looked at.
+    """
+    if len({_kind(part.dtype) for part in parts}) <= 1:
+        return False
+    return len({_kind(part.dtype) for part in parts if part.notna().any()}) > 1
+
+
+def _kind(dtype: object) -> str:
+    if pd.api.types.is_bool_dtype(dtype):
+        return "bool"
+    if pd.api.types.is_numeric_dtype(dtype):
+        return "number"
+    return "text"
 
 
 def _read_chunks(
