@@ -149,10 +149,12 @@ def test_load_can_be_cancelled(qtbot, qapp):
 
 
 @pytest.mark.skipif(not sys.platform.startswith("linux"), reason="per-thread nice is Linux's")
-def test_background_work_runs_below_the_gui_threads_priority(qtbot):
+def test_background_work_runs_at_the_gui_threads_priority(qtbot):
+    """A worker below the GUI thread's priority is preempted by the machine's
+    other work while it holds the interpreter lock, and the GUI thread waits
+    as long (qt.worker's docstring has the figures): loading, profiling,
+    analysing and the warm-up imports run at the GUI thread's own priority."""
     import os
-
-    from covariscope.qt.worker import BACKGROUND_NICE
 
     gui = os.getpriority(os.PRIO_PROCESS, 0)
     seen: list[int] = []
@@ -160,6 +162,5 @@ def test_background_work_runs_below_the_gui_threads_priority(qtbot):
     r.loaded.connect(seen.append)
     r.load("any")
     qtbot.waitUntil(lambda: bool(seen), timeout=5000)
-    assert seen == [min(19, gui + BACKGROUND_NICE)]
-    assert os.getpriority(os.PRIO_PROCESS, 0) == gui  # the GUI thread keeps its own
+    assert seen == [gui]
     r.shutdown()

@@ -46,12 +46,6 @@ Index = npt.NDArray[np.intp]
 #: and 2^20 on the benchmark of benchmarks/bench_iterative.py).
 PAIR_CELLS = 1 << 20
 
-#: A model with fewer than 1/NARROW of X's columns forms its own products
-#: from its own columns alone (a copy of them per block); a wider one from
-#: every column of the block, which a matrix product does faster than the
-#: copy (measured on the benchmark of benchmarks/bench_iterative.py).
-NARROW = 2
-
 #: Rows per block when no information is asked for (scores only).
 SCORE_ROWS = 16384
 
@@ -155,7 +149,7 @@ class _Round:
             {a: np.zeros((q, len(picks))) for _, a, picks in self.own_work},
         )
         own_work = [
-            (j, a, picks, None if NARROW * len(self.cols[a[0]]) >= q else self.cols[a[0]])
+            (j, a, _runs(picks), _runs(self.cols[a[0]]))
             for j, a, picks in self.own_work
             if len(picks)
         ]
@@ -188,12 +182,30 @@ class _Round:
                 pairs.fill(block.T, k)
                 out.sums += np.dot(k, wk)
             for j, a, picks, cols in own_work:
-                weighted = block[:, picks] * wk[:, j, None]
-                if cols is None:
-                    out.own[a] += np.dot(block.T, weighted)
-                else:  # a narrow model: only its own columns' rows of X'(X_O ⊙ w)
-                    out.own[a][cols] += np.dot(block[:, cols].T, weighted)
+                weighted = _columns(block, picks) * wk[:, j, None]
+                # only the model's own columns' rows of X'(X_O ⊙ w), a run of
+                # adjacent columns at a time (views of the block, no copy)
+                for run in cols:
+                    out.own[a][run] += np.dot(block[:, run].T, weighted)
         return out
+
+
+def _runs(cols: Index) -> list[slice]:
+    """Sorted ``cols`` as runs of adjacent columns.
+
+    >>> _runs(np.array([4, 0, 1, 2, 7]))
+    [slice(0, 3, None), slice(4, 5, None), slice(7, 8, None)]
+    """
+    c = np.sort(np.asarray(cols))
+    breaks = np.flatnonzero(np.diff(c) != 1) + 1
+    return [slice(int(r[0]), int(r[-1]) + 1) for r in np.split(c, breaks) if len(r)]
+
+
+def _columns(block: Array, runs: list[slice]) -> Array:
+    """The block's columns in ``runs`` (a view when there is one run)."""
+    if len(runs) == 1:
+        return block[:, runs[0]]
+    return np.concatenate([block[:, run] for run in runs], axis=1)
 
 
 def batch_pass(

@@ -24,6 +24,7 @@ from __future__ import annotations
 
 from collections.abc import Sequence
 from dataclasses import dataclass
+from functools import cached_property
 
 import numpy as np
 from scipy.linalg import lapack
@@ -62,17 +63,23 @@ class LinearSummary:
     mean: np.ndarray
     comoment: np.ndarray
 
-    @property
+    # Computed once per summary (every fit and VIF reads them; the summary's
+    # arrays are never changed once it is made).
+    @cached_property
     def scale(self) -> np.ndarray:
         """Root co-moment of each column (1 for a constant column, to avoid 0/0)."""
         s = np.sqrt(np.clip(np.diag(self.comoment), 0.0, None))
-        return np.where(s > 0, s, 1.0)
+        out: np.ndarray = np.where(s > 0, s, 1.0)
+        out.flags.writeable = False
+        return out
 
-    @property
+    @cached_property
     def correlation(self) -> np.ndarray:
         """The centred and scaled cross-product matrix (a correlation matrix)."""
         s = self.scale
-        return self.comoment / np.outer(s, s)
+        out: np.ndarray = self.comoment / np.outer(s, s)
+        out.flags.writeable = False
+        return out
 
     def merge(self, other: LinearSummary) -> LinearSummary:
         """Summary of both pieces of data (see :func:`merge_summaries`)."""

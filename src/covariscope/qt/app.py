@@ -78,16 +78,9 @@ def warm_up(modules: tuple[str, ...] = WARM_MODULES) -> list[str]:
 
 
 def start_warmup() -> threading.Thread:
-    """:func:`warm_up` on a background thread below the GUI thread's priority, started."""
-    from covariscope.qt.worker import lower_thread_priority, thread_nice
-
-    gui_nice = thread_nice()
-
-    def run() -> None:
-        lower_thread_priority(gui_nice)
-        warm_up()
-
-    thread = threading.Thread(target=run, name="covariscope-warm-imports", daemon=True)
+    """:func:`warm_up` on a background thread (at the GUI thread's priority:
+    see :mod:`covariscope.qt.worker`), started."""
+    thread = threading.Thread(target=warm_up, name="covariscope-warm-imports", daemon=True)
     thread.start()
     return thread
 

@@ -13,21 +13,27 @@ cancellation.
 The worker threads share the interpreter lock with the GUI thread, so a
 single call that holds it stalls the window however short the GUI's own
 work is: the row functions of ``analysis`` use calls that let it go (see
-:mod:`covariscope.analysis.fitting_common`), the workers run below the GUI
-thread's priority (:func:`lower_thread_priority`), and the interpreter's
-switch interval stays at its 5 ms default: at 1 ms the longest wait of a
-thread sharing the lock with a 200,000-row analysis was no shorter (216 ms
-against 106–208 ms, on a loaded machine: those waits were the machine's,
-not the lock's) and the analysis took longer (41.5 s against 27.6–39.3 s
-for the same 30 edits).
+:mod:`covariscope.analysis.fitting_common`).  The workers run at the GUI
+thread's own priority, on purpose: a worker set 5 nice steps lower (as
+before) was preempted by the machine's other work *while it held the lock*,
+and the GUI thread waited for the lock as long as the worker waited for a
+CPU (measured in benchmarks/gui_storm.py: the GUI thread blocked 94 ms while
+the lock's holder waited 73 ms for a CPU).  A thread standing in for the GUI
+thread beside the study pipeline, at load 5.5-7 on two cores, was late by
+50 ms or more 92 times with the worker 5 steps lower against 36 times at
+the same priority (seven alternating runs of 20-25 s each), and the 99th
+percentile of its lateness was lower in five of the seven pairs.  The
+interpreter's switch interval stays at its 5 ms default: at 1 ms the longest
+wait of a thread sharing the lock with a 200,000-row analysis was no
+shorter (216 ms against 106–208 ms, on a loaded machine: those waits were
+the machine's, not the lock's) and the analysis took longer (41.5 s
+against 27.6–39.3 s for the same 30 edits).
 """
 
 from __future__ import annotations
 
 import copy
 import math
-import os
-import sys
 import threading
 import time
 import traceback
@@ -40,46 +46,7 @@ from covariscope.errors import CovariscopeError
 from covariscope.model.project import Project
 from covariscope.study.cache import StudyCache
 
-__all__ = [
-    "BACKGROUND_NICE",
-    "AnalysisRunner",
-    "LoadRunner",
-    "lower_thread_priority",
-    "snapshot",
-    "study_run",
-    "thread_nice",
-]
-
-#: How much lower than the GUI thread the background threads run (Linux nice steps).
-BACKGROUND_NICE = 5
-
-
-def thread_nice() -> int | None:
-    """The calling thread's nice value (Linux; None elsewhere)."""
-    if not sys.platform.startswith("linux"):
-        return None
-    return os.getpriority(os.PRIO_PROCESS, 0)  # Linux: 0 is the calling thread
-
-
-def lower_thread_priority(gui_nice: int | None) -> None:
-    """Run the calling (background) thread ``BACKGROUND_NICE`` steps below the GUI thread.
-
-    On two cores the analysis, the loader, the profiler, BLAS and the GUI
-    thread take turns: at the same priority the GUI thread waited up to
-    200 ms for a CPU while a study opened (measured from its own
-    ``schedstat`` in benchmarks/gui_storm.py).  A lower priority for the
-    background threads lets it in first.  Linux only: there, a thread has a
-    nice value of its own (elsewhere the call would reach the whole process);
-    a thread already that low is left alone (raising it back needs rights).
-    """
-    if gui_nice is None or not sys.platform.startswith("linux"):
-        return
-    target = min(19, gui_nice + BACKGROUND_NICE)
-    try:
-        if os.getpriority(os.PRIO_PROCESS, 0) < target:
-            os.setpriority(os.PRIO_PROCESS, 0, target)
-    except OSError:
-        return  # not allowed here: the thread keeps its priority
+__all__ = ["AnalysisRunner", "LoadRunner", "snapshot", "study_run"]
 
 
 def snapshot(project: Project) -> Project:
@@ -122,15 +89,12 @@ class _Task(QRunnable):
         generation: int,
         bridge: _Bridge,
         token: _Token,
-        gui_nice: int | None = None,
     ) -> None:
         super().__init__()
         self.fn, self.generation, self.bridge, self.token = fn, generation, bridge, token
-        self.gui_nice = gui_nice
         self.setAutoDelete(True)
 
     def run(self) -> None:
-        lower_thread_priority(self.gui_nice)
         try:
             result = self.fn()
         except Exception as exc:
@@ -187,7 +151,6 @@ class _Runner(QObject):
         self.pool = QThreadPool(self)
         self.pool.setMaxThreadCount(threads)
         self.generation = 0
-        self._gui_nice = thread_nice()  # made on the GUI thread
         self._token: _Token | None = None
         self._running = False
         # parentless and held by every task, so a late signal from a worker
@@ -229,7 +192,7 @@ class _Runner(QObject):
             bridge.progress.emit(generation, float(fraction), str(text))
 
         self._running = True
-        task = _Task(lambda: fn(progress, token), generation, bridge, token, self._gui_nice)
+        task = _Task(lambda: fn(progress, token), generation, bridge, token)
         self.pool.start(task)
         return generation
 
