@@ -237,3 +237,22 @@ def same_json(a: Any, b: Any) -> bool:
 def same() -> Callable[[Any, Any], bool]:
     """:func:`same_json` for a test to call."""
     return same_json
+
+
+@pytest.fixture
+def count_calls(monkeypatch: pytest.MonkeyPatch) -> Callable[[Any, str], list[int]]:
+    """``count_calls(owner, name)`` replaces ``owner.name`` by a wrapper that
+    counts its calls (in the returned one-item list) and calls it."""
+
+    def count(owner: Any, name: str) -> list[int]:
+        calls = [0]
+        real = getattr(owner, name)
+
+        def counting(*args: Any, **kw: Any) -> Any:
+            calls[0] += 1
+            return real(*args, **kw)
+
+        monkeypatch.setattr(owner, name, counting)
+        return calls
+
+    return count

@@ -5,6 +5,7 @@ test_modification.py and test_splines.py) in fewer passes over the rows."""
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from typing import Any
 
 import numpy as np
@@ -55,17 +56,9 @@ def _design(family: str) -> Any:
 
 
 @pytest.fixture
-def passes(monkeypatch: pytest.MonkeyPatch) -> list[int]:
+def passes(count_calls: Callable[[Any, str], list[int]]) -> list[int]:
     """Counts the passes over the rows of the logistic and Poisson fits."""
-    count = [0]
-    real = glm_newton.glm_pass
-
-    def counting(*args: Any, **kw: Any) -> Any:
-        count[0] += 1
-        return real(*args, **kw)
-
-    monkeypatch.setattr(glm_newton, "glm_pass", counting)
-    return count
+    return count_calls(glm_newton, "glm_pass")
 
 
 def test_a_start_keeps_known_coefficients_and_zeroes_new_columns() -> None:

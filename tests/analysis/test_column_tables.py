@@ -7,6 +7,7 @@ fails, fails alone with its own message."""
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from typing import Any
 
 import numpy as np
@@ -67,20 +68,16 @@ def _products(design: Any, near: ColumnFit | None, node: str) -> ExtraModel:
 @pytest.mark.parametrize("family", ["logistic", "risk_ratio"])
 @pytest.mark.parametrize("group_width", [1, 16])
 def test_models_fitted_together_equal_the_models_fitted_alone(
-    family: str, group_width: int, monkeypatch: pytest.MonkeyPatch
+    family: str,
+    group_width: int,
+    monkeypatch: pytest.MonkeyPatch,
+    count_calls: Callable[[Any, str], list[int]],
 ) -> None:
     design = _design(family)
     near = base_fit(design, ["c", "w", "v"])
     models = [_products(design, near, node) for node in ("c", "w", "v", "m")]
     alone = [fit_model(design, model) for model in models]
-    reads = [0]
-    real = glm_batch.batch_pass
-
-    def counting(*args: Any, **kw: Any) -> Any:
-        reads[0] += 1
-        return real(*args, **kw)
-
-    monkeypatch.setattr(glm_batch, "batch_pass", counting)
+    reads = count_calls(glm_batch, "batch_pass")
     monkeypatch.setattr(column_tables, "GROUP_WIDTH", group_width)
     monkeypatch.setattr(column_tables, "GROUP_BYTES", 0)
     seen: list[int] = []

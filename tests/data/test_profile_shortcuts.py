@@ -1,8 +1,9 @@
 """The column profile's shortcuts give the answers of the plain computations.
 
-Reference: pandas' own ``Series.min``/``Series.max`` for a column's range, and
+Reference: pandas' own ``Series.min``/``Series.max`` for a column's range,
 numpy's ``np.all(values == np.round(values))`` for "every value is whole",
-which the profile used before it looked at a column's first values first.
+which the profile used before it looked at a column's first values first, and
+pandas' ``Series.nunique`` for "a single value".
 """
 
 from __future__ import annotations
@@ -80,3 +81,27 @@ def test_whole_test_equals_numpys(values: list[float], head: int) -> None:
         m.setattr(profile_module, "_WHOLE_HEAD", head)
         got = profile_module._all_whole(x)
     assert got == bool(np.all(x == np.round(x)))
+
+
+SINGLE = {
+    "one fraction": pd.Series(np.full(5000, 2.75)),
+    "one whole number": pd.Series(np.full(5000, 5)),
+    "one word": pd.Series(["same"] * 300),
+    "one value and gaps": pd.Series([np.nan, 0.5, np.nan, 0.5]),
+    "both zeros": pd.Series([0.0, -0.0, 0.0]),
+    "one infinity": pd.Series([np.inf, np.inf]),
+    "nothing present": pd.Series([np.nan, np.nan]),
+    "two fractions": pd.Series(np.r_[np.full(5000, 2.75), 2.5]),
+    "two values far apart": pd.Series(np.r_[np.full(5000, 1.0), 3.0]),
+    "two words": pd.Series(["a", "b"] * 10),
+    "measurements": COLUMNS["measurements"],
+    "one level of a category": pd.Series(pd.Categorical(["x"] * 30, categories=["x", "y"])),
+}
+
+
+@pytest.mark.parametrize("name", list(SINGLE))
+def test_single_value_is_a_distinct_count_of_one(name: str) -> None:
+    series = SINGLE[name].rename("outcome")
+    p = profile_column(series)
+    assert p.single_value == (series.nunique() == 1)  # pandas, the reference
+    assert p.single_value == (p.distinct == 1)

@@ -346,3 +346,23 @@ def test_cox_out_of_memory_says_it_reads_the_rows_into_memory(generated_file: Pa
     said = [m for m in result.messages if "Cox models need every row" in m]
     assert said
     assert "duckdb read them into memory" in said[0]
+
+
+def test_a_level_seen_only_outside_the_sample_ends_a_single_value(generated_file: Path) -> None:
+    # The types are inferred on a sample; the levels counted over every row decide.
+    from covariscope.data.profile import profile_column
+    from covariscope.data.sources.batched import FrameCounts
+
+    seen = profile_column(pd.Series(["a"] * 10, name="rare"))
+    assert seen.single_value
+    counts = FrameCounts(
+        rows=11, missing={"rare": 0}, alone={}, several=0, complete=11, levels={"rare": {"a", "b"}}
+    )
+    duck = DuckSource(generated_file, batch_rows=400)
+    try:
+        exact = duck._exact(seen, counts, None)
+    finally:
+        duck.close()
+    assert exact.levels == ("a", "b")
+    assert not exact.single_value
+    assert exact.distinct == 2

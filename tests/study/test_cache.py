@@ -74,3 +74,25 @@ def test_get_many_computes_only_absent_items_in_one_call():
     assert calls == [[2, 3], [4, 5]]
     assert cache.count("sq") == StageCount(hits=1, misses=4)
     assert cache.get("sq", ("k", 4), lambda: -1) == 16  # the same entries as get's
+
+
+def test_a_stage_s_entries_keep_the_cache_s_recency_order_through_hits_and_evictions():
+    # Reference: the whole cache's recency order (a plain list, most recent
+    # last), filtered to the stage, after random stores, hits and evictions.
+    import random
+
+    rng = random.Random(5)
+    cache = StudyCache(max_entries=12)
+    order: list[tuple[str, int]] = []
+    for _ in range(400):
+        stage, key = rng.choice("abc"), rng.randrange(10)
+        if rng.random() < 0.3:
+            cache.get_many(stage, {key: key}, lambda missing: {k: k * 10 for k in missing})
+        else:
+            cache.get(stage, key, lambda key=key: key * 10)
+        if (stage, key) in order:
+            order.remove((stage, key))
+        order.append((stage, key))
+        del order[: max(len(order) - 12, 0)]
+        for s in "abc":
+            assert cache.entries(s) == [(k, k * 10) for t, k in order if t == s]

@@ -40,7 +40,7 @@ GROUP_WIDTH = 16
 #: Bytes of extra columns a group may hold whatever the design's width: a
 #: table of short data is fitted in one group (common practice for a work
 #: buffer; no published figure).
-GROUP_BYTES = 256 << 20
+GROUP_BYTES = 64 << 20
 
 
 @dataclass(frozen=True)

@@ -46,12 +46,6 @@ Index = npt.NDArray[np.intp]
 #: and 2^20 on the benchmark of benchmarks/bench_iterative.py).
 PAIR_CELLS = 1 << 20
 
-#: A model with fewer than 1/NARROW of X's columns forms its own products
-#: from its own columns alone (a copy of them per block); a wider one from
-#: every column of the block, which a matrix product does faster than the
-#: copy (measured on the benchmark of benchmarks/bench_iterative.py).
-NARROW = 2
-
 #: Rows per block when no information is asked for (scores only).
 SCORE_ROWS = 16384
 
@@ -67,37 +61,41 @@ class BatchModel:
     reach: Array
 
 
-def _pairs_of(cols: Index) -> set[tuple[int, int]]:
-    """The column pairs (j ≤ k) of a model's p × p matrix."""
-    c = np.asarray(cols)
+def _pairs_of(cols: Index) -> tuple[Index, Index]:
+    """The column pairs (j ≤ k) of a model's p × p matrix, entry by entry of
+    its upper triangle (row-major): the lower and the higher column of each."""
+    c = np.asarray(cols, dtype=np.intp)
     a, b = np.triu_indices(len(c))
-    lo, hi = np.minimum(c[a], c[b]), np.maximum(c[a], c[b])
-    return set(zip(lo.tolist(), hi.tolist(), strict=True))
+    return np.minimum(c[a], c[b]), np.maximum(c[a], c[b])
 
 
 @dataclass(frozen=True)
 class _Pairs:
-    """The column pairs (j ≤ k) some model's information needs, grouped by j."""
+    """The column pairs (j ≤ k) some model's information needs, grouped by j.
+
+    ``position[j, k]`` is the pair's row among the pair products, −1 for a
+    pair not among them.
+    """
 
     groups: tuple[tuple[int, slice | Index, int], ...]
-    position: dict[tuple[int, int], int]
+    position: npt.NDArray[np.intp]
     size: int
 
     @classmethod
-    def of(cls, wanted: set[tuple[int, int]]) -> _Pairs:
-        position: dict[tuple[int, int], int] = {}
+    def of(cls, lo: Index, hi: Index, q: int) -> _Pairs:
+        """The pairs (lo[i], hi[i]) (each once, sorted) of columns 0 .. q − 1."""
+        keys = np.unique(lo * q + hi)
+        position = np.full((q, q), -1, dtype=np.intp)
+        position[keys // q, keys % q] = np.arange(len(keys))
         groups: list[tuple[int, slice | Index, int]] = []
-        for j in sorted({j for j, _ in wanted}):
-            ks = sorted(k for jj, k in wanted if jj == j)
-            offset = len(position)
-            for k in ks:
-                position[(j, k)] = len(position)
-            contiguous = ks[-1] - ks[0] + 1 == len(ks)
-            picks: slice | Index = (
-                slice(ks[0], ks[-1] + 1) if contiguous else np.array(ks, dtype=np.intp)
-            )
-            groups.append((j, picks, offset))
-        return cls(tuple(groups), position, len(position))
+        firsts, starts = np.unique(keys // q, return_index=True)
+        ends = [*starts[1:].tolist(), len(keys)][: len(starts)]
+        for j, a, b in zip(firsts.tolist(), starts.tolist(), ends, strict=True):
+            ks = keys[a:b] % q
+            contiguous = int(ks[-1]) - int(ks[0]) + 1 == len(ks)
+            picks: slice | Index = slice(int(ks[0]), int(ks[-1]) + 1) if contiguous else ks
+            groups.append((int(j), picks, a))
+        return cls(tuple(groups), position, len(keys))
 
     def fill(self, rows_t: Array, out: Array) -> None:
         """Row p of ``out`` = column j times column k of the block (``rows_t`` = block transposed)."""
@@ -155,7 +153,7 @@ class _Round:
             {a: np.zeros((q, len(picks))) for _, a, picks in self.own_work},
         )
         own_work = [
-            (j, a, picks, None if NARROW * len(self.cols[a[0]]) >= q else self.cols[a[0]])
+            (j, a, _runs(picks), _runs(self.cols[a[0]]))
             for j, a, picks in self.own_work
             if len(picks)
         ]
@@ -188,12 +186,30 @@ class _Round:
                 pairs.fill(block.T, k)
                 out.sums += np.dot(k, wk)
             for j, a, picks, cols in own_work:
-                weighted = block[:, picks] * wk[:, j, None]
-                if cols is None:
-                    out.own[a] += np.dot(block.T, weighted)
-                else:  # a narrow model: only its own columns' rows of X'(X_O ⊙ w)
-                    out.own[a][cols] += np.dot(block[:, cols].T, weighted)
+                weighted = _columns(block, picks) * wk[:, j, None]
+                # only the model's own columns' rows of X'(X_O ⊙ w), a run of
+                # adjacent columns at a time (views of the block, no copy)
+                for run in cols:
+                    out.own[a][run] += np.dot(block[:, run].T, weighted)
         return out
+
+
+def _runs(cols: Index) -> list[slice]:
+    """Sorted ``cols`` as runs of adjacent columns.
+
+    >>> _runs(np.array([4, 0, 1, 2, 7]))
+    [slice(0, 3, None), slice(4, 5, None), slice(7, 8, None)]
+    """
+    c = np.sort(np.asarray(cols))
+    breaks = np.flatnonzero(np.diff(c) != 1) + 1
+    return [slice(int(r[0]), int(r[-1]) + 1) for r in np.split(c, breaks) if len(r)]
+
+
+def _columns(block: Array, runs: list[slice]) -> Array:
+    """The block's columns in ``runs`` (a view when there is one run)."""
+    if len(runs) == 1:
+        return block[:, runs[0]]
+    return np.concatenate([block[:, run] for run in runs], axis=1)
 
 
 def batch_pass(
@@ -226,7 +242,7 @@ def batch_pass(
     info_at = [r for r, (_, req) in enumerate(requests) if req.info]
     meat_at = [r for r, (_, req) in enumerate(requests) if req.meat]
     asked = [(r, False) for r in info_at] + [(r, True) for r in meat_at]
-    plan = _MatrixPlan.of([requests[r][0] for r in sorted({*info_at, *meat_at})])
+    plan = _MatrixPlan.of([requests[r][0] for r in sorted({*info_at, *meat_at})], q)
     own_work = [(j, a, plan.own_columns(requests[a[0]][0])) for j, a in enumerate(asked)]
     models = [cols for cols, _ in requests]
     round_ = _Round(X, y, link, B, offset, plan.shared, asked, own_work, models)
@@ -279,20 +295,20 @@ class _MatrixPlan:
     own: dict[tuple[int, ...], Index]
 
     @classmethod
-    def of(cls, models: Sequence[Index]) -> _MatrixPlan:
+    def of(cls, models: Sequence[Index], q: int) -> _MatrixPlan:
+        """The plan for ``models`` (their columns of an X of ``q`` columns)."""
         each = [_pairs_of(cols) for cols in models]
-        uses: dict[tuple[int, int], int] = {}
-        for pairs in each:
-            for pair in pairs:
-                uses[pair] = uses.get(pair, 0) + 1
-        shared = {pair for pair, count in uses.items() if count >= SHARED_BY}
-        own = {
-            tuple(int(v) for v in cols): np.array(
-                sorted({hi for _, hi in pairs - shared}), dtype=np.intp
-            )
-            for cols, pairs in zip(models, each, strict=True)
-        }
-        return cls(_Pairs.of(shared), own)
+        if not each:
+            return cls(_Pairs.of(np.zeros(0, np.intp), np.zeros(0, np.intp), q), {})
+        # each model's pairs once (a model may not list a column twice)
+        keys = np.concatenate([np.unique(lo * q + hi) for lo, hi in each])
+        found, uses = np.unique(keys, return_counts=True)
+        shared = found[uses >= SHARED_BY]
+        own: dict[tuple[int, ...], Index] = {}
+        for cols, (lo, hi) in zip(models, each, strict=True):
+            alone = ~np.isin(lo * q + hi, shared)
+            own[tuple(int(v) for v in cols)] = np.unique(hi[alone])
+        return cls(_Pairs.of(shared // q, shared % q, q), own)
 
     def own_columns(self, cols: Index) -> Index:
         """The columns whose weighted products the model forms itself."""
@@ -300,15 +316,17 @@ class _MatrixPlan:
 
     def matrix(self, cols: Index, sums: Array, own: Array) -> Array:
         """The model's p × p matrix from the shared pair sums and its own products."""
-        c = [int(v) for v in cols]
-        picks = {k: i for i, k in enumerate(self.own_columns(cols).tolist())}
-        position = self.shared.position
-        out = np.empty((len(c), len(c)))
-        for i, a in enumerate(c):
-            for j in range(i, len(c)):
-                lo, hi = min(a, c[j]), max(a, c[j])
-                at = position.get((lo, hi))
-                out[i, j] = out[j, i] = sums[at] if at is not None else own[lo, picks[hi]]
+        c = np.asarray(cols, dtype=np.intp)
+        lo = np.minimum.outer(c, c)
+        hi = np.maximum.outer(c, c)
+        at = self.shared.position[lo, hi]
+        picks = np.full(self.shared.position.shape[0], -1, dtype=np.intp)
+        mine = self.own_columns(cols)
+        picks[mine] = np.arange(len(mine))
+        kept = at >= 0
+        out = np.empty(at.shape)
+        out[kept] = sums[at[kept]]
+        out[~kept] = own[lo[~kept], picks[hi[~kept]]]
         return out
 
 

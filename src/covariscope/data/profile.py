@@ -96,7 +96,9 @@ class ColumnProfile:
     missing_pct : float
         Percentage of rows missing (0–100).
     distinct : int
-        Distinct present values.
+        Distinct present values (counted when first asked for).
+    single_value : bool
+        Every present value is the same one: ``distinct == 1``, without the count.
     minimum, maximum : float, pandas.Timestamp or None
         For numbers and dates; None for text.
     levels : tuple
@@ -134,6 +136,9 @@ class ColumnProfile:
     count_distinct: Callable[[], int] = field(
         default=lambda: 0, hash=False, compare=False, repr=False
     )
+    #: every present value is one and the same (``distinct == 1``), known from
+    #: the type rules' count, which is exact up to two, without the full count
+    single_value: bool = False
 
     @functools.cached_property
     def distinct(self) -> int:
@@ -247,6 +252,7 @@ def profile_column(
     missing = int(len(series) - len(present))
     missing_pct = 100.0 * missing / len(series) if len(series) else 0.0
     distinct = _distinct_for_rules(series, present)
+    single_value = distinct == 1
     warnings: list[str] = []
     inferred = _infer(series, present, distinct, warnings)
     kind = inferred
@@ -275,6 +281,7 @@ def profile_column(
         missing=missing,
         missing_pct=missing_pct,
         count_distinct=lambda: int(series.nunique()),
+        single_value=single_value,
         minimum=minimum,
         maximum=maximum,
         levels=levels,

@@ -79,6 +79,9 @@ class StudyCache:
         self.max_entries = max_entries
         self._lock = threading.RLock()
         self._entries: OrderedDict[tuple[str, Hashable], tuple[Any, int]] = OrderedDict()
+        # each stage's keys in the same least-recent-first order (entries() reads
+        # one stage without walking the others' thousands of entries)
+        self._stages: dict[str, OrderedDict[Hashable, None]] = {}
         self._bytes = 0
         self._hits: dict[str, int] = {}
         self._misses: dict[str, int] = {}
@@ -101,7 +104,7 @@ class StudyCache:
         with self._lock:
             hit = self._entries.get(full)
             if hit is not None:
-                self._entries.move_to_end(full)
+                self._touch(stage, key)
                 self._hits[stage] = self._hits.get(stage, 0) + 1
                 value: T = hit[0]
                 return value
@@ -140,7 +143,7 @@ class StudyCache:
             for item, key in keys.items():
                 hit = self._entries.get((stage, key))
                 if hit is not None:
-                    self._entries.move_to_end((stage, key))
+                    self._touch(stage, key)
                     found[item] = hit[0]
             self._hits[stage] = self._hits.get(stage, 0) + len(found)
             missing = [item for item in keys if item not in found]
@@ -163,12 +166,19 @@ class StudyCache:
             if full in self._entries:
                 return
             self._entries[full] = (value, size)
+            self._stages.setdefault(stage, OrderedDict())[key] = None
             self._bytes += size
             while self._entries and (
                 self._bytes > self.max_bytes or len(self._entries) > self.max_entries
             ):
-                _, (_, old) = self._entries.popitem(last=False)
+                (gone, gone_key), (_, old) = self._entries.popitem(last=False)
+                del self._stages[gone][gone_key]
                 self._bytes -= old
+
+    def _touch(self, stage: str, key: Hashable) -> None:
+        """Make an entry the most recently used (the lock is held)."""
+        self._entries.move_to_end((stage, key))
+        self._stages[stage].move_to_end(key)
 
     def replace(self, stage: str, key: Hashable, value: object, size: int = 0) -> None:
         """Swap a stored result for an equal one (a view that shares memory); no count."""
@@ -183,7 +193,7 @@ class StudyCache:
     def entries(self, stage: str) -> list[tuple[Hashable, Any]]:
         """The (key, value) pairs of one stage, most recent last."""
         with self._lock:
-            return [(k, v) for (s, k), (v, _) in self._entries.items() if s == stage]
+            return [(k, self._entries[(stage, k)][0]) for k in self._stages.get(stage, ())]
 
     def record(self, stage: str, hit: bool) -> None:
         """Count a hit or miss of a stage whose results live elsewhere (a fit)."""

@@ -100,7 +100,7 @@ def check_question_columns(
         family_of(family).least_squares
         and outcome_col is not None
         and outcome_col in profiles
-        and profiles[outcome_col].distinct == 1
+        and profiles[outcome_col].single_value
     ):
         value = profiles[outcome_col].minimum
         raise DesignError(

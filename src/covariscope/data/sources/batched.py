@@ -234,6 +234,7 @@ class BatchSource(ABC):
             levels = sort_levels(found)
             changes["levels"] = levels
             changes["count_distinct"] = functools.partial(len, levels)
+            changes["single_value"] = len(levels) == 1
             if profile.type == "binary" and len(levels) > 2:
                 changes["type"] = changes["inferred_type"] = "categorical"
         levels = changes.get("levels", profile.levels)
