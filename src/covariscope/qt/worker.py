@@ -18,11 +18,12 @@ thread's own priority, on purpose: a worker set 5 nice steps lower (as
 before) was preempted by the machine's other work *while it held the lock*,
 and the GUI thread waited for the lock as long as the worker waited for a
 CPU (measured in benchmarks/gui_storm.py: the GUI thread blocked 94 ms while
-the lock's holder waited 73 ms for a CPU).  A thread standing in for the GUI
-thread beside the study pipeline, at load 5.5-7 on two cores, was late by
-50 ms or more 92 times with the worker 5 steps lower against 36 times at
-the same priority (seven alternating runs of 20-25 s each), and the 99th
-percentile of its lateness was lower in five of the seven pairs.  The
+the lock's holder waited 73 ms for a CPU).  In benchmarks/bench_priority.py
+a thread standing in for the GUI thread beside the study pipeline, at load
+4.4-7 on two cores, was late by 50 ms or more 99 times with the worker 5
+steps lower against 38 times at the same priority (nine alternating pairs
+of 15-25 s runs), and the 99th percentile of its lateness was lower at the
+same priority in seven of the nine pairs.  The
 interpreter's switch interval stays at its 5 ms default: at 1 ms the longest
 wait of a thread sharing the lock with a 200,000-row analysis was no
 shorter (216 ms against 106–208 ms, on a loaded machine: those waits were
