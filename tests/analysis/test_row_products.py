@@ -42,8 +42,13 @@ ROW_FUNCTIONS = [
     (column_fit, "_linear_extra"),
     (claim_fits, "_fit"),
     (glm_batch, "batch_pass"),
+    (glm_batch._Round, "rows"),
     (LogitLink, "columns_sums"),
     (PoissonLink, "columns_sums"),
+    (LogitLink, "block_sums"),
+    (PoissonLink, "block_sums"),
+    (LogitLink, "batch_sums"),
+    (PoissonLink, "batch_sums"),
 ]
 
 

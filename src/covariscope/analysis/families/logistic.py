@@ -35,7 +35,9 @@ class LogitLink(GlmLink):
         μ = 1/(1 + e) for η ≥ 0 and e/(1 + e) otherwise, and μ(1 − μ) =
         e/(1 + e)², exact where 1 − μ rounds to zero."""
         e = np.exp(-np.abs(eta))
-        dev = float(np.sum(np.log1p(e))) + float(np.sum(np.maximum(eta, 0.0))) - float(y @ eta)
+        dev = (
+            float(np.sum(np.log1p(e))) + float(np.sum(np.maximum(eta, 0.0))) - float(np.dot(y, eta))
+        )
         r = 1.0 / (1.0 + e)
         low = e * r  # min(μ, 1 − μ)
         mu = np.where(eta >= 0.0, r, low)
@@ -96,7 +98,7 @@ class LogitLink(GlmLink):
         mu = np.where(eta >= 0.0, r, e * r)
         w = e * r * r
         dev = 2.0 * (
-            float(np.sum(np.log1p(e))) + float(np.sum(np.maximum(eta, 0.0))) - float(y @ eta)
+            float(np.sum(np.log1p(e))) + float(np.sum(np.maximum(eta, 0.0))) - float(np.dot(y, eta))
         )
         low = float(np.min(np.minimum(mu, 1.0 - mu))) if len(y) else math.inf
         return dev, mu, w, low

@@ -35,7 +35,7 @@ class PoissonLink(GlmLink):
     def block_sums(self, y: Array, eta: Array) -> tuple[float, Array, Array, float, float]:
         """μ = exp(η) (η capped at 700), the weight μ, deviance 2(Σμ − y'η)."""
         mu = np.exp(np.minimum(eta, 700.0))
-        dev = 2.0 * (float(np.sum(mu)) - float(y @ eta))
+        dev = 2.0 * (float(np.sum(mu)) - float(np.dot(y, eta)))
         return dev, y - mu, mu, float(np.min(mu)), float(np.max(mu))
 
     def columns_sums(
@@ -57,7 +57,7 @@ class PoissonLink(GlmLink):
         mu = np.exp(np.minimum(eta, 700.0))
         pos = y[y > 0]
         sat = float(np.sum(pos * np.log(pos) - pos)) if saturated else 0.0
-        dev = 2.0 * (float(np.sum(mu)) - float(y @ eta) + sat)
+        dev = 2.0 * (float(np.sum(mu)) - float(np.dot(y, eta)) + sat)
         low = float(np.min(mu)) if len(y) else math.inf
         return dev, mu, mu, low
 
