@@ -56,13 +56,8 @@ def test_quantiles_equal_numpy_to_the_last_bit(n: int, probs: list[float]) -> No
         np.testing.assert_array_equal(x, before)  # the column is only read
 
 
-def test_a_sample_that_misses_every_bracket_still_gives_numpys_numbers(
-    monkeypatch: pytest.MonkeyPatch,
-) -> None:
-    n = 200_000
-    x = np.random.default_rng(3).normal(size=n)
-    stride = n // quantiles_module._SAMPLE
-    x[::stride] = 1e6  # every sampled value is the same outlier: each bracket is [1e6, 1e6]
+def _partition_sizes(monkeypatch: pytest.MonkeyPatch) -> list[int]:
+    """The size of every array np.partition is given while quantiles run."""
     sizes: list[int] = []
     partition = np.partition
 
@@ -71,6 +66,17 @@ def test_a_sample_that_misses_every_bracket_still_gives_numpys_numbers(
         return partition(a, kth)
 
     monkeypatch.setattr(quantiles_module.np, "partition", counted)
+    return sizes
+
+
+def test_a_sample_that_misses_every_bracket_still_gives_numpys_numbers(
+    monkeypatch: pytest.MonkeyPatch,
+) -> None:
+    n = 200_000
+    x = np.random.default_rng(3).normal(size=n)
+    stride = n // quantiles_module._SAMPLE
+    x[::stride] = 1e6  # every sampled value is the same outlier: each bracket is [1e6, 1e6]
+    sizes = _partition_sizes(monkeypatch)
     probs = [0.25, 0.5, 0.75]
     got = quantiles(x, probs)
     monkeypatch.undo()
@@ -83,14 +89,7 @@ def test_within_brackets_only_a_slice_of_the_column_is_partitioned(
 ) -> None:
     n = 400_000
     x = np.random.default_rng(5).normal(size=n)
-    sizes: list[int] = []
-    partition = np.partition
-
-    def counted(a: np.ndarray, kth: object) -> np.ndarray:
-        sizes.append(a.size)
-        return partition(a, kth)
-
-    monkeypatch.setattr(quantiles_module.np, "partition", counted)
+    sizes = _partition_sizes(monkeypatch)
     got = quantiles(x, [0.25, 0.5, 0.75])
     monkeypatch.undo()
     np.testing.assert_array_equal(got, np.quantile(x, [0.25, 0.5, 0.75]))

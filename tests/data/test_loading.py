@@ -490,6 +490,19 @@ def test_column_type_does_not_depend_on_chunks(tmp_path, monkeypatch):
     assert chunked["k"].dtype == np.int64
 
 
+def _chunk_reads(monkeypatch):
+    """The columns each read of the file's chunks asked for (None: every column)."""
+    reads = []
+    read_chunks = text._read_chunks
+
+    def counted(*args, **kwargs):
+        reads.append(kwargs.get("usecols"))
+        return read_chunks(*args, **kwargs)
+
+    monkeypatch.setattr(text, "_read_chunks", counted)
+    return reads
+
+
 def test_a_chunk_of_nothing_but_missing_values_agrees_with_any_other(tmp_path, monkeypatch):
     """A run of empty cells as long as a chunk is no second kind of value: the
     column is read once, as pandas reads it in one piece (the reference)."""
@@ -501,14 +514,7 @@ def test_a_chunk_of_nothing_but_missing_values_agrees_with_any_other(tmp_path, m
     ]
     path = tmp_path / "gaps.csv"
     path.write_text("k,t,b\n" + "".join(lines), encoding="utf-8")
-    reads = []
-    read_chunks = text._read_chunks
-
-    def counted(*args, **kwargs):
-        reads.append(kwargs.get("usecols"))
-        return read_chunks(*args, **kwargs)
-
-    monkeypatch.setattr(text, "_read_chunks", counted)
+    reads = _chunk_reads(monkeypatch)
     frame = load_table(path).frame
     whole = pd.read_csv(path)
     assert reads == [None]  # no column read again as text
@@ -523,14 +529,7 @@ def test_numbers_in_one_chunk_and_text_in_another_are_read_again_as_text(tmp_pat
     lines = [f"{i},{i if i < 150 else 'x' + str(i)}\n" for i in range(200)]
     path = tmp_path / "late_words.csv"
     path.write_text("k,v\n" + "".join(lines), encoding="utf-8")
-    reads = []
-    read_chunks = text._read_chunks
-
-    def counted(*args, **kwargs):
-        reads.append(kwargs.get("usecols"))
-        return read_chunks(*args, **kwargs)
-
-    monkeypatch.setattr(text, "_read_chunks", counted)
+    reads = _chunk_reads(monkeypatch)
     frame = load_table(path).frame
     assert reads == [None, [1]]
     assert frame["v"].tolist() == pd.read_csv(path)["v"].astype(str).tolist()

@@ -239,16 +239,23 @@ def test_switching_family_and_back_refits_nothing(warm, rerun):
     assert source.read == []
 
 
-def test_binding_a_column_refits_only_the_models_that_hold_it(rerun):
+def _rebound(rerun, node, family=None):
+    """The generated study run with ``node`` unbound, then run again by
+    ``rerun`` once it is bound: (before, after, the cache, counts reset between)."""
     project, table = _generated()
-    project.analysis.family = "logistic"
+    if family is not None:
+        project.analysis.family = family
     source = LoggingSource(table)
-    project.diagram.update_node("p1", column=None)
+    project.diagram.update_node(node, column=None)
     cache = StudyCache()
-    run_study(project, table=source, cache=cache)
+    before = run_study(project, table=source, cache=cache)
     cache.reset_counts()
-    project.diagram.update_node("p1", column="p1")
-    result = rerun(project, source, cache)
+    project.diagram.update_node(node, column=node)
+    return before, rerun(project, source, cache), cache
+
+
+def test_binding_a_column_refits_only_the_models_that_hold_it(rerun):
+    _, result, cache = _rebound(rerun, "p1", "logistic")
     ev = result.evidence
     models = {(), tuple(ev.candidates), *((c,) for c in ev.covariates)}
     models |= {tuple(t for t in ev.candidates if t != c) for c in ev.candidates}
@@ -322,14 +329,7 @@ def test_arrow_that_keeps_the_recommended_set_retests_only_changed_claims(rerun)
 
 
 def test_binding_a_candidate_computes_its_own_modification_only(rerun):
-    project, table = _generated()
-    table = LoggingSource(table)
-    project.diagram.update_node("p1", column=None)
-    cache = StudyCache()
-    before = run_study(project, table=table, cache=cache)
-    cache.reset_counts()
-    project.diagram.update_node("p1", column="p1")
-    after = rerun(project, table, cache)
+    before, after, cache = _rebound(rerun, "p1")
     assert set(after.modification) == set(before.modification) | {"p1"}
     assert cache.count("modification").misses == 1
     assert cache.count("modification").hits == len(before.modification)
@@ -386,14 +386,7 @@ def test_binding_a_column_with_missing_values_shrinks_the_sample_and_rebuilds_th
 ):
     # The rows change, so no earlier number of the others can be kept: every
     # column is read and written again, and the answer is a fresh run's.
-    project, table = _generated()
-    source = LoggingSource(table)
-    project.diagram.update_node("c3", column=None)
-    cache = StudyCache()
-    before = run_study(project, table=source, cache=cache)
-    cache.reset_counts()
-    project.diagram.update_node("c3", column="c3")
-    after = rerun(project, source, cache)
+    before, after, cache = _rebound(rerun, "c3")
     assert after.sample.used == before.sample.used - 40
     assert cache.count("missing").misses == 1  # the new column's mask; the others' are kept
     assert cache.count("column").hits == 0
