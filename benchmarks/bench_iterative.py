@@ -90,13 +90,12 @@ def median_time(fn: Callable[[], Any]) -> float:
     return time.perf_counter() - t0
 
 
-#: Processor time (every thread of this process) of the last `alternate`,
-#: medians by name: on a machine shared with other work it tells how much
-#: work each side did, which the wall-clock times blur.
-CPU: dict[str, float] = {}
-
-
-def alternate(fns: dict[str, Callable[[], Any]], repeat: int) -> dict[str, float]:
+def alternate(
+    fns: dict[str, Callable[[], Any]], repeat: int
+) -> tuple[dict[str, float], dict[str, float]]:
+    """Median wall-clock and processor times (every thread of this process) by
+    name, the functions run in turn; on a machine shared with other work the
+    processor time tells how much work each side did, which wall time blurs."""
     times: dict[str, list[float]] = {k: [] for k in fns}
     cpu: dict[str, list[float]] = {k: [] for k in fns}
     for _ in range(repeat):
@@ -104,9 +103,8 @@ def alternate(fns: dict[str, Callable[[], Any]], repeat: int) -> dict[str, float
             c0 = time.process_time()
             times[k].append(median_time(fn))
             cpu[k].append(time.process_time() - c0)
-    CPU.clear()
-    CPU.update({k: statistics.median(v) for k, v in cpu.items()})
-    return {k: statistics.median(v) for k, v in times.items()}
+    medians = {k: statistics.median(v) for k, v in times.items()}
+    return medians, {k: statistics.median(v) for k, v in cpu.items()}
 
 
 def engine_table(frame: pd.DataFrame, family: str) -> Callable[[], Any]:
@@ -328,7 +326,7 @@ def whole_process(frame: pd.DataFrame, m: int, repeat: int) -> dict[str, Any]:
                 [py, str(script), str(folder / "study.csv"), ",".join(map(str, picks))], check=True
             )
 
-        t = alternate({"engine": ours, "reference": theirs}, repeat)
+        t, _ = alternate({"engine": ours, "reference": theirs}, repeat)
     # The reference's reading and start-up is counted once; its model loop is
     # scaled from the models timed (start-up: one run with no model at all).
     return {"engine_s": t["engine"], "reference_s": t["reference"], "models_timed": len(picks)}
@@ -341,7 +339,7 @@ def child(args: argparse.Namespace) -> dict[str, Any]:
     scale = len(models) / len(some)
     big = invented_cohort(args.n)
     for family, ref_name in (("logistic", "statsmodels_logit"), ("risk_ratio", "statsmodels_glm")):
-        t = alternate(
+        t, cpu = alternate(
             {"engine": engine_table(big, family), "ref": statsmodels_loop(big, family, some)},
             args.repeat,
         )
@@ -350,7 +348,7 @@ def child(args: argparse.Namespace) -> dict[str, Any]:
             "engine_s": t["engine"],
             f"{ref_name}_s": t["ref"] * scale,
             f"vs_{ref_name}": t["ref"] * scale / t["engine"],
-            "cpu_ratio": CPU["ref"] * scale / CPU["engine"],
+            "cpu_ratio": cpu["ref"] * scale / cpu["engine"],
         }
         out[family]["passes"] = pass_counts(big, family)
         if family == "logistic":
@@ -363,13 +361,13 @@ def child(args: argparse.Namespace) -> dict[str, Any]:
     life = lifelines_loop(cox, some)
     if life is not None:
         fns["lifelines"] = life
-    t = alternate(fns, args.repeat)
+    t, cpu = alternate(fns, args.repeat)
     out["cox"] = {
         "n": args.n_cox,
         "engine_s": t["engine"],
         "phreg_s": t["phreg"] * scale,
         "vs_phreg": t["phreg"] * scale / t["engine"],
-        "cpu_ratio_phreg": CPU["phreg"] * scale / CPU["engine"],
+        "cpu_ratio_phreg": cpu["phreg"] * scale / cpu["engine"],
     }
     if "lifelines" in t:
         out["cox"]["lifelines_s"] = t["lifelines"] * scale

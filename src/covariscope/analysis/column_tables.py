@@ -154,84 +154,76 @@ def _fit_group(
 ) -> list[ColumnFit | str]:
     """The models of one group: one matrix [1 | shared columns | each model's
     extra columns], the rows' facts read once, the Newton walks in lockstep."""
-    from covariscope.analysis.fitting_common import spread_problem, too_few_rows
-    from covariscope.analysis.glm import OutcomeFacts, glm_fit_from_path, outcome_problem
-    from covariscope.analysis.glm_batch import BatchModel, newton_paths_many
+    from covariscope.analysis.column_fit import fit_columns
+    from covariscope.analysis.glm_batch import BatchModel, fits_many
     from covariscope.analysis.glm_newton import walk_inputs
 
     assert design.y is not None  # a GLM design has an outcome column
     y = design.y
     X, idx, starts, refused = _side_by_side(design, models)
-    n, width = X.shape
-    every = np.arange(width, dtype=np.intp)
+    every = np.arange(X.shape[1], dtype=np.intp)
     _, scale, reach = walk_inputs(X, y, design.family, every, design.offset, None, None, None)
-    with np.errstate(invalid="ignore"):  # inf − inf is NaN, as wanted
-        spread = np.ptp(X, axis=0) if n else np.zeros(width)
-    said = outcome_problem(y, design.family)
-    problems: list[str] = []
-    for model, cols, reason in zip(models, idx, refused, strict=True):
-        names = ["(intercept)", *model.names]
-        problem = (
-            reason
-            or said
-            or (
-                spread_problem(spread[cols], X[0, cols], names, skip=1)
-                if n
-                else "The analytic sample has no rows."
-            )
-        )
-        problems.append(problem or (too_few_rows(n, len(cols)) if n <= len(cols) else ""))
-    todo = [k for k, problem in enumerate(problems) if not problem]
-    batch = []
-    for k in todo:
-        start = starts[k]
-        if start is not None and start.shape != (len(idx[k]),):
-            start = None  # a mismatched start is ignored rather than trusted
-        b, sc, re = walk_inputs(
-            X, y, design.family, idx[k], design.offset, start, scale[idx[k]], reach[idx[k]]
-        )
-        batch.append(BatchModel(idx[k], b, sc, re))
+    out: list[ColumnFit | str] = _problems(design, X, models, idx, refused)
+    todo = [k for k, problem in enumerate(out) if not problem]
 
     def progress(served: Sequence[int]) -> None:
         if announce is not None:
             announce(first + min(len(todo) - len(served), len(models) - 1))
 
-    paths = newton_paths_many(
-        X,
-        y,
-        design.family,
-        batch,
-        offset=design.offset,
-        meat=family_of(design.family).glm.robust,
-        on_round=progress,
-    )
-    facts = OutcomeFacts.of(y)
-    out: list[ColumnFit | str] = list(problems)
-    for k, path in zip(todo, paths, strict=True):
-        names = list(models[k].names)
-        fitted: ColumnFit | str | None = None
-        if path is not None:
-            try:
-                fit, kept = glm_fit_from_path(
-                    X,
-                    y,
-                    design.family,
-                    path,
-                    column_names=["(intercept)", *names],
-                    terms=(),
-                    exposure_index=1,
-                    cols=idx[k],
-                    outcome=facts,
-                )
-                fitted = column_fit_of(fit, None if kept is None else kept.params, names)
-            except (ArithmeticError, ValueError, np.linalg.LinAlgError):
-                fitted = None
-        if fitted is None:  # fitted alone, which says what went wrong
-            from covariscope.analysis.column_fit import fit_columns
-
+    batch = [
+        BatchModel.of(
+            X,
+            y,
+            design.family,
+            idx[k],
+            offset=design.offset,
+            start=starts[k],
+            scale=scale[idx[k]],
+            reach=reach[idx[k]],
+        )
+        for k in todo
+    ]
+    names = [["(intercept)", *models[k].names] for k in todo]
+    fitted = fits_many(X, y, design.family, batch, names, offset=design.offset, on_round=progress)
+    for k, done in zip(todo, fitted, strict=True):
+        own = list(models[k].names)
+        if done is None:  # fitted alone, which says what went wrong
             alone = np.asfortranarray(X[:, idx[k]])
-            fitted = fit_columns(design, alone, names, start=starts[k], ones_first=True)
-        out[k] = fitted
+            out[k] = fit_columns(design, alone, own, start=starts[k], ones_first=True)
+        else:
+            fit, kept = done
+            out[k] = column_fit_of(fit, None if kept is None else kept.params, own)
+    return out
+
+
+def _problems(
+    design: Design,
+    X: np.ndarray,
+    models: Sequence[ExtraModel],
+    idx: Sequence[np.ndarray],
+    refused: Sequence[str],
+) -> list[ColumnFit | str]:
+    """Why each model of a group cannot be fitted ("" when it can), as a model
+    fitted alone would say: its columns refused, the outcome, missing values or
+    a constant column (each column's range read once for all), too few rows."""
+    from covariscope.analysis.fitting_common import spread_problem, too_few_rows
+    from covariscope.analysis.glm import outcome_problem
+
+    assert design.y is not None
+    n = X.shape[0]
+    with np.errstate(invalid="ignore"):  # inf − inf is NaN, as wanted
+        spread = np.ptp(X, axis=0) if n else np.zeros(X.shape[1])
+    said = outcome_problem(design.y, design.family)
+    out: list[ColumnFit | str] = []
+    for model, cols, reason in zip(models, idx, refused, strict=True):
+        names = ["(intercept)", *model.names]
+        if reason or said:
+            out.append(reason or said)
+        elif not n:
+            out.append("The analytic sample has no rows.")
+        else:
+            problem = spread_problem(spread[cols], X[0, cols], names, skip=1)
+            out.append(problem or (too_few_rows(n, len(cols)) if n <= len(cols) else ""))
     return out
 
 

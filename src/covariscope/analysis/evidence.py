@@ -346,9 +346,7 @@ class EvidenceEngine:
     ) -> None:
         """:meth:`fit_many` for rows in memory: the models' Newton steps share
         each read of the rows (:func:`~covariscope.analysis.glm_batch.newton_paths_many`)."""
-        from covariscope.analysis.glm import OutcomeFacts, glm_fit_from_path
-        from covariscope.analysis.glm_batch import BatchModel, newton_paths_many
-        from covariscope.analysis.glm_newton import walk_inputs
+        from covariscope.analysis.glm_batch import BatchModel, fits_many
 
         design = self.design
         assert design.y is not None  # make_design requires an outcome here
@@ -359,51 +357,34 @@ class EvidenceEngine:
             for position, key, ordered, cols in self._unfitted(plan):
                 names = ["(intercept)", *(design.column_names[c] for c in cols)]
                 idx = np.array([0, *(c + 1 for c in cols)], dtype=np.intp)
-                start = self._warm_start(ordered, names[1:], True)
-                if start is not None and start.shape != (len(idx),):
-                    start = None
-                scale = np.concatenate([[0.0], self._column_sd()[cols]])
-                b, scale, reach = walk_inputs(
+                model = BatchModel.of(
                     full,
                     design.y,
                     self.family,
                     idx,
-                    design.offset,
-                    start,
-                    scale,
-                    self._reach()[idx],
+                    offset=design.offset,
+                    start=self._warm_start(ordered, names[1:], True),
+                    scale=np.concatenate([[0.0], self._column_sd()[cols]]),
+                    reach=self._reach()[idx],
                 )
-                todo.append((key, ordered, names, BatchModel(idx, b, scale, reach)))
+                todo.append((key, ordered, names, model))
                 where.append(position)
             if len(todo) < 2:
                 return
-            paths = newton_paths_many(
+            fitted = fits_many(
                 full,
                 design.y,
                 self.family,
-                [m for _, _, _, m in todo],
+                [model for *_, model in todo],
+                [names for _, _, names, _ in todo],
+                terms=[ordered for _, ordered, _, _ in todo],
                 offset=design.offset,
-                meat=self.model_family.glm.robust,
                 on_pass=None if on_pass is None else lambda k: on_pass(where[k]),
             )
-            facts = OutcomeFacts.of(design.y)
-            for (key, ordered, names, model), path in zip(todo, paths, strict=True):
-                if path is None:
+            for (key, _, _, _), done in zip(todo, fitted, strict=True):
+                if done is None:
                     continue  # fit() fits it alone and says what went wrong
-                try:
-                    fit, kept = glm_fit_from_path(
-                        full,
-                        design.y,
-                        self.family,
-                        path,
-                        column_names=names,
-                        terms=ordered,
-                        exposure_index=1,
-                        cols=model.cols,
-                        outcome=facts,
-                    )
-                except (ArithmeticError, ValueError, np.linalg.LinAlgError):
-                    continue  # fit() fits it alone and says what went wrong
+                fit, kept = done
                 if kept is not None and kept.cov is not None and fit.ok and fit.converged:
                     self._glm_cov[key] = kept.cov
                 if self._record is not None:

@@ -31,11 +31,13 @@ import numpy as np
 import numpy.typing as npt
 
 from covariscope.analysis.families import GlmLink, Scratch, family_of
-from covariscope.analysis.glm_newton import GlmPath, PassRequest, Walk, newton_walk
+from covariscope.analysis.fits import Fit
+from covariscope.analysis.glm import OutcomeFacts, glm_fit_from_path
+from covariscope.analysis.glm_newton import GlmPath, PassRequest, Walk, newton_walk, walk_inputs
 from covariscope.analysis.passes import GlmPass
 from covariscope.analysis.row_threads import in_ranges
 
-__all__ = ["BatchModel", "batch_pass", "newton_paths_many"]
+__all__ = ["BatchModel", "batch_pass", "fits_many", "newton_paths_many"]
 
 Array = npt.NDArray[np.float64]
 Index = npt.NDArray[np.intp]
@@ -59,6 +61,27 @@ class BatchModel:
     start: Array
     scale: Array
     reach: Array
+
+    @classmethod
+    def of(
+        cls,
+        X: Array,
+        y: Array,
+        family: str,
+        cols: Index,
+        *,
+        offset: Array | None,
+        start: Array | None,
+        scale: Array,
+        reach: Array,
+    ) -> BatchModel:
+        """The model of columns ``cols`` of X (each column's ``scale`` and
+        ``reach`` given), starting at ``start``; a start of the wrong length
+        is ignored rather than trusted (the walk then starts cold)."""
+        if start is not None and start.shape != (len(cols),):
+            start = None
+        b, sd, far = walk_inputs(X, y, family, cols, offset, start, scale, reach)
+        return cls(cols, b, sd, far)
 
 
 def _pairs_of(cols: Index) -> tuple[Index, Index]:
@@ -384,3 +407,57 @@ def newton_paths_many(
             except (ArithmeticError, ValueError, np.linalg.LinAlgError):
                 del pending[k]
     return paths
+
+
+def fits_many(
+    X: Array,
+    y: Array,
+    family: str,
+    models: Sequence[BatchModel],
+    names: Sequence[list[str]],
+    *,
+    terms: Sequence[tuple[str, ...]] | None = None,
+    offset: Array | None = None,
+    on_pass: Callable[[int], None] | None = None,
+    on_round: Callable[[Sequence[int]], None] | None = None,
+) -> list[tuple[Fit, GlmPath | None] | None]:
+    """The :class:`Fit` (and Newton path) each model ends in, its walk made by
+    :func:`newton_paths_many` and its fit formed by
+    :func:`~covariscope.analysis.glm.glm_fit_from_path`, as a model fitted
+    alone (``names``: each model's column names, intercept first; ``terms``:
+    the covariates each Fit names, none when not given).  None for a model
+    whose walk or fit raised: its caller fits it alone, which says what went
+    wrong; the others are unchanged."""
+    paths = newton_paths_many(
+        X,
+        y,
+        family,
+        models,
+        offset=offset,
+        meat=family_of(family).glm.robust,
+        on_pass=on_pass,
+        on_round=on_round,
+    )
+    facts = OutcomeFacts.of(y)
+    out: list[tuple[Fit, GlmPath | None] | None] = []
+    for k, (model, path) in enumerate(zip(models, paths, strict=True)):
+        if path is None:
+            out.append(None)
+            continue
+        try:
+            out.append(
+                glm_fit_from_path(
+                    X,
+                    y,
+                    family,
+                    path,
+                    column_names=names[k],
+                    terms=() if terms is None else terms[k],
+                    exposure_index=1,
+                    cols=model.cols,
+                    outcome=facts,
+                )
+            )
+        except (ArithmeticError, ValueError, np.linalg.LinAlgError):
+            out.append(None)
+    return out

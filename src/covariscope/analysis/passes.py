@@ -6,8 +6,9 @@ robust (sandwich) standard errors of the Poisson model need X' diag((y − μ)²
 as well.  `glm_pass` computes all of them in one read of the rows, block by
 block, so that each block of X is fetched from memory once and used while it
 is in the processor cache; a long pass is cut into ranges of rows summed on
-threads of their own (:mod:`covariscope.analysis.row_threads`).  A model that uses only some columns of a wider
-matrix names them (``cols``) and is never copied as a whole.
+threads of their own (:mod:`covariscope.analysis.row_threads`).  A model
+that uses only some columns of a wider matrix names them (``cols``) and is
+never copied as a whole.
 
 This function is the seam for other data sources: a source that cannot hold
 the rows in memory (a database, a cluster) provides the same four sums for a

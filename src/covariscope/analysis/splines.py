@@ -27,7 +27,7 @@ from covariscope.analysis.column_fit import (
     start_from,
     takes_start,
 )
-from covariscope.analysis.column_tables import ExtraModel, Prepared, fit_extra_many
+from covariscope.analysis.column_tables import ExtraModel, Prepared, fit_extra_many, fit_model
 from covariscope.analysis.design import Design
 from covariscope.analysis.families import family_of
 from covariscope.analysis.linear import LinearSummary
@@ -98,6 +98,13 @@ def residual_confounding(
     >>> check.flagged, round(check.spline, 1)
     (True, 1.0)
     """
+    plan = _spline_model(design, terms, node, raw, knots, near, summary)
+    if plan is not None:  # the linear model is ``near`` itself: only the spline is fitted
+        for _ in range(2):
+            if on_fit is not None:
+                on_fit()
+        spline = fit_model(design, plan.model, summary=summary, rows=rows, consume=True)
+        return plan.result(spline, change_guide)
     nan = float("nan")
     others = [t for t in design.blocks if t in set(terms) and t != node]
     cols = [*design.exposure_index, *(j for t in others for j in design.blocks[t].index)]
@@ -113,12 +120,7 @@ def residual_confounding(
     start = None if near is None else start_from(near, lin_names, given=same)
     if on_fit is not None:
         on_fit()
-    # A node that enters linearly makes the linear model the one ``near`` already
-    # is, its columns in another order: no need to fit it again.
-    same_model = None if block.raw is not None or near is None else reordered(near, lin_names)
-    linear = same_model or fit_extra(
-        design, cols, [raw], lin_names, start=start, summary=summary, rows=rows
-    )
+    linear = fit_extra(design, cols, [raw], lin_names, start=start, summary=summary, rows=rows)
     if isinstance(linear, str):
         return ResidualCheck(node, knots, nan, nan, nan, False, linear)
     spl_names = [*names, *(f"{node}[spline {j + 1}]" for j in range(basis.shape[1]))]
