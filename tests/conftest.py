@@ -14,7 +14,7 @@ os.environ.setdefault("MPLBACKEND", "Agg")
 import json
 import math
 import random
-from collections.abc import Callable
+from collections.abc import Callable, Sequence
 from functools import partial
 from pathlib import Path
 from types import SimpleNamespace as Ns
@@ -256,3 +256,22 @@ def count_calls(monkeypatch: pytest.MonkeyPatch) -> Callable[[Any, str], list[in
         return calls
 
     return count
+
+
+def _path_open(G: nx.DiGraph, p: Sequence[str], z: set[str]) -> bool:
+    """Whether the path ``p`` of diagram ``G`` is open given ``z``, by the
+    definition of d-separation (Pearl 2009, ch. 1; the chapter from memory):
+    every collider in ``z`` or with a descendant in it, no other node in ``z``.
+    The reference the graph code is held to."""
+    anz = set(z).union(*(nx.ancestors(G, v) for v in z)) if z else set()
+    for i in range(1, len(p) - 1):
+        collider = G.has_edge(p[i - 1], p[i]) and G.has_edge(p[i + 1], p[i])
+        if (p[i] not in anz) if collider else (p[i] in z):
+            return False
+    return True
+
+
+@pytest.fixture
+def path_open() -> Callable[[nx.DiGraph, Sequence[str], set[str]], bool]:
+    """The reference test of an open path (`_path_open`)."""
+    return _path_open
